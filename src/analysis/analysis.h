@@ -1,0 +1,51 @@
+/* Analyses on a parsed circuit: preparation (internal nodes, pattern, KLU analysis), the
+ * Newton operating point with its fallbacks, DC sweeps, AC sweeps and stage figures. */
+#ifndef SS_ANALYSIS_H
+#define SS_ANALYSIS_H
+
+#include "devices/device.h"
+#include "mna/mna.h"
+#include "netlist/circuit.h"
+#include "util/table.h"
+
+/* Builds internal nodes, branch unknowns, the matrix pattern and the symbolic analysis once.
+ * Checks the topology first (no DC path to ground, loops of voltage sources). */
+SS_HIDDEN ss_status analysis_prepare(ss_circuit *ckt, ss_error *err);
+/* Applies the circuit temperature to every device's parameters. */
+SS_HIDDEN void analysis_apply_temp(ss_circuit *ckt);
+SS_HIDDEN double analysis_vt(const ss_circuit *ckt);
+
+/* Newton solve from x (in/out) at the given source scale; first_mode says how the first
+ * iteration treats junction voltages. */
+typedef struct newton_params {
+    double gmin_extra_s; /* added from every node to ground (gmin stepping) */
+    double src_scale;
+    enum load_mode first_mode;
+    int max_iter;
+} newton_params;
+
+typedef struct newton_result {
+    int iterations;
+    int worst_unknown;
+    double worst_delta;
+    int bad_unknown; /* singular pivot */
+} newton_result;
+
+SS_HIDDEN ss_status newton_solve(ss_circuit *ckt, double *x, const newton_params *np,
+                                 newton_result *res);
+/* Full operating point with fallbacks into ckt->x_op; stats optional. */
+SS_HIDDEN ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err);
+/* Formats a singular-matrix error naming the unknown. */
+SS_HIDDEN ss_status report_singular(ss_circuit *ckt, int bad_unknown, const char *during,
+                                    ss_error *err);
+/* Max |KCL residual| of x over node rows (devices re-evaluated at x, no limiting); *worst
+ * gets the node unknown. */
+SS_HIDDEN double op_kcl_residual(ss_circuit *ckt, const double *x, int *worst);
+
+/* AC: one complex solve at omega with the given source selection; result in ckt->work_zrhs. */
+SS_HIDDEN ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
+                                   int all_src_off, int inject_node, ss_error *err);
+SS_HIDDEN ss_status ac_frequencies(const ss_circuit *ckt, double **out_freqs, int *out_n,
+                                   ss_error *err);
+
+#endif

@@ -1,0 +1,103 @@
+/* DC sweep of one source (optionally nested in a second): each point starts from the last
+ * solution; a point that fails falls back to a full operating-point solve. */
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "analysis/analysis.h"
+
+static int sweep_points(const dc_sweep_spec *s)
+{
+    return (int)floor((s->stop - s->start) / s->step + 1e-9) + 1;
+}
+
+static element *sweep_source(ss_circuit *ckt, const dc_sweep_spec *s, ss_error *err)
+{
+    int idx = circuit_find_elem(ckt, s->src);
+    if (idx < 0 || (ckt->elem[idx].ops->letter != 'v' && ckt->elem[idx].ops->letter != 'i')) {
+        err_set(err, SS_ERR_INPUT, s->file, s->line,
+                ".dc: '%s' is not an independent voltage or current source", s->src);
+        return NULL;
+    }
+    return &ckt->elem[idx];
+}
+
+ss_status ss_dc_sweep_run(ss_circuit *ckt, ss_table **out_dc, ss_error *err)
+{
+    if (ckt->n_dc == 0)
+        return err_set(err, SS_ERR_INPUT, ckt->file, 0, "the netlist has no .dc sweep");
+    element *src[2] = {NULL, NULL};
+    for (int k = 0; k < ckt->n_dc; k++)
+        if (!(src[k] = sweep_source(ckt, &ckt->dc[k], err)))
+            return SS_ERR_INPUT;
+    int n_inner = sweep_points(&ckt->dc[0]);
+    int n_outer = ckt->n_dc == 2 ? sweep_points(&ckt->dc[1]) : 1;
+    if ((double)n_inner * n_outer > 1e7)
+        return err_set(err, SS_ERR_LIMIT, ckt->dc[0].file, ckt->dc[0].line,
+                       ".dc: more than 1e7 points in all");
+    int n_user = 0;
+    for (int node = 1; node < ckt->n_nodes; node++)
+        n_user += !ckt->node_internal[node];
+    ss_table *t = table_create(ckt->n_dc + n_user, NULL);
+    if (!t)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    int col = 0, bad = 0;
+    for (int k = 0; k < ckt->n_dc; k++)
+        bad |= table_set_col(t, col++, src[k]->name);
+    for (int node = 1; node < ckt->n_nodes; node++) {
+        if (ckt->node_internal[node])
+            continue;
+        char name[1200];
+        snprintf(name, sizeof name, "v(%s)", ckt->node_name[node]);
+        bad |= table_set_col(t, col++, name);
+    }
+    if (bad || table_reserve(t, n_inner * n_outer) != 0) {
+        ss_table_destroy(&t);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    double saved[2] = {src[0]->value, src[1] ? src[1]->value : 0.0};
+    ss_status st = SS_OK;
+    double *x = NULL;
+    for (int jo = 0; jo < n_outer && st == SS_OK; jo++) {
+        if (src[1])
+            src[1]->value = ckt->dc[1].start + jo * ckt->dc[1].step;
+        for (int ji = 0; ji < n_inner && st == SS_OK; ji++) {
+            src[0]->value = ckt->dc[0].start + ji * ckt->dc[0].step;
+            int need_full = (ji == 0 && jo == 0) || !x;
+            if (!need_full) {
+                newton_params np = {0.0, 1.0, LOAD_FROM_X, ckt->opt.newton_iters};
+                newton_result r;
+                if (newton_solve(ckt, x, &np, &r) != SS_OK)
+                    need_full = 1;
+            }
+            if (need_full) {
+                ss_error e2 = {0};
+                st = op_solve_into(ckt, NULL, &e2);
+                if (st != SS_OK) {
+                    err_set(err, st, e2.file, e2.line, ".dc at %s = %g%s: %s", src[0]->name,
+                            src[0]->value, src[1] ? " (outer sweep point)" : "", e2.message);
+                    break;
+                }
+                x = ckt->x_op;
+            }
+            double *row = table_add_row(t, NULL);
+            int c = 0;
+            row[c++] = src[0]->value;
+            if (src[1])
+                row[c++] = src[1]->value;
+            for (int node = 1; node < ckt->n_nodes; node++)
+                if (!ckt->node_internal[node])
+                    row[c++] = x[node - 1];
+        }
+    }
+    src[0]->value = saved[0];
+    if (src[1])
+        src[1]->value = saved[1];
+    ckt->have_op = 0; /* x_op now holds the last sweep point */
+    if (st != SS_OK) {
+        ss_table_destroy(&t);
+        return st;
+    }
+    *out_dc = t;
+    return SS_OK;
+}

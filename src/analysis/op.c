@@ -1,0 +1,317 @@
+/* DC operating point: Newton-Raphson on the MNA system with junction limiting, then gmin
+ * stepping and source stepping as fallbacks; KCL verification of the answer; op.csv rows. */
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "analysis/analysis.h"
+
+static void load_all_dc(ss_circuit *ckt, dev_load_ctx *lc)
+{
+    for (int i = 0; i < ckt->n_elem; i++) {
+        element *e = &ckt->elem[i];
+        e->ops->load_dc(e, lc);
+    }
+}
+
+ss_status newton_solve(ss_circuit *ckt, double *x, const newton_params *np, newton_result *res)
+{
+    mna *m = ckt->mna;
+    int n = ckt->n_unknowns, nnz = mna_nnz(m);
+    int n_node_unknowns = ckt->n_nodes - 1;
+    double *G = mna_values(m);
+    double *rhs = ckt->work_rhs;
+    const ss_options_set *o = &ckt->opt;
+    memset(res, 0, sizeof *res);
+    res->worst_unknown = -1;
+    res->bad_unknown = -1;
+    for (int it = 0; it < np->max_iter; it++) {
+        memset(G, 0, (size_t)nnz * sizeof *G);
+        memset(rhs, 0, (size_t)n * sizeof *rhs);
+        dev_load_ctx lc = {G,
+                           rhs,
+                           x,
+                           o->gmin,
+                           np->src_scale,
+                           analysis_vt(ckt),
+                           it == 0 ? np->first_mode : LOAD_NORMAL,
+                           0};
+        load_all_dc(ckt, &lc);
+        if (np->gmin_extra_s > 0.0)
+            for (int u = 0; u < n_node_unknowns; u++)
+                G[mna_diag_slot(m, u)] += np->gmin_extra_s;
+        int bad;
+        double rcond;
+        ss_status st = mna_solve_real(m, rhs, &bad, &rcond);
+        res->iterations = it + 1;
+        ckt->last_rcond = rcond;
+        if (st != SS_OK) {
+            res->bad_unknown = bad;
+            return st;
+        }
+        /* convergence: every unknown moved less than tol_rel of its size plus the absolute
+         * tolerance of its kind (volts for nodes, amperes for branch currents) */
+        double worst = 0.0;
+        int worst_u = -1, finite = 1;
+        for (int u = 0; u < n; u++) {
+            double xn = rhs[u], xo = x[u];
+            if (!isfinite(xn)) {
+                finite = 0;
+                worst_u = u;
+                break;
+            }
+            double tol = o->tol_rel * fmax(fabs(xn), fabs(xo)) +
+                         (u < n_node_unknowns ? o->tol_v : o->tol_i);
+            double ratio = fabs(xn - xo) / tol;
+            if (ratio > worst) {
+                worst = ratio;
+                worst_u = u;
+            }
+        }
+        res->worst_unknown = worst_u;
+        res->worst_delta = finite && worst_u >= 0 ? fabs(rhs[worst_u] - x[worst_u]) : HUGE_VAL;
+        if (!finite)
+            return SS_ERR_NO_CONVERGENCE;
+        memcpy(x, rhs, (size_t)n * sizeof *x);
+        if (worst <= 1.0 && !lc.limited && (it > 0 || np->first_mode == LOAD_FROM_X))
+            return SS_OK;
+    }
+    return SS_ERR_NO_CONVERGENCE;
+}
+
+double op_kcl_residual(ss_circuit *ckt, const double *x, int *worst)
+{
+    mna *m = ckt->mna;
+    int n = ckt->n_unknowns, nnz = mna_nnz(m);
+    double *G = mna_values(m);
+    double *rhs = ckt->work_rhs;
+    memset(G, 0, (size_t)nnz * sizeof *G);
+    memset(rhs, 0, (size_t)n * sizeof *rhs);
+    dev_load_ctx lc = {G, rhs, x, ckt->opt.gmin, 1.0, analysis_vt(ckt), LOAD_FROM_X, 0};
+    load_all_dc(ckt, &lc);
+    /* residual r = G x - rhs: the companion model is exact at its own linearisation point */
+    const int *Ap = mna_colptr(m), *Ai = mna_rowidx(m);
+    double *r = ckt->work_x;
+    for (int u = 0; u < n; u++)
+        r[u] = -rhs[u];
+    for (int j = 0; j < n; j++)
+        for (int q = Ap[j]; q < Ap[j + 1]; q++)
+            r[Ai[q]] += G[q] * x[j];
+    double max = 0.0;
+    *worst = -1;
+    for (int u = 0; u < ckt->n_nodes - 1; u++) {
+        if (fabs(r[u]) > max || !isfinite(r[u])) {
+            max = isfinite(r[u]) ? fabs(r[u]) : HUGE_VAL;
+            *worst = u;
+        }
+    }
+    return max;
+}
+
+static ss_status nonconvergence_error(ss_circuit *ckt, const newton_result *r, int total_iters,
+                                      ss_error *err)
+{
+    char what[1200] = "an unknown";
+    if (r->worst_unknown >= 0)
+        circuit_unknown_name(ckt, r->worst_unknown, what, sizeof what);
+    return err_set(err, SS_ERR_NO_CONVERGENCE, ckt->file, 0,
+                   "no DC operating point found after %d Newton iterations (plain Newton, gmin "
+                   "stepping and source stepping all tried); worst: %s, last change %.3g. Check "
+                   "the supply and bias values, or raise .options newton_iters",
+                   total_iters, what, r->worst_delta);
+}
+
+/* Gmin stepping: a conductance from every node to ground, started large and cut tenfold per
+ * step down to nothing, each solve starting from the last (docs/models.md). */
+static ss_status gmin_stepping(ss_circuit *ckt, double *x, int *iters, int *steps,
+                               newton_result *last)
+{
+    int n = ckt->n_unknowns;
+    memset(x, 0, (size_t)n * sizeof *x);
+    newton_params np = {1e-2, 1.0, LOAD_INIT_JUNCTION, ckt->opt.newton_iters};
+    double factor = 10.0;
+    double *saved = ckt->work_x;
+    for (;;) {
+        memcpy(saved, x, (size_t)n * sizeof *x);
+        ss_status st = newton_solve(ckt, x, &np, last);
+        *iters += last->iterations;
+        (*steps)++;
+        if (st == SS_ERR_SINGULAR || st == SS_ERR_NOMEM)
+            return st;
+        if (st != SS_OK) {
+            if (np.first_mode == LOAD_INIT_JUNCTION || factor < 1.01)
+                return st;
+            memcpy(x, saved, (size_t)n * sizeof *x);
+            np.gmin_extra_s *= factor;  /* back to the last good value ... */
+            factor = sqrt(factor);      /* ... and approach in smaller steps */
+            np.gmin_extra_s /= factor;
+            continue;
+        }
+        if (np.gmin_extra_s == 0.0)
+            return SS_OK;
+        np.first_mode = LOAD_FROM_X;
+        np.gmin_extra_s /= factor;
+        if (np.gmin_extra_s < ckt->opt.gmin * 1e-2)
+            np.gmin_extra_s = 0.0;
+        if (*steps > 200)
+            return SS_ERR_NO_CONVERGENCE;
+    }
+}
+
+/* Source stepping: every independent source scaled by lambda from 0 to 1, the step grown on
+ * success and cut on failure (docs/models.md). */
+static ss_status source_stepping(ss_circuit *ckt, double *x, int *iters, int *steps,
+                                 newton_result *last)
+{
+    int n = ckt->n_unknowns;
+    memset(x, 0, (size_t)n * sizeof *x);
+    newton_params np = {0.0, 0.0, LOAD_INIT_JUNCTION, ckt->opt.newton_iters};
+    ss_status st = newton_solve(ckt, x, &np, last);
+    *iters += last->iterations;
+    if (st != SS_OK)
+        return st;
+    double lambda = 0.0, step = 0.05;
+    double *saved = ckt->work_x;
+    while (lambda < 1.0) {
+        double next = fmin(1.0, lambda + step);
+        memcpy(saved, x, (size_t)n * sizeof *x);
+        np.src_scale = next;
+        np.first_mode = LOAD_FROM_X;
+        st = newton_solve(ckt, x, &np, last);
+        *iters += last->iterations;
+        (*steps)++;
+        if (st == SS_ERR_SINGULAR || st == SS_ERR_NOMEM)
+            return st;
+        if (st == SS_OK) {
+            lambda = next;
+            step = fmin(step * 2.0, 0.25);
+        } else {
+            memcpy(x, saved, (size_t)n * sizeof *x);
+            step /= 4.0;
+            if (step < 1e-7 || *steps > 2000)
+                return SS_ERR_NO_CONVERGENCE;
+        }
+    }
+    return SS_OK;
+}
+
+/* KCL check of a converged answer against the device equations (no silent wrong number). */
+static ss_status verify_kcl(ss_circuit *ckt, const double *x, ss_error *err)
+{
+    int worst;
+    double res = op_kcl_residual(ckt, x, &worst);
+    /* a converged Newton step leaves a residual of about the conductance times the last
+     * voltage change; allow that plus the current tolerance */
+    double allowed = 1e-6 + 1e3 * ckt->opt.tol_i;
+    if (res <= allowed)
+        return SS_OK;
+    char what[1200] = "a node";
+    if (worst >= 0)
+        circuit_unknown_name(ckt, worst, what, sizeof what);
+    return err_set(err, SS_ERR_NO_CONVERGENCE, ckt->file, 0,
+                   "the operating point fails Kirchhoff's current law at %s by %.3g A; refusing "
+                   "to report it",
+                   what, res);
+}
+
+ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err)
+{
+    ss_status st = analysis_prepare(ckt, err);
+    if (st != SS_OK)
+        return st;
+    analysis_apply_temp(ckt);
+    int n = ckt->n_unknowns;
+    double *x = ckt->x_op;
+    ss_op_stats s = {0, 0, 0};
+    newton_result r;
+    memset(x, 0, (size_t)n * sizeof *x);
+    newton_params np = {0.0, 1.0, LOAD_INIT_JUNCTION, ckt->opt.newton_iters};
+    st = newton_solve(ckt, x, &np, &r);
+    s.newton_iterations += r.iterations;
+    if (st == SS_ERR_NO_CONVERGENCE)
+        st = gmin_stepping(ckt, x, &s.newton_iterations, &s.gmin_steps, &r);
+    if (st == SS_ERR_NO_CONVERGENCE)
+        st = source_stepping(ckt, x, &s.newton_iterations, &s.source_steps, &r);
+    ckt->have_op = 0;
+    if (st == SS_ERR_SINGULAR)
+        return report_singular(ckt, r.bad_unknown, "solving the operating point", err);
+    if (st == SS_ERR_NOMEM)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    if (st != SS_OK)
+        return nonconvergence_error(ckt, &r, s.newton_iterations, err);
+    st = verify_kcl(ckt, x, err);
+    if (st != SS_OK)
+        return st;
+    if (ckt->last_rcond < MNA_RCOND_WARN)
+        circuit_warn(ckt,
+                     "operating point: the matrix is nearly singular (reciprocal condition "
+                     "%.2g); look for very large next to very small resistances or an almost "
+                     "floating node",
+                     ckt->last_rcond);
+    ckt->have_op = 1;
+    if (stats)
+        *stats = s;
+    return SS_OK;
+}
+
+/* ---- op.csv rows ----------------------------------------------------------------------- */
+
+typedef struct op_sink {
+    ss_table *t;
+    int failed;
+} op_sink;
+
+static void sink_row(void *vs, const char *quantity, const char *elem_name, double value)
+{
+    op_sink *s = vs;
+    char label[1200];
+    snprintf(label, sizeof label, "%s(%s)", quantity, elem_name);
+    double *row = table_add_row(s->t, label);
+    if (!row)
+        s->failed = 1;
+    else
+        row[0] = value;
+}
+
+static ss_status op_table(ss_circuit *ckt, ss_table **out, ss_error *err)
+{
+    ss_table *t = table_create(1, "quantity");
+    if (!t || table_set_col(t, 0, "value") != 0) {
+        ss_table_destroy(&t);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    op_sink s = {t, 0};
+    for (int node = 1; node < ckt->n_nodes; node++) {
+        if (ckt->node_internal[node])
+            continue;
+        char label[1200];
+        snprintf(label, sizeof label, "v(%s)", ckt->node_name[node]);
+        double *row = table_add_row(t, label);
+        if (!row)
+            s.failed = 1;
+        else
+            row[0] = ckt->x_op[node - 1];
+    }
+    static const char order[] = {'v', 'q', 'd'};
+    double vt = analysis_vt(ckt);
+    for (size_t k = 0; k < sizeof order; k++)
+        for (int i = 0; i < ckt->n_elem; i++) {
+            const element *e = &ckt->elem[i];
+            if (e->ops->letter == order[k] && e->ops->report)
+                e->ops->report(e, ckt->x_op, vt, ckt->opt.gmin, sink_row, &s);
+        }
+    if (s.failed) {
+        ss_table_destroy(&t);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    *out = t;
+    return SS_OK;
+}
+
+ss_status ss_op_solve(ss_circuit *ckt, ss_table **out_op, ss_op_stats *stats, ss_error *err)
+{
+    ss_status st = op_solve_into(ckt, stats, err);
+    if (st != SS_OK || !out_op)
+        return st;
+    return op_table(ckt, out_op, err);
+}

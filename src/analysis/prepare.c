@@ -1,0 +1,195 @@
+/* Circuit preparation: device setup (internal nodes, branch currents), topology checks with
+ * clear names, slot claims, the sparse pattern and klu_analyze -- once per circuit. */
+#include <stdio.h>
+#include <string.h>
+
+#include "analysis/analysis.h"
+
+typedef struct setup_owner {
+    ss_circuit *ckt;
+    int n_branches;
+    int failed;
+} setup_owner;
+
+static int cb_new_node(void *owner, const element *e, const char *suffix)
+{
+    setup_owner *so = owner;
+    char name[1100];
+    snprintf(name, sizeof name, "%s#%s", e->name, suffix);
+    int idx = circuit_add_node(so->ckt, name, 1);
+    if (idx < 0)
+        so->failed = 1;
+    return idx < 0 ? 0 : idx;
+}
+
+static int cb_new_branch(void *owner)
+{
+    setup_owner *so = owner;
+    return so->n_branches++;
+}
+
+static int cb_claim(void *owner, int row, int col)
+{
+    return mna_claim(((setup_owner *)owner)->ckt->mna, row, col);
+}
+
+/* ---- topology checks (union-find over nodes) ------------------------------------------- */
+
+static int uf_find(int *parent, int a)
+{
+    while (parent[a] != a) {
+        parent[a] = parent[parent[a]];
+        a = parent[a];
+    }
+    return a;
+}
+
+static void uf_union(int *parent, int a, int b) { parent[uf_find(parent, a)] = uf_find(parent, b); }
+
+/* Which element kinds fix a voltage between their first two nodes (so a loop of them is
+ * contradictory), and which conduct at DC between which terminals. */
+static int defines_voltage(const element *e)
+{
+    char l = e->ops->letter;
+    return l == 'v' || l == 'e' || l == 'h' || l == 'l';
+}
+
+static int conducts_dc(const element *e)
+{
+    char l = e->ops->letter;
+    return l == 'r' || l == 'd' || l == 'q' || defines_voltage(e);
+}
+
+static ss_status check_topology(ss_circuit *ckt, ss_error *err)
+{
+    int n = ckt->n_nodes;
+    int *vloop = ss_alloc((size_t)n * sizeof *vloop);
+    int *dcpath = ss_alloc((size_t)n * sizeof *dcpath);
+    if (!vloop || !dcpath) {
+        ss_free(vloop);
+        ss_free(dcpath);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    for (int i = 0; i < n; i++)
+        vloop[i] = dcpath[i] = i;
+    ss_status st = SS_OK;
+    for (int i = 0; i < ckt->n_elem && st == SS_OK; i++) {
+        const element *e = &ckt->elem[i];
+        if (defines_voltage(e)) {
+            int a = e->node[0], b = e->node[1];
+            if (uf_find(vloop, a) == uf_find(vloop, b))
+                st = err_set(err, SS_ERR_SINGULAR, e->file, e->line,
+                             "%s: closes a loop of voltage sources and inductors between nodes "
+                             "'%s' and '%s' (the loop's current is undetermined at DC)",
+                             e->name, ckt->node_name[a], ckt->node_name[b]);
+            uf_union(vloop, a, b);
+        }
+        if (conducts_dc(e)) {
+            int n_conn = e->ops->letter == 'q' ? 3 : 2;
+            for (int k = 1; k < n_conn; k++)
+                uf_union(dcpath, e->node[0], e->node[k]);
+        }
+    }
+    for (int node = 1; node < n && st == SS_OK; node++) {
+        if (ckt->node_internal[node] || uf_find(dcpath, node) == uf_find(dcpath, 0))
+            continue;
+        /* name an element on the node for the location */
+        const element *on = NULL;
+        for (int i = 0; i < ckt->n_elem && !on; i++)
+            for (int k = 0; k < ckt->elem[i].n_node; k++)
+                if (ckt->elem[i].node[k] == node)
+                    on = &ckt->elem[i];
+        st = err_set(err, SS_ERR_SINGULAR, on ? on->file : ckt->file, on ? on->line : 0,
+                     "node '%s' has no DC path to ground (it connects only through "
+                     "capacitors, current sources or controlling inputs%s%s)",
+                     ckt->node_name[node], on ? "; see " : "", on ? on->name : "");
+    }
+    ss_free(vloop);
+    ss_free(dcpath);
+    return st;
+}
+
+double analysis_vt(const ss_circuit *ckt)
+{
+    return thermal_voltage_v(ckt->temp_c + SS_ZERO_C_IN_K);
+}
+
+void analysis_apply_temp(ss_circuit *ckt)
+{
+    double temp_k = ckt->temp_c + SS_ZERO_C_IN_K;
+    for (int i = 0; i < ckt->n_elem; i++) {
+        element *e = &ckt->elem[i];
+        if (e->ops->temp)
+            e->ops->temp(e, temp_k);
+    }
+    ckt->temp_applied_k = temp_k;
+}
+
+ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
+{
+    if (ckt->prepared)
+        return SS_OK;
+    ss_status st = check_topology(ckt, err);
+    if (st != SS_OK)
+        return st;
+    setup_owner so = {ckt, 0, 0};
+    dev_setup_ctx sc = {&so, cb_new_node, cb_new_branch, cb_claim, 0};
+    for (int i = 0; i < ckt->n_elem; i++) {
+        element *e = &ckt->elem[i];
+        e->inode[0] = e->node[0];
+        e->inode[1] = e->node[1];
+        e->inode[2] = e->node[2];
+        if (e->ops->setup)
+            e->ops->setup(e, &sc);
+    }
+    if (so.failed)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    int n_node_unknowns = ckt->n_nodes - 1;
+    for (int i = 0; i < ckt->n_elem; i++)
+        if (ckt->elem[i].branch >= 0)
+            ckt->elem[i].branch += n_node_unknowns;
+    ckt->n_branches = so.n_branches;
+    ckt->n_unknowns = n_node_unknowns + so.n_branches;
+    if (ckt->n_unknowns <= 0)
+        return err_set(err, SS_ERR_INPUT, ckt->file, 0, "the circuit has no nodes besides ground");
+    size_t n = (size_t)ckt->n_unknowns;
+    ckt->mna = mna_create(ckt->n_unknowns);
+    ckt->x_op = ss_alloc(n * sizeof *ckt->x_op);
+    ckt->work_rhs = ss_alloc(n * sizeof *ckt->work_rhs);
+    ckt->work_x = ss_alloc(n * sizeof *ckt->work_x);
+    ckt->work_zrhs = ss_alloc(n * sizeof *ckt->work_zrhs);
+    ckt->work_zx = ss_alloc(n * sizeof *ckt->work_zx);
+    if (!ckt->mna || !ckt->x_op || !ckt->work_rhs || !ckt->work_x || !ckt->work_zrhs ||
+        !ckt->work_zx)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    for (int i = 0; i < ckt->n_elem; i++) {
+        element *e = &ckt->elem[i];
+        e->ops->claim(e, ckt, &sc);
+    }
+    if (mna_claim_failed(ckt->mna))
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    int bad = -1;
+    st = mna_finalize(ckt->mna, &bad);
+    if (st == SS_ERR_SINGULAR)
+        return report_singular(ckt, bad, "setting up", err);
+    if (st != SS_OK)
+        return err_set(err, st, NULL, 0, "matrix setup failed: %s", ss_status_name(st));
+    for (int i = 0; i < ckt->n_elem; i++) {
+        element *e = &ckt->elem[i];
+        for (int k = 0; k < e->n_slot; k++)
+            e->slot[k] = mna_slot(ckt->mna, e->slot[k]);
+    }
+    ckt->prepared = 1;
+    return SS_OK;
+}
+
+ss_status report_singular(ss_circuit *ckt, int bad_unknown, const char *during, ss_error *err)
+{
+    char what[1200] = "an unknown";
+    if (bad_unknown >= 0 && bad_unknown < ckt->n_unknowns)
+        circuit_unknown_name(ckt, bad_unknown, what, sizeof what);
+    return err_set(err, SS_ERR_SINGULAR, ckt->file, 0,
+                   "the circuit matrix is singular at %s while %s: check for a floating node, a "
+                   "loop of voltage sources or a controlled source that cancels itself",
+                   what, during);
+}

@@ -1,0 +1,333 @@
+/* Bipolar transistor (NPN/PNP): Gummel-Poon DC model with ohmic RB/RE/RC as internal nodes,
+ * temperature and area scaling, and its hybrid-pi linearisation. Matrix storage is src/mna's. */
+#include <math.h>
+#include <string.h>
+
+#include "devices/device.h"
+#include "devices/junction.h"
+
+/* Parameter order of the model card: ORDER BJT_PARAM (keep bjt_params[] in step). */
+enum {
+    BP_IS, BP_BF, BP_NF, BP_VAF, BP_IKF, BP_ISE, BP_NE, BP_BR, BP_NR, BP_VAR, BP_IKR, BP_ISC,
+    BP_NC, BP_RB, BP_RE, BP_RC, BP_CJE, BP_VJE, BP_MJE, BP_CJC, BP_VJC, BP_MJC, BP_FC, BP_TF,
+    BP_TR, BP_XTB, BP_XTI, BP_EG, BP_TNOM, BP_KF, BP_AF, BP_COUNT
+};
+
+/* Published names and defaults (Nagel 1975; Getreu 1976; docs/models.md). HUGE_VAL marks a
+ * term that is absent; a card value of 0 for VAF VAR IKF IKR also means absent. */
+/* ORDER BJT_PARAM */
+static const dev_model_param bjt_params[BP_COUNT] = {
+    {"is", 1e-16},      {"bf", 100.0},      {"nf", 1.0},    {"vaf", HUGE_VAL},
+    {"ikf", HUGE_VAL},  {"ise", 0.0},       {"ne", 1.5},    {"br", 1.0},
+    {"nr", 1.0},        {"var", HUGE_VAL},  {"ikr", HUGE_VAL}, {"isc", 0.0},
+    {"nc", 2.0},        {"rb", 0.0},        {"re", 0.0},    {"rc", 0.0},
+    {"cje", 0.0},       {"vje", 0.75},      {"mje", 0.33},  {"cjc", 0.0},
+    {"vjc", 0.75},      {"mjc", 0.33},      {"fc", 0.5},    {"tf", 0.0},
+    {"tr", 0.0},        {"xtb", 0.0},       {"xti", 3.0},   {"eg", 1.11},
+    {"tnom", SS_TNOM_DEFAULT_C}, {"kf", 0.0}, {"af", 1.0},
+};
+
+/* Slot layout: three resistor pairs, then the 3x3 core on (c', b', e'). */
+enum { SL_RC = 0, SL_RB = 4, SL_RE = 8, SL_CORE = 12, SL_COUNT = 21 };
+enum { TC = 0, TB = 1, TE = 2 };
+/* state[] */
+enum { ST_VBE = 0, ST_VBC = 1 };
+
+static double polarity(const element *e) { return e->mod->type == MODEL_PNP ? -1.0 : 1.0; }
+
+static int bjt_parse(pctx *p, element *e)
+{
+    /* Qname c b e [s] model [area] */
+    int n = pctx_ntok(p);
+    if (n < 5)
+        return pctx_error(p, "needs collector, base, emitter nodes and a model");
+    int model_tok = 4;
+    if (!pctx_is_model(p, pctx_tok(p, 4))) {
+        if (n >= 6 && pctx_is_model(p, pctx_tok(p, 5)))
+            model_tok = 5; /* substrate node given: accepted, not modelled in this version */
+    }
+    for (int i = 1; i < model_tok && i <= 3; i++) {
+        e->node[i - 1] = pctx_node(p, pctx_tok(p, i));
+        if (e->node[i - 1] < 0)
+            return -1;
+    }
+    e->n_node = 3;
+    e->mod = pctx_model(p, pctx_tok(p, model_tok), (1u << MODEL_NPN) | (1u << MODEL_PNP));
+    if (!e->mod)
+        return -1;
+    e->area = 1.0;
+    if (n > model_tok + 1) {
+        const char *t = pctx_tok(p, model_tok + 1);
+        if (strncmp(t, "area", 4) == 0 && pctx_tok(p, model_tok + 2) &&
+            strcmp(pctx_tok(p, model_tok + 2), "=") == 0)
+            t = pctx_tok(p, model_tok + 3);
+        if (!t || pctx_value(p, t, "area", &e->area) != 0)
+            return -1;
+        if (!(e->area > 0.0))
+            return pctx_error(p, "area must be positive, got %g", e->area);
+    }
+    return 0;
+}
+
+static void bjt_setup(element *e, dev_setup_ctx *sc)
+{
+    const double *mp = e->mod->p;
+    e->inode[TC] = mp[BP_RC] > 0.0 ? sc->new_node(sc->owner, e, "c") : e->node[TC];
+    e->inode[TB] = mp[BP_RB] > 0.0 ? sc->new_node(sc->owner, e, "b") : e->node[TB];
+    e->inode[TE] = mp[BP_RE] > 0.0 ? sc->new_node(sc->owner, e, "e") : e->node[TE];
+}
+
+static void bjt_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+{
+    (void)ckt;
+    for (int i = 0; i < SL_COUNT; i++)
+        e->slot[i] = -1;
+    e->n_slot = SL_COUNT;
+    for (int t = 0; t < 3; t++) {
+        static const int pair_of[3] = {SL_RC, SL_RB, SL_RE};
+        if (e->inode[t] != e->node[t])
+            claim_pair(e, sc, pair_of[t], e->node[t], e->inode[t]);
+    }
+    for (int r = 0; r < 3; r++)
+        for (int c = 0; c < 3; c++)
+            e->slot[SL_CORE + 3 * r + c] =
+                sc->claim(sc->owner, node_unknown(e->inode[r]), node_unknown(e->inode[c]));
+}
+
+static double inf_if_zero(double v) { return v == 0.0 ? HUGE_VAL : v; }
+
+static void bjt_temp(element *e, double temp_k)
+{
+    const double *mp = e->mod->p;
+    double *tp = e->tp;
+    memcpy(tp, mp, sizeof e->tp);
+    double tnom_k = mp[BP_TNOM] + SS_ZERO_C_IN_K;
+    double vt = thermal_voltage_v(temp_k);
+    double r = temp_k / tnom_k;
+    /* temperature laws: docs/models.md (Getreu 1976 as tabulated by Antognetti & Massobrio) */
+    double is_ratio = pow(r, mp[BP_XTI]) * exp((r - 1.0) * mp[BP_EG] / vt);
+    double beta_f = pow(r, mp[BP_XTB]);
+    tp[BP_IS] = mp[BP_IS] * is_ratio;
+    tp[BP_BF] = mp[BP_BF] * beta_f;
+    tp[BP_BR] = mp[BP_BR] * beta_f;
+    tp[BP_ISE] = mp[BP_ISE] / beta_f * pow(is_ratio, 1.0 / mp[BP_NE]);
+    tp[BP_ISC] = mp[BP_ISC] / beta_f * pow(is_ratio, 1.0 / mp[BP_NC]);
+    junction_temp_vj_cj(mp[BP_VJE], mp[BP_CJE], mp[BP_MJE], temp_k, tnom_k, vt, &tp[BP_VJE],
+                        &tp[BP_CJE]);
+    junction_temp_vj_cj(mp[BP_VJC], mp[BP_CJC], mp[BP_MJC], temp_k, tnom_k, vt, &tp[BP_VJC],
+                        &tp[BP_CJC]);
+    /* area scaling (docs/models.md) */
+    double a = e->area;
+    tp[BP_IS] *= a;
+    tp[BP_ISE] *= a;
+    tp[BP_ISC] *= a;
+    tp[BP_IKF] = inf_if_zero(mp[BP_IKF]) * a;
+    tp[BP_IKR] = inf_if_zero(mp[BP_IKR]) * a;
+    tp[BP_CJE] *= a;
+    tp[BP_CJC] *= a;
+    tp[BP_RB] = mp[BP_RB] / a;
+    tp[BP_RE] = mp[BP_RE] / a;
+    tp[BP_RC] = mp[BP_RC] / a;
+    tp[BP_VAF] = inf_if_zero(mp[BP_VAF]);
+    tp[BP_VAR] = inf_if_zero(mp[BP_VAR]);
+}
+
+/* Model currents (NPN sense) and their derivatives at internal junction voltages. */
+typedef struct bjt_eval_out {
+    double ic, ib;       /* into collector and base */
+    double gce, gcc;     /* dic/dvbe, dic/dvbc */
+    double gbe, gbc;     /* dib/dvbe, dib/dvbc */
+    double if_a, qb;     /* forward diffusion current and base charge (for diffusion cap) */
+    double dqb_dvbe;
+    double gif;
+} bjt_eval_out;
+
+/* Gummel-Poon DC equations: docs/models.md sec. BJT, after Gummel & Poon 1970 and the
+ * parameterisation of Nagel 1975 / Getreu 1976. gmin sits across each internal junction. */
+static void bjt_eval(const double *tp, double vt, double gmin, double vbe, double vbc,
+                     bjt_eval_out *o)
+{
+    double gif, gir, gbe2 = 0.0, gbc2 = 0.0, ibe2 = 0.0, ibc2 = 0.0;
+    double i_f = junction_current(tp[BP_IS], vbe, tp[BP_NF] * vt, &gif);
+    double i_r = junction_current(tp[BP_IS], vbc, tp[BP_NR] * vt, &gir);
+    if (tp[BP_ISE] > 0.0)
+        ibe2 = junction_current(tp[BP_ISE], vbe, tp[BP_NE] * vt, &gbe2);
+    if (tp[BP_ISC] > 0.0)
+        ibc2 = junction_current(tp[BP_ISC], vbc, tp[BP_NC] * vt, &gbc2);
+
+    /* base charge: q1 = 1/(1 - vbc/VAF - vbe/VAR), q2 = IF/IKF + IR/IKR,
+     * qb = q1/2 (1 + sqrt(1 + 4 q2)) */
+    double inv_vaf = 1.0 / tp[BP_VAF], inv_var = 1.0 / tp[BP_VAR];
+    double den = 1.0 - vbc * inv_vaf - vbe * inv_var;
+    double dq1_dvbe = 0.0, dq1_dvbc = 0.0, q1;
+    if (den < 1e-4) { /* far outside the model's range: hold q1 so the step stays finite */
+        q1 = 1e4;
+    } else {
+        q1 = 1.0 / den;
+        dq1_dvbe = q1 * q1 * inv_var;
+        dq1_dvbc = q1 * q1 * inv_vaf;
+    }
+    double inv_ikf = 1.0 / tp[BP_IKF], inv_ikr = 1.0 / tp[BP_IKR];
+    double q2 = i_f * inv_ikf + i_r * inv_ikr;
+    double s = sqrt(fmax(1.0 + 4.0 * q2, 1e-12));
+    double qb = 0.5 * q1 * (1.0 + s);
+    double dqb_dvbe = dq1_dvbe * qb / q1 + q1 * gif * inv_ikf / s;
+    double dqb_dvbc = dq1_dvbc * qb / q1 + q1 * gir * inv_ikr / s;
+
+    double ict = (i_f - i_r) / qb; /* transport current */
+    double br = tp[BP_BR], bf = tp[BP_BF];
+    o->ic = ict - i_r / br - ibc2 - gmin * vbc;
+    o->ib = i_f / bf + ibe2 + i_r / br + ibc2 + gmin * (vbe + vbc);
+    o->gce = gif / qb - ict / qb * dqb_dvbe;
+    o->gcc = -gir / qb - ict / qb * dqb_dvbc - gir / br - gbc2 - gmin;
+    o->gbe = gif / bf + gbe2 + gmin;
+    o->gbc = gir / br + gbc2 + gmin;
+    o->if_a = i_f;
+    o->qb = qb;
+    o->dqb_dvbe = dqb_dvbe;
+    o->gif = gif;
+}
+
+static void junction_voltages(const element *e, const double *x, double *vbe, double *vbc)
+{
+    double p = polarity(e);
+    double vb = xv(x, e->inode[TB]);
+    *vbe = p * (vb - xv(x, e->inode[TE]));
+    *vbc = p * (vb - xv(x, e->inode[TC]));
+}
+
+static void bjt_load_dc(element *e, dev_load_ctx *lc)
+{
+    const double *tp = e->tp;
+    double p = polarity(e), vt = lc->vt_v;
+    double vbe, vbc;
+    junction_voltages(e, lc->x, &vbe, &vbc);
+    double vcrit_be = junction_vcrit(tp[BP_NF] * vt, tp[BP_IS]);
+    double vcrit_bc = junction_vcrit(tp[BP_NR] * vt, tp[BP_IS]);
+    if (lc->mode == LOAD_INIT_JUNCTION) {
+        vbe = vcrit_be; /* start the emitter junction near conduction, collector off */
+        vbc = 0.0;
+    } else if (lc->mode == LOAD_NORMAL) {
+        vbe = junction_limit(vbe, e->state[ST_VBE], tp[BP_NF] * vt, vcrit_be, &lc->limited);
+        vbc = junction_limit(vbc, e->state[ST_VBC], tp[BP_NR] * vt, vcrit_bc, &lc->limited);
+    }
+    e->state[ST_VBE] = vbe;
+    e->state[ST_VBC] = vbc;
+
+    bjt_eval_out o;
+    bjt_eval(tp, vt, lc->gmin_s, vbe, vbc, &o);
+
+    /* terminal rows c', b', e' (currents into the device); columns Vc', Vb', Ve'.
+     * The polarity squares away in the conductances and stays in the equivalent currents. */
+    double jc[3] = {-o.gcc, o.gce + o.gcc, -o.gce};
+    double jb[3] = {-o.gbc, o.gbe + o.gbc, -o.gbe};
+    double ieq_c = p * (o.ic - o.gce * vbe - o.gcc * vbc);
+    double ieq_b = p * (o.ib - o.gbe * vbe - o.gbc * vbc);
+    const int *core = &e->slot[SL_CORE];
+    for (int c = 0; c < 3; c++) {
+        stamp_add(lc->G, core[3 * TC + c], jc[c]);
+        stamp_add(lc->G, core[3 * TB + c], jb[c]);
+        stamp_add(lc->G, core[3 * TE + c], -(jc[c] + jb[c]));
+    }
+    rhs_add(lc->rhs, e->inode[TC], -ieq_c);
+    rhs_add(lc->rhs, e->inode[TB], -ieq_b);
+    rhs_add(lc->rhs, e->inode[TE], ieq_c + ieq_b);
+
+    static const int pair_of[3] = {SL_RC, SL_RB, SL_RE};
+    static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
+    for (int t = 0; t < 3; t++)
+        if (e->inode[t] != e->node[t])
+            stamp_pair(lc->G, &e->slot[pair_of[t]], 1.0 / tp[r_of[t]]);
+}
+
+static void bjt_load_ac(const element *e, dev_ac_ctx *ac)
+{
+    const double *tp = e->tp;
+    double vbe, vbc;
+    junction_voltages(e, ac->x_op, &vbe, &vbc);
+    bjt_eval_out o;
+    bjt_eval(tp, ac->vt_v, ac->gmin_s, vbe, vbc, &o);
+
+    /* capacitances: depletion with the FC extension, diffusion TF d(IF/qb)/dVbe and
+     * TR dIR/dVbc (docs/models.md, hybrid-pi section) */
+    double cbe = junction_depletion_cap(vbe, tp[BP_CJE], tp[BP_VJE], tp[BP_MJE], tp[BP_FC]);
+    double cbc = junction_depletion_cap(vbc, tp[BP_CJC], tp[BP_VJC], tp[BP_MJC], tp[BP_FC]);
+    if (tp[BP_TF] > 0.0)
+        cbe += tp[BP_TF] * (o.gif / o.qb - o.if_a / (o.qb * o.qb) * o.dqb_dvbe);
+    if (tp[BP_TR] > 0.0) {
+        double gir;
+        junction_current(tp[BP_IS], vbc, tp[BP_NR] * ac->vt_v, &gir);
+        cbc += tp[BP_TR] * gir;
+    }
+    /* local 3x3 admittance on (c', b', e'): the DC Jacobian, then the two capacitors */
+    double complex y[3][3] = {{-o.gcc, o.gce + o.gcc, -o.gce}, {-o.gbc, o.gbe + o.gbc, -o.gbe}};
+    for (int c = 0; c < 3; c++)
+        y[TE][c] = -(y[TC][c] + y[TB][c]);
+    double complex ybe = SS_J * ac->omega * cbe, ybc = SS_J * ac->omega * cbc;
+    y[TB][TB] += ybe + ybc;
+    y[TE][TE] += ybe;
+    y[TB][TE] -= ybe;
+    y[TE][TB] -= ybe;
+    y[TC][TC] += ybc;
+    y[TB][TC] -= ybc;
+    y[TC][TB] -= ybc;
+    const int *core = &e->slot[SL_CORE];
+    for (int r = 0; r < 3; r++)
+        for (int c = 0; c < 3; c++)
+            zstamp_add(ac->G, core[3 * r + c], y[r][c]);
+    static const int pair_of[3] = {SL_RC, SL_RB, SL_RE};
+    static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
+    for (int t = 0; t < 3; t++)
+        if (e->inode[t] != e->node[t])
+            zstamp_pair(ac->G, &e->slot[pair_of[t]], 1.0 / tp[r_of[t]]);
+}
+
+void bjt_op_details(const element *e, const double *x, double vt_v, double gmin_s,
+                    bjt_op_info *out)
+{
+    double vbe_i, vbc_i;
+    junction_voltages(e, x, &vbe_i, &vbc_i);
+    bjt_eval_out o;
+    bjt_eval(e->tp, vt_v, gmin_s, vbe_i, vbc_i, &o);
+    double p = polarity(e);
+    out->ic_a = p * o.ic;
+    out->ib_a = p * o.ib;
+    out->ie_a = -(out->ic_a + out->ib_a);
+    out->vbe_v = xv(x, e->node[TB]) - xv(x, e->node[TE]);
+    out->vce_v = xv(x, e->node[TC]) - xv(x, e->node[TE]);
+    out->vbc_v = xv(x, e->node[TB]) - xv(x, e->node[TC]);
+    out->gm_s = o.gce;
+    out->power_w = out->ic_a * out->vce_v + out->ib_a * out->vbe_v;
+    /* regions by the (polarity-corrected) terminal junction voltages; a junction counts as
+     * forward-biased above 0.4 V (reporting threshold, docs/cli.md) */
+    int be_on = p * out->vbe_v > 0.4, bc_on = p * out->vbc_v > 0.4;
+    out->region = be_on ? (bc_on ? "saturation" : "forward active")
+                        : (bc_on ? "reverse active" : "cut-off");
+}
+
+static void bjt_report(const element *e, const double *x, double vt_v, double gmin_s,
+                       dev_report_fn fn, void *sink)
+{
+    bjt_op_info info;
+    bjt_op_details(e, x, vt_v, gmin_s, &info);
+    fn(sink, "ic", e->name, info.ic_a);
+    fn(sink, "ib", e->name, info.ib_a);
+    fn(sink, "vbe", e->name, info.vbe_v);
+    fn(sink, "vce", e->name, info.vce_v);
+    fn(sink, "gm", e->name, info.gm_s);
+}
+
+const dev_ops bjt_ops = {
+    .letter = 'q',
+    .kind_name = "bipolar transistor",
+    .parse = bjt_parse,
+    .setup = bjt_setup,
+    .claim = bjt_claim,
+    .temp = bjt_temp,
+    .load_dc = bjt_load_dc,
+    .load_ac = bjt_load_ac,
+    .report = bjt_report,
+    .value_name = NULL,
+    .model_params = bjt_params,
+    .n_model_params = BP_COUNT,
+};

@@ -1,0 +1,125 @@
+/* Helpers shared by the device files: claiming and stamping two-terminal admittances and
+ * controlled-source blocks, and parsing the common `Xname n+ n- value` line shape. */
+#include <ctype.h>
+#include <math.h>
+#include <string.h>
+
+#include "devices/passive.h"
+
+void claim_pair(element *e, dev_setup_ctx *sc, int first, int a, int b)
+{
+    int ua = node_unknown(a), ub = node_unknown(b);
+    e->slot[first + 0] = sc->claim(sc->owner, ua, ua);
+    e->slot[first + 1] = sc->claim(sc->owner, ub, ub);
+    e->slot[first + 2] = sc->claim(sc->owner, ua, ub);
+    e->slot[first + 3] = sc->claim(sc->owner, ub, ua);
+}
+
+void claim_quad(element *e, dev_setup_ctx *sc, int first, int a, int b, int c, int d)
+{
+    int ua = node_unknown(a), ub = node_unknown(b), uc = node_unknown(c), ud = node_unknown(d);
+    e->slot[first + 0] = sc->claim(sc->owner, ua, uc);
+    e->slot[first + 1] = sc->claim(sc->owner, ua, ud);
+    e->slot[first + 2] = sc->claim(sc->owner, ub, uc);
+    e->slot[first + 3] = sc->claim(sc->owner, ub, ud);
+}
+
+void stamp_pair(double *G, const int *slot4, double g)
+{
+    stamp_add(G, slot4[0], g);
+    stamp_add(G, slot4[1], g);
+    stamp_add(G, slot4[2], -g);
+    stamp_add(G, slot4[3], -g);
+}
+
+void zstamp_pair(double complex *G, const int *slot4, double complex y)
+{
+    zstamp_add(G, slot4[0], y);
+    zstamp_add(G, slot4[1], y);
+    zstamp_add(G, slot4[2], -y);
+    zstamp_add(G, slot4[3], -y);
+}
+
+int parse_nodes(pctx *p, element *e, int n_nodes)
+{
+    if (pctx_ntok(p) < 1 + n_nodes)
+        return pctx_error(p, "needs %d nodes, got %d", n_nodes, pctx_ntok(p) - 1);
+    for (int i = 0; i < n_nodes; i++) {
+        e->node[i] = pctx_node(p, pctx_tok(p, 1 + i));
+        if (e->node[i] < 0)
+            return -1;
+    }
+    e->n_node = n_nodes;
+    return 0;
+}
+
+int parse_two_node_value(pctx *p, element *e, const char *what, int allow_zero)
+{
+    if (parse_nodes(p, e, 2) != 0)
+        return -1;
+    if (pctx_ntok(p) < 4)
+        return pctx_error(p, "missing %s value", what);
+    if (pctx_ntok(p) > 4)
+        return pctx_error(p, "unexpected '%s' after the %s value", pctx_tok(p, 4), what);
+    if (pctx_value(p, pctx_tok(p, 3), what, &e->value) != 0)
+        return -1;
+    if (e->value < 0.0 || (!allow_zero && e->value == 0.0))
+        return pctx_error(p, "%s must be %s, got %g", what, allow_zero ? "zero or positive" : "positive",
+                          e->value);
+    return 0;
+}
+
+int parse_source_spec(pctx *p, element *e)
+{
+    /* Xname n+ n- [DC] value [AC mag [phase_deg]] */
+    if (parse_nodes(p, e, 2) != 0)
+        return -1;
+    int n = pctx_ntok(p), i = 3, have_dc = 0;
+    e->ac_mag = 0.0;
+    e->ac_phase_deg = 0.0;
+    while (i < n) {
+        const char *t = pctx_tok(p, i);
+        if (strcmp(t, "dc") == 0) {
+            if (i + 1 >= n)
+                return pctx_error(p, "missing value after 'dc'");
+            if (pctx_value(p, pctx_tok(p, i + 1), "DC value", &e->value) != 0)
+                return -1;
+            have_dc = 1;
+            i += 2;
+        } else if (strcmp(t, "ac") == 0) {
+            e->ac_mag = 1.0; /* `AC` alone means magnitude 1 (common practice) */
+            i++;
+            if (i < n && pctx_tok(p, i)[0] != '\0' && strcmp(pctx_tok(p, i), "dc") != 0) {
+                if (pctx_value(p, pctx_tok(p, i), "AC magnitude", &e->ac_mag) != 0)
+                    return -1;
+                i++;
+                if (i < n && strcmp(pctx_tok(p, i), "dc") != 0) {
+                    if (pctx_value(p, pctx_tok(p, i), "AC phase", &e->ac_phase_deg) != 0)
+                        return -1;
+                    i++;
+                }
+            }
+        } else if (strchr(t, '(') && isalpha((unsigned char)t[0])) {
+            return pctx_error(p, "time-varying source form '%s' is not supported in this version",
+                              t);
+        } else if (!have_dc && i == 3) {
+            if (pctx_value(p, t, "DC value", &e->value) != 0)
+                return -1;
+            have_dc = 1;
+            i++;
+        } else {
+            return pctx_error(p, "unexpected '%s' in the source specification", t);
+        }
+    }
+    return 0;
+}
+
+double complex source_ac_phasor(const element *e, const dev_ac_ctx *ac)
+{
+    if (ac->all_src_off)
+        return 0.0;
+    if (ac->only_src)
+        return ac->only_src == e ? 1.0 : 0.0;
+    double ph = e->ac_phase_deg * SS_PI / 180.0;
+    return e->ac_mag * (cos(ph) + SS_J * sin(ph));
+}

@@ -1,0 +1,135 @@
+/* Device operations table: each device kind lives in one file and exports one ops table;
+ * the solver only calls through these. Matrix storage itself is left to src/mna. */
+#ifndef SS_DEVICE_H
+#define SS_DEVICE_H
+
+#include <complex.h>
+
+#include "netlist/circuit.h"
+#include "netlist/netlist.h"
+
+/* the imaginary unit as a double complex (complex.h's I is a float constant) */
+#define SS_J ((double complex)I)
+
+/* Setup: create internal nodes and branch currents, then claim matrix slots. */
+typedef struct dev_setup_ctx {
+    void *owner;
+    int (*new_node)(void *owner, const element *e, const char *suffix); /* node idx; -1 OOM */
+    int (*new_branch)(void *owner);                                      /* local branch no. */
+    int (*claim)(void *owner, int row_unknown, int col_unknown);         /* claim id; -1 ground */
+    int failed; /* set by the callbacks on allocation failure */
+} dev_setup_ctx;
+
+enum load_mode {
+    LOAD_NORMAL = 0, /* limit junction voltages against the last ones used */
+    LOAD_INIT_JUNCTION,  /* first iteration from nothing: junctions start near conduction */
+    LOAD_FROM_X          /* first iteration of a continuation: take voltages from x as they are */
+};
+
+typedef struct dev_load_ctx {
+    double *G;          /* real matrix values, indexed by slot */
+    double *rhs;        /* right-hand side, indexed by unknown */
+    const double *x;    /* present solution, indexed by unknown */
+    double gmin_s;      /* junction gmin */
+    double src_scale;   /* independent sources are multiplied by this (source stepping) */
+    double vt_v;        /* thermal voltage at the circuit temperature */
+    enum load_mode mode;
+    int limited;        /* set when a device limited a junction voltage */
+} dev_load_ctx;
+
+typedef struct dev_ac_ctx {
+    double complex *G;   /* complex matrix values, indexed by slot */
+    double complex *rhs; /* indexed by unknown */
+    const double *x_op;  /* operating point */
+    double omega;        /* rad/s */
+    double vt_v;
+    double gmin_s;
+    const element *only_src; /* when set, this source has AC 1 and all others AC 0 */
+    int all_src_off;         /* every independent source AC 0 (output-impedance test) */
+} dev_ac_ctx;
+
+/* One row of op.csv: quantity name (e.g. "ic") applied to the element name. */
+typedef void (*dev_report_fn)(void *sink, const char *quantity, const char *elem_name,
+                              double value);
+
+/* Operating-point details of a BJT for the report (forward: currents into terminals). */
+typedef struct bjt_op_info {
+    double ic_a, ib_a, ie_a, vbe_v, vce_v, vbc_v, gm_s, power_w;
+    const char *region;
+} bjt_op_info;
+
+typedef struct dev_model_param {
+    const char *name;
+    double def;
+} dev_model_param;
+
+typedef struct dev_ops {
+    char letter;
+    const char *kind_name;
+    /* parse the element line (tokens via pctx); fill e. 0 ok, -1 error set */
+    int (*parse)(pctx *p, element *e);
+    /* internal nodes and branches; NULL when none */
+    void (*setup)(element *e, dev_setup_ctx *sc);
+    /* claim matrix slots into e->slot (after all branches are numbered) */
+    void (*claim)(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc);
+    /* temperature and area adjustment of model parameters into e->tp; NULL when none */
+    void (*temp)(element *e, double temp_k);
+    void (*load_dc)(element *e, dev_load_ctx *lc);
+    void (*load_ac)(const element *e, dev_ac_ctx *ac);
+    /* op.csv rows at the solution x; NULL when none */
+    void (*report)(const element *e, const double *x, double vt_v, double gmin_s,
+                   dev_report_fn fn, void *sink);
+    /* the main value's name for --set and messages ("resistance"), NULL if none */
+    const char *value_name;
+    /* model parameter tables per model type (NULL when the kind takes no model) */
+    const dev_model_param *model_params;
+    int n_model_params;
+} dev_ops;
+
+/* registry.c */
+SS_HIDDEN const dev_ops *device_by_letter(char letter);
+SS_HIDDEN const dev_ops *device_for_model_type(enum model_type t);
+SS_HIDDEN int model_param_index(enum model_type t, const char *name);
+
+extern const dev_ops resistor_ops, capacitor_ops, inductor_ops, vsource_ops, isource_ops,
+    vcvs_ops, vccs_ops, cccs_ops, ccvs_ops, diode_ops, bjt_ops;
+
+/* BJT report details (bjt.c) */
+SS_HIDDEN void bjt_op_details(const element *e, const double *x, double vt_v, double gmin_s,
+                              bjt_op_info *out);
+
+/* ---- stamping helpers -------------------------------------------------------------------- */
+static inline double xv(const double *x, int node_idx)
+{
+    return node_idx > 0 ? x[node_idx - 1] : 0.0;
+}
+static inline void stamp_add(double *G, int slot, double v)
+{
+    if (slot >= 0)
+        G[slot] += v;
+}
+static inline void rhs_add(double *rhs, int node_idx, double v)
+{
+    if (node_idx > 0)
+        rhs[node_idx - 1] += v;
+}
+static inline void zstamp_add(double complex *G, int slot, double complex v)
+{
+    if (slot >= 0)
+        G[slot] += v;
+}
+static inline void zrhs_add(double complex *rhs, int node_idx, double complex v)
+{
+    if (node_idx > 0)
+        rhs[node_idx - 1] += v;
+}
+
+/* Claims the four slots of a two-terminal admittance between nodes a and b into
+ * e->slot[first..first+3] in the order (a,a) (b,b) (a,b) (b,a). */
+SS_HIDDEN void claim_pair(element *e, dev_setup_ctx *sc, int first, int a, int b);
+SS_HIDDEN void stamp_pair(double *G, const int *slot4, double g);
+SS_HIDDEN void zstamp_pair(double complex *G, const int *slot4, double complex y);
+/* Claims (row,col) for the 2x2 block of a controlled source: rows a,b x cols c,d. */
+SS_HIDDEN void claim_quad(element *e, dev_setup_ctx *sc, int first, int a, int b, int c, int d);
+
+#endif

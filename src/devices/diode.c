@@ -1,0 +1,138 @@
+/* Junction diode: Shockley law with series resistance RS (an internal node), temperature and
+ * area scaling, depletion and diffusion capacitance in AC. Matrix storage is src/mna's. */
+#include <math.h>
+#include <string.h>
+
+#include "devices/junction.h"
+#include "devices/passive.h"
+
+/* ORDER DIODE_PARAM (keep diode_params[] in step) */
+enum { DP_IS, DP_N, DP_RS, DP_CJO, DP_VJ, DP_M, DP_FC, DP_TT, DP_XTI, DP_EG, DP_TNOM, DP_KF,
+       DP_AF, DP_COUNT };
+
+/* Published names and defaults (Nagel 1975; docs/models.md). */
+/* ORDER DIODE_PARAM */
+static const dev_model_param diode_params[DP_COUNT] = {
+    {"is", 1e-14}, {"n", 1.0},   {"rs", 0.0},  {"cjo", 0.0}, {"vj", 1.0},
+    {"m", 0.5},    {"fc", 0.5},  {"tt", 0.0},  {"xti", 3.0}, {"eg", 1.11},
+    {"tnom", SS_TNOM_DEFAULT_C}, {"kf", 0.0}, {"af", 1.0},
+};
+
+enum { SL_RS = 0, SL_J = 4, SL_COUNT = 8 };
+
+static int diode_parse(pctx *p, element *e)
+{
+    /* Dname anode cathode model [area] */
+    if (parse_nodes(p, e, 2) != 0)
+        return -1;
+    if (pctx_ntok(p) < 4)
+        return pctx_error(p, "missing model name");
+    e->mod = pctx_model(p, pctx_tok(p, 3), 1u << MODEL_D);
+    if (!e->mod)
+        return -1;
+    e->area = 1.0;
+    if (pctx_ntok(p) > 4) {
+        const char *t = pctx_tok(p, 4);
+        if (strcmp(t, "area") == 0 && pctx_ntok(p) == 7 && strcmp(pctx_tok(p, 5), "=") == 0)
+            t = pctx_tok(p, 6);
+        else if (pctx_ntok(p) > 5)
+            return pctx_error(p, "unexpected '%s' after the area", pctx_tok(p, 5));
+        if (pctx_value(p, t, "area", &e->area) != 0)
+            return -1;
+        if (!(e->area > 0.0))
+            return pctx_error(p, "area must be positive, got %g", e->area);
+    }
+    return 0;
+}
+
+static void diode_setup(element *e, dev_setup_ctx *sc)
+{
+    e->inode[0] = e->mod->p[DP_RS] > 0.0 ? sc->new_node(sc->owner, e, "a") : e->node[0];
+}
+
+static void diode_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+{
+    (void)ckt;
+    for (int i = 0; i < SL_COUNT; i++)
+        e->slot[i] = -1;
+    e->n_slot = SL_COUNT;
+    if (e->inode[0] != e->node[0])
+        claim_pair(e, sc, SL_RS, e->node[0], e->inode[0]);
+    claim_pair(e, sc, SL_J, e->inode[0], e->node[1]);
+}
+
+static void diode_temp(element *e, double temp_k)
+{
+    const double *mp = e->mod->p;
+    double *tp = e->tp;
+    memcpy(tp, mp, sizeof e->tp);
+    double tnom_k = mp[DP_TNOM] + SS_ZERO_C_IN_K;
+    double vt = thermal_voltage_v(temp_k);
+    double r = temp_k / tnom_k;
+    /* IS(T) = IS r^(XTI/N) exp((r - 1) EG / (N Vt)): docs/models.md */
+    tp[DP_IS] = mp[DP_IS] * pow(r, mp[DP_XTI] / mp[DP_N]) *
+                exp((r - 1.0) * mp[DP_EG] / (mp[DP_N] * vt)) * e->area;
+    junction_temp_vj_cj(mp[DP_VJ], mp[DP_CJO], mp[DP_M], temp_k, tnom_k, vt, &tp[DP_VJ],
+                        &tp[DP_CJO]);
+    tp[DP_CJO] *= e->area;
+    tp[DP_RS] = mp[DP_RS] / e->area;
+}
+
+static void diode_load_dc(element *e, dev_load_ctx *lc)
+{
+    const double *tp = e->tp;
+    double nvt = tp[DP_N] * lc->vt_v;
+    double vd = xv(lc->x, e->inode[0]) - xv(lc->x, e->node[1]);
+    double vcrit = junction_vcrit(nvt, tp[DP_IS]);
+    if (lc->mode == LOAD_INIT_JUNCTION)
+        vd = vcrit;
+    else if (lc->mode == LOAD_NORMAL)
+        vd = junction_limit(vd, e->state[0], nvt, vcrit, &lc->limited);
+    e->state[0] = vd;
+    double gd;
+    double id = junction_current(tp[DP_IS], vd, nvt, &gd) + lc->gmin_s * vd;
+    gd += lc->gmin_s;
+    stamp_pair(lc->G, &e->slot[SL_J], gd);
+    double ieq = id - gd * vd;
+    rhs_add(lc->rhs, e->inode[0], -ieq);
+    rhs_add(lc->rhs, e->node[1], ieq);
+    if (e->inode[0] != e->node[0])
+        stamp_pair(lc->G, &e->slot[SL_RS], 1.0 / tp[DP_RS]);
+}
+
+static void diode_load_ac(const element *e, dev_ac_ctx *ac)
+{
+    const double *tp = e->tp;
+    double vd = xv(ac->x_op, e->inode[0]) - xv(ac->x_op, e->node[1]);
+    double gd;
+    junction_current(tp[DP_IS], vd, tp[DP_N] * ac->vt_v, &gd);
+    /* depletion (FC extension) plus diffusion TT gd: docs/models.md */
+    double cd = junction_depletion_cap(vd, tp[DP_CJO], tp[DP_VJ], tp[DP_M], tp[DP_FC]) +
+                tp[DP_TT] * gd;
+    zstamp_pair(ac->G, &e->slot[SL_J], gd + ac->gmin_s + SS_J * ac->omega * cd);
+    if (e->inode[0] != e->node[0])
+        zstamp_pair(ac->G, &e->slot[SL_RS], 1.0 / tp[DP_RS]);
+}
+
+static void diode_report(const element *e, const double *x, double vt_v, double gmin_s,
+                         dev_report_fn fn, void *sink)
+{
+    double vd = xv(x, e->inode[0]) - xv(x, e->node[1]);
+    double gd;
+    double id = junction_current(e->tp[DP_IS], vd, e->tp[DP_N] * vt_v, &gd) + gmin_s * vd;
+    fn(sink, "id", e->name, id);
+}
+
+const dev_ops diode_ops = {
+    .letter = 'd',
+    .kind_name = "diode",
+    .parse = diode_parse,
+    .setup = diode_setup,
+    .claim = diode_claim,
+    .temp = diode_temp,
+    .load_dc = diode_load_dc,
+    .load_ac = diode_load_ac,
+    .report = diode_report,
+    .model_params = diode_params,
+    .n_model_params = DP_COUNT,
+};

@@ -1,0 +1,47 @@
+/* Inductor: a branch current unknown; a 0 V source at DC, V = jwL I in AC. */
+#include "devices/passive.h"
+
+static int ind_parse(pctx *p, element *e) { return parse_two_node_value(p, e, "inductance", 1); }
+
+static void ind_setup(element *e, dev_setup_ctx *sc) { e->branch = sc->new_branch(sc->owner); }
+
+/* slots: (a,k) (b,k) (k,a) (k,b) (k,k) */
+static void ind_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+{
+    (void)ckt;
+    int ua = node_unknown(e->node[0]), ub = node_unknown(e->node[1]), k = e->branch;
+    e->n_slot = 5;
+    e->slot[0] = sc->claim(sc->owner, ua, k);
+    e->slot[1] = sc->claim(sc->owner, ub, k);
+    e->slot[2] = sc->claim(sc->owner, k, ua);
+    e->slot[3] = sc->claim(sc->owner, k, ub);
+    e->slot[4] = sc->claim(sc->owner, k, k);
+}
+
+static void ind_load_dc(element *e, dev_load_ctx *lc)
+{
+    stamp_add(lc->G, e->slot[0], 1.0);
+    stamp_add(lc->G, e->slot[1], -1.0);
+    stamp_add(lc->G, e->slot[2], 1.0);
+    stamp_add(lc->G, e->slot[3], -1.0);
+}
+
+static void ind_load_ac(const element *e, dev_ac_ctx *ac)
+{
+    zstamp_add(ac->G, e->slot[0], 1.0);
+    zstamp_add(ac->G, e->slot[1], -1.0);
+    zstamp_add(ac->G, e->slot[2], 1.0);
+    zstamp_add(ac->G, e->slot[3], -1.0);
+    zstamp_add(ac->G, e->slot[4], -SS_J * ac->omega * e->value);
+}
+
+const dev_ops inductor_ops = {
+    .letter = 'l',
+    .kind_name = "inductor",
+    .parse = ind_parse,
+    .setup = ind_setup,
+    .claim = ind_claim,
+    .load_dc = ind_load_dc,
+    .load_ac = ind_load_ac,
+    .value_name = "inductance",
+};

@@ -1,0 +1,36 @@
+/* Independent current source: the current flows from n+ through the source to n-, so it
+ * leaves n+ and enters n-. Only the right-hand side is touched. */
+#include "devices/passive.h"
+
+static int isrc_parse(pctx *p, element *e) { return parse_source_spec(p, e); }
+
+static void isrc_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+{
+    (void)ckt;
+    (void)sc;
+    e->n_slot = 0;
+}
+
+static void isrc_load_dc(element *e, dev_load_ctx *lc)
+{
+    double i_a = e->value * lc->src_scale;
+    rhs_add(lc->rhs, e->node[0], -i_a);
+    rhs_add(lc->rhs, e->node[1], i_a);
+}
+
+static void isrc_load_ac(const element *e, dev_ac_ctx *ac)
+{
+    double complex i_a = source_ac_phasor(e, ac);
+    zrhs_add(ac->rhs, e->node[0], -i_a);
+    zrhs_add(ac->rhs, e->node[1], i_a);
+}
+
+const dev_ops isource_ops = {
+    .letter = 'i',
+    .kind_name = "current source",
+    .parse = isrc_parse,
+    .claim = isrc_claim,
+    .load_dc = isrc_load_dc,
+    .load_ac = isrc_load_ac,
+    .value_name = "DC value",
+};

@@ -1,0 +1,29 @@
+/* Resistor: a conductance 1/R between two nodes, at DC and in AC (noise is the noise
+ * module's). */
+#include "devices/passive.h"
+
+static int res_parse(pctx *p, element *e) { return parse_two_node_value(p, e, "resistance", 0); }
+
+static void res_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+{
+    (void)ckt;
+    e->n_slot = 4;
+    claim_pair(e, sc, 0, e->node[0], e->node[1]);
+}
+
+static void res_load_dc(element *e, dev_load_ctx *lc) { stamp_pair(lc->G, e->slot, 1.0 / e->value); }
+
+static void res_load_ac(const element *e, dev_ac_ctx *ac)
+{
+    zstamp_pair(ac->G, e->slot, 1.0 / e->value);
+}
+
+const dev_ops resistor_ops = {
+    .letter = 'r',
+    .kind_name = "resistor",
+    .parse = res_parse,
+    .claim = res_claim,
+    .load_dc = res_load_dc,
+    .load_ac = res_load_ac,
+    .value_name = "resistance",
+};

@@ -1,0 +1,47 @@
+/* Voltage-controlled current source G: gm (V(c) - V(d)) flows from a through the source to b. */
+#include "devices/passive.h"
+
+static int vccs_parse(pctx *p, element *e)
+{
+    if (parse_nodes(p, e, 4) != 0)
+        return -1;
+    if (pctx_ntok(p) != 6)
+        return pctx_error(p, "expects `G n+ n- nc+ nc- transconductance`");
+    return pctx_value(p, pctx_tok(p, 5), "transconductance", &e->value);
+}
+
+static void vccs_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+{
+    (void)ckt;
+    e->n_slot = 4;
+    claim_quad(e, sc, 0, e->node[0], e->node[1], e->node[2], e->node[3]);
+}
+
+/* (a,c) +g, (a,d) -g, (b,c) -g, (b,d) +g */
+static void vccs_load_dc(element *e, dev_load_ctx *lc)
+{
+    double g = e->value;
+    stamp_add(lc->G, e->slot[0], g);
+    stamp_add(lc->G, e->slot[1], -g);
+    stamp_add(lc->G, e->slot[2], -g);
+    stamp_add(lc->G, e->slot[3], g);
+}
+
+static void vccs_load_ac(const element *e, dev_ac_ctx *ac)
+{
+    double g = e->value;
+    zstamp_add(ac->G, e->slot[0], g);
+    zstamp_add(ac->G, e->slot[1], -g);
+    zstamp_add(ac->G, e->slot[2], -g);
+    zstamp_add(ac->G, e->slot[3], g);
+}
+
+const dev_ops vccs_ops = {
+    .letter = 'g',
+    .kind_name = "voltage-controlled current source",
+    .parse = vccs_parse,
+    .claim = vccs_claim,
+    .load_dc = vccs_load_dc,
+    .load_ac = vccs_load_ac,
+    .value_name = "transconductance",
+};

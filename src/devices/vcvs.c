@@ -1,0 +1,56 @@
+/* Voltage-controlled voltage source E: branch k with V(a) - V(b) - gain (V(c) - V(d)) = 0. */
+#include "devices/passive.h"
+
+static int vcvs_parse(pctx *p, element *e)
+{
+    if (parse_nodes(p, e, 4) != 0)
+        return -1;
+    if (pctx_ntok(p) != 6)
+        return pctx_error(p, "expects `E n+ n- nc+ nc- gain`");
+    return pctx_value(p, pctx_tok(p, 5), "gain", &e->value);
+}
+
+static void vcvs_setup(element *e, dev_setup_ctx *sc) { e->branch = sc->new_branch(sc->owner); }
+
+/* slots: (a,k) (b,k) (k,a) (k,b) (k,c) (k,d) */
+static void vcvs_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+{
+    (void)ckt;
+    int k = e->branch;
+    e->n_slot = 6;
+    e->slot[0] = sc->claim(sc->owner, node_unknown(e->node[0]), k);
+    e->slot[1] = sc->claim(sc->owner, node_unknown(e->node[1]), k);
+    e->slot[2] = sc->claim(sc->owner, k, node_unknown(e->node[0]));
+    e->slot[3] = sc->claim(sc->owner, k, node_unknown(e->node[1]));
+    e->slot[4] = sc->claim(sc->owner, k, node_unknown(e->node[2]));
+    e->slot[5] = sc->claim(sc->owner, k, node_unknown(e->node[3]));
+}
+
+static void vcvs_load_dc(element *e, dev_load_ctx *lc)
+{
+    static const double unit[4] = {1.0, -1.0, 1.0, -1.0};
+    for (int i = 0; i < 4; i++)
+        stamp_add(lc->G, e->slot[i], unit[i]);
+    stamp_add(lc->G, e->slot[4], -e->value);
+    stamp_add(lc->G, e->slot[5], e->value);
+}
+
+static void vcvs_load_ac(const element *e, dev_ac_ctx *ac)
+{
+    static const double unit[4] = {1.0, -1.0, 1.0, -1.0};
+    for (int i = 0; i < 4; i++)
+        zstamp_add(ac->G, e->slot[i], unit[i]);
+    zstamp_add(ac->G, e->slot[4], -e->value);
+    zstamp_add(ac->G, e->slot[5], e->value);
+}
+
+const dev_ops vcvs_ops = {
+    .letter = 'e',
+    .kind_name = "voltage-controlled voltage source",
+    .parse = vcvs_parse,
+    .setup = vcvs_setup,
+    .claim = vcvs_claim,
+    .load_dc = vcvs_load_dc,
+    .load_ac = vcvs_load_ac,
+    .value_name = "gain",
+};

@@ -1,0 +1,53 @@
+/* MNA matrix storage and the KLU wrappers: the sparse pattern is claimed entry by entry,
+ * built and analysed once; real and complex values are refilled and refactored per solve.
+ * What goes into the entries is the devices' business. */
+#ifndef SS_MNA_H
+#define SS_MNA_H
+
+#include <complex.h>
+
+#include "util/util.h"
+
+typedef struct mna mna;
+
+/* rcond below which a klu_refactor result is not trusted and klu_factor re-pivots */
+#define MNA_RCOND_REPIVOT 1e-12
+/* rcond below which the solution is reported as unreliable (warning) */
+#define MNA_RCOND_WARN 1e-15
+
+SS_HIDDEN mna *mna_create(int n_unknowns);
+SS_HIDDEN void mna_destroy(mna **m);
+/* Claims entry (row, col); returns a claim id, or -1 when either index is ground (-1) or on
+ * allocation failure (then mna_claim_failed() is true). */
+SS_HIDDEN int mna_claim(mna *m, int row, int col);
+SS_HIDDEN int mna_claim_failed(const mna *m);
+/* Builds the compressed-column pattern (duplicates merged), maps claims to value slots and
+ * runs klu_analyze. Returns SS_OK, SS_ERR_NOMEM, SS_ERR_SINGULAR (structurally: *bad_unknown
+ * names an unknown with no entries), SS_ERR_INTERNAL. */
+SS_HIDDEN ss_status mna_finalize(mna *m, int *bad_unknown);
+/* The value slot of a claim id (after finalize); -1 stays -1. */
+SS_HIDDEN int mna_slot(const mna *m, int claim_id);
+/* Slot of the diagonal entry of unknown u (claimed for every unknown). */
+SS_HIDDEN int mna_diag_slot(const mna *m, int u);
+
+SS_HIDDEN int mna_n(const mna *m);
+SS_HIDDEN int mna_nnz(const mna *m);
+SS_HIDDEN double *mna_values(mna *m);          /* real values, nnz */
+SS_HIDDEN double complex *mna_zvalues(mna *m); /* complex values, nnz */
+
+/* Factor the present real values (refactor when possible) and solve A x = b in place.
+ * Returns SS_OK, SS_ERR_SINGULAR (*bad_unknown set to the zero pivot's unknown), SS_ERR_NOMEM.
+ * *rcond_out (optional) gets klu_rcond. */
+SS_HIDDEN ss_status mna_solve_real(mna *m, double *b, int *bad_unknown, double *rcond_out);
+SS_HIDDEN ss_status mna_solve_complex(mna *m, double complex *b, int *bad_unknown,
+                                      double *rcond_out);
+/* Solves with the complex factorization of the last mna_solve_complex (same matrix). */
+SS_HIDDEN ss_status mna_solve_complex_again(mna *m, double complex *b);
+/* Forget the numeric factorizations (next solve calls klu_factor). */
+SS_HIDDEN void mna_reset_numeric(mna *m);
+
+/* Read-only views for benchmarks and the reference dump. */
+SS_HIDDEN const int *mna_colptr(const mna *m);
+SS_HIDDEN const int *mna_rowidx(const mna *m);
+
+#endif

@@ -1,0 +1,152 @@
+/* Circuit bookkeeping: nodes and their names, element and model lookup, warnings, and the
+ * public accessors and destructor. Parsing is parser.c's; solving is src/analysis's. */
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "netlist/circuit.h"
+#include "devices/device.h"
+#include "mna/mna.h"
+
+int circuit_find_node(const struct ss_circuit *ckt, const char *name)
+{
+    int idx;
+    return strmap_get(&ckt->node_map, name, &idx) ? idx : -1;
+}
+
+int circuit_find_elem(const struct ss_circuit *ckt, const char *name)
+{
+    int idx;
+    return strmap_get(&ckt->elem_map, name, &idx) ? idx : -1;
+}
+
+int circuit_add_node(struct ss_circuit *ckt, const char *name, int internal)
+{
+    if (ckt->n_nodes == ckt->cap_nodes) {
+        int ncap = ckt->cap_nodes ? ckt->cap_nodes * 2 : 64;
+        const char **nn = ss_realloc(ckt->node_name, (size_t)ncap * sizeof *nn);
+        if (!nn)
+            return -1;
+        ckt->node_name = nn;
+        unsigned char *ni = ss_realloc(ckt->node_internal, (size_t)ncap);
+        if (!ni)
+            return -1;
+        ckt->node_internal = ni;
+        ckt->cap_nodes = ncap;
+    }
+    char *copy = arena_strdup(&ckt->arena, name);
+    if (!copy)
+        return -1;
+    int idx = ckt->n_nodes;
+    if (strmap_put(&ckt->node_map, copy, idx) != 0)
+        return -1;
+    ckt->node_name[idx] = copy;
+    ckt->node_internal[idx] = (unsigned char)internal;
+    ckt->n_nodes++;
+    return idx;
+}
+
+void circuit_unknown_name(const struct ss_circuit *ckt, int unknown, char *buf, size_t len)
+{
+    int n_node_unknowns = ckt->n_nodes - 1;
+    if (unknown < n_node_unknowns) {
+        int node = unknown + 1;
+        if (ckt->node_internal[node])
+            snprintf(buf, len, "internal node '%s'", ckt->node_name[node]);
+        else
+            snprintf(buf, len, "node '%s'", ckt->node_name[node]);
+        return;
+    }
+    for (int i = 0; i < ckt->n_elem; i++) {
+        if (ckt->elem[i].branch == unknown) {
+            snprintf(buf, len, "branch current of '%s'", ckt->elem[i].name);
+            return;
+        }
+    }
+    snprintf(buf, len, "unknown #%d", unknown);
+}
+
+void circuit_warn(struct ss_circuit *ckt, const char *fmt, ...)
+{
+    char msg[1024];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    for (int i = 0; i < ckt->n_warnings; i++)
+        if (strcmp(ckt->warnings[i], msg) == 0)
+            return; /* each warning once */
+    const char **nw = ss_realloc(ckt->warnings, (size_t)(ckt->n_warnings + 1) * sizeof *nw);
+    if (!nw)
+        return;
+    ckt->warnings = nw;
+    char *copy = arena_strdup(&ckt->arena, msg);
+    if (copy)
+        ckt->warnings[ckt->n_warnings++] = copy;
+}
+
+const char *ss_circuit_warning(const ss_circuit *ckt, int index)
+{
+    return (ckt && index >= 0 && index < ckt->n_warnings) ? ckt->warnings[index] : NULL;
+}
+
+void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *f)
+{
+    f->op = ckt->want_op;
+    f->dc = ckt->n_dc > 0;
+    f->ac = ckt->want_ac;
+    f->stage = ckt->stage_in != NULL;
+    f->tran = ckt->want_tran;
+    f->noise = ckt->want_noise;
+}
+
+double ss_circuit_temp_c(const ss_circuit *ckt) { return ckt->temp_c; }
+
+ss_status ss_circuit_set_stage(ss_circuit *ckt, const char *in_source, const char *out_node,
+                               double load_ohm, ss_error *err)
+{
+    char name[256];
+    size_t i;
+    for (i = 0; in_source[i] && i + 1 < sizeof name; i++)
+        name[i] = (char)((in_source[i] >= 'A' && in_source[i] <= 'Z') ? in_source[i] + 32
+                                                                        : in_source[i]);
+    name[i] = '\0';
+    int e = circuit_find_elem(ckt, name);
+    if (e < 0 || (ckt->elem[e].ops->letter != 'v' && ckt->elem[e].ops->letter != 'i'))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "stage input '%s' is not an independent source of the circuit",
+                       in_source);
+    const char *in_copy = ckt->elem[e].name;
+    for (i = 0; out_node[i] && i + 1 < sizeof name; i++)
+        name[i] = (char)((out_node[i] >= 'A' && out_node[i] <= 'Z') ? out_node[i] + 32
+                                                                      : out_node[i]);
+    name[i] = '\0';
+    int n = circuit_find_node(ckt, name);
+    if (n <= 0 || ckt->node_internal[n])
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "stage output node '%s' %s", out_node,
+                       n == 0 ? "is ground" : "does not exist");
+    ckt->stage_in = in_copy;
+    ckt->stage_out = ckt->node_name[n];
+    ckt->stage_load_ohm = load_ohm > 0.0 ? load_ohm : ckt->stage_load_ohm;
+    return SS_OK;
+}
+
+void ss_circuit_destroy(ss_circuit **pckt)
+{
+    if (!pckt || !*pckt)
+        return;
+    ss_circuit *ckt = *pckt;
+    mna_destroy(&ckt->mna);
+    ss_free(ckt->x_op);
+    ss_free(ckt->node_name);
+    ss_free(ckt->node_internal);
+    strmap_clear(&ckt->node_map);
+    ss_free(ckt->elem);
+    strmap_clear(&ckt->elem_map);
+    ss_free(ckt->models);
+    strmap_clear(&ckt->model_map);
+    ss_free(ckt->warnings);
+    arena_clear(&ckt->arena);
+    ss_free(ckt);
+    *pckt = NULL;
+}

@@ -1,0 +1,131 @@
+/* The circuit as parsed: nodes, elements, models, analyses and options, plus the solver state
+ * that analyses attach to it. Shared by every module; filled by the parser. */
+#ifndef SS_CIRCUIT_H
+#define SS_CIRCUIT_H
+
+#include "util/util.h"
+
+struct dev_ops;
+struct mna;
+
+enum model_type { MODEL_NPN = 0, MODEL_PNP = 1, MODEL_D = 2, MODEL_TYPE_COUNT };
+#define MODEL_MAX_PARAMS 40
+
+typedef struct model {
+    const char *name;
+    enum model_type type;
+    const char *file;
+    int line;
+    double p[MODEL_MAX_PARAMS];
+    unsigned char given[MODEL_MAX_PARAMS];
+} model;
+
+#define ELEM_MAX_NODES 4
+#define ELEM_MAX_SLOTS 40
+#define ELEM_MAX_STATE 8
+
+typedef struct element {
+    const struct dev_ops *ops;
+    const char *name; /* lower case; hierarchical inside subcircuits: x1.q2 */
+    const char *file;
+    int line;
+    int node[ELEM_MAX_NODES]; /* circuit node indices, 0 is ground */
+    int n_node;
+    int inode[3];   /* internal nodes made by setup (BJT c' b' e', diode anode'); 0 = none */
+    int branch;     /* unknown index of the element's own branch current; -1 none */
+    double value;   /* R ohm, C farad, L henry, source DC value, controlled-source gain */
+    double ac_mag, ac_phase_deg;
+    const char *ctrl_name; /* F, H: the controlling voltage source */
+    int ctrl_elem;         /* its element index, resolved after parsing */
+    const model *mod;
+    double area;
+    double tp[MODEL_MAX_PARAMS]; /* model parameters adjusted for area and temperature */
+    int slot[ELEM_MAX_SLOTS];    /* matrix value slots (claim ids until mna_finalize) */
+    int n_slot;
+    double state[ELEM_MAX_STATE]; /* device-private Newton state (junction voltages) */
+} element;
+
+typedef struct ss_options_set {
+    double tol_rel;
+    double tol_v;
+    double tol_i;
+    double gmin;
+    int newton_iters;
+} ss_options_set;
+
+enum ac_sweep_type { AC_DEC, AC_OCT, AC_LIN };
+
+typedef struct dc_sweep_spec {
+    const char *src;
+    double start, stop, step;
+    const char *file;
+    int line;
+} dc_sweep_spec;
+
+struct ss_circuit {
+    ss_arena arena;
+    const char *title;
+    const char *file; /* top-level netlist name, for messages */
+
+    /* nodes: 0 is ground; netlist nodes first (in order of first use), then internal ones */
+    const char **node_name;
+    unsigned char *node_internal;
+    int n_nodes, cap_nodes;
+    ss_strmap node_map;
+
+    element *elem;
+    int n_elem, cap_elem;
+    ss_strmap elem_map;
+
+    model **models;
+    int n_models, cap_models;
+    ss_strmap model_map;
+
+    ss_options_set opt;
+    double temp_c;
+
+    /* analyses */
+    int want_op;
+    int n_dc; /* 0, 1 or 2 nested sweeps */
+    dc_sweep_spec dc[2];
+    int want_ac;
+    enum ac_sweep_type ac_type;
+    int ac_points;
+    double ac_fstart_hz, ac_fstop_hz;
+    int want_tran, want_noise;
+    const char *stage_in, *stage_out;
+    double stage_load_ohm;
+    const char *stage_file;
+    int stage_line;
+
+    /* solver state (analysis module) */
+    struct mna *mna;
+    int n_branches;
+    int n_unknowns;
+    int prepared;
+    double temp_applied_k;
+    double *x_op; /* operating point, n_unknowns; valid when have_op */
+    int have_op;
+    double *work_rhs, *work_x;    /* Newton work vectors, n_unknowns */
+    double _Complex *work_zrhs;   /* AC right-hand side, n_unknowns */
+    double _Complex *work_zx;     /* AC second solution (output-impedance test) */
+    double last_rcond;
+
+    const char **warnings;
+    int n_warnings;
+};
+
+/* Unknown index of a node: ground is -1 (its row and column are dropped). */
+static inline int node_unknown(int node_idx) { return node_idx - 1; }
+
+SS_HIDDEN void circuit_warn(struct ss_circuit *ckt, const char *fmt, ...)
+    __attribute__((format(printf, 2, 3)));
+SS_HIDDEN int circuit_find_node(const struct ss_circuit *ckt, const char *name);
+SS_HIDDEN int circuit_find_elem(const struct ss_circuit *ckt, const char *name);
+/* Adds a node (name copied to the arena); returns its index or -1 on allocation failure. */
+SS_HIDDEN int circuit_add_node(struct ss_circuit *ckt, const char *name, int internal);
+/* Name of an MNA unknown for messages: "node 'vb'" or "branch current of 'v1'". */
+SS_HIDDEN void circuit_unknown_name(const struct ss_circuit *ckt, int unknown, char *buf,
+                                    size_t len);
+
+#endif

@@ -1,0 +1,1460 @@
+/* Netlist parser: reads files (with .include), joins continuation lines, tokenises, collects
+ * .param/.subckt/.model, then builds the flat circuit, expanding X instances. Device syntax
+ * is each device's own parse (through pctx_*); solving is left to src/analysis. */
+#include <ctype.h>
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "devices/device.h"
+#include "netlist/circuit.h"
+#include "netlist/netlist.h"
+
+/* ---- logical lines ----------------------------------------------------------------------- */
+
+typedef struct logline {
+    const char *file;
+    int line;
+    char **tok;
+    int n_tok;
+} logline;
+
+typedef struct param_def {
+    const char *name;
+    const char *text; /* expression text */
+    const char *file;
+    int line;
+    double value;
+    int state; /* 0 not evaluated, 1 being evaluated, 2 done */
+} param_def;
+
+typedef struct subckt_def {
+    const char *name;
+    const char **ports;
+    int n_ports;
+    const char **pnames; /* parameter names with defaults */
+    const char **ptexts;
+    int n_params;
+    int body_first, body_end; /* logical line range of the body */
+    const char *file;
+    int line;
+} subckt_def;
+
+typedef struct scope {
+    const struct scope *parent;
+    const char *prefix; /* "" at top level, "x1." inside X1 */
+    const char **port_names;
+    const int *port_nodes;
+    int n_ports;
+    const char **pnames;
+    double *pvals;
+    int n_params;
+    int depth;
+} scope;
+
+typedef struct parser {
+    ss_circuit *ckt;
+    ss_error *err;
+    logline *lines;
+    int n_lines, cap_lines;
+    const char *inc_stack[NETLIST_MAX_INCLUDE_DEPTH + 1];
+    int inc_depth;
+    param_def *params;
+    int n_params, cap_params;
+    ss_strmap param_map;
+    subckt_def *subckts;
+    int n_subckts, cap_subckts;
+    ss_strmap subckt_map;
+    const ss_override *overrides;
+    int n_overrides;
+    unsigned char *override_used;
+    int nomem;
+} parser;
+
+struct pctx {
+    parser *ps;
+    const logline *ll;
+    const scope *sc;
+    const char *elem_name;
+};
+
+static ss_status nomem(parser *ps)
+{
+    ps->nomem = 1;
+    return err_set(ps->err, SS_ERR_NOMEM, ps->ckt->file, 0, "out of memory while parsing");
+}
+
+static ss_status line_error(parser *ps, const logline *ll, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+static ss_status line_error(parser *ps, const logline *ll, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    err_vset(ps->err, SS_ERR_INPUT, ll ? ll->file : ps->ckt->file, ll ? ll->line : 0, fmt, ap);
+    va_end(ap);
+    return SS_ERR_INPUT;
+}
+
+/* Splits one logical line (already lower-cased where appropriate) into tokens: whitespace and
+ * commas separate, '=' is a token of its own, {...} and (...) stay whole. */
+static ss_status tokenize(parser *ps, logline *ll, char *text)
+{
+    char *toks[NETLIST_MAX_TOKENS];
+    int n = 0;
+    char *s = text;
+    while (*s) {
+        while (*s && (isspace((unsigned char)*s) || *s == ','))
+            s++;
+        if (!*s)
+            break;
+        if (n >= NETLIST_MAX_TOKENS)
+            return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                           "line has more than %d fields", NETLIST_MAX_TOKENS);
+        char *start = s;
+        if (*s == '=') {
+            s++;
+        } else {
+            int brace = 0, paren = 0;
+            while (*s) {
+                char c = *s;
+                if (c == '{')
+                    brace++;
+                else if (c == '}')
+                    brace--;
+                else if (c == '(')
+                    paren++;
+                else if (c == ')')
+                    paren--;
+                else if (brace <= 0 && paren <= 0 &&
+                         (isspace((unsigned char)c) || c == ',' || c == '='))
+                    break;
+                s++;
+            }
+            if (brace > 0)
+                return line_error(ps, ll, "missing '}' in '%s'", start);
+            if (paren > 0)
+                return line_error(ps, ll, "missing ')' in '%s'", start);
+        }
+        char *t = arena_strndup(&ps->ckt->arena, start, (size_t)(s - start));
+        if (!t)
+            return nomem(ps);
+        toks[n++] = t;
+    }
+    ll->tok = arena_alloc(&ps->ckt->arena, (size_t)(n ? n : 1) * sizeof *ll->tok);
+    if (!ll->tok)
+        return nomem(ps);
+    memcpy(ll->tok, toks, (size_t)n * sizeof *toks);
+    ll->n_tok = n;
+    return SS_OK;
+}
+
+static ss_status read_text(parser *ps, const char *text, size_t len, const char *file,
+                           int is_top);
+
+static char *dir_of(const char *path, char *buf, size_t len)
+{
+    const char *slash = strrchr(path, '/');
+    if (!slash)
+        snprintf(buf, len, ".");
+    else
+        snprintf(buf, len, "%.*s", (int)(slash - path), path);
+    return buf;
+}
+
+static ss_status read_file(parser *ps, const char *path, const logline *from, int is_top)
+{
+    for (int i = 0; i < ps->inc_depth; i++)
+        if (strcmp(ps->inc_stack[i], path) == 0)
+            return line_error(ps, from, ".include of '%s' includes itself (cycle)", path);
+    if (ps->inc_depth > NETLIST_MAX_INCLUDE_DEPTH)
+        return err_set(ps->err, SS_ERR_LIMIT, from ? from->file : path, from ? from->line : 0,
+                       ".include nested deeper than %d files", NETLIST_MAX_INCLUDE_DEPTH);
+    FILE *f = fopen(path, "rb");
+    if (!f) {
+        if (from)
+            return err_set(ps->err, SS_ERR_IO, from->file, from->line, "cannot open '%s': %s",
+                           path, strerror(errno));
+        return err_set(ps->err, SS_ERR_IO, path, 0, "cannot open netlist: %s", strerror(errno));
+    }
+    ss_strbuf b = {0};
+    char chunk[65536];
+    size_t got;
+    while ((got = fread(chunk, 1, sizeof chunk, f)) > 0)
+        strbuf_append(&b, chunk, got);
+    int rerr = ferror(f);
+    fclose(f);
+    if (b.failed) {
+        strbuf_clear(&b);
+        return nomem(ps);
+    }
+    if (rerr) {
+        strbuf_clear(&b);
+        return err_set(ps->err, SS_ERR_IO, path, 0, "read error");
+    }
+    const char *file = arena_strdup(&ps->ckt->arena, path);
+    if (!file) {
+        strbuf_clear(&b);
+        return nomem(ps);
+    }
+    ps->inc_stack[ps->inc_depth++] = file;
+    ss_status st = read_text(ps, b.data ? b.data : "", b.len, file, is_top);
+    ps->inc_depth--;
+    strbuf_clear(&b);
+    return st;
+}
+
+static ss_status push_line(parser *ps, const char *file, int line_no, char *text)
+{
+    if (ps->n_lines == ps->cap_lines) {
+        int ncap = ps->cap_lines ? ps->cap_lines * 2 : 256;
+        logline *nl = ss_realloc(ps->lines, (size_t)ncap * sizeof *nl);
+        if (!nl)
+            return nomem(ps);
+        ps->lines = nl;
+        ps->cap_lines = ncap;
+    }
+    logline *ll = &ps->lines[ps->n_lines];
+    memset(ll, 0, sizeof *ll);
+    ll->file = file;
+    ll->line = line_no;
+    ss_status st = tokenize(ps, ll, text);
+    if (st != SS_OK)
+        return st;
+    if (ll->n_tok > 0)
+        ps->n_lines++;
+    return SS_OK;
+}
+
+/* Handles `.include path` on the raw (case-kept) logical line; returns 1 when it was one. */
+static int is_include(const char *t)
+{
+    while (isspace((unsigned char)*t))
+        t++;
+    return strncasecmp_ascii(t, ".include", 8) == 0 &&
+           (t[8] == '\0' || isspace((unsigned char)t[8]));
+}
+
+static ss_status do_include(parser *ps, const char *file, int line_no, const char *t)
+{
+    logline here = {file, line_no, NULL, 0};
+    while (isspace((unsigned char)*t))
+        t++;
+    t += 8;
+    while (isspace((unsigned char)*t))
+        t++;
+    char name[4096];
+    size_t n = 0;
+    char quote = (*t == '"' || *t == '\'') ? *t++ : 0;
+    while (*t && (quote ? *t != quote : !isspace((unsigned char)*t)) && n + 1 < sizeof name)
+        name[n++] = *t++;
+    name[n] = '\0';
+    if (n == 0)
+        return line_error(ps, &here, ".include needs a file name");
+    char path[8192], dir[4096];
+    if (name[0] == '/')
+        snprintf(path, sizeof path, "%s", name);
+    else
+        snprintf(path, sizeof path, "%s/%s", dir_of(file, dir, sizeof dir), name);
+    return read_file(ps, path, &here, 0);
+}
+
+static ss_status finish_logical(parser *ps, ss_strbuf *cur, const char *file, int line_no)
+{
+    if (cur->len == 0)
+        return SS_OK;
+    if (cur->failed)
+        return nomem(ps);
+    ss_status st;
+    if (is_include(cur->data)) {
+        st = do_include(ps, file, line_no, cur->data);
+    } else {
+        for (size_t i = 0; i < cur->len; i++)
+            cur->data[i] = (char)tolower((unsigned char)cur->data[i]);
+        st = push_line(ps, file, line_no, cur->data);
+    }
+    cur->len = 0;
+    if (cur->data)
+        cur->data[0] = '\0';
+    return st;
+}
+
+static ss_status read_text(parser *ps, const char *text, size_t len, const char *file,
+                           int is_top)
+{
+    ss_strbuf cur = {0};
+    int cur_line = 0, line_no = 0;
+    size_t pos = 0;
+    ss_status st = SS_OK;
+    while (pos < len && st == SS_OK) {
+        size_t end = pos;
+        while (end < len && text[end] != '\n')
+            end++;
+        line_no++;
+        size_t n = end - pos;
+        if (n > NETLIST_MAX_LINE_BYTES) {
+            st = err_set(ps->err, SS_ERR_LIMIT, file, line_no, "line longer than %u bytes",
+                         NETLIST_MAX_LINE_BYTES);
+            break;
+        }
+        const char *l = text + pos;
+        pos = end + 1;
+        for (size_t i = 0; i < n; i++) {
+            if (l[i] == '\0' || ((unsigned char)l[i] < 0x20 && l[i] != '\t' && l[i] != '\r')) {
+                st = err_set(ps->err, SS_ERR_INPUT, file, line_no,
+                             "unexpected control character (byte 0x%02x): not a text netlist",
+                             (unsigned char)l[i]);
+                break;
+            }
+        }
+        if (st != SS_OK)
+            break;
+        if (is_top && line_no == 1) { /* the title line */
+            size_t tn = n;
+            while (tn > 0 && (l[tn - 1] == '\r' || isspace((unsigned char)l[tn - 1])))
+                tn--;
+            ps->ckt->title = arena_strndup(&ps->ckt->arena, l, tn);
+            if (!ps->ckt->title)
+                st = nomem(ps);
+            continue;
+        }
+        /* strip the trailing comment and CR */
+        size_t keep = 0;
+        while (keep < n && l[keep] != ';' && l[keep] != '\r')
+            keep++;
+        size_t first = 0;
+        while (first < keep && isspace((unsigned char)l[first]))
+            first++;
+        if (first == keep || l[first] == '*')
+            continue;
+        if (l[first] == '+') {
+            if (cur.len == 0) {
+                st = err_set(ps->err, SS_ERR_INPUT, file, line_no,
+                             "continuation line '+' with nothing to continue");
+                break;
+            }
+            strbuf_append(&cur, " ", 1);
+            strbuf_append(&cur, l + first + 1, keep - first - 1);
+            continue;
+        }
+        st = finish_logical(ps, &cur, file, cur_line);
+        if (st != SS_OK)
+            break;
+        cur_line = line_no;
+        strbuf_append(&cur, l + first, keep - first);
+    }
+    if (st == SS_OK)
+        st = finish_logical(ps, &cur, file, cur_line);
+    strbuf_clear(&cur);
+    return st;
+}
+
+/* ---- parameters and values --------------------------------------------------------------- */
+
+typedef struct lookup_ctx {
+    parser *ps;
+    const scope *sc;
+} lookup_ctx;
+
+static int eval_global_param(parser *ps, int idx, char *msg, size_t msg_len);
+
+static int scope_lookup(void *vctx, const char *name, double *out, char *msg, size_t msg_len)
+{
+    lookup_ctx *lc = vctx;
+    for (const scope *s = lc->sc; s; s = s->parent) {
+        for (int i = 0; i < s->n_params; i++) {
+            if (strcmp(s->pnames[i], name) == 0) {
+                *out = s->pvals[i];
+                return 0;
+            }
+        }
+    }
+    int idx;
+    if (strmap_get(&lc->ps->param_map, name, &idx)) {
+        if (eval_global_param(lc->ps, idx, msg, msg_len) != 0)
+            return -1;
+        *out = lc->ps->params[idx].value;
+        return 0;
+    }
+    if (strcmp(name, "pi") == 0) {
+        *out = SS_PI;
+        return 0;
+    }
+    snprintf(msg, msg_len, "unknown parameter '%s'", name);
+    return -1;
+}
+
+/* Evaluates an expression text in a scope: {braces} optional. */
+static int eval_text(parser *ps, const scope *sc, const char *text, double *out, char *msg,
+                     size_t msg_len)
+{
+    size_t n = strlen(text);
+    char buf[4096];
+    const char *t = text;
+    if (n >= 2 && text[0] == '{' && text[n - 1] == '}') {
+        if (n - 2 >= sizeof buf) {
+            snprintf(msg, msg_len, "expression too long");
+            return -1;
+        }
+        memcpy(buf, text + 1, n - 2);
+        buf[n - 2] = '\0';
+        t = buf;
+    }
+    lookup_ctx lc = {ps, sc};
+    return expr_eval(t, scope_lookup, &lc, out, msg, msg_len);
+}
+
+static int eval_global_param(parser *ps, int idx, char *msg, size_t msg_len)
+{
+    param_def *pd = &ps->params[idx];
+    if (pd->state == 2)
+        return 0;
+    if (pd->state == 1) {
+        snprintf(msg, msg_len, "parameter '%s' is defined in terms of itself", pd->name);
+        return -1;
+    }
+    pd->state = 1;
+    char inner[512] = "";
+    double v;
+    int rc = eval_text(ps, NULL, pd->text, &v, inner, sizeof inner);
+    if (rc != 0) {
+        /* keep the innermost reason; it names the parameter at fault */
+        snprintf(msg, msg_len, "%s", inner);
+        pd->state = 0;
+        return -1;
+    }
+    pd->value = v;
+    pd->state = 2;
+    return 0;
+}
+
+/* A value token on a line: number with suffix, or {expr}. */
+static int line_value(parser *ps, const logline *ll, const scope *sc, const char *tok,
+                      const char *owner, const char *what, double *out)
+{
+    if (tok[0] == '{') {
+        char msg[512];
+        if (eval_text(ps, sc, tok, out, msg, sizeof msg) != 0) {
+            line_error(ps, ll, "%s%s%s: %s", owner ? owner : "", owner ? ": " : "", what, msg);
+            return -1;
+        }
+        return 0;
+    }
+    if (value_parse(tok, out) != 0) {
+        double v;
+        size_t n = value_scan(tok, &v);
+        if (n > 0 && !isfinite(v))
+            line_error(ps, ll, "%s%sbad %s '%s': out of range", owner ? owner : "",
+                       owner ? ": " : "", what, tok);
+        else
+            line_error(ps, ll, "%s%sbad %s '%s': expected a number with an optional SI suffix "
+                               "or a {expression}",
+                       owner ? owner : "", owner ? ": " : "", what, tok);
+        return -1;
+    }
+    return 0;
+}
+
+/* Joins tokens [from, to) back into one expression text (for `name = 2 * x` forms). */
+static const char *join_tokens(parser *ps, const logline *ll, int from, int to)
+{
+    size_t len = 0;
+    for (int i = from; i < to; i++)
+        len += strlen(ll->tok[i]) + 1;
+    char *s = arena_alloc(&ps->ckt->arena, len + 1);
+    if (!s)
+        return NULL;
+    for (int i = from; i < to; i++) {
+        if (i > from)
+            strcat(s, " ");
+        strcat(s, ll->tok[i]);
+    }
+    return s;
+}
+
+/* Parses `name = value` pairs from token `from`; calls back with each name and value text. */
+typedef int (*assign_fn)(parser *ps, const logline *ll, void *ctx, const char *name,
+                         const char *text);
+
+static int parse_assignments(parser *ps, const logline *ll, int from, assign_fn fn, void *ctx)
+{
+    int i = from;
+    while (i < ll->n_tok) {
+        const char *name = ll->tok[i];
+        if (i + 2 > ll->n_tok || strcmp(ll->tok[i + 1], "=") != 0 ||
+            !(isalpha((unsigned char)name[0]) || name[0] == '_'))
+            return line_error(ps, ll, "expected name=value, got '%s'", name), -1;
+        int j = i + 2;
+        /* the value runs until the next `name =` or the end of the line */
+        while (j < ll->n_tok && !(j + 1 < ll->n_tok && strcmp(ll->tok[j + 1], "=") == 0))
+            j++;
+        if (j == i + 2)
+            return line_error(ps, ll, "missing value for '%s'", name), -1;
+        const char *text = (j == i + 3) ? ll->tok[i + 2] : join_tokens(ps, ll, i + 2, j);
+        if (!text)
+            return nomem(ps), -1;
+        if (fn(ps, ll, ctx, name, text) != 0)
+            return -1;
+        i = j;
+    }
+    return 0;
+}
+
+static const char *override_for(parser *ps, const char *name)
+{
+    for (int i = 0; i < ps->n_overrides; i++) {
+        if (strcasecmp_ascii_eq(ps->overrides[i].name, name)) {
+            ps->override_used[i] = 1;
+            return ps->overrides[i].value;
+        }
+    }
+    return NULL;
+}
+
+static int add_global_param(parser *ps, const logline *ll, void *ctx, const char *name,
+                            const char *text)
+{
+    (void)ctx;
+    int idx;
+    if (strmap_get(&ps->param_map, name, &idx))
+        return line_error(ps, ll, "parameter '%s' defined twice (first at %s:%d)", name,
+                          ps->params[idx].file, ps->params[idx].line),
+               -1;
+    if (ps->n_params == ps->cap_params) {
+        int ncap = ps->cap_params ? ps->cap_params * 2 : 32;
+        param_def *np = ss_realloc(ps->params, (size_t)ncap * sizeof *np);
+        if (!np)
+            return nomem(ps), -1;
+        ps->params = np;
+        ps->cap_params = ncap;
+    }
+    param_def *pd = &ps->params[ps->n_params];
+    memset(pd, 0, sizeof *pd);
+    pd->name = name;
+    const char *ov = override_for(ps, name);
+    pd->text = ov ? ov : text;
+    pd->file = ll->file;
+    pd->line = ll->line;
+    if (strmap_put(&ps->param_map, name, ps->n_params) != 0)
+        return nomem(ps), -1;
+    ps->n_params++;
+    return 0;
+}
+
+/* ---- pctx: the device-facing API --------------------------------------------------------- */
+
+const char *pctx_tok(const pctx *p, int i)
+{
+    return (i >= 0 && i < p->ll->n_tok) ? p->ll->tok[i] : NULL;
+}
+
+int pctx_ntok(const pctx *p) { return p->ll->n_tok; }
+
+int pctx_error(pctx *p, const char *fmt, ...)
+{
+    char msg[640];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    line_error(p->ps, p->ll, "%s: %s", p->elem_name, msg);
+    return -1;
+}
+
+const char *pctx_strdup(pctx *p, const char *s)
+{
+    const char *d = arena_strdup(&p->ps->ckt->arena, s);
+    if (!d)
+        nomem(p->ps);
+    return d;
+}
+
+static int is_ground_name(const char *t) { return strcmp(t, "0") == 0 || strcmp(t, "gnd") == 0; }
+
+static int valid_node_name(const char *t)
+{
+    if (!*t)
+        return 0;
+    for (; *t; t++)
+        if (*t == '=' || *t == '{' || *t == '}' || *t == '(' || *t == ')' || *t == '"')
+            return 0;
+    return 1;
+}
+
+int pctx_node(pctx *p, const char *tok)
+{
+    if (!tok)
+        return pctx_error(p, "missing node");
+    if (is_ground_name(tok))
+        return 0;
+    if (!valid_node_name(tok))
+        return pctx_error(p, "'%s' is not a valid node name", tok);
+    for (int i = 0; i < p->sc->n_ports; i++)
+        if (strcmp(p->sc->port_names[i], tok) == 0)
+            return p->sc->port_nodes[i];
+    char name[1024];
+    snprintf(name, sizeof name, "%s%s", p->sc->prefix, tok);
+    int idx = circuit_find_node(p->ps->ckt, name);
+    if (idx >= 0)
+        return idx;
+    idx = circuit_add_node(p->ps->ckt, name, 0);
+    if (idx < 0)
+        nomem(p->ps);
+    return idx;
+}
+
+int pctx_value(pctx *p, const char *tok, const char *what, double *out)
+{
+    if (!tok)
+        return pctx_error(p, "missing %s", what);
+    return line_value(p->ps, p->ll, p->sc, tok, p->elem_name, what, out);
+}
+
+int pctx_is_model(const pctx *p, const char *name)
+{
+    return name && strmap_get(&p->ps->ckt->model_map, name, NULL);
+}
+
+const model *pctx_model(pctx *p, const char *name, unsigned type_mask)
+{
+    int idx;
+    if (!name) {
+        pctx_error(p, "missing model name");
+        return NULL;
+    }
+    if (!strmap_get(&p->ps->ckt->model_map, name, &idx)) {
+        pctx_error(p, "unknown model '%s'", name);
+        return NULL;
+    }
+    const model *m = p->ps->ckt->models[idx];
+    if (!(type_mask & (1u << m->type))) {
+        static const char *const type_names[] = {"npn", "pnp", "d"}; /* ORDER MODEL_TYPE */
+        pctx_error(p, "model '%s' is of type %s, not usable for a %s", name,
+                   type_names[m->type], p->elem_name);
+        return NULL;
+    }
+    return m;
+}
+
+const char *pctx_scoped_name(pctx *p, const char *tok)
+{
+    char name[1024];
+    snprintf(name, sizeof name, "%s%s", p->sc->prefix, tok);
+    return pctx_strdup(p, name);
+}
+
+/* ---- models ------------------------------------------------------------------------------ */
+
+typedef struct model_ctx {
+    model *m;
+} model_ctx;
+
+static int set_model_param(parser *ps, const logline *ll, void *vctx, const char *name,
+                           const char *text)
+{
+    model *m = ((model_ctx *)vctx)->m;
+    int idx = model_param_index(m->type, name);
+    if (idx < 0)
+        return line_error(ps, ll, "model '%s': unknown parameter '%s' for a %s model", m->name,
+                          name, m->type == MODEL_D ? "diode" : "BJT"),
+               -1;
+    double v;
+    char what[64];
+    snprintf(what, sizeof what, "parameter %s", name);
+    if (line_value(ps, ll, NULL, text, m->name, what, &v) != 0)
+        return -1;
+    m->p[idx] = v;
+    m->given[idx] = 1;
+    return 0;
+}
+
+/* Checks the physical ranges the equations need (divisions, logarithms). */
+static int check_model(parser *ps, const logline *ll, const model *m)
+{
+    const dev_ops *ops = device_for_model_type(m->type);
+    for (int i = 0; i < ops->n_model_params; i++) {
+        const char *n = ops->model_params[i].name;
+        double v = m->p[i];
+        int positive = strcmp(n, "is") == 0 || strcmp(n, "n") == 0 || strcmp(n, "nf") == 0 ||
+                       strcmp(n, "nr") == 0 || strcmp(n, "ne") == 0 || strcmp(n, "nc") == 0 ||
+                       strcmp(n, "bf") == 0 || strcmp(n, "br") == 0 || strcmp(n, "vje") == 0 ||
+                       strcmp(n, "vjc") == 0 || strcmp(n, "vj") == 0;
+        int nonneg = strcmp(n, "rb") == 0 || strcmp(n, "re") == 0 || strcmp(n, "rc") == 0 ||
+                     strcmp(n, "rs") == 0 || strcmp(n, "ise") == 0 || strcmp(n, "isc") == 0 ||
+                     strcmp(n, "cje") == 0 || strcmp(n, "cjc") == 0 || strcmp(n, "cjo") == 0 ||
+                     strcmp(n, "tf") == 0 || strcmp(n, "tr") == 0 || strcmp(n, "tt") == 0 ||
+                     strcmp(n, "vaf") == 0 || strcmp(n, "var") == 0 || strcmp(n, "ikf") == 0 ||
+                     strcmp(n, "ikr") == 0;
+        if (positive && !(v > 0.0))
+            return line_error(ps, ll, "model '%s': %s must be positive, got %g", m->name, n, v),
+                   -1;
+        if (nonneg && v < 0.0)
+            return line_error(ps, ll, "model '%s': %s must not be negative, got %g", m->name, n,
+                              v),
+                   -1;
+        if ((strcmp(n, "fc") == 0) && !(v >= 0.0 && v < 1.0))
+            return line_error(ps, ll, "model '%s': fc must be in [0, 1), got %g", m->name, v), -1;
+    }
+    return 0;
+}
+
+static int define_model(parser *ps, const logline *ll)
+{
+    /* .model name type [(] p=v ... [)]  -- parentheses were taken apart below */
+    if (ll->n_tok < 3)
+        return line_error(ps, ll, ".model needs a name and a type (npn, pnp or d)"), -1;
+    const char *name = ll->tok[1];
+    char type_tok[64];
+    snprintf(type_tok, sizeof type_tok, "%s", ll->tok[2]);
+    char *paren = strchr(type_tok, '(');
+    if (paren)
+        *paren = '\0';
+    enum model_type t;
+    if (strcmp(type_tok, "npn") == 0)
+        t = MODEL_NPN;
+    else if (strcmp(type_tok, "pnp") == 0)
+        t = MODEL_PNP;
+    else if (strcmp(type_tok, "d") == 0)
+        t = MODEL_D;
+    else
+        return line_error(ps, ll, "model '%s': unknown type '%s' (expected npn, pnp or d)", name,
+                          type_tok),
+               -1;
+    if (strmap_get(&ps->ckt->model_map, name, NULL))
+        return line_error(ps, ll, "model '%s' defined twice", name), -1;
+    model *m = arena_alloc(&ps->ckt->arena, sizeof *m);
+    if (!m)
+        return nomem(ps), -1;
+    m->name = name;
+    m->type = t;
+    m->file = ll->file;
+    m->line = ll->line;
+    const dev_ops *ops = device_for_model_type(t);
+    for (int i = 0; i < ops->n_model_params; i++)
+        m->p[i] = ops->model_params[i].def;
+
+    /* Re-split the parameter text with parentheses as separators. */
+    logline sub = *ll;
+    const char *rest = join_tokens(ps, ll, 2, ll->n_tok);
+    if (!rest)
+        return nomem(ps), -1;
+    char *copy = arena_strdup(&ps->ckt->arena, rest);
+    if (!copy)
+        return nomem(ps), -1;
+    char *s = copy; /* skip the type word */
+    while (*s && !isspace((unsigned char)*s) && *s != '(')
+        s++;
+    int depth = 0;
+    for (char *q = s; *q; q++) {
+        if (*q == '{')
+            depth++;
+        else if (*q == '}')
+            depth--;
+        else if (depth == 0 && (*q == '(' || *q == ')'))
+            *q = ' ';
+    }
+    if (tokenize(ps, &sub, s) != SS_OK)
+        return -1;
+    model_ctx mc = {m};
+    if (parse_assignments(ps, &sub, 0, set_model_param, &mc) != 0)
+        return -1;
+    if (check_model(ps, ll, m) != 0)
+        return -1;
+    ss_circuit *ckt = ps->ckt;
+    if (ckt->n_models == ckt->cap_models) {
+        int ncap = ckt->cap_models ? ckt->cap_models * 2 : 16;
+        model **nm = ss_realloc(ckt->models, (size_t)ncap * sizeof *nm);
+        if (!nm)
+            return nomem(ps), -1;
+        ckt->models = nm;
+        ckt->cap_models = ncap;
+    }
+    if (strmap_put(&ckt->model_map, name, ckt->n_models) != 0)
+        return nomem(ps), -1;
+    ckt->models[ckt->n_models++] = m;
+    return 0;
+}
+
+/* ---- pass 1: subcircuit bodies, parameters, models ---------------------------------------- */
+
+static int is_directive(const logline *ll, const char *d) { return strcmp(ll->tok[0], d) == 0; }
+
+static int collect_subckt_header(parser *ps, const logline *ll, subckt_def *sd)
+{
+    if (ll->n_tok < 2)
+        return line_error(ps, ll, ".subckt needs a name"), -1;
+    sd->name = ll->tok[1];
+    sd->file = ll->file;
+    sd->line = ll->line;
+    int i = 2;
+    int first_param = ll->n_tok;
+    for (int j = 2; j < ll->n_tok; j++) {
+        if (strcmp(ll->tok[j], "params:") == 0 ||
+            (j + 1 < ll->n_tok && strcmp(ll->tok[j + 1], "=") == 0)) {
+            first_param = j;
+            break;
+        }
+    }
+    sd->n_ports = first_param - i;
+    sd->ports = (const char **)(ll->tok + i);
+    for (int j = 0; j < sd->n_ports; j++)
+        if (is_ground_name(sd->ports[j]))
+            return line_error(ps, ll, ".subckt %s: ground cannot be a port", sd->name), -1;
+    int pstart = first_param;
+    if (pstart < ll->n_tok && strcmp(ll->tok[pstart], "params:") == 0)
+        pstart++;
+    /* defaults: name = text pairs (texts evaluated per instance) */
+    int cap = ll->n_tok;
+    sd->pnames = arena_alloc(&ps->ckt->arena, (size_t)cap * sizeof *sd->pnames);
+    sd->ptexts = arena_alloc(&ps->ckt->arena, (size_t)cap * sizeof *sd->ptexts);
+    if (!sd->pnames || !sd->ptexts)
+        return nomem(ps), -1;
+    int k = pstart;
+    while (k < ll->n_tok) {
+        if (k + 2 >= ll->n_tok || strcmp(ll->tok[k + 1], "=") != 0)
+            return line_error(ps, ll, ".subckt %s: expected name=default, got '%s'", sd->name,
+                              ll->tok[k]),
+                   -1;
+        int j = k + 2;
+        while (j < ll->n_tok && !(j + 1 < ll->n_tok && strcmp(ll->tok[j + 1], "=") == 0))
+            j++;
+        const char *text = (j == k + 3) ? ll->tok[k + 2] : join_tokens(ps, ll, k + 2, j);
+        if (!text)
+            return nomem(ps), -1;
+        sd->pnames[sd->n_params] = ll->tok[k];
+        sd->ptexts[sd->n_params] = text;
+        sd->n_params++;
+        k = j;
+    }
+    return 0;
+}
+
+static ss_status pass1(parser *ps)
+{
+    int depth = 0;
+    int open_idx[NETLIST_MAX_SUBCKT_DEPTH];
+    for (int i = 0; i < ps->n_lines; i++) {
+        logline *ll = &ps->lines[i];
+        if (is_directive(ll, ".end") && depth == 0) {
+            ps->n_lines = i; /* everything after .end is ignored */
+            break;
+        }
+        if (is_directive(ll, ".subckt")) {
+            if (depth >= NETLIST_MAX_SUBCKT_DEPTH)
+                return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                               ".subckt definitions nested deeper than %d",
+                               NETLIST_MAX_SUBCKT_DEPTH);
+            if (depth > 0)
+                return line_error(ps, ll,
+                                  ".subckt inside .subckt %s: define subcircuits one after "
+                                  "another",
+                                  ps->subckts[open_idx[depth - 1]].name);
+            if (ps->n_subckts == ps->cap_subckts) {
+                int ncap = ps->cap_subckts ? ps->cap_subckts * 2 : 8;
+                subckt_def *ns = ss_realloc(ps->subckts, (size_t)ncap * sizeof *ns);
+                if (!ns)
+                    return nomem(ps);
+                ps->subckts = ns;
+                ps->cap_subckts = ncap;
+            }
+            subckt_def *sd = &ps->subckts[ps->n_subckts];
+            memset(sd, 0, sizeof *sd);
+            if (collect_subckt_header(ps, ll, sd) != 0)
+                return ps->err->code;
+            if (strmap_get(&ps->subckt_map, sd->name, NULL))
+                return line_error(ps, ll, ".subckt %s defined twice", sd->name);
+            if (strmap_put(&ps->subckt_map, sd->name, ps->n_subckts) != 0)
+                return nomem(ps);
+            sd->body_first = i + 1;
+            open_idx[depth++] = ps->n_subckts++;
+            continue;
+        }
+        if (is_directive(ll, ".ends")) {
+            if (depth == 0)
+                return line_error(ps, ll, ".ends without .subckt");
+            subckt_def *sd = &ps->subckts[open_idx[--depth]];
+            if (ll->n_tok > 1 && strcmp(ll->tok[1], sd->name) != 0)
+                return line_error(ps, ll, ".ends %s closes .subckt %s", ll->tok[1], sd->name);
+            sd->body_end = i;
+            continue;
+        }
+        if (is_directive(ll, ".model")) {
+            if (define_model(ps, ll) != 0)
+                return ps->err->code;
+            continue;
+        }
+        if (depth == 0 && is_directive(ll, ".param")) {
+            if (ll->n_tok < 2)
+                return line_error(ps, ll, ".param needs name=value");
+            if (parse_assignments(ps, ll, 1, add_global_param, NULL) != 0)
+                return ps->err->code;
+        }
+    }
+    if (depth > 0) {
+        subckt_def *sd = &ps->subckts[open_idx[depth - 1]];
+        return err_set(ps->err, SS_ERR_INPUT, sd->file, sd->line,
+                       ".subckt %s has no matching .ends", sd->name);
+    }
+    return SS_OK;
+}
+
+/* ---- pass 2: elements and analysis directives -------------------------------------------- */
+
+static ss_status build_lines(parser *ps, const scope *sc, int first, int end);
+
+static ss_status add_element(parser *ps, const logline *ll, const scope *sc)
+{
+    ss_circuit *ckt = ps->ckt;
+    const char *tok0 = ll->tok[0];
+    const dev_ops *ops = device_by_letter(tok0[0]);
+    if (!ops)
+        return line_error(ps, ll, "%s: unknown element type '%c'", tok0, tok0[0]);
+    if (ckt->n_elem >= NETLIST_MAX_ELEMENTS)
+        return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                       "more than %d elements", NETLIST_MAX_ELEMENTS);
+    char name[1024];
+    snprintf(name, sizeof name, "%s%s", sc->prefix, tok0);
+    int dup;
+    if (strmap_get(&ckt->elem_map, name, &dup))
+        return line_error(ps, ll, "%s: element name used twice (first at %s:%d)", name,
+                          ckt->elem[dup].file, ckt->elem[dup].line);
+    if (ckt->n_elem == ckt->cap_elem) {
+        int ncap = ckt->cap_elem ? ckt->cap_elem * 2 : 64;
+        element *ne = ss_realloc(ckt->elem, (size_t)ncap * sizeof *ne);
+        if (!ne)
+            return nomem(ps);
+        ckt->elem = ne;
+        ckt->cap_elem = ncap;
+    }
+    element *e = &ckt->elem[ckt->n_elem];
+    memset(e, 0, sizeof *e);
+    e->ops = ops;
+    e->name = arena_strdup(&ckt->arena, name);
+    if (!e->name)
+        return nomem(ps);
+    e->file = ll->file;
+    e->line = ll->line;
+    e->branch = -1;
+    e->ctrl_elem = -1;
+    pctx p = {ps, ll, sc, e->name};
+    if (ops->parse(&p, e) != 0)
+        return ps->err->code ? ps->err->code : SS_ERR_INPUT;
+    if (strmap_put(&ckt->elem_map, e->name, ckt->n_elem) != 0)
+        return nomem(ps);
+    ckt->n_elem++;
+    return SS_OK;
+}
+
+typedef struct inst_ctx {
+    const subckt_def *sd;
+    const char **names;
+    const char **texts;
+    int n;
+} inst_ctx;
+
+static int collect_inst_param(parser *ps, const logline *ll, void *vctx, const char *name,
+                              const char *text)
+{
+    inst_ctx *ic = vctx;
+    int known = 0;
+    for (int i = 0; i < ic->sd->n_params; i++)
+        if (strcmp(ic->sd->pnames[i], name) == 0)
+            known = 1;
+    if (!known)
+        return line_error(ps, ll, "%s: subcircuit '%s' has no parameter '%s'", ll->tok[0],
+                          ic->sd->name, name),
+               -1;
+    ic->names[ic->n] = name;
+    ic->texts[ic->n] = text;
+    ic->n++;
+    return 0;
+}
+
+typedef struct local_param_ctx {
+    scope *inner;
+    int room;
+    const char *xname, *subname;
+} local_param_ctx;
+
+static int add_local_param(parser *ps, const logline *ll, void *vctx, const char *name,
+                           const char *text)
+{
+    local_param_ctx *lp = vctx;
+    if (lp->room-- <= 0)
+        return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                       "more than 64 local parameters in subcircuit %s", lp->subname),
+               -1;
+    char msg[512];
+    double v;
+    if (eval_text(ps, lp->inner, text, &v, msg, sizeof msg) != 0)
+        return line_error(ps, ll, "%s: .param %s: %s", lp->xname, name, msg), -1;
+    lp->inner->pnames[lp->inner->n_params] = name;
+    lp->inner->pvals[lp->inner->n_params] = v;
+    lp->inner->n_params++;
+    return 0;
+}
+
+static ss_status expand_instance(parser *ps, const logline *ll, const scope *sc)
+{
+    /* Xname node... subckt [name=value ...] */
+    const char *xname = ll->tok[0];
+    int first_assign = ll->n_tok;
+    for (int j = 1; j < ll->n_tok; j++)
+        if (j + 1 < ll->n_tok && strcmp(ll->tok[j + 1], "=") == 0) {
+            first_assign = j;
+            break;
+        }
+    if (first_assign < 2)
+        return line_error(ps, ll, "%s: needs nodes and a subcircuit name", xname);
+    const char *sub = ll->tok[first_assign - 1];
+    int idx;
+    if (!strmap_get(&ps->subckt_map, sub, &idx))
+        return line_error(ps, ll, "%s: unknown subcircuit '%s'", xname, sub);
+    const subckt_def *sd = &ps->subckts[idx];
+    int n_nodes = first_assign - 2;
+    if (n_nodes != sd->n_ports)
+        return line_error(ps, ll, "%s: subcircuit '%s' has %d ports, %d nodes given", xname,
+                          sd->name, sd->n_ports, n_nodes);
+    if (sc->depth + 1 > NETLIST_MAX_SUBCKT_DEPTH)
+        return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                       "%s: subcircuits nested deeper than %d (is '%s' instantiating itself?)",
+                       xname, NETLIST_MAX_SUBCKT_DEPTH, sd->name);
+    ss_arena *ar = &ps->ckt->arena;
+    scope inner;
+    memset(&inner, 0, sizeof inner);
+    inner.parent = NULL; /* subcircuit bodies see their own parameters, then the globals */
+    inner.depth = sc->depth + 1;
+    char prefix[1024];
+    snprintf(prefix, sizeof prefix, "%s%s.", sc->prefix, xname);
+    inner.prefix = arena_strdup(ar, prefix);
+    int *port_nodes = arena_alloc(ar, (size_t)(n_nodes ? n_nodes : 1) * sizeof(int));
+    if (!inner.prefix || !port_nodes)
+        return nomem(ps);
+    pctx p = {ps, ll, sc, xname};
+    for (int i = 0; i < n_nodes; i++) {
+        port_nodes[i] = pctx_node(&p, ll->tok[1 + i]);
+        if (port_nodes[i] < 0)
+            return ps->err->code;
+    }
+    inner.port_names = sd->ports;
+    inner.port_nodes = port_nodes;
+    inner.n_ports = n_nodes;
+
+    /* parameters: instance values (evaluated in the caller's scope), else the defaults */
+    int cap = sd->n_params + 1;
+    inst_ctx ic = {sd, arena_alloc(ar, (size_t)cap * sizeof(char *)),
+                   arena_alloc(ar, (size_t)cap * sizeof(char *)), 0};
+    inner.pnames = arena_alloc(ar, (size_t)(cap + 64) * sizeof(char *));
+    inner.pvals = arena_alloc(ar, (size_t)(cap + 64) * sizeof(double));
+    if (!ic.names || !ic.texts || !inner.pnames || !inner.pvals)
+        return nomem(ps);
+    if (parse_assignments(ps, ll, first_assign, collect_inst_param, &ic) != 0)
+        return ps->err->code;
+    for (int i = 0; i < sd->n_params; i++) {
+        const char *text = sd->ptexts[i];
+        const scope *eval_scope = NULL; /* defaults: globals only */
+        for (int j = 0; j < ic.n; j++)
+            if (strcmp(ic.names[j], sd->pnames[i]) == 0) {
+                text = ic.texts[j];
+                eval_scope = sc;
+            }
+        char msg[512];
+        double v;
+        if (eval_text(ps, eval_scope, text, &v, msg, sizeof msg) != 0)
+            return line_error(ps, ll, "%s: parameter %s: %s", xname, sd->pnames[i], msg);
+        inner.pnames[inner.n_params] = sd->pnames[i];
+        inner.pvals[inner.n_params] = v;
+        inner.n_params++;
+    }
+    /* local .param lines in the body, in order, each seeing the ones before it */
+    local_param_ctx lp = {&inner, 64, xname, sd->name};
+    for (int i = sd->body_first; i < sd->body_end; i++) {
+        const logline *bl = &ps->lines[i];
+        if (is_directive(bl, ".param") && parse_assignments(ps, bl, 1, add_local_param, &lp) != 0)
+            return ps->err->code;
+    }
+    return build_lines(ps, &inner, sd->body_first, sd->body_end);
+}
+
+static int set_option(parser *ps, const logline *ll, void *vctx, const char *name,
+                      const char *text)
+{
+    (void)vctx;
+    double v;
+    if (line_value(ps, ll, NULL, text, ".options", name, &v) != 0)
+        return -1;
+    ss_options_set *o = &ps->ckt->opt;
+    if (strcmp(name, "tol_rel") == 0 && v > 0.0 && v < 1.0)
+        o->tol_rel = v;
+    else if (strcmp(name, "tol_v") == 0 && v > 0.0)
+        o->tol_v = v;
+    else if (strcmp(name, "tol_i") == 0 && v > 0.0)
+        o->tol_i = v;
+    else if (strcmp(name, "gmin") == 0 && v >= 0.0 && v < 1.0)
+        o->gmin = v;
+    else if (strcmp(name, "newton_iters") == 0 && v >= 1.0 && v <= 100000.0)
+        o->newton_iters = (int)v;
+    else if (strcmp(name, "tol_rel") == 0 || strcmp(name, "tol_v") == 0 ||
+             strcmp(name, "tol_i") == 0 || strcmp(name, "gmin") == 0 ||
+             strcmp(name, "newton_iters") == 0)
+        return line_error(ps, ll, ".options: %s = %g is out of range", name, v), -1;
+    else
+        return line_error(ps, ll,
+                          ".options: unknown option '%s' (known: tol_rel, tol_v, tol_i, gmin, "
+                          "newton_iters)",
+                          name),
+               -1;
+    return 0;
+}
+
+static int set_stage(parser *ps, const logline *ll, void *vctx, const char *name,
+                     const char *text)
+{
+    (void)vctx;
+    ss_circuit *ckt = ps->ckt;
+    if (strcmp(name, "in") == 0)
+        ckt->stage_in = text;
+    else if (strcmp(name, "out") == 0)
+        ckt->stage_out = text;
+    else if (strcmp(name, "load") == 0) {
+        double v;
+        if (line_value(ps, ll, NULL, text, ".stage", "load", &v) != 0)
+            return -1;
+        if (!(v > 0.0))
+            return line_error(ps, ll, ".stage: load must be a positive resistance, got %g", v),
+                   -1;
+        ckt->stage_load_ohm = v;
+    } else
+        return line_error(ps, ll, ".stage: unknown field '%s' (known: in, out, load)", name), -1;
+    return 0;
+}
+
+static ss_status directive(parser *ps, const logline *ll, const scope *sc)
+{
+    ss_circuit *ckt = ps->ckt;
+    const char *d = ll->tok[0];
+    int top = sc->depth == 0;
+    if (strcmp(d, ".param") == 0 || strcmp(d, ".model") == 0)
+        return SS_OK; /* handled in pass 1 / at instantiation */
+    if (!top)
+        return line_error(ps, ll, "%s is not allowed inside a .subckt", d);
+    if (strcmp(d, ".op") == 0) {
+        ckt->want_op = 1;
+        return SS_OK;
+    }
+    if (strcmp(d, ".end") == 0)
+        return SS_OK;
+    if (strcmp(d, ".temp") == 0) {
+        if (ll->n_tok != 2)
+            return line_error(ps, ll, ".temp takes one temperature in degrees Celsius");
+        double t;
+        if (line_value(ps, ll, NULL, ll->tok[1], NULL, "temperature", &t) != 0)
+            return SS_ERR_INPUT;
+        if (t <= -SS_ZERO_C_IN_K || t > 1000.0)
+            return line_error(ps, ll, ".temp %g C is outside -273.15 .. 1000 C", t);
+        ckt->temp_c = t;
+        return SS_OK;
+    }
+    if (strcmp(d, ".options") == 0 || strcmp(d, ".option") == 0)
+        return parse_assignments(ps, ll, 1, set_option, NULL) == 0 ? SS_OK : ps->err->code;
+    if (strcmp(d, ".stage") == 0) {
+        ckt->stage_file = ll->file;
+        ckt->stage_line = ll->line;
+        return parse_assignments(ps, ll, 1, set_stage, NULL) == 0 ? SS_OK : ps->err->code;
+    }
+    if (strcmp(d, ".dc") == 0) {
+        int n = ll->n_tok - 1;
+        if (n != 4 && n != 8)
+            return line_error(ps, ll, ".dc expects SRC start stop step [SRC2 start2 stop2 step2]");
+        ckt->n_dc = n / 4;
+        for (int k = 0; k < ckt->n_dc; k++) {
+            dc_sweep_spec *s = &ckt->dc[k];
+            s->src = ll->tok[1 + 4 * k];
+            s->file = ll->file;
+            s->line = ll->line;
+            if (line_value(ps, ll, NULL, ll->tok[2 + 4 * k], ".dc", "start", &s->start) ||
+                line_value(ps, ll, NULL, ll->tok[3 + 4 * k], ".dc", "stop", &s->stop) ||
+                line_value(ps, ll, NULL, ll->tok[4 + 4 * k], ".dc", "step", &s->step))
+                return SS_ERR_INPUT;
+            if (s->step == 0.0 || (s->stop - s->start) / s->step < 0.0)
+                return line_error(ps, ll, ".dc %s: step %g does not lead from %g to %g", s->src,
+                                  s->step, s->start, s->stop);
+            if (fabs((s->stop - s->start) / s->step) > 1e7)
+                return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                               ".dc %s: more than 1e7 points", s->src);
+        }
+        return SS_OK;
+    }
+    if (strcmp(d, ".ac") == 0) {
+        if (ll->n_tok != 5)
+            return line_error(ps, ll, ".ac expects dec|oct|lin N fstart fstop");
+        const char *t = ll->tok[1];
+        if (strcmp(t, "dec") == 0)
+            ckt->ac_type = AC_DEC;
+        else if (strcmp(t, "oct") == 0)
+            ckt->ac_type = AC_OCT;
+        else if (strcmp(t, "lin") == 0)
+            ckt->ac_type = AC_LIN;
+        else
+            return line_error(ps, ll, ".ac: sweep type '%s' is not dec, oct or lin", t);
+        double n, f1, f2;
+        if (line_value(ps, ll, NULL, ll->tok[2], ".ac", "point count", &n) ||
+            line_value(ps, ll, NULL, ll->tok[3], ".ac", "start frequency", &f1) ||
+            line_value(ps, ll, NULL, ll->tok[4], ".ac", "stop frequency", &f2))
+            return SS_ERR_INPUT;
+        if (!(n >= 1.0) || n != floor(n))
+            return line_error(ps, ll, ".ac: the point count must be a whole number >= 1, got %g",
+                              n);
+        if (n > 1e6)
+            return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                           ".ac: more than 1e6 points");
+        if (!(f1 > 0.0) || !(f2 > 0.0))
+            return line_error(ps, ll, ".ac: frequencies must be positive (got %g and %g Hz)", f1,
+                              f2);
+        if (f2 < f1)
+            return line_error(ps, ll, ".ac: stop frequency %g Hz is below start %g Hz", f2, f1);
+        ckt->want_ac = 1;
+        ckt->ac_points = (int)n;
+        ckt->ac_fstart_hz = f1;
+        ckt->ac_fstop_hz = f2;
+        return SS_OK;
+    }
+    if (strcmp(d, ".tran") == 0) {
+        ckt->want_tran = 1;
+        return SS_OK;
+    }
+    if (strcmp(d, ".noise") == 0) {
+        ckt->want_noise = 1;
+        return SS_OK;
+    }
+    if (strcmp(d, ".ends") == 0 || strcmp(d, ".subckt") == 0)
+        return SS_OK;
+    return line_error(ps, ll, "unknown directive '%s'", d);
+}
+
+static ss_status build_lines(parser *ps, const scope *sc, int first, int end)
+{
+    for (int i = first; i < end; i++) {
+        const logline *ll = &ps->lines[i];
+        const char *t = ll->tok[0];
+        ss_status st;
+        if (t[0] == '.') {
+            if (strcmp(t, ".subckt") == 0) { /* skip the body: instantiated by X lines */
+                int idx;
+                if (strmap_get(&ps->subckt_map, ll->tok[1], &idx))
+                    i = ps->subckts[idx].body_end;
+                continue;
+            }
+            st = directive(ps, ll, sc);
+        } else if (t[0] == 'x') {
+            st = expand_instance(ps, ll, sc);
+        } else {
+            st = add_element(ps, ll, sc);
+        }
+        if (st != SS_OK)
+            return ps->err->code ? ps->err->code : st;
+    }
+    return SS_OK;
+}
+
+/* ---- after parsing: controls, overrides, checks ------------------------------------------ */
+
+static ss_status resolve_controls(parser *ps)
+{
+    ss_circuit *ckt = ps->ckt;
+    for (int i = 0; i < ckt->n_elem; i++) {
+        element *e = &ckt->elem[i];
+        if (!e->ctrl_name)
+            continue;
+        int c = circuit_find_elem(ckt, e->ctrl_name);
+        if (c < 0 || ckt->elem[c].ops->letter != 'v')
+            return err_set(ps->err, SS_ERR_INPUT, e->file, e->line,
+                           "%s: controlling source '%s' is not a voltage source of the circuit",
+                           e->name, e->ctrl_name);
+        e->ctrl_elem = c;
+    }
+    return SS_OK;
+}
+
+static ss_status apply_late_overrides(parser *ps)
+{
+    ss_circuit *ckt = ps->ckt;
+    for (int i = 0; i < ps->n_overrides; i++) {
+        if (ps->override_used[i])
+            continue;
+        const ss_override *ov = &ps->overrides[i];
+        char name[512];
+        size_t k;
+        for (k = 0; ov->name[k] && k + 1 < sizeof name; k++)
+            name[k] = (char)tolower((unsigned char)ov->name[k]);
+        name[k] = '\0';
+        char vtext[512];
+        for (k = 0; ov->value[k] && k + 1 < sizeof vtext; k++)
+            vtext[k] = (char)tolower((unsigned char)ov->value[k]);
+        vtext[k] = '\0';
+        double v;
+        char msg[512];
+        if (eval_text(ps, NULL, vtext, &v, msg, sizeof msg) != 0)
+            return err_set(ps->err, SS_ERR_INPUT, NULL, 0, "--set %s=%s: %s", ov->name,
+                           ov->value, msg);
+        int e = circuit_find_elem(ckt, name);
+        if (e >= 0) {
+            element *el = &ckt->elem[e];
+            if (!el->ops->value_name)
+                return err_set(ps->err, SS_ERR_INPUT, NULL, 0,
+                               "--set %s: a %s has no single value to set (set its model's "
+                               "parameters as MODEL.PARAM)",
+                               ov->name, el->ops->kind_name);
+            if (el->ops->letter == 'r' && !(v > 0.0))
+                return err_set(ps->err, SS_ERR_INPUT, NULL, 0,
+                               "--set %s: resistance must be positive, got %g", ov->name, v);
+            if ((el->ops->letter == 'c' || el->ops->letter == 'l') && v < 0.0)
+                return err_set(ps->err, SS_ERR_INPUT, NULL, 0,
+                               "--set %s: %s must not be negative, got %g", ov->name,
+                               el->ops->value_name, v);
+            el->value = v;
+            continue;
+        }
+        char *dot = strrchr(name, '.');
+        if (dot) {
+            *dot = '\0';
+            int mi;
+            if (strmap_get(&ckt->model_map, name, &mi)) {
+                model *m = ckt->models[mi];
+                int pi = model_param_index(m->type, dot + 1);
+                if (pi < 0)
+                    return err_set(ps->err, SS_ERR_INPUT, NULL, 0,
+                                   "--set %s: model '%s' has no parameter '%s'", ov->name, name,
+                                   dot + 1);
+                m->p[pi] = v;
+                m->given[pi] = 1;
+                logline here = {m->file, m->line, NULL, 0};
+                if (check_model(ps, &here, m) != 0)
+                    return SS_ERR_INPUT;
+                continue;
+            }
+        }
+        return err_set(ps->err, SS_ERR_INPUT, NULL, 0,
+                       "--set %s: no parameter, element or model parameter of that name",
+                       ov->name);
+    }
+    return SS_OK;
+}
+
+static ss_status check_stage(parser *ps)
+{
+    ss_circuit *ckt = ps->ckt;
+    if (!ckt->stage_in && !ckt->stage_out)
+        return SS_OK;
+    if (!ckt->stage_in || !ckt->stage_out)
+        return err_set(ps->err, SS_ERR_INPUT, ckt->stage_file, ckt->stage_line,
+                       ".stage needs both in=SOURCE and out=NODE");
+    const char *in = ckt->stage_in, *out = ckt->stage_out;
+    ckt->stage_in = ckt->stage_out = NULL;
+    ss_error e2 = {0};
+    if (ss_circuit_set_stage(ckt, in, out, 0.0, &e2) != SS_OK)
+        return err_set(ps->err, SS_ERR_INPUT, ckt->stage_file, ckt->stage_line, "%s",
+                       e2.message);
+    return SS_OK;
+}
+
+static void parser_clear(parser *ps)
+{
+    ss_free(ps->lines);
+    ss_free(ps->params);
+    strmap_clear(&ps->param_map);
+    ss_free(ps->subckts);
+    strmap_clear(&ps->subckt_map);
+    ss_free(ps->override_used);
+}
+
+static ss_status parse_common(const char *path, const char *text, size_t text_len,
+                              const char *name, const ss_override *overrides, int n_overrides,
+                              ss_circuit **out_ckt, ss_error *err)
+{
+    ss_error local = {0};
+    if (!err)
+        err = &local;
+    memset(err, 0, sizeof *err);
+    ss_circuit *ckt = ss_alloc(sizeof *ckt);
+    if (!ckt)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    ckt->opt.tol_rel = 1e-3;
+    ckt->opt.tol_v = 1e-6;
+    ckt->opt.tol_i = 1e-12;
+    ckt->opt.gmin = 1e-12;
+    ckt->opt.newton_iters = 150;
+    ckt->temp_c = SS_TNOM_DEFAULT_C;
+    ckt->file = arena_strdup(&ckt->arena, path ? path : (name ? name : "<netlist>"));
+    parser ps = {0};
+    ps.ckt = ckt;
+    ps.err = err;
+    ps.overrides = overrides;
+    ps.n_overrides = n_overrides;
+    ss_status st = SS_OK;
+    if (!ckt->file || circuit_add_node(ckt, "0", 0) != 0)
+        st = nomem(&ps);
+    if (st == SS_OK && n_overrides > 0) {
+        ps.override_used = ss_alloc((size_t)n_overrides);
+        if (!ps.override_used)
+            st = nomem(&ps);
+    }
+    if (st == SS_OK) {
+        if (path) {
+            st = read_file(&ps, path, NULL, 1);
+        } else {
+            ps.inc_stack[ps.inc_depth++] = ckt->file;
+            st = read_text(&ps, text, text_len, ckt->file, 1);
+        }
+    }
+    if (st == SS_OK && !ckt->title)
+        st = err_set(err, SS_ERR_INPUT, ckt->file, 0, "empty netlist (no title line)");
+    if (st == SS_OK)
+        st = pass1(&ps);
+    if (st == SS_OK) {
+        scope top;
+        memset(&top, 0, sizeof top);
+        top.prefix = "";
+        st = build_lines(&ps, &top, 0, ps.n_lines);
+    }
+    if (st == SS_OK) {
+        /* evaluate every global parameter so an unused broken one is still reported */
+        for (int i = 0; i < ps.n_params && st == SS_OK; i++) {
+            char msg[512];
+            if (eval_global_param(&ps, i, msg, sizeof msg) != 0)
+                st = err_set(err, SS_ERR_INPUT, ps.params[i].file, ps.params[i].line,
+                             ".param %s: %s", ps.params[i].name, msg);
+        }
+    }
+    if (st == SS_OK)
+        st = resolve_controls(&ps);
+    if (st == SS_OK)
+        st = apply_late_overrides(&ps);
+    if (st == SS_OK && ckt->n_elem == 0)
+        st = err_set(err, SS_ERR_INPUT, ckt->file, 0, "the netlist has no elements");
+    if (st == SS_OK)
+        st = check_stage(&ps);
+    parser_clear(&ps);
+    if (st != SS_OK) {
+        if (err->code == SS_OK)
+            err_set(err, st, ckt->file, 0, "parse failed");
+        ss_circuit_destroy(&ckt);
+        return err->code;
+    }
+    *out_ckt = ckt;
+    return SS_OK;
+}
+
+ss_status ss_circuit_parse_file(const char *path, const ss_override *overrides, int n_overrides,
+                                ss_circuit **out_ckt, ss_error *err)
+{
+    return parse_common(path, NULL, 0, NULL, overrides, n_overrides, out_ckt, err);
+}
+
+ss_status ss_circuit_parse_text(const char *text, size_t text_len, const char *name,
+                                const ss_override *overrides, int n_overrides,
+                                ss_circuit **out_ckt, ss_error *err)
+{
+    return parse_common(NULL, text, text_len, name, overrides, n_overrides, out_ckt, err);
+}

@@ -1,0 +1,112 @@
+/* Numbers as netlists write them: a decimal number, an optional SI suffix and optional unit
+ * letters (`4.7kOhm`, `100nF`, `1meg`). Expressions in braces are left to expr.c. */
+#include <ctype.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "netlist/netlist.h"
+
+/* Scale of an SI suffix at s (lower case); sets *len to the suffix length, 0 for none.
+ * `meg` and `mil` are tried before `m` (common practice of netlist languages). */
+static double suffix_scale(const char *s, size_t *len)
+{
+    static const struct {
+        const char *text;
+        double scale;
+    } table[] = {
+        {"meg", 1e6}, {"mil", 25.4e-6}, {"t", 1e12}, {"g", 1e9}, {"k", 1e3}, {"m", 1e-3},
+        {"u", 1e-6},  {"n", 1e-9},      {"p", 1e-12}, {"f", 1e-15},
+    };
+    for (size_t i = 0; i < sizeof table / sizeof table[0]; i++) {
+        size_t n = strlen(table[i].text);
+        if (strncasecmp_ascii(s, table[i].text, n) == 0) {
+            *len = n;
+            return table[i].scale;
+        }
+    }
+    *len = 0;
+    return 1.0;
+}
+
+int strncasecmp_ascii(const char *a, const char *b, size_t n)
+{
+    for (size_t i = 0; i < n; i++) {
+        int ca = tolower((unsigned char)a[i]), cb = tolower((unsigned char)b[i]);
+        if (ca != cb)
+            return ca - cb;
+        if (ca == 0)
+            return 0;
+    }
+    return 0;
+}
+
+/* Length of the decimal number at s ([+-]digits[.digits][e[+-]digits]); 0 if none. */
+size_t value_number_len(const char *s)
+{
+    size_t i = 0, digits = 0;
+    if (s[i] == '+' || s[i] == '-')
+        i++;
+    while (isdigit((unsigned char)s[i])) {
+        i++;
+        digits++;
+    }
+    if (s[i] == '.') {
+        i++;
+        while (isdigit((unsigned char)s[i])) {
+            i++;
+            digits++;
+        }
+    }
+    if (digits == 0)
+        return 0;
+    if (s[i] == 'e' || s[i] == 'E') {
+        size_t j = i + 1;
+        if (s[j] == '+' || s[j] == '-')
+            j++;
+        if (isdigit((unsigned char)s[j])) {
+            while (isdigit((unsigned char)s[j]))
+                j++;
+            i = j;
+        }
+    }
+    return i;
+}
+
+size_t value_scan(const char *s, double *out)
+{
+    size_t n = value_number_len(s);
+    if (n == 0)
+        return 0;
+    char buf[64];
+    if (n >= sizeof buf)
+        return 0;
+    memcpy(buf, s, n);
+    buf[n] = '\0';
+    double v = strtod(buf, NULL);
+    size_t slen;
+    double scale = suffix_scale(s + n, &slen);
+    size_t i = n + slen;
+    while (isalpha((unsigned char)s[i])) /* unit letters: ignored */
+        i++;
+    *out = v * scale;
+    return i;
+}
+
+int value_parse(const char *text, double *out)
+{
+    double v;
+    size_t n = value_scan(text, &v);
+    if (n == 0 || text[n] != '\0' || !isfinite(v))
+        return -1;
+    *out = v;
+    return 0;
+}
+
+int strcasecmp_ascii_eq(const char *a, const char *b)
+{
+    for (; *a && *b; a++, b++)
+        if (tolower((unsigned char)*a) != tolower((unsigned char)*b))
+            return 0;
+    return *a == *b;
+}

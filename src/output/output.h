@@ -1,0 +1,16 @@
+/* Writers: CSV tables, the text report, SVG plots; atomic file replacement. */
+#ifndef SS_OUTPUT_H
+#define SS_OUTPUT_H
+
+#include <stdio.h>
+
+#include "util/util.h"
+
+/* Writes the bytes to path through a temporary file in the same folder and a rename, so an
+ * interrupted run leaves the old file or none. */
+SS_HIDDEN ss_status output_write_atomic(const char *path, const char *data, size_t len,
+                                        ss_error *err);
+/* Shortest text that reads back as the same double (%.15g, else %.17g); "" for NaN. */
+SS_HIDDEN int output_format_double(char *buf, size_t len, double v);
+
+#endif

@@ -1,0 +1,35 @@
+/* Public entry for the Bode plot: takes the stage tables, hands arrays to the SVG writer. */
+#include <math.h>
+#include <stdio.h>
+
+#include "netlist/circuit.h"
+#include "output/svg.h"
+#include "util/table.h"
+
+ss_status ss_plot_write_bode(const ss_circuit *ckt, const ss_table *stage,
+                             const ss_table *summary, const char *path, ss_error *err)
+{
+    int n = ss_table_rows(stage);
+    double *buf = ss_alloc((size_t)(3 * (n ? n : 1)) * sizeof *buf);
+    if (!buf)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    for (int k = 0; k < n; k++) {
+        buf[k] = ss_table_get(stage, k, 0);
+        buf[n + k] = ss_table_get(stage, k, 2);
+        buf[2 * n + k] = ss_table_get(stage, k, 3);
+    }
+    char title[512];
+    snprintf(title, sizeof title, "%s: v(%s) / %s", ckt->title ? ckt->title : "stage",
+             ckt->stage_out, ckt->stage_in);
+    svg_bode_input in = {title,
+                         buf,
+                         buf + n,
+                         buf + 2 * n,
+                         n,
+                         ss_table_lookup(summary, "f_low_hz", 0),
+                         ss_table_lookup(summary, "f_high_hz", 0),
+                         ss_table_lookup(summary, "gain_mid_db", 0)};
+    ss_status st = svg_write_bode(path, &in, err);
+    ss_free(buf);
+    return st;
+}

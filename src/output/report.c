@@ -1,0 +1,128 @@
+/* The human-readable report on a stream: node voltages, one row per transistor with region,
+ * diodes, and the stage block. Numbers in engineering notation; CSVs carry full precision. */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "analysis/analysis.h"
+#include "output/output.h"
+
+/* "4.70 k" style: value scaled to an SI prefix, 4 significant digits. */
+static const char *eng(char *buf, size_t len, double v, const char *unit)
+{
+    static const char *const prefix[] = {"f", "p", "n", "u", "m", "", "k", "M", "G", "T"};
+    if (!isfinite(v)) {
+        snprintf(buf, len, "%s", isnan(v) ? "-" : (v > 0 ? "inf" : "-inf"));
+        return buf;
+    }
+    if (v == 0.0) {
+        snprintf(buf, len, "0 %s", unit);
+        return buf;
+    }
+    int e3 = (int)floor(log10(fabs(v)) / 3.0);
+    if (e3 < -5)
+        e3 = -5;
+    if (e3 > 4)
+        e3 = 4;
+    double scaled = v / pow(10.0, 3.0 * e3);
+    /* rounding may carry to 1000: move up one prefix */
+    char tmp[32];
+    snprintf(tmp, sizeof tmp, "%.4g", scaled);
+    if (fabs(strtod(tmp, NULL)) >= 1000.0 && e3 < 4) {
+        e3++;
+        scaled = v / pow(10.0, 3.0 * e3);
+    }
+    snprintf(buf, len, "%.4g %s%s", scaled, prefix[e3 + 5], unit);
+    return buf;
+}
+
+static void report_stage(const ss_circuit *ckt, const ss_table *summary, FILE *f)
+{
+    char a[48], b[48];
+    fprintf(f, "\nStage: input source %s, output node %s", ckt->stage_in, ckt->stage_out);
+    if (ckt->stage_load_ohm > 0.0)
+        fprintf(f, ", load %s", eng(a, sizeof a, ckt->stage_load_ohm, "ohm"));
+    fprintf(f, "\n");
+    double g_db = ss_table_lookup(summary, "gain_mid_db", 0);
+    double f_mid = ss_table_lookup(summary, "f_mid_hz", 0);
+    double f_lo = ss_table_lookup(summary, "f_low_hz", 0);
+    double f_hi = ss_table_lookup(summary, "f_high_hz", 0);
+    double bw = ss_table_lookup(summary, "bandwidth_hz", 0);
+    double zin = ss_table_lookup(summary, "zin_mid_ohm", 0);
+    double zout = ss_table_lookup(summary, "zout_mid_ohm", 0);
+    fprintf(f, "  mid-band gain   %.3f dB (x%.4g) at %s\n", g_db, pow(10.0, g_db / 20.0),
+            eng(a, sizeof a, f_mid, "Hz"));
+    fprintf(f, "  low -3 dB       %s\n",
+            isnan(f_lo) ? "not in the swept range" : eng(a, sizeof a, f_lo, "Hz"));
+    fprintf(f, "  high -3 dB      %s\n",
+            isnan(f_hi) ? "not in the swept range" : eng(a, sizeof a, f_hi, "Hz"));
+    if (!isnan(bw))
+        fprintf(f, "  bandwidth       %s\n", eng(a, sizeof a, bw, "Hz"));
+    fprintf(f, "  Zin  (mid-band) %s\n", eng(a, sizeof a, zin, "ohm"));
+    fprintf(f, "  Zout (mid-band) %s\n", eng(b, sizeof b, zout, "ohm"));
+    if (ckt->stage_load_ohm > 0.0 && zout * 10.0 > ckt->stage_load_ohm)
+        fprintf(f,
+                "  warning: Zout is not ten times below the %s load; loading costs gain "
+                "(rule of thumb: Zout <= load/10)\n",
+                eng(a, sizeof a, ckt->stage_load_ohm, "ohm"));
+}
+
+static void capture_value(void *sink, const char *quantity, const char *elem_name, double v)
+{
+    (void)quantity;
+    (void)elem_name;
+    *(double *)sink = v;
+}
+
+void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f)
+{
+    char a[48], b[48], c[48], d[48], e_[48], g[48];
+    fprintf(f, "%s\n", ckt->title && ckt->title[0] ? ckt->title : "(untitled netlist)");
+    fprintf(f, "temperature %.2f C\n", ckt->temp_c);
+    if (!ckt->have_op && !summary)
+        return;
+    double vt = analysis_vt(ckt);
+    if (ckt->have_op) {
+        fprintf(f, "\nNode voltages\n");
+        for (int node = 1; node < ckt->n_nodes; node++)
+            if (!ckt->node_internal[node])
+                fprintf(f, "  %-20s %12.6f V\n", ckt->node_name[node], ckt->x_op[node - 1]);
+        int any = 0;
+        for (int i = 0; i < ckt->n_elem; i++) {
+            const element *el = &ckt->elem[i];
+            if (el->ops->letter != 'q')
+                continue;
+            if (!any++)
+                fprintf(f, "\nTransistors\n  %-12s %-4s %11s %11s %10s %10s %8s %11s %11s  %s\n",
+                        "name", "type", "Ic", "Ib", "Vbe", "Vce", "beta", "gm", "power",
+                        "region");
+            bjt_op_info info;
+            bjt_op_details(el, ckt->x_op, vt, ckt->opt.gmin, &info);
+            double beta = info.ib_a != 0.0 ? info.ic_a / info.ib_a : SS_NAN;
+            fprintf(f, "  %-12s %-4s %11s %11s %10s %10s %8.1f %11s %11s  %s\n", el->name,
+                    el->mod->type == MODEL_PNP ? "pnp" : "npn", eng(a, sizeof a, info.ic_a, "A"),
+                    eng(b, sizeof b, info.ib_a, "A"), eng(c, sizeof c, info.vbe_v, "V"),
+                    eng(d, sizeof d, info.vce_v, "V"), beta, eng(e_, sizeof e_, info.gm_s, "S"),
+                    eng(g, sizeof g, info.power_w, "W"), info.region);
+        }
+        any = 0;
+        for (int i = 0; i < ckt->n_elem; i++) {
+            const element *el = &ckt->elem[i];
+            if (el->ops->letter != 'd')
+                continue;
+            if (!any++)
+                fprintf(f, "\nDiodes\n  %-12s %11s %10s\n", "name", "Id", "Vd");
+            double vd = (el->node[0] ? ckt->x_op[el->node[0] - 1] : 0.0) -
+                        (el->node[1] ? ckt->x_op[el->node[1] - 1] : 0.0);
+            double x_id = SS_NAN; /* the diode current exactly as op.csv has it */
+            el->ops->report(el, ckt->x_op, vt, ckt->opt.gmin, capture_value, &x_id);
+            fprintf(f, "  %-12s %11s %10s\n", el->name, eng(a, sizeof a, x_id, "A"),
+                    eng(b, sizeof b, vd, "V"));
+        }
+    }
+    if (summary && ckt->stage_in)
+        report_stage(ckt, summary, f);
+    for (int i = 0; i < ckt->n_warnings; i++)
+        fprintf(f, "warning: %s\n", ckt->warnings[i]);
+}

@@ -1,0 +1,77 @@
+/* Shared helpers for every module: allocation (with failure injection for tests), an arena
+ * for netlist-lifetime data, a string hash map, error recording and physical constants. */
+#ifndef SS_UTIL_H
+#define SS_UTIL_H
+
+#include <stdarg.h>
+#include <stddef.h>
+#include <math.h>
+#include <stdint.h>
+
+#include "stagesim/stagesim.h"
+
+#define SS_HIDDEN __attribute__((visibility("hidden")))
+
+/* ---- allocation: every heap allocation of the library goes through these ---------------- */
+SS_HIDDEN void *ss_alloc(size_t size);             /* zeroed; NULL on failure */
+SS_HIDDEN void *ss_realloc(void *p, size_t size);  /* NULL on failure, p untouched */
+SS_HIDDEN void ss_free(void *p);
+SS_HIDDEN char *ss_strdup(const char *s);
+/* Test hooks: make the allocation with 0-based ordinal n fail (-1 disables); count calls. */
+SS_API void ss_alloc_fail_at(long n);
+SS_API long ss_alloc_count(void);
+
+/* ---- arena: many small allocations freed at once ------------------------------------------ */
+typedef struct ss_arena_block ss_arena_block;
+typedef struct ss_arena {
+    ss_arena_block *head;
+} ss_arena;
+SS_HIDDEN void *arena_alloc(ss_arena *a, size_t size); /* zeroed, 16-byte aligned */
+SS_HIDDEN char *arena_strdup(ss_arena *a, const char *s);
+SS_HIDDEN char *arena_strndup(ss_arena *a, const char *s, size_t n);
+SS_HIDDEN void arena_clear(ss_arena *a);
+
+/* ---- string -> int hash map (keys are borrowed; they must outlive the map) -------------- */
+typedef struct ss_strmap {
+    const char **keys;
+    int *vals;
+    size_t cap; /* power of two, 0 when empty */
+    size_t count;
+} ss_strmap;
+SS_HIDDEN int strmap_get(const ss_strmap *m, const char *key, int *out_val); /* 1 found */
+SS_HIDDEN int strmap_put(ss_strmap *m, const char *key, int val); /* 0 ok, -1 no memory */
+SS_HIDDEN void strmap_clear(ss_strmap *m);
+
+/* ---- errors ------------------------------------------------------------------------------ */
+/* Records the first error only: a later call with err->code already set changes nothing.
+ * Returns `code`, so callers can `return err_set(...)`. file may be NULL. */
+SS_HIDDEN ss_status err_set(ss_error *err, ss_status code, const char *file, int line,
+                            const char *fmt, ...) __attribute__((format(printf, 5, 6)));
+SS_HIDDEN ss_status err_vset(ss_error *err, ss_status code, const char *file, int line,
+                             const char *fmt, va_list ap);
+
+/* ---- growable string buffer (used by writers and the report) ------------------------------ */
+typedef struct ss_strbuf {
+    char *data;
+    size_t len, cap;
+    int failed; /* an allocation failed; contents are truncated */
+} ss_strbuf;
+SS_HIDDEN void strbuf_append(ss_strbuf *b, const char *s, size_t n);
+SS_HIDDEN void strbuf_printf(ss_strbuf *b, const char *fmt, ...)
+    __attribute__((format(printf, 2, 3)));
+SS_HIDDEN void strbuf_clear(ss_strbuf *b);
+
+/* ---- physical constants (exact in the 2019 SI; CODATA 2018) ------------------------------- */
+#define SS_BOLTZMANN_J_PER_K 1.380649e-23
+#define SS_ELEMENTARY_CHARGE_C 1.602176634e-19
+#define SS_ZERO_C_IN_K 273.15
+#define SS_TNOM_DEFAULT_C 27.0
+#define SS_PI 3.14159265358979323846
+#define SS_NAN ((double)NAN) /* glibc NAN is a float constant */
+
+static inline double thermal_voltage_v(double temp_k)
+{
+    return SS_BOLTZMANN_J_PER_K * temp_k / SS_ELEMENTARY_CHARGE_C;
+}
+
+#endif
