@@ -38,8 +38,8 @@ SS_HIDDEN ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error 
 /* Formats a singular-matrix error naming the unknown. */
 SS_HIDDEN ss_status report_singular(ss_circuit *ckt, int bad_unknown, const char *during,
                                     ss_error *err);
-/* Max |KCL residual| of x over node rows (devices re-evaluated at x, no limiting); *worst
- * gets the node unknown. */
+/* Largest KCL residual of x (terminal currents from each device's own equations, not its
+ * Newton stamps) as a multiple of the allowed residual; *worst gets the unknown. */
 SS_HIDDEN double op_kcl_residual(ss_circuit *ckt, const double *x, int *worst);
 
 /* AC: one complex solve at omega with the given source selection; result in ckt->work_zrhs. */

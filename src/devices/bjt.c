@@ -317,6 +317,27 @@ static void bjt_report(const element *e, const double *x, double vt_v, double gm
     fn(sink, "gm", e->name, info.gm_s);
 }
 
+/* Terminal currents from the model equations alone (not the Newton stamps). */
+static void bjt_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    double vbe, vbc;
+    junction_voltages(e, x, &vbe, &vbc);
+    bjt_eval_out o;
+    bjt_eval(e->tp, lc->vt_v, lc->gmin_s, vbe, vbc, &o);
+    double p = polarity(e);
+    rhs_add(resid, e->inode[TC], p * o.ic);
+    rhs_add(resid, e->inode[TB], p * o.ib);
+    rhs_add(resid, e->inode[TE], -p * (o.ic + o.ib));
+    static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
+    for (int t = 0; t < 3; t++) {
+        if (e->inode[t] == e->node[t])
+            continue;
+        double i_r = (xv(x, e->node[t]) - xv(x, e->inode[t])) / e->tp[r_of[t]];
+        rhs_add(resid, e->node[t], i_r);
+        rhs_add(resid, e->inode[t], -i_r);
+    }
+}
+
 const dev_ops bjt_ops = {
     .letter = 'q',
     .kind_name = "bipolar transistor",
@@ -325,6 +346,7 @@ const dev_ops bjt_ops = {
     .claim = bjt_claim,
     .temp = bjt_temp,
     .load_dc = bjt_load_dc,
+    .kcl = bjt_kcl,
     .load_ac = bjt_load_ac,
     .report = bjt_report,
     .value_name = NULL,

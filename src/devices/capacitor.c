@@ -22,12 +22,21 @@ static void cap_load_ac(const element *e, dev_ac_ctx *ac)
     zstamp_pair(ac->G, e->slot, SS_J * ac->omega * e->value);
 }
 
+static void cap_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    (void)e; /* no current at DC */
+    (void)x;
+    (void)lc;
+    (void)resid;
+}
+
 const dev_ops capacitor_ops = {
     .letter = 'c',
     .kind_name = "capacitor",
     .parse = cap_parse,
     .claim = cap_claim,
     .load_dc = cap_load_dc,
+    .kcl = cap_kcl,
     .load_ac = cap_load_ac,
     .value_name = "capacitance",
 };

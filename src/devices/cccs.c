@@ -35,12 +35,21 @@ static void cccs_load_ac(const element *e, dev_ac_ctx *ac)
     zstamp_add(ac->G, e->slot[1], -e->value);
 }
 
+static void cccs_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    (void)lc;
+    double i_a = e->value * x[lc->ckt_elem[e->ctrl_elem].branch];
+    rhs_add(resid, e->node[0], i_a);
+    rhs_add(resid, e->node[1], -i_a);
+}
+
 const dev_ops cccs_ops = {
     .letter = 'f',
     .kind_name = "current-controlled current source",
     .parse = cccs_parse,
     .claim = cccs_claim,
     .load_dc = cccs_load_dc,
+    .kcl = cccs_kcl,
     .load_ac = cccs_load_ac,
     .value_name = "gain",
 };

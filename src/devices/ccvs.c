@@ -43,6 +43,14 @@ static void ccvs_load_ac(const element *e, dev_ac_ctx *ac)
     zstamp_add(ac->G, e->slot[4], -e->value);
 }
 
+static void ccvs_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    rhs_add(resid, e->node[0], x[e->branch]);
+    rhs_add(resid, e->node[1], -x[e->branch]);
+    resid[e->branch] += xv(x, e->node[0]) - xv(x, e->node[1]) -
+                        e->value * x[lc->ckt_elem[e->ctrl_elem].branch];
+}
+
 const dev_ops ccvs_ops = {
     .letter = 'h',
     .kind_name = "current-controlled voltage source",
@@ -50,6 +58,7 @@ const dev_ops ccvs_ops = {
     .setup = ccvs_setup,
     .claim = ccvs_claim,
     .load_dc = ccvs_load_dc,
+    .kcl = ccvs_kcl,
     .load_ac = ccvs_load_ac,
     .value_name = "transresistance",
 };

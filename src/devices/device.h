@@ -35,6 +35,7 @@ typedef struct dev_load_ctx {
     double vt_v;        /* thermal voltage at the circuit temperature */
     enum load_mode mode;
     int limited;        /* set when a device limited a junction voltage */
+    const element *ckt_elem; /* the circuit's element array (controlled sources' controls) */
 } dev_load_ctx;
 
 typedef struct dev_ac_ctx {
@@ -75,6 +76,10 @@ typedef struct dev_ops {
     /* temperature and area adjustment of model parameters into e->tp; NULL when none */
     void (*temp)(element *e, double temp_k);
     void (*load_dc)(element *e, dev_load_ctx *lc);
+    /* adds the element's terminal currents at x (into the device, from its own equations,
+     * not its Newton stamps) to resid[node unknown], and its branch equation's residual to
+     * resid[branch]: the independent check of a converged answer */
+    void (*kcl)(const element *e, const double *x, const dev_load_ctx *lc, double *resid);
     void (*load_ac)(const element *e, dev_ac_ctx *ac);
     /* op.csv rows at the solution x; NULL when none */
     void (*report)(const element *e, const double *x, double vt_v, double gmin_s,

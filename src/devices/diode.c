@@ -123,6 +123,22 @@ static void diode_report(const element *e, const double *x, double vt_v, double 
     fn(sink, "id", e->name, id);
 }
 
+/* Terminal currents from the device equations alone (not the Newton stamps). */
+static void diode_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    const double *tp = e->tp;
+    double vd = xv(x, e->inode[0]) - xv(x, e->node[1]);
+    double gd;
+    double id = junction_current(tp[DP_IS], vd, tp[DP_N] * lc->vt_v, &gd) + lc->gmin_s * vd;
+    rhs_add(resid, e->inode[0], id);
+    rhs_add(resid, e->node[1], -id);
+    if (e->inode[0] != e->node[0]) {
+        double i_rs = (xv(x, e->node[0]) - xv(x, e->inode[0])) / tp[DP_RS];
+        rhs_add(resid, e->node[0], i_rs);
+        rhs_add(resid, e->inode[0], -i_rs);
+    }
+}
+
 const dev_ops diode_ops = {
     .letter = 'd',
     .kind_name = "diode",
@@ -131,6 +147,7 @@ const dev_ops diode_ops = {
     .claim = diode_claim,
     .temp = diode_temp,
     .load_dc = diode_load_dc,
+    .kcl = diode_kcl,
     .load_ac = diode_load_ac,
     .report = diode_report,
     .model_params = diode_params,

@@ -35,6 +35,14 @@ static void ind_load_ac(const element *e, dev_ac_ctx *ac)
     zstamp_add(ac->G, e->slot[4], -SS_J * ac->omega * e->value);
 }
 
+static void ind_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    (void)lc;
+    rhs_add(resid, e->node[0], x[e->branch]);
+    rhs_add(resid, e->node[1], -x[e->branch]);
+    resid[e->branch] += xv(x, e->node[0]) - xv(x, e->node[1]);
+}
+
 const dev_ops inductor_ops = {
     .letter = 'l',
     .kind_name = "inductor",
@@ -42,6 +50,7 @@ const dev_ops inductor_ops = {
     .setup = ind_setup,
     .claim = ind_claim,
     .load_dc = ind_load_dc,
+    .kcl = ind_kcl,
     .load_ac = ind_load_ac,
     .value_name = "inductance",
 };

@@ -25,12 +25,21 @@ static void isrc_load_ac(const element *e, dev_ac_ctx *ac)
     zrhs_add(ac->rhs, e->node[1], i_a);
 }
 
+static void isrc_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    (void)x;
+    double i_a = e->value * lc->src_scale;
+    rhs_add(resid, e->node[0], i_a);
+    rhs_add(resid, e->node[1], -i_a);
+}
+
 const dev_ops isource_ops = {
     .letter = 'i',
     .kind_name = "current source",
     .parse = isrc_parse,
     .claim = isrc_claim,
     .load_dc = isrc_load_dc,
+    .kcl = isrc_kcl,
     .load_ac = isrc_load_ac,
     .value_name = "DC value",
 };

@@ -18,12 +18,21 @@ static void res_load_ac(const element *e, dev_ac_ctx *ac)
     zstamp_pair(ac->G, e->slot, 1.0 / e->value);
 }
 
+static void res_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    (void)lc;
+    double i_a = (xv(x, e->node[0]) - xv(x, e->node[1])) / e->value;
+    rhs_add(resid, e->node[0], i_a);
+    rhs_add(resid, e->node[1], -i_a);
+}
+
 const dev_ops resistor_ops = {
     .letter = 'r',
     .kind_name = "resistor",
     .parse = res_parse,
     .claim = res_claim,
     .load_dc = res_load_dc,
+    .kcl = res_kcl,
     .load_ac = res_load_ac,
     .value_name = "resistance",
 };

@@ -36,12 +36,21 @@ static void vccs_load_ac(const element *e, dev_ac_ctx *ac)
     zstamp_add(ac->G, e->slot[3], g);
 }
 
+static void vccs_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    (void)lc;
+    double i_a = e->value * (xv(x, e->node[2]) - xv(x, e->node[3]));
+    rhs_add(resid, e->node[0], i_a);
+    rhs_add(resid, e->node[1], -i_a);
+}
+
 const dev_ops vccs_ops = {
     .letter = 'g',
     .kind_name = "voltage-controlled current source",
     .parse = vccs_parse,
     .claim = vccs_claim,
     .load_dc = vccs_load_dc,
+    .kcl = vccs_kcl,
     .load_ac = vccs_load_ac,
     .value_name = "transconductance",
 };

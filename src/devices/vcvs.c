@@ -44,6 +44,15 @@ static void vcvs_load_ac(const element *e, dev_ac_ctx *ac)
     zstamp_add(ac->G, e->slot[5], e->value);
 }
 
+static void vcvs_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    (void)lc;
+    rhs_add(resid, e->node[0], x[e->branch]);
+    rhs_add(resid, e->node[1], -x[e->branch]);
+    resid[e->branch] += xv(x, e->node[0]) - xv(x, e->node[1]) -
+                        e->value * (xv(x, e->node[2]) - xv(x, e->node[3]));
+}
+
 const dev_ops vcvs_ops = {
     .letter = 'e',
     .kind_name = "voltage-controlled voltage source",
@@ -51,6 +60,7 @@ const dev_ops vcvs_ops = {
     .setup = vcvs_setup,
     .claim = vcvs_claim,
     .load_dc = vcvs_load_dc,
+    .kcl = vcvs_kcl,
     .load_ac = vcvs_load_ac,
     .value_name = "gain",
 };

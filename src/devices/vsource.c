@@ -45,6 +45,13 @@ static void vsrc_report(const element *e, const double *x, double vt_v, double g
     fn(sink, "i", e->name, x[e->branch]);
 }
 
+static void vsrc_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
+{
+    rhs_add(resid, e->node[0], x[e->branch]);
+    rhs_add(resid, e->node[1], -x[e->branch]);
+    resid[e->branch] += xv(x, e->node[0]) - xv(x, e->node[1]) - e->value * lc->src_scale;
+}
+
 const dev_ops vsource_ops = {
     .letter = 'v',
     .kind_name = "voltage source",
@@ -52,6 +59,7 @@ const dev_ops vsource_ops = {
     .setup = vsrc_setup,
     .claim = vsrc_claim,
     .load_dc = vsrc_load_dc,
+    .kcl = vsrc_kcl,
     .load_ac = vsrc_load_ac,
     .report = vsrc_report,
     .value_name = "DC value",

@@ -110,6 +110,7 @@ struct ss_circuit {
     double _Complex *work_zrhs;   /* AC right-hand side, n_unknowns */
     double _Complex *work_zx;     /* AC second solution (output-impedance test) */
     double last_rcond;
+    double last_kcl_residual;
 
     const char **warnings;
     int n_warnings;
