@@ -38,7 +38,8 @@ ss_status newton_solve(ss_circuit *ckt, double *x, const newton_params *np, newt
     res->worst_unknown = -1;
     res->bad_unknown = -1;
     int polish = NEWTON_POLISH_MAX;
-    for (int it = 0; it < np->max_iter + NEWTON_POLISH_MAX; it++) {
+    /* the polish iterations come on top of max_iter, never instead of it */
+    for (int it = 0; it < np->max_iter || (polish < NEWTON_POLISH_MAX && polish > 0); it++) {
         memset(G, 0, (size_t)nnz * sizeof *G);
         memset(rhs, 0, (size_t)n * sizeof *rhs);
         dev_load_ctx lc = {G,
@@ -193,7 +194,8 @@ static ss_status source_stepping(ss_circuit *ckt, double *x, int *iters, int *st
 {
     int n = ckt->n_unknowns;
     memset(x, 0, (size_t)n * sizeof *x);
-    newton_params np = {0.0, 0.0, LOAD_INIT_JUNCTION, ckt->opt.newton_iters};
+    /* at lambda = 0 every source is off and x = 0 is the answer: start there as it is */
+    newton_params np = {0.0, 0.0, LOAD_FROM_X, ckt->opt.newton_iters};
     ss_status st = newton_solve(ckt, x, &np, last);
     *iters += last->iterations;
     if (st != SS_OK)

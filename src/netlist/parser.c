@@ -1,8 +1,10 @@
 /* Netlist parser: reads files (with .include), joins continuation lines, tokenises, collects
  * .param/.subckt/.model, then builds the flat circuit, expanding X instances. Device syntax
  * is each device's own parse (through pctx_*); solving is left to src/analysis. */
+#define _DEFAULT_SOURCE /* realpath */
 #include <ctype.h>
 #include <errno.h>
+#include <limits.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -165,8 +167,12 @@ static char *dir_of(const char *path, char *buf, size_t len)
 
 static ss_status read_file(parser *ps, const char *path, const logline *from, int is_top)
 {
+    /* compare canonical paths, so lib/../top.cir is recognised as top.cir */
+    char canon[PATH_MAX];
+    if (!realpath(path, canon))
+        snprintf(canon, sizeof canon, "%s", path);
     for (int i = 0; i < ps->inc_depth; i++)
-        if (strcmp(ps->inc_stack[i], path) == 0)
+        if (strcmp(ps->inc_stack[i], canon) == 0)
             return line_error(ps, from, ".include of '%s' includes itself (cycle)", path);
     if (ps->inc_depth > NETLIST_MAX_INCLUDE_DEPTH)
         return err_set(ps->err, SS_ERR_LIMIT, from ? from->file : path, from ? from->line : 0,
@@ -198,7 +204,12 @@ static ss_status read_file(parser *ps, const char *path, const logline *from, in
         strbuf_clear(&b);
         return nomem(ps);
     }
-    ps->inc_stack[ps->inc_depth++] = file;
+    const char *canon_copy = arena_strdup(&ps->ckt->arena, canon);
+    if (!canon_copy) {
+        strbuf_clear(&b);
+        return nomem(ps);
+    }
+    ps->inc_stack[ps->inc_depth++] = canon_copy;
     ss_status st = read_text(ps, b.data ? b.data : "", b.len, file, is_top);
     ps->inc_depth--;
     strbuf_clear(&b);
@@ -833,7 +844,7 @@ static int collect_subckt_header(parser *ps, const logline *ll, subckt_def *sd)
 static ss_status pass1(parser *ps)
 {
     int depth = 0;
-    int open_idx[NETLIST_MAX_SUBCKT_DEPTH];
+    int open_idx[NETLIST_MAX_SUBCKT_DEPTH] = {0};
     for (int i = 0; i < ps->n_lines; i++) {
         logline *ll = &ps->lines[i];
         if (is_directive(ll, ".end") && depth == 0) {

@@ -188,7 +188,7 @@ static void format_freq(char *buf, size_t buf_len, double freq_hz, int sig, int 
  * prints as zero gets no sign. */
 static void format_tick(char *buf, size_t buf_len, double v, double step)
 {
-    char digits[64];
+    char digits[48];
     int dec = step >= 1.0 ? 0 : (int)ceil(-log10(step) - 1e-9);
     if (dec > 9)
         dec = 9;

@@ -1,0 +1,361 @@
+/* Netlist module: SI values, expressions, continuation/comments/case, .param, .subckt
+ * expansion, .include, and the located error messages. */
+#define _DEFAULT_SOURCE /* mkdtemp */
+#include "ss_test.h"
+
+#include <stdlib.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include "netlist/circuit.h"
+#include "netlist/netlist.h"
+
+/* ---- values: SI suffixes are the trade's convention (common practice) --------------------- */
+
+static void test_si_suffix_meg_is_1e6(void **state)
+{
+    (void)state;
+    double v;
+    assert_int_equal(value_parse("1meg", &v), 0);
+    ss_assert_close(v, 1e6, 1e-15, 0);
+    assert_int_equal(value_parse("2.2MEG", &v), 0);
+    ss_assert_close(v, 2.2e6, 1e-15, 0);
+}
+
+static void test_si_suffix_table(void **state)
+{
+    (void)state;
+    const struct {
+        const char *text;
+        double value;
+    } cases[] = {
+        {"1t", 1e12},      {"1g", 1e9},     {"4.7k", 4.7e3},  {"10m", 10e-3}, {"3u", 3e-6},
+        {"100n", 100e-9},  {"22p", 22e-12}, {"1f", 1e-15},    {"1mil", 25.4e-6},
+        {"4.7kOhm", 4.7e3}, {"100nF", 100e-9}, {"5V", 5.0},  {"1e3", 1e3},   {"-2.5e-3", -2.5e-3},
+        {".5", 0.5},       {"1.5E+2k", 150e3},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        double v = 0;
+        assert_int_equal(value_parse(cases[i].text, &v), 0);
+        ss_assert_close(v, cases[i].value, 1e-15, 0);
+    }
+}
+
+static void test_bad_values_rejected(void **state)
+{
+    (void)state;
+    const char *bad[] = {"", "abc", "k", "1..2", "10x5", "1k2", "1e400", "--1", "1.5.3"};
+    for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+        double v;
+        assert_int_not_equal(value_parse(bad[i], &v), 0);
+    }
+}
+
+/* ---- expressions -------------------------------------------------------------------------- */
+
+static int no_names(void *ctx, const char *name, double *out, char *msg, size_t len)
+{
+    (void)ctx;
+    if (strcmp(name, "rc") == 0) {
+        *out = 4700.0;
+        return 0;
+    }
+    snprintf(msg, len, "unknown parameter '%s'", name);
+    (void)out;
+    return -1;
+}
+
+static double eval_ok(const char *text)
+{
+    double v = NAN;
+    char msg[256] = "";
+    if (expr_eval(text, no_names, NULL, &v, msg, sizeof msg) != 0) {
+        print_error("'%s': %s\n", text, msg);
+        fail();
+    }
+    return v;
+}
+
+static void test_expr_precedence_and_power(void **state)
+{
+    (void)state;
+    ss_assert_close(eval_ok("1 + 2 * 3"), 7.0, 0, 0);
+    ss_assert_close(eval_ok("(1 + 2) * 3"), 9.0, 0, 0);
+    ss_assert_close(eval_ok("2 ^ 3 ^ 2"), 512.0, 0, 0); /* right-associative */
+    ss_assert_close(eval_ok("-2 ^ 2"), 4.0, 0, 0);     /* unary minus binds to the operand */
+    ss_assert_close(eval_ok("10 / 4 - 1"), 1.5, 0, 0);
+    ss_assert_close(eval_ok("2 * rc"), 9400.0, 0, 0);
+    ss_assert_close(eval_ok("4.7k * 2"), 9400.0, 1e-15, 0);
+}
+
+static void test_expr_functions(void **state)
+{
+    (void)state;
+    ss_assert_close(eval_ok("sqrt(16)"), 4.0, 0, 0);
+    ss_assert_close(eval_ok("exp(0)"), 1.0, 0, 0);
+    ss_assert_close(eval_ok("ln(exp(2))"), 2.0, 1e-15, 0);
+    ss_assert_close(eval_ok("log10(1000)"), 3.0, 1e-15, 0);
+    ss_assert_close(eval_ok("abs(-3)"), 3.0, 0, 0);
+    ss_assert_close(eval_ok("min(2, 5) + max(2, 5)"), 7.0, 0, 0);
+    ss_assert_close(eval_ok("pow(2, 10)"), 1024.0, 0, 0);
+}
+
+static void test_expr_errors_have_messages(void **state)
+{
+    (void)state;
+    const struct {
+        const char *text, *msg;
+    } cases[] = {
+        {"1 / 0", "division by zero"},
+        {"2 * foo", "unknown parameter 'foo'"},
+        {"sqrt(2", "missing ')'"},
+        {"frob(2)", "unknown function 'frob'"},
+        {"1 +", "expression ends too early"},
+        {"exp(1000)", "not finite"},
+        {"1 $ 2", "unexpected"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        double v;
+        char msg[256] = "";
+        assert_int_not_equal(expr_eval(cases[i].text, no_names, NULL, &v, msg, sizeof msg), 0);
+        ss_assert_contains(msg, cases[i].msg);
+    }
+}
+
+static void test_expr_nesting_limit(void **state)
+{
+    (void)state;
+    char text[2000];
+    size_t n = 0;
+    for (int i = 0; i < 300; i++)
+        text[n++] = '(';
+    text[n++] = '1';
+    for (int i = 0; i < 300; i++)
+        text[n++] = ')';
+    text[n] = '\0';
+    double v;
+    char msg[256] = "";
+    assert_int_not_equal(expr_eval(text, no_names, NULL, &v, msg, sizeof msg), 0);
+    ss_assert_contains(msg, "nested too deeply");
+}
+
+/* ---- netlist structure -------------------------------------------------------------------- */
+
+static void test_continuation_comments_case(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse("Title line is ignored\n"
+                                    "* a comment\n"
+                                    "V1 IN 0 DC 10 ; trailing comment\n"
+                                    "R1 in\n"
+                                    "+ MID 1K\n"
+                                    "r2 mid 0 {1k}\n"
+                                    ".END\n"
+                                    "R3 this line is after .end\n");
+    assert_int_equal(ckt->n_elem, 3);
+    assert_string_equal(ckt->title, "Title line is ignored");
+    assert_true(circuit_find_node(ckt, "mid") > 0);
+    assert_int_equal(circuit_find_elem(ckt, "r1"), 1);
+    ss_assert_close(ckt->elem[1].value, 1000.0, 0, 0);
+    ss_circuit_destroy(&ckt);
+    assert_null(ckt);
+}
+
+static void test_param_order_free_and_override(void **state)
+{
+    (void)state;
+    const char *text = "params\n"
+                       ".param rtot = {ra + rb}\n"
+                       ".param ra=1k rb = 2 * ra\n"
+                       "v1 a 0 1\n"
+                       "r1 a 0 {rtot}\n";
+    ss_circuit *ckt = ss_test_parse(text);
+    ss_assert_close(ckt->elem[1].value, 3000.0, 1e-15, 0);
+    ss_circuit_destroy(&ckt);
+    ss_override ov[] = {{"RA", "2k"}};
+    ss_error err = {0};
+    assert_int_equal(ss_circuit_parse_text(text, strlen(text), "t.cir", ov, 1, &ckt, &err), SS_OK);
+    ss_assert_close(ckt->elem[1].value, 6000.0, 1e-15, 0);
+    ss_circuit_destroy(&ckt);
+}
+
+static void test_override_element_and_model_param(void **state)
+{
+    (void)state;
+    const char *text = "ovr\n"
+                       ".model qg npn bf=100\n"
+                       "v1 c 0 5\nv2 b 0 0.7\nq1 c b 0 qg\nr9 c 0 1k\n";
+    ss_override ov[] = {{"r9", "2.2k"}, {"qg.bf", "250"}};
+    ss_circuit *ckt = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_circuit_parse_text(text, strlen(text), "t.cir", ov, 2, &ckt, &err), SS_OK);
+    ss_assert_close(ckt->elem[3].value, 2200.0, 1e-15, 0);
+    ss_assert_close(ckt->models[0]->p[1], 250.0, 0, 0);
+    ss_circuit_destroy(&ckt);
+    ss_override bad[] = {{"nosuch", "1"}};
+    assert_int_equal(ss_circuit_parse_text(text, strlen(text), "t.cir", bad, 1, &ckt, &err),
+                     SS_ERR_INPUT);
+    assert_string_equal(err.message,
+                        "--set nosuch: no parameter, element or model parameter of that name");
+}
+
+static void test_subckt_nested_with_params(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse("nested subcircuits\n"
+                                    ".subckt half a b r=1k\n"
+                                    "r1 a m {r}\n"
+                                    "r2 m b {r}\n"
+                                    ".ends half\n"
+                                    ".subckt quad in out val=2k\n"
+                                    ".param halfval = {val / 2}\n"
+                                    "x1 in mid half r={halfval}\n"
+                                    "x2 mid out half\n"
+                                    ".ends\n"
+                                    "v1 top 0 1\n"
+                                    "xq top 0 quad val=4k\n");
+    /* xq.x1.r1 = 2k (val/2), xq.x2.r1 = 1k (default) */
+    int e = circuit_find_elem(ckt, "xq.x1.r1");
+    assert_true(e >= 0);
+    ss_assert_close(ckt->elem[e].value, 2000.0, 1e-15, 0);
+    e = circuit_find_elem(ckt, "xq.x2.r2");
+    assert_true(e >= 0);
+    ss_assert_close(ckt->elem[e].value, 1000.0, 1e-15, 0);
+    assert_true(circuit_find_node(ckt, "xq.mid") > 0);
+    assert_true(circuit_find_node(ckt, "xq.x1.m") > 0);
+    assert_int_equal(ckt->n_elem, 5);
+    ss_circuit_destroy(&ckt);
+}
+
+static void write_file(const char *path, const char *text)
+{
+    FILE *f = fopen(path, "w");
+    assert_non_null(f);
+    fputs(text, f);
+    fclose(f);
+}
+
+static void test_include_relative_to_including_file(void **state)
+{
+    (void)state;
+    char dir[] = "/tmp/ss_inc_XXXXXX";
+    assert_non_null(mkdtemp(dir));
+    char sub[300], p1[300], p2[300];
+    snprintf(sub, sizeof sub, "%s/lib", dir);
+    assert_int_equal(mkdir(sub, 0777), 0);
+    snprintf(p1, sizeof p1, "%s/top.cir", dir);
+    snprintf(p2, sizeof p2, "%s/lib/models.lib", dir);
+    write_file(p1, "top\n.include lib/models.lib\nv1 a 0 1\nd1 a 0 dgen\n");
+    write_file(p2, "* models\n.model dgen d is=2e-14\n");
+    ss_circuit *ckt = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_circuit_parse_file(p1, NULL, 0, &ckt, &err), SS_OK);
+    assert_int_equal(ckt->n_models, 1);
+    ss_circuit_destroy(&ckt);
+    /* a cycle */
+    write_file(p2, ".include ../top.cir\n");
+    ss_status st = ss_circuit_parse_file(p1, NULL, 0, &ckt, &err);
+    if (st != SS_ERR_INPUT)
+        print_error("%s:%d: %s\n", err.file, err.line, err.message);
+    assert_int_equal(st, SS_ERR_INPUT);
+    ss_assert_contains(err.message, "includes itself (cycle)");
+    assert_int_equal(err.line, 1);
+    remove(p1);
+    remove(p2);
+    rmdir(sub);
+    rmdir(dir);
+}
+
+/* ---- located errors ------------------------------------------------------------------------ */
+
+static void expect_error(const char *text, const char *message)
+{
+    char buf[1400];
+    ss_test_parse_error(text, buf, sizeof buf);
+    if (strcmp(buf, message) != 0) {
+        print_error("got      '%s'\nexpected '%s'\n", buf, message);
+        fail();
+    }
+}
+
+static void test_errors_name_line_and_element(void **state)
+{
+    (void)state;
+    expect_error("t\nv1 a 0 1\nz1 a 0 5\n", "test.cir:3: z1: unknown element type 'z'");
+    expect_error("t\nr1 a 0 -5\n", "test.cir:2: r1: resistance must be positive, got -5");
+    expect_error("t\nr1 a 0 0\n", "test.cir:2: r1: resistance must be positive, got 0");
+    expect_error("t\nr1 a\n", "test.cir:2: r1: needs 2 nodes, got 1");
+    expect_error("t\nr1 a 0 10x5\n",
+                 "test.cir:2: r1: bad resistance '10x5': expected a number with an optional SI "
+                 "suffix or a {expression}");
+    expect_error("t\nv1 a 0 1\nq1 a a 0 nomodel\n", "test.cir:3: q1: unknown model 'nomodel'");
+    expect_error("t\n.model dd d is=1e-14\nv1 a 0 1\nq1 a a 0 dd\n",
+                 "test.cir:4: q1: model 'dd' is of type d, not usable for a q1");
+    expect_error("t\n.model qq npn bogus=3\n",
+                 "test.cir:2: model 'qq': unknown parameter 'bogus' for a BJT model");
+    expect_error("t\nr1 a 0 {2*nope}\n",
+                 "test.cir:2: r1: resistance: unknown parameter 'nope'");
+    expect_error("t\n.param a={b}\n.param b={a}\nr1 x 0 {a}\n",
+                 "test.cir:4: r1: resistance: parameter 'a' is defined in terms of itself");
+    expect_error("t\n.subckt s a b\nx1 a b s\n.ends\nv1 n 0 1\nx9 n 0 s\n",
+                 "test.cir:3: x1: subcircuits nested deeper than 32 (is 's' instantiating "
+                 "itself?)");
+    expect_error("t\n.subckt s a b\nr1 a b 1k\n.ends\nx1 n s\n",
+                 "test.cir:5: x1: subcircuit 's' has 2 ports, 1 nodes given");
+    expect_error("t\n.subckt s a b\nr1 a b 1k\n", "test.cir:2: .subckt s has no matching .ends");
+    expect_error("t\n.ends\n", "test.cir:2: .ends without .subckt");
+    expect_error("", "test.cir: empty netlist (no title line)");
+    expect_error("only a title\n", "test.cir: the netlist has no elements");
+    expect_error("t\nr1 a 0 1k\nr1 a 0 2k\n",
+                 "test.cir:3: r1: element name used twice (first at test.cir:2)");
+    expect_error("t\n.frob 3\n", "test.cir:2: unknown directive '.frob'");
+    expect_error("t\nv1 a 0 1\nf1 a 0 vx 2\n",
+                 "test.cir:3: f1: controlling source 'vx' is not a voltage source of the circuit");
+    expect_error("t\nr1 a 0 1e400\n", "test.cir:2: r1: bad resistance '1e400': out of range");
+    expect_error("t\n.ac dec 10 0 1k\nr1 a 0 1\n",
+                 "test.cir:2: .ac: frequencies must be positive (got 0 and 1000 Hz)");
+    expect_error("t\n.ac dec 10 1k 10\nr1 a 0 1\n",
+                 "test.cir:2: .ac: stop frequency 10 Hz is below start 1000 Hz");
+    expect_error("t\n.ac dec 0 1 10\nr1 a 0 1\n",
+                 "test.cir:2: .ac: the point count must be a whole number >= 1, got 0");
+    expect_error("t\nv1 a 0 1\nr1 a 0 1\n.stage in=v9 out=a\n",
+                 "test.cir:4: stage input 'v9' is not an independent source of the circuit");
+    expect_error("t\nv1 a 0 1\nr1 a 0 1\n.stage in=v1 out=zz\n",
+                 "test.cir:4: stage output node 'zz' does not exist");
+    expect_error("t\n.options reltol=1\nr1 a 0 1\n",
+                 "test.cir:2: .options: unknown option 'reltol' (known: tol_rel, tol_v, tol_i, "
+                 "gmin, newton_iters)");
+}
+
+static void test_binary_garbage_rejected(void **state)
+{
+    (void)state;
+    const char text[] = "t\nr1 a\0\x01\x02 0 1k\n";
+    ss_circuit *ckt = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_circuit_parse_text(text, sizeof text - 1, "g.cir", NULL, 0, &ckt, &err),
+                     SS_ERR_INPUT);
+    assert_int_equal(err.line, 2);
+    ss_assert_contains(err.message, "not a text netlist");
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_si_suffix_meg_is_1e6),
+        cmocka_unit_test(test_si_suffix_table),
+        cmocka_unit_test(test_bad_values_rejected),
+        cmocka_unit_test(test_expr_precedence_and_power),
+        cmocka_unit_test(test_expr_functions),
+        cmocka_unit_test(test_expr_errors_have_messages),
+        cmocka_unit_test(test_expr_nesting_limit),
+        cmocka_unit_test(test_continuation_comments_case),
+        cmocka_unit_test(test_param_order_free_and_override),
+        cmocka_unit_test(test_override_element_and_model_param),
+        cmocka_unit_test(test_subckt_nested_with_params),
+        cmocka_unit_test(test_include_relative_to_including_file),
+        cmocka_unit_test(test_errors_name_line_and_element),
+        cmocka_unit_test(test_binary_garbage_rejected),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
