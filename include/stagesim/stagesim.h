@@ -106,7 +106,8 @@ SS_API double ss_table_get(const ss_table *t, int row, int col);
 SS_API double ss_table_lookup(const ss_table *t, const char *label, int col);
 SS_API void ss_table_destroy(ss_table **t);
 
-/* Writes the table as CSV (RFC 4180 quoting, LF line ends, %.17g numbers) atomically: into a
+/* Writes the table as CSV (RFC 4180 quoting, LF line ends, the shortest of %.15g / %.17g that
+ * reads back exactly) atomically: into a
  * temporary file in the same folder, then renamed into place. */
 SS_API ss_status ss_table_write_csv(const ss_table *t, const char *path, ss_error *err);
 

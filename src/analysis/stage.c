@@ -8,6 +8,8 @@
 
 /* relative width to which a corner is bracketed (0.01 %, well inside the 0.1 % promised) */
 #define CORNER_REL_TOL 1e-4
+/* log-frequency width to which the gain maximum is located */
+#define PEAK_REL_TOL 1e-7
 #define HALF_POWER 0.70710678118654752440 /* 1/sqrt(2): -10 log10(2) dB */
 
 typedef struct stage_pt {
@@ -68,6 +70,43 @@ static ss_status refine_corner(ss_circuit *ckt, const element *src, int out_node
     return SS_OK;
 }
 
+/* Golden-section search for the maximum of |gain| between fa and fb (log frequency), so a
+ * sharp peak between grid points is not underestimated (which would widen the corners). */
+static ss_status refine_peak(ss_circuit *ckt, const element *src, int out_node, double fa,
+                             double fb, double *f_peak, stage_pt *peak, ss_error *err)
+{
+    const double invphi = 0.61803398874989484820;
+    double a = log(fa), b = log(fb);
+    double c = b - invphi * (b - a), d = a + invphi * (b - a);
+    stage_pt pc, pd;
+    ss_status st = stage_point(ckt, src, out_node, exp(c), &pc, err);
+    if (st == SS_OK)
+        st = stage_point(ckt, src, out_node, exp(d), &pd, err);
+    for (int it = 0; st == SS_OK && it < 100 && b - a > PEAK_REL_TOL; it++) {
+        if (cabs(pc.gain) >= cabs(pd.gain)) {
+            b = d;
+            d = c;
+            pd = pc;
+            c = b - invphi * (b - a);
+            st = stage_point(ckt, src, out_node, exp(c), &pc, err);
+        } else {
+            a = c;
+            c = d;
+            pc = pd;
+            d = a + invphi * (b - a);
+            st = stage_point(ckt, src, out_node, exp(d), &pd, err);
+        }
+    }
+    if (st != SS_OK)
+        return st;
+    int use_c = cabs(pc.gain) >= cabs(pd.gain);
+    if ((use_c ? cabs(pc.gain) : cabs(pd.gain)) > cabs(peak->gain)) {
+        *f_peak = exp(use_c ? c : d);
+        *peak = use_c ? pc : pd;
+    }
+    return SS_OK;
+}
+
 static double phase_deg(double complex z) { return carg(z) * 180.0 / SS_PI; }
 
 ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_summary,
@@ -106,7 +145,12 @@ ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_sum
         if (st == SS_OK && cabs(pts[k].gain) > cabs(pts[k_mid].gain))
             k_mid = k;
     }
-    double g_mid = st == SS_OK ? cabs(pts[k_mid].gain) : 0.0;
+    double f_mid = freqs[k_mid];
+    stage_pt mid = pts[k_mid];
+    if (st == SS_OK && k_mid > 0 && k_mid + 1 < nf)
+        st = refine_peak(ckt, src, out_node, freqs[k_mid - 1], freqs[k_mid + 1], &f_mid, &mid,
+                         err);
+    double g_mid = st == SS_OK ? cabs(mid.gain) : 0.0;
     double f_low = SS_NAN, f_high = SS_NAN;
     if (st == SS_OK && g_mid > 0.0) {
         double target = g_mid * HALF_POWER;
@@ -164,10 +208,10 @@ ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_sum
             const char *name;
             double v;
         } rows[] = {
-            {"gain_mid_db", 20.0 * log10(g_mid)}, {"f_mid_hz", freqs[k_mid]},
+            {"gain_mid_db", 20.0 * log10(g_mid)}, {"f_mid_hz", f_mid},
             {"f_low_hz", f_low},                  {"f_high_hz", f_high},
-            {"bandwidth_hz", bw},                 {"zin_mid_ohm", cabs(pts[k_mid].zin)},
-            {"zout_mid_ohm", cabs(pts[k_mid].zout)},
+            {"bandwidth_hz", bw},                 {"zin_mid_ohm", cabs(mid.zin)},
+            {"zout_mid_ohm", cabs(mid.zout)},
         };
         for (size_t i = 0; st == SS_OK && i < sizeof rows / sizeof rows[0]; i++) {
             double *row = table_add_row(s, rows[i].name);

@@ -65,12 +65,28 @@ typedef struct run_args {
     int plot, quiet;
 } run_args;
 
+/* mkdir -p: creates DIR and any missing parents. */
+static int make_dirs(const char *dir)
+{
+    char path[4096];
+    snprintf(path, sizeof path, "%s", dir);
+    for (char *p = path + 1; *p; p++) {
+        if (*p != '/')
+            continue;
+        *p = '\0';
+        if (mkdir(path, 0777) != 0 && errno != EEXIST)
+            return -1;
+        *p = '/';
+    }
+    return mkdir(path, 0777) != 0 && errno != EEXIST ? -1 : 0;
+}
+
 /* Makes sure DIR exists and is writable before any computation. */
 static int prepare_out_dir(const char *dir)
 {
     struct stat sb;
     if (stat(dir, &sb) != 0) {
-        if (errno != ENOENT || mkdir(dir, 0777) != 0) {
+        if (errno != ENOENT || make_dirs(dir) != 0) {
             fprintf(stderr, "stagesim: output folder '%s': %s\n", dir, strerror(errno));
             return -1;
         }

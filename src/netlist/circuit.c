@@ -138,6 +138,10 @@ void ss_circuit_destroy(ss_circuit **pckt)
     ss_circuit *ckt = *pckt;
     mna_destroy(&ckt->mna);
     ss_free(ckt->x_op);
+    ss_free(ckt->work_rhs);
+    ss_free(ckt->work_x);
+    ss_free(ckt->work_zrhs);
+    ss_free(ckt->work_zx);
     ss_free(ckt->node_name);
     ss_free(ckt->node_internal);
     strmap_clear(&ckt->node_map);

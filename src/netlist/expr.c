@@ -94,11 +94,6 @@ static double parse_primary(expr_parser *p)
         v = parse_sum(p);
         if (!accept(p, ')'))
             fail(p, "missing ')'%s", "");
-    } else if (*at == '-' || *at == '+') {
-        p->pos++;
-        v = parse_primary(p);
-        if (*at == '-')
-            v = -v;
     } else if (isdigit((unsigned char)*at) || (*at == '.' && isdigit((unsigned char)at[1]))) {
         size_t n = value_scan(at, &v);
         if (n == 0)
@@ -135,29 +130,45 @@ static double parse_primary(expr_parser *p)
     return v;
 }
 
-/* power is right-associative: 2^3^2 = 2^9 */
+static double parse_unary(expr_parser *p);
+
+/* power is right-associative and binds tighter than unary minus: 2^3^2 = 2^9, -2^2 = -4,
+ * 2^-1 = 0.5 (the usual mathematical reading) */
 static double parse_power(expr_parser *p)
 {
     double base = parse_primary(p);
     if (accept(p, '^')) {
-        p->depth++;
-        double e = parse_power(p);
-        p->depth--;
+        double e = parse_unary(p);
         return pow(base, e);
     }
     return base;
 }
 
+static double parse_unary(expr_parser *p)
+{
+    skip_ws(p);
+    char c = p->s[p->pos];
+    if (c == '-' || c == '+') {
+        if (++p->depth > EXPR_MAX_DEPTH)
+            return fail(p, "expression nested too deeply (limit %s)", EXPR_MAX_DEPTH_TEXT);
+        p->pos++;
+        double v = parse_unary(p);
+        p->depth--;
+        return c == '-' ? -v : v;
+    }
+    return parse_power(p);
+}
+
 static double parse_product(expr_parser *p)
 {
-    double v = parse_power(p);
+    double v = parse_unary(p);
     for (;;) {
         if (p->failed)
             return 0.0;
         if (accept(p, '*')) {
-            v *= parse_power(p);
+            v *= parse_unary(p);
         } else if (accept(p, '/')) {
-            double d = parse_power(p);
+            double d = parse_unary(p);
             if (d == 0.0 && !p->failed)
                 return fail(p, "division by zero%s", "");
             v /= d;

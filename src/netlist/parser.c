@@ -271,7 +271,8 @@ static ss_status do_include(parser *ps, const char *file, int line_no, const cha
     return read_file(ps, path, &here, 0);
 }
 
-static ss_status finish_logical(parser *ps, ss_strbuf *cur, const char *file, int line_no)
+static ss_status finish_logical(parser *ps, ss_strbuf *cur, const char *file, int line_no,
+                               int is_top)
 {
     if (cur->len == 0)
         return SS_OK;
@@ -283,7 +284,13 @@ static ss_status finish_logical(parser *ps, ss_strbuf *cur, const char *file, in
     } else {
         for (size_t i = 0; i < cur->len; i++)
             cur->data[i] = (char)tolower((unsigned char)cur->data[i]);
-        st = push_line(ps, file, line_no, cur->data);
+        /* `.end` ends only the top-level netlist: a library file ending in .end must not
+         * swallow the lines after its .include */
+        const char *t = cur->data;
+        while (isspace((unsigned char)*t))
+            t++;
+        int is_end = strncmp(t, ".end", 4) == 0 && (t[4] == '\0' || isspace((unsigned char)t[4]));
+        st = (is_end && !is_top) ? SS_OK : push_line(ps, file, line_no, cur->data);
     }
     cur->len = 0;
     if (cur->data)
@@ -349,14 +356,14 @@ static ss_status read_text(parser *ps, const char *text, size_t len, const char 
             strbuf_append(&cur, l + first + 1, keep - first - 1);
             continue;
         }
-        st = finish_logical(ps, &cur, file, cur_line);
+        st = finish_logical(ps, &cur, file, cur_line, is_top);
         if (st != SS_OK)
             break;
         cur_line = line_no;
         strbuf_append(&cur, l + first, keep - first);
     }
     if (st == SS_OK)
-        st = finish_logical(ps, &cur, file, cur_line);
+        st = finish_logical(ps, &cur, file, cur_line, is_top);
     strbuf_clear(&cur);
     return st;
 }

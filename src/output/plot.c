@@ -1,6 +1,7 @@
 /* Public entry for the Bode plot: takes the stage tables, hands arrays to the SVG writer. */
 #include <math.h>
 #include <stdio.h>
+#include <string.h>
 
 #include "netlist/circuit.h"
 #include "output/svg.h"
@@ -18,9 +19,12 @@ ss_status ss_plot_write_bode(const ss_circuit *ckt, const ss_table *stage,
         buf[n + k] = ss_table_get(stage, k, 2);
         buf[2 * n + k] = ss_table_get(stage, k, 3);
     }
+    /* a long netlist title is cut so the plot title fits the page */
     char title[512];
-    snprintf(title, sizeof title, "%s: v(%s) / %s", ckt->title ? ckt->title : "stage",
-             ckt->stage_out, ckt->stage_in);
+    const char *t = ckt->title && ckt->title[0] ? ckt->title : "stage";
+    int max_title = 60;
+    snprintf(title, sizeof title, "%.*s%s: v(%s) / %s", max_title, t,
+             (int)strlen(t) > max_title ? "..." : "", ckt->stage_out, ckt->stage_in);
     svg_bode_input in = {title,
                          buf,
                          buf + n,

@@ -82,7 +82,9 @@ static void test_expr_precedence_and_power(void **state)
     ss_assert_close(eval_ok("1 + 2 * 3"), 7.0, 0, 0);
     ss_assert_close(eval_ok("(1 + 2) * 3"), 9.0, 0, 0);
     ss_assert_close(eval_ok("2 ^ 3 ^ 2"), 512.0, 0, 0); /* right-associative */
-    ss_assert_close(eval_ok("-2 ^ 2"), 4.0, 0, 0);     /* unary minus binds to the operand */
+    ss_assert_close(eval_ok("-2 ^ 2"), -4.0, 0, 0);    /* power binds tighter than minus */
+    ss_assert_close(eval_ok("2 ^ -1"), 0.5, 0, 0);
+    ss_assert_close(eval_ok("--3"), 3.0, 0, 0);
     ss_assert_close(eval_ok("10 / 4 - 1"), 1.5, 0, 0);
     ss_assert_close(eval_ok("2 * rc"), 9400.0, 0, 0);
     ss_assert_close(eval_ok("4.7k * 2"), 9400.0, 1e-15, 0);

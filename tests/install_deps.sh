@@ -1,0 +1,16 @@
+#!/usr/bin/env bash
+# Installs the Debian packages stagesim needs to build and test (Debian 12 names).
+# Skips apt entirely when everything is already there; uses sudo when not run as root.
+set -euo pipefail
+PKGS=(build-essential cmake libsuitesparse-dev libcmocka-dev python3 python3-numpy python3-scipy)
+[ "${1:-}" = "--with-tools" ] && PKGS+=(valgrind clang)
+missing=()
+for p in "${PKGS[@]}"; do
+    dpkg -s "$p" >/dev/null 2>&1 || missing+=("$p")
+done
+[ ${#missing[@]} -eq 0 ] && exit 0
+SUDO=""
+[ "$(id -u)" -ne 0 ] && SUDO="sudo"
+echo "installing: ${missing[*]}"
+$SUDO apt-get update -qq
+DEBIAN_FRONTEND=noninteractive $SUDO apt-get install -y -qq --no-install-recommends "${missing[@]}" >/dev/null
