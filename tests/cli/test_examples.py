@@ -1,0 +1,77 @@
+#!/usr/bin/env python3
+"""Runs every example netlist in netlists/ and checks it works end to end: exit code 0, the
+output files the design promises, every transistor in forward-active operation, the stage
+figures present, and each example's operating point and gain within a few per cent of the hand
+estimate written in its own header (hand analysis with Vbe = 0.65 V: an engineer's sanity check,
+not a precision reference -- the precision checks live in tests/reference/)."""
+import csv
+import glob
+import os
+import subprocess
+import sys
+import tempfile
+
+STAGESIM = os.path.abspath(sys.argv[1])
+ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+passed = failed = 0
+
+
+def check(name, ok, detail=""):
+    global passed, failed
+    if ok:
+        passed += 1
+        print(f"ok   {name}")
+    else:
+        failed += 1
+        print(f"FAIL {name} {detail}")
+
+
+def read_kv(path):
+    with open(path, newline="") as f:
+        rows = list(csv.reader(f))
+    return {r[0]: (float(r[1]) if r[1] != "" else None) for r in rows[1:]}
+
+
+# hand estimates from the netlists' own header comments (quantity, value, relative tolerance)
+HAND = {
+    "vibration_frontend.cir": [("v(c)", 6.80, 0.03), ("v(e)", 1.13, 0.03),
+                               ("gain_mid_db", 20.5, 0.02), ("zin_mid_ohm", 8.7e3, 0.05)],
+    "hydrophone_buffer.cir": [("v(e)", 4.10, 0.03), ("gain_mid_db", -0.1, None)],
+    "photodiode_amp.cir": [("v(c1)", 3.09, 0.03)],
+    "line_driver.cir": [("v(o)", 6.0, 0.03)],
+}
+
+examples = sorted(glob.glob(os.path.join(ROOT, "netlists", "*.cir")))
+check("at least three example netlists", len(examples) >= 3, str(len(examples)))
+for path in examples:
+    name = os.path.basename(path)
+    with tempfile.TemporaryDirectory() as out:
+        r = subprocess.run([STAGESIM, "run", path, "-o", out, "--plot"], capture_output=True,
+                           text=True, timeout=60)
+        check(f"{name}: exit 0", r.returncode == 0, r.stderr.strip())
+        if r.returncode != 0:
+            continue
+        files = set(os.listdir(out))
+        for f in ("op.csv", "ac.csv", "stage.csv", "stage_summary.csv", "bode.svg"):
+            check(f"{name}: writes {f}", f in files)
+        leftovers = [f for f in files if ".tmp" in f]
+        check(f"{name}: no temporary files left", not leftovers, str(leftovers))
+        op = read_kv(os.path.join(out, "op.csv"))
+        summary = read_kv(os.path.join(out, "stage_summary.csv"))
+        check(f"{name}: every BJT forward active",
+              "saturation" not in r.stdout and "cut-off" not in r.stdout
+              and "reverse active" not in r.stdout)
+        check(f"{name}: mid-band gain and Zin present",
+              summary.get("gain_mid_db") is not None and summary.get("zin_mid_ohm") is not None)
+        values = dict(op)
+        values.update(summary)
+        for q, expected, rel in HAND.get(name, []):
+            got = values.get(q)
+            if rel is None:
+                ok = got is not None and abs(got - expected) <= 0.2
+            else:
+                ok = got is not None and abs(got - expected) <= rel * abs(expected)
+            check(f"{name}: {q} = {got:.5g} near the hand estimate {expected:g}", ok)
+
+print(f"{passed} passed, {failed} failed")
+sys.exit(1 if failed else 0)
