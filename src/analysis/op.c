@@ -8,7 +8,8 @@
 #include "analysis/analysis.h"
 
 /* KCL verification of a converged answer: allowed node residual KCL_ABS_A + KCL_REL times
- * the largest branch or source current; allowed branch-equation residual KCL_ABS_V */
+ * the largest branch or source current; allowed branch-equation residual KCL_ABS_V + KCL_REL
+ * times the largest node voltage */
 #define KCL_ABS_A 1e-9
 #define KCL_REL 1e-6
 #define KCL_ABS_V 1e-9
@@ -121,11 +122,15 @@ double op_kcl_residual(ss_circuit *ckt, const double *x, int *worst)
             i_scale = fmax(i_scale, fabs(ckt->elem[i].value));
     /* residuals as multiples of what is allowed: node rows in amperes, branch rows (the
      * voltage equations of sources) in volts */
+    double v_scale = 0.0;
+    for (int u = 0; u < n_node_unknowns; u++)
+        v_scale = fmax(v_scale, fabs(x[u]));
     double allowed_a = KCL_ABS_A + KCL_REL * i_scale;
+    double allowed_v = KCL_ABS_V + KCL_REL * v_scale;
     double max = 0.0;
     *worst = -1;
     for (int u = 0; u < n; u++) {
-        double v = fabs(r[u]) / (u < n_node_unknowns ? allowed_a : KCL_ABS_V);
+        double v = fabs(r[u]) / (u < n_node_unknowns ? allowed_a : allowed_v);
         if (!isfinite(v))
             v = HUGE_VAL;
         if (v > max) {
@@ -143,11 +148,21 @@ static ss_status nonconvergence_error(ss_circuit *ckt, const newton_result *r, i
     char what[1200] = "an unknown";
     if (r->worst_unknown >= 0)
         circuit_unknown_name(ckt, r->worst_unknown, what, sizeof what);
+    if (r->bad_unknown >= 0) {
+        circuit_unknown_name(ckt, r->bad_unknown, what, sizeof what);
+        return err_set(err, SS_ERR_NO_CONVERGENCE, ckt->file, 0,
+                       "no DC operating point: the circuit matrix becomes singular at %s during "
+                       "Newton (plain, gmin stepping and source stepping all tried); a part of "
+                       "the circuit has lost every conduction path, e.g. a reverse-biased "
+                       "junction with .options gmin=0, or a controlled source cancels itself",
+                       what);
+    }
+    int is_node = r->worst_unknown >= 0 && r->worst_unknown < ckt->n_nodes - 1;
     return err_set(err, SS_ERR_NO_CONVERGENCE, ckt->file, 0,
                    "no DC operating point found after %d Newton iterations (plain Newton, gmin "
-                   "stepping and source stepping all tried); worst: %s, last change %.3g. Check "
-                   "the supply and bias values, or raise .options newton_iters",
-                   total_iters, what, r->worst_delta);
+                   "stepping and source stepping all tried); worst: %s, last change %.3g %s. "
+                   "Check the supply and bias values, or raise .options newton_iters",
+                   total_iters, what, r->worst_delta, is_node ? "V" : "A");
 }
 
 /* Gmin stepping: a conductance from every node to ground, started large and cut tenfold per
@@ -255,13 +270,22 @@ ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err)
     newton_params np = {0.0, 1.0, LOAD_INIT_JUNCTION, ckt->opt.newton_iters};
     st = newton_solve(ckt, x, &np, &r);
     s.newton_iterations += r.iterations;
-    if (st == SS_ERR_NO_CONVERGENCE)
+    /* the topology was checked in prepare, so a singular matrix here is numerical (a junction
+     * that stopped conducting): the fallbacks may well get past it */
+    int singular_seen = st == SS_ERR_SINGULAR;
+    int bad_unknown = r.bad_unknown;
+    if (st == SS_ERR_NO_CONVERGENCE || st == SS_ERR_SINGULAR)
         st = gmin_stepping(ckt, x, &s.newton_iterations, &s.gmin_steps, &r);
-    if (st == SS_ERR_NO_CONVERGENCE)
+    if (st == SS_ERR_NO_CONVERGENCE || st == SS_ERR_SINGULAR)
         st = source_stepping(ckt, x, &s.newton_iterations, &s.source_steps, &r);
     ckt->have_op = 0;
-    if (st == SS_ERR_SINGULAR)
-        return report_singular(ckt, r.bad_unknown, "solving the operating point", err);
+    if (st == SS_ERR_SINGULAR || (st == SS_ERR_NO_CONVERGENCE && singular_seen)) {
+        if (r.bad_unknown < 0)
+            r.bad_unknown = bad_unknown;
+        st = SS_ERR_NO_CONVERGENCE;
+    } else {
+        r.bad_unknown = -1;
+    }
     if (st == SS_ERR_NOMEM)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     if (st != SS_OK)

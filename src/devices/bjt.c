@@ -41,30 +41,46 @@ static int bjt_parse(pctx *p, element *e)
     int n = pctx_ntok(p);
     if (n < 5)
         return pctx_error(p, "needs collector, base, emitter nodes and a model");
-    int model_tok = 4;
-    if (!pctx_is_model(p, pctx_tok(p, 4))) {
-        if (n >= 6 && pctx_is_model(p, pctx_tok(p, 5)))
-            model_tok = 5; /* substrate node given: accepted, not modelled in this version */
+    int model_tok = -1;
+    for (int i = 4; i < n && model_tok < 0; i++)
+        if (pctx_is_model(p, pctx_tok(p, i)))
+            model_tok = i;
+    if (model_tok < 0) {
+        /* no known model on the line: name the token where the model should be */
+        double v;
+        int guess = (n >= 6 && value_parse(pctx_tok(p, 5), &v) != 0) ? 5 : 4;
+        return pctx_error(p, "unknown model '%s'", pctx_tok(p, guess));
     }
-    for (int i = 1; i < model_tok && i <= 3; i++) {
+    if (model_tok > 5)
+        return pctx_error(p,
+                          "too many nodes before model '%s' (expected collector, base, emitter "
+                          "and an optional substrate)",
+                          pctx_tok(p, model_tok));
+    for (int i = 1; i <= 3; i++) {
         e->node[i - 1] = pctx_node(p, pctx_tok(p, i));
         if (e->node[i - 1] < 0)
             return -1;
     }
-    e->n_node = 3;
+    e->n_node = 3; /* a substrate node is accepted and not modelled in this version */
     e->mod = pctx_model(p, pctx_tok(p, model_tok), (1u << MODEL_NPN) | (1u << MODEL_PNP));
     if (!e->mod)
         return -1;
     e->area = 1.0;
-    if (n > model_tok + 1) {
-        const char *t = pctx_tok(p, model_tok + 1);
-        if (strncmp(t, "area", 4) == 0 && pctx_tok(p, model_tok + 2) &&
-            strcmp(pctx_tok(p, model_tok + 2), "=") == 0)
-            t = pctx_tok(p, model_tok + 3);
-        if (!t || pctx_value(p, t, "area", &e->area) != 0)
+    int next = model_tok + 1;
+    if (next < n) {
+        const char *t = pctx_tok(p, next);
+        if (strcmp(t, "area") == 0 && next + 2 < n && strcmp(pctx_tok(p, next + 1), "=") == 0) {
+            t = pctx_tok(p, next + 2);
+            next += 3;
+        } else {
+            next += 1;
+        }
+        if (pctx_value(p, t, "area", &e->area) != 0)
             return -1;
         if (!(e->area > 0.0))
             return pctx_error(p, "area must be positive, got %g", e->area);
+        if (next < n)
+            return pctx_error(p, "unexpected '%s' after the area value", pctx_tok(p, next));
     }
     return 0;
 }

@@ -9,6 +9,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "devices/device.h"
 #include "netlist/circuit.h"
@@ -30,6 +31,7 @@ typedef struct param_def {
     int line;
     double value;
     int state; /* 0 not evaluated, 1 being evaluated, 2 done */
+    int from_set; /* the text came from a --set override */
 } param_def;
 
 typedef struct subckt_def {
@@ -177,7 +179,12 @@ static ss_status read_file(parser *ps, const char *path, const logline *from, in
     if (ps->inc_depth > NETLIST_MAX_INCLUDE_DEPTH)
         return err_set(ps->err, SS_ERR_LIMIT, from ? from->file : path, from ? from->line : 0,
                        ".include nested deeper than %d files", NETLIST_MAX_INCLUDE_DEPTH);
-    FILE *f = fopen(path, "rb");
+    struct stat sb;
+    FILE *f = NULL;
+    if (stat(path, &sb) == 0 && S_ISDIR(sb.st_mode))
+        errno = EISDIR;
+    else
+        f = fopen(path, "rb");
     if (!f) {
         if (from)
             return err_set(ps->err, SS_ERR_IO, from->file, from->line, "cannot open '%s': %s",
@@ -437,7 +444,13 @@ static int eval_global_param(parser *ps, int idx, char *msg, size_t msg_len)
     double v;
     int rc = eval_text(ps, NULL, pd->text, &v, inner, sizeof inner);
     if (rc != 0) {
-        /* keep the innermost reason; it names the parameter at fault */
+        /* report at the .param line (or the --set that replaced it): the first error recorded
+         * wins, so the element line that used the parameter does not take the blame */
+        if (pd->from_set)
+            err_set(ps->err, SS_ERR_INPUT, NULL, 0, "--set %s=%s: %s", pd->name, pd->text,
+                    inner);
+        else
+            err_set(ps->err, SS_ERR_INPUT, pd->file, pd->line, ".param %s: %s", pd->name, inner);
         snprintf(msg, msg_len, "%s", inner);
         pd->state = 0;
         return -1;
@@ -462,13 +475,16 @@ static int line_value(parser *ps, const logline *ll, const scope *sc, const char
     if (value_parse(tok, out) != 0) {
         double v;
         size_t n = value_scan(tok, &v);
+        /* a very long token is shortened so the reason survives in the message */
+        int shown = strlen(tok) > 40 ? 40 : (int)strlen(tok);
+        const char *more = strlen(tok) > 40 ? "..." : "";
         if (n > 0 && !isfinite(v))
-            line_error(ps, ll, "%s%sbad %s '%s': out of range", owner ? owner : "",
-                       owner ? ": " : "", what, tok);
+            line_error(ps, ll, "%s%sbad %s '%.*s%s': out of range", owner ? owner : "",
+                       owner ? ": " : "", what, shown, tok, more);
         else
-            line_error(ps, ll, "%s%sbad %s '%s': expected a number with an optional SI suffix "
-                               "or a {expression}",
-                       owner ? owner : "", owner ? ": " : "", what, tok);
+            line_error(ps, ll, "%s%sbad %s '%.*s%s': expected a number with an optional SI "
+                               "suffix or a {expression}",
+                       owner ? owner : "", owner ? ": " : "", what, shown, tok, more);
         return -1;
     }
     return 0;
@@ -552,6 +568,7 @@ static int add_global_param(parser *ps, const logline *ll, void *ctx, const char
     pd->name = name;
     const char *ov = override_for(ps, name);
     pd->text = ov ? ov : text;
+    pd->from_set = ov != NULL;
     pd->file = ll->file;
     pd->line = ll->line;
     if (strmap_put(&ps->param_map, name, ps->n_params) != 0)
@@ -648,8 +665,12 @@ const model *pctx_model(pctx *p, const char *name, unsigned type_mask)
     const model *m = p->ps->ckt->models[idx];
     if (!(type_mask & (1u << m->type))) {
         static const char *const type_names[] = {"npn", "pnp", "d"}; /* ORDER MODEL_TYPE */
-        pctx_error(p, "model '%s' is of type %s, not usable for a %s", name,
-                   type_names[m->type], p->elem_name);
+        if (type_mask == (1u << MODEL_D))
+            pctx_error(p, "model '%s' is an %s model; a diode needs a model of type d", name,
+                       type_names[m->type]);
+        else
+            pctx_error(p, "model '%s' is a %s model; a BJT needs a model of type npn or pnp",
+                       name, type_names[m->type]);
         return NULL;
     }
     return m;
@@ -739,8 +760,11 @@ static int define_model(parser *ps, const logline *ll)
         return line_error(ps, ll, "model '%s': unknown type '%s' (expected npn, pnp or d)", name,
                           type_tok),
                -1;
-    if (strmap_get(&ps->ckt->model_map, name, NULL))
-        return line_error(ps, ll, "model '%s' defined twice", name), -1;
+    int first;
+    if (strmap_get(&ps->ckt->model_map, name, &first))
+        return line_error(ps, ll, "model '%s' defined twice (first at %s:%d)", name,
+                          ps->ckt->models[first]->file, ps->ckt->models[first]->line),
+               -1;
     model *m = arena_alloc(&ps->ckt->arena, sizeof *m);
     if (!m)
         return nomem(ps), -1;
@@ -1295,6 +1319,20 @@ static ss_status resolve_controls(parser *ps)
     return SS_OK;
 }
 
+/* A .dc sweep must name an independent source: checked before anything is solved. */
+static ss_status check_dc_sources(parser *ps)
+{
+    ss_circuit *ckt = ps->ckt;
+    for (int k = 0; k < ckt->n_dc; k++) {
+        const dc_sweep_spec *s = &ckt->dc[k];
+        int idx = circuit_find_elem(ckt, s->src);
+        if (idx < 0 || (ckt->elem[idx].ops->letter != 'v' && ckt->elem[idx].ops->letter != 'i'))
+            return err_set(ps->err, SS_ERR_INPUT, s->file, s->line,
+                           ".dc: '%s' is not an independent voltage or current source", s->src);
+    }
+    return SS_OK;
+}
+
 static ss_status apply_late_overrides(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
@@ -1441,12 +1479,13 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
         for (int i = 0; i < ps.n_params && st == SS_OK; i++) {
             char msg[512];
             if (eval_global_param(&ps, i, msg, sizeof msg) != 0)
-                st = err_set(err, SS_ERR_INPUT, ps.params[i].file, ps.params[i].line,
-                             ".param %s: %s", ps.params[i].name, msg);
+                st = err->code;
         }
     }
     if (st == SS_OK)
         st = resolve_controls(&ps);
+    if (st == SS_OK)
+        st = check_dc_sources(&ps);
     if (st == SS_OK)
         st = apply_late_overrides(&ps);
     if (st == SS_OK && ckt->n_elem == 0)

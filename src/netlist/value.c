@@ -78,12 +78,15 @@ size_t value_scan(const char *s, double *out)
     size_t n = value_number_len(s);
     if (n == 0)
         return 0;
-    char buf[64];
-    if (n >= sizeof buf)
+    char small[64];
+    char *buf = n < sizeof small ? small : ss_alloc(n + 1);
+    if (!buf)
         return 0;
     memcpy(buf, s, n);
     buf[n] = '\0';
     double v = strtod(buf, NULL);
+    if (buf != small)
+        ss_free(buf);
     size_t slen;
     double scale = suffix_scale(s + n, &slen);
     size_t i = n + slen;

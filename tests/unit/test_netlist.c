@@ -292,13 +292,13 @@ static void test_errors_name_line_and_element(void **state)
                  "suffix or a {expression}");
     expect_error("t\nv1 a 0 1\nq1 a a 0 nomodel\n", "test.cir:3: q1: unknown model 'nomodel'");
     expect_error("t\n.model dd d is=1e-14\nv1 a 0 1\nq1 a a 0 dd\n",
-                 "test.cir:4: q1: model 'dd' is of type d, not usable for a q1");
+                 "test.cir:4: q1: model 'dd' is a d model; a BJT needs a model of type npn or pnp");
     expect_error("t\n.model qq npn bogus=3\n",
                  "test.cir:2: model 'qq': unknown parameter 'bogus' for a BJT model");
     expect_error("t\nr1 a 0 {2*nope}\n",
                  "test.cir:2: r1: resistance: unknown parameter 'nope'");
     expect_error("t\n.param a={b}\n.param b={a}\nr1 x 0 {a}\n",
-                 "test.cir:4: r1: resistance: parameter 'a' is defined in terms of itself");
+                 "test.cir:3: .param b: parameter 'a' is defined in terms of itself");
     expect_error("t\n.subckt s a b\nx1 a b s\n.ends\nv1 n 0 1\nx9 n 0 s\n",
                  "test.cir:3: x1: subcircuits nested deeper than 32 (is 's' instantiating "
                  "itself?)");
