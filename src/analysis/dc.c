@@ -94,6 +94,7 @@ ss_status ss_dc_sweep_run(ss_circuit *ckt, ss_table **out_dc, ss_error *err)
     if (src[1])
         src[1]->value = saved[1];
     ckt->have_op = 0; /* x_op now holds the last sweep point */
+    ckt->op_serial++;
     if (st != SS_OK) {
         ss_table_destroy(&t);
         return st;

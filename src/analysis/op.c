@@ -300,6 +300,7 @@ ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err)
                      "floating node",
                      ckt->last_rcond);
     ckt->have_op = 1;
+    ckt->op_serial++;
     if (stats)
         *stats = s;
     return SS_OK;

@@ -142,6 +142,9 @@ void ss_circuit_destroy(ss_circuit **pckt)
     ss_free(ckt->work_x);
     ss_free(ckt->work_zrhs);
     ss_free(ckt->work_zx);
+    ss_free(ckt->ac_a0);
+    ss_free(ckt->ac_a1);
+    ss_free(ckt->ac_rhs);
     ss_free(ckt->node_name);
     ss_free(ckt->node_internal);
     strmap_clear(&ckt->node_map);

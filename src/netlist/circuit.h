@@ -111,6 +111,16 @@ struct ss_circuit {
     double _Complex *work_zx;     /* AC second solution (output-impedance test) */
     double last_rcond;
     double last_kcl_residual;
+    int op_serial; /* incremented by every new operating point */
+
+    /* AC fast path (analysis/ac.c): every device's admittance is G + jwC, so the matrix is
+     * A0 + jw A1 with A0, A1 fixed at the operating point; checked once per operating point */
+    double *ac_a0, *ac_a1;
+    double _Complex *ac_rhs;
+    int ac_serial;   /* op_serial the cache was built for; 0 = none */
+    int ac_affine;   /* 1 when the check passed */
+    const void *ac_rhs_src;
+    int ac_rhs_all_off, ac_rhs_ok;
 
     const char **warnings;
     int n_warnings;
