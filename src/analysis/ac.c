@@ -6,20 +6,26 @@
 
 #include "analysis/analysis.h"
 
+double ac_point_count(int type, int points, double f1, double f2)
+{
+    if (type == AC_LIN)
+        return points;
+    /* computed in logarithms so that extreme ratios cannot overflow */
+    double decades = log10(f2) - log10(f1);
+    double per = type == AC_DEC ? decades : decades / log10(2.0);
+    return floor(per * points + 1e-9) + 1.0;
+}
+
 ss_status ac_frequencies(const ss_circuit *ckt, double **out_freqs, int *out_n, ss_error *err)
 {
     if (!ckt->want_ac)
         return err_set(err, SS_ERR_INPUT, ckt->file, 0, "the netlist has no .ac sweep");
     double f1 = ckt->ac_fstart_hz, f2 = ckt->ac_fstop_hz;
-    int n;
-    if (ckt->ac_type == AC_LIN) {
-        n = ckt->ac_points;
-    } else {
-        double per = ckt->ac_type == AC_DEC ? log10(f2 / f1) : log2(f2 / f1);
-        n = (int)floor(per * ckt->ac_points + 1e-9) + 1;
-    }
-    if (n > 10000000)
-        return err_set(err, SS_ERR_LIMIT, ckt->file, 0, ".ac: more than 1e7 frequencies");
+    double count = ac_point_count(ckt->ac_type, ckt->ac_points, f1, f2);
+    if (!(count <= AC_MAX_POINTS))
+        return err_set(err, SS_ERR_LIMIT, ckt->file, 0, ".ac: more than %g frequencies",
+                       (double)AC_MAX_POINTS);
+    int n = (int)count;
     double *f = ss_alloc((size_t)n * sizeof *f);
     if (!f)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");

@@ -45,8 +45,9 @@ static ss_status stage_point(ss_circuit *ckt, const element *src, int out_node, 
     return SS_OK;
 }
 
-/* Pins the frequency between fa (|g| on one side of target) and fb where |gain| crosses
- * target, by bisection in log frequency with real solves. */
+/* Pins the frequency between fa and fb where |gain| crosses target, by bisection in log
+ * frequency with real solves, then places it inside the final bracket by linear
+ * interpolation of |gain| in dB against log frequency (exact to far below the bracket). */
 static ss_status refine_corner(ss_circuit *ckt, const element *src, int out_node, double fa,
                                double fb, double target, double *out_f, ss_error *err)
 {
@@ -54,19 +55,31 @@ static ss_status refine_corner(ss_circuit *ckt, const element *src, int out_node
     ss_status st = stage_point(ckt, src, out_node, fa, &pt, err);
     if (st != SS_OK)
         return st;
-    int a_above = cabs(pt.gain) >= target;
+    double ga = cabs(pt.gain);
+    if ((st = stage_point(ckt, src, out_node, fb, &pt, err)) != SS_OK)
+        return st;
+    double gb = cabs(pt.gain);
+    int a_above = ga >= target;
     for (int it = 0; it < 200 && fabs(fb - fa) > CORNER_REL_TOL * 0.5 * fmin(fa, fb); it++) {
         double fm = sqrt(fa * fb);
         st = stage_point(ckt, src, out_node, fm, &pt, err);
         if (st != SS_OK)
             return st;
-        if ((cabs(pt.gain) >= target) == a_above)
+        double gm = cabs(pt.gain);
+        if ((gm >= target) == a_above) {
             fa = fm;
-        else
+            ga = gm;
+        } else {
             fb = fm;
+            gb = gm;
+        }
     }
-    /* final estimate: log-linear interpolation inside the tiny bracket */
-    *out_f = sqrt(fa * fb);
+    double la = log(fa), lb = log(fb);
+    double da = 20.0 * log10(ga), db = 20.0 * log10(gb), dt = 20.0 * log10(target);
+    double t = (db != da) ? (dt - da) / (db - da) : 0.5;
+    if (!(t >= 0.0 && t <= 1.0))
+        t = 0.5;
+    *out_f = exp(la + t * (lb - la));
     return SS_OK;
 }
 

@@ -153,6 +153,7 @@ void ss_circuit_destroy(ss_circuit **pckt)
     ss_free(ckt->models);
     strmap_clear(&ckt->model_map);
     ss_free(ckt->warnings);
+    ss_free(ckt->study_lines);
     arena_clear(&ckt->arena);
     ss_free(ckt);
     *pckt = NULL;

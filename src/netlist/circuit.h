@@ -93,6 +93,14 @@ struct ss_circuit {
     int ac_points;
     double ac_fstart_hz, ac_fstop_hz;
     int want_tran, want_noise;
+    /* study directives kept as text for src/study: .expect (limits), .tolerance */
+    struct study_line {
+        const char *file;
+        int line;
+        const char *text; /* the line after the directive word, lower case */
+        int is_tolerance;
+    } *study_lines;
+    int n_study_lines;
     const char *stage_in, *stage_out;
     double stage_load_ohm;
     const char *stage_file;

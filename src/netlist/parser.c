@@ -1155,6 +1155,8 @@ static int set_stage(parser *ps, const logline *ll, void *vctx, const char *name
 {
     (void)vctx;
     ss_circuit *ckt = ps->ckt;
+    if ((strcmp(name, "in") == 0 && ckt->stage_in) || (strcmp(name, "out") == 0 && ckt->stage_out))
+        return line_error(ps, ll, ".stage: '%s' given twice", name), -1;
     if (strcmp(name, "in") == 0)
         ckt->stage_in = text;
     else if (strcmp(name, "out") == 0)
@@ -1201,6 +1203,9 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
     if (strcmp(d, ".options") == 0 || strcmp(d, ".option") == 0)
         return parse_assignments(ps, ll, 1, set_option, NULL) == 0 ? SS_OK : ps->err->code;
     if (strcmp(d, ".stage") == 0) {
+        if (ckt->stage_file)
+            return line_error(ps, ll, ".stage given twice (first at %s:%d)", ckt->stage_file,
+                              ckt->stage_line);
         ckt->stage_file = ll->file;
         ckt->stage_line = ll->line;
         return parse_assignments(ps, ll, 1, set_stage, NULL) == 0 ? SS_OK : ps->err->code;
@@ -1256,10 +1261,35 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
                               f2);
         if (f2 < f1)
             return line_error(ps, ll, ".ac: stop frequency %g Hz is below start %g Hz", f2, f1);
+        double decades = log10(f2) - log10(f1);
+        double total = ckt->ac_type == AC_LIN ? n
+                       : floor((ckt->ac_type == AC_DEC ? decades : decades / log10(2.0)) * n) + 1;
+        if (total > 1e6)
+            return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                           ".ac: %.3g frequencies in all, more than the limit of 1e6", total);
+
         ckt->want_ac = 1;
         ckt->ac_points = (int)n;
         ckt->ac_fstart_hz = f1;
         ckt->ac_fstop_hz = f2;
+        return SS_OK;
+    }
+    if (strcmp(d, ".expect") == 0 || strcmp(d, ".tolerance") == 0) {
+        /* limits and tolerances: kept as text, parsed and checked by src/study */
+        if (ll->n_tok < 2)
+            return line_error(ps, ll, "%s needs a quantity and its %s", d,
+                              d[1] == 'e' ? "limits" : "tolerance");
+        const char *text = join_tokens(ps, ll, 1, ll->n_tok);
+        struct study_line *nl =
+            ss_realloc(ckt->study_lines, (size_t)(ckt->n_study_lines + 1) * sizeof *nl);
+        if (!text || !nl)
+            return nomem(ps);
+        ckt->study_lines = nl;
+        nl[ckt->n_study_lines].file = ll->file;
+        nl[ckt->n_study_lines].line = ll->line;
+        nl[ckt->n_study_lines].text = text;
+        nl[ckt->n_study_lines].is_tolerance = d[1] == 't';
+        ckt->n_study_lines++;
         return SS_OK;
     }
     if (strcmp(d, ".tran") == 0) {
