@@ -79,7 +79,7 @@ typedef struct ss_analysis_flags {
     int ac;    /* .ac */
     int stage; /* .stage, or a stage named with ss_circuit_set_stage */
     int tran;  /* .tran (parsed; not computed in this version) */
-    int noise; /* .noise (parsed; not computed in this version) */
+    int noise; /* .noise, or a noise analysis named with ss_circuit_set_noise */
 } ss_analysis_flags;
 SS_API void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *out_flags);
 
@@ -138,6 +138,29 @@ SS_API ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *e
 SS_API ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_summary,
                               ss_error *err);
 
+/* Names the noise analysis's output node and input source (overrides a .noise line) and,
+ * optionally, the resistor whose thermal noise is the noise figure's reference (rs_resistor
+ * NULL: the resistor in series with a V source / across an I source, when there is exactly
+ * one -- docs/noise.md). Returns SS_ERR_INPUT naming what does not exist. */
+SS_API ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node,
+                                      const char *in_source, const char *rs_resistor,
+                                      ss_error *err);
+
+/* Noise analysis over the .ac frequencies at the operating point (solved first if needed),
+ * for the output node and input source of .noise (or ss_circuit_set_noise); docs/noise.md.
+ * Outputs (owned by the caller, written on success only; each may be NULL if not wanted):
+ *   out_noise   freq_hz, out_noise_v_rthz, in_noise_v_rthz per frequency (noise.csv); the
+ *               input-referred density is empty where the gain is 0
+ *   out_summary metric,value: f_start_hz, f_stop_hz, out_noise_rms_v, in_noise_rms_v
+ *               (integrated over the sweep), noise_figure_db and source_res_ohm (empty
+ *               without a source resistor), temp_k
+ *   out_contrib source,out_noise_rms_v,share_pct,element_share_pct: one row per noise source
+ *               ("q1 collector shot"), elements ranked by their total, sources within each
+ * Returns SS_OK, SS_ERR_INPUT (no noise analysis named, no .ac), SS_ERR_SINGULAR,
+ * SS_ERR_NO_CONVERGENCE, SS_ERR_NOMEM, SS_ERR_LIMIT. */
+SS_API ss_status ss_noise_run(ss_circuit *ckt, ss_table **out_noise, ss_table **out_summary,
+                              ss_table **out_contrib, ss_error *err);
+
 /* Writes bode.svg-style plot (gain and phase over log frequency, corners marked) from the
  * tables of ss_stage_run, atomically. Returns SS_OK, SS_ERR_INPUT (fewer than 2 points),
  * SS_ERR_IO, SS_ERR_NOMEM. */
@@ -146,6 +169,114 @@ SS_API ss_status ss_plot_write_bode(const ss_circuit *ckt, const ss_table *stage
 
 /* Writes the human-readable report (operating point, per-BJT table, stage block) to f. */
 SS_API void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f);
+
+/* Sets the circuit temperature (overrides .temp); applied at the next solve. */
+SS_API ss_status ss_circuit_set_temp(ss_circuit *ckt, double temp_c, ss_error *err);
+
+/* The present value of NAME as --set understands it: a .param, an element's main value or
+ * MODEL.PARAM. Returns SS_ERR_INPUT naming NAME when there is no such thing. */
+SS_API ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *out_value,
+                                      ss_error *err);
+
+/* ---- limits and checks ------------------------------------------------------------------- */
+
+/* A set of limits on figures: `QUANTITY [@ FREQ] RELATION` per line, see docs/checks.md. */
+typedef struct ss_limits ss_limits;
+
+SS_API ss_status ss_limits_create(ss_limits **out, ss_error *err);
+/* Adds the limits of a limits file / of text / of a circuit's .expect lines. */
+SS_API ss_status ss_limits_add_file(ss_limits *l, const char *path, ss_error *err);
+SS_API ss_status ss_limits_add_text(ss_limits *l, const char *text, const char *name,
+                                    ss_error *err);
+SS_API ss_status ss_limits_add_circuit(ss_limits *l, const ss_circuit *ckt, ss_error *err);
+SS_API int ss_limits_count(const ss_limits *l);
+SS_API void ss_limits_destroy(ss_limits **l);
+
+/* Every figure of the circuit in one labelled table (metric,value): the op.csv quantities, the
+ * stage summary (when the netlist has .ac and a stage) and each QUANTITY@FREQ the limits name
+ * (solved at that frequency, not interpolated). limits may be NULL. */
+SS_API ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits,
+                                    ss_table **out_figures, ss_error *err);
+
+/* Judges figures against limits. Output: a table labelled by quantity with columns measured,
+ * lower, upper, margin (distance to the nearest bound; negative when failing), pass (1/0);
+ * *n_failed the number failing. A limit on a figure not computed is SS_ERR_INPUT. */
+SS_API ss_status ss_check_evaluate(const ss_limits *l, const ss_table *figures,
+                                   ss_table **out_verdicts, int *n_failed, ss_error *err);
+
+/* Writes verdicts as a JUnit-style XML report (one testsuite, one testcase per limit). */
+SS_API ss_status ss_check_write_junit(const ss_table *verdicts, const char *suite_name,
+                                      const char *path, ss_error *err);
+
+/* ---- studies: sweeps and tolerance (Monte Carlo) runs ------------------------------------ */
+
+/* A study re-solves one netlist at many points: a grid of swept values (--vary) and/or random
+ * trials over declared tolerances. Every point is a fresh parse with overrides, so parameters
+ * and expressions follow; results depend only on the seed and the point index, never on the
+ * number of threads or on sharding. */
+typedef struct ss_study ss_study;
+typedef void (*ss_progress_fn)(void *ctx, long done, long total);
+
+/* Parses the nominal circuit (checking it) and keeps its .tolerance lines. */
+SS_API ss_status ss_study_create(const char *netlist_path, const ss_override *sets, int n_sets,
+                                 ss_study **out, ss_error *err);
+SS_API ss_status ss_study_set_stage(ss_study *s, const char *in_source, const char *out_node,
+                                    ss_error *err);
+/* `NAME=lin:START:STOP:N`, `NAME=log:START:STOP:N` or `NAME=list:V1,V2,...`; NAME as for
+ * --set, or `temp` (degrees C). Several combine as a grid (the first varies slowest). */
+SS_API ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err);
+/* `NAME=5%` (uniform within +-5 % of nominal), `NAME=5%:gauss` (gaussian, 5 % = 3 sigma),
+ * `NAME=LO..HI` or `NAME=LO..HI:gauss` (mean the middle, half-range = 3 sigma). */
+SS_API ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err);
+/* Monte Carlo: trials > 0 random trials per grid point from seed. */
+SS_API ss_status ss_study_set_trials(ss_study *s, long trials, unsigned long long seed,
+                                     ss_error *err);
+SS_API void ss_study_set_threads(ss_study *s, int n_threads); /* <= 0: all cores */
+/* Runs only the k-th (1-based) of n contiguous slices of the points. */
+SS_API ss_status ss_study_set_shard(ss_study *s, int k, int n, ss_error *err);
+/* Adds limits (copied; file names must outlive the study) to the netlist's own .expect lines;
+ * ss_study_limits gives the combined set (for ss_study_summarize). */
+SS_API ss_status ss_study_add_limits(ss_study *s, const ss_limits *limits, ss_error *err);
+SS_API const ss_limits *ss_study_limits(const ss_study *s);
+SS_API void ss_study_set_progress(ss_study *s, ss_progress_fn fn, void *ctx);
+SS_API long ss_study_points(const ss_study *s);
+/* Output: one row per point of this shard: point, swept and sampled values, status (0 ok, else
+ * the exit-code class of the failure), then every figure of the nominal run. */
+SS_API ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err);
+SS_API void ss_study_destroy(ss_study **s);
+
+/* Statistics of a points table: per figure n, min, max, mean, std (sample), and, for figures
+ * with limits, the fraction of points passing; a row `all_limits` holds the yield. */
+SS_API ss_status ss_study_summarize(const ss_table *points, const ss_limits *limits,
+                                    ss_table **out_summary, ss_error *err);
+
+/* Normalised sensitivities (dF/F)/(dx/x) of every figure to every toleranced or listed value,
+ * by central differences of +-1 %: a table labelled by figure, one column per value. */
+SS_API ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err);
+
+/* Operating point at the beta extremes (every BJT model's BF at its tolerance limits, else
+ * halved and doubled) and at two temperatures: one row per BJT and corner with temp_c,
+ * beta_corner (-1 low, +1 high), ic_a, vce_v, forward_active (1/0, empty if unsolved). */
+SS_API ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c,
+                                  ss_table **out_corners, ss_error *err);
+
+/* Snaps every element whose letter is in kinds ("r", "rc") to the nearest value of series
+ * E12/E24/E96 and solves again. Outputs: per element value, preferred, change_pct; per
+ * figure computed, preferred, shift, shift_pct. */
+SS_API ss_status ss_study_snap(ss_study *s, int series, const char *kinds,
+                               ss_table **out_values, ss_table **out_figures, ss_error *err);
+
+/* Reads a CSV written by ss_table_write_csv back (for merging shards). */
+SS_API ss_status ss_table_read_csv(const char *path, ss_table **out, ss_error *err);
+/* Concatenates study shards and sorts them by point; the header must match and every point
+ * appear once. The result written with ss_table_write_csv equals the unsharded run's file. */
+SS_API ss_status ss_study_merge(ss_table *const *shards, int n_shards, ss_table **out_points,
+                                ss_error *err);
+
+/* ---- preferred values ------------------------------------------------------------------ */
+
+/* Nearest value of an IEC 60063 series (12, 24 or 96 values per decade) to value (> 0). */
+SS_API ss_status ss_eseries_nearest(int series, double value, double *out_value, ss_error *err);
 
 /* Warnings gathered while parsing and solving (e.g. a near-singular matrix); NULL past the end. */
 SS_API const char *ss_circuit_warning(const ss_circuit *ckt, int index);

@@ -1,5 +1,5 @@
 /* Analyses on a parsed circuit: preparation (internal nodes, pattern, KLU analysis), the
- * Newton operating point with its fallbacks, DC sweeps, AC sweeps and stage figures. */
+ * Newton operating point with its fallbacks, DC sweeps, AC sweeps, stage figures and noise. */
 #ifndef SS_ANALYSIS_H
 #define SS_ANALYSIS_H
 
@@ -50,5 +50,19 @@ SS_HIDDEN ss_status ac_solve_point(ss_circuit *ckt, double omega, const element 
 SS_HIDDEN double ac_point_count(int type, int points, double f1, double f2);
 SS_HIDDEN ss_status ac_frequencies(const ss_circuit *ckt, double **out_freqs, int *out_n,
                                    ss_error *err);
+
+/* Noise (noise.c): every element's noise current sources at the operating point, in element
+ * order. Output *out_src (n entries, caller frees with ss_free; NULL when n is 0), written on
+ * success. Needs the operating point. Returns SS_OK or SS_ERR_NOMEM. */
+typedef struct noise_src {
+    dev_noise_src src; /* nodes, white and 1/f parts, static label */
+    int elem;          /* index into ckt->elem */
+} noise_src;
+SS_HIDDEN ss_status noise_collect_sources(const ss_circuit *ckt, noise_src **out_src, int *out_n,
+                                          ss_error *err);
+
+/* Stage figures at one frequency: complex gain, |Zin|, |Zout| (solves the op if needed). */
+SS_HIDDEN ss_status stage_at_frequency(ss_circuit *ckt, double freq_hz, double _Complex *gain,
+                                       double *zin_ohm, double *zout_ohm, ss_error *err);
 
 #endif

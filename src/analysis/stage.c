@@ -120,6 +120,23 @@ static ss_status refine_peak(ss_circuit *ckt, const element *src, int out_node, 
     return SS_OK;
 }
 
+ss_status stage_at_frequency(ss_circuit *ckt, double freq_hz, double complex *gain,
+                             double *zin_ohm, double *zout_ohm, ss_error *err)
+{
+    ss_status st;
+    if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
+        return st;
+    const element *src = &ckt->elem[circuit_find_elem(ckt, ckt->stage_in)];
+    stage_pt pt;
+    st = stage_point(ckt, src, circuit_find_node(ckt, ckt->stage_out), freq_hz, &pt, err);
+    if (st != SS_OK)
+        return st;
+    *gain = pt.gain;
+    *zin_ohm = cabs(pt.zin);
+    *zout_ohm = cabs(pt.zout);
+    return SS_OK;
+}
+
 static double phase_deg(double complex z) { return carg(z) * 180.0 / SS_PI; }
 
 ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_summary,

@@ -354,6 +354,35 @@ static void bjt_kcl(const element *e, const double *x, const dev_load_ctx *lc, d
     }
 }
 
+/* Noise (docs/noise.md; hybrid-pi noise model after Gray & Meyer, ch. 11 -- from memory):
+ * collector shot 2q|Ic| between c' and e', base shot 2q|Ib| and flicker KF |Ib|^AF / f between
+ * b' and e', thermal noise of RB, RE and RC. Ic and Ib are the model's currents at the
+ * operating point without the (noiseless) junction gmin. */
+static int bjt_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src *out)
+{
+    const double *tp = e->tp;
+    double vbe, vbc;
+    junction_voltages(e, nc->x_op, &vbe, &vbc);
+    bjt_eval_out o;
+    bjt_eval(tp, nc->vt_v, 0.0, vbe, vbc, &o);
+    int n = 0;
+    out[n++] = (dev_noise_src){e->inode[TC], e->inode[TE], noise_shot_a2_per_hz(o.ic), 0.0,
+                               "collector shot"};
+    out[n++] = (dev_noise_src){e->inode[TB], e->inode[TE], noise_shot_a2_per_hz(o.ib), 0.0,
+                               "base shot"};
+    if (tp[BP_KF] > 0.0)
+        out[n++] = (dev_noise_src){e->inode[TB], e->inode[TE], 0.0,
+                                   noise_flicker_a2(tp[BP_KF], tp[BP_AF], o.ib), "flicker"};
+    static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
+    static const char *const label[3] = {"rc thermal", "rb thermal", "re thermal"};
+    for (int t = 0; t < 3; t++)
+        if (e->inode[t] != e->node[t])
+            out[n++] = (dev_noise_src){e->node[t], e->inode[t],
+                                       noise_thermal_a2_per_hz(nc->temp_k, tp[r_of[t]]), 0.0,
+                                       label[t]};
+    return n;
+}
+
 const dev_ops bjt_ops = {
     .letter = 'q',
     .kind_name = "bipolar transistor",
@@ -365,6 +394,7 @@ const dev_ops bjt_ops = {
     .kcl = bjt_kcl,
     .load_ac = bjt_load_ac,
     .report = bjt_report,
+    .noise = bjt_noise,
     .value_name = NULL,
     .model_params = bjt_params,
     .n_model_params = BP_COUNT,

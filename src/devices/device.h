@@ -4,6 +4,7 @@
 #define SS_DEVICE_H
 
 #include <complex.h>
+#include <math.h>
 
 #include "netlist/circuit.h"
 #include "netlist/netlist.h"
@@ -59,6 +60,28 @@ typedef struct bjt_op_info {
     const char *region;
 } bjt_op_info;
 
+/* Noise: one independent noise current source of an element at the operating point, sitting
+ * between circuit nodes a and b (0 is ground; internal nodes included). Its current's power
+ * spectral density is white_a2_per_hz + flicker_a2 / f (A^2/Hz, f in Hz); the noise analysis
+ * (src/analysis/noise.c) takes it from there. Sources of different entries are uncorrelated. */
+typedef struct dev_noise_src {
+    int node_a, node_b;
+    double white_a2_per_hz; /* frequency-independent part, A^2/Hz */
+    double flicker_a2;      /* 1/f part: PSD flicker_a2 / f, so A^2/Hz at 1 Hz */
+    const char *what;       /* static text: "thermal", "collector shot", "rb thermal", ... */
+} dev_noise_src;
+
+/* The most noise sources one element reports (a BJT: rb, re, rc thermal, collector shot,
+ * base shot, flicker). */
+#define DEV_MAX_NOISE_SRC 8
+
+typedef struct dev_noise_ctx {
+    const double *x_op; /* operating point */
+    double temp_k;      /* circuit temperature */
+    double vt_v;        /* k T / q at temp_k */
+    double gmin_s;      /* junction gmin (a numerical aid: noiseless) */
+} dev_noise_ctx;
+
 typedef struct dev_model_param {
     const char *name;
     double def;
@@ -84,6 +107,10 @@ typedef struct dev_ops {
     /* op.csv rows at the solution x; NULL when none */
     void (*report)(const element *e, const double *x, double vt_v, double gmin_s,
                    dev_report_fn fn, void *sink);
+    /* the element's noise current sources at the operating point into out[0 ..
+     * DEV_MAX_NOISE_SRC-1]; returns how many. NULL for a noiseless element (ideal sources,
+     * capacitors, inductors, controlled sources). docs/noise.md has the models. */
+    int (*noise)(const element *e, const dev_noise_ctx *nc, dev_noise_src *out);
     /* the main value's name for --set and messages ("resistance"), NULL if none */
     const char *value_name;
     /* model parameter tables per model type (NULL when the kind takes no model) */
@@ -127,6 +154,27 @@ static inline void zrhs_add(double complex *rhs, int node_idx, double complex v)
 {
     if (node_idx > 0)
         rhs[node_idx - 1] += v;
+}
+
+/* ---- noise helpers (docs/noise.md) ------------------------------------------------------ */
+/* Thermal noise current of a resistance r_ohm at temp_k, as a Norton source across it:
+ * 4 k T / R in A^2/Hz (H. Nyquist, Phys. Rev. 32, 110, 1928; J. B. Johnson, Phys. Rev. 32, 97,
+ * 1928). */
+static inline double noise_thermal_a2_per_hz(double temp_k, double r_ohm)
+{
+    return 4.0 * SS_BOLTZMANN_J_PER_K * temp_k / r_ohm;
+}
+/* Shot noise of a DC current i_a crossing a junction: 2 q |I| in A^2/Hz (W. Schottky, Ann.
+ * Phys. 57, 541, 1918). */
+static inline double noise_shot_a2_per_hz(double i_a)
+{
+    return 2.0 * SS_ELEMENTARY_CHARGE_C * fabs(i_a);
+}
+/* Flicker noise KF |I|^AF / f: the coefficient KF |I|^AF in A^2 (the empirical form of the
+ * KF, AF model parameters, common practice); 0 when KF is 0. */
+static inline double noise_flicker_a2(double kf, double af, double i_a)
+{
+    return kf > 0.0 ? kf * pow(fabs(i_a), af) : 0.0;
 }
 
 /* Claims the four slots of a two-terminal admittance between nodes a and b into

@@ -139,6 +139,26 @@ static void diode_kcl(const element *e, const double *x, const dev_load_ctx *lc,
     }
 }
 
+/* Noise (docs/noise.md): shot noise 2q|Id| and flicker KF |Id|^AF / f across the junction,
+ * thermal noise of RS. Id is the junction's own current without gmin (a noiseless aid). */
+static int diode_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src *out)
+{
+    const double *tp = e->tp;
+    double vd = xv(nc->x_op, e->inode[0]) - xv(nc->x_op, e->node[1]);
+    double gd;
+    double id = junction_current(tp[DP_IS], vd, tp[DP_N] * nc->vt_v, &gd);
+    int n = 0;
+    out[n++] = (dev_noise_src){e->inode[0], e->node[1], noise_shot_a2_per_hz(id), 0.0, "shot"};
+    if (tp[DP_KF] > 0.0)
+        out[n++] = (dev_noise_src){e->inode[0], e->node[1], 0.0,
+                                   noise_flicker_a2(tp[DP_KF], tp[DP_AF], id), "flicker"};
+    if (e->inode[0] != e->node[0])
+        out[n++] = (dev_noise_src){e->node[0], e->inode[0],
+                                   noise_thermal_a2_per_hz(nc->temp_k, tp[DP_RS]), 0.0,
+                                   "rs thermal"};
+    return n;
+}
+
 const dev_ops diode_ops = {
     .letter = 'd',
     .kind_name = "diode",
@@ -150,6 +170,7 @@ const dev_ops diode_ops = {
     .kcl = diode_kcl,
     .load_ac = diode_load_ac,
     .report = diode_report,
+    .noise = diode_noise,
     .model_params = diode_params,
     .n_model_params = DP_COUNT,
 };

@@ -1,5 +1,5 @@
-/* Resistor: a conductance 1/R between two nodes, at DC and in AC (noise is the noise
- * module's). */
+/* Resistor: a conductance 1/R between two nodes, at DC and in AC, and its thermal noise
+ * source (the noise analysis itself is src/analysis/noise.c's). */
 #include "devices/passive.h"
 
 static int res_parse(pctx *p, element *e) { return parse_two_node_value(p, e, "resistance", 0); }
@@ -26,6 +26,14 @@ static void res_kcl(const element *e, const double *x, const dev_load_ctx *lc, d
     rhs_add(resid, e->node[1], -i_a);
 }
 
+/* Thermal (Johnson-Nyquist) noise 4kT/R as a current across the resistor (docs/noise.md). */
+static int res_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src *out)
+{
+    out[0] = (dev_noise_src){e->node[0], e->node[1],
+                             noise_thermal_a2_per_hz(nc->temp_k, e->value), 0.0, "thermal"};
+    return 1;
+}
+
 const dev_ops resistor_ops = {
     .letter = 'r',
     .kind_name = "resistor",
@@ -34,5 +42,6 @@ const dev_ops resistor_ops = {
     .load_dc = res_load_dc,
     .kcl = res_kcl,
     .load_ac = res_load_ac,
+    .noise = res_noise,
     .value_name = "resistance",
 };

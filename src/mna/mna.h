@@ -43,6 +43,11 @@ SS_HIDDEN ss_status mna_solve_complex(mna *m, double complex *b, int *bad_unknow
                                       double *rcond_out);
 /* Solves with the complex factorization of the last mna_solve_complex (same matrix). */
 SS_HIDDEN ss_status mna_solve_complex_again(mna *m, double complex *b);
+/* Solves the transposed system A^T x = b (plain transpose, not the conjugate) with the
+ * complex factorization of the last mna_solve_complex: the adjoint solve of the noise
+ * analysis, where x holds the transfer impedance from every unknown to the output. b is
+ * overwritten with x. Returns SS_OK, or SS_ERR_INTERNAL when there is no factorization. */
+SS_HIDDEN ss_status mna_solve_complex_transpose_again(mna *m, double complex *b);
 /* Forget the numeric factorizations (next solve calls klu_factor). */
 SS_HIDDEN void mna_reset_numeric(mna *m);
 

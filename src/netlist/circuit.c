@@ -102,11 +102,61 @@ void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *f)
 
 double ss_circuit_temp_c(const ss_circuit *ckt) { return ckt->temp_c; }
 
+ss_status ss_circuit_set_temp(ss_circuit *ckt, double temp_c, ss_error *err)
+{
+    if (!(temp_c > -SS_ZERO_C_IN_K && temp_c <= 1000.0))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "temperature %g C is outside -273.15 .. 1000 C", temp_c);
+    ckt->temp_c = temp_c;
+    ckt->have_op = 0;
+    return SS_OK;
+}
+
+ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *out_value,
+                               ss_error *err)
+{
+    char low[512];
+    size_t i;
+    for (i = 0; name[i] && i + 1 < sizeof low; i++)
+        low[i] = (char)((name[i] >= 'A' && name[i] <= 'Z') ? name[i] + 32 : name[i]);
+    low[i] = '\0';
+    for (int k = 0; k < ckt->n_params; k++)
+        if (strcmp(ckt->param_name[k], low) == 0) {
+            *out_value = ckt->param_value[k];
+            return SS_OK;
+        }
+    int e = circuit_find_elem(ckt, low);
+    if (e >= 0 && ckt->elem[e].ops->value_name) {
+        *out_value = ckt->elem[e].value;
+        return SS_OK;
+    }
+    char *dot = strrchr(low, '.');
+    if (dot) {
+        *dot = '\0';
+        int mi;
+        if (strmap_get(&ckt->model_map, low, &mi)) {
+            int pi = model_param_index(ckt->models[mi]->type, dot + 1);
+            if (pi >= 0) {
+                *out_value = ckt->models[mi]->p[pi];
+                return SS_OK;
+            }
+        }
+        *dot = '.';
+    }
+    return err_set(err, SS_ERR_INPUT, NULL, 0,
+                   "'%s' is no parameter, element value or model parameter of the circuit", name);
+}
+
 ss_status ss_circuit_set_stage(ss_circuit *ckt, const char *in_source, const char *out_node,
                                double load_ohm, ss_error *err)
 {
     char name[256];
     size_t i;
+    if (!in_source || !out_node) { /* only the load changes */
+        if (load_ohm > 0.0)
+            ckt->stage_load_ohm = load_ohm;
+        return SS_OK;
+    }
     for (i = 0; in_source[i] && i + 1 < sizeof name; i++)
         name[i] = (char)((in_source[i] >= 'A' && in_source[i] <= 'Z') ? in_source[i] + 32
                                                                         : in_source[i]);
@@ -154,6 +204,8 @@ void ss_circuit_destroy(ss_circuit **pckt)
     strmap_clear(&ckt->model_map);
     ss_free(ckt->warnings);
     ss_free(ckt->study_lines);
+    ss_free(ckt->param_name);
+    ss_free(ckt->param_value);
     arena_clear(&ckt->arena);
     ss_free(ckt);
     *pckt = NULL;

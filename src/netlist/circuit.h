@@ -101,10 +101,20 @@ struct ss_circuit {
         int is_tolerance;
     } *study_lines;
     int n_study_lines;
+    /* global .param values as evaluated (after --set), for studies and lookups */
+    const char **param_name;
+    double *param_value;
+    int n_params;
     const char *stage_in, *stage_out;
     double stage_load_ohm;
     const char *stage_file;
     int stage_line;
+    /* .noise v(OUT) SRC [rs=RNAME] (or ss_circuit_set_noise): the output node, the input
+     * source and the resistor whose thermal noise is the noise figure's reference (NULL: the
+     * one found in series with SRC, if any); checked after parsing */
+    const char *noise_out, *noise_src, *noise_rs;
+    const char *noise_file;
+    int noise_line;
 
     /* solver state (analysis module) */
     struct mna *mna;

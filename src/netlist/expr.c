@@ -10,7 +10,7 @@
 typedef struct expr_parser {
     const char *s;
     size_t pos;
-    int depth;
+    int *depth; /* nesting so far, shared with the evaluations of parameters it refers to */
     expr_lookup_fn lookup;
     void *ctx;
     char *msg;
@@ -84,7 +84,7 @@ static double parse_primary(expr_parser *p)
 {
     if (p->failed)
         return 0.0;
-    if (++p->depth > EXPR_MAX_DEPTH)
+    if (++*p->depth > EXPR_MAX_DEPTH)
         return fail(p, "expression nested too deeply (limit %s)", EXPR_MAX_DEPTH_TEXT);
     skip_ws(p);
     const char *at = p->s + p->pos;
@@ -126,7 +126,7 @@ static double parse_primary(expr_parser *p)
     } else {
         fail(p, "unexpected character '%.1s' in expression", at);
     }
-    p->depth--;
+    (*p->depth)--;
     return v;
 }
 
@@ -138,7 +138,12 @@ static double parse_power(expr_parser *p)
 {
     double base = parse_primary(p);
     if (accept(p, '^')) {
+        /* each '^' nests (right-associative): counted, so a long chain cannot exhaust the
+         * stack */
+        if (++*p->depth > EXPR_MAX_DEPTH)
+            return fail(p, "expression nested too deeply (limit %s)", EXPR_MAX_DEPTH_TEXT);
         double e = parse_unary(p);
+        (*p->depth)--;
         return pow(base, e);
     }
     return base;
@@ -149,11 +154,11 @@ static double parse_unary(expr_parser *p)
     skip_ws(p);
     char c = p->s[p->pos];
     if (c == '-' || c == '+') {
-        if (++p->depth > EXPR_MAX_DEPTH)
+        if (++*p->depth > EXPR_MAX_DEPTH)
             return fail(p, "expression nested too deeply (limit %s)", EXPR_MAX_DEPTH_TEXT);
         p->pos++;
         double v = parse_unary(p);
-        p->depth--;
+        (*p->depth)--;
         return c == '-' ? -v : v;
     }
     return parse_power(p);
@@ -193,11 +198,13 @@ static double parse_sum(expr_parser *p)
     }
 }
 
-int expr_eval(const char *text, expr_lookup_fn lookup, void *ctx, double *out, char *msg,
-              size_t msg_len)
+int expr_eval_nested(const char *text, int *depth, expr_lookup_fn lookup, void *ctx,
+                     double *out, char *msg, size_t msg_len)
 {
-    expr_parser p = {text, 0, 0, lookup, ctx, msg, msg_len, 0};
+    int depth_in = *depth;
+    expr_parser p = {text, 0, depth, lookup, ctx, msg, msg_len, 0};
     double v = parse_sum(&p);
+    *depth = depth_in; /* an early failure returns without unwinding the count */
     skip_ws(&p);
     if (!p.failed && p.s[p.pos] != '\0')
         fail(&p, "unexpected '%s' in expression", p.s + p.pos);
@@ -207,4 +214,11 @@ int expr_eval(const char *text, expr_lookup_fn lookup, void *ctx, double *out, c
         return -1;
     *out = v;
     return 0;
+}
+
+int expr_eval(const char *text, expr_lookup_fn lookup, void *ctx, double *out, char *msg,
+              size_t msg_len)
+{
+    int depth = 0;
+    return expr_eval_nested(text, &depth, lookup, ctx, out, msg, msg_len);
 }

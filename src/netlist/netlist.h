@@ -35,6 +35,11 @@ typedef int (*expr_lookup_fn)(void *ctx, const char *name, double *out, char *ms
 /* Evaluates text (no braces). 0 ok with *out written; -1 with a message. */
 SS_HIDDEN int expr_eval(const char *text, expr_lookup_fn lookup, void *ctx, double *out,
                         char *msg, size_t msg_len);
+/* As expr_eval, continuing the nesting count *depth of an enclosing evaluation (a parameter
+ * evaluated because an expression refers to it), so a chain of parameters shares the one
+ * EXPR_MAX_DEPTH budget and cannot exhaust the stack. *depth is as it was on return. */
+SS_HIDDEN int expr_eval_nested(const char *text, int *depth, expr_lookup_fn lookup, void *ctx,
+                               double *out, char *msg, size_t msg_len);
 
 /* ---- device-facing parse API ------------------------------------------------------------- */
 typedef struct pctx pctx; /* the parser's state for one element line */

@@ -75,6 +75,7 @@ typedef struct parser {
     int n_overrides;
     unsigned char *override_used;
     int nomem;
+    int expr_depth; /* expression nesting, shared by the parameters an expression refers to */
 } parser;
 
 struct pctx {
@@ -427,7 +428,7 @@ static int eval_text(parser *ps, const scope *sc, const char *text, double *out,
         t = buf;
     }
     lookup_ctx lc = {ps, sc};
-    return expr_eval(t, scope_lookup, &lc, out, msg, msg_len);
+    return expr_eval_nested(t, &ps->expr_depth, scope_lookup, &lc, out, msg, msg_len);
 }
 
 static int eval_global_param(parser *ps, int idx, char *msg, size_t msg_len)
@@ -607,6 +608,30 @@ const char *pctx_strdup(pctx *p, const char *s)
 
 static int is_ground_name(const char *t) { return strcmp(t, "0") == 0 || strcmp(t, "gnd") == 0; }
 
+/* Hierarchical names (subcircuit prefix + local name) are built in buffers of this size. A
+ * longer one is an error, never cut short: two names cut to the same text would silently merge
+ * two nodes (or confuse two elements). */
+#define SCOPED_NAME_BYTES 1024
+
+/* Writes prefix + tok + suffix into buf[SCOPED_NAME_BYTES]; 0 ok, -1 with the error set
+ * (naming `who` at line ll) when the name does not fit. */
+static int scoped_name(parser *ps, const logline *ll, const char *who, char *buf,
+                       const char *prefix, const char *tok, const char *suffix)
+{
+    int n = snprintf(buf, SCOPED_NAME_BYTES, "%s%s%s", prefix, tok, suffix);
+    if (n >= 0 && n < SCOPED_NAME_BYTES)
+        return 0;
+    if (!prefix[0])
+        err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                "%.60s...: the name is longer than %d characters", tok, SCOPED_NAME_BYTES - 1);
+    else
+        err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                "%.60s: the name of '%.60s' inside the subcircuit instance '%.60s...' is longer "
+                "than %d characters",
+                who, tok, prefix, SCOPED_NAME_BYTES - 1);
+    return -1;
+}
+
 static int valid_node_name(const char *t)
 {
     if (!*t)
@@ -628,8 +653,9 @@ int pctx_node(pctx *p, const char *tok)
     for (int i = 0; i < p->sc->n_ports; i++)
         if (strcmp(p->sc->port_names[i], tok) == 0)
             return p->sc->port_nodes[i];
-    char name[1024];
-    snprintf(name, sizeof name, "%s%s", p->sc->prefix, tok);
+    char name[SCOPED_NAME_BYTES];
+    if (scoped_name(p->ps, p->ll, p->ll->tok[0], name, p->sc->prefix, tok, "") != 0)
+        return -1;
     int idx = circuit_find_node(p->ps->ckt, name);
     if (idx >= 0)
         return idx;
@@ -678,8 +704,9 @@ const model *pctx_model(pctx *p, const char *name, unsigned type_mask)
 
 const char *pctx_scoped_name(pctx *p, const char *tok)
 {
-    char name[1024];
-    snprintf(name, sizeof name, "%s%s", p->sc->prefix, tok);
+    char name[SCOPED_NAME_BYTES];
+    if (scoped_name(p->ps, p->ll, p->ll->tok[0], name, p->sc->prefix, tok, "") != 0)
+        return NULL;
     return pctx_strdup(p, name);
 }
 
@@ -955,8 +982,9 @@ static ss_status add_element(parser *ps, const logline *ll, const scope *sc)
     if (ckt->n_elem >= NETLIST_MAX_ELEMENTS)
         return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
                        "more than %d elements", NETLIST_MAX_ELEMENTS);
-    char name[1024];
-    snprintf(name, sizeof name, "%s%s", sc->prefix, tok0);
+    char name[SCOPED_NAME_BYTES];
+    if (scoped_name(ps, ll, tok0, name, sc->prefix, tok0, "") != 0)
+        return SS_ERR_LIMIT;
     int dup;
     if (strmap_get(&ckt->elem_map, name, &dup))
         return line_error(ps, ll, "%s: element name used twice (first at %s:%d)", name,
@@ -1067,8 +1095,9 @@ static ss_status expand_instance(parser *ps, const logline *ll, const scope *sc)
     memset(&inner, 0, sizeof inner);
     inner.parent = NULL; /* subcircuit bodies see their own parameters, then the globals */
     inner.depth = sc->depth + 1;
-    char prefix[1024];
-    snprintf(prefix, sizeof prefix, "%s%s.", sc->prefix, xname);
+    char prefix[SCOPED_NAME_BYTES];
+    if (scoped_name(ps, ll, xname, prefix, sc->prefix, xname, ".") != 0)
+        return SS_ERR_LIMIT;
     inner.prefix = arena_strdup(ar, prefix);
     int *port_nodes = arena_alloc(ar, (size_t)(n_nodes ? n_nodes : 1) * sizeof(int));
     if (!inner.prefix || !port_nodes)
@@ -1171,6 +1200,16 @@ static int set_stage(parser *ps, const logline *ll, void *vctx, const char *name
         ckt->stage_load_ohm = v;
     } else
         return line_error(ps, ll, ".stage: unknown field '%s' (known: in, out, load)", name), -1;
+    return 0;
+}
+
+static int set_noise(parser *ps, const logline *ll, void *vctx, const char *name,
+                     const char *text)
+{
+    (void)vctx;
+    if (strcmp(name, "rs") != 0)
+        return line_error(ps, ll, ".noise: unknown field '%s' (known: rs)", name), -1;
+    ps->ckt->noise_rs = text;
     return 0;
 }
 
@@ -1297,8 +1336,35 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
         return SS_OK;
     }
     if (strcmp(d, ".noise") == 0) {
+        /* .noise v(OUT) SRC [rs=RNAME]: names checked after parsing (check_noise) */
+        if (ll->n_tok < 3)
+            return line_error(ps, ll, ".noise expects v(OUT) SRC [rs=RESISTOR]");
+        const char *o = ll->tok[1];
+        size_t len = strlen(o);
+        if (len < 4 || strncmp(o, "v(", 2) != 0 || o[len - 1] != ')')
+            return line_error(ps, ll, ".noise: the output must be written v(NODE), got '%s'", o);
+        if (strchr(o, ','))
+            return line_error(ps, ll,
+                              ".noise: a differential output '%s' is not supported; name one "
+                              "node, v(NODE)",
+                              o);
+        size_t b = 2, e = len - 1;
+        while (b < e && isspace((unsigned char)o[b]))
+            b++;
+        while (e > b && isspace((unsigned char)o[e - 1]))
+            e--;
+        if (b == e)
+            return line_error(ps, ll, ".noise: v() names no output node");
+        char *node = arena_strndup(&ckt->arena, o + b, e - b);
+        if (!node)
+            return nomem(ps);
+        ckt->noise_out = node;
+        ckt->noise_src = ll->tok[2];
+        ckt->noise_rs = NULL;
+        ckt->noise_file = ll->file;
+        ckt->noise_line = ll->line;
         ckt->want_noise = 1;
-        return SS_OK;
+        return parse_assignments(ps, ll, 3, set_noise, NULL) == 0 ? SS_OK : ps->err->code;
     }
     if (strcmp(d, ".ends") == 0 || strcmp(d, ".subckt") == 0)
         return SS_OK;
@@ -1359,6 +1425,35 @@ static ss_status check_dc_sources(parser *ps)
         if (idx < 0 || (ckt->elem[idx].ops->letter != 'v' && ckt->elem[idx].ops->letter != 'i'))
             return err_set(ps->err, SS_ERR_INPUT, s->file, s->line,
                            ".dc: '%s' is not an independent voltage or current source", s->src);
+    }
+    return SS_OK;
+}
+
+/* A .noise line must name an existing output node and an independent source, and its rs= a
+ * resistor: checked before anything is solved. */
+static ss_status check_noise(parser *ps)
+{
+    ss_circuit *ckt = ps->ckt;
+    if (!ckt->want_noise)
+        return SS_OK;
+    int n = circuit_find_node(ckt, ckt->noise_out);
+    if (n <= 0)
+        return err_set(ps->err, SS_ERR_INPUT, ckt->noise_file, ckt->noise_line,
+                       ".noise: output node '%s' %s", ckt->noise_out,
+                       n == 0 ? "is ground" : "does not exist");
+    ckt->noise_out = ckt->node_name[n];
+    int idx = circuit_find_elem(ckt, ckt->noise_src);
+    if (idx < 0 || (ckt->elem[idx].ops->letter != 'v' && ckt->elem[idx].ops->letter != 'i'))
+        return err_set(ps->err, SS_ERR_INPUT, ckt->noise_file, ckt->noise_line,
+                       ".noise: '%s' is not an independent voltage or current source",
+                       ckt->noise_src);
+    ckt->noise_src = ckt->elem[idx].name;
+    if (ckt->noise_rs) {
+        idx = circuit_find_elem(ckt, ckt->noise_rs);
+        if (idx < 0 || ckt->elem[idx].ops->letter != 'r')
+            return err_set(ps->err, SS_ERR_INPUT, ckt->noise_file, ckt->noise_line,
+                           ".noise: rs=%s is not a resistor of the circuit", ckt->noise_rs);
+        ckt->noise_rs = ckt->elem[idx].name;
     }
     return SS_OK;
 }
@@ -1512,10 +1607,23 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
                 st = err->code;
         }
     }
+    if (st == SS_OK && ps.n_params > 0) {
+        ckt->param_name = ss_alloc((size_t)ps.n_params * sizeof *ckt->param_name);
+        ckt->param_value = ss_alloc((size_t)ps.n_params * sizeof *ckt->param_value);
+        if (!ckt->param_name || !ckt->param_value)
+            st = nomem(&ps);
+        for (int i = 0; st == SS_OK && i < ps.n_params; i++) {
+            ckt->param_name[i] = ps.params[i].name;
+            ckt->param_value[i] = ps.params[i].value;
+        }
+        ckt->n_params = ps.n_params;
+    }
     if (st == SS_OK)
         st = resolve_controls(&ps);
     if (st == SS_OK)
         st = check_dc_sources(&ps);
+    if (st == SS_OK)
+        st = check_noise(&ps);
     if (st == SS_OK)
         st = apply_late_overrides(&ps);
     if (st == SS_OK && ckt->n_elem == 0)

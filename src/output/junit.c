@@ -1,0 +1,74 @@
+/* JUnit-style XML report of check verdicts: the subset CI systems read (testsuites /
+ * testsuite / testcase / failure), written atomically. Judging is src/study's. */
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "output/output.h"
+#include "util/table.h"
+
+static void xml_text(ss_strbuf *b, const char *s)
+{
+    for (; *s; s++) {
+        switch (*s) {
+        case '&': strbuf_append(b, "&amp;", 5); break;
+        case '<': strbuf_append(b, "&lt;", 4); break;
+        case '>': strbuf_append(b, "&gt;", 4); break;
+        case '"': strbuf_append(b, "&quot;", 6); break;
+        default:
+            if ((unsigned char)*s >= 0x20 || *s == '\t' || *s == '\n')
+                strbuf_append(b, s, 1);
+        }
+    }
+}
+
+ss_status ss_check_write_junit(const ss_table *v, const char *suite_name, const char *path,
+                               ss_error *err)
+{
+    int failures = 0;
+    for (int i = 0; i < v->n_rows; i++)
+        failures += v->data[(size_t)i * 5 + 4] == 0.0;
+    ss_strbuf b = {0};
+    strbuf_printf(&b, "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n<testsuites tests=\"%d\" "
+                      "failures=\"%d\" errors=\"0\">\n  <testsuite name=\"",
+                  v->n_rows, failures);
+    xml_text(&b, suite_name);
+    strbuf_printf(&b, "\" tests=\"%d\" failures=\"%d\" errors=\"0\" skipped=\"0\" time=\"0\">\n",
+                  v->n_rows, failures);
+    for (int i = 0; i < v->n_rows; i++) {
+        const double *r = v->data + (size_t)i * 5;
+        strbuf_append(&b, "    <testcase name=\"", 20);
+        xml_text(&b, v->row_labels[i]);
+        strbuf_append(&b, "\" classname=\"stagesim.check.", 28);
+        xml_text(&b, suite_name);
+        strbuf_append(&b, "\" time=\"0\"", 10);
+        char meas[40], lo[40], hi[40];
+        output_format_double(meas, sizeof meas, r[0]);
+        output_format_double(lo, sizeof lo, r[1]);
+        output_format_double(hi, sizeof hi, r[2]);
+        if (r[4] != 0.0) {
+            strbuf_append(&b, "/>\n", 3);
+            continue;
+        }
+        char msg[200];
+        if (isnan(r[0]))
+            snprintf(msg, sizeof msg, "no value (e.g. a corner outside the swept range)");
+        else if (!isnan(r[1]) && r[0] < r[1])
+            snprintf(msg, sizeof msg, "measured %s, below the lower limit %s", meas, lo);
+        else
+            snprintf(msg, sizeof msg, "measured %s, above the upper limit %s", meas, hi);
+        strbuf_append(&b, ">\n      <failure message=\"", 26);
+        xml_text(&b, msg);
+        strbuf_printf(&b, "\" type=\"limit\">measured=%s lower=%s upper=%s</failure>\n    "
+                          "</testcase>\n",
+                      meas[0] ? meas : "none", lo[0] ? lo : "none", hi[0] ? hi : "none");
+    }
+    strbuf_append(&b, "  </testsuite>\n</testsuites>\n", 29);
+    if (b.failed) {
+        strbuf_clear(&b);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    ss_status st = output_write_atomic(path, b.data, b.len, err);
+    strbuf_clear(&b);
+    return st;
+}

@@ -1,0 +1,121 @@
+/* Figure collection: one labelled table of everything a check or a study can look at -- the
+ * operating point, the stage summary and stage quantities at named frequencies. */
+#include <complex.h>
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "study/study.h"
+
+static int add_row(ss_table *t, const char *label, double v)
+{
+    for (int i = 0; i < t->n_rows; i++)
+        if (strcmp(t->row_labels[i], label) == 0)
+            return 0; /* a point figure named twice by the limits */
+    double *row = table_add_row(t, label);
+    if (!row)
+        return -1;
+    row[0] = v;
+    return 0;
+}
+
+ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table **out_figures,
+                             ss_error *err)
+{
+    ss_table *op = NULL, *stage = NULL, *summary = NULL;
+    ss_status st = ss_op_solve(ckt, &op, NULL, err);
+    if (st != SS_OK)
+        return st;
+    ss_table *t = table_create(1, "metric");
+    int bad = !t || table_set_col(t, 0, "value") != 0;
+    for (int i = 0; !bad && i < op->n_rows; i++)
+        bad |= add_row(t, op->row_labels[i], op->data[i]) != 0;
+    ss_table_destroy(&op);
+    if (!bad && ckt->want_ac && ckt->stage_in) {
+        st = ss_stage_run(ckt, &stage, &summary, err);
+        if (st != SS_OK) {
+            ss_table_destroy(&t);
+            return st;
+        }
+        for (int i = 0; !bad && i < summary->n_rows; i++)
+            bad |= add_row(t, summary->row_labels[i], summary->data[i]) != 0;
+        ss_table_destroy(&stage);
+        ss_table_destroy(&summary);
+    }
+    for (int i = 0; !bad && limits && i < limits->n; i++) {
+        const limit *lim = &limits->items[i];
+        if (!lim->at_freq)
+            continue;
+        if (!ckt->stage_in) {
+            ss_table_destroy(&t);
+            return err_set(err, SS_ERR_INPUT, lim->file, lim->line,
+                           "limit on %s needs a stage: add `.stage in=SOURCE out=NODE`",
+                           lim->quantity);
+        }
+        double complex g;
+        double zin, zout;
+        st = stage_at_frequency(ckt, lim->freq_hz, &g, &zin, &zout, err);
+        if (st != SS_OK) {
+            ss_table_destroy(&t);
+            return st;
+        }
+        double v = strcmp(lim->base, "gain") == 0      ? cabs(g)
+                   : strcmp(lim->base, "gain_db") == 0 ? 20.0 * log10(cabs(g))
+                   : strcmp(lim->base, "phase_deg") == 0 ? carg(g) * 180.0 / SS_PI
+                   : strcmp(lim->base, "zin_ohm") == 0   ? zin
+                                                         : zout;
+        bad |= add_row(t, lim->quantity, v) != 0;
+    }
+    if (bad) {
+        ss_table_destroy(&t);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    *out_figures = t;
+    return SS_OK;
+}
+
+ss_status ss_check_evaluate(const ss_limits *l, const ss_table *figures, ss_table **out_verdicts,
+                            int *n_failed, ss_error *err)
+{
+    static const char *const cols[] = {"measured", "lower", "upper", "margin", "pass"};
+    ss_table *t = table_create(5, "quantity");
+    int bad = !t;
+    for (int j = 0; !bad && j < 5; j++)
+        bad |= table_set_col(t, j, cols[j]) != 0;
+    if (bad) {
+        ss_table_destroy(&t);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    int failed = 0;
+    for (int i = 0; i < l->n; i++) {
+        const limit *lim = &l->items[i];
+        double v = ss_table_lookup(figures, lim->quantity, 0);
+        int found = 0;
+        for (int r = 0; r < figures->n_rows && !found; r++)
+            found = strcmp(figures->row_labels[r], lim->quantity) == 0;
+        if (!found) {
+            ss_table_destroy(&t);
+            return err_set(err, SS_ERR_INPUT, lim->file, lim->line,
+                           "limit on '%s': no such figure in this run (figures are the op.csv "
+                           "quantities, the stage summary metrics and QUANTITY@FREQ)",
+                           lim->quantity);
+        }
+        double *row = table_add_row(t, lim->quantity);
+        if (!row) {
+            ss_table_destroy(&t);
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        }
+        /* an empty figure (a corner outside the sweep) cannot meet a bound */
+        double margin = fmin(v - lim->lo, lim->hi - v);
+        int pass = !isnan(v) && margin >= 0.0;
+        row[0] = v;
+        row[1] = isfinite(lim->lo) ? lim->lo : SS_NAN;
+        row[2] = isfinite(lim->hi) ? lim->hi : SS_NAN;
+        row[3] = isnan(v) ? SS_NAN : margin;
+        row[4] = pass;
+        failed += !pass;
+    }
+    *out_verdicts = t;
+    *n_failed = failed;
+    return SS_OK;
+}

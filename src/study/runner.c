@@ -1,0 +1,1047 @@
+/* Study runner: grids of swept values and Monte Carlo trials over tolerances, each point a
+ * fresh parse with overrides, spread over threads with results placed by point index (so the
+ * output never depends on the thread count), sharding, statistics, sensitivities. */
+#define _POSIX_C_SOURCE 200809L
+#include <ctype.h>
+#include <math.h>
+#include <pthread.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "netlist/netlist.h"
+#include "study/study.h"
+
+#define STUDY_MAX_POINTS 100000000L
+#define STUDY_MAX_DIMS 16
+#define STUDY_MAX_THREADS 256
+
+typedef struct vary_dim {
+    const char *name; /* lower case; "temp" for temperature */
+    double *values;
+    int n;
+} vary_dim;
+
+typedef struct tol_spec {
+    const char *name;
+    double nominal;
+    double lo, hi; /* absolute range */
+    int gauss;
+} tol_spec;
+
+struct ss_study {
+    ss_arena arena;
+    const char *netlist;
+    ss_override *sets;
+    int n_sets;
+    const char *stage_in, *stage_out;
+    vary_dim dims[STUDY_MAX_DIMS];
+    int n_dims;
+    tol_spec *tols;
+    int n_tols, cap_tols;
+    long trials;
+    unsigned long long seed;
+    int threads;
+    int shard_k, shard_n;
+    const ss_limits *limits; /* == own_limits: the netlist's .expect lines plus any added */
+    ss_limits *own_limits;
+    ss_progress_fn progress;
+    void *progress_ctx;
+    ss_circuit *nominal;
+};
+
+static char *lower_dup(ss_arena *a, const char *s, size_t n)
+{
+    char *d = arena_strndup(a, s, n);
+    if (d)
+        for (char *c = d; *c; c++)
+            *c = (char)tolower((unsigned char)*c);
+    return d;
+}
+
+/* ---- random numbers: splitmix64 seeding xoshiro256** (Blackman & Vigna, 2018) ----------- */
+
+typedef struct rng {
+    uint64_t s[4];
+} rng;
+
+static uint64_t splitmix64(uint64_t *x)
+{
+    uint64_t z = (*x += 0x9e3779b97f4a7c15ull);
+    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ull;
+    z = (z ^ (z >> 27)) * 0x94d049bb133111ebull;
+    return z ^ (z >> 31);
+}
+
+static void rng_seed(rng *r, uint64_t seed, uint64_t stream)
+{
+    uint64_t x = seed ^ (stream * 0xd1b54a32d192ed03ull);
+    for (int i = 0; i < 4; i++)
+        r->s[i] = splitmix64(&x);
+}
+
+static uint64_t rotl(uint64_t x, int k) { return (x << k) | (x >> (64 - k)); }
+
+static uint64_t rng_next(rng *r)
+{
+    uint64_t *s = r->s;
+    uint64_t result = rotl(s[1] * 5, 7) * 9;
+    uint64_t t = s[1] << 17;
+    s[2] ^= s[0];
+    s[3] ^= s[1];
+    s[1] ^= s[2];
+    s[0] ^= s[3];
+    s[2] ^= t;
+    s[3] = rotl(s[3], 45);
+    return result;
+}
+
+/* uniform in (0, 1): 53 random bits, never 0 */
+static double rng_uniform(rng *r) { return ((double)(rng_next(r) >> 11) + 0.5) * 0x1.0p-53; }
+
+/* standard normal by the Box-Muller transform (two uniforms per draw, no state kept) */
+static double rng_gauss(rng *r)
+{
+    double u1 = rng_uniform(r), u2 = rng_uniform(r);
+    return sqrt(-2.0 * log(u1)) * cos(2.0 * SS_PI * u2);
+}
+
+/* ---- configuration ------------------------------------------------------------------------ */
+
+ss_status ss_study_create(const char *netlist_path, const ss_override *sets, int n_sets,
+                          ss_study **out, ss_error *err)
+{
+    ss_study *s = ss_alloc(sizeof *s);
+    if (!s)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    s->netlist = arena_strdup(&s->arena, netlist_path);
+    s->sets = arena_alloc(&s->arena, (size_t)(n_sets + 1) * sizeof *s->sets);
+    if (!s->netlist || !s->sets) {
+        ss_study_destroy(&s);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    for (int i = 0; i < n_sets; i++) {
+        s->sets[i].name = arena_strdup(&s->arena, sets[i].name);
+        s->sets[i].value = arena_strdup(&s->arena, sets[i].value);
+        if (!s->sets[i].name || !s->sets[i].value) {
+            ss_study_destroy(&s);
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        }
+    }
+    s->n_sets = n_sets;
+    s->shard_k = s->shard_n = 1;
+    ss_status st = ss_circuit_parse_file(netlist_path, sets, n_sets, &s->nominal, err);
+    if (st != SS_OK) {
+        ss_study_destroy(&s);
+        return st;
+    }
+    /* the netlist's own .expect lines, then its .tolerance lines */
+    if (ss_limits_create(&s->own_limits, err) != SS_OK ||
+        ss_limits_add_circuit(s->own_limits, s->nominal, err) != SS_OK) {
+        ss_study_destroy(&s);
+        return err->code;
+    }
+    s->limits = s->own_limits;
+    for (int i = 0; i < s->nominal->n_study_lines; i++) {
+        const struct study_line *sl = &s->nominal->study_lines[i];
+        if (!sl->is_tolerance)
+            continue;
+        /* `.tolerance NAME SPEC [gauss]` -> "NAME=SPEC[:gauss]" */
+        char spec[600];
+        const char *t = sl->text;
+        size_t n = strcspn(t, " ");
+        const char *rest = t + n;
+        while (*rest == ' ')
+            rest++;
+        char body[512];
+        snprintf(body, sizeof body, "%s", rest);
+        /* tokens were joined with spaces: "5 %" -> "5%", "100 .. 300" -> "100..300" */
+        char packed[512];
+        size_t k = 0;
+        int gauss = 0;
+        char *g = strstr(body, "gauss");
+        if (g) {
+            gauss = 1;
+            *g = '\0';
+        }
+        for (char *c = body; *c && k + 1 < sizeof packed; c++)
+            if (*c != ' ' && *c != ':')
+                packed[k++] = *c;
+        packed[k] = '\0';
+        snprintf(spec, sizeof spec, "%.*s=%s%s", (int)n, t, packed, gauss ? ":gauss" : "");
+        ss_error e2 = {0};
+        if (ss_study_add_tolerance(s, spec, &e2) != SS_OK) {
+            err_set(err, e2.code, sl->file, sl->line, ".tolerance: %s", e2.message);
+            ss_study_destroy(&s);
+            return SS_ERR_INPUT;
+        }
+    }
+    *out = s;
+    return SS_OK;
+}
+
+void ss_study_destroy(ss_study **ps)
+{
+    if (!ps || !*ps)
+        return;
+    ss_study *s = *ps;
+    for (int i = 0; i < s->n_dims; i++)
+        ss_free(s->dims[i].values);
+    ss_free(s->tols);
+    ss_limits_destroy(&s->own_limits);
+    ss_circuit_destroy(&s->nominal);
+    arena_clear(&s->arena);
+    ss_free(s);
+    *ps = NULL;
+}
+
+ss_status ss_study_set_stage(ss_study *s, const char *in_source, const char *out_node,
+                             ss_error *err)
+{
+    ss_status st = ss_circuit_set_stage(s->nominal, in_source, out_node, 0.0, err);
+    if (st != SS_OK)
+        return st;
+    s->stage_in = arena_strdup(&s->arena, in_source);
+    s->stage_out = arena_strdup(&s->arena, out_node);
+    return s->stage_in && s->stage_out ? SS_OK
+                                       : err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+}
+
+/* Checks NAME against the nominal circuit; temp is always known. */
+static ss_status check_name(ss_study *s, const char *name, double *nominal, ss_error *err)
+{
+    if (strcmp(name, "temp") == 0) {
+        *nominal = s->nominal->temp_c;
+        return SS_OK;
+    }
+    ss_error e2 = {0};
+    if (ss_circuit_get_value(s->nominal, name, nominal, &e2) != SS_OK)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "%s", e2.message);
+    return SS_OK;
+}
+
+static int parse_number(const char *t, double *out)
+{
+    char buf[128];
+    size_t n = strlen(t);
+    if (n == 0 || n >= sizeof buf)
+        return -1;
+    memcpy(buf, t, n + 1);
+    for (char *c = buf; *c; c++)
+        *c = (char)tolower((unsigned char)*c);
+    return value_parse(buf, out);
+}
+
+ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
+{
+    const char *eq = strchr(spec, '=');
+    if (!eq || eq == spec)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--vary %s: expected NAME=lin:START:STOP:N, NAME=log:START:STOP:N or "
+                       "NAME=list:V1,V2,...",
+                       spec);
+    if (s->n_dims >= STUDY_MAX_DIMS)
+        return err_set(err, SS_ERR_LIMIT, NULL, 0, "--vary: more than %d swept names",
+                       STUDY_MAX_DIMS);
+    vary_dim *d = &s->dims[s->n_dims];
+    d->name = lower_dup(&s->arena, spec, (size_t)(eq - spec));
+    if (!d->name)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    for (int i = 0; i < s->n_dims; i++)
+        if (strcmp(s->dims[i].name, d->name) == 0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: swept twice", d->name);
+    double nominal;
+    ss_status st = check_name(s, d->name, &nominal, err);
+    if (st != SS_OK)
+        return err_set(err, st, NULL, 0, "--vary %s", d->name), st;
+    char body[1024];
+    snprintf(body, sizeof body, "%s", eq + 1);
+    char *kind = body, *rest = strchr(body, ':');
+    if (!rest)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--vary %s: expected lin:, log: or list: after '='", d->name);
+    *rest++ = '\0';
+    double vals_buf[3];
+    if (strcmp(kind, "lin") == 0 || strcmp(kind, "log") == 0) {
+        char *f[3];
+        int nf = 0;
+        for (char *tok = strtok(rest, ":"); tok && nf < 4; tok = strtok(NULL, ":"))
+            f[nf < 3 ? nf : 2] = tok, nf++;
+        if (nf != 3 || parse_number(f[0], &vals_buf[0]) != 0 ||
+            parse_number(f[1], &vals_buf[1]) != 0 || parse_number(f[2], &vals_buf[2]) != 0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "--vary %s: expected %s:START:STOP:N with numbers", d->name, kind);
+        double n = vals_buf[2];
+        if (!(n >= 1.0) || n != floor(n) || n > 1e6)
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "--vary %s: the point count must be a whole number from 1 to 1e6, "
+                           "got %g",
+                           d->name, n);
+        if (kind[1] == 'o' && !(vals_buf[0] > 0.0 && vals_buf[1] > 0.0))
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "--vary %s: a log sweep needs positive START and STOP", d->name);
+        d->n = (int)n;
+        d->values = ss_alloc((size_t)d->n * sizeof *d->values);
+        if (!d->values)
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        for (int i = 0; i < d->n; i++) {
+            double t = d->n == 1 ? 0.0 : (double)i / (d->n - 1);
+            d->values[i] = kind[1] == 'i'
+                               ? vals_buf[0] + t * (vals_buf[1] - vals_buf[0])
+                               : exp(log(vals_buf[0]) + t * (log(vals_buf[1]) - log(vals_buf[0])));
+        }
+    } else if (strcmp(kind, "list") == 0) {
+        int cap = 1;
+        for (const char *c = rest; *c; c++)
+            cap += *c == ',';
+        d->values = ss_alloc((size_t)cap * sizeof *d->values);
+        if (!d->values)
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        d->n = 0;
+        for (char *tok = strtok(rest, ","); tok; tok = strtok(NULL, ","))
+            if (parse_number(tok, &d->values[d->n++]) != 0)
+                return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: bad value '%s'", d->name,
+                               tok);
+        if (d->n == 0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: empty list", d->name);
+    } else {
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--vary %s: unknown kind '%s' (lin, log or list)", d->name, kind);
+    }
+    s->n_dims++;
+    return SS_OK;
+}
+
+ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err)
+{
+    const char *eq = strchr(spec, '=');
+    if (!eq || eq == spec || !eq[1])
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "tolerance '%s': expected NAME=PCT%%, NAME=LO..HI, optionally :gauss",
+                       spec);
+    char *name = lower_dup(&s->arena, spec, (size_t)(eq - spec));
+    if (!name)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    if (strcmp(name, "temp") == 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "tolerance on temp: sweep the temperature with --vary temp=... instead");
+    double nominal;
+    ss_status st = check_name(s, name, &nominal, err);
+    if (st != SS_OK)
+        return st;
+    for (int i = 0; i < s->n_tols; i++)
+        if (strcmp(s->tols[i].name, name) == 0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0, "tolerance on %s given twice", name);
+    char body[256];
+    snprintf(body, sizeof body, "%s", eq + 1);
+    tol_spec t = {name, nominal, 0, 0, 0};
+    char *colon = strchr(body, ':');
+    if (colon) {
+        *colon = '\0';
+        if (strcmp(colon + 1, "gauss") == 0)
+            t.gauss = 1;
+        else if (strcmp(colon + 1, "uniform") != 0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "tolerance on %s: unknown distribution '%s' (uniform or gauss)", name,
+                           colon + 1);
+    }
+    size_t len = strlen(body);
+    char *dots = strstr(body, "..");
+    if (len > 0 && body[len - 1] == '%') {
+        body[len - 1] = '\0';
+        double pct;
+        if (parse_number(body, &pct) != 0 || !(pct >= 0.0 && pct < 100.0))
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "tolerance on %s: percentage must be from 0 to below 100", name);
+        t.lo = nominal - fabs(nominal) * pct / 100.0;
+        t.hi = nominal + fabs(nominal) * pct / 100.0;
+    } else if (dots) {
+        *dots = '\0';
+        if (parse_number(body, &t.lo) != 0 || parse_number(dots + 2, &t.hi) != 0 || t.hi < t.lo)
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "tolerance on %s: expected LO..HI with LO <= HI", name);
+    } else {
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "tolerance on %s: expected PCT%% or LO..HI, got '%s'", name, body);
+    }
+    if (s->n_tols == s->cap_tols) {
+        int ncap = s->cap_tols ? s->cap_tols * 2 : 8;
+        tol_spec *nt = ss_realloc(s->tols, (size_t)ncap * sizeof *nt);
+        if (!nt)
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        s->tols = nt;
+        s->cap_tols = ncap;
+    }
+    s->tols[s->n_tols++] = t;
+    return SS_OK;
+}
+
+ss_status ss_study_set_trials(ss_study *s, long trials, unsigned long long seed, ss_error *err)
+{
+    if (trials < 1 || trials > STUDY_MAX_POINTS)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "the trial count must be from 1 to %ld, got %ld",
+                       STUDY_MAX_POINTS, trials);
+    if (s->n_tols == 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "a tolerance run needs tolerances: .tolerance lines or --tol NAME=SPEC");
+    s->trials = trials;
+    s->seed = seed;
+    return SS_OK;
+}
+
+void ss_study_set_threads(ss_study *s, int n) { s->threads = n; }
+
+ss_status ss_study_set_shard(ss_study *s, int k, int n, ss_error *err)
+{
+    if (n < 1 || k < 1 || k > n)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "shard %d/%d: need 1 <= K <= N", k, n);
+    s->shard_k = k;
+    s->shard_n = n;
+    return SS_OK;
+}
+
+ss_status ss_study_add_limits(ss_study *s, const ss_limits *l, ss_error *err)
+{
+    ss_limits *own = s->own_limits;
+    for (int i = 0; i < l->n; i++) {
+        if (own->n == own->cap) {
+            int ncap = own->cap ? own->cap * 2 : 16;
+            limit *ni = ss_realloc(own->items, (size_t)ncap * sizeof *ni);
+            if (!ni)
+                return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+            own->items = ni;
+            own->cap = ncap;
+        }
+        own->items[own->n++] = l->items[i];
+    }
+    return SS_OK;
+}
+
+const ss_limits *ss_study_limits(const ss_study *s) { return s->limits; }
+
+void ss_study_set_progress(ss_study *s, ss_progress_fn fn, void *ctx)
+{
+    s->progress = fn;
+    s->progress_ctx = ctx;
+}
+
+long ss_study_points(const ss_study *s)
+{
+    double n = 1.0;
+    for (int i = 0; i < s->n_dims; i++)
+        n *= s->dims[i].n;
+    if (s->trials > 0)
+        n *= (double)s->trials;
+    return n > (double)STUDY_MAX_POINTS ? -1 : (long)n;
+}
+
+/* ---- running ------------------------------------------------------------------------------ */
+
+typedef struct run_shared {
+    ss_study *s;
+    const ss_table *nominal_figs;
+    ss_table *out;
+    long first, count; /* this shard's point range */
+    int n_fixed;       /* columns before the figures */
+    pthread_mutex_t lock;
+    long next, done;
+    ss_status fatal;
+    ss_error fatal_err;
+} run_shared;
+
+/* The values of every swept and sampled name at point p (global index). */
+static void point_values(const ss_study *s, long p, double *vals)
+{
+    long trial = s->trials > 0 ? p % s->trials : 0;
+    long grid = s->trials > 0 ? p / s->trials : p;
+    for (int d = s->n_dims - 1; d >= 0; d--) {
+        vals[d] = s->dims[d].values[grid % s->dims[d].n];
+        grid /= s->dims[d].n;
+    }
+    if (s->trials > 0) {
+        /* one stream per trial index: identical draws whatever the grid point, thread or
+         * shard that computes it */
+        rng r;
+        rng_seed(&r, s->seed, (uint64_t)trial);
+        for (int t = 0; t < s->n_tols; t++) {
+            const tol_spec *ts = &s->tols[t];
+            double mid = 0.5 * (ts->lo + ts->hi), half = 0.5 * (ts->hi - ts->lo);
+            double v = ts->gauss ? mid + half / 3.0 * rng_gauss(&r)
+                                 : ts->lo + (ts->hi - ts->lo) * rng_uniform(&r);
+            vals[s->n_dims + t] = v;
+        }
+    }
+}
+
+static ss_status solve_point(ss_study *s, const double *vals, int n_vals_tol,
+                             ss_table **out_figs, ss_error *err)
+{
+    int n_ov = s->n_sets + s->n_dims + n_vals_tol;
+    ss_override ov[STUDY_MAX_DIMS + 64];
+    char text[STUDY_MAX_DIMS + 64][40];
+    ss_override *ovp = ov;
+    char(*textp)[40] = text;
+    if (n_ov > (int)(sizeof ov / sizeof ov[0])) {
+        ovp = ss_alloc((size_t)n_ov * sizeof *ovp);
+        textp = ss_alloc((size_t)n_ov * sizeof *textp);
+        if (!ovp || !textp) {
+            ss_free(ovp);
+            ss_free(textp);
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        }
+    }
+    int k = 0;
+    double temp = SS_NAN;
+    for (int i = 0; i < s->n_dims + n_vals_tol; i++) {
+        const char *name = i < s->n_dims ? s->dims[i].name : s->tols[i - s->n_dims].name;
+        if (strcmp(name, "temp") == 0) {
+            temp = vals[i];
+            continue;
+        }
+        snprintf(textp[k], sizeof textp[k], "%.17g", vals[i]);
+        ovp[k].name = name;
+        ovp[k].value = textp[k];
+        k++;
+    }
+    /* the fixed --set values come last only where no swept name overrides them */
+    for (int i = 0; i < s->n_sets; i++) {
+        int shadowed = 0;
+        for (int j = 0; j < k; j++)
+            shadowed |= strcasecmp_ascii_eq(ovp[j].name, s->sets[i].name);
+        if (!shadowed)
+            ovp[k++] = s->sets[i];
+    }
+    ss_circuit *ckt = NULL;
+    ss_status st = ss_circuit_parse_file(s->netlist, ovp, k, &ckt, err);
+    if (ovp != ov) {
+        ss_free(ovp);
+        ss_free(textp);
+    }
+    if (st == SS_OK && !isnan(temp))
+        st = ss_circuit_set_temp(ckt, temp, err);
+    if (st == SS_OK && s->stage_in)
+        st = ss_circuit_set_stage(ckt, s->stage_in, s->stage_out, 0.0, err);
+    if (st == SS_OK)
+        st = ss_figures_compute(ckt, s->limits, out_figs, err);
+    ss_circuit_destroy(&ckt);
+    return st;
+}
+
+static int status_class(ss_status st)
+{
+    return st == SS_OK ? 0 : st == SS_ERR_NO_CONVERGENCE ? 3 : 2;
+}
+
+static void *worker(void *arg)
+{
+    run_shared *sh = arg;
+    ss_study *s = sh->s;
+    int n_vals = s->n_dims + (s->trials > 0 ? s->n_tols : 0);
+    double vals[STUDY_MAX_DIMS + 4096];
+    if (n_vals > (int)(sizeof vals / sizeof vals[0]))
+        return NULL;
+    for (;;) {
+        pthread_mutex_lock(&sh->lock);
+        long i = sh->next < sh->count && sh->fatal == SS_OK ? sh->next++ : -1;
+        pthread_mutex_unlock(&sh->lock);
+        if (i < 0)
+            break;
+        long p = sh->first + i;
+        point_values(s, p, vals);
+        ss_table *figs = NULL;
+        ss_error e = {0};
+        ss_status st = solve_point(s, vals, s->trials > 0 ? s->n_tols : 0, &figs, &e);
+        double *row = sh->out->data + (size_t)i * (size_t)sh->out->n_cols;
+        row[0] = (double)p;
+        for (int v = 0; v < n_vals; v++)
+            row[1 + v] = vals[v];
+        row[1 + n_vals] = status_class(st);
+        const ss_table *nf = sh->nominal_figs;
+        for (int f = 0; f < nf->n_rows; f++)
+            row[sh->n_fixed + f] = st == SS_OK ? ss_table_lookup(figs, nf->row_labels[f], 0)
+                                               : SS_NAN;
+        ss_table_destroy(&figs);
+        pthread_mutex_lock(&sh->lock);
+        if (st == SS_ERR_NOMEM && sh->fatal == SS_OK) {
+            sh->fatal = st;
+            sh->fatal_err = e;
+        }
+        long done = ++sh->done;
+        pthread_mutex_unlock(&sh->lock);
+        if (s->progress)
+            s->progress(s->progress_ctx, done, sh->count);
+    }
+    return NULL;
+}
+
+ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
+{
+    long total = ss_study_points(s);
+    if (total < 0)
+        return err_set(err, SS_ERR_LIMIT, NULL, 0, "more than %ld points", STUDY_MAX_POINTS);
+    if (s->n_dims == 0 && s->trials == 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "nothing to run: give --vary NAME=... and/or --trials N");
+    long first = total * (s->shard_k - 1) / s->shard_n;
+    long end = total * s->shard_k / s->shard_n;
+    /* the nominal run fixes the figure columns */
+    ss_table *nominal_figs = NULL;
+    if (s->stage_in)
+        ss_circuit_set_stage(s->nominal, s->stage_in, s->stage_out, 0.0, err);
+    ss_status st = ss_figures_compute(s->nominal, s->limits, &nominal_figs, err);
+    if (st != SS_OK)
+        return st;
+    int n_vals = s->n_dims + (s->trials > 0 ? s->n_tols : 0);
+    int n_fixed = 2 + n_vals;
+    ss_table *t = table_create(n_fixed + nominal_figs->n_rows, NULL);
+    int bad = !t || table_set_col(t, 0, "point") != 0;
+    for (int d = 0; !bad && d < s->n_dims; d++)
+        bad |= table_set_col(t, 1 + d, s->dims[d].name) != 0;
+    for (int v = s->n_dims; !bad && v < n_vals; v++)
+        bad |= table_set_col(t, 1 + v, s->tols[v - s->n_dims].name) != 0;
+    bad |= !t || table_set_col(t, 1 + n_vals, "status") != 0;
+    for (int f = 0; !bad && f < nominal_figs->n_rows; f++)
+        bad |= table_set_col(t, n_fixed + f, nominal_figs->row_labels[f]) != 0;
+    if (bad || table_reserve(t, (int)(end - first > 0 ? end - first : 1)) != 0) {
+        ss_table_destroy(&t);
+        ss_table_destroy(&nominal_figs);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    for (long i = first; i < end; i++)
+        table_add_row(t, NULL);
+    run_shared sh;
+    memset(&sh, 0, sizeof sh);
+    sh.s = s;
+    sh.nominal_figs = nominal_figs;
+    sh.out = t;
+    sh.first = first;
+    sh.count = end - first;
+    sh.n_fixed = n_fixed;
+    pthread_mutex_init(&sh.lock, NULL);
+    int n_threads = s->threads > 0 ? s->threads : (int)sysconf(_SC_NPROCESSORS_ONLN);
+    if (n_threads < 1)
+        n_threads = 1;
+    if (n_threads > STUDY_MAX_THREADS)
+        n_threads = STUDY_MAX_THREADS;
+    if (n_threads > sh.count)
+        n_threads = sh.count > 0 ? (int)sh.count : 1;
+    pthread_t tid[STUDY_MAX_THREADS];
+    int started = 0;
+    for (int i = 1; i < n_threads; i++)
+        if (pthread_create(&tid[i], NULL, worker, &sh) == 0)
+            started = i;
+        else
+            break;
+    worker(&sh); /* the calling thread works too */
+    for (int i = 1; i <= started; i++)
+        pthread_join(tid[i], NULL);
+    pthread_mutex_destroy(&sh.lock);
+    ss_table_destroy(&nominal_figs);
+    if (sh.fatal != SS_OK) {
+        ss_table_destroy(&t);
+        *err = sh.fatal_err;
+        return sh.fatal;
+    }
+    *out_points = t;
+    return SS_OK;
+}
+
+/* ---- statistics --------------------------------------------------------------------------- */
+
+/* The first figure column of a points table: right after `status`. */
+static int first_figure_col(const ss_table *pts)
+{
+    for (int j = 0; j < pts->n_cols; j++)
+        if (strcmp(pts->col_names[j], "status") == 0)
+            return j + 1;
+    return -1;
+}
+
+ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table **out_summary,
+                             ss_error *err)
+{
+    int f0 = first_figure_col(pts);
+    if (f0 < 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "not a study points table (no status column)");
+    static const char *const cols[] = {"n", "min", "max", "mean", "std", "pass_fraction"};
+    ss_table *t = table_create(6, "figure");
+    int bad = !t;
+    for (int j = 0; !bad && j < 6; j++)
+        bad |= table_set_col(t, j, cols[j]) != 0;
+    /* a point passes all limits when it converged and every limited figure is in range */
+    long n_pass_all = 0, n_points = pts->n_rows;
+    unsigned char *fails = ss_alloc((size_t)(n_points ? n_points : 1));
+    bad |= !fails;
+    for (int j = f0; !bad && j < pts->n_cols; j++) {
+        const char *name = pts->col_names[j];
+        const limit *lim = NULL;
+        for (int k = 0; l && k < l->n; k++)
+            if (strcmp(l->items[k].quantity, name) == 0)
+                lim = &l->items[k];
+        /* Welford's running mean and variance (numerically stable) */
+        double n = 0, mean = 0, m2 = 0, mn = HUGE_VAL, mx = -HUGE_VAL;
+        long pass = 0;
+        for (long i = 0; i < n_points; i++) {
+            double v = pts->data[(size_t)i * (size_t)pts->n_cols + (size_t)j];
+            int ok = !isnan(v);
+            if (ok) {
+                n += 1.0;
+                double d = v - mean;
+                mean += d / n;
+                m2 += d * (v - mean);
+                mn = fmin(mn, v);
+                mx = fmax(mx, v);
+            }
+            if (lim) {
+                int in = ok && v >= lim->lo && v <= lim->hi;
+                pass += in;
+                if (!in)
+                    fails[i] = 1;
+            }
+        }
+        double *row = table_add_row(t, name);
+        if (!row) {
+            bad = 1;
+            break;
+        }
+        row[0] = n;
+        row[1] = n > 0 ? mn : SS_NAN;
+        row[2] = n > 0 ? mx : SS_NAN;
+        row[3] = n > 0 ? mean : SS_NAN;
+        row[4] = n > 1 ? sqrt(m2 / (n - 1.0)) : SS_NAN;
+        row[5] = lim && n_points > 0 ? (double)pass / (double)n_points : SS_NAN;
+    }
+    if (!bad && l && l->n > 0) {
+        int status_col = f0 - 1;
+        for (long i = 0; i < n_points; i++)
+            n_pass_all += !fails[i] &&
+                          pts->data[(size_t)i * (size_t)pts->n_cols + (size_t)status_col] == 0.0;
+        double *row = table_add_row(t, "all_limits");
+        if (!row)
+            bad = 1;
+        else {
+            row[0] = (double)n_points;
+            row[5] = n_points > 0 ? (double)n_pass_all / (double)n_points : SS_NAN;
+        }
+    }
+    ss_free(fails);
+    if (bad) {
+        ss_table_destroy(&t);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    *out_summary = t;
+    return SS_OK;
+}
+
+/* ---- sensitivities ------------------------------------------------------------------------ */
+
+ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
+{
+    if (s->n_tols == 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "sensitivities need toleranced values: .tolerance lines or --tol");
+    ss_table *nom = NULL;
+    if (s->stage_in)
+        ss_circuit_set_stage(s->nominal, s->stage_in, s->stage_out, 0.0, err);
+    ss_status st = ss_figures_compute(s->nominal, s->limits, &nom, err);
+    if (st != SS_OK)
+        return st;
+    ss_table *t = table_create(s->n_tols, "figure");
+    int bad = !t;
+    for (int j = 0; !bad && j < s->n_tols; j++)
+        bad |= table_set_col(t, j, s->tols[j].name) != 0;
+    for (int f = 0; !bad && f < nom->n_rows; f++)
+        bad |= table_add_row(t, nom->row_labels[f]) == NULL;
+    if (bad) {
+        ss_table_destroy(&t);
+        ss_table_destroy(&nom);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    /* central difference at +-1 % of each nominal value, the others at nominal */
+    int saved_dims = s->n_dims;
+    s->n_dims = 0;
+    double *vals = ss_alloc((size_t)s->n_tols * sizeof *vals);
+    for (int j = 0; vals && j < s->n_tols && st == SS_OK; j++) {
+        double x0 = s->tols[j].nominal;
+        ss_table *fp = NULL, *fm = NULL;
+        for (int k = 0; k < s->n_tols; k++)
+            vals[k] = s->tols[k].nominal;
+        vals[j] = x0 * 1.01;
+        st = solve_point(s, vals, s->n_tols, &fp, err);
+        vals[j] = x0 * 0.99;
+        if (st == SS_OK)
+            st = solve_point(s, vals, s->n_tols, &fm, err);
+        for (int f = 0; st == SS_OK && f < nom->n_rows; f++) {
+            double f0 = nom->data[f];
+            double dp = ss_table_lookup(fp, nom->row_labels[f], 0);
+            double dm = ss_table_lookup(fm, nom->row_labels[f], 0);
+            const char *name = nom->row_labels[f];
+            size_t ln = strlen(name);
+            int is_db = ln > 3 && strcmp(name + ln - 3, "_db") == 0;
+            double sens;
+            if (is_db) /* of the linear ratio: d(ln G) = d(dB) ln(10) / 20 */
+                sens = (dp - dm) * log(10.0) / 20.0 / 0.02;
+            else
+                sens = f0 != 0.0 ? (dp - dm) / (0.02 * f0) : SS_NAN;
+            t->data[(size_t)f * (size_t)t->n_cols + (size_t)j] = x0 != 0.0 ? sens : SS_NAN;
+        }
+        ss_table_destroy(&fp);
+        ss_table_destroy(&fm);
+    }
+    s->n_dims = saved_dims;
+    if (!vals)
+        st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    ss_free(vals);
+    ss_table_destroy(&nom);
+    if (st != SS_OK) {
+        ss_table_destroy(&t);
+        return st;
+    }
+    *out_sens = t;
+    return SS_OK;
+}
+
+/* ---- shards --------------------------------------------------------------------------------- */
+
+static int cmp_point(const void *a, const void *b)
+{
+    double x = **(const double *const *)a, y = **(const double *const *)b;
+    return (x > y) - (x < y);
+}
+
+ss_status ss_study_merge(ss_table *const *shards, int n_shards, ss_table **out_points,
+                         ss_error *err)
+{
+    if (n_shards < 1)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "merge: no shard files");
+    const ss_table *a = shards[0];
+    if (a->n_cols < 2 || strcmp(a->col_names[0], "point") != 0 || first_figure_col(a) < 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "merge: the first file is not a study table");
+    long total = 0;
+    for (int i = 0; i < n_shards; i++) {
+        const ss_table *b = shards[i];
+        if (b->n_cols != a->n_cols)
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "merge: shard %d has %d columns, the first has %d", i + 1, b->n_cols,
+                           a->n_cols);
+        for (int j = 0; j < a->n_cols; j++)
+            if (strcmp(a->col_names[j], b->col_names[j]) != 0)
+                return err_set(err, SS_ERR_INPUT, NULL, 0,
+                               "merge: shard %d's column %d is '%s', the first's is '%s'", i + 1,
+                               j + 1, b->col_names[j], a->col_names[j]);
+        total += b->n_rows;
+    }
+    const double **rows = ss_alloc((size_t)(total ? total : 1) * sizeof *rows);
+    if (!rows)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    long k = 0;
+    for (int i = 0; i < n_shards; i++)
+        for (int r = 0; r < shards[i]->n_rows; r++)
+            rows[k++] = shards[i]->data + (size_t)r * (size_t)a->n_cols;
+    qsort(rows, (size_t)total, sizeof *rows, cmp_point);
+    for (long i = 0; i < total; i++)
+        if (rows[i][0] != (double)i) {
+            double got = rows[i][0];
+            ss_free(rows);
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "merge: point %ld is %s (got point %.0f there)", i,
+                           got < (double)i ? "duplicated" : "missing", got);
+        }
+    ss_table *t = table_create(a->n_cols, NULL);
+    int bad = !t || table_reserve(t, (int)(total ? total : 1)) != 0;
+    for (int j = 0; !bad && j < a->n_cols; j++)
+        bad |= table_set_col(t, j, a->col_names[j]) != 0;
+    for (long i = 0; !bad && i < total; i++) {
+        double *row = table_add_row(t, NULL);
+        memcpy(row, rows[i], (size_t)a->n_cols * sizeof *row);
+    }
+    ss_free(rows);
+    if (bad) {
+        ss_table_destroy(&t);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    *out_points = t;
+    return SS_OK;
+}
+
+/* ---- preferred values ------------------------------------------------------------------- */
+
+ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **out_values,
+                        ss_table **out_figures, ss_error *err)
+{
+    const int *tab;
+    double scale;
+    if (eseries_table(series, &tab, &scale) == 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "unknown series E%d (use E12, E24 or E96)",
+                       series);
+    const ss_circuit *nom = s->nominal;
+    int n_snap = 0;
+    for (int i = 0; i < nom->n_elem; i++)
+        n_snap += strchr(kinds, nom->elem[i].ops->letter) != NULL && nom->elem[i].value > 0.0;
+    if (n_snap == 0)
+        return err_set(err, SS_ERR_INPUT, nom->file, 0, "no element of kind '%s' to snap", kinds);
+    ss_override *ov = ss_alloc((size_t)(n_snap + s->n_sets) * sizeof *ov);
+    char(*text)[40] = ss_alloc((size_t)n_snap * sizeof *text);
+    ss_table *vals = table_create(3, "element");
+    ss_table *nfig = NULL, *sfig = NULL, *figs = NULL;
+    ss_status st = SS_OK;
+    if (!ov || !text || !vals || table_set_col(vals, 0, "value") != 0 ||
+        table_set_col(vals, 1, "preferred") != 0 || table_set_col(vals, 2, "change_pct") != 0)
+        st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    int k = 0;
+    for (int i = 0; st == SS_OK && i < nom->n_elem; i++) {
+        const element *e = &nom->elem[i];
+        if (!strchr(kinds, e->ops->letter) || !(e->value > 0.0))
+            continue;
+        double p;
+        st = ss_eseries_nearest(series, e->value, &p, err);
+        double *row = st == SS_OK ? table_add_row(vals, e->name) : NULL;
+        if (st == SS_OK && !row)
+            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        if (st != SS_OK)
+            break;
+        row[0] = e->value;
+        row[1] = p;
+        row[2] = 100.0 * (p / e->value - 1.0);
+        snprintf(text[k], sizeof text[k], "%.17g", p);
+        ov[k].name = e->name;
+        ov[k].value = text[k];
+        k++;
+    }
+    if (st == SS_OK) {
+        for (int i = 0; i < s->n_sets; i++)
+            ov[k + i] = s->sets[i];
+        if (s->stage_in)
+            ss_circuit_set_stage(s->nominal, s->stage_in, s->stage_out, 0.0, err);
+        st = ss_figures_compute(s->nominal, s->limits, &nfig, err);
+    }
+    if (st == SS_OK) {
+        ss_circuit *snapped = NULL;
+        st = ss_circuit_parse_file(s->netlist, ov, k + s->n_sets, &snapped, err);
+        if (st == SS_OK && s->stage_in)
+            st = ss_circuit_set_stage(snapped, s->stage_in, s->stage_out, 0.0, err);
+        if (st == SS_OK)
+            st = ss_figures_compute(snapped, s->limits, &sfig, err);
+        ss_circuit_destroy(&snapped);
+    }
+    if (st == SS_OK) {
+        static const char *const cols[] = {"computed", "preferred", "shift", "shift_pct"};
+        figs = table_create(4, "figure");
+        for (int j = 0; figs && j < 4; j++)
+            if (table_set_col(figs, j, cols[j]) != 0)
+                st = SS_ERR_NOMEM;
+        for (int f = 0; figs && st == SS_OK && f < nfig->n_rows; f++) {
+            double a = nfig->data[f], b = ss_table_lookup(sfig, nfig->row_labels[f], 0);
+            double *row = table_add_row(figs, nfig->row_labels[f]);
+            if (!row) {
+                st = SS_ERR_NOMEM;
+                break;
+            }
+            row[0] = a;
+            row[1] = b;
+            row[2] = b - a;
+            row[3] = a != 0.0 ? 100.0 * (b - a) / fabs(a) : SS_NAN;
+        }
+        if (!figs || st != SS_OK)
+            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    ss_free(ov);
+    ss_free(text);
+    ss_table_destroy(&nfig);
+    ss_table_destroy(&sfig);
+    if (st != SS_OK) {
+        ss_table_destroy(&vals);
+        ss_table_destroy(&figs);
+        return st;
+    }
+    *out_values = vals;
+    *out_figures = figs;
+    return SS_OK;
+}
+
+/* ---- beta and temperature extremes -------------------------------------------------------- */
+
+ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_table **out,
+                           ss_error *err)
+{
+    const ss_circuit *nom = s->nominal;
+    /* every BJT model's BF at its toleranced extremes, or halved / doubled (beta spreads 2-3x
+     * within one type: common practice) */
+    int n_models = 0;
+    for (int m = 0; m < nom->n_models; m++)
+        n_models += nom->models[m]->type != MODEL_D;
+    static const char *const cols[] = {"temp_c", "beta_corner", "ic_a", "vce_v", "forward_active"};
+    ss_table *t = table_create(5, "corner");
+    ss_status st = SS_OK;
+    for (int j = 0; t && j < 5; j++)
+        if (table_set_col(t, j, cols[j]) != 0)
+            st = SS_ERR_NOMEM;
+    ss_override *ov = ss_alloc((size_t)(n_models + s->n_sets + 1) * sizeof *ov);
+    char(*text)[40] = ss_alloc((size_t)(n_models + 1) * sizeof *text);
+    char(*names)[160] = ss_alloc((size_t)(n_models + 1) * sizeof *names);
+    if (!t || !ov || !text || !names || st != SS_OK)
+        st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    const double temps[2] = {temp_lo_c, temp_hi_c};
+    for (int bc = 0; st == SS_OK && bc < 2; bc++) {
+        int k = 0;
+        for (int m = 0; m < nom->n_models; m++) {
+            const model *md = nom->models[m];
+            if (md->type == MODEL_D)
+                continue;
+            snprintf(names[k], sizeof names[k], "%s.bf", md->name);
+            double bf = md->p[model_param_index(md->type, "bf")];
+            double v = bc == 0 ? bf * 0.5 : bf * 2.0;
+            for (int i = 0; i < s->n_tols; i++)
+                if (strcmp(s->tols[i].name, names[k]) == 0)
+                    v = bc == 0 ? s->tols[i].lo : s->tols[i].hi;
+            snprintf(text[k], sizeof text[k], "%.17g", v);
+            ov[k].name = names[k];
+            ov[k].value = text[k];
+            k++;
+        }
+        for (int i = 0; i < s->n_sets; i++)
+            ov[k++] = s->sets[i];
+        for (int tc = 0; st == SS_OK && tc < 2; tc++) {
+            ss_circuit *ckt = NULL;
+            ss_error e2 = {0};
+            ss_status pst = ss_circuit_parse_file(s->netlist, ov, k, &ckt, &e2);
+            if (pst == SS_OK)
+                pst = ss_circuit_set_temp(ckt, temps[tc], &e2);
+            if (pst == SS_OK)
+                pst = op_solve_into(ckt, NULL, &e2);
+            for (int i = 0; ckt && i < ckt->n_elem && st == SS_OK; i++) {
+                const element *e = &ckt->elem[i];
+                if (e->ops->letter != 'q')
+                    continue;
+                char label[300];
+                snprintf(label, sizeof label, "%s beta %s, %g C", e->name, bc ? "high" : "low",
+                         temps[tc]);
+                double *row = table_add_row(t, label);
+                if (!row) {
+                    st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+                    break;
+                }
+                row[0] = temps[tc];
+                row[1] = bc ? 1.0 : -1.0;
+                if (pst == SS_OK) {
+                    bjt_op_info info;
+                    bjt_op_details(e, ckt->x_op, analysis_vt(ckt), ckt->opt.gmin, &info);
+                    row[2] = info.ic_a;
+                    row[3] = info.vce_v;
+                    row[4] = strcmp(info.region, "forward active") == 0;
+                }
+            }
+            ss_circuit_destroy(&ckt);
+        }
+    }
+    ss_free(ov);
+    ss_free(text);
+    ss_free(names);
+    if (st != SS_OK) {
+        ss_table_destroy(&t);
+        return st;
+    }
+    *out = t;
+    return SS_OK;
+}
