@@ -11,8 +11,7 @@
 ss_status noise_collect_sources(const ss_circuit *ckt, noise_src **out_src, int *out_n,
                                 ss_error *err)
 {
-    dev_noise_ctx nc = {ckt->x_op, ckt->temp_c + SS_ZERO_C_IN_K, analysis_vt(ckt),
-                        ckt->opt.gmin};
+    dev_noise_ctx nc = {ckt->x_op, ckt->temp_c + SS_ZERO_C_IN_K, analysis_vt(ckt), ckt->opt.gmin};
     dev_noise_src buf[DEV_MAX_NOISE_SRC];
     int n = 0;
     for (int i = 0; i < ckt->n_elem; i++) {
@@ -111,8 +110,7 @@ ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node, const char
     int s = circuit_find_elem(ckt, name);
     if (s < 0 || (ckt->elem[s].ops->letter != 'v' && ckt->elem[s].ops->letter != 'i'))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "noise input '%s' is not an independent source of the circuit",
-                       in_source);
+                       "noise input '%s' is not an independent source of the circuit", in_source);
     int r = -1;
     if (rs_resistor) {
         lower_copy(rs_resistor, name, sizeof name);
@@ -135,11 +133,11 @@ ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node, const char
 typedef struct noise_work {
     noise_src *src;
     int n_src;
-    double complex *y;  /* adjoint solution: transfer impedance from each unknown to v(out) */
-    double *psd_prev;   /* per source, output PSD at the previous frequency, V^2/Hz */
-    double *pow;        /* per source, output power integrated so far, V^2 */
-    double *elem_pow;   /* per element, V^2 */
-    int *order;         /* ranking of the sources */
+    double complex *y; /* adjoint solution: transfer impedance from each unknown to v(out) */
+    double *psd_prev;  /* per source, output PSD at the previous frequency, V^2/Hz */
+    double *pow;       /* per source, output power integrated so far, V^2 */
+    double *elem_pow;  /* per element, V^2 */
+    int *order;        /* ranking of the sources */
     ss_table *noise, *summary, *contrib;
 } noise_work;
 
@@ -190,9 +188,8 @@ static double abs2(double complex z) { return creal(z) * creal(z) + cimag(z) * c
  * nodes a and b then gives v(out) = (y_a - y_b) i, so every source costs a subtraction, not a
  * solve (the adjoint network; docs/noise.md). Integration is the trapezoid rule in f on the
  * power spectral densities. No allocation inside. */
-static ss_status noise_sweep(ss_circuit *ckt, const element *src, int out_node,
-                             const double *freqs, int nf, noise_work *w, double *pow_out,
-                             double *pow_in, ss_error *err)
+static ss_status noise_sweep(ss_circuit *ckt, const element *src, int out_node, const double *freqs,
+                             int nf, noise_work *w, double *pow_out, double *pow_in, ss_error *err)
 {
     int n = ckt->n_unknowns;
     double prev_f = 0.0, prev_out = 0.0, prev_in = 0.0;
@@ -219,8 +216,8 @@ static ss_status noise_sweep(ss_circuit *ckt, const element *src, int out_node,
         double s_out = 0.0;
         for (int i = 0; i < w->n_src; i++) {
             const dev_noise_src *d = &w->src[i].src;
-            double complex z = (d->node_a > 0 ? y[d->node_a - 1] : 0.0) -
-                               (d->node_b > 0 ? y[d->node_b - 1] : 0.0);
+            double complex z =
+                (d->node_a > 0 ? y[d->node_a - 1] : 0.0) - (d->node_b > 0 ? y[d->node_b - 1] : 0.0);
             double p = abs2(z) * (d->white_a2_per_hz + d->flicker_a2 / f);
             if (k > 0)
                 w->pow[i] += 0.5 * (p + w->psd_prev[i]) * (f - prev_f);
@@ -326,8 +323,8 @@ ss_status ss_noise_run(ss_circuit *ckt, ss_table **out_noise, ss_table **out_sum
         return st;
     const element *src = &ckt->elem[circuit_find_elem(ckt, ckt->noise_src)];
     int out_node = circuit_find_node(ckt, ckt->noise_out);
-    int rs_elem = ckt->noise_rs ? circuit_find_elem(ckt, ckt->noise_rs)
-                                : find_source_resistor(ckt, src);
+    int rs_elem =
+        ckt->noise_rs ? circuit_find_elem(ckt, ckt->noise_rs) : find_source_resistor(ckt, src);
     double *freqs = NULL;
     int nf = 0;
     if ((st = ac_frequencies(ckt, &freqs, &nf, err)) != SS_OK)

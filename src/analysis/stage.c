@@ -51,7 +51,7 @@ static ss_status stage_point(ss_circuit *ckt, const element *src, int out_node, 
 static ss_status refine_corner(ss_circuit *ckt, const element *src, int out_node, double fa,
                                double fb, double target, double *out_f, ss_error *err)
 {
-    stage_pt pt;
+    stage_pt pt = {0, 0, 0};
     ss_status st = stage_point(ckt, src, out_node, fa, &pt, err);
     if (st != SS_OK)
         return st;
@@ -91,7 +91,7 @@ static ss_status refine_peak(ss_circuit *ckt, const element *src, int out_node, 
     const double invphi = 0.61803398874989484820;
     double a = log(fa), b = log(fb);
     double c = b - invphi * (b - a), d = a + invphi * (b - a);
-    stage_pt pc, pd;
+    stage_pt pc = {0, 0, 0}, pd = {0, 0, 0};
     ss_status st = stage_point(ckt, src, out_node, exp(c), &pc, err);
     if (st == SS_OK)
         st = stage_point(ckt, src, out_node, exp(d), &pd, err);
@@ -127,7 +127,7 @@ ss_status stage_at_frequency(ss_circuit *ckt, double freq_hz, double complex *ga
     if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
         return st;
     const element *src = &ckt->elem[circuit_find_elem(ckt, ckt->stage_in)];
-    stage_pt pt;
+    stage_pt pt = {0, 0, 0};
     st = stage_point(ckt, src, circuit_find_node(ckt, ckt->stage_out), freq_hz, &pt, err);
     if (st != SS_OK)
         return st;
@@ -229,7 +229,7 @@ ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_sum
         if (!isnan(f_low) && !isnan(f_high)) {
             bw = f_high - f_low;
         } else if (isnan(f_low) && !isnan(f_high)) {
-            stage_pt dc;
+            stage_pt dc = {0, 0, 0};
             st = stage_point(ckt, src, out_node, 0.0, &dc, err);
             if (st == SS_OK && cabs(dc.gain) >= g_mid * HALF_POWER)
                 bw = f_high;

@@ -25,6 +25,7 @@ struct mna {
     klu_symbolic *sym;
     klu_numeric *num;
     klu_numeric *znum;
+    mna_counters count;
 };
 
 mna *mna_create(int n_unknowns)
@@ -197,9 +198,12 @@ static ss_status factor_status(mna *m, int *bad_unknown)
     return SS_ERR_SINGULAR;
 }
 
+const mna_counters *mna_get_counters(const mna *m) { return &m->count; }
+
 ss_status mna_solve_real(mna *m, double *b, int *bad_unknown, double *rcond_out)
 {
     *bad_unknown = -1;
+    m->count.real_solves++;
     int fresh = 0;
     if (m->num) {
         if (!klu_refactor(m->Ap, m->Ai, m->Ax, m->sym, m->num, &m->common)) {
@@ -234,6 +238,7 @@ ss_status mna_solve_complex(mna *m, double complex *b, int *bad_unknown, double 
     /* C99 double complex has the interleaved (re, im) layout klu_z_* expects */
     double *az = (double *)m->Az;
     double *bz = (double *)b;
+    m->count.complex_solves++;
     if (m->znum) {
         if (!klu_z_refactor(m->Ap, m->Ai, az, m->sym, m->znum, &m->common)) {
             klu_z_free_numeric(&m->znum, &m->common);
@@ -262,6 +267,7 @@ ss_status mna_solve_complex_again(mna *m, double complex *b)
 {
     if (!m->znum)
         return SS_ERR_INTERNAL;
+    m->count.complex_extra_solves++;
     if (!klu_z_solve(m->sym, m->znum, m->n, 1, (double *)b, &m->common))
         return SS_ERR_INTERNAL;
     return SS_OK;

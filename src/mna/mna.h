@@ -15,6 +15,14 @@ typedef struct mna mna;
 /* rcond below which the solution is reported as unreliable (warning) */
 #define MNA_RCOND_WARN 1e-15
 
+/* How much solving a circuit did (benchmarks compare it with the bare KLU cost). */
+typedef struct mna_counters {
+    long real_solves;          /* factor or refactor + solve */
+    long complex_solves;       /* factor or refactor + solve */
+    long complex_extra_solves; /* solve with an existing factorization */
+} mna_counters;
+SS_HIDDEN const mna_counters *mna_get_counters(const mna *m);
+
 SS_HIDDEN mna *mna_create(int n_unknowns);
 SS_HIDDEN void mna_destroy(mna **m);
 /* Claims entry (row, col); returns a claim id, or -1 when either index is ground (-1) or on
