@@ -1,5 +1,6 @@
 /* Circuit preparation: device setup (internal nodes, branch currents), topology checks with
  * clear names, slot claims, the sparse pattern and klu_analyze -- once per circuit. */
+#include <assert.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -136,6 +137,10 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
     dev_setup_ctx sc = {&so, cb_new_node, cb_new_branch, cb_claim, 0};
     for (int i = 0; i < ckt->n_elem; i++) {
         element *e = &ckt->elem[i];
+        e->state = arena_alloc(&ckt->arena, ELEM_MAX_STATE * sizeof *e->state);
+        e->tp = e->mod ? arena_alloc(&ckt->arena, MODEL_MAX_PARAMS * sizeof *e->tp) : NULL;
+        if (!e->state || (e->mod && !e->tp))
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
         e->inode[0] = e->node[0];
         e->inode[1] = e->node[1];
         e->inode[2] = e->node[2];
@@ -162,9 +167,19 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
     if (!ckt->mna || !ckt->x_op || !ckt->work_rhs || !ckt->work_x || !ckt->work_zrhs ||
         !ckt->work_zx)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    /* claims go to a scratch array first, then into an exact-size one */
+    int scratch[ELEM_MAX_SLOTS];
     for (int i = 0; i < ckt->n_elem; i++) {
         element *e = &ckt->elem[i];
+        e->slot = scratch;
+        e->n_slot = 0;
         e->ops->claim(e, ckt, &sc);
+        assert(e->n_slot <= ELEM_MAX_SLOTS);
+        int *own = arena_alloc(&ckt->arena, (size_t)(e->n_slot ? e->n_slot : 1) * sizeof *own);
+        if (!own)
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        memcpy(own, scratch, (size_t)e->n_slot * sizeof *own);
+        e->slot = own;
     }
     if (mna_claim_failed(ckt->mna))
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");

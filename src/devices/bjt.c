@@ -116,7 +116,7 @@ static void bjt_temp(element *e, double temp_k)
 {
     const double *mp = e->mod->p;
     double *tp = e->tp;
-    memcpy(tp, mp, sizeof e->tp);
+    memcpy(tp, mp, MODEL_MAX_PARAMS * sizeof *tp);
     double tnom_k = mp[BP_TNOM] + SS_ZERO_C_IN_K;
     double vt = thermal_voltage_v(temp_k);
     double r = temp_k / tnom_k;

@@ -277,6 +277,7 @@ ss_status mna_solve_complex_transpose_again(mna *m, double complex *b)
 {
     if (!m->znum)
         return SS_ERR_INTERNAL;
+    m->count.complex_extra_solves++;
     /* conj_solve = 0: A.' x = b, the plain transpose (Debian 12 klu.h, SuiteSparse 5.12) */
     if (!klu_z_tsolve(m->sym, m->znum, m->n, 1, (double *)b, 0, &m->common))
         return SS_ERR_INTERNAL;

@@ -39,10 +39,15 @@ typedef struct element {
     int ctrl_elem;         /* its element index, resolved after parsing */
     const model *mod;
     double area;
-    double tp[MODEL_MAX_PARAMS]; /* model parameters adjusted for area and temperature */
-    int slot[ELEM_MAX_SLOTS];    /* matrix value slots (claim ids until mna_finalize) */
+    /* The arrays below live in the circuit's arena, sized once in analysis_prepare, so an
+     * element costs about 200 bytes however many of them a circuit has:
+     * tp: MODEL_MAX_PARAMS doubles for elements with a model (else NULL);
+     * slot: exactly n_slot ints (claim() may write up to ELEM_MAX_SLOTS);
+     * state: ELEM_MAX_STATE doubles for every element. */
+    double *tp;  /* model parameters adjusted for area and temperature */
+    int *slot;   /* matrix value slots (claim ids until mna_finalize) */
     int n_slot;
-    double state[ELEM_MAX_STATE]; /* device-private Newton state (junction voltages) */
+    double *state; /* device-private Newton state (junction voltages) */
 } element;
 
 typedef struct ss_options_set {
