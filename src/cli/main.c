@@ -227,8 +227,33 @@ static int cmd_run(const cli_args *a)
     }
     if (fl.tran)
         fprintf(stderr, "stagesim: warning: .tran is not computed in this version\n");
-    if (fl.noise)
-        fprintf(stderr, "stagesim: warning: .noise is not computed in this version\n");
+    if (fl.noise) {
+        ss_table *noise = NULL, *nsum = NULL, *ncon = NULL;
+        int bad = ss_noise_run(ckt, &noise, &nsum, &ncon, &err) != SS_OK ||
+                  write_table(noise, a->out_dir, "noise.csv", &err) != 0 ||
+                  write_table(nsum, a->out_dir, "noise_summary.csv", &err) != 0 ||
+                  write_table(ncon, a->out_dir, "noise_contrib.csv", &err) != 0;
+        if (!bad && !a->quiet) {
+            printf("\nNoise over the .ac band (%.4g Hz .. %.4g Hz)\n",
+                   ss_table_lookup(nsum, "f_start_hz", 0), ss_table_lookup(nsum, "f_stop_hz", 0));
+            printf("  output noise    %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "out_noise_rms_v", 0));
+            printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", 0));
+            double nf = ss_table_lookup(nsum, "noise_figure_db", 0);
+            if (!isnan(nf))
+                printf("  noise figure    %.3f dB\n", nf);
+            printf("  largest contributions:\n");
+            for (int i = 0; i < ss_table_rows(ncon) && i < 5; i++)
+                printf("    %-28s %10.4g uV rms  %6.2f %%\n", ss_table_row_label(ncon, i),
+                       1e6 * ss_table_get(ncon, i, 0), ss_table_get(ncon, i, 1));
+        }
+        ss_table_destroy(&noise);
+        ss_table_destroy(&nsum);
+        ss_table_destroy(&ncon);
+        if (bad) {
+            rc = fail(&err);
+            goto done;
+        }
+    }
     for (int i = 0; ss_circuit_warning(ckt, i); i++)
         fprintf(stderr, "stagesim: warning: %s\n", ss_circuit_warning(ckt, i));
 done:

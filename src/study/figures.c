@@ -42,6 +42,18 @@ ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table 
         ss_table_destroy(&stage);
         ss_table_destroy(&summary);
     }
+    if (!bad && ckt->want_noise && ckt->want_ac) {
+        ss_table *nsum = NULL;
+        st = ss_noise_run(ckt, NULL, &nsum, NULL, err);
+        if (st != SS_OK) {
+            ss_table_destroy(&t);
+            return st;
+        }
+        static const char *const keep[] = {"out_noise_rms_v", "in_noise_rms_v", "noise_figure_db"};
+        for (size_t k = 0; !bad && k < sizeof keep / sizeof keep[0]; k++)
+            bad |= add_row(t, keep[k], ss_table_lookup(nsum, keep[k], 0)) != 0;
+        ss_table_destroy(&nsum);
+    }
     for (int i = 0; !bad && limits && i < limits->n; i++) {
         const limit *lim = &limits->items[i];
         if (!lim->at_freq)
