@@ -39,8 +39,12 @@ ss_status newton_solve(ss_circuit *ckt, double *x, const newton_params *np, newt
     res->worst_unknown = -1;
     res->bad_unknown = -1;
     int polish = NEWTON_POLISH_MAX;
-    /* the polish iterations come on top of max_iter, never instead of it */
-    for (int it = 0; it < np->max_iter || (polish < NEWTON_POLISH_MAX && polish > 0); it++) {
+    /* the polish iterations come on top of max_iter, never instead of it; at most
+     * NEWTON_POLISH_MAX of them, since an update that leaves the tolerance again while
+     * polishing (a limited junction, an oscillation) must not keep the loop going for ever */
+    for (int it = 0; it < np->max_iter || (polish < NEWTON_POLISH_MAX && polish > 0 &&
+                                           it < np->max_iter + NEWTON_POLISH_MAX);
+         it++) {
         memset(G, 0, (size_t)nnz * sizeof *G);
         memset(rhs, 0, (size_t)n * sizeof *rhs);
         dev_load_ctx lc = {G,
@@ -195,7 +199,8 @@ static ss_status gmin_stepping(ss_circuit *ckt, double *x, int *iters, int *step
             return SS_OK;
         np.first_mode = LOAD_FROM_X;
         np.gmin_extra_s /= factor;
-        if (np.gmin_extra_s < ckt->opt.gmin * 1e-2)
+        /* down to a hundredth of the junction gmin (or 1e-15 S when gmin is 0) */
+        if (np.gmin_extra_s < fmax(ckt->opt.gmin, 1e-13) * 1e-2)
             np.gmin_extra_s = 0.0;
         if (*steps > 200)
             return SS_ERR_NO_CONVERGENCE;
@@ -256,6 +261,27 @@ static ss_status verify_kcl(ss_circuit *ckt, const double *x, ss_error *err)
                    what, ckt->last_kcl_residual, worst < ckt->n_nodes - 1 ? "A" : "V");
 }
 
+/* Iterative refinement on the element-by-element residual: Newton re-solves the assembled
+ * matrix for x, so a conductance lost to rounding on a much larger diagonal (1e-12 S beside
+ * 1e3 S) stays lost; solving J dx = -f(x) with f from each device's own equations recovers
+ * it. Kept only when it lowers the residual. */
+static void refine_solution(ss_circuit *ckt, double *x)
+{
+    int n = ckt->n_unknowns, worst;
+    double before = op_kcl_residual(ckt, x, &worst);
+    double *dx = ckt->work_rhs, *saved = ckt->x_refine;
+    for (int u = 0; u < n; u++)
+        dx[u] = -ckt->work_x[u];
+    if (mna_solve_real_again(ckt->mna, dx) != SS_OK)
+        return;
+    memcpy(saved, x, (size_t)n * sizeof *x);
+    for (int u = 0; u < n; u++)
+        x[u] += dx[u];
+    double after = op_kcl_residual(ckt, x, &worst);
+    if (!(after < before))
+        memcpy(x, saved, (size_t)n * sizeof *x);
+}
+
 ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err)
 {
     ss_status st = analysis_prepare(ckt, err);
@@ -290,6 +316,12 @@ ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     if (st != SS_OK)
         return nonconvergence_error(ckt, &r, s.newton_iterations, err);
+    /* verify Newton's own answer first, so refinement cannot hide a stamp that disagrees with
+     * its device equation; then refine and verify again */
+    st = verify_kcl(ckt, x, err);
+    if (st != SS_OK)
+        return st;
+    refine_solution(ckt, x);
     st = verify_kcl(ckt, x, err);
     if (st != SS_OK)
         return st;

@@ -162,9 +162,10 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
     ckt->x_op = ss_alloc(n * sizeof *ckt->x_op);
     ckt->work_rhs = ss_alloc(n * sizeof *ckt->work_rhs);
     ckt->work_x = ss_alloc(n * sizeof *ckt->work_x);
+    ckt->x_refine = ss_alloc(n * sizeof *ckt->x_refine);
     ckt->work_zrhs = ss_alloc(n * sizeof *ckt->work_zrhs);
     ckt->work_zx = ss_alloc(n * sizeof *ckt->work_zx);
-    if (!ckt->mna || !ckt->x_op || !ckt->work_rhs || !ckt->work_x || !ckt->work_zrhs ||
+    if (!ckt->mna || !ckt->x_op || !ckt->work_rhs || !ckt->work_x || !ckt->x_refine || !ckt->work_zrhs ||
         !ckt->work_zx)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     /* claims go to a scratch array first, then into an exact-size one */

@@ -154,7 +154,7 @@ typedef struct bjt_eval_out {
     double gce, gcc;     /* dic/dvbe, dic/dvbc */
     double gbe, gbc;     /* dib/dvbe, dib/dvbc */
     double if_a, qb;     /* forward diffusion current and base charge (for diffusion cap) */
-    double dqb_dvbe;
+    double dqb_dvbe, dqb_dvbc;
     double gif;
 } bjt_eval_out;
 
@@ -201,6 +201,7 @@ static void bjt_eval(const double *tp, double vt, double gmin, double vbe, doubl
     o->if_a = i_f;
     o->qb = qb;
     o->dqb_dvbe = dqb_dvbe;
+    o->dqb_dvbc = dqb_dvbc;
     o->gif = gif;
 }
 
@@ -383,6 +384,59 @@ static int bjt_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src *o
     return n;
 }
 
+/* Transient charges (docs/transient.md), NPN sense: q_be = the CJE depletion charge + TF IF/qb
+ * between b' and e', q_bc = the CJC depletion charge + TR IR between b' and c'. Depletion
+ * charges are the integrals of the FC-extended capacitances (junction_depletion_charge); the
+ * forward diffusion charge depends on vbc through qb, so q_be has a vbc derivative too. */
+static void bjt_load_tran(element *e, dev_tran_ctx *tc)
+{
+    const double *tp = e->tp;
+    double p = polarity(e), vbe, vbc;
+    if (tc->G) {
+        vbe = e->state[ST_VBE];
+        vbc = e->state[ST_VBC];
+    } else {
+        junction_voltages(e, tc->x, &vbe, &vbc);
+    }
+    double c11, c12 = 0.0, c22; /* dq_be/dvbe, dq_be/dvbc, dq_bc/dvbc */
+    double q_be = junction_depletion_charge(vbe, tp[BP_CJE], tp[BP_VJE], tp[BP_MJE], tp[BP_FC],
+                                            &c11);
+    double q_bc = junction_depletion_charge(vbc, tp[BP_CJC], tp[BP_VJC], tp[BP_MJC], tp[BP_FC],
+                                            &c22);
+    if (tp[BP_TF] > 0.0) {
+        bjt_eval_out o;
+        bjt_eval(tp, tc->vt_v, 0.0, vbe, vbc, &o);
+        q_be += tp[BP_TF] * o.if_a / o.qb;
+        c11 += tp[BP_TF] * (o.gif / o.qb - o.if_a / (o.qb * o.qb) * o.dqb_dvbe);
+        c12 = -tp[BP_TF] * o.if_a / (o.qb * o.qb) * o.dqb_dvbc;
+    }
+    if (tp[BP_TR] > 0.0) {
+        double gir;
+        q_bc += tp[BP_TR] * junction_current(tp[BP_IS], vbc, tp[BP_NR] * tc->vt_v, &gir);
+        c22 += tp[BP_TR] * gir;
+    }
+    tc->q[0] = q_be;
+    tc->q[1] = q_bc;
+    if (!tc->G)
+        return;
+    /* linearised about (vbe, vbc); the polarity squares away in the conductances */
+    double a0 = tc->a0;
+    double ieq_be = p * (a0 * q_be + tc->hist[0] - a0 * c11 * vbe - a0 * c12 * vbc);
+    double ieq_bc = p * (a0 * q_bc + tc->hist[1] - a0 * c22 * vbc);
+    const int *core = &e->slot[SL_CORE];
+    /* i_be: into b', out of e'; depends on vb - ve (c11) and vb - vc (c12) */
+    double jbe[3] = {-a0 * c12, a0 * (c11 + c12), -a0 * c11}; /* columns c', b', e' */
+    double jbc[3] = {-a0 * c22, a0 * c22, 0.0};
+    for (int c = 0; c < 3; c++) {
+        stamp_add(tc->G, core[3 * TB + c], jbe[c] + jbc[c]);
+        stamp_add(tc->G, core[3 * TE + c], -jbe[c]);
+        stamp_add(tc->G, core[3 * TC + c], -jbc[c]);
+    }
+    rhs_add(tc->rhs, e->inode[TB], -(ieq_be + ieq_bc));
+    rhs_add(tc->rhs, e->inode[TE], ieq_be);
+    rhs_add(tc->rhs, e->inode[TC], ieq_bc);
+}
+
 const dev_ops bjt_ops = {
     .letter = 'q',
     .kind_name = "bipolar transistor",
@@ -395,6 +449,8 @@ const dev_ops bjt_ops = {
     .load_ac = bjt_load_ac,
     .report = bjt_report,
     .noise = bjt_noise,
+    .load_tran = bjt_load_tran,
+    .n_charge = 2,
     .value_name = NULL,
     .model_params = bjt_params,
     .n_model_params = BP_COUNT,

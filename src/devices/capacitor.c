@@ -1,5 +1,5 @@
 /* Capacitor: open at DC (claims its slots so the pattern is the same in AC), admittance
- * jwC in AC. Transient charge is left to the transient module. */
+ * jwC in AC, charge C v in a transient (integrated by the transient module). */
 #include "devices/passive.h"
 
 static int cap_parse(pctx *p, element *e) { return parse_two_node_value(p, e, "capacitance", 1); }
@@ -30,6 +30,21 @@ static void cap_kcl(const element *e, const double *x, const dev_load_ctx *lc, d
     (void)resid;
 }
 
+/* Charge q = C (Va - Vb); the integrator's current a0 q + hist flows from a to b. */
+static void cap_load_tran(element *e, dev_tran_ctx *tc)
+{
+    double v = xv(tc->x, e->node[0]) - xv(tc->x, e->node[1]);
+    double q = e->value * v;
+    tc->q[0] = q;
+    if (!tc->G)
+        return;
+    double g = tc->a0 * e->value;
+    double ieq = tc->a0 * q + tc->hist[0] - g * v;
+    stamp_pair(tc->G, e->slot, g);
+    rhs_add(tc->rhs, e->node[0], -ieq);
+    rhs_add(tc->rhs, e->node[1], ieq);
+}
+
 const dev_ops capacitor_ops = {
     .letter = 'c',
     .kind_name = "capacitor",
@@ -38,5 +53,7 @@ const dev_ops capacitor_ops = {
     .load_dc = cap_load_dc,
     .kcl = cap_kcl,
     .load_ac = cap_load_ac,
+    .load_tran = cap_load_tran,
+    .n_charge = 1,
     .value_name = "capacitance",
 };

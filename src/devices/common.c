@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "devices/passive.h"
+#include "devices/wave.h"
 
 void claim_pair(element *e, dev_setup_ctx *sc, int first, int a, int b)
 {
@@ -71,7 +72,7 @@ int parse_two_node_value(pctx *p, element *e, const char *what, int allow_zero)
 
 int parse_source_spec(pctx *p, element *e)
 {
-    /* Xname n+ n- [DC] value [AC mag [phase_deg]] */
+    /* Xname n+ n- [DC] value [AC mag [phase_deg]] [SIN(...) | PULSE(...) | PWL(...)] */
     if (parse_nodes(p, e, 2) != 0)
         return -1;
     int n = pctx_ntok(p), i = 3, have_dc = 0;
@@ -89,19 +90,28 @@ int parse_source_spec(pctx *p, element *e)
         } else if (strcmp(t, "ac") == 0) {
             e->ac_mag = 1.0; /* `AC` alone means magnitude 1 (common practice) */
             i++;
-            if (i < n && pctx_tok(p, i)[0] != '\0' && strcmp(pctx_tok(p, i), "dc") != 0) {
+            if (i < n && pctx_tok(p, i)[0] != '\0' && strcmp(pctx_tok(p, i), "dc") != 0 &&
+                !wave_is_form(pctx_tok(p, i))) {
                 if (pctx_value(p, pctx_tok(p, i), "AC magnitude", &e->ac_mag) != 0)
                     return -1;
                 i++;
-                if (i < n && strcmp(pctx_tok(p, i), "dc") != 0) {
+                if (i < n && strcmp(pctx_tok(p, i), "dc") != 0 && !wave_is_form(pctx_tok(p, i))) {
                     if (pctx_value(p, pctx_tok(p, i), "AC phase", &e->ac_phase_deg) != 0)
                         return -1;
                     i++;
                 }
             }
+        } else if (wave_is_form(t)) {
+            if (e->wave)
+                return pctx_error(p, "a second time-varying form '%s' (one per source)", t);
+            src_wave *w = NULL;
+            int used = wave_parse(p, i, &w);
+            if (used < 0)
+                return -1;
+            e->wave = w;
+            i += used;
         } else if (strchr(t, '(') && isalpha((unsigned char)t[0])) {
-            return pctx_error(p, "time-varying source form '%s' is not supported in this version",
-                              t);
+            return pctx_error(p, "unknown source form '%s' (known: sin, pulse, pwl)", t);
         } else if (!have_dc && i == 3) {
             if (pctx_value(p, t, "DC value", &e->value) != 0)
                 return -1;
@@ -111,6 +121,9 @@ int parse_source_spec(pctx *p, element *e)
             return pctx_error(p, "unexpected '%s' in the source specification", t);
         }
     }
+    /* a source with a time-varying form and no DC value sits at its t = 0 value at DC */
+    if (e->wave && !have_dc)
+        e->value = wave_value(e->wave, 0.0, 0.0);
     return 0;
 }
 

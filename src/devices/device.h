@@ -82,6 +82,25 @@ typedef struct dev_noise_ctx {
     double gmin_s;      /* junction gmin (a numerical aid: noiseless) */
 } dev_noise_ctx;
 
+/* Transient (src/analysis/tran.c, docs/transient.md): an element with stored charge keeps
+ * n_charge charges (a capacitor's charge, junction depletion and diffusion charges) or fluxes
+ * (an inductor's). load_tran evaluates each q_k at the present bias into q[k]; the integrator
+ * turns charge k into the current i_k = a0 q_k + hist[k] (trapezoidal, gear2 or backward-Euler
+ * coefficients: the device need not know which) and the device stamps it linearised, a0 dq/dv
+ * as conductances and the remainder as a current, like load_dc's companion. Called right after
+ * every element's load_dc in the same Newton iteration, so a junction device takes its
+ * (limited) junction voltages from e->state as load_dc left them. With G NULL it only writes
+ * q[] at the voltages of x (no limiting): the charges of an accepted solution. */
+typedef struct dev_tran_ctx {
+    double *G;          /* real matrix values, indexed by slot; NULL: evaluate q[] only */
+    double *rhs;        /* indexed by unknown */
+    const double *x;    /* present solution, indexed by unknown */
+    double vt_v;        /* thermal voltage at the circuit temperature */
+    double a0;          /* 1/s: weight of the new charge in i = a0 q + hist */
+    const double *hist; /* this element's n_charge history terms (A; V for a flux) */
+    double *q;          /* out: this element's n_charge charges (C) or fluxes (Wb) */
+} dev_tran_ctx;
+
 typedef struct dev_model_param {
     const char *name;
     double def;
@@ -111,6 +130,9 @@ typedef struct dev_ops {
      * DEV_MAX_NOISE_SRC-1]; returns how many. NULL for a noiseless element (ideal sources,
      * capacitors, inductors, controlled sources). docs/noise.md has the models. */
     int (*noise)(const element *e, const dev_noise_ctx *nc, dev_noise_src *out);
+    /* transient charges (see dev_tran_ctx); NULL and n_charge 0 for an element without */
+    void (*load_tran)(element *e, dev_tran_ctx *tc);
+    int n_charge;
     /* the main value's name for --set and messages ("resistance"), NULL if none */
     const char *value_name;
     /* model parameter tables per model type (NULL when the kind takes no model) */

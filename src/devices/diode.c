@@ -159,6 +159,30 @@ static int diode_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src 
     return n;
 }
 
+/* Junction charge for the transient: the depletion charge (the integral of the FC-extended
+ * depletion capacitance, junction_depletion_charge) plus the diffusion charge TT Id, with Id
+ * the Shockley current without gmin (docs/transient.md). */
+static void diode_load_tran(element *e, dev_tran_ctx *tc)
+{
+    const double *tp = e->tp;
+    double vd = tc->G ? e->state[0] : xv(tc->x, e->inode[0]) - xv(tc->x, e->node[1]);
+    double c;
+    double q = junction_depletion_charge(vd, tp[DP_CJO], tp[DP_VJ], tp[DP_M], tp[DP_FC], &c);
+    if (tp[DP_TT] > 0.0) {
+        double gd;
+        q += tp[DP_TT] * junction_current(tp[DP_IS], vd, tp[DP_N] * tc->vt_v, &gd);
+        c += tp[DP_TT] * gd;
+    }
+    tc->q[0] = q;
+    if (!tc->G)
+        return;
+    double g = tc->a0 * c;
+    double ieq = tc->a0 * q + tc->hist[0] - g * vd;
+    stamp_pair(tc->G, &e->slot[SL_J], g);
+    rhs_add(tc->rhs, e->inode[0], -ieq);
+    rhs_add(tc->rhs, e->node[1], ieq);
+}
+
 const dev_ops diode_ops = {
     .letter = 'd',
     .kind_name = "diode",
@@ -171,6 +195,8 @@ const dev_ops diode_ops = {
     .load_ac = diode_load_ac,
     .report = diode_report,
     .noise = diode_noise,
+    .load_tran = diode_load_tran,
+    .n_charge = 1,
     .model_params = diode_params,
     .n_model_params = DP_COUNT,
 };

@@ -1,4 +1,5 @@
-/* Inductor: a branch current unknown; a 0 V source at DC, V = jwL I in AC. */
+/* Inductor: a branch current unknown; a 0 V source at DC, V = jwL I in AC, flux L I in a
+ * transient (integrated by the transient module). */
 #include "devices/passive.h"
 
 static int ind_parse(pctx *p, element *e) { return parse_two_node_value(p, e, "inductance", 1); }
@@ -43,6 +44,17 @@ static void ind_kcl(const element *e, const double *x, const dev_load_ctx *lc, d
     resid[e->branch] += xv(x, e->node[0]) - xv(x, e->node[1]);
 }
 
+/* Flux phi = L i; the branch row becomes Va - Vb - (a0 phi + hist) = 0. */
+static void ind_load_tran(element *e, dev_tran_ctx *tc)
+{
+    double i = tc->x[e->branch];
+    tc->q[0] = e->value * i;
+    if (!tc->G)
+        return;
+    stamp_add(tc->G, e->slot[4], -tc->a0 * e->value);
+    tc->rhs[e->branch] += tc->hist[0];
+}
+
 const dev_ops inductor_ops = {
     .letter = 'l',
     .kind_name = "inductor",
@@ -52,5 +64,7 @@ const dev_ops inductor_ops = {
     .load_dc = ind_load_dc,
     .kcl = ind_kcl,
     .load_ac = ind_load_ac,
+    .load_tran = ind_load_tran,
+    .n_charge = 1,
     .value_name = "inductance",
 };

@@ -6,8 +6,10 @@
 #include <math.h>
 
 /* Exponent cap: above this argument exp() continues as a straight line with matching value
- * and slope, so a wild Newton step cannot overflow (common practice; docs/models.md). */
-#define JUNCTION_EXP_ARG_MAX 80.0
+ * and slope, so a wild Newton step cannot overflow (common practice; docs/models.md). High
+ * enough that a real operating point never reaches it even with IS = 1e-60 A at amperes
+ * (e^200 = 7e86), low enough that products of such terms stay far from overflow. */
+#define JUNCTION_EXP_ARG_MAX 200.0
 
 /* e = exp(a) - 1 and d = d/da exp(a), with the linear continuation above the cap.
  * expm1 keeps small biases from cancelling. */
@@ -65,6 +67,33 @@ static inline double junction_depletion_cap(double v, double cj, double vj, doub
     if (v < fc * vj)
         return cj * pow(1.0 - v / vj, -m);
     return cj * pow(1.0 - fc, -(1.0 + m)) * (1.0 - fc * (1.0 + m) + m * v / vj);
+}
+
+/* Depletion charge: the integral from 0 to v of junction_depletion_cap, so that its
+ * derivative is exactly that capacitance (docs/transient.md derives it). Writes dQ/dv into
+ * *cap. Below FC VJ: Q = CJ VJ (1 - (1 - v/VJ)^(1-M)) / (1 - M) (M = 1: -CJ VJ ln(1 - v/VJ));
+ * from FC VJ up, the charge there plus CJ/F2 (F3 (v - FC VJ) + M/(2 VJ) (v^2 - (FC VJ)^2)),
+ * F2 = (1 - FC)^(1+M), F3 = 1 - FC (1 + M), the integral of the linear extension. */
+static inline double junction_depletion_charge(double v, double cj, double vj, double m,
+                                               double fc, double *cap)
+{
+    *cap = 0.0;
+    if (cj == 0.0 || !(vj > 0.0))
+        return 0.0;
+    double vf = fc * vj;
+    double u = 1.0 - fmin(v, vf) / vj; /* > 0: fc < 1 */
+    double q_low;
+    if (fabs(1.0 - m) < 1e-9)
+        q_low = -cj * vj * log(u);
+    else
+        q_low = cj * vj * (1.0 - pow(u, 1.0 - m)) / (1.0 - m);
+    if (v < vf) {
+        *cap = cj * pow(u, -m);
+        return q_low;
+    }
+    double f2 = pow(1.0 - fc, 1.0 + m), f3 = 1.0 - fc * (1.0 + m);
+    *cap = cj / f2 * (f3 + m * v / vj);
+    return q_low + cj / f2 * (f3 * (v - vf) + 0.5 * m / vj * (v * v - vf * vf));
 }
 
 /* Silicon band gap after Varshni 1967 (docs/models.md), eV. */

@@ -283,3 +283,12 @@ ss_status mna_solve_complex_transpose_again(mna *m, double complex *b)
         return SS_ERR_INTERNAL;
     return SS_OK;
 }
+
+ss_status mna_solve_real_again(mna *m, double *b)
+{
+    if (!m->num)
+        return SS_ERR_INTERNAL;
+    if (!klu_solve(m->sym, m->num, m->n, 1, b, &m->common))
+        return SS_ERR_INTERNAL;
+    return SS_OK;
+}

@@ -49,6 +49,8 @@ SS_HIDDEN double complex *mna_zvalues(mna *m); /* complex values, nnz */
 SS_HIDDEN ss_status mna_solve_real(mna *m, double *b, int *bad_unknown, double *rcond_out);
 SS_HIDDEN ss_status mna_solve_complex(mna *m, double complex *b, int *bad_unknown,
                                       double *rcond_out);
+/* Solves with the real factorization of the last mna_solve_real (same matrix). */
+SS_HIDDEN ss_status mna_solve_real_again(mna *m, double *b);
 /* Solves with the complex factorization of the last mna_solve_complex (same matrix). */
 SS_HIDDEN ss_status mna_solve_complex_again(mna *m, double complex *b);
 /* Solves the transposed system A^T x = b (plain transpose, not the conjugate) with the

@@ -98,6 +98,7 @@ void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *f)
     f->stage = ckt->stage_in != NULL;
     f->tran = ckt->want_tran;
     f->noise = ckt->want_noise;
+    f->large_signal = ckt->want_large_signal;
 }
 
 double ss_circuit_temp_c(const ss_circuit *ckt) { return ckt->temp_c; }
@@ -150,7 +151,7 @@ ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *
 ss_status ss_circuit_set_stage(ss_circuit *ckt, const char *in_source, const char *out_node,
                                double load_ohm, ss_error *err)
 {
-    char name[256];
+    char name[1024]; /* a name that does not fit exists nowhere: never cut it to one that does */
     size_t i;
     if (!in_source || !out_node) { /* only the load changes */
         if (load_ohm > 0.0)
@@ -161,7 +162,7 @@ ss_status ss_circuit_set_stage(ss_circuit *ckt, const char *in_source, const cha
         name[i] = (char)((in_source[i] >= 'A' && in_source[i] <= 'Z') ? in_source[i] + 32
                                                                         : in_source[i]);
     name[i] = '\0';
-    int e = circuit_find_elem(ckt, name);
+    int e = in_source[i] ? -1 : circuit_find_elem(ckt, name);
     if (e < 0 || (ckt->elem[e].ops->letter != 'v' && ckt->elem[e].ops->letter != 'i'))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "stage input '%s' is not an independent source of the circuit",
@@ -171,7 +172,7 @@ ss_status ss_circuit_set_stage(ss_circuit *ckt, const char *in_source, const cha
         name[i] = (char)((out_node[i] >= 'A' && out_node[i] <= 'Z') ? out_node[i] + 32
                                                                       : out_node[i]);
     name[i] = '\0';
-    int n = circuit_find_node(ckt, name);
+    int n = out_node[i] ? -1 : circuit_find_node(ckt, name);
     if (n <= 0 || ckt->node_internal[n])
         return err_set(err, SS_ERR_INPUT, NULL, 0, "stage output node '%s' %s", out_node,
                        n == 0 ? "is ground" : "does not exist");
@@ -190,6 +191,7 @@ void ss_circuit_destroy(ss_circuit **pckt)
     ss_free(ckt->x_op);
     ss_free(ckt->work_rhs);
     ss_free(ckt->work_x);
+    ss_free(ckt->x_refine);
     ss_free(ckt->work_zrhs);
     ss_free(ckt->work_zx);
     ss_free(ckt->ac_a0);

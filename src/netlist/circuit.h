@@ -35,6 +35,7 @@ typedef struct element {
     int branch;     /* unknown index of the element's own branch current; -1 none */
     double value;   /* R ohm, C farad, L henry, source DC value, controlled-source gain */
     double ac_mag, ac_phase_deg;
+    void *wave; /* V, I: time-varying form (struct src_wave, devices/wave.h, arena); NULL none */
     const char *ctrl_name; /* F, H: the controlling voltage source */
     int ctrl_elem;         /* its element index, resolved after parsing */
     const model *mod;
@@ -98,6 +99,15 @@ struct ss_circuit {
     int ac_points;
     double ac_fstart_hz, ac_fstop_hz;
     int want_tran, want_noise;
+    /* .tran TSTEP TSTOP [TSTART] (analysis/tran.c); .options tran_method, tran_tol_rel,
+     * tran_tol_v; .large_signal freq= amp= thd_target_pct= (analysis/thd.c) */
+    double tran_step_s, tran_stop_s, tran_start_s;
+    const char *tran_file;
+    int tran_line;
+    int tran_method; /* 0 trapezoidal, 1 second-order backward difference (gear2) */
+    double tran_tol_rel, tran_tol_v;
+    double ls_freq_hz, ls_amp, ls_thd_target_pct; /* 0 / NaN when not given */
+    int want_large_signal;
     /* study directives kept as text for src/study: .expect (limits), .tolerance */
     struct study_line {
         const char *file;
@@ -130,6 +140,7 @@ struct ss_circuit {
     double *x_op; /* operating point, n_unknowns; valid when have_op */
     int have_op;
     double *work_rhs, *work_x;    /* Newton work vectors, n_unknowns */
+    double *x_refine;             /* saved solution during refinement, n_unknowns */
     double _Complex *work_zrhs;   /* AC right-hand side, n_unknowns */
     double _Complex *work_zx;     /* AC second solution (output-impedance test) */
     double last_rcond;

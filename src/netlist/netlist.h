@@ -64,5 +64,7 @@ SS_HIDDEN int pctx_error(pctx *p, const char *fmt, ...) __attribute__((format(pr
 SS_HIDDEN const char *pctx_scoped_name(pctx *p, const char *tok);
 /* Keeps a string for the circuit's lifetime. */
 SS_HIDDEN const char *pctx_strdup(pctx *p, const char *s);
+/* Zeroed memory for the circuit's lifetime (its arena); NULL with the error set. */
+SS_HIDDEN void *pctx_alloc(pctx *p, size_t size);
 
 #endif

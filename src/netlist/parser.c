@@ -606,6 +606,14 @@ const char *pctx_strdup(pctx *p, const char *s)
     return d;
 }
 
+void *pctx_alloc(pctx *p, size_t size)
+{
+    void *d = arena_alloc(&p->ps->ckt->arena, size);
+    if (!d)
+        nomem(p->ps);
+    return d;
+}
+
 static int is_ground_name(const char *t) { return strcmp(t, "0") == 0 || strcmp(t, "gnd") == 0; }
 
 /* Hierarchical names (subcircuit prefix + local name) are built in buffers of this size. A
@@ -1153,11 +1161,26 @@ static int set_option(parser *ps, const logline *ll, void *vctx, const char *nam
 {
     (void)vctx;
     double v;
+    if (strcmp(name, "tran_method") == 0) { /* transient integration: docs/transient.md */
+        if (strcmp(text, "trap") == 0)
+            ps->ckt->tran_method = 0;
+        else if (strcmp(text, "gear2") == 0)
+            ps->ckt->tran_method = 1;
+        else
+            return line_error(ps, ll, ".options: tran_method must be trap or gear2, got '%s'",
+                              text),
+                   -1;
+        return 0;
+    }
     if (line_value(ps, ll, NULL, text, ".options", name, &v) != 0)
         return -1;
     ss_options_set *o = &ps->ckt->opt;
     if (strcmp(name, "tol_rel") == 0 && v > 0.0 && v < 1.0)
         o->tol_rel = v;
+    else if (strcmp(name, "tran_tol_rel") == 0 && v > 0.0 && v < 1.0)
+        ps->ckt->tran_tol_rel = v;
+    else if (strcmp(name, "tran_tol_v") == 0 && v > 0.0)
+        ps->ckt->tran_tol_v = v;
     else if (strcmp(name, "tol_v") == 0 && v > 0.0)
         o->tol_v = v;
     else if (strcmp(name, "tol_i") == 0 && v > 0.0)
@@ -1168,12 +1191,13 @@ static int set_option(parser *ps, const logline *ll, void *vctx, const char *nam
         o->newton_iters = (int)v;
     else if (strcmp(name, "tol_rel") == 0 || strcmp(name, "tol_v") == 0 ||
              strcmp(name, "tol_i") == 0 || strcmp(name, "gmin") == 0 ||
-             strcmp(name, "newton_iters") == 0)
+             strcmp(name, "newton_iters") == 0 || strcmp(name, "tran_tol_rel") == 0 ||
+             strcmp(name, "tran_tol_v") == 0)
         return line_error(ps, ll, ".options: %s = %g is out of range", name, v), -1;
     else
         return line_error(ps, ll,
                           ".options: unknown option '%s' (known: tol_rel, tol_v, tol_i, gmin, "
-                          "newton_iters)",
+                          "newton_iters, tran_method, tran_tol_rel, tran_tol_v)",
                           name),
                -1;
     return 0;
@@ -1200,6 +1224,36 @@ static int set_stage(parser *ps, const logline *ll, void *vctx, const char *name
         ckt->stage_load_ohm = v;
     } else
         return line_error(ps, ll, ".stage: unknown field '%s' (known: in, out, load)", name), -1;
+    return 0;
+}
+
+/* .large_signal fields (docs/transient.md): the signal frequency, the input amplitude THD is
+ * computed at, and the THD the input amplitude is searched for. */
+static int set_large_signal(parser *ps, const logline *ll, void *vctx, const char *name,
+                            const char *text)
+{
+    (void)vctx;
+    double v;
+    ss_circuit *ckt = ps->ckt;
+    int is_freq = strcmp(name, "freq") == 0, is_amp = strcmp(name, "amp") == 0;
+    int is_thd = strcmp(name, "thd_target_pct") == 0;
+    if (!is_freq && !is_amp && !is_thd)
+        return line_error(ps, ll,
+                          ".large_signal: unknown field '%s' (known: freq, amp, thd_target_pct)",
+                          name),
+               -1;
+    if (line_value(ps, ll, NULL, text, ".large_signal", name, &v) != 0)
+        return -1;
+    if (is_thd ? !(v > 0.0 && v < 100.0) : !(v > 0.0 && isfinite(v)))
+        return line_error(ps, ll, ".large_signal: %s must be %s, got %g", name,
+                          is_thd ? "between 0 and 100 (percent)" : "positive", v),
+               -1;
+    if (is_freq)
+        ckt->ls_freq_hz = v;
+    else if (is_amp)
+        ckt->ls_amp = v;
+    else
+        ckt->ls_thd_target_pct = v;
     return 0;
 }
 
@@ -1332,8 +1386,38 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
         return SS_OK;
     }
     if (strcmp(d, ".tran") == 0) {
+        /* .tran TSTEP TSTOP [TSTART]: rows of tran.csv at TSTART + k TSTEP (analysis/tran.c) */
+        if (ll->n_tok != 3 && ll->n_tok != 4)
+            return line_error(ps, ll, ".tran expects TSTEP TSTOP [TSTART]");
+        double step, stop, start = 0.0;
+        if (line_value(ps, ll, NULL, ll->tok[1], ".tran", "step", &step) ||
+            line_value(ps, ll, NULL, ll->tok[2], ".tran", "stop time", &stop) ||
+            (ll->n_tok == 4 &&
+             line_value(ps, ll, NULL, ll->tok[3], ".tran", "start time", &start)))
+            return SS_ERR_INPUT;
+        if (!(step > 0.0) || !(stop > 0.0))
+            return line_error(ps, ll, ".tran: step and stop time must be positive (got %g, %g s)",
+                              step, stop);
+        if (!(start >= 0.0 && start < stop))
+            return line_error(ps, ll, ".tran: start time %g s must be in [0, stop time %g s)",
+                              start, stop);
+        if (step > stop - start)
+            return line_error(ps, ll, ".tran: step %g s is longer than the span from %g s to %g s",
+                              step, start, stop);
+        if ((stop - start) / step > 1e7)
+            return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                           ".tran: more than 1e7 output points");
+        ckt->tran_step_s = step;
+        ckt->tran_stop_s = stop;
+        ckt->tran_start_s = start;
+        ckt->tran_file = ll->file;
+        ckt->tran_line = ll->line;
         ckt->want_tran = 1;
         return SS_OK;
+    }
+    if (strcmp(d, ".large_signal") == 0) {
+        ckt->want_large_signal = 1;
+        return parse_assignments(ps, ll, 1, set_large_signal, NULL) == 0 ? SS_OK : ps->err->code;
     }
     if (strcmp(d, ".noise") == 0) {
         /* .noise v(OUT) SRC [rs=RNAME]: names checked after parsing (check_noise) */

@@ -7,20 +7,13 @@
 #include <string.h>
 #include <unistd.h>
 
+#include "output/fmt_double.h"
 #include "output/output.h"
 #include "util/table.h"
 
 int output_format_double(char *buf, size_t len, double v)
 {
-    if (isnan(v)) {
-        if (len)
-            buf[0] = '\0';
-        return 0;
-    }
-    int n = snprintf(buf, len, "%.15g", v);
-    if (strtod(buf, NULL) != v)
-        n = snprintf(buf, len, "%.17g", v);
-    return n;
+    return fmt_double_shortest(buf, len, v);
 }
 
 ss_status output_write_atomic(const char *path, const char *data, size_t len, ss_error *err)

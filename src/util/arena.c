@@ -14,9 +14,17 @@ struct ss_arena_block {
 
 void *arena_alloc(ss_arena *a, size_t size)
 {
-    size = (size + 15u) & ~(size_t)15u;
+    void *p = arena_alloc_raw(a, size, 16);
+    if (p)
+        memset(p, 0, size);
+    return p;
+}
+
+void *arena_alloc_raw(ss_arena *a, size_t size, size_t align)
+{
     ss_arena_block *b = a->head;
-    if (!b || b->cap - b->used < size) {
+    size_t start = b ? (b->used + align - 1) & ~(align - 1) : 0;
+    if (!b || start + size > b->cap) {
         size_t cap = size > ARENA_BLOCK_MIN ? size : ARENA_BLOCK_MIN;
         ss_arena_block *nb = ss_alloc(sizeof *nb + cap);
         if (!nb)
@@ -25,16 +33,16 @@ void *arena_alloc(ss_arena *a, size_t size)
         nb->next = a->head;
         a->head = nb;
         b = nb;
+        start = 0; /* data[] is 16-byte aligned */
     }
-    void *p = b->data + b->used;
-    b->used += size;
-    memset(p, 0, size);
+    void *p = b->data + start;
+    b->used = start + size;
     return p;
 }
 
 char *arena_strndup(ss_arena *a, const char *s, size_t n)
 {
-    char *d = arena_alloc(a, n + 1);
+    char *d = arena_alloc_raw(a, n + 1, 1);
     if (d) {
         memcpy(d, s, n);
         d[n] = '\0';

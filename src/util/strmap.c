@@ -1,5 +1,6 @@
-/* Open-addressing string -> int map (FNV-1a hash, linear probing) for node, element and model
- * name lookups; keys are borrowed from the circuit's arena. */
+/* Open-addressing string -> int map (FNV-1a hash, linear probing, the full hash kept beside
+ * each key so a probe rarely touches the string) for node, element and model name lookups;
+ * keys are borrowed from the circuit's arena. */
 #include <string.h>
 
 #include "util/util.h"
@@ -11,20 +12,23 @@ static uint64_t hash_str(const char *s)
         h ^= (unsigned char)*s;
         h *= 1099511628211ull;
     }
-    return h;
+    /* fold the high bits down: the table index uses the low bits */
+    return h ^ (h >> 29);
 }
 
 int strmap_get(const ss_strmap *m, const char *key, int *out_val)
 {
     if (m->cap == 0)
         return 0;
+    uint64_t h = hash_str(key);
     size_t mask = m->cap - 1;
-    for (size_t i = (size_t)hash_str(key) & mask;; i = (i + 1) & mask) {
-        if (!m->keys[i])
+    for (size_t i = (size_t)h & mask;; i = (i + 1) & mask) {
+        const ss_strmap_entry *e = &m->e[i];
+        if (!e->key)
             return 0;
-        if (strcmp(m->keys[i], key) == 0) {
+        if (e->hash == h && strcmp(e->key, key) == 0) {
             if (out_val)
-                *out_val = m->vals[i];
+                *out_val = e->val;
             return 1;
         }
     }
@@ -33,26 +37,19 @@ int strmap_get(const ss_strmap *m, const char *key, int *out_val)
 static int strmap_grow(ss_strmap *m)
 {
     size_t ncap = m->cap ? m->cap * 2 : 64;
-    const char **nk = ss_alloc(ncap * sizeof *nk);
-    int *nv = ss_alloc(ncap * sizeof *nv);
-    if (!nk || !nv) {
-        ss_free(nk);
-        ss_free(nv);
+    ss_strmap_entry *ne = ss_alloc(ncap * sizeof *ne);
+    if (!ne)
         return -1;
-    }
     for (size_t j = 0; j < m->cap; j++) {
-        if (!m->keys[j])
+        if (!m->e[j].key)
             continue;
-        size_t i = (size_t)hash_str(m->keys[j]) & (ncap - 1);
-        while (nk[i])
+        size_t i = (size_t)m->e[j].hash & (ncap - 1);
+        while (ne[i].key)
             i = (i + 1) & (ncap - 1);
-        nk[i] = m->keys[j];
-        nv[i] = m->vals[j];
+        ne[i] = m->e[j];
     }
-    ss_free(m->keys);
-    ss_free(m->vals);
-    m->keys = nk;
-    m->vals = nv;
+    ss_free(m->e);
+    m->e = ne;
     m->cap = ncap;
     return 0;
 }
@@ -61,24 +58,25 @@ int strmap_put(ss_strmap *m, const char *key, int val)
 {
     if ((m->count + 1) * 2 > m->cap && strmap_grow(m) != 0)
         return -1;
+    uint64_t h = hash_str(key);
     size_t mask = m->cap - 1;
-    size_t i = (size_t)hash_str(key) & mask;
-    while (m->keys[i]) {
-        if (strcmp(m->keys[i], key) == 0) {
-            m->vals[i] = val;
+    size_t i = (size_t)h & mask;
+    while (m->e[i].key) {
+        if (m->e[i].hash == h && strcmp(m->e[i].key, key) == 0) {
+            m->e[i].val = val;
             return 0;
         }
         i = (i + 1) & mask;
     }
-    m->keys[i] = key;
-    m->vals[i] = val;
+    m->e[i].hash = h;
+    m->e[i].key = key;
+    m->e[i].val = val;
     m->count++;
     return 0;
 }
 
 void strmap_clear(ss_strmap *m)
 {
-    ss_free(m->keys);
-    ss_free(m->vals);
+    ss_free(m->e);
     memset(m, 0, sizeof *m);
 }

@@ -27,14 +27,19 @@ typedef struct ss_arena {
     ss_arena_block *head;
 } ss_arena;
 SS_HIDDEN void *arena_alloc(ss_arena *a, size_t size); /* zeroed, 16-byte aligned */
+SS_HIDDEN void *arena_alloc_raw(ss_arena *a, size_t size, size_t align); /* not zeroed */
 SS_HIDDEN char *arena_strdup(ss_arena *a, const char *s);
 SS_HIDDEN char *arena_strndup(ss_arena *a, const char *s, size_t n);
 SS_HIDDEN void arena_clear(ss_arena *a);
 
 /* ---- string -> int hash map (keys are borrowed; they must outlive the map) -------------- */
+typedef struct ss_strmap_entry {
+    uint64_t hash; /* full hash, compared before the string */
+    const char *key;
+    int val;
+} ss_strmap_entry;
 typedef struct ss_strmap {
-    const char **keys;
-    int *vals;
+    ss_strmap_entry *e;
     size_t cap; /* power of two, 0 when empty */
     size_t count;
 } ss_strmap;

@@ -1,0 +1,41 @@
+/* Time-varying forms of independent sources -- SIN, PULSE, PWL: parsing what is inside the
+ * form's parentheses, the value at a time, and the corners a transient must step onto.
+ * Integrating the circuit is src/analysis/tran.c's. */
+#ifndef SS_WAVE_H
+#define SS_WAVE_H
+
+#include "devices/device.h"
+
+enum wave_kind { WAVE_SIN = 0, WAVE_PULSE = 1, WAVE_PWL = 2 };
+
+/* Parameter positions. SIN(VO VA FREQ [TD [THETA [PHASE]]]), PULSE(V1 V2 [TD [TR [TF [PW
+ * [PER]]]]]), PWL(T1 V1 T2 V2 ...). docs/transient.md gives the formulas. */
+enum { WS_VO, WS_VA, WS_FREQ, WS_TD, WS_THETA, WS_PHASE };
+enum { WP_V1, WP_V2, WP_TD, WP_TR, WP_TF, WP_PW, WP_PER };
+
+typedef struct src_wave {
+    enum wave_kind kind;
+    double p[7];       /* SIN / PULSE parameters, defaults filled in */
+    const double *pwl; /* PWL: t0 v0 t1 v1 ... (2 n_pwl values, times strictly increasing) */
+    int n_pwl;
+} src_wave;
+
+/* 1 when tok starts a form ("sin(...)", "pulse", "pwl(...)"): letters then '(' or the end. */
+SS_HIDDEN int wave_is_form(const char *tok);
+
+/* Parses a form from the element line: tok is the token holding the form's name (and, in the
+ * one-token spelling `sin(0 1 1k)`, its parenthesised arguments); when the name stands alone
+ * the arguments are the next token `(...)`. Writes an arena-allocated src_wave into *out.
+ * Returns the number of tokens used (1 or 2), or -1 with the error set naming the element. */
+SS_HIDDEN int wave_parse(pctx *p, int tok_index, src_wave **out);
+
+/* The source value at time t_s (t < 0 is taken as 0). tstep_s: the transient's output step,
+ * which stands for a PULSE rise or fall time given as 0 or left out (common practice); with
+ * tstep_s 0 such an edge is a jump. */
+SS_HIDDEN double wave_value(const src_wave *w, double t_s, double tstep_s);
+
+/* The first corner of the waveform strictly after t_s (PULSE edges, PWL points, a SIN's
+ * delay), or HUGE_VAL when there is none. */
+SS_HIDDEN double wave_next_break(const src_wave *w, double t_s, double tstep_s);
+
+#endif
