@@ -22,6 +22,11 @@ typedef struct newton_params {
     double src_scale;
     enum load_mode first_mode;
     int max_iter;
+    /* pseudo-transient anchor: when set, a conductance anchor_scale * anchor_g[u] from every
+     * node u to the voltage anchor[u] (a backward-Euler step with node capacitances) */
+    const double *anchor;
+    const double *anchor_g;
+    double anchor_scale;
 } newton_params;
 
 typedef struct newton_result {

@@ -65,7 +65,7 @@ ss_status ss_dc_sweep_run(ss_circuit *ckt, ss_table **out_dc, ss_error *err)
             src[0]->value = ckt->dc[0].start + ji * ckt->dc[0].step;
             int need_full = (ji == 0 && jo == 0) || !x;
             if (!need_full) {
-                newton_params np = {0.0, 1.0, LOAD_FROM_X, ckt->opt.newton_iters};
+                newton_params np = {0.0, 1.0, LOAD_FROM_X, ckt->opt.newton_iters, NULL, NULL, 0.0};
                 newton_result r;
                 if (newton_solve(ckt, x, &np, &r) != SS_OK)
                     need_full = 1;

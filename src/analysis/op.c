@@ -60,6 +60,12 @@ ss_status newton_solve(ss_circuit *ckt, double *x, const newton_params *np, newt
         if (np->gmin_extra_s > 0.0)
             for (int u = 0; u < n_node_unknowns; u++)
                 G[mna_diag_slot(m, u)] += np->gmin_extra_s;
+        if (np->anchor)
+            for (int u = 0; u < n_node_unknowns; u++) {
+                double g = np->anchor_scale * np->anchor_g[u];
+                G[mna_diag_slot(m, u)] += g;
+                rhs[u] += g * np->anchor[u];
+            }
         int bad;
         double rcond;
         ss_status st = mna_solve_real(m, rhs, &bad, &rcond);
@@ -176,7 +182,7 @@ static ss_status gmin_stepping(ss_circuit *ckt, double *x, int *iters, int *step
 {
     int n = ckt->n_unknowns;
     memset(x, 0, (size_t)n * sizeof *x);
-    newton_params np = {1e-2, 1.0, LOAD_INIT_JUNCTION, ckt->opt.newton_iters};
+    newton_params np = {1e-2, 1.0, LOAD_INIT_JUNCTION, ckt->opt.newton_iters, NULL, NULL, 0.0};
     double factor = 10.0;
     double *saved = ckt->work_x;
     for (;;) {
@@ -215,7 +221,7 @@ static ss_status source_stepping(ss_circuit *ckt, double *x, int *iters, int *st
     int n = ckt->n_unknowns;
     memset(x, 0, (size_t)n * sizeof *x);
     /* at lambda = 0 every source is off and x = 0 is the answer: start there as it is */
-    newton_params np = {0.0, 0.0, LOAD_FROM_X, ckt->opt.newton_iters};
+    newton_params np = {0.0, 0.0, LOAD_FROM_X, ckt->opt.newton_iters, NULL, NULL, 0.0};
     ss_status st = newton_solve(ckt, x, &np, last);
     *iters += last->iterations;
     if (st != SS_OK)
@@ -261,6 +267,85 @@ static ss_status verify_kcl(ss_circuit *ckt, const double *x, ss_error *err)
                    what, ckt->last_kcl_residual, worst < ckt->n_nodes - 1 ? "A" : "V");
 }
 
+/* Is x a stable equilibrium? For the MNA Jacobian a stable DC solution has
+ * sign(det J) = (-1)^(number of branch unknowns) (each voltage-defined branch adds one sign
+ * through its Schur complement); the opposite sign means an odd number of growing modes, as
+ * at the balanced point of a latch. Used only as a trigger: the escape below decides. */
+static int looks_unstable(ss_circuit *ckt)
+{
+    int s = mna_det_sign(ckt->mna, ckt->work_bytes);
+    int expect = (ckt->n_branches % 2) ? -1 : 1;
+    return s != 0 && s != expect;
+}
+
+/* Pseudo-transient escape from an unstable equilibrium: nudge every node by a millivolt-sized
+ * deterministic pattern and follow backward-Euler steps of a circuit with a capacitance at
+ * every node (a conductance proportional to the node's own, shrinking by 30 % per step;
+ * pseudo-transient continuation after Kelley & Keyes, SIAM J. Numer. Anal. 35(2), 1998 --
+ * from memory) until the state settles, then solve exactly from there. Returns 1 when it
+ * reached a different operating point (in x), 0 when it came back or failed (x unchanged). */
+static int escape_unstable(ss_circuit *ckt, double *x, int *iters)
+{
+    int n = ckt->n_unknowns, nn = ckt->n_nodes - 1;
+    double *G = mna_values(ckt->mna);
+    double *g = ckt->x_refine, *prev = ckt->work_esc, *orig = ckt->work_esc + n;
+    memcpy(orig, x, (size_t)n * sizeof *x);
+    /* each node's pseudo-capacitance in proportion to the sum of |row| of the Jacobian
+     * (Gershgorin): the anchored system stays diagonally dominant however strong the
+     * transconductances around the loop are */
+    for (int u = 0; u < nn; u++)
+        g[u] = ckt->opt.gmin + 1e-12;
+    const int *Ap = mna_colptr(ckt->mna), *Ai = mna_rowidx(ckt->mna);
+    for (int j = 0; j < n; j++)
+        for (int q = Ap[j]; q < Ap[j + 1]; q++)
+            if (Ai[q] < nn)
+                g[Ai[q]] += fabs(G[q]);
+    memcpy(prev, x, (size_t)n * sizeof *x);
+    for (int u = 0; u < nn; u++)
+        prev[u] += 1e-3 * ((u * 2654435761u) % 7 - 3.0) / 3.0 + 1e-4;
+    newton_params np = {0.0, 1.0, LOAD_FROM_X, ckt->opt.newton_iters, prev, g, 10.0};
+    newton_result r;
+    memcpy(x, prev, (size_t)n * sizeof *x);
+    int ok = 1, retries = 0;
+    for (int step = 0; step < 300 && np.anchor_scale > 1e-9; step++) {
+        ss_status est = newton_solve(ckt, x, &np, &r);
+        *iters += r.iterations;
+        if (est != SS_OK) {
+            /* too long a pseudo-time step: back to the last state, a shorter step */
+            if (est != SS_ERR_NO_CONVERGENCE || ++retries > 20) {
+                ok = 0;
+                break;
+            }
+            memcpy(x, prev, (size_t)n * sizeof *x);
+            np.anchor_scale *= 4.0;
+            continue;
+        }
+        memcpy(prev, x, (size_t)n * sizeof *x);
+        np.anchor_scale *= 0.7;
+    }
+    if (ok) {
+        newton_params fin = {0.0, 1.0, LOAD_FROM_X, ckt->opt.newton_iters, NULL, NULL, 0.0};
+        ok = newton_solve(ckt, x, &fin, &r) == SS_OK;
+        *iters += r.iterations;
+    }
+    double moved = 0.0;
+    for (int u = 0; ok && u < nn; u++)
+        moved = fmax(moved, fabs(x[u] - orig[u]) / (1e-3 + 1e-3 * fabs(orig[u])));
+    if (ok && moved > 1.0 && !looks_unstable(ckt))
+        return 1;
+    /* second try: ramp every source up from zero, the way a circuit powers up; a latch then
+     * settles in the state its power-up favours */
+    int steps = 0;
+    ok = source_stepping(ckt, x, iters, &steps, &r) == SS_OK;
+    moved = 0.0;
+    for (int u = 0; ok && u < nn; u++)
+        moved = fmax(moved, fabs(x[u] - orig[u]) / (1e-3 + 1e-3 * fabs(orig[u])));
+    if (ok && moved > 1.0 && !looks_unstable(ckt))
+        return 1;
+    memcpy(x, orig, (size_t)n * sizeof *x);
+    return 0;
+}
+
 /* Iterative refinement on the element-by-element residual: Newton re-solves the assembled
  * matrix for x, so a conductance lost to rounding on a much larger diagonal (1e-12 S beside
  * 1e3 S) stays lost; solving J dx = -f(x) with f from each device's own equations recovers
@@ -293,7 +378,7 @@ ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err)
     ss_op_stats s = {0, 0, 0};
     newton_result r;
     memset(x, 0, (size_t)n * sizeof *x);
-    newton_params np = {0.0, 1.0, LOAD_INIT_JUNCTION, ckt->opt.newton_iters};
+    newton_params np = {0.0, 1.0, LOAD_INIT_JUNCTION, ckt->opt.newton_iters, NULL, NULL, 0.0};
     st = newton_solve(ckt, x, &np, &r);
     s.newton_iterations += r.iterations;
     /* the topology was checked in prepare, so a singular matrix here is numerical (a junction
@@ -316,6 +401,19 @@ ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     if (st != SS_OK)
         return nonconvergence_error(ckt, &r, s.newton_iterations, err);
+    /* an unstable equilibrium (the balanced point of a latch) is not an operating point a
+     * circuit can sit at: move to a stable one, and say so */
+    if (looks_unstable(ckt)) {
+        if (escape_unstable(ckt, x, &s.newton_iterations))
+            circuit_warn(ckt, "operating point: Newton first found an unstable equilibrium "
+                              "(e.g. the balanced point of a latch); reporting the stable state "
+                              "reached from it. A circuit with several stable states settles "
+                              "in one of them depending on its history");
+        else
+            circuit_warn(ckt, "operating point: this may be an unstable equilibrium (the sign "
+                              "of the circuit's Jacobian determinant says so); a real circuit "
+                              "would not stay there");
+    }
     /* verify Newton's own answer first, so refinement cannot hide a stamp that disagrees with
      * its device equation; then refine and verify again */
     st = verify_kcl(ckt, x, err);

@@ -163,9 +163,12 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
     ckt->work_rhs = ss_alloc(n * sizeof *ckt->work_rhs);
     ckt->work_x = ss_alloc(n * sizeof *ckt->work_x);
     ckt->x_refine = ss_alloc(n * sizeof *ckt->x_refine);
+    ckt->work_esc = ss_alloc(2 * n * sizeof *ckt->work_esc);
+    ckt->work_bytes = ss_alloc(n);
     ckt->work_zrhs = ss_alloc(n * sizeof *ckt->work_zrhs);
     ckt->work_zx = ss_alloc(n * sizeof *ckt->work_zx);
-    if (!ckt->mna || !ckt->x_op || !ckt->work_rhs || !ckt->work_x || !ckt->x_refine || !ckt->work_zrhs ||
+    if (!ckt->mna || !ckt->x_op || !ckt->work_rhs || !ckt->work_x || !ckt->x_refine || !ckt->work_esc ||
+        !ckt->work_bytes || !ckt->work_zrhs ||
         !ckt->work_zx)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     /* claims go to a scratch array first, then into an exact-size one */

@@ -79,8 +79,7 @@ static int parse_items(pctx *p, const char *form, const char *args, double *vals
 static int check_sin(pctx *p, src_wave *w, int n)
 {
     if (n < 3 || n > 6)
-        return pctx_error(p, "sin(VO VA FREQ [TD [THETA [PHASE]]]) takes 3 to 6 values, got %d",
-                          n);
+        return pctx_error(p, "sin(VO VA FREQ [TD [THETA [PHASE]]]) takes 3 to 6 values, got %d", n);
     if (!(w->p[WS_FREQ] >= 0.0))
         return pctx_error(p, "sin: frequency must not be negative, got %g", w->p[WS_FREQ]);
     if (w->p[WS_TD] < 0.0)
@@ -93,8 +92,8 @@ static int check_pulse(pctx *p, src_wave *w, int n)
     if (n < 2 || n > 7)
         return pctx_error(p, "pulse(V1 V2 [TD [TR [TF [PW [PER]]]]]) takes 2 to 7 values, got %d",
                           n);
-    static const char *const name[7] = {"", "", "delay", "rise time", "fall time",
-                                        "pulse width", "period"};
+    static const char *const name[7] = {
+        "", "", "delay", "rise time", "fall time", "pulse width", "period"};
     for (int k = WP_TD; k <= WP_PER; k++)
         if (w->p[k] < 0.0)
             return pctx_error(p, "pulse: %s must not be negative, got %g", name[k], w->p[k]);
@@ -104,8 +103,7 @@ static int check_pulse(pctx *p, src_wave *w, int n)
         w->p[WP_PER] = HUGE_VAL; /* left out or 0: a single pulse */
     double used = w->p[WP_TR] + w->p[WP_TF] + w->p[WP_PW];
     if (isfinite(w->p[WP_PER]) && used > w->p[WP_PER])
-        return pctx_error(p,
-                          "pulse: rise time + width + fall time (%g s) exceed the period %g s",
+        return pctx_error(p, "pulse: rise time + width + fall time (%g s) exceed the period %g s",
                           used, w->p[WP_PER]);
     return 0;
 }
@@ -160,7 +158,7 @@ int wave_parse(pctx *p, int tok_index, src_wave **out)
     if (kind != WAVE_PWL)
         for (int k = 0; k < n && k < 7; k++)
             w->p[k] = vals[k];
-    int rc = kind == WAVE_SIN ? check_sin(p, w, n)
+    int rc = kind == WAVE_SIN     ? check_sin(p, w, n)
              : kind == WAVE_PULSE ? check_pulse(p, w, n)
                                   : check_pwl(p, w, vals, n);
     if (rc != 0)
@@ -171,7 +169,10 @@ int wave_parse(pctx *p, int tok_index, src_wave **out)
 
 /* ---- evaluation ------------------------------------------------------------------------- */
 
-static double edge_time(double given_s, double tstep_s) { return given_s > 0.0 ? given_s : tstep_s; }
+static double edge_time(double given_s, double tstep_s)
+{
+    return given_s > 0.0 ? given_s : tstep_s;
+}
 
 static double pulse_value(const double *q, double t, double tstep_s)
 {

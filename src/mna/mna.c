@@ -292,3 +292,39 @@ ss_status mna_solve_real_again(mna *m, double *b)
         return SS_ERR_INTERNAL;
     return SS_OK;
 }
+
+/* Parity of a permutation by its cycles: +1 even, -1 odd. */
+static int perm_sign(const int *p, int n, unsigned char *seen)
+{
+    int sign = 1;
+    memset(seen, 0, (size_t)n);
+    for (int i = 0; i < n; i++) {
+        if (seen[i])
+            continue;
+        int len = 0;
+        for (int j = i; !seen[j]; j = p[j]) {
+            seen[j] = 1;
+            len++;
+        }
+        if (len % 2 == 0)
+            sign = -sign;
+    }
+    return sign;
+}
+
+int mna_det_sign(const mna *m, unsigned char *scratch)
+{
+    if (!m->num || !m->sym)
+        return 0;
+    /* KLU factors P A Q = L U (row scaling by positive factors); block upper triangular, so
+     * det A = sign(P) sign(Q) prod diag(U) */
+    int sign = perm_sign(m->num->Pnum, m->n, scratch) * perm_sign(m->sym->Q, m->n, scratch);
+    const double *ud = m->num->Udiag;
+    for (int k = 0; k < m->n; k++) {
+        if (ud[k] == 0.0)
+            return 0;
+        if (ud[k] < 0.0)
+            sign = -sign;
+    }
+    return sign;
+}

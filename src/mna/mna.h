@@ -58,6 +58,9 @@ SS_HIDDEN ss_status mna_solve_complex_again(mna *m, double complex *b);
  * analysis, where x holds the transfer impedance from every unknown to the output. b is
  * overwritten with x. Returns SS_OK, or SS_ERR_INTERNAL when there is no factorization. */
 SS_HIDDEN ss_status mna_solve_complex_transpose_again(mna *m, double complex *b);
+/* Sign of the determinant of the last real factorization (+1, -1, 0 when unknown);
+ * scratch holds n bytes. */
+SS_HIDDEN int mna_det_sign(const mna *m, unsigned char *scratch);
 /* Forget the numeric factorizations (next solve calls klu_factor). */
 SS_HIDDEN void mna_reset_numeric(mna *m);
 

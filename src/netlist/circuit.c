@@ -192,6 +192,8 @@ void ss_circuit_destroy(ss_circuit **pckt)
     ss_free(ckt->work_rhs);
     ss_free(ckt->work_x);
     ss_free(ckt->x_refine);
+    ss_free(ckt->work_esc);
+    ss_free(ckt->work_bytes);
     ss_free(ckt->work_zrhs);
     ss_free(ckt->work_zx);
     ss_free(ckt->ac_a0);

@@ -141,6 +141,8 @@ struct ss_circuit {
     int have_op;
     double *work_rhs, *work_x;    /* Newton work vectors, n_unknowns */
     double *x_refine;             /* saved solution during refinement, n_unknowns */
+    double *work_esc;             /* unstable-equilibrium escape, 2 n_unknowns */
+    unsigned char *work_bytes;    /* n_unknowns bytes (permutation parity) */
     double _Complex *work_zrhs;   /* AC right-hand side, n_unknowns */
     double _Complex *work_zx;     /* AC second solution (output-impedance test) */
     double last_rcond;

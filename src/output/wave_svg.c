@@ -50,7 +50,10 @@ typedef struct wave_panel {
     wave_axis ax;
 } wave_panel;
 
-static void put(ss_strbuf *b, const char *s) { strbuf_append(b, s, strlen(s)); }
+static void put(ss_strbuf *b, const char *s)
+{
+    strbuf_append(b, s, strlen(s));
+}
 
 /* Text for element content or attributes: & < > " escaped, control characters as spaces. */
 static void put_escaped(ss_strbuf *b, const char *s)
@@ -143,10 +146,9 @@ static double time_unit(double span_s, const char **unit)
 
 static void draw_value_panel(ss_strbuf *b, const wave_panel *p)
 {
-    strbuf_printf(b,
-                  "<rect x=\"%.2f\" y=\"%.2f\" width=\"%.2f\" height=\"%.2f\" fill=\"" C_PANEL
-                  "\"/>\n",
-                  PLOT_X0, p->y_top, PLOT_X1 - PLOT_X0, p->y_bottom - p->y_top);
+    strbuf_printf(
+        b, "<rect x=\"%.2f\" y=\"%.2f\" width=\"%.2f\" height=\"%.2f\" fill=\"" C_PANEL "\"/>\n",
+        PLOT_X0, p->y_top, PLOT_X1 - PLOT_X0, p->y_bottom - p->y_top);
     int n_steps = (int)lround((p->ax.hi - p->ax.lo) / p->ax.step);
     if (n_steps > 40)
         n_steps = 40;
@@ -271,8 +273,8 @@ static void render(ss_strbuf *b, const wave_input *w)
     put(b, "<g font-size=\"13\" fill=\"" C_TEXT "\">\n");
     char attrs[96], ttl[160];
     double in_mid = 0.5 * (IN_Y0 + IN_Y1), out_mid = 0.5 * (OUT_Y0 + OUT_Y1);
-    snprintf(attrs, sizeof attrs, "transform=\"rotate(-90 %.2f %.2f)\" fill=\"" C_IN "\"",
-             YTITLE_X, in_mid);
+    snprintf(attrs, sizeof attrs, "transform=\"rotate(-90 %.2f %.2f)\" fill=\"" C_IN "\"", YTITLE_X,
+             in_mid);
     put_text(b, YTITLE_X, in_mid, "middle", attrs, w->in_label);
     snprintf(attrs, sizeof attrs, "transform=\"rotate(-90 %.2f %.2f)\" fill=\"" C_OUT "\"",
              YTITLE_X, out_mid);
@@ -373,8 +375,8 @@ ss_status ss_plot_write_wave(const ss_circuit *ckt, const ss_table *wave, const 
     int is_current = in_name[0] == 'i' && src >= 0 && ckt->elem[src].ops->letter == 'i';
     snprintf(in_label, sizeof in_label, "%.80s (%s)", in_name, is_current ? "A" : "V");
     snprintf(out_label, sizeof out_label, "%.80s (V)", out_name);
-    wave_input w = {title, "input above, output below", buf, buf + n, buf + 2 * n, n,
-                    in_label, out_label};
+    wave_input w = {title,    "input above, output below", buf, buf + n, buf + 2 * n, n, in_label,
+                    out_label};
     ss_strbuf doc = {0};
     ss_status st = svg_render_wave(&doc, &w, path, err);
     if (st == SS_OK)

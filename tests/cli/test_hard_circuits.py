@@ -33,13 +33,12 @@ section 2, there marked "from memory"):
   temperature r = T/TNOM: IS r^XTI exp((r-1) EG/Vt); BF, BR times r^XTB;
               ISE r^-XTB (IS(T)/IS)^(1/NE), ISC likewise with NC; diode IS r^(XTI/N) exp((r-1) EG/(N Vt))
   constants   k = 1.380649e-23 J/K, q = 1.602176634e-19 C (exact, SI 2019); 0 degC = 273.15 K
-The exponential is exact here (stagesim continues it linearly above an argument of 80; here
+The exponential is exact here (stagesim continues it linearly above an argument of 200; here
 the cap is at 300, only to keep a wild trial point finite).
 
-Checks whose expected value the present solver does not reach are marked KNOWN-FAILING in a
-comment: they assert the right behaviour, so they fail until the solver is fixed. They are:
-  latch, latch_pnpn      the unstable in-between solution is reported instead of a stable state
-  resistance_spread      v(m), v(t) right to 2.4e-5 only (inside tol_rel, not "full precision")
+Three checks guard behaviour that was once wrong (marked REGRESSION GUARD below):
+  latch, latch_pnpn      the unstable in-between solution used to be reported
+  resistance_spread      v(m), v(t) used to be right to 2.4e-5 only
   tiny_is_extreme        the linear continuation of exp() above 80 decides the answer (6.7 V)
 The runs are killed after TIMEOUT_S seconds: 'reverse_midpoint gmin=0' guards a Newton solve
 that must end (polishing past newton_iters has to be bounded), and a killed run fails.
@@ -673,9 +672,9 @@ def latch_verify(guesses, stable_names):
                    for k, v in q.items()):
                 which = n
         check(f"{label}: stagesim's point is the reference solution '{which}'", which is not None)
-        # KNOWN-FAILING: stagesim lands on the unstable balanced point (every junction starts
-        # at the same critical voltage, so the first iterate is balanced and Newton stays
-        # there); a latch must be reported in one of its stable states.
+        # REGRESSION GUARD: every junction starts at the same critical voltage, so Newton's
+        # first answer is the unstable balanced point; stagesim must detect it (determinant
+        # sign) and move to one of the stable states.
         check(f"{label}: stagesim's point is a STABLE state ({' or '.join(stable_names)})",
               which in stable_names, f"got '{which}', regions {regions_from_report(so)}")
         if which is not None:
@@ -737,10 +736,9 @@ def resistance_spread(label, rc, so, se, op, out, path, sets):
     for q, want in (("v(m)", vm), ("v(t)", vtap)):
         check(f"{label}: {q} {op.get(q)!r} = {want:.15g} within the convergence tolerance "
               "tol_rel |v| + tol_v (docs/netlist.md, .options)", close(op.get(q), want, 1e-3, 1e-6))
-        # KNOWN-FAILING: off by 2.4e-5 relative. The 1e-12 S of RTAP is added into the 1e3 S
-        # diagonal of node t and keeps only ~9 ulps; every Newton iterate is a fresh solve of
-        # the assembled matrix, so the polishing cannot recover it (a correction-form step
-        # with the element-by-element residual of the Kirchhoff check would).
+        # REGRESSION GUARD: the 1e-12 S of RTAP added into the 1e3 S diagonal of node t keeps
+        # only ~9 ulps; stagesim's refinement step on the element-by-element residual must
+        # recover full precision.
         check(f"{label}: {q} {op.get(q)!r} = {want:.15g} to rel 1e-9 (polished 'to full "
               "precision', docs/models.md section 7)", close(op.get(q), want, 1e-9, 0.0))
     vt = K_BOLTZMANN * (27.0 + ZERO_C_K) / Q_ELECTRON
@@ -875,8 +873,8 @@ def tiny_is_extreme(label, rc, so, se, op, out, path, sets):
     """Shockley closed form with the exact exponential (brentq)."""
     vt = K_BOLTZMANN * (27.0 + ZERO_C_K) / Q_ELECTRON
     v = brentq(lambda u: 1e-3 - u / 1e6 - 1e-40 * math.expm1(u / vt) - GMIN * u, 1.0, 3.0, xtol=1e-15)
-    # KNOWN-FAILING: stagesim converges on the linear continuation of the exponential above an
-    # argument of 80 and reports about 6.7 V with no warning.
+    # REGRESSION GUARD: with the exponent cap at 80 stagesim converged on the linear
+    # continuation and reported about 6.7 V with no warning (the cap is now 200).
     check(f"{label}: v(k) = Shockley {v:.9g} V (abs 1e-6 V), or exit 3 saying the junction is "
           "outside the model's range", (rc == 0 and close(op.get("v(k)"), v, 0.0, 1e-6)) or rc == 3,
           f"exit {rc}, v(k) = {op.get('v(k)')!r}")
