@@ -78,8 +78,9 @@ typedef struct ss_analysis_flags {
     int dc;    /* .dc */
     int ac;    /* .ac */
     int stage; /* .stage, or a stage named with ss_circuit_set_stage */
-    int tran;  /* .tran (parsed; not computed in this version) */
+    int tran;  /* .tran */
     int noise; /* .noise, or a noise analysis named with ss_circuit_set_noise */
+    int large_signal; /* .large_signal, or ss_circuit_set_large_signal */
 } ss_analysis_flags;
 SS_API void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *out_flags);
 
@@ -160,6 +161,71 @@ SS_API ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node,
  * SS_ERR_NO_CONVERGENCE, SS_ERR_NOMEM, SS_ERR_LIMIT. */
 SS_API ss_status ss_noise_run(ss_circuit *ckt, ss_table **out_noise, ss_table **out_summary,
                               ss_table **out_contrib, ss_error *err);
+
+/* ---- transient and the stage's large-signal figures (docs/transient.md) ------------------ */
+
+/* Transient analysis of the netlist's .tran TSTEP TSTOP [TSTART]: from the operating point
+ * with every time-varying source (SIN, PULSE, PWL) at its t = 0 value, trapezoidal
+ * integration of the devices' charges (.options tran_method=gear2: second-order backward
+ * differences) with local-truncation-error step control; the steps land exactly on every
+ * output time TSTART + k TSTEP (no interpolation) and on every source corner.
+ * Output: *out_tran (tran.csv: time_s, then v(NODE) per node), owned by the caller, written on
+ * success only. Returns SS_OK, SS_ERR_INPUT (no .tran), SS_ERR_NO_CONVERGENCE (no operating
+ * point at t = 0, or the step fell below its floor: the message names the time and the node),
+ * SS_ERR_SINGULAR, SS_ERR_NOMEM, SS_ERR_LIMIT. */
+SS_API ss_status ss_tran_run(ss_circuit *ckt, ss_table **out_tran, ss_error *err);
+
+/* Sets the stage's large-signal test (overrides a .large_signal line): the signal frequency
+ * (<= 0: keep; default 1 kHz), the input amplitude thd_pct is computed at (V for a voltage
+ * source, A for a current source; <= 0: keep; none by default) and the THD in percent whose
+ * input amplitude is searched for (<= 0: keep; default 1 %). Returns SS_OK or SS_ERR_INPUT. */
+SS_API ss_status ss_circuit_set_large_signal(ss_circuit *ckt, double freq_hz, double amplitude,
+                                             double thd_target_pct, ss_error *err);
+
+/* THD of the stage: its source driven by amplitude * sin(2 pi freq_hz t) around its DC value
+ * (every other source at its DC value), run until the output repeats from one period to the
+ * next, then the first 10 harmonics of v(out) from a DFT over one whole period sampled at 256
+ * points; THD = sqrt(A2^2 + ... + A10^2) / A1, in percent.
+ * Outputs (owned by the caller, written on success only; each may be NULL if not wanted):
+ *   out_thd_pct   the THD in percent
+ *   out_harmonics harmonic, freq_hz, amplitude_v, relative_pct (of A1), phase_deg (of a sine)
+ *   out_wave      time_s, in(SOURCE) (its value: V or A), v(OUT): the last 3 periods
+ * Returns SS_OK, SS_ERR_INPUT (no stage, amplitude or frequency not positive),
+ * SS_ERR_NO_CONVERGENCE, SS_ERR_SINGULAR, SS_ERR_NOMEM. */
+SS_API ss_status ss_stage_thd(ss_circuit *ckt, double amplitude, double freq_hz,
+                              double *out_thd_pct, ss_table **out_harmonics, ss_table **out_wave,
+                              ss_error *err);
+
+/* The input amplitude at which the stage's THD at freq_hz reaches thd_target_pct (bracketing,
+ * then regula falsi on log amplitude against log THD, to 0.1 % of the target). Returns SS_OK,
+ * SS_ERR_INPUT, SS_ERR_NO_CONVERGENCE (also: the target is not reached below clipping),
+ * SS_ERR_SINGULAR, SS_ERR_NOMEM. */
+SS_API ss_status ss_stage_amplitude_at_thd(ss_circuit *ckt, double thd_target_pct,
+                                           double freq_hz, double *out_amplitude, ss_error *err);
+
+/* Output swing at the onset of clipping, both polarities: from the stage's quasi-static
+ * transfer (its source's DC value swept with every capacitor the signal frequency sees as a
+ * short held at its operating-point voltage), the output excursion from the bias where the
+ * slope dV(out)/dV(in) has fallen to 90 % of its value at the bias; then confirmed by a
+ * transient at the signal frequency with the input amplitude of each onset.
+ * Output *out_summary (metric,value): ls_freq_hz, qs_gain, swing_pos_v, swing_neg_v,
+ * vin_at_swing_pos_v, vin_at_swing_neg_v (iin_..._a for a current source), swing_pos_tran_v,
+ * swing_neg_tran_v; a polarity that does not clip within four times the largest node voltage
+ * is written empty. Returns as ss_stage_thd. */
+SS_API ss_status ss_stage_clipping(ss_circuit *ckt, ss_table **out_summary, ss_error *err);
+
+/* Every large-signal figure in one metric,value table: ss_stage_clipping's rows, then thd_pct
+ * (at the .large_signal amplitude; empty without one), thd_target_pct and vin_at_thd_v
+ * (iin_at_thd_a for a current source). Returns as ss_stage_thd. */
+SS_API ss_status ss_stage_large_signal(ss_circuit *ckt, ss_table **out_summary, ss_error *err);
+
+/* Writes a waveform plot (input above, output below, over a shared time axis) from a table
+ * whose first column is time_s: in_col and out_col name its columns (NULL: "in(SOURCE)" or
+ * else v(+ node of the stage source), and v(OUT) of the stage). Atomic. Returns SS_OK,
+ * SS_ERR_INPUT (no such column, fewer than 2 points), SS_ERR_IO, SS_ERR_NOMEM. */
+SS_API ss_status ss_plot_write_wave(const ss_circuit *ckt, const ss_table *wave,
+                                    const char *in_col, const char *out_col, const char *path,
+                                    ss_error *err);
 
 /* Writes bode.svg-style plot (gain and phase over log frequency, corners marked) from the
  * tables of ss_stage_run, atomically. Returns SS_OK, SS_ERR_INPUT (fewer than 2 points),

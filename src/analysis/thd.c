@@ -10,7 +10,7 @@
 #include "analysis/tran.h"
 #include "devices/wave.h"
 
-#define LS_FREQ_DEFAULT_HZ 1000.0    /* signal frequency when none is named */
+#define LS_FREQ_DEFAULT_HZ 1000.0     /* signal frequency when none is named */
 #define LS_THD_TARGET_DEFAULT_PCT 1.0 /* THD whose input amplitude is searched by default */
 #define THD_HARMONICS 10
 #define THD_STEPS_PER_PERIOD 256 /* a multiple of 4: the sine's peaks fall on samples */
@@ -28,15 +28,15 @@
 #define THD_NEWTON_TOL_REL 1e-9
 #define THD_NEWTON_TOL_V 1e-10
 
-#define CLIP_GAIN_RATIO 0.9   /* onset of clipping: the slope falls to 90 % of its bias value */
-#define CLIP_STEPS 100        /* march steps per (largest node voltage / |gain|) of input */
-#define CLIP_RANGE 4.0        /* search up to 4 x (largest node voltage) of output */
-#define CLIP_BISECT_REL 1e-7  /* bracket of the onset, relative to its input excursion */
-#define CLASS_TOL 0.05        /* a capacitor is a short (or open) if that moves |gain| <= 5 % */
-#define CLASS_SCALE 1e6       /* short: C x 1e6; open: C / 1e6 (inductors the other way) */
-#define FROZEN_G_S 1e3        /* a held capacitor: 1 mOhm to its operating-point voltage */
-#define FROZEN_R_OHM 1e9      /* a held inductor: its current through 1 GOhm of compliance */
-#define QS_GAIN_WARN 0.10     /* warn when the transfer's slope and the AC gain differ by 10 % */
+#define CLIP_GAIN_RATIO 0.9  /* onset of clipping: the slope falls to 90 % of its bias value */
+#define CLIP_STEPS 100       /* march steps per (largest node voltage / |gain|) of input */
+#define CLIP_RANGE 4.0       /* search up to 4 x (largest node voltage) of output */
+#define CLIP_BISECT_REL 1e-7 /* bracket of the onset, relative to its input excursion */
+#define CLASS_TOL 0.05       /* a capacitor is a short (or open) if that moves |gain| <= 5 % */
+#define CLASS_SCALE 1e6      /* short: C x 1e6; open: C / 1e6 (inductors the other way) */
+#define FROZEN_G_S 1e3       /* a held capacitor: 1 mOhm to its operating-point voltage */
+#define FROZEN_R_OHM 1e9     /* a held inductor: its current through 1 GOhm of compliance */
+#define QS_GAIN_WARN 0.10    /* warn when the transfer's slope and the AC gain differ by 10 % */
 
 #define THD_TARGET_REL 1e-3 /* vin_at_thd: |THD / target - 1| */
 #define THD_SEARCH_MAX 40
@@ -137,11 +137,11 @@ typedef struct thd_run {
 } thd_run;
 
 typedef struct thd_sink {
-    int n;              /* samples per period */
-    int out_u;          /* unknown of the output node */
-    double *cur, *prev; /* this period's samples and the last complete period's */
+    int n;                     /* samples per period */
+    int out_u;                 /* unknown of the output node */
+    double *cur, *prev;        /* this period's samples and the last complete period's */
     double *ring_t, *ring_out; /* the last THD_WAVE_PERIODS periods (NULL: not kept) */
-    long periods;       /* complete periods */
+    long periods;              /* complete periods */
     int settled;
     int settled_run;   /* consecutive settled periods */
     double last_delta; /* the previous period's delta */
@@ -227,17 +227,17 @@ static ss_status thd_measure(ss_circuit *ckt, const stage_ref *sr, thd_run *r, i
     sine.p[WS_VA] = r->amp;
     sine.p[WS_FREQ] = r->freq_hz;
     sr->src->wave = &sine;
-    tran_cfg cfg = {period / n,
-                    THD_MAX_PERIODS * period,
-                    0.0,
-                    period / n,
-                    ckt->tran_method == 1 ? TRAN_GEAR2 : TRAN_TRAP,
-                    ckt->tran_tol_rel,
-                    ckt->tran_tol_v,
-                    THD_NEWTON_TOL_REL,
-                    THD_NEWTON_TOL_V,
-                    thd_point,
-                    &s};
+    tran_cfg cfg = {.tstep_s = period / n,
+                    .tstop_s = THD_MAX_PERIODS * period,
+                    .tstart_s = 0.0,
+                    .hmax_s = period / n,
+                    .method = ckt->tran_method == 1 ? TRAN_GEAR2 : TRAN_TRAP,
+                    .tol_rel = ckt->tran_tol_rel,
+                    .tol_v = ckt->tran_tol_v,
+                    .newton_tol_rel = THD_NEWTON_TOL_REL,
+                    .newton_tol_v = THD_NEWTON_TOL_V,
+                    .on_point = thd_point,
+                    .ctx = &s};
     ss_status st = tran_run(ckt, &cfg, NULL, err);
     for (int i = 0; i < ckt->n_elem; i++)
         ckt->elem[i].wave = saved_wave[i];
@@ -412,7 +412,7 @@ static ss_status qs_classify(qs_ctx *c, double freq_hz, double *gain_ac, ss_erro
         return st;
     *gain_ac = g_nom;
     double q[2];
-    dev_tran_ctx tc = {NULL, NULL, ckt->x_op, analysis_vt(ckt), 0.0, NULL, q};
+    dev_tran_ctx tc = {.G = NULL, .x = ckt->x_op, .vt_v = analysis_vt(ckt), .q = q};
     for (int i = 0; i < ckt->n_elem && st == SS_OK; i++) {
         element *e = &ckt->elem[i];
         char l = e->ops->letter;
@@ -456,11 +456,18 @@ static void qs_load(qs_ctx *c, const double *x, enum load_mode mode, int *limite
     memset(G, 0, (size_t)mna_nnz(m) * sizeof *G);
     memset(ckt->work_rhs, 0, (size_t)ckt->n_unknowns * sizeof *ckt->work_rhs);
     double vt = analysis_vt(ckt);
-    dev_load_ctx lc = {G, ckt->work_rhs, x, ckt->opt.gmin, 1.0, vt, mode, 0, ckt->elem};
+    dev_load_ctx lc = {.G = G,
+                       .rhs = ckt->work_rhs,
+                       .x = x,
+                       .gmin_s = ckt->opt.gmin,
+                       .src_scale = 1.0,
+                       .vt_v = vt,
+                       .mode = mode,
+                       .ckt_elem = ckt->elem};
     for (int i = 0; i < ckt->n_elem; i++)
         ckt->elem[i].ops->load_dc(&ckt->elem[i], &lc);
     double q[2];
-    dev_tran_ctx tc = {G, ckt->work_rhs, x, vt, 0.0, NULL, q};
+    dev_tran_ctx tc = {.G = G, .rhs = ckt->work_rhs, .x = x, .vt_v = vt, .q = q};
     for (int i = 0; i < ckt->n_elem; i++) {
         if (c->a0[i] == 0.0)
             continue;
@@ -609,8 +616,8 @@ static ss_status clip_search(qs_ctx *c, double dir, double g0, double v_scale, d
 
 typedef struct clip_result {
     double freq_hz, qs_gain, gain_ac;
-    double swing_pos, swing_neg;     /* output, V (NaN: none found) */
-    double in_pos, in_neg;           /* input amplitude at each onset (NaN: none) */
+    double swing_pos, swing_neg; /* output, V (NaN: none found) */
+    double in_pos, in_neg;       /* input amplitude at each onset (NaN: none) */
     double swing_pos_tran, swing_neg_tran;
 } clip_result;
 
@@ -645,8 +652,9 @@ static ss_status clipping_compute(ss_circuit *ckt, const stage_ref *sr, clip_res
     memcpy(c.x, ckt->x_op, (size_t)n * sizeof *c.x);
     double g0 = 0.0;
     if ((st = qs_slope(&c, &g0)) != SS_OK) {
-        st = err_set(err, st, ckt->file, 0, "large signal: the transfer's slope at the bias "
-                                            "cannot be solved");
+        st = err_set(err, st, ckt->file, 0,
+                     "large signal: the transfer's slope at the bias "
+                     "cannot be solved");
         goto done;
     }
     res->qs_gain = g0;
@@ -693,8 +701,8 @@ static ss_status clipping_compute(ss_circuit *ckt, const stage_ref *sr, clip_res
                      "excursion; that swing is left empty",
                      ckt->stage_out,
                      isnan(res->swing_pos) && isnan(res->swing_neg) ? "either way"
-                     : isnan(res->swing_pos)                       ? "upwards"
-                                                                   : "downwards",
+                     : isnan(res->swing_pos)                        ? "upwards"
+                                                                    : "downwards",
                      CLIP_RANGE * v_scale / fabs(g0));
     /* confirmation in the transient: the periodic output's peak at each onset amplitude */
     for (int d = 0; d < 2 && st == SS_OK; d++) {
@@ -880,8 +888,8 @@ static int add_metric(ss_table *t, const char *label, double v)
     return 0;
 }
 
-static ss_status clipping_rows(ss_circuit *ckt, const stage_ref *sr, ss_table *t,
-                               clip_result *res, ss_error *err)
+static ss_status clipping_rows(ss_circuit *ckt, const stage_ref *sr, ss_table *t, clip_result *res,
+                               ss_error *err)
 {
     ss_status st = clipping_compute(ckt, sr, res, err);
     if (st != SS_OK)

@@ -10,7 +10,7 @@
  * interrupted run leaves the old file or none. */
 SS_HIDDEN ss_status output_write_atomic(const char *path, const char *data, size_t len,
                                         ss_error *err);
-/* Shortest text that reads back as the same double (%.15g, else %.17g); "" for NaN. */
+/* Shortest text that reads back as the same double (fmt_double.h); "" for NaN. */
 SS_HIDDEN int output_format_double(char *buf, size_t len, double v);
 
 #endif

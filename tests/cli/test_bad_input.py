@@ -270,9 +270,12 @@ bad("line with more than 4096 fields", 2, F + ":3: line has more than 4096 field
     "many fields", "V1 in 0 5", "R1 in 0 1k" + " x" * 5000)
 bad("line longer than 1 MiB", 2, F + ":3: line longer than 1048576 bytes",
     "long line", "V1 in 0 5", "* " + "y" * (1 << 20))
-bad("time-varying source form", 2,
-    F + ":2: v1: time-varying source form 'sin(0 1 1k)' is not supported in this version",
-    "sin", "V1 in 0 sin(0 1 1k)", "R1 in 0 1k")
+bad("unknown time-varying source form", 2,
+    F + ":2: v1: unknown source form 'exp(0 1 1k)' (known: sin, pulse, pwl)",
+    "exp", "V1 in 0 exp(0 1 1k)", "R1 in 0 1k")
+bad("source form with too few values", 2,
+    F + ":2: v1: sin(VO VA FREQ [TD [THETA [PHASE]]]) takes 3 to 6 values, got 2",
+    "sin", "V1 in 0 sin(0 1)", "R1 in 0 1k")
 bad(".temp below absolute zero", 2, F + ":4: .temp -300 C is outside -273.15 .. 1000 C",
     "temp", "V1 in 0 5", "R1 in 0 1k", ".temp -300")
 bad(".stage naming a missing source", 2,
@@ -347,7 +350,7 @@ bad(".ac stop below start", 2, F + ":4: .ac: stop frequency 1 Hz is below start 
     "ac", "V1 a 0 5", "R1 a 0 1k", ".ac dec 10 1meg 1")
 bad("unknown .options name", 2,
     F + ":4: .options: unknown option 'reltol' (known: tol_rel, tol_v, tol_i, gmin, "
-    "newton_iters)",
+    "newton_iters, tran_method, tran_tol_rel, tran_tol_v)",
     "options", "V1 a 0 5", "R1 a 0 1k", ".options reltol=1e-3")
 bad(".options value out of range", 2, F + ":4: .options: tol_rel = 2 is out of range",
     "options", "V1 a 0 5", "R1 a 0 1k", ".options tol_rel=2")
