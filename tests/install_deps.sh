@@ -3,7 +3,8 @@
 # Skips apt entirely when everything is already there; uses sudo when not run as root.
 set -euo pipefail
 PKGS=(build-essential cmake libsuitesparse-dev libcmocka-dev python3 python3-numpy python3-scipy)
-[ "${1:-}" = "--with-tools" ] && PKGS+=(valgrind clang)
+# the test suite also runs the examples under valgrind and shards a run with GNU parallel
+[ "${1:-}" = "--with-tools" ] && PKGS+=(valgrind parallel clang)
 missing=()
 for p in "${PKGS[@]}"; do
     dpkg -s "$p" >/dev/null 2>&1 || missing+=("$p")

@@ -3,7 +3,7 @@
 # behaviour sanitizers) and runs the whole test suite in both. Exit status: 0 all green.
 set -euo pipefail
 cd "$(dirname "$0")/.."
-bash tests/install_deps.sh
+bash tests/install_deps.sh --with-tools
 JOBS=$(nproc 2>/dev/null || echo 2)
 
 echo "== build: release =="

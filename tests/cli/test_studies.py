@@ -17,6 +17,7 @@ Sources of the expected values:
 import csv
 import math
 import os
+import shutil
 import subprocess
 import sys
 import tempfile
@@ -159,6 +160,20 @@ r = run(["merge", "-o", merged, "-q"] + shard_files)
 with open(os.path.join(mc, "study.csv"), "rb") as a, open(os.path.join(merged, "study.csv"), "rb") as b:
     check("merge: three shards give exactly the unsharded CSV", r.returncode == 0 and a.read() == b.read(),
           r.stderr.strip())
+# the same shards run by GNU parallel (Debian package `parallel`), as a cluster would
+if shutil.which("parallel"):
+    pdir = os.path.join(tmp, "par")
+    cmd = " ".join([STAGESIM] + args + ["--shard", "{}/4", "-o", pdir + "/s{}", "-q"])
+    r = subprocess.run(["parallel", "--will-cite", "-j", "2", cmd, ":::", "1", "2", "3", "4"],
+                       capture_output=True, text=True, timeout=300)
+    r2 = run(["merge", "-o", os.path.join(pdir, "all"), "-q"]
+             + [os.path.join(pdir, f"s{k}", "study.csv") for k in (1, 2, 3, 4)])
+    with open(os.path.join(mc, "study.csv"), "rb") as a, \
+            open(os.path.join(pdir, "all", "study.csv"), "rb") as b:
+        check("GNU parallel: 4 shards merged give exactly the unsharded CSV",
+              r.returncode == 0 and r2.returncode == 0 and a.read() == b.read(), r.stderr[-300:])
+else:
+    print("skip GNU parallel sharding: `parallel` is not installed")
 r = run(["merge", "-o", merged, shard_files[0], shard_files[2]])
 check("merge: a missing shard is an error naming the point", r.returncode == 2
       and "missing" in r.stderr, r.stderr.strip())
