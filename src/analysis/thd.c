@@ -88,6 +88,18 @@ ss_status ss_circuit_set_large_signal(ss_circuit *ckt, double freq_hz, double am
     return SS_OK;
 }
 
+void ss_circuit_large_signal(const ss_circuit *ckt, double *freq_hz, double *amplitude,
+                             double *thd_target_pct)
+{
+    if (freq_hz)
+        *freq_hz = ls_freq(ckt);
+    if (amplitude)
+        *amplitude = ckt->ls_amp > 0.0 ? ckt->ls_amp : 0.0;
+    if (thd_target_pct)
+        *thd_target_pct =
+            ckt->ls_thd_target_pct > 0.0 ? ckt->ls_thd_target_pct : LS_THD_TARGET_DEFAULT_PCT;
+}
+
 /* ---- harmonic analysis ------------------------------------------------------------------- */
 
 /* Amplitudes and sine phases of harmonics 1..n_harm of one period sampled at n uniform points

@@ -22,6 +22,12 @@ int circuit_find_elem(const struct ss_circuit *ckt, const char *name)
 
 int circuit_add_node(struct ss_circuit *ckt, const char *name, int internal)
 {
+    char *copy = arena_strdup(&ckt->arena, name);
+    return copy ? circuit_add_node_borrowed(ckt, copy, internal) : -1;
+}
+
+int circuit_add_node_borrowed(struct ss_circuit *ckt, const char *copy, int internal)
+{
     if (ckt->n_nodes == ckt->cap_nodes) {
         int ncap = ckt->cap_nodes ? ckt->cap_nodes * 2 : 64;
         const char **nn = ss_realloc(ckt->node_name, (size_t)ncap * sizeof *nn);
@@ -34,9 +40,6 @@ int circuit_add_node(struct ss_circuit *ckt, const char *name, int internal)
         ckt->node_internal = ni;
         ckt->cap_nodes = ncap;
     }
-    char *copy = arena_strdup(&ckt->arena, name);
-    if (!copy)
-        return -1;
     int idx = ckt->n_nodes;
     if (strmap_put(&ckt->node_map, copy, idx) != 0)
         return -1;

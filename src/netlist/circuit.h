@@ -171,6 +171,8 @@ SS_HIDDEN int circuit_find_node(const struct ss_circuit *ckt, const char *name);
 SS_HIDDEN int circuit_find_elem(const struct ss_circuit *ckt, const char *name);
 /* Adds a node (name copied to the arena); returns its index or -1 on allocation failure. */
 SS_HIDDEN int circuit_add_node(struct ss_circuit *ckt, const char *name, int internal);
+/* The same with a name that already lives in the circuit's arena (not copied). */
+SS_HIDDEN int circuit_add_node_borrowed(struct ss_circuit *ckt, const char *name, int internal);
 /* Name of an MNA unknown for messages: "node 'vb'" or "branch current of 'v1'". */
 SS_HIDDEN void circuit_unknown_name(const struct ss_circuit *ckt, int unknown, char *buf,
                                     size_t len);

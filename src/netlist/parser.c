@@ -661,13 +661,18 @@ int pctx_node(pctx *p, const char *tok)
     for (int i = 0; i < p->sc->n_ports; i++)
         if (strcmp(p->sc->port_names[i], tok) == 0)
             return p->sc->port_nodes[i];
-    char name[SCOPED_NAME_BYTES];
-    if (scoped_name(p->ps, p->ll, p->ll->tok[0], name, p->sc->prefix, tok, "") != 0)
-        return -1;
+    char buf[SCOPED_NAME_BYTES];
+    const char *name = tok; /* top level: the arena token itself */
+    if (p->sc->prefix[0]) {
+        if (scoped_name(p->ps, p->ll, p->ll->tok[0], buf, p->sc->prefix, tok, "") != 0)
+            return -1;
+        name = buf;
+    }
     int idx = circuit_find_node(p->ps->ckt, name);
     if (idx >= 0)
         return idx;
-    idx = circuit_add_node(p->ps->ckt, name, 0);
+    idx = name == tok ? circuit_add_node_borrowed(p->ps->ckt, tok, 0)
+                      : circuit_add_node(p->ps->ckt, name, 0);
     if (idx < 0)
         nomem(p->ps);
     return idx;
@@ -990,9 +995,14 @@ static ss_status add_element(parser *ps, const logline *ll, const scope *sc)
     if (ckt->n_elem >= NETLIST_MAX_ELEMENTS)
         return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
                        "more than %d elements", NETLIST_MAX_ELEMENTS);
-    char name[SCOPED_NAME_BYTES];
-    if (scoped_name(ps, ll, tok0, name, sc->prefix, tok0, "") != 0)
-        return SS_ERR_LIMIT;
+    /* at the top level the token itself (already lower case, in the arena) is the name */
+    char buf[SCOPED_NAME_BYTES];
+    const char *name = tok0;
+    if (sc->prefix[0]) {
+        if (scoped_name(ps, ll, tok0, buf, sc->prefix, tok0, "") != 0)
+            return SS_ERR_LIMIT;
+        name = buf;
+    }
     int dup;
     if (strmap_get(&ckt->elem_map, name, &dup))
         return line_error(ps, ll, "%s: element name used twice (first at %s:%d)", name,
@@ -1008,7 +1018,7 @@ static ss_status add_element(parser *ps, const logline *ll, const scope *sc)
     element *e = &ckt->elem[ckt->n_elem];
     memset(e, 0, sizeof *e);
     e->ops = ops;
-    e->name = arena_strdup(&ckt->arena, name);
+    e->name = name == tok0 ? tok0 : arena_strdup(&ckt->arena, name);
     if (!e->name)
         return nomem(ps);
     e->file = ll->file;

@@ -12,6 +12,27 @@ struct ss_arena_block {
 
 #define ARENA_BLOCK_MIN 65536u
 
+/* Under AddressSanitizer every allocation is followed by a poisoned red zone, so an overflow
+ * from one arena object into the next is reported like a heap overflow (the fuzz and sanitizer
+ * builds); otherwise the red zone is empty and nothing changes. */
+#if defined(__SANITIZE_ADDRESS__)
+#define ARENA_ASAN 1
+#elif defined(__has_feature)
+#if __has_feature(address_sanitizer)
+#define ARENA_ASAN 1
+#endif
+#endif
+#ifdef ARENA_ASAN
+#include <sanitizer/asan_interface.h>
+#define ARENA_REDZONE 16u
+#define ARENA_POISON(p, n) ASAN_POISON_MEMORY_REGION((p), (n))
+#define ARENA_UNPOISON(p, n) ASAN_UNPOISON_MEMORY_REGION((p), (n))
+#else
+#define ARENA_REDZONE 0u
+#define ARENA_POISON(p, n) ((void)(p), (void)(n))
+#define ARENA_UNPOISON(p, n) ((void)(p), (void)(n))
+#endif
+
 void *arena_alloc(ss_arena *a, size_t size)
 {
     void *p = arena_alloc_raw(a, size, 16);
@@ -24,11 +45,13 @@ void *arena_alloc_raw(ss_arena *a, size_t size, size_t align)
 {
     ss_arena_block *b = a->head;
     size_t start = b ? (b->used + align - 1) & ~(align - 1) : 0;
-    if (!b || start + size > b->cap) {
-        size_t cap = size > ARENA_BLOCK_MIN ? size : ARENA_BLOCK_MIN;
+    if (!b || start + size + ARENA_REDZONE > b->cap) {
+        size_t cap = size + ARENA_REDZONE > ARENA_BLOCK_MIN ? size + ARENA_REDZONE
+                                                             : ARENA_BLOCK_MIN;
         ss_arena_block *nb = ss_alloc(sizeof *nb + cap);
         if (!nb)
             return NULL;
+        ARENA_POISON(nb->data, cap);
         nb->cap = cap;
         nb->next = a->head;
         a->head = nb;
@@ -36,7 +59,8 @@ void *arena_alloc_raw(ss_arena *a, size_t size, size_t align)
         start = 0; /* data[] is 16-byte aligned */
     }
     void *p = b->data + start;
-    b->used = start + size;
+    b->used = start + size + ARENA_REDZONE;
+    ARENA_UNPOISON(p, size);
     return p;
 }
 
@@ -57,6 +81,7 @@ void arena_clear(ss_arena *a)
     ss_arena_block *b = a->head;
     while (b) {
         ss_arena_block *next = b->next;
+        ARENA_UNPOISON(b->data, b->cap);
         ss_free(b);
         b = next;
     }
