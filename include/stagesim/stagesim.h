@@ -181,6 +181,10 @@ SS_API ss_status ss_tran_run(ss_circuit *ckt, ss_table **out_tran, ss_error *err
  * input amplitude is searched for (<= 0: keep; default 1 %). Returns SS_OK or SS_ERR_INPUT. */
 SS_API ss_status ss_circuit_set_large_signal(ss_circuit *ckt, double freq_hz, double amplitude,
                                              double thd_target_pct, ss_error *err);
+/* The large-signal test in force, defaults applied: frequency (Hz), amplitude (0 when none is
+ * named) and THD target (percent). Any output may be NULL. */
+SS_API void ss_circuit_large_signal(const ss_circuit *ckt, double *freq_hz, double *amplitude,
+                                    double *thd_target_pct);
 
 /* THD of the stage: its source driven by amplitude * sin(2 pi freq_hz t) around its DC value
  * (every other source at its DC value), run until the output repeats from one period to the

@@ -13,6 +13,7 @@
 #include "stagesim/stagesim.h"
 
 enum { EXIT_OK = 0, EXIT_CHECK_FAILED = 1, EXIT_BAD_INPUT = 2, EXIT_NO_CONVERGENCE = 3 };
+#define SS_NAN_CLI ((double)NAN)
 
 static const char USAGE[] =
     "usage: stagesim run NETLIST [options]          operating point, sweeps, stage figures\n"
@@ -32,7 +33,8 @@ static const char USAGE[] =
     "                    (qgen.bf=250); repeatable\n"
     "  --in SRC --out NODE   the stage's source and output node (override .stage)\n"
     "  --load OHMS       the load the stage drives, for the Zout check\n"
-    "  --plot            (run) also write bode.svg\n"
+    "  --plot            (run) also write bode.svg (and wave.svg, thd_wave.svg)\n"
+    "  --ls-freq F --thd-amp A --thd-target PCT   (run) the large-signal test\n"
     "  --quiet           no report on stdout\n"
     "  --limits FILE     (sweep, spread, merge) limits for pass fractions and yield\n"
     "  --min-yield F     (sweep, spread) exit 1 when the yield is below F (0..1)\n"
@@ -90,6 +92,7 @@ typedef struct cli_args {
     double min_yield;
     int series;
     double temp_lo, temp_hi;
+    double ls_freq, thd_amp, thd_target;
 } cli_args;
 
 /* mkdir -p: creates DIR and any missing parents. */
@@ -225,8 +228,62 @@ static int cmd_run(const cli_args *a)
             goto done;
         }
     }
-    if (fl.tran)
-        fprintf(stderr, "stagesim: warning: .tran is not computed in this version\n");
+    if (fl.tran) {
+        ss_table *tran = NULL;
+        int bad = ss_tran_run(ckt, &tran, &err) != SS_OK ||
+                  write_table(tran, a->out_dir, "tran.csv", &err) != 0;
+        if (!bad && a->plot && fl.stage) {
+            char path[4096];
+            snprintf(path, sizeof path, "%s/wave.svg", a->out_dir);
+            bad = ss_plot_write_wave(ckt, tran, NULL, NULL, path, &err) != SS_OK;
+        }
+        ss_table_destroy(&tran);
+        if (bad) {
+            rc = fail(&err);
+            goto done;
+        }
+    }
+    if (fl.large_signal && fl.stage) {
+        if (a->ls_freq > 0.0 || a->thd_amp > 0.0 || a->thd_target > 0.0)
+            ss_circuit_set_large_signal(ckt, a->ls_freq, a->thd_amp, a->thd_target, &err);
+        ss_table *ls = NULL, *harm = NULL, *wave = NULL;
+        int bad = ss_stage_large_signal(ckt, &ls, &err) != SS_OK ||
+                  write_table(ls, a->out_dir, "large_signal.csv", &err) != 0;
+        double f_hz, amp, target;
+        ss_circuit_large_signal(ckt, &f_hz, &amp, &target);
+        double thd = SS_NAN_CLI;
+        if (!bad && amp > 0.0) {
+            bad = ss_stage_thd(ckt, amp, f_hz, &thd, &harm, &wave, &err) != SS_OK ||
+                  write_table(harm, a->out_dir, "harmonics.csv", &err) != 0;
+            if (!bad && a->plot) {
+                char path[4096];
+                snprintf(path, sizeof path, "%s/thd_wave.svg", a->out_dir);
+                bad = ss_plot_write_wave(ckt, wave, NULL, NULL, path, &err) != SS_OK;
+            }
+        }
+        if (!bad && !a->quiet) {
+            printf("\nLarge signal at %.4g Hz\n", f_hz);
+            const char *rows[][2] = {{"swing_pos_v", "output swing before clipping, +"},
+                                     {"swing_neg_v", "output swing before clipping, -"},
+                                     {"thd_pct", "THD at the test amplitude (%)"},
+                                     {"vin_at_thd_v", "input amplitude for the THD target"},
+                                     {"iin_at_thd_a", "input amplitude for the THD target"}};
+            for (size_t k = 0; k < sizeof rows / sizeof rows[0]; k++) {
+                double v = ss_table_lookup(ls, rows[k][0], 0);
+                if (!isnan(v))
+                    printf("  %-40s %.5g\n", rows[k][1], v);
+            }
+        }
+        ss_table_destroy(&ls);
+        ss_table_destroy(&harm);
+        ss_table_destroy(&wave);
+        if (bad) {
+            rc = fail(&err);
+            goto done;
+        }
+    } else if (fl.large_signal) {
+        fprintf(stderr, "stagesim: warning: .large_signal needs a stage; no large-signal figures\n");
+    }
     if (fl.noise) {
         ss_table *noise = NULL, *nsum = NULL, *ncon = NULL;
         int bad = ss_noise_run(ckt, &noise, &nsum, &ncon, &err) != SS_OK ||
@@ -631,7 +688,7 @@ static int parse_args(int argc, char **argv, cli_args *a)
         static const char *const with_value[] = {
             "-o",       "--out-dir", "--set",   "--in",     "--out",   "--load",   "--junit",
             "--limits", "--vary",    "--tol",   "--trials", "--seed",  "--threads", "--shard",
-            "--min-yield", "--series", "--temps"};
+            "--min-yield", "--series", "--temps", "--ls-freq", "--thd-amp", "--thd-target"};
         int takes = 0;
         for (size_t k = 0; k < sizeof with_value / sizeof with_value[0]; k++)
             takes |= strcmp(o, with_value[k]) == 0;
@@ -706,6 +763,18 @@ static int parse_args(int argc, char **argv, cli_args *a)
         } else if (strcmp(o, "--temps") == 0) {
             if (sscanf(next, "%lf,%lf", &a->temp_lo, &a->temp_hi) != 2)
                 return usage_error("--temps needs LO,HI in degrees C, got '%s'", next);
+        } else if (strcmp(o, "--ls-freq") == 0 || strcmp(o, "--thd-amp") == 0 ||
+                   strcmp(o, "--thd-target") == 0) {
+            char *end = NULL;
+            double v = strtod(next, &end);
+            if (!end || *end || !(v > 0.0))
+                return usage_error("%s needs a positive number", o);
+            if (o[2] == 'l')
+                a->ls_freq = v;
+            else if (strcmp(o, "--thd-amp") == 0)
+                a->thd_amp = v;
+            else
+                a->thd_target = v;
         } else if (strcmp(o, "--plot") == 0) {
             a->plot = 1;
         } else if (strcmp(o, "--quiet") == 0 || strcmp(o, "-q") == 0) {

@@ -1053,6 +1053,10 @@ static int collect_inst_param(parser *ps, const logline *ll, void *vctx, const c
         return line_error(ps, ll, "%s: subcircuit '%s' has no parameter '%s'", ll->tok[0],
                           ic->sd->name, name),
                -1;
+    /* each parameter once: the arrays hold one entry per parameter of the subcircuit */
+    for (int j = 0; j < ic->n; j++)
+        if (strcmp(ic->names[j], name) == 0)
+            return line_error(ps, ll, "%s: parameter '%s' given twice", ll->tok[0], name), -1;
     ic->names[ic->n] = name;
     ic->texts[ic->n] = text;
     ic->n++;

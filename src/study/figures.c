@@ -54,6 +54,29 @@ ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table 
             bad |= add_row(t, keep[k], ss_table_lookup(nsum, keep[k], 0)) != 0;
         ss_table_destroy(&nsum);
     }
+    /* large-signal figures cost transient runs (a second or more each): only when a limit
+     * names one, so tolerance runs do not pay for them unasked */
+    int want_ls = 0;
+    static const char *const ls_names[] = {"ls_freq_hz", "qs_gain", "swing_pos_v", "swing_neg_v",
+                                           "vin_at_swing_pos_v", "vin_at_swing_neg_v",
+                                           "swing_pos_tran_v", "swing_neg_tran_v", "thd_amp_v",
+                                           "thd_pct", "thd_target_pct", "vin_at_thd_v",
+                                           "iin_at_swing_pos_a", "iin_at_swing_neg_a",
+                                           "thd_amp_a", "iin_at_thd_a"};
+    for (int i = 0; limits && i < limits->n; i++)
+        for (size_t k = 0; k < sizeof ls_names / sizeof ls_names[0]; k++)
+            want_ls |= strcmp(limits->items[i].quantity, ls_names[k]) == 0;
+    if (!bad && want_ls && ckt->stage_in) {
+        ss_table *ls = NULL;
+        st = ss_stage_large_signal(ckt, &ls, err);
+        if (st != SS_OK) {
+            ss_table_destroy(&t);
+            return st;
+        }
+        for (int i = 0; !bad && i < ls->n_rows; i++)
+            bad |= add_row(t, ls->row_labels[i], ls->data[i]) != 0;
+        ss_table_destroy(&ls);
+    }
     for (int i = 0; !bad && limits && i < limits->n; i++) {
         const limit *lim = &limits->items[i];
         if (!lim->at_freq)

@@ -1,0 +1,222 @@
+/* Scale benchmark: generated circuits from 10 to 1,000,000 nodes (RC ladders, chains of BJT
+ * stages, arrays of amplifier channels on one supply). For each size, measured in the same run
+ * in a fresh child process: netlist parse time and rate, operating point time and Newton
+ * iterations, AC time per frequency point, peak memory, and the bare KLU work on the very same
+ * matrices (analyze, factor, refactor, solve; real and complex) -- the physical limit.
+ * Usage: bench_scale [MAX_NODES] [KIND...]   KIND: ladder chain array (default all).
+ * Prints a markdown table. */
+#define _POSIX_C_SOURCE 200809L
+#include <complex.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/resource.h>
+#include <sys/wait.h>
+#include <time.h>
+#include <unistd.h>
+
+#include <suitesparse/klu.h>
+
+#include "analysis/analysis.h"
+#include "stagesim/stagesim.h"
+
+static double now_s(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+typedef struct gen {
+    char *t;
+    size_t len, cap;
+} gen;
+
+static void put(gen *g, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void put(gen *g, const char *fmt, ...)
+{
+    va_list ap;
+    for (;;) {
+        va_start(ap, fmt);
+        int n = vsnprintf(g->t + g->len, g->cap - g->len, fmt, ap);
+        va_end(ap);
+        if ((size_t)n < g->cap - g->len) {
+            g->len += (size_t)n;
+            return;
+        }
+        g->cap = g->cap * 2 + 4096;
+        g->t = realloc(g->t, g->cap);
+    }
+}
+
+/* RC ladder: n sections, n + 1 nodes. */
+static void gen_ladder(gen *g, int nodes)
+{
+    int n = nodes - 1;
+    put(g, "rc ladder\nvin n0 0 dc 1 ac 1\n");
+    for (int i = 0; i < n; i++)
+        put(g, "r%d n%d n%d 100\nc%d n%d 0 1n\n", i, i, i + 1, i, i + 1);
+    put(g, ".ac dec 10 1k 100k\n");
+}
+
+/* A chain of AC-coupled common-emitter stages with unbypassed emitter resistors (gain about
+ * -1 each, so the signal neither dies nor overflows along the chain): 4 nodes per stage. */
+static void gen_chain(gen *g, int nodes)
+{
+    int stages = nodes / 4 > 0 ? nodes / 4 : 1;
+    put(g, "bjt chain\n.model qc npn is=1e-15 bf=150 vaf=80 cje=5p cjc=2p tf=0.3n\n"
+           "vcc vcc 0 12\nvin i0 0 dc 0 ac 1m\n");
+    for (int s = 0; s < stages; s++) {
+        put(g, "c%da i%d b%d 1u\nr%da vcc b%d 82k\nr%db b%d 0 15k\n", s, s, s, s, s, s, s);
+        put(g, "rc%d vcc c%d 4.7k\nre%d e%d 0 4.7k\n", s, s, s, s);
+        put(g, "q%d c%d b%d e%d qc\nc%db c%d i%d 1u\nrl%d i%d 0 47k\n", s, s, s, s, s, s, s + 1,
+            s, s + 1);
+    }
+    put(g, ".ac dec 10 1k 100k\n");
+}
+
+/* An array of identical two-transistor channels sharing a supply with source resistance. */
+static void gen_array(gen *g, int nodes)
+{
+    int ch = nodes / 8 > 0 ? nodes / 8 : 1;
+    put(g, "channel array\n.model qa npn is=8e-15 bf=200 vaf=80 rb=30 cje=10p cjc=4p\n"
+           "vsup sup 0 12\nrsup sup vcc 0.5\nvin src 0 dc 0 ac 1\n");
+    for (int c = 0; c < ch; c++) {
+        put(g, "rs%d src in%d 600\nc1_%d in%d b%d 4.7u\n", c, c, c, c, c);
+        put(g, "r1_%d vcc b%d 68k\nr2_%d b%d 0 12k\n", c, c, c, c);
+        put(g, "rc%d vcc c%d 6.8k\nre%d e%d 0 1.5k\n", c, c, c, c);
+        put(g, "q1_%d c%d b%d e%d qa\nq2_%d vcc c%d o%d qa\n", c, c, c, c, c, c, c);
+        put(g, "re2_%d o%d 0 3.3k\nc2_%d o%d out%d 10u\nrl%d out%d 0 10k\n", c, c, c, c, c, c, c);
+    }
+    put(g, ".ac dec 10 1k 100k\n");
+}
+
+/* Bare KLU on the circuit's own real and complex matrices. */
+static void bare_klu(ss_circuit *ckt, double *t_an, double *t_fac, double *t_ref, double *t_sol,
+                     double *t_zref, double *t_zsol)
+{
+    mna *m = ckt->mna;
+    int n = mna_n(m);
+    int *Ap = (int *)mna_colptr(m), *Ai = (int *)mna_rowidx(m);
+    klu_common c;
+    klu_defaults(&c);
+    double t0 = now_s();
+    klu_symbolic *sym = klu_analyze(n, Ap, Ai, &c);
+    *t_an = now_s() - t0;
+    double *Ax = mna_values(m);
+    t0 = now_s();
+    klu_numeric *num = klu_factor(Ap, Ai, Ax, sym, &c);
+    *t_fac = now_s() - t0;
+    double *b = malloc((size_t)n * 2 * sizeof *b);
+    int reps = n > 100000 ? 3 : n > 10000 ? 10 : n > 1000 ? 100 : 2000;
+    t0 = now_s();
+    for (int r = 0; r < reps; r++)
+        klu_refactor(Ap, Ai, Ax, sym, num, &c);
+    *t_ref = (now_s() - t0) / reps;
+    t0 = now_s();
+    for (int r = 0; r < reps; r++) {
+        for (int i = 0; i < n; i++)
+            b[i] = 1.0;
+        klu_solve(sym, num, n, 1, b, &c);
+    }
+    *t_sol = (now_s() - t0) / reps;
+    klu_free_numeric(&num, &c);
+    double *Az = (double *)mna_zvalues(m);
+    num = klu_z_factor(Ap, Ai, Az, sym, &c);
+    t0 = now_s();
+    for (int r = 0; r < reps; r++)
+        klu_z_refactor(Ap, Ai, Az, sym, num, &c);
+    *t_zref = (now_s() - t0) / reps;
+    t0 = now_s();
+    for (int r = 0; r < reps; r++) {
+        for (int i = 0; i < 2 * n; i++)
+            b[i] = 1.0;
+        klu_z_solve(sym, num, n, 1, b, &c);
+    }
+    *t_zsol = (now_s() - t0) / reps;
+    klu_free_numeric(&num, &c);
+    klu_free_symbolic(&sym, &c);
+    free(b);
+}
+
+static int bench_one(const char *kind, int nodes)
+{
+    gen g = {malloc(1 << 16), 0, 1 << 16};
+    if (strcmp(kind, "ladder") == 0)
+        gen_ladder(&g, nodes);
+    else if (strcmp(kind, "chain") == 0)
+        gen_chain(&g, nodes);
+    else
+        gen_array(&g, nodes);
+    ss_circuit *ckt = NULL;
+    ss_error err = {0};
+    double t0 = now_s();
+    if (ss_circuit_parse_text(g.t, g.len, kind, NULL, 0, &ckt, &err) != SS_OK) {
+        fprintf(stderr, "%s: %s\n", kind, err.message);
+        return 1;
+    }
+    double t_parse = now_s() - t0;
+    ss_op_stats stats;
+    t0 = now_s();
+    if (ss_op_solve(ckt, NULL, &stats, &err) != SS_OK) {
+        fprintf(stderr, "%s %d: %s\n", kind, nodes, err.message);
+        return 1;
+    }
+    double t_op = now_s() - t0;
+    const mna_counters *cnt = mna_get_counters(ckt->mna);
+    long op_solves = cnt->real_solves;
+    /* AC: the per-point cost without writing every node (stage-style use) */
+    int pts = 21;
+    t0 = now_s();
+    for (int k = 0; k < pts; k++)
+        if (ac_solve_point(ckt, 2.0 * SS_PI * 1e3 * pow(100.0, (double)k / (pts - 1)), NULL, 0, 0,
+                           &err) != SS_OK) {
+            fprintf(stderr, "%s\n", err.message);
+            return 1;
+        }
+    double t_ac = (now_s() - t0) / pts;
+    double an, fac, ref, sol, zref, zsol;
+    bare_klu(ckt, &an, &fac, &ref, &sol, &zref, &zsol);
+    struct rusage ru;
+    getrusage(RUSAGE_SELF, &ru);
+    double peak_kib = (double)ru.ru_maxrss;
+    /* the op's bare work: its refactor + solve count at the measured per-call cost (the
+     * first is a full factorization) plus one analyze */
+    double op_bare = an + fac + (double)(op_solves - 1) * ref + (double)op_solves * sol;
+    printf("| %-6s | %9d | %8d | %9.3f | %7.1f | %9.4f | %3d | %9.4f | %5.2f | %9.3f | %9.3f | "
+           "%5.2f | %8.0f | %6.0f |\n",
+           kind, ckt->n_unknowns, ckt->n_elem, t_parse * 1e3, g.len / t_parse / 1e6, t_op,
+           stats.newton_iterations, op_bare, t_op / op_bare, t_ac * 1e3, (zref + zsol) * 1e3,
+           t_ac / (zref + zsol), peak_kib / 1024.0, peak_kib * 1024.0 / ckt->n_nodes);
+    fflush(stdout);
+    ss_circuit_destroy(&ckt);
+    free(g.t);
+    return 0;
+}
+
+int main(int argc, char **argv)
+{
+    long max_nodes = argc > 1 ? atol(argv[1]) : 1000000;
+    const char *kinds[3] = {"ladder", "chain", "array"};
+    int n_kinds = 3;
+    if (argc > 2) {
+        n_kinds = 0;
+        for (int i = 2; i < argc && n_kinds < 3; i++)
+            kinds[n_kinds++] = argv[i];
+    }
+    printf("| kind   | unknowns  | elements | parse ms  | MB/s    | op s      | it  | op bare s "
+           "| ratio | AC ms/pt  | bare ms   | ratio | peak MiB | B/node |\n");
+    printf("|--------|-----------|----------|-----------|---------|-----------|-----|-----------"
+           "|-------|-----------|-----------|-------|----------|--------|\n");
+    fflush(stdout);
+    for (int k = 0; k < n_kinds; k++)
+        for (long nodes = 10; nodes <= max_nodes; nodes *= 10) {
+            pid_t pid = fork(); /* a fresh process per size: peak memory is this size's own */
+            if (pid == 0)
+                _exit(bench_one(kinds[k], (int)nodes));
+            int status;
+            waitpid(pid, &status, 0);
+        }
+    return 0;
+}
