@@ -300,11 +300,17 @@ ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
             return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
         d->n = 0;
         for (char *tok = strtok(rest, ","); tok; tok = strtok(NULL, ","))
-            if (parse_number(tok, &d->values[d->n++]) != 0)
-                return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: bad value '%s'", d->name,
-                               tok);
-        if (d->n == 0)
+            if (parse_number(tok, &d->values[d->n++]) != 0) {
+                err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: bad value '%s'", d->name, tok);
+                ss_free(d->values);
+                d->values = NULL;
+                return SS_ERR_INPUT;
+            }
+        if (d->n == 0) {
+            ss_free(d->values);
+            d->values = NULL;
             return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: empty list", d->name);
+        }
     } else {
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "--vary %s: unknown kind '%s' (lin, log or list)", d->name, kind);
