@@ -12,8 +12,15 @@ static uint64_t hash_str(const char *s)
         h ^= (unsigned char)*s;
         h *= 1099511628211ull;
     }
-    /* fold the high bits down: the table index uses the low bits */
-    return h ^ (h >> 29);
+    /* mix (the 64-bit finalizer of MurmurHash3, A. Appleby -- from memory): FNV-1a alone
+     * leaves names that differ only in their last digits clustered in the low bits the
+     * table index uses */
+    h ^= h >> 33;
+    h *= 0xff51afd7ed558ccdull;
+    h ^= h >> 33;
+    h *= 0xc4ceb9fe1a85ec53ull;
+    h ^= h >> 33;
+    return h;
 }
 
 int strmap_get(const ss_strmap *m, const char *key, int *out_val)
