@@ -137,10 +137,12 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
     dev_setup_ctx sc = {&so, cb_new_node, cb_new_branch, cb_claim, 0};
     for (int i = 0; i < ckt->n_elem; i++) {
         element *e = &ckt->elem[i];
-        e->state = arena_alloc(&ckt->arena, ELEM_MAX_STATE * sizeof *e->state);
-        e->tp = e->mod ? arena_alloc(&ckt->arena, MODEL_MAX_PARAMS * sizeof *e->tp) : NULL;
-        if (!e->state || (e->mod && !e->tp))
-            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        if (e->mod) { /* only devices with a model keep parameters and Newton state */
+            e->state = arena_alloc(&ckt->arena, ELEM_MAX_STATE * sizeof *e->state);
+            e->tp = arena_alloc(&ckt->arena, MODEL_MAX_PARAMS * sizeof *e->tp);
+            if (!e->state || !e->tp)
+                return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        }
         e->inode[0] = e->node[0];
         e->inode[1] = e->node[1];
         e->inode[2] = e->node[2];
@@ -198,6 +200,7 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
         for (int k = 0; k < e->n_slot; k++)
             e->slot[k] = mna_slot(ckt->mna, e->slot[k]);
     }
+    mna_release_claims(ckt->mna);
     ckt->prepared = 1;
     return SS_OK;
 }

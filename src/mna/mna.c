@@ -176,6 +176,12 @@ ss_status mna_finalize(mna *m, int *bad_unknown)
 }
 
 int mna_slot(const mna *m, int claim_id) { return claim_id < 0 ? -1 : m->claim_slot[claim_id]; }
+
+void mna_release_claims(mna *m)
+{
+    ss_free(m->claim_slot);
+    m->claim_slot = NULL;
+}
 int mna_diag_slot(const mna *m, int u) { return m->diag[u]; }
 int mna_n(const mna *m) { return m->n; }
 int mna_nnz(const mna *m) { return m->nnz; }

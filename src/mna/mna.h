@@ -35,6 +35,8 @@ SS_HIDDEN int mna_claim_failed(const mna *m);
 SS_HIDDEN ss_status mna_finalize(mna *m, int *bad_unknown);
 /* The value slot of a claim id (after finalize); -1 stays -1. */
 SS_HIDDEN int mna_slot(const mna *m, int claim_id);
+/* Frees the claim-to-slot map once every claim has been translated (mna_slot no longer works). */
+SS_HIDDEN void mna_release_claims(mna *m);
 /* Slot of the diagonal entry of unknown u (claimed for every unknown). */
 SS_HIDDEN int mna_diag_slot(const mna *m, int u);
 

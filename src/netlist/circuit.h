@@ -44,7 +44,7 @@ typedef struct element {
      * element costs about 200 bytes however many of them a circuit has:
      * tp: MODEL_MAX_PARAMS doubles for elements with a model (else NULL);
      * slot: exactly n_slot ints (claim() may write up to ELEM_MAX_SLOTS);
-     * state: ELEM_MAX_STATE doubles for every element. */
+     * state: ELEM_MAX_STATE doubles for elements with a model (else NULL). */
     double *tp;  /* model parameters adjusted for area and temperature */
     int *slot;   /* matrix value slots (claim ids until mna_finalize) */
     int n_slot;

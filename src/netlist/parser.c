@@ -71,6 +71,7 @@ typedef struct parser {
     subckt_def *subckts;
     int n_subckts, cap_subckts;
     ss_strmap subckt_map;
+    ss_arena scratch; /* parse-lifetime data (token arrays), freed with the parser */
     const ss_override *overrides;
     int n_overrides;
     unsigned char *override_used;
@@ -147,7 +148,10 @@ static ss_status tokenize(parser *ps, logline *ll, char *text)
             return nomem(ps);
         toks[n++] = t;
     }
-    ll->tok = arena_alloc(&ps->ckt->arena, (size_t)(n ? n : 1) * sizeof *ll->tok);
+    /* the token strings live with the circuit (names borrow them); the arrays of pointers to
+     * them are only needed while parsing */
+    ll->tok = arena_alloc_raw(&ps->scratch, (size_t)(n ? n : 1) * sizeof *ll->tok,
+                              _Alignof(char *));
     if (!ll->tok)
         return nomem(ps);
     memcpy(ll->tok, toks, (size_t)n * sizeof *toks);
@@ -1646,6 +1650,7 @@ static void parser_clear(parser *ps)
     ss_free(ps->subckts);
     strmap_clear(&ps->subckt_map);
     ss_free(ps->override_used);
+    arena_clear(&ps->scratch);
 }
 
 static ss_status parse_common(const char *path, const char *text, size_t text_len,
@@ -1691,6 +1696,21 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
         st = err_set(err, SS_ERR_INPUT, ckt->file, 0, "empty netlist (no title line)");
     if (st == SS_OK)
         st = pass1(&ps);
+    if (st == SS_OK && ps.n_lines > 64) {
+        /* size the element array and the name tables for the lines at hand: no doubling (and
+         * no transient double copy) on large netlists; subcircuit expansion may still grow
+         * them */
+        element *ne = ss_realloc(ckt->elem, (size_t)ps.n_lines * sizeof *ne);
+        if (!ne || strmap_reserve(&ckt->elem_map, (size_t)ps.n_lines) != 0 ||
+            strmap_reserve(&ckt->node_map, (size_t)ps.n_lines / 2) != 0) {
+            if (ne)
+                ckt->elem = ne;
+            st = nomem(&ps);
+        } else {
+            ckt->elem = ne;
+            ckt->cap_elem = ps.n_lines;
+        }
+    }
     if (st == SS_OK) {
         scope top;
         memset(&top, 0, sizeof top);

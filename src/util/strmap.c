@@ -41,9 +41,20 @@ int strmap_get(const ss_strmap *m, const char *key, int *out_val)
     }
 }
 
-static int strmap_grow(ss_strmap *m)
+static int strmap_resize(ss_strmap *m, size_t ncap);
+
+static int strmap_grow(ss_strmap *m) { return strmap_resize(m, m->cap ? m->cap * 2 : 64); }
+
+int strmap_reserve(ss_strmap *m, size_t n)
 {
-    size_t ncap = m->cap ? m->cap * 2 : 64;
+    size_t cap = 64;
+    while (cap < 2 * n)
+        cap *= 2;
+    return cap > m->cap ? strmap_resize(m, cap) : 0;
+}
+
+static int strmap_resize(ss_strmap *m, size_t ncap)
+{
     ss_strmap_entry *ne = ss_alloc(ncap * sizeof *ne);
     if (!ne)
         return -1;

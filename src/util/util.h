@@ -46,6 +46,8 @@ typedef struct ss_strmap {
 SS_HIDDEN int strmap_get(const ss_strmap *m, const char *key, int *out_val); /* 1 found */
 SS_HIDDEN int strmap_put(ss_strmap *m, const char *key, int val); /* 0 ok, -1 no memory */
 SS_HIDDEN void strmap_clear(ss_strmap *m);
+/* Sizes the table for n keys at once (no regrowth while they are added); 0 ok, -1 no memory. */
+SS_HIDDEN int strmap_reserve(ss_strmap *m, size_t n);
 
 /* ---- errors ------------------------------------------------------------------------------ */
 /* Records the first error only: a later call with err->code already set changes nothing.

@@ -35,6 +35,15 @@ static double now_s(void)
     return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
 }
 
+static double cpu_s(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &ts);
+    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+static double g_cpu; /* CPU seconds of the last run_trials */
+
 static double run_trials(const char *path, long trials, int threads)
 {
     ss_study *s = NULL;
@@ -46,12 +55,13 @@ static double run_trials(const char *path, long trials, int threads)
         exit(1);
     }
     ss_study_set_threads(s, threads);
-    double t0 = now_s();
+    double t0 = now_s(), c0 = cpu_s();
     if (ss_study_run(s, &pts, &err) != SS_OK) {
         fprintf(stderr, "%s\n", err.message);
         exit(1);
     }
     double dt = now_s() - t0;
+    g_cpu = cpu_s() - c0;
     ss_table_destroy(&pts);
     ss_study_destroy(&s);
     return dt;
@@ -129,15 +139,26 @@ int main(int argc, char **argv)
     ss_circuit_destroy(&ckt);
 
     run_trials(path, trials / 10 + 1, 1); /* warm up */
-    double t1 = run_trials(path, trials, 1);
+    /* alternate 1 and 2 threads three times and keep the best of each, so neither side gets
+     * only the machine's busy moments */
+    double t1 = HUGE_VAL, t2 = HUGE_VAL, cpu1 = HUGE_VAL;
+    for (int round = 0; round < 3; round++) {
+        double a = run_trials(path, trials, 1);
+        if (a < t1) {
+            t1 = a;
+            cpu1 = g_cpu;
+        }
+        double b = run_trials(path, trials, 2);
+        t2 = b < t2 ? b : t2;
+    }
     long ncpu = sysconf(_SC_NPROCESSORS_ONLN);
-    double t2 = run_trials(path, trials, 2);
     double per_trial = t1 / trials;
     printf("%-34s %12s\n", "measure", "value");
     printf("%-34s %12.0f\n", "trials/s, 1 thread", trials / t1);
     printf("%-34s %12.0f\n", "trials/s, 2 threads", trials / t2);
     printf("%-34s %12.2f   (cores online: %ld)\n", "speed-up on 2 threads", t1 / t2, ncpu);
     printf("%-34s %12.1f\n", "us per trial, 1 thread", per_trial * 1e6);
+    printf("%-34s %12.1f\n", "CPU us per trial, 1 thread", cpu1 / trials * 1e6);
     printf("%-34s %12.1f\n", "bare KLU us per trial", bare * 1e6);
     printf("%-34s %12.2f\n", "ratio per trial / bare KLU", per_trial / bare);
     remove(path);
