@@ -89,18 +89,20 @@ static int find_source_resistor(const ss_circuit *ckt, const element *src)
     return found;
 }
 
+/* Lower-case copy; "" when in does not fit (no name of the circuit is that long: a copy cut
+ * short could name another node or element). */
 static void lower_copy(const char *in, char *out, size_t len)
 {
     size_t i;
     for (i = 0; in[i] && i + 1 < len; i++)
         out[i] = (char)((in[i] >= 'A' && in[i] <= 'Z') ? in[i] + 32 : in[i]);
-    out[i] = '\0';
+    out[in[i] ? 0 : i] = '\0';
 }
 
 ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node, const char *in_source,
                                const char *rs_resistor, ss_error *err)
 {
-    char name[256];
+    char name[1024]; /* circuit names are at most 1023 characters (parser.c) */
     lower_copy(out_node, name, sizeof name);
     int n = circuit_find_node(ckt, name);
     if (n <= 0 || ckt->node_internal[n])

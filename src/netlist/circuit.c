@@ -119,11 +119,11 @@ ss_status ss_circuit_set_temp(ss_circuit *ckt, double temp_c, ss_error *err)
 ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *out_value,
                                ss_error *err)
 {
-    char low[512];
+    char low[1024]; /* a name that does not fit is not found, never cut short to another */
     size_t i;
     for (i = 0; name[i] && i + 1 < sizeof low; i++)
         low[i] = (char)((name[i] >= 'A' && name[i] <= 'Z') ? name[i] + 32 : name[i]);
-    low[i] = '\0';
+    low[name[i] ? 0 : i] = '\0';
     for (int k = 0; k < ckt->n_params; k++)
         if (strcmp(ckt->param_name[k], low) == 0) {
             *out_value = ckt->param_value[k];
