@@ -776,6 +776,10 @@ static int check_model(parser *ps, const logline *ll, const model *m)
             return line_error(ps, ll, "model '%s': %s must not be negative, got %g", m->name, n,
                               v),
                    -1;
+        if (strcmp(n, "tnom") == 0 && !(v > -SS_ZERO_C_IN_K && v <= 1000.0))
+            return line_error(ps, ll, "model '%s': tnom %g C is outside -273.15 .. 1000 C",
+                              m->name, v),
+                   -1;
         if ((strcmp(n, "fc") == 0) && !(v >= 0.0 && v < 1.0))
             return line_error(ps, ll, "model '%s': fc must be in [0, 1), got %g", m->name, v), -1;
     }
@@ -1568,12 +1572,16 @@ static ss_status apply_late_overrides(parser *ps)
             continue;
         const ss_override *ov = &ps->overrides[i];
         char name[512];
+        char vtext[512];
+        /* a name or value that does not fit is refused, never cut to something else */
+        if (strlen(ov->name) >= sizeof name || strlen(ov->value) >= sizeof vtext)
+            return err_set(ps->err, SS_ERR_INPUT, NULL, 0,
+                           "--set: name or value longer than %zu characters", sizeof name - 1);
         size_t k;
-        for (k = 0; ov->name[k] && k + 1 < sizeof name; k++)
+        for (k = 0; ov->name[k]; k++)
             name[k] = (char)tolower((unsigned char)ov->name[k]);
         name[k] = '\0';
-        char vtext[512];
-        for (k = 0; ov->value[k] && k + 1 < sizeof vtext; k++)
+        for (k = 0; ov->value[k]; k++)
             vtext[k] = (char)tolower((unsigned char)ov->value[k]);
         vtext[k] = '\0';
         double v;

@@ -67,7 +67,7 @@ static int no_names(void *ctx, const char *name, double *out, char *msg, size_t 
 
 static double eval_ok(const char *text)
 {
-    double v = NAN;
+    double v = (double)NAN;
     char msg[256] = "";
     if (expr_eval(text, no_names, NULL, &v, msg, sizeof msg) != 0) {
         print_error("'%s': %s\n", text, msg);
