@@ -251,13 +251,10 @@ static ss_status source_stepping(ss_circuit *ckt, double *x, int *iters, int *st
     return SS_OK;
 }
 
-/* KCL check of a converged answer against the device equations (no silent wrong number). */
-static ss_status verify_kcl(ss_circuit *ckt, const double *x, ss_error *err)
+/* The refusal of an answer that fails Kirchhoff's law (no silent wrong number); ratio and
+ * worst come from op_kcl_residual. */
+static ss_status kcl_error(ss_circuit *ckt, int worst, ss_error *err)
 {
-    int worst;
-    double ratio = op_kcl_residual(ckt, x, &worst);
-    if (ratio <= 1.0)
-        return SS_OK;
     char what[1200] = "a node";
     if (worst >= 0)
         circuit_unknown_name(ckt, worst, what, sizeof what);
@@ -350,21 +347,25 @@ static int escape_unstable(ss_circuit *ckt, double *x, int *iters)
  * matrix for x, so a conductance lost to rounding on a much larger diagonal (1e-12 S beside
  * 1e3 S) stays lost; solving J dx = -f(x) with f from each device's own equations recovers
  * it. Kept only when it lowers the residual. */
-static void refine_solution(ss_circuit *ckt, double *x)
+static double refine_solution(ss_circuit *ckt, double *x, double before, int *worst)
 {
-    int n = ckt->n_unknowns, worst;
-    double before = op_kcl_residual(ckt, x, &worst);
+    /* ckt->work_x holds f(x) from the verification just before */
+    int n = ckt->n_unknowns, worst_after;
     double *dx = ckt->work_rhs, *saved = ckt->x_refine;
     for (int u = 0; u < n; u++)
         dx[u] = -ckt->work_x[u];
     if (mna_solve_real_again(ckt->mna, dx) != SS_OK)
-        return;
+        return before;
     memcpy(saved, x, (size_t)n * sizeof *x);
     for (int u = 0; u < n; u++)
         x[u] += dx[u];
-    double after = op_kcl_residual(ckt, x, &worst);
-    if (!(after < before))
+    double after = op_kcl_residual(ckt, x, &worst_after);
+    if (!(after < before)) {
         memcpy(x, saved, (size_t)n * sizeof *x);
+        return before;
+    }
+    *worst = worst_after;
+    return after;
 }
 
 ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err)
@@ -414,15 +415,16 @@ ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err)
                               "of the circuit's Jacobian determinant says so); a real circuit "
                               "would not stay there");
     }
-    /* verify Newton's own answer first, so refinement cannot hide a stamp that disagrees with
-     * its device equation; then refine and verify again */
-    st = verify_kcl(ckt, x, err);
-    if (st != SS_OK)
-        return st;
-    refine_solution(ckt, x);
-    st = verify_kcl(ckt, x, err);
-    if (st != SS_OK)
-        return st;
+    /* verify Newton's own answer against the device equations first, so refinement cannot hide
+     * a stamp that disagrees with its device equation; then refine (reusing that residual) and
+     * judge the refined answer by its own residual */
+    int worst;
+    double ratio = op_kcl_residual(ckt, x, &worst);
+    if (ratio > 1.0)
+        return kcl_error(ckt, worst, err);
+    ratio = refine_solution(ckt, x, ratio, &worst);
+    if (ratio > 1.0)
+        return kcl_error(ckt, worst, err);
     if (ckt->last_rcond < MNA_RCOND_WARN)
         circuit_warn(ckt,
                      "operating point: the matrix is nearly singular (reciprocal condition "
