@@ -118,10 +118,10 @@ double analysis_vt(const ss_circuit *ckt)
 void analysis_apply_temp(ss_circuit *ckt)
 {
     double temp_k = ckt->temp_c + SS_ZERO_C_IN_K;
-    for (int i = 0; i < ckt->n_elem; i++) {
-        element *e = &ckt->elem[i];
-        if (e->ops->temp)
-            e->ops->temp(e, temp_k);
+    /* only the elements with a temperature law (listed in prepare), not every resistor */
+    for (int k = 0; k < ckt->n_temp_elems; k++) {
+        element *e = &ckt->elem[ckt->temp_elems[k]];
+        e->ops->temp(e, temp_k);
     }
     ckt->temp_applied_k = temp_k;
 }
@@ -151,6 +151,16 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
     }
     if (so.failed)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    int n_temp = 0;
+    for (int i = 0; i < ckt->n_elem; i++)
+        n_temp += ckt->elem[i].ops->temp != NULL;
+    ckt->temp_elems = arena_alloc(&ckt->arena, (size_t)(n_temp ? n_temp : 1) * sizeof(int));
+    if (!ckt->temp_elems)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    ckt->n_temp_elems = 0;
+    for (int i = 0; i < ckt->n_elem; i++)
+        if (ckt->elem[i].ops->temp)
+            ckt->temp_elems[ckt->n_temp_elems++] = i;
     int n_node_unknowns = ckt->n_nodes - 1;
     for (int i = 0; i < ckt->n_elem; i++)
         if (ckt->elem[i].branch >= 0)

@@ -137,6 +137,8 @@ struct ss_circuit {
     int n_unknowns;
     int prepared;
     double temp_applied_k;
+    int *temp_elems; /* elements with a temperature law (arena), set in prepare */
+    int n_temp_elems;
     double *x_op; /* operating point, n_unknowns; valid when have_op */
     int have_op;
     double *work_rhs, *work_x;    /* Newton work vectors, n_unknowns */
