@@ -341,6 +341,30 @@ static void test_binary_garbage_rejected(void **state)
     ss_assert_contains(err.message, "not a text netlist");
 }
 
+/* Names are never cut to fit a buffer: a name that does not fit is an error, so two long
+ * names differing only at the end cannot silently become one node or one source. */
+static void test_long_names_are_refused_not_cut(void **state)
+{
+    (void)state;
+    char text[6000];
+    char longname[1100];
+    memset(longname, 'a', sizeof longname - 1);
+    longname[sizeof longname - 1] = '\0';
+    snprintf(text, sizeof text, "t\n.subckt s p\nr1 p %sx 1k\nr2 %sx 0 1k\n.ends\nv1 n 0 1\n"
+             "x1 n s\n", longname, longname);
+    ss_circuit *ckt = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_circuit_parse_text(text, strlen(text), "t.cir", NULL, 0, &ckt, &err),
+                     SS_ERR_LIMIT);
+    assert_null(ckt);
+    ckt = ss_test_parse("t\nv1 n 0 1\nr1 n 0 1k\n.ac dec 1 1 10\n");
+    char src[400];
+    memset(src, 'v', sizeof src - 1);
+    src[sizeof src - 1] = '\0';
+    assert_int_equal(ss_circuit_set_stage(ckt, src, "n", 0, &err), SS_ERR_INPUT);
+    ss_circuit_destroy(&ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -358,6 +382,7 @@ int main(void)
         cmocka_unit_test(test_include_relative_to_including_file),
         cmocka_unit_test(test_errors_name_line_and_element),
         cmocka_unit_test(test_binary_garbage_rejected),
+        cmocka_unit_test(test_long_names_are_refused_not_cut),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
