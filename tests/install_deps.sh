@@ -4,7 +4,7 @@
 set -euo pipefail
 PKGS=(build-essential cmake libsuitesparse-dev libcmocka-dev python3 python3-numpy python3-scipy)
 # the test suite also runs the examples under valgrind and shards a run with GNU parallel
-[ "${1:-}" = "--with-tools" ] && PKGS+=(valgrind parallel clang)
+[ "${1:-}" = "--with-tools" ] && PKGS+=(valgrind parallel)
 missing=()
 for p in "${PKGS[@]}"; do
     dpkg -s "$p" >/dev/null 2>&1 || missing+=("$p")
