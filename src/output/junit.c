@@ -64,11 +64,5 @@ ss_status ss_check_write_junit(const ss_table *v, const char *suite_name, const 
                       meas[0] ? meas : "none", lo[0] ? lo : "none", hi[0] ? hi : "none");
     }
     strbuf_append(&b, "  </testsuite>\n</testsuites>\n", 29);
-    if (b.failed) {
-        strbuf_clear(&b);
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
-    ss_status st = output_write_atomic(path, b.data, b.len, err);
-    strbuf_clear(&b);
-    return st;
+    return output_write_strbuf(&b, path, err);
 }

@@ -6,10 +6,13 @@
 
 #include "util/util.h"
 
-/* Writes the bytes to path through a temporary file in the same folder and a rename, so an
- * interrupted run leaves the old file or none. */
+/* Writes the bytes to path through a fresh temporary file in the same folder (flushed to disk)
+ * and a rename, so an interrupted run leaves the old file or none (atomic.c). */
 SS_HIDDEN ss_status output_write_atomic(const char *path, const char *data, size_t len,
                                         ss_error *err);
+/* Writes a buffer with output_write_atomic (SS_ERR_NOMEM when the buffer's growth failed) and
+ * clears it either way. */
+SS_HIDDEN ss_status output_write_strbuf(ss_strbuf *b, const char *path, ss_error *err);
 /* Shortest text that reads back as the same double (fmt_double.h); "" for NaN. */
 SS_HIDDEN int output_format_double(char *buf, size_t len, double v);
 

@@ -2,13 +2,11 @@
  * tick labels, and writes the document atomically. The numbers plotted come from the analyses. */
 #define _POSIX_C_SOURCE 200809L
 
-#include <errno.h>
-#include <fcntl.h>
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
-#include <unistd.h>
 
+#include "output/output.h"
 #include "output/svg.h"
 
 /* ---- page layout, in SVG user units (px) ------------------------------------------------- */
@@ -837,70 +835,6 @@ ss_status svg_render_bode(ss_strbuf *out, const svg_bode_input *in, ss_error *er
     return render_checked(out, in, NULL, err);
 }
 
-/* ---- atomic file output ------------------------------------------------------------------ */
-
-static int write_all(int fd, const char *data, size_t len)
-{
-    while (len > 0) {
-        ssize_t n = write(fd, data, len);
-        if (n < 0) {
-            if (errno == EINTR)
-                continue;
-            return -1;
-        }
-        data += n;
-        len -= (size_t)n;
-    }
-    return 0;
-}
-
-/* Writes data to a fresh temporary file beside path and renames it over path, so a reader
- * never sees half a plot. The temporary file is created with mode 0666 so the umask decides
- * the final permissions, as for any other file the tool writes. */
-static ss_status write_atomic(const char *path, const char *data, size_t len, ss_error *err)
-{
-    static unsigned long counter; /* a repeat name only costs a retry: O_EXCL refuses it */
-    size_t tmp_len = strlen(path) + 64;
-    char *tmp = ss_alloc(tmp_len);
-    if (!tmp)
-        return err_set(err, SS_ERR_NOMEM, path, 0, "out of memory naming a temporary file");
-    int fd = -1;
-    for (int attempt = 0; attempt < 100 && fd < 0; attempt++) {
-        snprintf(tmp, tmp_len, "%s.tmp.%ld.%lu", path, (long)getpid(), counter++);
-        fd = open(tmp, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0666);
-        if (fd < 0 && errno != EEXIST)
-            break;
-    }
-    if (fd < 0) {
-        int e = errno;
-        ss_free(tmp);
-        return err_set(err, SS_ERR_IO, path, 0, "cannot create a temporary file beside it: %s",
-                       strerror(e));
-    }
-    const char *failed_step = NULL;
-    int e = 0;
-    if (write_all(fd, data, len) != 0)
-        failed_step = "write";
-    else if (fsync(fd) != 0) /* the data is on disk before the name points at it */
-        failed_step = "flush";
-    if (failed_step)
-        e = errno;
-    if (close(fd) != 0 && !failed_step) {
-        failed_step = "close";
-        e = errno;
-    }
-    if (!failed_step && rename(tmp, path) != 0) {
-        failed_step = "rename into place";
-        e = errno;
-    }
-    if (failed_step)
-        unlink(tmp);
-    ss_free(tmp);
-    if (failed_step)
-        return err_set(err, SS_ERR_IO, path, 0, "cannot %s the plot: %s", failed_step, strerror(e));
-    return SS_OK;
-}
-
 ss_status svg_write_bode(const char *path, const svg_bode_input *in, ss_error *err)
 {
     if (!path || !path[0])
@@ -908,7 +842,7 @@ ss_status svg_write_bode(const char *path, const svg_bode_input *in, ss_error *e
     ss_strbuf doc = {0};
     ss_status st = render_checked(&doc, in, path, err);
     if (st == SS_OK)
-        st = write_atomic(path, doc.data, doc.len, err);
+        st = output_write_atomic(path, doc.data, doc.len, err);
     strbuf_clear(&doc);
     return st;
 }
