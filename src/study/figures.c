@@ -9,14 +9,20 @@
 
 static int add_row(ss_table *t, const char *label, double v)
 {
-    for (int i = 0; i < t->n_rows; i++)
-        if (strcmp(t->row_labels[i], label) == 0)
-            return 0; /* a point figure named twice by the limits */
     double *row = table_add_row(t, label);
     if (!row)
         return -1;
     row[0] = v;
     return 0;
+}
+
+double figures_value(const ss_table *figs, int row_hint, const char *label)
+{
+    /* the same netlist gives the same figures in the same order at every point, so the row
+     * at the hint is almost always the one: no search over every figure of a large circuit */
+    if (row_hint >= 0 && row_hint < figs->n_rows && strcmp(figs->row_labels[row_hint], label) == 0)
+        return figs->data[row_hint];
+    return ss_table_lookup(figs, label, 0);
 }
 
 ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table **out_figures,
@@ -80,6 +86,12 @@ ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table 
     for (int i = 0; !bad && limits && i < limits->n; i++) {
         const limit *lim = &limits->items[i];
         if (!lim->at_freq)
+            continue;
+        /* a figure named by two limits is solved and listed once */
+        int seen = 0;
+        for (int j = 0; j < i && !seen; j++)
+            seen = strcmp(limits->items[j].quantity, lim->quantity) == 0;
+        if (seen)
             continue;
         if (!ckt->stage_in) {
             ss_table_destroy(&t);

@@ -565,7 +565,7 @@ static void *worker(void *arg)
         row[1 + n_vals] = status_class(st);
         const ss_table *nf = sh->nominal_figs;
         for (int f = 0; f < nf->n_rows; f++)
-            row[sh->n_fixed + f] = st == SS_OK ? ss_table_lookup(figs, nf->row_labels[f], 0)
+            row[sh->n_fixed + f] = st == SS_OK ? figures_value(figs, f, nf->row_labels[f])
                                                : SS_NAN;
         ss_table_destroy(&figs);
         pthread_mutex_lock(&sh->lock);
@@ -780,8 +780,8 @@ ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
             st = solve_point(s, vals, s->n_tols, &fm, err);
         for (int f = 0; st == SS_OK && f < nom->n_rows; f++) {
             double f0 = nom->data[f];
-            double dp = ss_table_lookup(fp, nom->row_labels[f], 0);
-            double dm = ss_table_lookup(fm, nom->row_labels[f], 0);
+            double dp = figures_value(fp, f, nom->row_labels[f]);
+            double dm = figures_value(fm, f, nom->row_labels[f]);
             const char *name = nom->row_labels[f];
             size_t ln = strlen(name);
             int is_db = ln > 3 && strcmp(name + ln - 3, "_db") == 0;
@@ -938,7 +938,7 @@ ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **o
             if (table_set_col(figs, j, cols[j]) != 0)
                 st = SS_ERR_NOMEM;
         for (int f = 0; figs && st == SS_OK && f < nfig->n_rows; f++) {
-            double a = nfig->data[f], b = ss_table_lookup(sfig, nfig->row_labels[f], 0);
+            double a = nfig->data[f], b = figures_value(sfig, f, nfig->row_labels[f]);
             double *row = table_add_row(figs, nfig->row_labels[f]);
             if (!row) {
                 st = SS_ERR_NOMEM;

@@ -23,6 +23,8 @@ struct ss_limits {
 
 /* Per-frequency stage quantities a limit may name with `@ FREQ`. */
 SS_HIDDEN int study_is_point_quantity(const char *base);
+/* The value of figure label in a figures table, looked for first at row_hint; NaN if absent. */
+SS_HIDDEN double figures_value(const ss_table *figs, int row_hint, const char *label);
 /* Parses one limit line (no comment); 0 ok, else the error set with file:line. */
 SS_HIDDEN ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, int line,
                                       ss_error *err);
