@@ -157,20 +157,9 @@ ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err)
     int nf = 0;
     if ((st = ac_frequencies(ckt, &freqs, &nf, err)) != SS_OK)
         return st;
-    int n_user = 0;
-    for (int node = 1; node < ckt->n_nodes; node++)
-        n_user += !ckt->node_internal[node];
-    ss_table *t = table_create(1 + 2 * n_user, NULL);
-    int bad = !t || table_set_col(t, 0, "freq_hz") != 0;
-    for (int node = 1, c = 1; !bad && node < ckt->n_nodes; node++) {
-        if (ckt->node_internal[node])
-            continue;
-        char name[1200];
-        snprintf(name, sizeof name, "vm(%s)", ckt->node_name[node]);
-        bad |= table_set_col(t, c++, name);
-        snprintf(name, sizeof name, "vp(%s)", ckt->node_name[node]);
-        bad |= table_set_col(t, c++, name);
-    }
+    ss_table *t = table_create(1 + 2 * analysis_user_nodes(ckt), NULL);
+    static const char *const fmts[] = {"vm(%s)", "vp(%s)"};
+    int bad = !t || table_set_col(t, 0, "freq_hz") != 0 || analysis_node_cols(t, ckt, 1, fmts, 2);
     if (bad || table_reserve(t, nf) != 0) {
         ss_free(freqs);
         ss_table_destroy(&t);

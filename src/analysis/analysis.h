@@ -14,6 +14,11 @@ SS_HIDDEN ss_status analysis_prepare(ss_circuit *ckt, ss_error *err);
 /* Applies the circuit temperature to every device's parameters. */
 SS_HIDDEN void analysis_apply_temp(ss_circuit *ckt);
 SS_HIDDEN double analysis_vt(const ss_circuit *ckt);
+/* Netlist (not internal) nodes: their count, and one column per node and format ("v(%s)")
+ * from first_col on, the formats of a node side by side. 0 ok, -1 no memory. */
+SS_HIDDEN int analysis_user_nodes(const ss_circuit *ckt);
+SS_HIDDEN int analysis_node_cols(ss_table *t, const ss_circuit *ckt, int first_col,
+                                 const char *const *fmts, int n_fmts);
 
 /* Newton solve from x (in/out) at the given source scale; first_mode says how the first
  * iteration treats junction voltages. */

@@ -35,22 +35,14 @@ ss_status ss_dc_sweep_run(ss_circuit *ckt, ss_table **out_dc, ss_error *err)
     if ((double)n_inner * n_outer > 1e7)
         return err_set(err, SS_ERR_LIMIT, ckt->dc[0].file, ckt->dc[0].line,
                        ".dc: more than 1e7 points in all");
-    int n_user = 0;
-    for (int node = 1; node < ckt->n_nodes; node++)
-        n_user += !ckt->node_internal[node];
-    ss_table *t = table_create(ckt->n_dc + n_user, NULL);
+    ss_table *t = table_create(ckt->n_dc + analysis_user_nodes(ckt), NULL);
     if (!t)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     int col = 0, bad = 0;
     for (int k = 0; k < ckt->n_dc; k++)
         bad |= table_set_col(t, col++, src[k]->name);
-    for (int node = 1; node < ckt->n_nodes; node++) {
-        if (ckt->node_internal[node])
-            continue;
-        char name[1200];
-        snprintf(name, sizeof name, "v(%s)", ckt->node_name[node]);
-        bad |= table_set_col(t, col++, name);
-    }
+    static const char *const fmt[] = {"v(%s)"};
+    bad |= analysis_node_cols(t, ckt, col, fmt, 1);
     if (bad || table_reserve(t, n_inner * n_outer) != 0) {
         ss_table_destroy(&t);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");

@@ -43,14 +43,6 @@ typedef struct tran_ws {
     int n_src;
 } tran_ws;
 
-int tran_user_nodes(const ss_circuit *ckt)
-{
-    int n = 0;
-    for (int node = 1; node < ckt->n_nodes; node++)
-        n += !ckt->node_internal[node];
-    return n;
-}
-
 static void ws_free(tran_ws *w)
 {
     ss_free(w->q_off);
@@ -517,18 +509,12 @@ ss_status ss_tran_run(ss_circuit *ckt, ss_table **out_tran, ss_error *err)
     ss_status st = analysis_prepare(ckt, err);
     if (st != SS_OK)
         return st;
-    int n_user = tran_user_nodes(ckt);
+    int n_user = analysis_user_nodes(ckt);
     ss_table *t = table_create(1 + n_user, NULL);
     if (!t)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    int bad = table_set_col(t, 0, "time_s"), col = 1;
-    for (int node = 1; node < ckt->n_nodes; node++) {
-        if (ckt->node_internal[node])
-            continue;
-        char name[1200];
-        snprintf(name, sizeof name, "v(%s)", ckt->node_name[node]);
-        bad |= table_set_col(t, col++, name);
-    }
+    static const char *const fmt[] = {"v(%s)"};
+    int bad = table_set_col(t, 0, "time_s") | analysis_node_cols(t, ckt, 1, fmt, 1);
     long n_rows = (long)floor((ckt->tran_stop_s - ckt->tran_start_s) / ckt->tran_step_s + 1e-9) + 1;
     if ((double)n_rows * (1.0 + n_user) > TRAN_MAX_CELLS) {
         ss_table_destroy(&t);

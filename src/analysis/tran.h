@@ -49,7 +49,4 @@ typedef struct tran_stats {
 SS_HIDDEN ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats,
                              ss_error *err);
 
-/* Output node columns of tran.csv: v(NODE) for every netlist node (internal nodes left out). */
-SS_HIDDEN int tran_user_nodes(const ss_circuit *ckt);
-
 #endif
