@@ -197,12 +197,7 @@ static ss_status read_file(parser *ps, const char *path, const logline *from, in
         return err_set(ps->err, SS_ERR_IO, path, 0, "cannot open netlist: %s", strerror(errno));
     }
     ss_strbuf b = {0};
-    char chunk[65536];
-    size_t got;
-    while ((got = fread(chunk, 1, sizeof chunk, f)) > 0)
-        strbuf_append(&b, chunk, got);
-    int rerr = ferror(f);
-    fclose(f);
+    int rerr = strbuf_read_file(&b, f);
     if (b.failed) {
         strbuf_clear(&b);
         return nomem(ps);

@@ -53,11 +53,10 @@ ss_status ss_table_read_csv(const char *path, ss_table **out, ss_error *err)
     if (!f)
         return err_set(err, SS_ERR_IO, path, 0, "cannot open");
     ss_strbuf b = {0};
-    char chunk[65536];
-    size_t got;
-    while ((got = fread(chunk, 1, sizeof chunk, f)) > 0)
-        strbuf_append(&b, chunk, got);
-    fclose(f);
+    if (strbuf_read_file(&b, f) != 0) {
+        strbuf_clear(&b);
+        return err_set(err, SS_ERR_IO, path, 0, "read error");
+    }
     if (b.failed || !b.data) {
         strbuf_clear(&b);
         return err_set(err, b.failed ? SS_ERR_NOMEM : SS_ERR_INPUT, path, 0,

@@ -219,11 +219,10 @@ ss_status ss_limits_add_file(ss_limits *l, const char *path, ss_error *err)
     if (!f)
         return err_set(err, SS_ERR_IO, path, 0, "cannot open limits file");
     ss_strbuf b = {0};
-    char chunk[8192];
-    size_t got;
-    while ((got = fread(chunk, 1, sizeof chunk, f)) > 0)
-        strbuf_append(&b, chunk, got);
-    fclose(f);
+    if (strbuf_read_file(&b, f) != 0) {
+        strbuf_clear(&b);
+        return err_set(err, SS_ERR_IO, path, 0, "read error");
+    }
     if (b.failed) {
         strbuf_clear(&b);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");

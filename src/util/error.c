@@ -107,3 +107,14 @@ void strbuf_clear(ss_strbuf *b)
     ss_free(b->data);
     memset(b, 0, sizeof *b);
 }
+
+int strbuf_read_file(ss_strbuf *b, FILE *f)
+{
+    char chunk[65536];
+    size_t got;
+    while ((got = fread(chunk, 1, sizeof chunk, f)) > 0)
+        strbuf_append(b, chunk, got);
+    int bad = ferror(f);
+    fclose(f);
+    return bad ? -1 : 0;
+}

@@ -7,6 +7,7 @@
 #include <stddef.h>
 #include <math.h>
 #include <stdint.h>
+#include <stdio.h>
 
 #include "stagesim/stagesim.h"
 
@@ -67,6 +68,9 @@ SS_HIDDEN void strbuf_append(ss_strbuf *b, const char *s, size_t n);
 SS_HIDDEN void strbuf_printf(ss_strbuf *b, const char *fmt, ...)
     __attribute__((format(printf, 2, 3)));
 SS_HIDDEN void strbuf_clear(ss_strbuf *b);
+/* Appends everything left in f and closes it. 0 ok, -1 on a read error (b->failed reports an
+ * allocation failure). */
+SS_HIDDEN int strbuf_read_file(ss_strbuf *b, FILE *f);
 
 /* ---- physical constants (exact in the 2019 SI; CODATA 2018) ------------------------------- */
 #define SS_BOLTZMANN_J_PER_K 1.380649e-23
