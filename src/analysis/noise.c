@@ -89,33 +89,23 @@ static int find_source_resistor(const ss_circuit *ckt, const element *src)
     return found;
 }
 
-/* Lower-case copy; "" when in does not fit (no name of the circuit is that long: a copy cut
- * short could name another node or element). */
-static void lower_copy(const char *in, char *out, size_t len)
-{
-    size_t i;
-    for (i = 0; in[i] && i + 1 < len; i++)
-        out[i] = (char)((in[i] >= 'A' && in[i] <= 'Z') ? in[i] + 32 : in[i]);
-    out[in[i] ? 0 : i] = '\0';
-}
-
 ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node, const char *in_source,
                                const char *rs_resistor, ss_error *err)
 {
     char name[1024]; /* circuit names are at most 1023 characters (parser.c) */
-    lower_copy(out_node, name, sizeof name);
+    name_lower_copy(out_node, name, sizeof name);
     int n = circuit_find_node(ckt, name);
     if (n <= 0 || ckt->node_internal[n])
         return err_set(err, SS_ERR_INPUT, NULL, 0, "noise output node '%s' %s", out_node,
                        n == 0 ? "is ground" : "does not exist");
-    lower_copy(in_source, name, sizeof name);
+    name_lower_copy(in_source, name, sizeof name);
     int s = circuit_find_elem(ckt, name);
     if (s < 0 || (ckt->elem[s].ops->letter != 'v' && ckt->elem[s].ops->letter != 'i'))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "noise input '%s' is not an independent source of the circuit", in_source);
     int r = -1;
     if (rs_resistor) {
-        lower_copy(rs_resistor, name, sizeof name);
+        name_lower_copy(rs_resistor, name, sizeof name);
         r = circuit_find_elem(ckt, name);
         if (r < 0 || ckt->elem[r].ops->letter != 'r')
             return err_set(err, SS_ERR_INPUT, NULL, 0,

@@ -120,10 +120,7 @@ ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *
                                ss_error *err)
 {
     char low[1024]; /* a name that does not fit is not found, never cut short to another */
-    size_t i;
-    for (i = 0; name[i] && i + 1 < sizeof low; i++)
-        low[i] = (char)((name[i] >= 'A' && name[i] <= 'Z') ? name[i] + 32 : name[i]);
-    low[name[i] ? 0 : i] = '\0';
+    name_lower_copy(name, low, sizeof low);
     for (int k = 0; k < ckt->n_params; k++)
         if (strcmp(ckt->param_name[k], low) == 0) {
             *out_value = ckt->param_value[k];
@@ -155,27 +152,18 @@ ss_status ss_circuit_set_stage(ss_circuit *ckt, const char *in_source, const cha
                                double load_ohm, ss_error *err)
 {
     char name[1024]; /* a name that does not fit exists nowhere: never cut it to one that does */
-    size_t i;
     if (!in_source || !out_node) { /* only the load changes */
         if (load_ohm > 0.0)
             ckt->stage_load_ohm = load_ohm;
         return SS_OK;
     }
-    for (i = 0; in_source[i] && i + 1 < sizeof name; i++)
-        name[i] = (char)((in_source[i] >= 'A' && in_source[i] <= 'Z') ? in_source[i] + 32
-                                                                        : in_source[i]);
-    name[i] = '\0';
-    int e = in_source[i] ? -1 : circuit_find_elem(ckt, name);
+    int e = name_lower_copy(in_source, name, sizeof name) ? circuit_find_elem(ckt, name) : -1;
     if (e < 0 || (ckt->elem[e].ops->letter != 'v' && ckt->elem[e].ops->letter != 'i'))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "stage input '%s' is not an independent source of the circuit",
                        in_source);
     const char *in_copy = ckt->elem[e].name;
-    for (i = 0; out_node[i] && i + 1 < sizeof name; i++)
-        name[i] = (char)((out_node[i] >= 'A' && out_node[i] <= 'Z') ? out_node[i] + 32
-                                                                      : out_node[i]);
-    name[i] = '\0';
-    int n = out_node[i] ? -1 : circuit_find_node(ckt, name);
+    int n = name_lower_copy(out_node, name, sizeof name) ? circuit_find_node(ckt, name) : -1;
     if (n <= 0 || ckt->node_internal[n])
         return err_set(err, SS_ERR_INPUT, NULL, 0, "stage output node '%s' %s", out_node,
                        n == 0 ? "is ground" : "does not exist");

@@ -1569,16 +1569,10 @@ static ss_status apply_late_overrides(parser *ps)
         char name[512];
         char vtext[512];
         /* a name or value that does not fit is refused, never cut to something else */
-        if (strlen(ov->name) >= sizeof name || strlen(ov->value) >= sizeof vtext)
+        if (!name_lower_copy(ov->name, name, sizeof name) ||
+            !name_lower_copy(ov->value, vtext, sizeof vtext))
             return err_set(ps->err, SS_ERR_INPUT, NULL, 0,
                            "--set: name or value longer than %zu characters", sizeof name - 1);
-        size_t k;
-        for (k = 0; ov->name[k]; k++)
-            name[k] = (char)tolower((unsigned char)ov->name[k]);
-        name[k] = '\0';
-        for (k = 0; ov->value[k]; k++)
-            vtext[k] = (char)tolower((unsigned char)ov->value[k]);
-        vtext[k] = '\0';
         double v;
         char msg[512];
         if (eval_text(ps, NULL, vtext, &v, msg, sizeof msg) != 0)

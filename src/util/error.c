@@ -118,3 +118,13 @@ int strbuf_read_file(ss_strbuf *b, FILE *f)
     fclose(f);
     return bad ? -1 : 0;
 }
+
+int name_lower_copy(const char *in, char *out, size_t len)
+{
+    size_t i;
+    for (i = 0; in[i] && i + 1 < len; i++)
+        out[i] = (char)((in[i] >= 'A' && in[i] <= 'Z') ? in[i] + 32 : in[i]);
+    int fits = in[i] == '\0';
+    out[fits ? i : 0] = '\0';
+    return fits;
+}

@@ -58,6 +58,10 @@ SS_HIDDEN ss_status err_set(ss_error *err, ss_status code, const char *file, int
 SS_HIDDEN ss_status err_vset(ss_error *err, ss_status code, const char *file, int line,
                              const char *fmt, va_list ap);
 
+/* Lower-case copy of a name into out[len]. Returns 1; when in does not fit, writes "" and
+ * returns 0 -- never a copy cut short, which could name another node or element. */
+SS_HIDDEN int name_lower_copy(const char *in, char *out, size_t len);
+
 /* ---- growable string buffer (used by writers and the report) ------------------------------ */
 typedef struct ss_strbuf {
     char *data;
