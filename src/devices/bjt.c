@@ -30,6 +30,10 @@ static const dev_model_param bjt_params[BP_COUNT] = {
 /* Slot layout: three resistor pairs, then the 3x3 core on (c', b', e'). */
 enum { SL_RC = 0, SL_RB = 4, SL_RE = 8, SL_CORE = 12, SL_COUNT = 21 };
 enum { TC = 0, TB = 1, TE = 2 };
+/* per terminal (c, b, e): the slots of its ohmic resistor's pair and that resistor's
+ * parameter; the resistor exists when the terminal has an internal node */
+static const int pair_of[3] = {SL_RC, SL_RB, SL_RE};
+static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
 /* state[] */
 enum { ST_VBE = 0, ST_VBC = 1 };
 
@@ -100,7 +104,6 @@ static void bjt_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *s
         e->slot[i] = -1;
     e->n_slot = SL_COUNT;
     for (int t = 0; t < 3; t++) {
-        static const int pair_of[3] = {SL_RC, SL_RB, SL_RE};
         if (e->inode[t] != e->node[t])
             claim_pair(e, sc, pair_of[t], e->node[t], e->inode[t]);
     }
@@ -250,8 +253,6 @@ static void bjt_load_dc(element *e, dev_load_ctx *lc)
     rhs_add(lc->rhs, e->inode[TB], -ieq_b);
     rhs_add(lc->rhs, e->inode[TE], ieq_c + ieq_b);
 
-    static const int pair_of[3] = {SL_RC, SL_RB, SL_RE};
-    static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
     for (int t = 0; t < 3; t++)
         if (e->inode[t] != e->node[t])
             stamp_pair(lc->G, &e->slot[pair_of[t]], 1.0 / tp[r_of[t]]);
@@ -292,8 +293,6 @@ static void bjt_load_ac(const element *e, dev_ac_ctx *ac)
     for (int r = 0; r < 3; r++)
         for (int c = 0; c < 3; c++)
             zstamp_add(ac->G, core[3 * r + c], y[r][c]);
-    static const int pair_of[3] = {SL_RC, SL_RB, SL_RE};
-    static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
     for (int t = 0; t < 3; t++)
         if (e->inode[t] != e->node[t])
             zstamp_pair(ac->G, &e->slot[pair_of[t]], 1.0 / tp[r_of[t]]);
@@ -345,7 +344,6 @@ static void bjt_kcl(const element *e, const double *x, const dev_load_ctx *lc, d
     rhs_add(resid, e->inode[TC], p * o.ic);
     rhs_add(resid, e->inode[TB], p * o.ib);
     rhs_add(resid, e->inode[TE], -p * (o.ic + o.ib));
-    static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
     for (int t = 0; t < 3; t++) {
         if (e->inode[t] == e->node[t])
             continue;
@@ -374,7 +372,6 @@ static int bjt_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src *o
     if (tp[BP_KF] > 0.0)
         out[n++] = (dev_noise_src){e->inode[TB], e->inode[TE], 0.0,
                                    noise_flicker_a2(tp[BP_KF], tp[BP_AF], o.ib), "flicker"};
-    static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
     static const char *const label[3] = {"rc thermal", "rb thermal", "re thermal"};
     for (int t = 0; t < 3; t++)
         if (e->inode[t] != e->node[t])
