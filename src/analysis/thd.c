@@ -925,38 +925,42 @@ static ss_table *metric_table(void)
     return t;
 }
 
-ss_status ss_stage_clipping(ss_circuit *ckt, ss_table **out_summary, ss_error *err)
+/* The stage, a fresh metric table and its clipping rows: what both public entries start with.
+ * Outputs written on success only. */
+static ss_status clipping_summary(ss_circuit *ckt, stage_ref *sr, ss_table **out,
+                                  clip_result *res, ss_error *err)
 {
-    stage_ref sr;
-    ss_status st = stage_lookup(ckt, &sr, err);
+    ss_status st = stage_lookup(ckt, sr, err);
     if (st != SS_OK)
         return st;
     ss_table *t = metric_table();
     if (!t)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    clip_result res;
-    memset(&res, 0, sizeof res);
-    st = clipping_rows(ckt, &sr, t, &res, err);
+    memset(res, 0, sizeof *res);
+    st = clipping_rows(ckt, sr, t, res, err);
     if (st != SS_OK) {
         ss_table_destroy(&t);
         return st;
     }
-    *out_summary = t;
+    *out = t;
     return SS_OK;
+}
+
+ss_status ss_stage_clipping(ss_circuit *ckt, ss_table **out_summary, ss_error *err)
+{
+    stage_ref sr;
+    clip_result res;
+    return clipping_summary(ckt, &sr, out_summary, &res, err);
 }
 
 ss_status ss_stage_large_signal(ss_circuit *ckt, ss_table **out_summary, ss_error *err)
 {
     stage_ref sr;
-    ss_status st = stage_lookup(ckt, &sr, err);
+    clip_result res;
+    ss_table *t = NULL;
+    ss_status st = clipping_summary(ckt, &sr, &t, &res, err);
     if (st != SS_OK)
         return st;
-    ss_table *t = metric_table();
-    if (!t)
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    clip_result res;
-    memset(&res, 0, sizeof res);
-    st = clipping_rows(ckt, &sr, t, &res, err);
     double f = ls_freq(ckt);
     double thd_pct = SS_NAN;
     if (st == SS_OK && ckt->ls_amp > 0.0)
