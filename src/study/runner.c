@@ -196,6 +196,8 @@ void ss_study_destroy(ss_study **ps)
     *ps = NULL;
 }
 
+/* Names the stage on the nominal circuit (once; every later use of the nominal has it) and
+ * keeps the names for the per-point circuits. */
 ss_status ss_study_set_stage(ss_study *s, const char *in_source, const char *out_node,
                              ss_error *err)
 {
@@ -593,8 +595,6 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
     long end = total * s->shard_k / s->shard_n;
     /* the nominal run fixes the figure columns */
     ss_table *nominal_figs = NULL;
-    if (s->stage_in)
-        ss_circuit_set_stage(s->nominal, s->stage_in, s->stage_out, 0.0, err);
     ss_status st = ss_figures_compute(s->nominal, s->limits, &nominal_figs, err);
     if (st != SS_OK)
         return st;
@@ -748,8 +748,6 @@ ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "sensitivities need toleranced values: .tolerance lines or --tol");
     ss_table *nom = NULL;
-    if (s->stage_in)
-        ss_circuit_set_stage(s->nominal, s->stage_in, s->stage_out, 0.0, err);
     ss_status st = ss_figures_compute(s->nominal, s->limits, &nom, err);
     if (st != SS_OK)
         return st;
@@ -918,8 +916,6 @@ ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **o
     if (st == SS_OK) {
         for (int i = 0; i < s->n_sets; i++)
             ov[k + i] = s->sets[i];
-        if (s->stage_in)
-            ss_circuit_set_stage(s->nominal, s->stage_in, s->stage_out, 0.0, err);
         st = ss_figures_compute(s->nominal, s->limits, &nfig, err);
     }
     if (st == SS_OK) {
