@@ -11,6 +11,9 @@ struct ss_arena_block {
 };
 
 #define ARENA_BLOCK_MIN 65536u
+/* each new block is twice the last, up to this size: a large netlist gets few, large blocks
+ * (huge pages, fewer page faults) while at most one partly used block is wasted */
+#define ARENA_BLOCK_MAX ((size_t)8 << 20)
 
 /* Under AddressSanitizer every allocation is followed by a poisoned red zone, so an overflow
  * from one arena object into the next is reported like a heap overflow (the fuzz and sanitizer
@@ -46,8 +49,11 @@ void *arena_alloc_raw(ss_arena *a, size_t size, size_t align)
     ss_arena_block *b = a->head;
     size_t start = b ? (b->used + align - 1) & ~(align - 1) : 0;
     if (!b || start + size + ARENA_REDZONE > b->cap) {
-        size_t cap = size + ARENA_REDZONE > ARENA_BLOCK_MIN ? size + ARENA_REDZONE
-                                                             : ARENA_BLOCK_MIN;
+        size_t cap = b ? b->cap * 2 : ARENA_BLOCK_MIN;
+        if (cap > ARENA_BLOCK_MAX)
+            cap = ARENA_BLOCK_MAX;
+        if (cap < size + ARENA_REDZONE)
+            cap = size + ARENA_REDZONE;
         ss_arena_block *nb = ss_alloc(sizeof *nb + cap);
         if (!nb)
             return NULL;
