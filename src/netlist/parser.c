@@ -1027,7 +1027,6 @@ static ss_status add_element(parser *ps, const logline *ll, const scope *sc)
     e->file = ll->file;
     e->line = ll->line;
     e->branch = -1;
-    e->ctrl_elem = -1;
     pctx p = {ps, ll, sc, e->name};
     if (ops->parse(&p, e) != 0)
         return ps->err->code ? ps->err->code : SS_ERR_INPUT;
@@ -1472,10 +1471,27 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
     return line_error(ps, ll, "unknown directive '%s'", d);
 }
 
+/* Lines ahead of the one being built: their element and first node names are looked up in
+ * tables of up to millions of entries, each lookup a cache miss; asking for those buckets a
+ * few lines early lets the misses overlap instead of waiting for each in turn. */
+#define PREFETCH_AHEAD 8
+
+static void prefetch_line(const parser *ps, const logline *ll)
+{
+    const char *t = ll->tok[0];
+    if (t[0] == '.' || t[0] == 'x')
+        return;
+    strmap_prefetch(&ps->ckt->elem_map, t);
+    for (int k = 1; k < ll->n_tok && k < 3; k++)
+        strmap_prefetch(&ps->ckt->node_map, ll->tok[k]);
+}
+
 static ss_status build_lines(parser *ps, const scope *sc, int first, int end)
 {
     for (int i = first; i < end; i++) {
         const logline *ll = &ps->lines[i];
+        if (!sc->prefix[0] && i + PREFETCH_AHEAD < end)
+            prefetch_line(ps, &ps->lines[i + PREFETCH_AHEAD]);
         const char *t = ll->tok[0];
         ss_status st;
         if (t[0] == '.') {
@@ -1504,7 +1520,7 @@ static ss_status resolve_controls(parser *ps)
     ss_circuit *ckt = ps->ckt;
     for (int i = 0; i < ckt->n_elem; i++) {
         element *e = &ckt->elem[i];
-        if (!e->ctrl_name)
+        if (!elem_is_controlled(e))
             continue;
         int c = circuit_find_elem(ckt, e->ctrl_name);
         if (c < 0 || ckt->elem[c].ops->letter != 'v')

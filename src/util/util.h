@@ -34,9 +34,9 @@ SS_HIDDEN char *arena_strndup(ss_arena *a, const char *s, size_t n);
 SS_HIDDEN void arena_clear(ss_arena *a);
 
 /* ---- string -> int hash map (keys are borrowed; they must outlive the map) -------------- */
-typedef struct ss_strmap_entry {
-    uint64_t hash; /* full hash, compared before the string */
+typedef struct ss_strmap_entry { /* 16 bytes: a table of millions of names stays compact */
     const char *key;
+    uint32_t tag; /* 32-bit hash, compared before the string; also picks the bucket */
     int val;
 } ss_strmap_entry;
 typedef struct ss_strmap {
@@ -47,6 +47,8 @@ typedef struct ss_strmap {
 SS_HIDDEN int strmap_get(const ss_strmap *m, const char *key, int *out_val); /* 1 found */
 SS_HIDDEN int strmap_put(ss_strmap *m, const char *key, int val); /* 0 ok, -1 no memory */
 SS_HIDDEN void strmap_clear(ss_strmap *m);
+/* A hint: brings the bucket where key would be into the cache (a lookup follows soon). */
+SS_HIDDEN void strmap_prefetch(const ss_strmap *m, const char *key);
 /* Sizes the table for n keys at once (no regrowth while they are added); 0 ok, -1 no memory. */
 SS_HIDDEN int strmap_reserve(ss_strmap *m, size_t n);
 
