@@ -229,8 +229,10 @@ static ss_status thd_measure(ss_circuit *ckt, const stage_ref *sr, thd_run *r, i
     }
     /* the test signal replaces the stage source's own form; other forms rest */
     for (int i = 0; i < ckt->n_elem; i++) {
-        saved_wave[i] = ckt->elem[i].wave;
-        ckt->elem[i].wave = NULL;
+        element *e = &ckt->elem[i];
+        saved_wave[i] = elem_is_source(e) ? e->wave : NULL;
+        if (elem_is_source(e))
+            e->wave = NULL;
     }
     src_wave sine;
     memset(&sine, 0, sizeof sine);
@@ -252,7 +254,8 @@ static ss_status thd_measure(ss_circuit *ckt, const stage_ref *sr, thd_run *r, i
                     .ctx = &s};
     ss_status st = tran_run(ckt, &cfg, NULL, err);
     for (int i = 0; i < ckt->n_elem; i++)
-        ckt->elem[i].wave = saved_wave[i];
+        if (elem_is_source(&ckt->elem[i]))
+            ckt->elem[i].wave = saved_wave[i];
     ss_free(saved_wave);
     if (st == SS_OK && s.periods < 1)
         st = err_set(err, SS_ERR_INTERNAL, ckt->file, 0, "THD: no complete period");

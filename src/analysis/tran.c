@@ -80,7 +80,7 @@ static ss_status ws_alloc(const ss_circuit *ckt, tran_ws *w, ss_error *err)
             w->q_off[i] = w->n_q;
             w->n_q += e->ops->n_charge;
         }
-        if (e->wave) {
+        if (elem_is_source(e) && e->wave) {
             w->src[w->n_src] = i;
             w->src_dc[w->n_src] = e->value;
             w->n_src++;

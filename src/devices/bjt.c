@@ -102,7 +102,6 @@ static void bjt_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *s
     (void)ckt;
     for (int i = 0; i < SL_COUNT; i++)
         e->slot[i] = -1;
-    e->n_slot = SL_COUNT;
     for (int t = 0; t < 3; t++) {
         if (e->inode[t] != e->node[t])
             claim_pair(e, sc, pair_of[t], e->node[t], e->inode[t]);
@@ -440,6 +439,7 @@ const dev_ops bjt_ops = {
     .parse = bjt_parse,
     .setup = bjt_setup,
     .claim = bjt_claim,
+    .n_slot = SL_COUNT,
     .temp = bjt_temp,
     .load_dc = bjt_load_dc,
     .kcl = bjt_kcl,

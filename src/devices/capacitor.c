@@ -7,7 +7,6 @@ static int cap_parse(pctx *p, element *e) { return parse_two_node_value(p, e, "c
 static void cap_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
 {
     (void)ckt;
-    e->n_slot = 4;
     claim_pair(e, sc, 0, e->node[0], e->node[1]);
 }
 
@@ -50,6 +49,7 @@ const dev_ops capacitor_ops = {
     .kind_name = "capacitor",
     .parse = cap_parse,
     .claim = cap_claim,
+    .n_slot = 4,
     .load_dc = cap_load_dc,
     .kcl = cap_kcl,
     .load_ac = cap_load_ac,

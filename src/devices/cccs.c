@@ -8,6 +8,7 @@ static int cccs_parse(pctx *p, element *e)
         return -1;
     if (pctx_ntok(p) != 5)
         return pctx_error(p, "expects `F n+ n- Vcontrol gain`");
+    e->ctrl_elem = -1;
     e->ctrl_name = pctx_scoped_name(p, pctx_tok(p, 3));
     if (!e->ctrl_name)
         return -1;
@@ -18,7 +19,6 @@ static int cccs_parse(pctx *p, element *e)
 static void cccs_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
 {
     int m = ckt->elem[e->ctrl_elem].branch;
-    e->n_slot = 2;
     e->slot[0] = sc->claim(sc->owner, node_unknown(e->node[0]), m);
     e->slot[1] = sc->claim(sc->owner, node_unknown(e->node[1]), m);
 }
@@ -48,6 +48,7 @@ const dev_ops cccs_ops = {
     .kind_name = "current-controlled current source",
     .parse = cccs_parse,
     .claim = cccs_claim,
+    .n_slot = 2,
     .load_dc = cccs_load_dc,
     .kcl = cccs_kcl,
     .load_ac = cccs_load_ac,

@@ -7,6 +7,7 @@ static int ccvs_parse(pctx *p, element *e)
         return -1;
     if (pctx_ntok(p) != 5)
         return pctx_error(p, "expects `H n+ n- Vcontrol transresistance`");
+    e->ctrl_elem = -1;
     e->ctrl_name = pctx_scoped_name(p, pctx_tok(p, 3));
     if (!e->ctrl_name)
         return -1;
@@ -19,7 +20,6 @@ static void ccvs_setup(element *e, dev_setup_ctx *sc) { e->branch = sc->new_bran
 static void ccvs_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
 {
     int k = e->branch, m = ckt->elem[e->ctrl_elem].branch;
-    e->n_slot = 5;
     e->slot[0] = sc->claim(sc->owner, node_unknown(e->node[0]), k);
     e->slot[1] = sc->claim(sc->owner, node_unknown(e->node[1]), k);
     e->slot[2] = sc->claim(sc->owner, k, node_unknown(e->node[0]));
@@ -57,6 +57,7 @@ const dev_ops ccvs_ops = {
     .parse = ccvs_parse,
     .setup = ccvs_setup,
     .claim = ccvs_claim,
+    .n_slot = 5,
     .load_dc = ccvs_load_dc,
     .kcl = ccvs_kcl,
     .load_ac = ccvs_load_ac,

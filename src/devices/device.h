@@ -115,6 +115,8 @@ typedef struct dev_ops {
     void (*setup)(element *e, dev_setup_ctx *sc);
     /* claim matrix slots into e->slot (after all branches are numbered) */
     void (*claim)(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc);
+    /* how many slots claim() fills (e->n_slot; at most ELEM_MAX_SLOTS) */
+    int n_slot;
     /* temperature and area adjustment of model parameters into e->tp; NULL when none */
     void (*temp)(element *e, double temp_k);
     void (*load_dc)(element *e, dev_load_ctx *lc);
@@ -153,6 +155,17 @@ SS_HIDDEN void bjt_op_details(const element *e, const double *x, double vt_v, do
                               bjt_op_info *out);
 
 /* ---- stamping helpers -------------------------------------------------------------------- */
+/* Which overlaid part of an element (circuit.h) its kind uses. */
+static inline int elem_is_source(const element *e)
+{
+    return e->ops->letter == 'v' || e->ops->letter == 'i';
+}
+static inline int elem_is_controlled(const element *e)
+{
+    return e->ops->letter == 'f' || e->ops->letter == 'h';
+}
+static inline int elem_has_model(const element *e) { return e->ops->model_params != NULL; }
+
 static inline double xv(const double *x, int node_idx)
 {
     return node_idx > 0 ? x[node_idx - 1] : 0.0;

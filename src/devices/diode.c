@@ -55,7 +55,6 @@ static void diode_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx 
     (void)ckt;
     for (int i = 0; i < SL_COUNT; i++)
         e->slot[i] = -1;
-    e->n_slot = SL_COUNT;
     if (e->inode[0] != e->node[0])
         claim_pair(e, sc, SL_RS, e->node[0], e->inode[0]);
     claim_pair(e, sc, SL_J, e->inode[0], e->node[1]);
@@ -189,6 +188,7 @@ const dev_ops diode_ops = {
     .parse = diode_parse,
     .setup = diode_setup,
     .claim = diode_claim,
+    .n_slot = SL_COUNT,
     .temp = diode_temp,
     .load_dc = diode_load_dc,
     .kcl = diode_kcl,

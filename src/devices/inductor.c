@@ -11,7 +11,6 @@ static void ind_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *s
 {
     (void)ckt;
     int ua = node_unknown(e->node[0]), ub = node_unknown(e->node[1]), k = e->branch;
-    e->n_slot = 5;
     e->slot[0] = sc->claim(sc->owner, ua, k);
     e->slot[1] = sc->claim(sc->owner, ub, k);
     e->slot[2] = sc->claim(sc->owner, k, ua);
@@ -61,6 +60,7 @@ const dev_ops inductor_ops = {
     .parse = ind_parse,
     .setup = ind_setup,
     .claim = ind_claim,
+    .n_slot = 5,
     .load_dc = ind_load_dc,
     .kcl = ind_kcl,
     .load_ac = ind_load_ac,

@@ -6,9 +6,9 @@ static int isrc_parse(pctx *p, element *e) { return parse_source_spec(p, e); }
 
 static void isrc_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
 {
+    (void)e;
     (void)ckt;
     (void)sc;
-    e->n_slot = 0;
 }
 
 static void isrc_load_dc(element *e, dev_load_ctx *lc)
@@ -38,6 +38,7 @@ const dev_ops isource_ops = {
     .kind_name = "current source",
     .parse = isrc_parse,
     .claim = isrc_claim,
+    .n_slot = 0,
     .load_dc = isrc_load_dc,
     .kcl = isrc_kcl,
     .load_ac = isrc_load_ac,

@@ -7,7 +7,6 @@ static int res_parse(pctx *p, element *e) { return parse_two_node_value(p, e, "r
 static void res_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
 {
     (void)ckt;
-    e->n_slot = 4;
     claim_pair(e, sc, 0, e->node[0], e->node[1]);
 }
 
@@ -39,6 +38,7 @@ const dev_ops resistor_ops = {
     .kind_name = "resistor",
     .parse = res_parse,
     .claim = res_claim,
+    .n_slot = 4,
     .load_dc = res_load_dc,
     .kcl = res_kcl,
     .load_ac = res_load_ac,

@@ -13,7 +13,6 @@ static int vccs_parse(pctx *p, element *e)
 static void vccs_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
 {
     (void)ckt;
-    e->n_slot = 4;
     claim_quad(e, sc, 0, e->node[0], e->node[1], e->node[2], e->node[3]);
 }
 
@@ -49,6 +48,7 @@ const dev_ops vccs_ops = {
     .kind_name = "voltage-controlled current source",
     .parse = vccs_parse,
     .claim = vccs_claim,
+    .n_slot = 4,
     .load_dc = vccs_load_dc,
     .kcl = vccs_kcl,
     .load_ac = vccs_load_ac,

@@ -17,7 +17,6 @@ static void vcvs_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *
 {
     (void)ckt;
     int k = e->branch;
-    e->n_slot = 6;
     e->slot[0] = sc->claim(sc->owner, node_unknown(e->node[0]), k);
     e->slot[1] = sc->claim(sc->owner, node_unknown(e->node[1]), k);
     e->slot[2] = sc->claim(sc->owner, k, node_unknown(e->node[0]));
@@ -59,6 +58,7 @@ const dev_ops vcvs_ops = {
     .parse = vcvs_parse,
     .setup = vcvs_setup,
     .claim = vcvs_claim,
+    .n_slot = 6,
     .load_dc = vcvs_load_dc,
     .kcl = vcvs_kcl,
     .load_ac = vcvs_load_ac,

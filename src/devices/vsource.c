@@ -12,7 +12,6 @@ static void vsrc_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *
 {
     (void)ckt;
     int ua = node_unknown(e->node[0]), ub = node_unknown(e->node[1]), k = e->branch;
-    e->n_slot = 4;
     e->slot[0] = sc->claim(sc->owner, ua, k);
     e->slot[1] = sc->claim(sc->owner, ub, k);
     e->slot[2] = sc->claim(sc->owner, k, ua);
@@ -58,6 +57,7 @@ const dev_ops vsource_ops = {
     .parse = vsrc_parse,
     .setup = vsrc_setup,
     .claim = vsrc_claim,
+    .n_slot = 4,
     .load_dc = vsrc_load_dc,
     .kcl = vsrc_kcl,
     .load_ac = vsrc_load_ac,

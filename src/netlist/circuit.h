@@ -25,30 +25,40 @@ typedef struct model {
 #define ELEM_MAX_STATE 8
 
 typedef struct element {
+    /* the fields the Newton, AC and transient loops read first, together */
     const struct dev_ops *ops;
+    int *slot;     /* matrix value slots (claim ids until mna_finalize); n_slot of them */
+    double *state; /* device-private Newton state (junction voltages); model devices only */
+    double *tp;    /* model parameters adjusted for area and temperature; model devices only */
+    double value;  /* R ohm, C farad, L henry, source DC value, controlled-source gain */
+    int node[ELEM_MAX_NODES]; /* circuit node indices, 0 is ground */
+    int inode[3]; /* internal nodes made by setup (BJT c' b' e', diode anode'); 0 = none */
+    int branch;   /* unknown index of the element's own branch current; -1 none */
+    /* names and where the element was written */
     const char *name; /* lower case; hierarchical inside subcircuits: x1.q2 */
     const char *file;
     int line;
-    int node[ELEM_MAX_NODES]; /* circuit node indices, 0 is ground */
-    int n_node;
-    int inode[3];   /* internal nodes made by setup (BJT c' b' e', diode anode'); 0 = none */
-    int branch;     /* unknown index of the element's own branch current; -1 none */
-    double value;   /* R ohm, C farad, L henry, source DC value, controlled-source gain */
-    double ac_mag, ac_phase_deg;
-    void *wave; /* V, I: time-varying form (struct src_wave, devices/wave.h, arena); NULL none */
-    const char *ctrl_name; /* F, H: the controlling voltage source */
-    int ctrl_elem;         /* its element index, resolved after parsing */
-    const model *mod;
-    double area;
-    /* The arrays below live in the circuit's arena, sized once in analysis_prepare, so an
-     * element costs about 200 bytes however many of them a circuit has:
-     * tp: MODEL_MAX_PARAMS doubles for elements with a model (else NULL);
-     * slot: exactly n_slot ints (claim() may write up to ELEM_MAX_SLOTS);
-     * state: ELEM_MAX_STATE doubles for elements with a model (else NULL). */
-    double *tp;  /* model parameters adjusted for area and temperature */
-    int *slot;   /* matrix value slots (claim ids until mna_finalize) */
-    int n_slot;
-    double *state; /* device-private Newton state (junction voltages) */
+    unsigned char n_node;
+    unsigned char n_slot;
+    /* what only some kinds have, overlaid (120 bytes per element in all): read these only
+     * through the kind they belong to (elem_is_source / elem_has_model / the F and H files) */
+    union {
+        struct { /* V, I */
+            double ac_mag, ac_phase_deg;
+            void *wave; /* time-varying form (struct src_wave, devices/wave.h, arena); NULL none */
+        };
+        struct {                   /* F, H */
+            const char *ctrl_name; /* the controlling voltage source */
+            int ctrl_elem;         /* its element index, resolved after parsing */
+        };
+        struct { /* D, Q */
+            const model *mod;
+            double area;
+        };
+    };
+    /* tp and state live in the circuit's arena, sized once in analysis_prepare (tp:
+     * MODEL_MAX_PARAMS doubles, state: ELEM_MAX_STATE doubles); slot holds exactly n_slot ints
+     * (claim() may write up to ELEM_MAX_SLOTS) */
 } element;
 
 typedef struct ss_options_set {
