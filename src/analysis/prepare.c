@@ -36,6 +36,9 @@ static int cb_claim(void *owner, int row, int col)
 
 /* ---- topology checks (union-find over nodes) ------------------------------------------- */
 
+/* Union-find with path halving and union by rank: near-constant time per operation even on
+ * a ladder of a million sections, where linking root to root in element order would build
+ * one long chain. */
 static int uf_find(int *parent, int a)
 {
     while (parent[a] != a) {
@@ -45,7 +48,21 @@ static int uf_find(int *parent, int a)
     return a;
 }
 
-static void uf_union(int *parent, int a, int b) { parent[uf_find(parent, a)] = uf_find(parent, b); }
+static void uf_union(int *parent, unsigned char *rank, int a, int b)
+{
+    a = uf_find(parent, a);
+    b = uf_find(parent, b);
+    if (a == b)
+        return;
+    if (rank[a] < rank[b]) {
+        int t = a;
+        a = b;
+        b = t;
+    }
+    parent[b] = a;
+    if (rank[a] == rank[b])
+        rank[a]++;
+}
 
 /* Which element kinds fix a voltage between their first two nodes (so a loop of them is
  * contradictory), and which conduct at DC between which terminals. */
@@ -66,9 +83,12 @@ static ss_status check_topology(ss_circuit *ckt, ss_error *err)
     int n = ckt->n_nodes;
     int *vloop = ss_alloc((size_t)n * sizeof *vloop);
     int *dcpath = ss_alloc((size_t)n * sizeof *dcpath);
-    if (!vloop || !dcpath) {
+    unsigned char *vrank = ss_alloc((size_t)n), *dcrank = ss_alloc((size_t)n);
+    if (!vloop || !dcpath || !vrank || !dcrank) {
         ss_free(vloop);
         ss_free(dcpath);
+        ss_free(vrank);
+        ss_free(dcrank);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
     for (int i = 0; i < n; i++)
@@ -83,16 +103,17 @@ static ss_status check_topology(ss_circuit *ckt, ss_error *err)
                              "%s: closes a loop of voltage sources and inductors between nodes "
                              "'%s' and '%s' (the loop's current is undetermined at DC)",
                              e->name, ckt->node_name[a], ckt->node_name[b]);
-            uf_union(vloop, a, b);
+            uf_union(vloop, vrank, a, b);
         }
         if (conducts_dc(e)) {
             int n_conn = e->ops->letter == 'q' ? 3 : 2;
             for (int k = 1; k < n_conn; k++)
-                uf_union(dcpath, e->node[0], e->node[k]);
+                uf_union(dcpath, dcrank, e->node[0], e->node[k]);
         }
     }
+    int ground = uf_find(dcpath, 0);
     for (int node = 1; node < n && st == SS_OK; node++) {
-        if (ckt->node_internal[node] || uf_find(dcpath, node) == uf_find(dcpath, 0))
+        if (ckt->node_internal[node] || uf_find(dcpath, node) == ground)
             continue;
         /* name an element on the node for the location */
         const element *on = NULL;
@@ -107,6 +128,8 @@ static ss_status check_topology(ss_circuit *ckt, ss_error *err)
     }
     ss_free(vloop);
     ss_free(dcpath);
+    ss_free(vrank);
+    ss_free(dcrank);
     return st;
 }
 
@@ -135,9 +158,11 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
         return st;
     setup_owner so = {ckt, 0, 0};
     dev_setup_ctx sc = {&so, cb_new_node, cb_new_branch, cb_claim, 0};
+    int n_temp = 0;
+    size_t n_slots = 0;
     for (int i = 0; i < ckt->n_elem; i++) {
         element *e = &ckt->elem[i];
-        if (e->mod) { /* only devices with a model keep parameters and Newton state */
+        if (elem_has_model(e)) { /* only they keep parameters and Newton state */
             e->state = arena_alloc(&ckt->arena, ELEM_MAX_STATE * sizeof *e->state);
             e->tp = arena_alloc(&ckt->arena, MODEL_MAX_PARAMS * sizeof *e->tp);
             if (!e->state || !e->tp)
@@ -148,23 +173,23 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
         e->inode[2] = e->node[2];
         if (e->ops->setup)
             e->ops->setup(e, &sc);
+        n_temp += e->ops->temp != NULL;
+        n_slots += (size_t)e->ops->n_slot;
     }
     if (so.failed)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    int n_temp = 0;
-    for (int i = 0; i < ckt->n_elem; i++)
-        n_temp += ckt->elem[i].ops->temp != NULL;
     ckt->temp_elems = arena_alloc(&ckt->arena, (size_t)(n_temp ? n_temp : 1) * sizeof(int));
     if (!ckt->temp_elems)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    ckt->n_temp_elems = 0;
-    for (int i = 0; i < ckt->n_elem; i++)
-        if (ckt->elem[i].ops->temp)
-            ckt->temp_elems[ckt->n_temp_elems++] = i;
     int n_node_unknowns = ckt->n_nodes - 1;
-    for (int i = 0; i < ckt->n_elem; i++)
-        if (ckt->elem[i].branch >= 0)
-            ckt->elem[i].branch += n_node_unknowns;
+    ckt->n_temp_elems = 0;
+    for (int i = 0; i < ckt->n_elem; i++) {
+        element *e = &ckt->elem[i];
+        if (e->branch >= 0)
+            e->branch += n_node_unknowns;
+        if (e->ops->temp)
+            ckt->temp_elems[ckt->n_temp_elems++] = i;
+    }
     ckt->n_branches = so.n_branches;
     ckt->n_unknowns = n_node_unknowns + so.n_branches;
     if (ckt->n_unknowns <= 0)
@@ -179,23 +204,22 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
     ckt->work_bytes = ss_alloc(n);
     ckt->work_zrhs = ss_alloc(n * sizeof *ckt->work_zrhs);
     ckt->work_zx = ss_alloc(n * sizeof *ckt->work_zx);
-    if (!ckt->mna || !ckt->x_op || !ckt->work_rhs || !ckt->work_x || !ckt->x_refine || !ckt->work_esc ||
-        !ckt->work_bytes || !ckt->work_zrhs ||
-        !ckt->work_zx)
+    if (!ckt->mna || !ckt->x_op || !ckt->work_rhs || !ckt->work_x || !ckt->x_refine ||
+        !ckt->work_esc || !ckt->work_bytes || !ckt->work_zrhs || !ckt->work_zx)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    /* claims go to a scratch array first, then into an exact-size one */
-    int scratch[ELEM_MAX_SLOTS];
+    /* every element's slots in one block, each kind claiming its fixed number */
+    int *slot_block = arena_alloc_raw(&ckt->arena, (n_slots ? n_slots : 1) * sizeof(int),
+                                      _Alignof(int));
+    int *slots = slot_block;
+    if (!slots || mna_reserve_claims(ckt->mna, n_slots + n) != 0)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     for (int i = 0; i < ckt->n_elem; i++) {
         element *e = &ckt->elem[i];
-        e->slot = scratch;
-        e->n_slot = 0;
+        assert(e->ops->n_slot <= ELEM_MAX_SLOTS);
+        e->slot = slots;
+        e->n_slot = (unsigned char)e->ops->n_slot;
+        slots += e->n_slot;
         e->ops->claim(e, ckt, &sc);
-        assert(e->n_slot <= ELEM_MAX_SLOTS);
-        int *own = arena_alloc(&ckt->arena, (size_t)(e->n_slot ? e->n_slot : 1) * sizeof *own);
-        if (!own)
-            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-        memcpy(own, scratch, (size_t)e->n_slot * sizeof *own);
-        e->slot = own;
     }
     if (mna_claim_failed(ckt->mna))
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
@@ -205,11 +229,8 @@ ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)
         return report_singular(ckt, bad, "setting up", err);
     if (st != SS_OK)
         return err_set(err, st, NULL, 0, "matrix setup failed: %s", ss_status_name(st));
-    for (int i = 0; i < ckt->n_elem; i++) {
-        element *e = &ckt->elem[i];
-        for (int k = 0; k < e->n_slot; k++)
-            e->slot[k] = mna_slot(ckt->mna, e->slot[k]);
-    }
+    for (size_t k = 0; k < n_slots; k++) /* claim ids to value slots */
+        slot_block[k] = mna_slot(ckt->mna, slot_block[k]);
     mna_release_claims(ckt->mna);
     ckt->prepared = 1;
     return SS_OK;

@@ -1,5 +1,6 @@
 /* MNA pattern assembly and SuiteSparse KLU calls (real and complex). Setup allocates; the
  * per-iteration and per-frequency paths only refill values and refactor. */
+#include <limits.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -56,6 +57,24 @@ void mna_destroy(mna **pm)
     ss_free(m->Az);
     ss_free(m);
     *pm = NULL;
+}
+
+int mna_reserve_claims(mna *m, size_t count)
+{
+    if (count > (size_t)INT_MAX)
+        return -1;
+    if ((int)count <= m->cap_claims)
+        return 0;
+    int *nr = ss_realloc(m->claim_row, count * sizeof *nr);
+    if (!nr)
+        return -1;
+    m->claim_row = nr;
+    int *nc = ss_realloc(m->claim_col, count * sizeof *nc);
+    if (!nc)
+        return -1;
+    m->claim_col = nc;
+    m->cap_claims = (int)count;
+    return 0;
 }
 
 int mna_claim(mna *m, int row, int col)

@@ -27,6 +27,8 @@ SS_HIDDEN mna *mna_create(int n_unknowns);
 SS_HIDDEN void mna_destroy(mna **m);
 /* Claims entry (row, col); returns a claim id, or -1 when either index is ground (-1) or on
  * allocation failure (then mna_claim_failed() is true). */
+/* Room for count claims at once (no regrowth while they come); 0 ok, -1 no memory. */
+SS_HIDDEN int mna_reserve_claims(mna *m, size_t count);
 SS_HIDDEN int mna_claim(mna *m, int row, int col);
 SS_HIDDEN int mna_claim_failed(const mna *m);
 /* Builds the compressed-column pattern (duplicates merged), maps claims to value slots and

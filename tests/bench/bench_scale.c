@@ -159,11 +159,18 @@ static int bench_one(const char *kind, int nodes)
     double t_parse = now_s() - t0;
     ss_op_stats stats;
     t0 = now_s();
+    if (analysis_prepare(ckt, &err) != SS_OK) {
+        fprintf(stderr, "%s %d: %s\n", kind, nodes, err.message);
+        return 1;
+    }
+    double t_prep = now_s() - t0;
     if (ss_op_solve(ckt, NULL, &stats, &err) != SS_OK) {
         fprintf(stderr, "%s %d: %s\n", kind, nodes, err.message);
         return 1;
     }
     double t_op = now_s() - t0;
+    if (getenv("BENCH_PHASES"))
+        fprintf(stderr, "%s %d: prepare %.4f s of op %.4f s\n", kind, nodes, t_prep, t_op);
     const mna_counters *cnt = mna_get_counters(ckt->mna);
     long op_solves = cnt->real_solves;
     /* AC: the per-point cost without writing every node (stage-style use) */
@@ -178,6 +185,8 @@ static int bench_one(const char *kind, int nodes)
     double t_ac = (now_s() - t0) / pts;
     double an, fac, ref, sol, zref, zsol;
     bare_klu(ckt, &an, &fac, &ref, &sol, &zref, &zsol);
+    if (getenv("BENCH_PHASES"))
+        fprintf(stderr, "bare: analyze %.4f factor %.4f refactor %.4f solve %.4f zref %.4f zsol %.4f; op solves %ld\n", an, fac, ref, sol, zref, zsol, op_solves);
     struct rusage ru;
     getrusage(RUSAGE_SELF, &ru);
     double peak_kib = (double)ru.ru_maxrss;
