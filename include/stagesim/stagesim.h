@@ -91,6 +91,13 @@ SS_API ss_status ss_circuit_set_stage(ss_circuit *ckt, const char *in_source,
 
 SS_API double ss_circuit_temp_c(const ss_circuit *ckt);
 
+/* Names the nodes whose per-node results are written: the node-voltage rows of the operating
+ * point table and the report, and the columns of the DC, AC and transient tables, in the order
+ * given. n = 0 (or names NULL) goes back to every netlist node, the default. A name twice is
+ * kept once. SS_ERR_INPUT names a node the circuit does not have. */
+SS_API ss_status ss_circuit_select_nodes(ss_circuit *ckt, const char *const *names, int n,
+                                         ss_error *err);
+
 /* ---- result tables ----------------------------------------------------------------------- */
 
 /* A table of doubles with named columns and, optionally, a text label per row (op.csv's

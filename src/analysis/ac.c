@@ -157,7 +157,7 @@ ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err)
     int nf = 0;
     if ((st = ac_frequencies(ckt, &freqs, &nf, err)) != SS_OK)
         return st;
-    ss_table *t = table_create(1 + 2 * analysis_user_nodes(ckt), NULL);
+    ss_table *t = table_create(1 + 2 * circuit_n_out_nodes(ckt), NULL);
     static const char *const fmts[] = {"vm(%s)", "vp(%s)"};
     int bad = !t || table_set_col(t, 0, "freq_hz") != 0 || analysis_node_cols(t, ckt, 1, fmts, 2);
     if (bad || table_reserve(t, nf) != 0) {
@@ -172,10 +172,9 @@ ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err)
         double *row = table_add_row(t, NULL);
         row[0] = freqs[k];
         const double complex *x = ckt->work_zrhs;
-        for (int node = 1, c = 1; node < ckt->n_nodes; node++) {
-            if (ckt->node_internal[node])
-                continue;
-            double re = creal(x[node - 1]), im = cimag(x[node - 1]);
+        for (int j = 0, c = 1; j < circuit_n_out_nodes(ckt); j++) {
+            int u = node_unknown(circuit_out_node(ckt, j));
+            double re = creal(x[u]), im = cimag(x[u]);
             /* sqrt of the sum of squares is exact enough here (no node voltage comes near
              * 1e154) and much cheaper than hypot/cabs */
             row[c++] = sqrt(re * re + im * im);

@@ -16,7 +16,6 @@ SS_HIDDEN void analysis_apply_temp(ss_circuit *ckt);
 SS_HIDDEN double analysis_vt(const ss_circuit *ckt);
 /* Netlist (not internal) nodes: their count, and one column per node and format ("v(%s)")
  * from first_col on, the formats of a node side by side. 0 ok, -1 no memory. */
-SS_HIDDEN int analysis_user_nodes(const ss_circuit *ckt);
 SS_HIDDEN int analysis_node_cols(ss_table *t, const ss_circuit *ckt, int first_col,
                                  const char *const *fmts, int n_fmts);
 

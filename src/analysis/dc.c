@@ -35,7 +35,7 @@ ss_status ss_dc_sweep_run(ss_circuit *ckt, ss_table **out_dc, ss_error *err)
     if ((double)n_inner * n_outer > 1e7)
         return err_set(err, SS_ERR_LIMIT, ckt->dc[0].file, ckt->dc[0].line,
                        ".dc: more than 1e7 points in all");
-    ss_table *t = table_create(ckt->n_dc + analysis_user_nodes(ckt), NULL);
+    ss_table *t = table_create(ckt->n_dc + circuit_n_out_nodes(ckt), NULL);
     if (!t)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     int col = 0, bad = 0;
@@ -77,9 +77,8 @@ ss_status ss_dc_sweep_run(ss_circuit *ckt, ss_table **out_dc, ss_error *err)
             row[c++] = src[0]->value;
             if (src[1])
                 row[c++] = src[1]->value;
-            for (int node = 1; node < ckt->n_nodes; node++)
-                if (!ckt->node_internal[node])
-                    row[c++] = x[node - 1];
+            for (int j = 0; j < circuit_n_out_nodes(ckt); j++)
+                row[c++] = x[node_unknown(circuit_out_node(ckt, j))];
         }
     }
     src[0]->value = saved[0];

@@ -465,9 +465,8 @@ static ss_status op_table(ss_circuit *ckt, ss_table **out, ss_error *err)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
     op_sink s = {t, 0};
-    for (int node = 1; node < ckt->n_nodes; node++) {
-        if (ckt->node_internal[node])
-            continue;
+    for (int j = 0; j < circuit_n_out_nodes(ckt); j++) {
+        int node = circuit_out_node(ckt, j);
         char label[1200];
         snprintf(label, sizeof label, "v(%s)", ckt->node_name[node]);
         double *row = table_add_row(t, label);

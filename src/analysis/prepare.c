@@ -247,21 +247,12 @@ ss_status report_singular(ss_circuit *ckt, int bad_unknown, const char *during, 
                    what, during);
 }
 
-int analysis_user_nodes(const ss_circuit *ckt)
-{
-    int n = 0;
-    for (int node = 1; node < ckt->n_nodes; node++)
-        n += !ckt->node_internal[node];
-    return n;
-}
-
 int analysis_node_cols(ss_table *t, const ss_circuit *ckt, int first_col,
                        const char *const *fmts, int n_fmts)
 {
     int col = first_col, bad = 0;
-    for (int node = 1; node < ckt->n_nodes; node++) {
-        if (ckt->node_internal[node])
-            continue;
+    for (int j = 0; j < circuit_n_out_nodes(ckt); j++) {
+        int node = circuit_out_node(ckt, j);
         for (int k = 0; k < n_fmts; k++) {
             char name[1200];
             snprintf(name, sizeof name, fmts[k], ckt->node_name[node]);

@@ -496,9 +496,8 @@ static int sink_point(void *vctx, long k, double t_s, const double *x)
         return 1;
     int c = 0;
     row[c++] = t_s;
-    for (int node = 1; node < s->ckt->n_nodes; node++)
-        if (!s->ckt->node_internal[node])
-            row[c++] = x[node - 1];
+    for (int j = 0; j < circuit_n_out_nodes(s->ckt); j++)
+        row[c++] = x[node_unknown(circuit_out_node(s->ckt, j))];
     return 0;
 }
 
@@ -509,7 +508,7 @@ ss_status ss_tran_run(ss_circuit *ckt, ss_table **out_tran, ss_error *err)
     ss_status st = analysis_prepare(ckt, err);
     if (st != SS_OK)
         return st;
-    int n_user = analysis_user_nodes(ckt);
+    int n_user = circuit_n_out_nodes(ckt);
     ss_table *t = table_create(1 + n_user, NULL);
     if (!t)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");

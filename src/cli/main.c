@@ -34,6 +34,8 @@ static const char USAGE[] =
     "  --in SRC --out NODE   the stage's source and output node (override .stage)\n"
     "  --load OHMS       the load the stage drives, for the Zout check\n"
     "  --plot            (run) also write bode.svg (and wave.svg, thd_wave.svg)\n"
+    "  --nodes A,B,...   (run) write only these nodes' voltages (op, dc, ac, tran tables and\n"
+    "                    the report); default every node\n"
     "  --ls-freq F --thd-amp A --thd-target PCT   (run) the large-signal test\n"
     "  --quiet           no report on stdout\n"
     "  --limits FILE     (sweep, spread, merge) limits for pass fractions and yield\n"
@@ -93,6 +95,8 @@ typedef struct cli_args {
     int series;
     double temp_lo, temp_hi;
     double ls_freq, thd_amp, thd_target;
+    const char **nodes; /* --nodes lists, each comma-separated */
+    int n_nodes;
 } cli_args;
 
 /* mkdir -p: creates DIR and any missing parents. */
@@ -139,7 +143,43 @@ static int write_table(const ss_table *t, const char *dir, const char *name, ss_
     return ss_table_write_csv(t, path, err) == SS_OK ? 0 : -1;
 }
 
-/* Parses the netlist and applies --in/--out/--load. */
+/* --nodes a,b --nodes c: the nodes whose per-node results run writes. */
+static int select_nodes(ss_circuit *ckt, const cli_args *a)
+{
+    size_t total = 0;
+    for (int i = 0; i < a->n_nodes; i++)
+        total += strlen(a->nodes[i]) + 1;
+    char *buf = malloc(total);
+    const char **names = calloc(total, sizeof *names);
+    if (!buf || !names) {
+        free(buf);
+        free(names);
+        fprintf(stderr, "stagesim: out of memory\n");
+        return EXIT_BAD_INPUT;
+    }
+    int n = 0;
+    char *w = buf;
+    for (int i = 0; i < a->n_nodes; i++) {
+        size_t len = strlen(a->nodes[i]);
+        memcpy(w, a->nodes[i], len + 1);
+        for (char *tok = strtok(w, ","); tok; tok = strtok(NULL, ","))
+            names[n++] = tok;
+        w += len + 1;
+    }
+    ss_error err = {0};
+    int rc = EXIT_OK;
+    if (n == 0)
+        rc = usage_error("%s", "--nodes needs node names separated by commas");
+    else if (ss_circuit_select_nodes(ckt, names, n, &err) != SS_OK) {
+        fprintf(stderr, "stagesim: --nodes: %s\n", err.message);
+        rc = EXIT_BAD_INPUT;
+    }
+    free(buf);
+    free(names);
+    return rc;
+}
+
+/* Parses the netlist and applies --in/--out/--load/--nodes. */
 static int load_circuit(const cli_args *a, ss_circuit **out)
 {
     ss_error err = {0};
@@ -158,6 +198,10 @@ static int load_circuit(const cli_args *a, ss_circuit **out)
         }
     } else if (a->load_ohm > 0.0) {
         ss_circuit_set_stage(ckt, NULL, NULL, a->load_ohm, &err);
+    }
+    if (a->n_nodes > 0 && select_nodes(ckt, a) != EXIT_OK) {
+        ss_circuit_destroy(&ckt);
+        return EXIT_BAD_INPUT;
     }
     *out = ckt;
     return EXIT_OK;
@@ -678,7 +722,8 @@ static int parse_args(int argc, char **argv, cli_args *a)
     a->varies = calloc((size_t)argc, sizeof *a->varies);
     a->tols = calloc((size_t)argc, sizeof *a->tols);
     a->shards = calloc((size_t)argc, sizeof *a->shards);
-    if (!a->sets || !a->varies || !a->tols || !a->shards)
+    a->nodes = calloc((size_t)argc, sizeof *a->nodes);
+    if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes)
         return EXIT_BAD_INPUT;
     int is_merge = strcmp(a->cmd, "merge") == 0;
     for (int i = 2; i < argc; i++) {
@@ -688,7 +733,8 @@ static int parse_args(int argc, char **argv, cli_args *a)
         static const char *const with_value[] = {
             "-o",       "--out-dir", "--set",   "--in",     "--out",   "--load",   "--junit",
             "--limits", "--vary",    "--tol",   "--trials", "--seed",  "--threads", "--shard",
-            "--min-yield", "--series", "--temps", "--ls-freq", "--thd-amp", "--thd-target"};
+            "--min-yield", "--series", "--temps", "--ls-freq", "--thd-amp", "--thd-target",
+            "--nodes"};
         int takes = 0;
         for (size_t k = 0; k < sizeof with_value / sizeof with_value[0]; k++)
             takes |= strcmp(o, with_value[k]) == 0;
@@ -775,6 +821,8 @@ static int parse_args(int argc, char **argv, cli_args *a)
                 a->thd_amp = v;
             else
                 a->thd_target = v;
+        } else if (strcmp(o, "--nodes") == 0) {
+            a->nodes[a->n_nodes++] = next;
         } else if (strcmp(o, "--plot") == 0) {
             a->plot = 1;
         } else if (strcmp(o, "--quiet") == 0 || strcmp(o, "-q") == 0) {
@@ -798,6 +846,8 @@ static int parse_args(int argc, char **argv, cli_args *a)
     }
     if (!is_merge && !a->netlist)
         return usage_error("%s needs a NETLIST", a->cmd);
+    if (a->n_nodes > 0 && strcmp(a->cmd, "run") != 0)
+        return usage_error("--nodes belongs to run (the per-node tables), not %s", a->cmd);
     return EXIT_OK;
 }
 
@@ -848,6 +898,7 @@ int main(int argc, char **argv)
     free(a.varies);
     free(a.tols);
     free(a.shards);
+    free(a.nodes);
     return rc;
 }
 

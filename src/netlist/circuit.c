@@ -1,5 +1,6 @@
 /* Circuit bookkeeping: nodes and their names, element and model lookup, warnings, and the
  * public accessors and destructor. Parsing is parser.c's; solving is src/analysis's. */
+#include <assert.h>
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -46,7 +47,57 @@ int circuit_add_node_borrowed(struct ss_circuit *ckt, const char *copy, int inte
     ckt->node_name[idx] = copy;
     ckt->node_internal[idx] = (unsigned char)internal;
     ckt->n_nodes++;
+    if (!internal && idx > 0) { /* internal nodes come only after the netlist's (prepare) */
+        assert(idx == ckt->n_netlist_nodes + 1);
+        ckt->n_netlist_nodes = idx;
+    }
     return idx;
+}
+
+ss_status ss_circuit_select_nodes(ss_circuit *ckt, const char *const *names, int n,
+                                  ss_error *err)
+{
+    if (!names || n <= 0) {
+        ss_free(ckt->out_nodes);
+        ckt->out_nodes = NULL;
+        ckt->n_out_nodes = 0;
+        return SS_OK;
+    }
+    int *sel = ss_alloc((size_t)n * sizeof *sel);
+    unsigned char *taken = ss_alloc((size_t)ckt->n_nodes);
+    if (!sel || !taken) {
+        ss_free(sel);
+        ss_free(taken);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    int count = 0;
+    for (int k = 0; k < n; k++) {
+        char low[1024]; /* a name that does not fit is no node: never cut it to one that is */
+        int node = names[k] && name_lower_copy(names[k], low, sizeof low)
+                       ? (strcmp(low, "gnd") == 0 ? 0 : circuit_find_node(ckt, low))
+                       : -1;
+        if (node == 0) {
+            ss_free(sel);
+            ss_free(taken);
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "node '%s' is ground: its voltage is 0 by definition", names[k]);
+        }
+        if (node < 0 || ckt->node_internal[node]) {
+            ss_free(sel);
+            ss_free(taken);
+            return err_set(err, SS_ERR_INPUT, NULL, 0, "'%s' is no node of the circuit",
+                           names[k] ? names[k] : "(null)");
+        }
+        if (!taken[node]) {
+            taken[node] = 1;
+            sel[count++] = node;
+        }
+    }
+    ss_free(taken);
+    ss_free(ckt->out_nodes);
+    ckt->out_nodes = sel;
+    ckt->n_out_nodes = count;
+    return SS_OK;
 }
 
 void circuit_unknown_name(const struct ss_circuit *ckt, int unknown, char *buf, size_t len)
@@ -190,6 +241,7 @@ void ss_circuit_destroy(ss_circuit **pckt)
     ss_free(ckt->ac_a0);
     ss_free(ckt->ac_a1);
     ss_free(ckt->ac_rhs);
+    ss_free(ckt->out_nodes);
     ss_free(ckt->node_name);
     ss_free(ckt->node_internal);
     strmap_clear(&ckt->node_map);

@@ -87,6 +87,7 @@ struct ss_circuit {
     const char **node_name;
     unsigned char *node_internal;
     int n_nodes, cap_nodes;
+    int n_netlist_nodes; /* nodes 1 .. n_netlist_nodes are the netlist's, the rest internal */
     ss_strmap node_map;
 
     element *elem;
@@ -170,6 +171,11 @@ struct ss_circuit {
     const void *ac_rhs_src;
     int ac_rhs_all_off, ac_rhs_ok;
 
+    /* the nodes whose per-node results are written (ss_circuit_select_nodes): out_nodes[0 ..
+     * n_out_nodes-1], node indices; NULL = every netlist node (circuit_out_node) */
+    int *out_nodes;
+    int n_out_nodes;
+
     const char **warnings;
     int n_warnings;
 };
@@ -185,6 +191,16 @@ SS_HIDDEN int circuit_find_elem(const struct ss_circuit *ckt, const char *name);
 SS_HIDDEN int circuit_add_node(struct ss_circuit *ckt, const char *name, int internal);
 /* The same with a name that already lives in the circuit's arena (not copied). */
 SS_HIDDEN int circuit_add_node_borrowed(struct ss_circuit *ckt, const char *name, int internal);
+/* The nodes whose per-node results are written, in order: the selection, or every netlist
+ * node. Netlist nodes are 1 .. n (their count); internal nodes are numbered after them. */
+static inline int circuit_n_out_nodes(const struct ss_circuit *ckt)
+{
+    return ckt->out_nodes ? ckt->n_out_nodes : ckt->n_netlist_nodes;
+}
+static inline int circuit_out_node(const struct ss_circuit *ckt, int k)
+{
+    return ckt->out_nodes ? ckt->out_nodes[k] : k + 1;
+}
 /* Name of an MNA unknown for messages: "node 'vb'" or "branch current of 'v1'". */
 SS_HIDDEN void circuit_unknown_name(const struct ss_circuit *ckt, int unknown, char *buf,
                                     size_t len);

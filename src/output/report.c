@@ -75,6 +75,8 @@ static void capture_value(void *sink, const char *quantity, const char *elem_nam
     *(double *)sink = v;
 }
 
+#define REPORT_MAX_NODES 100
+
 void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f)
 {
     char a[48], b[48], c[48], d[48], e_[48], g[48];
@@ -85,9 +87,17 @@ void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f)
     double vt = analysis_vt(ckt);
     if (ckt->have_op) {
         fprintf(f, "\nNode voltages\n");
-        for (int node = 1; node < ckt->n_nodes; node++)
-            if (!ckt->node_internal[node])
-                fprintf(f, "  %-20s %12.6f V\n", ckt->node_name[node], ckt->x_op[node - 1]);
+        /* a board of thousands of nodes would bury the rest of the report: the first
+         * REPORT_MAX_NODES unless nodes were named (op.csv always has every one) */
+        int n_out = circuit_n_out_nodes(ckt);
+        int shown = ckt->out_nodes || n_out <= REPORT_MAX_NODES ? n_out : REPORT_MAX_NODES;
+        for (int j = 0; j < shown; j++) {
+            int node = circuit_out_node(ckt, j);
+            fprintf(f, "  %-20s %12.6f V\n", ckt->node_name[node], ckt->x_op[node - 1]);
+        }
+        if (shown < n_out)
+            fprintf(f, "  ... and %d more (all in op.csv; --nodes names the ones to show)\n",
+                    n_out - shown);
         int any = 0;
         for (int i = 0; i < ckt->n_elem; i++) {
             const element *el = &ckt->elem[i];

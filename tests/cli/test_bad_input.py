@@ -398,6 +398,18 @@ case("--in naming a missing source", 2,
      files=V, args=RUN + ["--in", "v9", "--out", "in"])
 case("--out naming a missing node", 2, "stagesim: stage output node 'zz' does not exist",
      files=V, args=RUN + ["--in", "v1", "--out", "zz"])
+case("--nodes naming a missing node", 2, "stagesim: --nodes: 'zz' is no node of the circuit",
+     files=V, args=RUN + ["--nodes", "in,zz"])
+case("--nodes naming ground", 2,
+     "stagesim: --nodes: node 'gnd' is ground: its voltage is 0 by definition",
+     files=V, args=RUN + ["--nodes", "gnd"])
+case("--nodes with only commas", 2, "stagesim: --nodes needs node names separated by commas",
+     usage=True, files=V, args=RUN + ["--nodes", ",,"])
+case("--nodes as the last argument", 2, "stagesim: --nodes needs a value", usage=True,
+     files=V, args=RUN + ["--nodes"])
+case("--nodes outside run", 2, "stagesim: --nodes belongs to run (the per-node tables), not "
+     "sweep", usage=True, files=V,
+     args=["sweep", "{T}/n.cir", "-o", "{T}/out", "--vary", "rtop=list:1k", "--nodes", "in"])
 case("netlist file that does not exist", 2,
      TMP + "/nothere.cir: cannot open netlist: No such file or directory",
      args=["run", "{T}/nothere.cir", "-o", "{T}/out"])
@@ -469,6 +481,22 @@ def check_op_csv(t, out):
 
 
 case("valid netlist runs and writes op.csv", 0, "", files=V, check=check_op_csv)
+
+
+def check_op_nodes(t, out):
+    with open(os.path.join(t, "out", "op.csv")) as f:
+        labels = [r.split(",")[0] for r in f.read().splitlines()[1:]]
+    want = ["v(in)", "i(v1)", "id(d1)"]  # only the named node's voltage; element rows stay
+    if [x for x in labels if x.startswith("v(")] != ["v(in)"] or not all(w in labels
+                                                                          for w in want):
+        return "op.csv rows %s" % labels
+    if "in " not in out or "vcc " in out:
+        return "report shows other nodes: %r" % out
+    return None
+
+
+case("--nodes limits op.csv and the report", 0, "", files=V,
+     args=RUN + ["--nodes", "IN,in"], check=check_op_nodes)
 case("valid netlist with --set", 0, "", files=V, args=RUN + ["--set", "rtop=22k"],
      check=check_op_csv)
 
