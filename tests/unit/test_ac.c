@@ -107,6 +107,39 @@ static void test_ac_table_columns(void **state)
     ss_circuit_destroy(&ckt);
 }
 
+/* Node selection (ss_circuit_select_nodes): the columns follow the names given, in order,
+ * duplicates once; NULL goes back to every node; a missing node or ground is refused. The
+ * divider's half (Ohm's law) is the value check. */
+static void test_ac_node_selection(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse("sel\nvin in 0 ac 2\nr1 in mid 1k\nr2 mid out 1k\n"
+                                    "r3 out 0 2k\n.ac oct 1 100 200\n");
+    ss_error err = {0};
+    const char *names[] = {"OUT", "in", "out"};
+    assert_int_equal(ss_circuit_select_nodes(ckt, names, 3, &err), SS_OK);
+    ss_table *ac = NULL;
+    assert_int_equal(ss_ac_sweep_run(ckt, &ac, &err), SS_OK);
+    assert_int_equal(ss_table_cols(ac), 5);
+    assert_string_equal(ss_table_col_name(ac, 1), "vm(out)");
+    assert_string_equal(ss_table_col_name(ac, 3), "vm(in)");
+    ss_assert_close(ss_table_get(ac, 0, 1), 1.0, 1e-14, 0);
+    ss_assert_close(ss_table_get(ac, 0, 3), 2.0, 1e-14, 0);
+    ss_table_destroy(&ac);
+    assert_int_equal(ss_circuit_select_nodes(ckt, NULL, 0, &err), SS_OK);
+    assert_int_equal(ss_ac_sweep_run(ckt, &ac, &err), SS_OK);
+    assert_int_equal(ss_table_cols(ac), 7); /* in, mid, out */
+    ss_table_destroy(&ac);
+    const char *bad[] = {"nowhere"};
+    assert_int_equal(ss_circuit_select_nodes(ckt, bad, 1, &err), SS_ERR_INPUT);
+    ss_assert_contains(err.message, "'nowhere' is no node");
+    const char *gnd[] = {"0"};
+    ss_error err2 = {0};
+    assert_int_equal(ss_circuit_select_nodes(ckt, gnd, 1, &err2), SS_ERR_INPUT);
+    ss_assert_contains(err2.message, "ground");
+    ss_circuit_destroy(&ckt);
+}
+
 static void test_stage_without_stage_is_error(void **state)
 {
     (void)state;
@@ -126,6 +159,7 @@ int main(void)
         cmocka_unit_test(test_rc_highpass_corner_and_phase),
         cmocka_unit_test(test_series_rlc_resonance),
         cmocka_unit_test(test_ac_table_columns),
+        cmocka_unit_test(test_ac_node_selection),
         cmocka_unit_test(test_stage_without_stage_is_error),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
