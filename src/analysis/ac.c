@@ -51,44 +51,55 @@ static void load_ac_all(ss_circuit *ckt, double omega, const element *only_src, 
     memset(ckt->work_zrhs, 0, (size_t)ckt->n_unknowns * sizeof *ckt->work_zrhs);
     dev_ac_ctx ac = {G, ckt->work_zrhs, ckt->x_op, omega, analysis_vt(ckt), ckt->opt.gmin,
                      only_src, all_src_off};
+    ckt->ac_g_base = 0; /* the values are this load's now, not the fast path's */
     for (int i = 0; i < ckt->n_elem; i++) {
         const element *e = &ckt->elem[i];
         e->ops->load_ac(e, &ac);
     }
 }
 
-/* Builds A0 = Y(0) and A1 = Im Y(1) once per operating point and checks Y(w) = A0 + jw A1 at
- * a test frequency; a device whose admittance is not of that form turns the fast path off. */
-static ss_status ac_cache_build(ss_circuit *ckt, ss_error *err)
+/* Builds A0 = Re Y(1) and A1 = Im Y(1) once per operating point, with the right-hand side of
+ * the source selection at hand, and checks Y(w) = A0 + jw A1 (and the same right-hand side) at
+ * a test frequency; a device whose admittance is not of that form turns the fast path off.
+ * Two passes over the elements in all. */
+static ss_status ac_cache_build(ss_circuit *ckt, const element *only_src, int all_src_off,
+                                ss_error *err)
 {
     mna *m = ckt->mna;
-    int nnz = mna_nnz(m);
+    int nnz = mna_nnz(m), n = ckt->n_unknowns;
     if (!ckt->ac_a0) {
         ckt->ac_a0 = ss_alloc((size_t)nnz * sizeof *ckt->ac_a0);
         ckt->ac_a1 = ss_alloc((size_t)nnz * sizeof *ckt->ac_a1);
-        ckt->ac_rhs = ss_alloc((size_t)ckt->n_unknowns * sizeof *ckt->ac_rhs);
-        if (!ckt->ac_a0 || !ckt->ac_a1 || !ckt->ac_rhs)
+        ckt->ac_rhs = ss_alloc((size_t)n * sizeof *ckt->ac_rhs);
+        ckt->ac_wslots = ss_alloc((size_t)nnz * sizeof *ckt->ac_wslots);
+        if (!ckt->ac_a0 || !ckt->ac_a1 || !ckt->ac_rhs || !ckt->ac_wslots)
             return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
     const double complex *G = mna_zvalues(m);
-    int affine = 1;
-    load_ac_all(ckt, 0.0, NULL, 1);
+    const double complex *rhs = ckt->work_zrhs;
+    load_ac_all(ckt, 1.0, only_src, all_src_off);
+    ckt->n_ac_wslots = 0;
     for (int k = 0; k < nnz; k++) {
         ckt->ac_a0[k] = creal(G[k]);
-        affine &= cimag(G[k]) == 0.0;
-    }
-    load_ac_all(ckt, 1.0, NULL, 1);
-    for (int k = 0; k < nnz; k++)
         ckt->ac_a1[k] = cimag(G[k]);
+        if (ckt->ac_a1[k] != 0.0)
+            ckt->ac_wslots[ckt->n_ac_wslots++] = k;
+    }
+    memcpy(ckt->ac_rhs, rhs, (size_t)n * sizeof *rhs);
     const double w_test = 2.0 * SS_PI * 12345.678;
-    load_ac_all(ckt, w_test, NULL, 1);
+    load_ac_all(ckt, w_test, only_src, all_src_off);
+    int affine = 1;
     for (int k = 0; k < nnz && affine; k++) {
         double complex y = ckt->ac_a0[k] + SS_J * w_test * ckt->ac_a1[k];
         double scale = fabs(creal(G[k])) + fabs(cimag(G[k])) + 1e-300;
         affine = cabs(y - G[k]) <= 1e-12 * scale;
     }
+    for (int u = 0; u < n && affine; u++)
+        affine = rhs[u] == ckt->ac_rhs[u];
     ckt->ac_affine = affine;
-    ckt->ac_rhs_ok = 0;
+    ckt->ac_rhs_src = only_src;
+    ckt->ac_rhs_all_off = all_src_off;
+    ckt->ac_rhs_ok = 1;
     ckt->ac_serial = ckt->op_serial;
     return SS_OK;
 }
@@ -101,7 +112,8 @@ ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
     double complex *G = mna_zvalues(m);
     double complex *rhs = ckt->work_zrhs;
     ss_status st;
-    if (ckt->ac_serial != ckt->op_serial && (st = ac_cache_build(ckt, err)) != SS_OK)
+    if (ckt->ac_serial != ckt->op_serial &&
+        (st = ac_cache_build(ckt, only_src, all_src_off, err)) != SS_OK)
         return st;
     if (!ckt->ac_affine) {
         load_ac_all(ckt, omega, only_src, all_src_off);
@@ -116,8 +128,17 @@ ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
             ckt->ac_rhs_ok = 1;
         }
         const double *a0 = ckt->ac_a0, *a1 = ckt->ac_a1;
-        for (int k = 0; k < nnz; k++)
-            G[k] = a0[k] + SS_J * (omega * a1[k]);
+        if (!ckt->ac_g_base) {
+            for (int k = 0; k < nnz; k++)
+                G[k] = a0[k] + SS_J * (omega * a1[k]);
+            ckt->ac_g_base = 1;
+        } else { /* the rest holds its frequency-independent value already */
+            const int *ws = ckt->ac_wslots;
+            for (int j = 0; j < ckt->n_ac_wslots; j++) {
+                int k = ws[j];
+                G[k] = a0[k] + SS_J * (omega * a1[k]);
+            }
+        }
         memcpy(rhs, ckt->ac_rhs, (size_t)n * sizeof *rhs);
     }
     if (inject_node > 0)
@@ -137,7 +158,13 @@ ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
                      "AC: the matrix is nearly singular near %.4g Hz (reciprocal condition "
                      "%.2g); results there may be inaccurate",
                      omega / (2.0 * SS_PI), rcond);
-    for (int u = 0; u < n; u++)
+    /* x * 0 is 0 for every finite x and NaN otherwise: one vectorisable sum says whether all
+     * is finite, and only then is the culprit looked for */
+    const double *rv = (const double *)rhs;
+    double probe = 0.0;
+    for (int u = 0; u < 2 * n; u++)
+        probe += rv[u] * 0.0;
+    for (int u = 0; u < n && probe != 0.0; u++) /* probe is 0.0 or NaN */
         if (!isfinite(creal(rhs[u])) || !isfinite(cimag(rhs[u]))) {
             char what[1200];
             circuit_unknown_name(ckt, u, what, sizeof what);

@@ -165,6 +165,9 @@ struct ss_circuit {
     /* AC fast path (analysis/ac.c): every device's admittance is G + jwC, so the matrix is
      * A0 + jw A1 with A0, A1 fixed at the operating point; checked once per operating point */
     double *ac_a0, *ac_a1;
+    int *ac_wslots; /* the slots k with a1[k] != 0: only they change with frequency */
+    int n_ac_wslots;
+    int ac_g_base;  /* 1 while the matrix values hold A0 + jw A1 of some w (the fast path's) */
     double _Complex *ac_rhs;
     int ac_serial;   /* op_serial the cache was built for; 0 = none */
     int ac_affine;   /* 1 when the check passed */
