@@ -13,48 +13,94 @@ int output_format_double(char *buf, size_t len, double v)
     return fmt_double_shortest(buf, len, v);
 }
 
-static void csv_field(ss_strbuf *b, const char *s)
+/* The file is written in chunks of CSV_CHUNK bytes as it is formatted: a sweep of millions of
+ * values never sits in memory twice, and the buffer is never regrown and copied. */
+#define CSV_CHUNK ((size_t)1 << 20)
+#define CSV_MAX_NUMBER (FMT_DOUBLE_MAX_LEN + 1) /* a formatted double and its NUL */
+
+typedef struct csv_out {
+    output_file f;
+    char *buf;
+    size_t len;
+} csv_out;
+
+static void csv_flush(csv_out *o)
+{
+    output_atomic_write(&o->f, o->buf, o->len);
+    o->len = 0;
+}
+
+static void csv_put(csv_out *o, const char *s, size_t n)
+{
+    while (n > 0) {
+        if (o->len == CSV_CHUNK)
+            csv_flush(o);
+        size_t k = CSV_CHUNK - o->len < n ? CSV_CHUNK - o->len : n;
+        memcpy(o->buf + o->len, s, k);
+        o->len += k;
+        s += k;
+        n -= k;
+    }
+}
+
+static void csv_char(csv_out *o, char c)
+{
+    if (o->len == CSV_CHUNK)
+        csv_flush(o);
+    o->buf[o->len++] = c;
+}
+
+static void csv_field(csv_out *o, const char *s)
 {
     if (strpbrk(s, ",\"\r\n") == NULL) {
-        strbuf_append(b, s, strlen(s));
+        csv_put(o, s, strlen(s));
         return;
     }
-    strbuf_append(b, "\"", 1);
+    csv_char(o, '"');
     for (; *s; s++) {
         if (*s == '"')
-            strbuf_append(b, "\"", 1);
-        strbuf_append(b, s, 1);
+            csv_char(o, '"');
+        csv_char(o, *s);
     }
-    strbuf_append(b, "\"", 1);
+    csv_char(o, '"');
 }
 
 ss_status ss_table_write_csv(const ss_table *t, const char *path, ss_error *err)
 {
-    ss_strbuf b = {0};
+    csv_out o = {.buf = ss_alloc(CSV_CHUNK)};
+    if (!o.buf)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    ss_status st = output_atomic_open(&o.f, path, err);
+    if (st != SS_OK) {
+        ss_free(o.buf);
+        return st;
+    }
     if (t->has_labels) {
-        csv_field(&b, t->label_col);
-        strbuf_append(&b, ",", 1);
+        csv_field(&o, t->label_col);
+        csv_char(&o, ',');
     }
     for (int j = 0; j < t->n_cols; j++) {
         if (j)
-            strbuf_append(&b, ",", 1);
-        csv_field(&b, t->col_names[j]);
+            csv_char(&o, ',');
+        csv_field(&o, t->col_names[j]);
     }
-    strbuf_append(&b, "\n", 1);
-    char num[40];
-    for (int i = 0; i < t->n_rows; i++) {
+    csv_char(&o, '\n');
+    for (int i = 0; i < t->n_rows && !o.f.failed; i++) {
         if (t->has_labels) {
-            csv_field(&b, t->row_labels[i]);
-            strbuf_append(&b, ",", 1);
+            csv_field(&o, t->row_labels[i]);
+            csv_char(&o, ',');
         }
         const double *row = t->data + (size_t)i * (size_t)t->n_cols;
         for (int j = 0; j < t->n_cols; j++) {
+            if (CSV_CHUNK - o.len < CSV_MAX_NUMBER + 2)
+                csv_flush(&o);
             if (j)
-                strbuf_append(&b, ",", 1);
-            int n = output_format_double(num, sizeof num, row[j]);
-            strbuf_append(&b, num, (size_t)n);
+                o.buf[o.len++] = ',';
+            o.len += (size_t)output_format_double(o.buf + o.len, CSV_MAX_NUMBER, row[j]);
         }
-        strbuf_append(&b, "\n", 1);
+        csv_char(&o, '\n');
     }
-    return output_write_strbuf(&b, path, err);
+    csv_flush(&o);
+    ss_free(o.buf);
+    return output_atomic_commit(&o.f, err);
 }

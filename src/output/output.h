@@ -10,6 +10,19 @@
  * and a rename, so an interrupted run leaves the old file or none (atomic.c). */
 SS_HIDDEN ss_status output_write_atomic(const char *path, const char *data, size_t len,
                                         ss_error *err);
+/* The same in steps, for output too large to build in memory first: open (the temporary
+ * file), write any number of times (a failure is kept and reported by commit), then commit
+ * (flush, rename) or abort (remove the temporary file). */
+typedef struct output_file {
+    const char *path;
+    char *tmp;
+    int fd;
+    int failed, err_no;
+} output_file;
+SS_HIDDEN ss_status output_atomic_open(output_file *f, const char *path, ss_error *err);
+SS_HIDDEN void output_atomic_write(output_file *f, const char *data, size_t len);
+SS_HIDDEN ss_status output_atomic_commit(output_file *f, ss_error *err);
+SS_HIDDEN void output_atomic_abort(output_file *f);
 /* Writes a buffer with output_write_atomic (SS_ERR_NOMEM when the buffer's growth failed) and
  * clears it either way. */
 SS_HIDDEN ss_status output_write_strbuf(ss_strbuf *b, const char *path, ss_error *err);
