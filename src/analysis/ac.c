@@ -51,51 +51,58 @@ static void load_ac_all(ss_circuit *ckt, double omega, const element *only_src, 
     memset(ckt->work_zrhs, 0, (size_t)ckt->n_unknowns * sizeof *ckt->work_zrhs);
     dev_ac_ctx ac = {G, ckt->work_zrhs, ckt->x_op, omega, analysis_vt(ckt), ckt->opt.gmin,
                      only_src, all_src_off};
-    ckt->ac_g_base = 0; /* the values are this load's now, not the fast path's */
     for (int i = 0; i < ckt->n_elem; i++) {
         const element *e = &ckt->elem[i];
         e->ops->load_ac(e, &ac);
     }
 }
 
-/* Builds A0 = Re Y(1) and A1 = Im Y(1) once per operating point, with the right-hand side of
- * the source selection at hand, and checks Y(w) = A0 + jw A1 (and the same right-hand side) at
- * a test frequency; a device whose admittance is not of that form turns the fast path off.
- * Two passes over the elements in all. */
+/* Checks once per operating point that every admittance is G + jwC, i.e. the matrix is
+ * Y(w) = A0 + jw A1: loads Y(1) and Y(w_test) and compares. When it holds, the slots with
+ * A1 = 0 keep their value at every frequency, so only the others are kept (slot, A0, A1) and
+ * rewritten per point; the right-hand side of the source selection at hand is kept too. A
+ * device whose admittance is not of that form turns the fast path off. Two passes over the
+ * elements in all; Y(1) is held only while checking. */
 static ss_status ac_cache_build(ss_circuit *ckt, const element *only_src, int all_src_off,
                                 ss_error *err)
 {
     mna *m = ckt->mna;
     int nnz = mna_nnz(m), n = ckt->n_unknowns;
-    if (!ckt->ac_a0) {
-        ckt->ac_a0 = ss_alloc((size_t)nnz * sizeof *ckt->ac_a0);
-        ckt->ac_a1 = ss_alloc((size_t)nnz * sizeof *ckt->ac_a1);
-        ckt->ac_rhs = ss_alloc((size_t)n * sizeof *ckt->ac_rhs);
-        ckt->ac_wslots = ss_alloc((size_t)nnz * sizeof *ckt->ac_wslots);
-        if (!ckt->ac_a0 || !ckt->ac_a1 || !ckt->ac_rhs || !ckt->ac_wslots)
-            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
+    if (!ckt->ac_rhs && !(ckt->ac_rhs = ss_alloc((size_t)n * sizeof *ckt->ac_rhs)))
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    double complex *y1 = ss_alloc((size_t)nnz * sizeof *y1);
+    if (!y1)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     const double complex *G = mna_zvalues(m);
     const double complex *rhs = ckt->work_zrhs;
     load_ac_all(ckt, 1.0, only_src, all_src_off);
-    ckt->n_ac_wslots = 0;
-    for (int k = 0; k < nnz; k++) {
-        ckt->ac_a0[k] = creal(G[k]);
-        ckt->ac_a1[k] = cimag(G[k]);
-        if (ckt->ac_a1[k] != 0.0)
-            ckt->ac_wslots[ckt->n_ac_wslots++] = k;
-    }
+    memcpy(y1, G, (size_t)nnz * sizeof *y1);
     memcpy(ckt->ac_rhs, rhs, (size_t)n * sizeof *rhs);
     const double w_test = 2.0 * SS_PI * 12345.678;
     load_ac_all(ckt, w_test, only_src, all_src_off);
-    int affine = 1;
+    int affine = 1, n_w = 0;
     for (int k = 0; k < nnz && affine; k++) {
-        double complex y = ckt->ac_a0[k] + SS_J * w_test * ckt->ac_a1[k];
+        double complex y = creal(y1[k]) + SS_J * w_test * cimag(y1[k]);
         double scale = fabs(creal(G[k])) + fabs(cimag(G[k])) + 1e-300;
         affine = cabs(y - G[k]) <= 1e-12 * scale;
+        n_w += cimag(y1[k]) != 0.0;
     }
     for (int u = 0; u < n && affine; u++)
         affine = rhs[u] == ckt->ac_rhs[u];
+    ss_free(ckt->ac_w);
+    ckt->ac_w = NULL;
+    ckt->n_ac_w = 0;
+    if (affine) {
+        ckt->ac_w = ss_alloc((size_t)(n_w ? n_w : 1) * sizeof *ckt->ac_w);
+        if (!ckt->ac_w) {
+            ss_free(y1);
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        }
+        for (int k = 0; k < nnz; k++)
+            if (cimag(y1[k]) != 0.0)
+                ckt->ac_w[ckt->n_ac_w++] = (ac_wslot){creal(y1[k]), cimag(y1[k]), k};
+    }
+    ss_free(y1);
     ckt->ac_affine = affine;
     ckt->ac_rhs_src = only_src;
     ckt->ac_rhs_all_off = all_src_off;
@@ -108,7 +115,7 @@ ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
                          int inject_node, ss_error *err)
 {
     mna *m = ckt->mna;
-    int n = ckt->n_unknowns, nnz = mna_nnz(m);
+    int n = ckt->n_unknowns;
     double complex *G = mna_zvalues(m);
     double complex *rhs = ckt->work_zrhs;
     ss_status st;
@@ -127,18 +134,11 @@ ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
             ckt->ac_rhs_all_off = all_src_off;
             ckt->ac_rhs_ok = 1;
         }
-        const double *a0 = ckt->ac_a0, *a1 = ckt->ac_a1;
-        if (!ckt->ac_g_base) {
-            for (int k = 0; k < nnz; k++)
-                G[k] = a0[k] + SS_J * (omega * a1[k]);
-            ckt->ac_g_base = 1;
-        } else { /* the rest holds its frequency-independent value already */
-            const int *ws = ckt->ac_wslots;
-            for (int j = 0; j < ckt->n_ac_wslots; j++) {
-                int k = ws[j];
-                G[k] = a0[k] + SS_J * (omega * a1[k]);
-            }
-        }
+        /* every load since the cache build left the other slots at their (frequency-
+         * independent) value */
+        const ac_wslot *w = ckt->ac_w;
+        for (int j = 0; j < ckt->n_ac_w; j++)
+            G[w[j].slot] = w[j].a0 + SS_J * (omega * w[j].a1);
         memcpy(rhs, ckt->ac_rhs, (size_t)n * sizeof *rhs);
     }
     if (inject_node > 0)

@@ -238,9 +238,7 @@ void ss_circuit_destroy(ss_circuit **pckt)
     ss_free(ckt->work_bytes);
     ss_free(ckt->work_zrhs);
     ss_free(ckt->work_zx);
-    ss_free(ckt->ac_a0);
-    ss_free(ckt->ac_a1);
-    ss_free(ckt->ac_wslots);
+    ss_free(ckt->ac_w);
     ss_free(ckt->ac_rhs);
     ss_free(ckt->out_nodes);
     ss_free(ckt->node_name);

@@ -164,10 +164,11 @@ struct ss_circuit {
 
     /* AC fast path (analysis/ac.c): every device's admittance is G + jwC, so the matrix is
      * A0 + jw A1 with A0, A1 fixed at the operating point; checked once per operating point */
-    double *ac_a0, *ac_a1;
-    int *ac_wslots; /* the slots k with a1[k] != 0: only they change with frequency */
-    int n_ac_wslots;
-    int ac_g_base;  /* 1 while the matrix values hold A0 + jw A1 of some w (the fast path's) */
+    struct ac_wslot {
+        double a0, a1;
+        int slot;
+    } *ac_w; /* the slots with A1 != 0, the only ones that change with frequency */
+    int n_ac_w;
     double _Complex *ac_rhs;
     int ac_serial;   /* op_serial the cache was built for; 0 = none */
     int ac_affine;   /* 1 when the check passed */
@@ -182,6 +183,8 @@ struct ss_circuit {
     const char **warnings;
     int n_warnings;
 };
+
+typedef struct ac_wslot ac_wslot;
 
 /* Unknown index of a node: ground is -1 (its row and column are dropped). */
 static inline int node_unknown(int node_idx) { return node_idx - 1; }

@@ -140,6 +140,13 @@ static void bare_klu(ss_circuit *ckt, double *t_an, double *t_fac, double *t_ref
     free(b);
 }
 
+static double peak_mib(void)
+{
+    struct rusage ru;
+    getrusage(RUSAGE_SELF, &ru);
+    return (double)ru.ru_maxrss / 1024.0;
+}
+
 static int bench_one(const char *kind, int nodes)
 {
     gen g = {malloc(1 << 16), 0, 1 << 16};
@@ -157,6 +164,10 @@ static int bench_one(const char *kind, int nodes)
         return 1;
     }
     double t_parse = now_s() - t0;
+    double mib_parse = peak_mib();
+    size_t text_len = g.len;
+    free(g.t); /* as the command line does: the text is gone once parsed */
+    g.t = NULL;
     ss_op_stats stats;
     t0 = now_s();
     if (analysis_prepare(ckt, &err) != SS_OK) {
@@ -164,11 +175,13 @@ static int bench_one(const char *kind, int nodes)
         return 1;
     }
     double t_prep = now_s() - t0;
+    double mib_prep = peak_mib();
     if (ss_op_solve(ckt, NULL, &stats, &err) != SS_OK) {
         fprintf(stderr, "%s %d: %s\n", kind, nodes, err.message);
         return 1;
     }
     double t_op = now_s() - t0;
+    double mib_op = peak_mib();
     if (getenv("BENCH_PHASES"))
         fprintf(stderr, "%s %d: prepare %.4f s of op %.4f s\n", kind, nodes, t_prep, t_op);
     const mna_counters *cnt = mna_get_counters(ckt->mna);
@@ -189,6 +202,10 @@ static int bench_one(const char *kind, int nodes)
     }
     double t_ac = (now_s() - t0) / pts;
     double t_ac_next = (t_ac * pts - t_first) / (pts - 1);
+    if (getenv("BENCH_PHASES"))
+        fprintf(stderr, "peak MiB after parse %.0f (netlist text %.0f), prepare %.0f, op %.0f, AC %.0f\n",
+                mib_parse, text_len / 1048576.0, mib_prep, mib_op, peak_mib());
+    double peak_kib = peak_mib() * 1024.0; /* stagesim's own work, before the bare KLU's */
     double an, fac, ref, sol, zref, zsol;
     bare_klu(ckt, &an, &fac, &ref, &sol, &zref, &zsol);
     if (getenv("BENCH_PHASES"))
@@ -196,15 +213,12 @@ static int bench_one(const char *kind, int nodes)
                 "bare: analyze %.4f factor %.4f refactor %.4f solve %.4f zref %.4f zsol %.4f; "
                 "op solves %ld; AC first point %.4f, then %.4f per point\n",
                 an, fac, ref, sol, zref, zsol, op_solves, t_first, t_ac_next);
-    struct rusage ru;
-    getrusage(RUSAGE_SELF, &ru);
-    double peak_kib = (double)ru.ru_maxrss;
     /* the op's bare work: its refactor + solve count at the measured per-call cost (the
      * first is a full factorization) plus one analyze */
     double op_bare = an + fac + (double)(op_solves - 1) * ref + (double)op_solves * sol;
     printf("| %-6s | %9d | %8d | %9.3f | %7.1f | %9.4f | %3d | %9.4f | %5.2f | %9.3f | %9.3f | "
            "%5.2f | %8.0f | %6.0f |\n",
-           kind, ckt->n_unknowns, ckt->n_elem, t_parse * 1e3, g.len / t_parse / 1e6, t_op,
+           kind, ckt->n_unknowns, ckt->n_elem, t_parse * 1e3, text_len / t_parse / 1e6, t_op,
            stats.newton_iterations, op_bare, t_op / op_bare, t_ac * 1e3, (zref + zsol) * 1e3,
            t_ac / (zref + zsol), peak_kib / 1024.0, peak_kib * 1024.0 / ckt->n_nodes);
     fflush(stdout);
