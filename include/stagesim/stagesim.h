@@ -140,6 +140,10 @@ SS_API ss_status ss_dc_sweep_run(ss_circuit *ckt, ss_table **out_dc, ss_error *e
 /* Runs the .ac sweep at the present operating point (solves it first if needed).
  * Output: freq_hz, vm(NODE), vp(NODE) per node. */
 SS_API ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err);
+/* The same sweep written straight to a CSV file (the very text ss_table_write_csv writes of
+ * ss_ac_sweep_run's table), formatted on a second thread while the next frequency is solved
+ * and never held whole in memory: what a board of many nodes needs. */
+SS_API ss_status ss_ac_sweep_write(ss_circuit *ckt, const char *path, ss_error *err);
 
 /* Stage figures over the .ac frequencies: out_stage (freq_hz, gain, gain_db, phase_deg,
  * zin_ohm, zout_ohm) and out_summary (metric,value). Corners are refined by extra solves. */

@@ -1,10 +1,12 @@
 /* Small-signal AC sweep: every device linearised at the operating point, one complex KLU
  * refactor + solve per frequency on the pattern analysed once. Stage figures are stage.c's. */
 #include <math.h>
+#include <pthread.h>
 #include <stdio.h>
 #include <string.h>
 
 #include "analysis/analysis.h"
+#include "output/output.h"
 
 double ac_point_count(int type, int points, double f1, double f2)
 {
@@ -175,6 +177,15 @@ ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
     return SS_OK;
 }
 
+/* vm and vp of ac.csv: sqrt of the sum of squares is exact enough here (no node voltage comes
+ * near 1e154) and much cheaper than hypot/cabs; the phase in degrees */
+static void mag_phase(double complex x, double *mag, double *deg)
+{
+    double re = creal(x), im = cimag(x);
+    *mag = sqrt(re * re + im * im);
+    *deg = atan2(im, re) * (180.0 / SS_PI);
+}
+
 ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err)
 {
     ss_status st;
@@ -199,14 +210,8 @@ ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err)
         double *row = table_add_row(t, NULL);
         row[0] = freqs[k];
         const double complex *x = ckt->work_zrhs;
-        for (int j = 0, c = 1; j < circuit_n_out_nodes(ckt); j++) {
-            int u = node_unknown(circuit_out_node(ckt, j));
-            double re = creal(x[u]), im = cimag(x[u]);
-            /* sqrt of the sum of squares is exact enough here (no node voltage comes near
-             * 1e154) and much cheaper than hypot/cabs */
-            row[c++] = sqrt(re * re + im * im);
-            row[c++] = atan2(im, re) * (180.0 / SS_PI);
-        }
+        for (int j = 0, c = 1; j < circuit_n_out_nodes(ckt); j++, c += 2)
+            mag_phase(x[node_unknown(circuit_out_node(ckt, j))], &row[c], &row[c + 1]);
     }
     ss_free(freqs);
     if (st != SS_OK) {
@@ -215,4 +220,143 @@ ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err)
     }
     *out_ac = t;
     return SS_OK;
+}
+
+/* ---- ac.csv written while the sweep runs ------------------------------------------------ */
+
+/* Rows go from the solving thread to a writing thread through AC_RING slots, each holding the
+ * written nodes' complex voltages at one frequency: the magnitudes, phases and their text of
+ * one point are made while the next point is solved. Below AC_THREAD_MIN values in all the
+ * thread is not worth its start and one thread does both. */
+#define AC_RING 4
+#define AC_THREAD_MIN 100000.0
+
+typedef struct ac_stream {
+    pthread_mutex_t mu;
+    pthread_cond_t cv;
+    double complex *x[AC_RING];
+    double freq[AC_RING];
+    long produced, consumed;
+    int done;
+    int n_out;
+    csv_out *o;
+} ac_stream;
+
+static void ac_stream_row(csv_out *o, double freq, const double complex *x, int n_out)
+{
+    csv_number(o, freq, 0);
+    for (int j = 0; j < n_out; j++) {
+        double mag, deg;
+        mag_phase(x[j], &mag, &deg);
+        csv_number(o, mag, 1);
+        csv_number(o, deg, 1);
+    }
+    csv_char(o, '\n');
+}
+
+static void *ac_stream_writer(void *arg)
+{
+    ac_stream *s = arg;
+    for (;;) {
+        pthread_mutex_lock(&s->mu);
+        while (s->consumed == s->produced && !s->done)
+            pthread_cond_wait(&s->cv, &s->mu);
+        int have = s->consumed < s->produced;
+        pthread_mutex_unlock(&s->mu);
+        if (!have)
+            return NULL;
+        int slot = (int)(s->consumed % AC_RING);
+        ac_stream_row(s->o, s->freq[slot], s->x[slot], s->n_out);
+        pthread_mutex_lock(&s->mu);
+        s->consumed++;
+        pthread_cond_broadcast(&s->cv);
+        pthread_mutex_unlock(&s->mu);
+    }
+}
+
+ss_status ss_ac_sweep_write(ss_circuit *ckt, const char *path, ss_error *err)
+{
+    ss_status st;
+    if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
+        return st;
+    double *freqs = NULL;
+    int nf = 0;
+    if ((st = ac_frequencies(ckt, &freqs, &nf, err)) != SS_OK)
+        return st;
+    int n_out = circuit_n_out_nodes(ckt);
+    ac_stream s;
+    memset(&s, 0, sizeof s);
+    s.n_out = n_out;
+    int ring = (double)nf * n_out >= AC_THREAD_MIN ? AC_RING : 1;
+    for (int r = 0; r < ring; r++)
+        if (!(s.x[r] = ss_alloc((size_t)(n_out ? n_out : 1) * sizeof *s.x[r])))
+            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    csv_out o;
+    if (st == SS_OK && (st = csv_open(&o, path, err)) == SS_OK) {
+        s.o = &o;
+        csv_field(&o, "freq_hz");
+        for (int j = 0; j < n_out; j++) {
+            char name[1200];
+            const char *node = ckt->node_name[circuit_out_node(ckt, j)];
+            snprintf(name, sizeof name, "vm(%s)", node);
+            csv_char(&o, ',');
+            csv_field(&o, name);
+            snprintf(name, sizeof name, "vp(%s)", node);
+            csv_char(&o, ',');
+            csv_field(&o, name);
+        }
+        csv_char(&o, '\n');
+        pthread_t writer;
+        int threaded = ring > 1;
+        if (threaded) {
+            pthread_mutex_init(&s.mu, NULL);
+            pthread_cond_init(&s.cv, NULL);
+            if (pthread_create(&writer, NULL, ac_stream_writer, &s) != 0) {
+                pthread_mutex_destroy(&s.mu);
+                pthread_cond_destroy(&s.cv);
+                threaded = 0;
+            }
+        }
+        for (int k = 0; k < nf && st == SS_OK; k++) {
+            st = ac_solve_point(ckt, 2.0 * SS_PI * freqs[k], NULL, 0, 0, err);
+            if (st != SS_OK)
+                break;
+            if (threaded) { /* wait for a free slot */
+                pthread_mutex_lock(&s.mu);
+                while (s.produced - s.consumed == AC_RING)
+                    pthread_cond_wait(&s.cv, &s.mu);
+                pthread_mutex_unlock(&s.mu);
+            }
+            int slot = threaded ? (int)(s.produced % AC_RING) : 0;
+            const double complex *x = ckt->work_zrhs;
+            for (int j = 0; j < n_out; j++)
+                s.x[slot][j] = x[node_unknown(circuit_out_node(ckt, j))];
+            s.freq[slot] = freqs[k];
+            if (threaded) {
+                pthread_mutex_lock(&s.mu);
+                s.produced++;
+                pthread_cond_broadcast(&s.cv);
+                pthread_mutex_unlock(&s.mu);
+            } else {
+                ac_stream_row(&o, freqs[k], s.x[0], n_out);
+            }
+        }
+        if (threaded) {
+            pthread_mutex_lock(&s.mu);
+            s.done = 1;
+            pthread_cond_broadcast(&s.cv);
+            pthread_mutex_unlock(&s.mu);
+            pthread_join(writer, NULL);
+            pthread_mutex_destroy(&s.mu);
+            pthread_cond_destroy(&s.cv);
+        }
+        if (st == SS_OK)
+            st = csv_commit(&o, err);
+        else
+            csv_abort(&o);
+    }
+    for (int r = 0; r < ring; r++)
+        ss_free(s.x[r]);
+    ss_free(freqs);
+    return st;
 }

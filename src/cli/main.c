@@ -218,7 +218,7 @@ static int cmd_run(const cli_args *a)
     int rc = load_circuit(a, &ckt);
     if (rc != EXIT_OK)
         return rc;
-    ss_table *op = NULL, *dc = NULL, *ac = NULL, *stage = NULL, *summary = NULL;
+    ss_table *op = NULL, *dc = NULL, *stage = NULL, *summary = NULL;
     ss_analysis_flags fl;
     ss_circuit_analyses(ckt, &fl);
     ss_op_stats stats;
@@ -228,8 +228,9 @@ static int cmd_run(const cli_args *a)
         goto done;
     }
     if (fl.ac) {
-        if (ss_ac_sweep_run(ckt, &ac, &err) != SS_OK ||
-            write_table(ac, a->out_dir, "ac.csv", &err) != 0) {
+        char ac_path[4096];
+        snprintf(ac_path, sizeof ac_path, "%s/ac.csv", a->out_dir);
+        if (ss_ac_sweep_write(ckt, ac_path, &err) != SS_OK) {
             rc = fail(&err);
             goto done;
         }
@@ -360,7 +361,6 @@ static int cmd_run(const cli_args *a)
 done:
     ss_table_destroy(&op);
     ss_table_destroy(&dc);
-    ss_table_destroy(&ac);
     ss_table_destroy(&stage);
     ss_table_destroy(&summary);
     ss_circuit_destroy(&ckt);

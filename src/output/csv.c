@@ -18,16 +18,24 @@ int output_format_double(char *buf, size_t len, double v)
 #define CSV_CHUNK ((size_t)1 << 20)
 #define CSV_MAX_NUMBER (FMT_DOUBLE_MAX_LEN + 1) /* a formatted double and its NUL */
 
-typedef struct csv_out {
-    output_file f;
-    char *buf;
-    size_t len;
-} csv_out;
-
 static void csv_flush(csv_out *o)
 {
     output_atomic_write(&o->f, o->buf, o->len);
     o->len = 0;
+}
+
+ss_status csv_open(csv_out *o, const char *path, ss_error *err)
+{
+    memset(o, 0, sizeof *o);
+    o->buf = ss_alloc(CSV_CHUNK);
+    if (!o->buf)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    ss_status st = output_atomic_open(&o->f, path, err);
+    if (st != SS_OK) {
+        ss_free(o->buf);
+        o->buf = NULL;
+    }
+    return st;
 }
 
 static void csv_put(csv_out *o, const char *s, size_t n)
@@ -43,14 +51,14 @@ static void csv_put(csv_out *o, const char *s, size_t n)
     }
 }
 
-static void csv_char(csv_out *o, char c)
+void csv_char(csv_out *o, char c)
 {
     if (o->len == CSV_CHUNK)
         csv_flush(o);
     o->buf[o->len++] = c;
 }
 
-static void csv_field(csv_out *o, const char *s)
+void csv_field(csv_out *o, const char *s)
 {
     if (strpbrk(s, ",\"\r\n") == NULL) {
         csv_put(o, s, strlen(s));
@@ -65,16 +73,36 @@ static void csv_field(csv_out *o, const char *s)
     csv_char(o, '"');
 }
 
+void csv_number(csv_out *o, double v, int comma_before)
+{
+    if (CSV_CHUNK - o->len < CSV_MAX_NUMBER + 1)
+        csv_flush(o);
+    if (comma_before)
+        o->buf[o->len++] = ',';
+    o->len += (size_t)output_format_double(o->buf + o->len, CSV_MAX_NUMBER, v);
+}
+
+ss_status csv_commit(csv_out *o, ss_error *err)
+{
+    csv_flush(o);
+    ss_free(o->buf);
+    o->buf = NULL;
+    return output_atomic_commit(&o->f, err);
+}
+
+void csv_abort(csv_out *o)
+{
+    ss_free(o->buf);
+    o->buf = NULL;
+    output_atomic_abort(&o->f);
+}
+
 ss_status ss_table_write_csv(const ss_table *t, const char *path, ss_error *err)
 {
-    csv_out o = {.buf = ss_alloc(CSV_CHUNK)};
-    if (!o.buf)
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    ss_status st = output_atomic_open(&o.f, path, err);
-    if (st != SS_OK) {
-        ss_free(o.buf);
+    csv_out o;
+    ss_status st = csv_open(&o, path, err);
+    if (st != SS_OK)
         return st;
-    }
     if (t->has_labels) {
         csv_field(&o, t->label_col);
         csv_char(&o, ',');
@@ -91,16 +119,9 @@ ss_status ss_table_write_csv(const ss_table *t, const char *path, ss_error *err)
             csv_char(&o, ',');
         }
         const double *row = t->data + (size_t)i * (size_t)t->n_cols;
-        for (int j = 0; j < t->n_cols; j++) {
-            if (CSV_CHUNK - o.len < CSV_MAX_NUMBER + 2)
-                csv_flush(&o);
-            if (j)
-                o.buf[o.len++] = ',';
-            o.len += (size_t)output_format_double(o.buf + o.len, CSV_MAX_NUMBER, row[j]);
-        }
+        for (int j = 0; j < t->n_cols; j++)
+            csv_number(&o, row[j], j > 0);
         csv_char(&o, '\n');
     }
-    csv_flush(&o);
-    ss_free(o.buf);
-    return output_atomic_commit(&o.f, err);
+    return csv_commit(&o, err);
 }

@@ -1,5 +1,11 @@
 /* AC sweep and stage figures against standard circuit theory: first-order RC corners,
  * series RLC resonance, corners absent from the sweep, and the AC error paths. */
+#define _DEFAULT_SOURCE /* mkdtemp */
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
 #include "ss_test.h"
 
 #include "netlist/circuit.h"
@@ -140,6 +146,65 @@ static void test_ac_node_selection(void **state)
     ss_circuit_destroy(&ckt);
 }
 
+static char *slurp(const char *path, size_t *len)
+{
+    FILE *f = fopen(path, "rb");
+    assert_non_null(f);
+    fseek(f, 0, SEEK_END);
+    long n = ftell(f);
+    fseek(f, 0, SEEK_SET);
+    char *t = malloc((size_t)n + 1);
+    assert_non_null(t);
+    assert_int_equal(fread(t, 1, (size_t)n, f), (size_t)n);
+    fclose(f);
+    *len = (size_t)n;
+    return t;
+}
+
+/* ss_ac_sweep_write streams ac.csv (on a second thread above 1e5 values): the very bytes of
+ * ss_table_write_csv of ss_ac_sweep_run's table, small (one thread) and large (two), with a
+ * node selection too. */
+static void test_ac_stream_matches_table(void **state)
+{
+    (void)state;
+    const char *base = getenv("TMPDIR");
+    char dir[512], a[600], b[600];
+    snprintf(dir, sizeof dir, "%s/stagesim_ac_XXXXXX", base && base[0] ? base : P_tmpdir);
+    assert_non_null(mkdtemp(dir));
+    snprintf(a, sizeof a, "%s/table.csv", dir);
+    snprintf(b, sizeof b, "%s/stream.csv", dir);
+    for (int sections = 4; sections <= 3000; sections *= 750) {
+        char *text = malloc((size_t)sections * 64 + 256);
+        int len = sprintf(text, "ladder\nvin n0 0 ac 1 30\n");
+        for (int i = 0; i < sections; i++)
+            len += sprintf(text + len, "r%d n%d n%d 1k\nc%d n%d 0 10n\n", i, i, i + 1, i,
+                           i + 1);
+        sprintf(text + len, ".ac dec 20 10 1meg\n");
+        ss_circuit *ckt = ss_test_parse(text);
+        free(text);
+        for (int sel = 0; sel < 2; sel++) {
+            const char *names[] = {"n3", "n1"};
+            ss_error err = {0};
+            assert_int_equal(ss_circuit_select_nodes(ckt, names, sel ? 2 : 0, &err), SS_OK);
+            ss_table *ac = NULL;
+            assert_int_equal(ss_ac_sweep_run(ckt, &ac, &err), SS_OK);
+            assert_int_equal(ss_table_write_csv(ac, a, &err), SS_OK);
+            ss_table_destroy(&ac);
+            assert_int_equal(ss_ac_sweep_write(ckt, b, &err), SS_OK);
+            size_t la, lb;
+            char *ta = slurp(a, &la), *tb = slurp(b, &lb);
+            assert_int_equal(la, lb);
+            assert_memory_equal(ta, tb, la);
+            free(ta);
+            free(tb);
+        }
+        ss_circuit_destroy(&ckt);
+    }
+    unlink(a);
+    unlink(b);
+    rmdir(dir);
+}
+
 static void test_stage_without_stage_is_error(void **state)
 {
     (void)state;
@@ -160,6 +225,7 @@ int main(void)
         cmocka_unit_test(test_series_rlc_resonance),
         cmocka_unit_test(test_ac_table_columns),
         cmocka_unit_test(test_ac_node_selection),
+        cmocka_unit_test(test_ac_stream_matches_table),
         cmocka_unit_test(test_stage_without_stage_is_error),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
