@@ -30,7 +30,7 @@ static int alloc_should_fail(void)
 }
 
 /* Large blocks -- the matrices, name tables, element records and arena blocks of a circuit of
- * 10^5 nodes and up -- are mapped directly, 2 MiB-aligned, and the kernel is asked to back them
+ * some 10^4 nodes and up -- are mapped directly, 2 MiB-aligned, and the kernel is asked to back them
  * with transparent huge pages. Where huge pages are granted only on request (the common
  * "madvise" setting), every fresh 4 KiB page costs a fault: measured on a virtual machine, 11 us
  * per page, 2.7 ms per MiB, more than a whole KLU factorization of the same circuit; a 2 MiB
@@ -55,7 +55,9 @@ static int alloc_should_fail(void)
 #endif
 
 #define HUGE_PAGE ((size_t)2 << 20)
-#define BIG_MIN HUGE_PAGE /* smaller blocks would waste too much of a 2 MiB page */
+#define BIG_MIN ((size_t)512 << 10) /* a block this size or larger gets whole 2 MiB pages: at
+                                     * most 1.5 MiB of its last page unused, and a circuit has
+                                     * only a few dozen arrays this large */
 
 #if BIG_DIRECT
 #include <pthread.h>
@@ -168,7 +170,7 @@ static void *sys_realloc(void *p, size_t size)
 #if BIG_DIRECT
     size_t len = p ? big_len(p) : 0;
     if (len > 0) {
-        if (size <= len && size > len / 2)
+        if (size <= len && size >= len / 4)
             return p; /* still fits, and not much too large */
         void *q = size >= BIG_MIN ? big_map(size) : malloc(size ? size : 1);
         if (!q)
