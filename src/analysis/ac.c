@@ -83,10 +83,10 @@ static ss_status ac_cache_build(ss_circuit *ckt, const element *only_src, int al
     const double w_test = 2.0 * SS_PI * 12345.678;
     load_ac_all(ckt, w_test, only_src, all_src_off);
     int affine = 1, n_w = 0;
-    for (int k = 0; k < nnz && affine; k++) {
-        double complex y = creal(y1[k]) + SS_J * w_test * cimag(y1[k]);
+    for (int k = 0; k < nnz && affine; k++) { /* |difference| <= 1e-12 |value|, in L1 norms */
+        double d_re = creal(y1[k]) - creal(G[k]), d_im = w_test * cimag(y1[k]) - cimag(G[k]);
         double scale = fabs(creal(G[k])) + fabs(cimag(G[k])) + 1e-300;
-        affine = cabs(y - G[k]) <= 1e-12 * scale;
+        affine = fabs(d_re) + fabs(d_im) <= 1e-12 * scale;
         n_w += cimag(y1[k]) != 0.0;
     }
     for (int u = 0; u < n && affine; u++)
