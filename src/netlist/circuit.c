@@ -42,7 +42,9 @@ int circuit_add_node_borrowed(struct ss_circuit *ckt, const char *copy, int inte
         ckt->cap_nodes = ncap;
     }
     int idx = ckt->n_nodes;
-    if (strmap_put(&ckt->node_map, copy, idx) != 0)
+    /* internal nodes (a BJT's base behind RB, "q1#b") are nobody's to look up by name: kept out
+     * of the table, where one could shadow a netlist node spelled the same way */
+    if (!internal && strmap_put(&ckt->node_map, copy, idx) != 0)
         return -1;
     ckt->node_name[idx] = copy;
     ckt->node_internal[idx] = (unsigned char)internal;

@@ -365,6 +365,24 @@ static void test_long_names_are_refused_not_cut(void **state)
     ss_circuit_destroy(&ckt);
 }
 
+/* A netlist node may be spelled like the internal node a device makes ("q1#b", the base behind
+ * RB): after preparation the name still finds the netlist node, whose voltage is Vcc across the
+ * divider 100k / (100k + r_pi path) -- checked only as "is the netlist node", not a value. */
+static void test_internal_node_does_not_shadow_netlist_node(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse("shadow\nvcc vcc 0 10\nrb vcc q1#b 100k\nrx q1#b b 1\n"
+                                    "q1 vcc b 0 qn\n.model qn npn bf=100 rb=50\n");
+    int before = circuit_find_node(ckt, "q1#b");
+    assert_true(before > 0);
+    ss_error err = {0};
+    assert_int_equal(ss_op_solve(ckt, NULL, NULL, &err), SS_OK);
+    assert_true(ckt->n_nodes > ckt->n_netlist_nodes); /* the BJT made its internal base */
+    assert_int_equal(circuit_find_node(ckt, "q1#b"), before);
+    assert_int_equal(ckt->node_internal[before], 0);
+    ss_circuit_destroy(&ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -383,6 +401,7 @@ int main(void)
         cmocka_unit_test(test_errors_name_line_and_element),
         cmocka_unit_test(test_binary_garbage_rejected),
         cmocka_unit_test(test_long_names_are_refused_not_cut),
+        cmocka_unit_test(test_internal_node_does_not_shadow_netlist_node),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
