@@ -186,14 +186,22 @@ static void mag_phase(double complex x, double *mag, double *deg)
     *deg = atan2(im, re) * (180.0 / SS_PI);
 }
 
-ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err)
+/* What both forms of the sweep start with: the operating point (solved if missing) and the
+ * .ac frequencies. */
+static ss_status ac_sweep_begin(ss_circuit *ckt, double **freqs, int *nf, ss_error *err)
 {
     ss_status st;
     if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
         return st;
+    return ac_frequencies(ckt, freqs, nf, err);
+}
+
+ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err)
+{
     double *freqs = NULL;
     int nf = 0;
-    if ((st = ac_frequencies(ckt, &freqs, &nf, err)) != SS_OK)
+    ss_status st = ac_sweep_begin(ckt, &freqs, &nf, err);
+    if (st != SS_OK)
         return st;
     ss_table *t = table_create(1 + 2 * circuit_n_out_nodes(ckt), NULL);
     static const char *const fmts[] = {"vm(%s)", "vp(%s)"};
@@ -276,12 +284,10 @@ static void *ac_stream_writer(void *arg)
 
 ss_status ss_ac_sweep_write(ss_circuit *ckt, const char *path, ss_error *err)
 {
-    ss_status st;
-    if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
-        return st;
     double *freqs = NULL;
     int nf = 0;
-    if ((st = ac_frequencies(ckt, &freqs, &nf, err)) != SS_OK)
+    ss_status st = ac_sweep_begin(ckt, &freqs, &nf, err);
+    if (st != SS_OK)
         return st;
     int n_out = circuit_n_out_nodes(ckt);
     ac_stream s;
