@@ -186,13 +186,16 @@ static void mag_phase(double complex x, double *mag, double *deg)
     *deg = atan2(im, re) * (180.0 / SS_PI);
 }
 
-/* What both forms of the sweep start with: the operating point (solved if missing) and the
- * .ac frequencies. */
+/* What both forms of the sweep start with: the operating point (solved if missing), the .ac
+ * frequencies, and a fresh complex factorization at the first point -- so a sweep gives the
+ * same bits whatever was solved before it (refactoring on older pivots rounds differently). */
 static ss_status ac_sweep_begin(ss_circuit *ckt, double **freqs, int *nf, ss_error *err)
 {
     ss_status st;
     if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
         return st;
+    if (ckt->mna)
+        mna_reset_complex(ckt->mna);
     return ac_frequencies(ckt, freqs, nf, err);
 }
 

@@ -210,6 +210,8 @@ double complex *mna_zvalues(mna *m) { return m->Az; }
 const int *mna_colptr(const mna *m) { return m->Ap; }
 const int *mna_rowidx(const mna *m) { return m->Ai; }
 
+void mna_reset_complex(mna *m) { klu_z_free_numeric(&m->znum, &m->common); }
+
 void mna_reset_numeric(mna *m)
 {
     klu_free_numeric(&m->num, &m->common);

@@ -67,6 +67,9 @@ SS_HIDDEN ss_status mna_solve_complex_transpose_again(mna *m, double complex *b)
 SS_HIDDEN int mna_det_sign(const mna *m, unsigned char *scratch);
 /* Forget the numeric factorizations (next solve calls klu_factor). */
 SS_HIDDEN void mna_reset_numeric(mna *m);
+/* Drops the complex factorization only: the next complex solve factors afresh, with pivoting,
+ * so a sweep's results do not depend on which solves came before it. */
+SS_HIDDEN void mna_reset_complex(mna *m);
 
 /* Read-only views for benchmarks and the reference dump. */
 SS_HIDDEN const int *mna_colptr(const mna *m);

@@ -384,7 +384,7 @@ static FILE *g_null;
 static void cleanup_dir(void)
 {
     static const char *const names[] = {"op.csv",      "dc.csv",   "ac.csv",   "stage.csv",
-                                        "summary.csv", "bode.svg", "noise.csv"};
+                                        "summary.csv", "bode.svg", "noise.csv", "ac_stream.csv"};
     char path[512];
     for (size_t i = 0; i < sizeof names / sizeof names[0]; i++) {
         snprintf(path, sizeof path, "%s/%s", g_dir, names[i]);
@@ -448,6 +448,57 @@ static int ac_within_limit(ss_circuit *ckt)
     return nf <= FUZZ_MAX_AC_POINTS;
 }
 
+/* Reads a whole file into a malloc'd buffer; NULL when it cannot. */
+static char *read_back(const char *path, size_t *len)
+{
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return NULL;
+    char *buf = NULL;
+    size_t cap = 0, n = 0, got;
+    char chunk[65536];
+    while ((got = fread(chunk, 1, sizeof chunk, f)) > 0) {
+        if (n + got > cap) {
+            cap = 2 * (n + got);
+            char *nb = realloc(buf, cap);
+            if (!nb) {
+                free(buf);
+                fclose(f);
+                return NULL;
+            }
+            buf = nb;
+        }
+        memcpy(buf + n, chunk, got);
+        n += got;
+    }
+    fclose(f);
+    *len = n;
+    return buf ? buf : calloc(1, 1);
+}
+
+/* The library promise of ss_ac_sweep_write: the very bytes of the table written as CSV. */
+static void check_ac_stream(ss_circuit *ckt)
+{
+    if (!init_output())
+        return;
+    char a[512], b[512];
+    snprintf(a, sizeof a, "%s/ac.csv", g_dir);
+    snprintf(b, sizeof b, "%s/ac_stream.csv", g_dir);
+    ss_error err = {0};
+    ss_status st = ss_ac_sweep_write(ckt, b, &err);
+    if (st != SS_OK) {
+        check_failure(st, &err);
+        return;
+    }
+    size_t la = 0, lb = 0;
+    char *ta = read_back(a, &la), *tb = read_back(b, &lb);
+    if (ta && tb)
+        FUZZ_CHECK(la == lb && memcmp(ta, tb, la) == 0,
+                   "ss_ac_sweep_write differs from the table written as CSV");
+    free(ta);
+    free(tb);
+}
+
 /* .ac, then the stage figures and the Bode plot; *summary is kept for the report. */
 static void run_ac_stage(ss_circuit *ckt, const ss_analysis_flags *fl, ss_table **summary)
 {
@@ -462,6 +513,7 @@ static void run_ac_stage(ss_circuit *ckt, const ss_analysis_flags *fl, ss_table 
     note("ac", "ok");
     write_csv(ac, "ac.csv");
     ss_table_destroy(&ac);
+    check_ac_stream(ckt);
     if (!fl->stage)
         return;
     memset(&err, 0, sizeof err);
@@ -567,15 +619,19 @@ static void run_analyses(ss_circuit *ckt)
  * Comment lines the parser ignores drive the calls a program makes besides parsing:
  *   *@set NAME=VALUE        an override passed to the parser (up to FUZZ_MAX_SETS)
  *   *@stage SRC NODE [LOAD] ss_circuit_set_stage after parsing
- *   *@get NAME              ss_circuit_get_value after parsing                              */
+ *   *@get NAME              ss_circuit_get_value after parsing
+ *   *@nodes A [B [C]]        ss_circuit_select_nodes after parsing                           */
 #define FUZZ_MAX_SETS 4
+#define FUZZ_MAX_NODES 3
 
 typedef struct fz_api {
-    char *line[FUZZ_MAX_SETS + 2]; /* NUL-terminated copies, split in place */
+    char *line[FUZZ_MAX_SETS + 3]; /* NUL-terminated copies, split in place */
     int n_lines;
     ss_override sets[FUZZ_MAX_SETS];
     int n_sets;
     const char *stage_src, *stage_node, *stage_load, *get_name;
+    const char *nodes[FUZZ_MAX_NODES];
+    int n_nodes;
 } fz_api;
 
 /* Next space-separated word of *s (NUL-terminated in place), NULL at the end. */
@@ -599,7 +655,7 @@ static void api_scan(fz_api *api, const uint8_t *data, size_t size)
 {
     memset(api, 0, sizeof *api);
     size_t pos = 0;
-    while (pos < size && api->n_lines < FUZZ_MAX_SETS + 2) {
+    while (pos < size && api->n_lines < FUZZ_MAX_SETS + 3) {
         const uint8_t *nl = memchr(data + pos, '\n', size - pos);
         size_t end = nl ? (size_t)(nl - data) : size;
         size_t n = end - pos;
@@ -630,6 +686,11 @@ static void api_scan(fz_api *api, const uint8_t *data, size_t size)
             } else if (cmd && strcmp(cmd, "get") == 0 && !api->get_name) {
                 api->get_name = next_word(&rest);
                 keep = api->get_name != NULL;
+            } else if (cmd && strcmp(cmd, "nodes") == 0 && !api->n_nodes) {
+                const char *w;
+                while (api->n_nodes < FUZZ_MAX_NODES && (w = next_word(&rest)))
+                    api->nodes[api->n_nodes++] = w;
+                keep = api->n_nodes > 0;
             }
             if (keep)
                 api->line[api->n_lines++] = copy;
@@ -657,6 +718,14 @@ static int api_calls(ss_circuit *ckt, const fz_api *api)
             check_failure(st, &err);
         else
             FUZZ_CHECK(isfinite(v), "ss_circuit_get_value gave a non-finite value");
+    }
+    if (api->n_nodes) {
+        memset(&err, 0, sizeof err);
+        ss_status st = ss_circuit_select_nodes(ckt, api->nodes, api->n_nodes, &err);
+        if (st != SS_OK) {
+            check_failure(st, &err);
+            return -1;
+        }
     }
     if (api->stage_src) {
         double load = api->stage_load ? strtod(api->stage_load, NULL) : 0.0;
