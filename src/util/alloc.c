@@ -30,8 +30,8 @@ static int alloc_should_fail(void)
 }
 
 /* Large blocks -- the matrices, name tables, element records and arena blocks of a circuit of
- * some 10^4 nodes and up -- are mapped directly, 2 MiB-aligned, and the kernel is asked to back them
- * with transparent huge pages. Where huge pages are granted only on request (the common
+ * some 10^4 nodes and up -- are mapped directly, 2 MiB-aligned, and the kernel is asked to back
+ * them with transparent huge pages. Where huge pages are granted only on request (the common
  * "madvise" setting), every fresh 4 KiB page costs a fault: measured on a virtual machine, 11 us
  * per page, 2.7 ms per MiB, more than a whole KLU factorization of the same circuit; a 2 MiB
  * page costs about 0.2 ms per MiB. Random probes into a name table of many MiB also miss the TLB
@@ -216,7 +216,10 @@ void *ss_realloc(void *p, size_t size) { return alloc_should_fail() ? NULL : sys
 void ss_free(void *p) { sys_free(p); }
 
 #if BIG_DIRECT
-static void *ss_malloc_for_lib(size_t size) { return sys_calloc(size); }
+static void *ss_malloc_for_lib(size_t size)
+{
+    return size >= BIG_MIN ? sys_calloc(size) : malloc(size ? size : 1);
+}
 static void *ss_calloc_for_lib(size_t n, size_t size)
 {
     return size && n > SIZE_MAX / size ? NULL : sys_calloc(n * size);

@@ -70,6 +70,8 @@ int strmap_reserve(ss_strmap *m, size_t n)
 
 static int strmap_resize(ss_strmap *m, size_t ncap)
 {
+    if (ncap > ((size_t)1 << 32)) /* bucket() takes 32-bit tags */
+        return -1;
     ss_strmap_entry *ne = ss_alloc(ncap * sizeof *ne);
     if (!ne)
         return -1;

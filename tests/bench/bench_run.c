@@ -197,7 +197,8 @@ int main(int argc, char **argv)
     printf("| %d-node RC ladder, %d AC points (%ld values in ac.csv) | seconds | / bare KLU |\n",
            nodes, AC_POINTS, cells);
     printf("| --- | ---: | ---: |\n");
-    printf("| bare KLU: analyze %.4f + operating point %.4f (%ld solves) + AC %.4f | %.4f | 1.00 |\n",
+    printf("| bare KLU: analyze %.4f + operating point %.4f (%ld solves) + AC %.4f | %.4f "
+           "| 1.00 |\n",
            b_an, b_op, op_solves, b_ac, bare);
     printf("| `stagesim run`, every node written: wall | %.4f | %.2f |\n", wall_all,
            wall_all / bare);

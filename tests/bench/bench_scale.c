@@ -226,7 +226,8 @@ static int bench_one(const char *kind, int nodes)
     double t_ac = (now_s() - t0) / pts;
     double t_ac_next = (t_ac * pts - t_first) / (pts - 1);
     if (getenv("BENCH_PHASES"))
-        fprintf(stderr, "peak MiB after parse %.0f (netlist text %.0f), prepare %.0f, op %.0f, AC %.0f\n",
+        fprintf(stderr,
+                "peak MiB after parse %.0f (netlist text %.0f), prepare %.0f, op %.0f, AC %.0f\n",
                 mib_parse, text_len / 1048576.0, mib_prep, mib_op, peak_mib());
     double peak_kib = peak_mib() * 1024.0; /* stagesim's own work, before the bare KLU's */
     double an, fac, ref, sol, zfac, zref, zsol;
