@@ -11,22 +11,25 @@
 
 #include "util/util.h"
 
+/* Relaxed atomics: study workers allocate from several threads at once, and the counter and
+ * the failure ordinal are test hooks that need no ordering, only no torn or lost updates. */
 static long g_alloc_count;
 static long g_fail_at = -1;
 
 void ss_alloc_fail_at(long n)
 {
-    g_fail_at = n;
-    g_alloc_count = 0;
+    __atomic_store_n(&g_fail_at, n, __ATOMIC_RELAXED);
+    __atomic_store_n(&g_alloc_count, 0, __ATOMIC_RELAXED);
 }
 
-long ss_alloc_count(void) { return g_alloc_count; }
+long ss_alloc_count(void) { return __atomic_load_n(&g_alloc_count, __ATOMIC_RELAXED); }
 
 /* Counts the call and says whether this one is the injected failure. */
 static int alloc_should_fail(void)
 {
-    long ordinal = g_alloc_count++;
-    return g_fail_at >= 0 && ordinal == g_fail_at;
+    long ordinal = __atomic_fetch_add(&g_alloc_count, 1, __ATOMIC_RELAXED);
+    long fail_at = __atomic_load_n(&g_fail_at, __ATOMIC_RELAXED);
+    return fail_at >= 0 && ordinal == fail_at;
 }
 
 /* Large blocks -- the matrices, name tables, element records and arena blocks of a circuit of
