@@ -229,7 +229,19 @@ static void *ss_calloc_for_lib(size_t n, size_t size)
 }
 static void once_memory_functions(void)
 {
-    /* only when nobody in the process chose other functions already */
+    /* only when nobody in the process chose other functions already; SuiteSparse 7 hides the
+     * struct behind getters and setters */
+#if defined(SUITESPARSE_MAIN_VERSION) && SUITESPARSE_MAIN_VERSION >= 7
+    if (SuiteSparse_config_malloc_func_get() == malloc &&
+        SuiteSparse_config_calloc_func_get() == calloc &&
+        SuiteSparse_config_realloc_func_get() == realloc &&
+        SuiteSparse_config_free_func_get() == free) {
+        SuiteSparse_config_malloc_func_set(ss_malloc_for_lib);
+        SuiteSparse_config_calloc_func_set(ss_calloc_for_lib);
+        SuiteSparse_config_realloc_func_set(sys_realloc);
+        SuiteSparse_config_free_func_set(sys_free);
+    }
+#else
     if (SuiteSparse_config.malloc_func == malloc && SuiteSparse_config.calloc_func == calloc &&
         SuiteSparse_config.realloc_func == realloc && SuiteSparse_config.free_func == free) {
         SuiteSparse_config.malloc_func = ss_malloc_for_lib;
@@ -237,6 +249,7 @@ static void once_memory_functions(void)
         SuiteSparse_config.realloc_func = sys_realloc;
         SuiteSparse_config.free_func = sys_free;
     }
+#endif
 }
 #endif
 
