@@ -123,5 +123,24 @@ with tempfile.TemporaryDirectory() as t:
         check(f"--nodes {name} op.csv: only the named node voltages",
               sorted(k for k in op_sel if k.startswith("v(")) == sorted(f"v({n})" for n in pick))
 
+
+# The report lists at most 100 node voltages (a board would bury the rest of it) and says how
+# many more op.csv holds; op.csv keeps every one.
+with tempfile.TemporaryDirectory() as t:
+    path = os.path.join(t, "long.cir")
+    with open(path, "w") as f:
+        f.write("long ladder for the report\nvin n0 0 dc 1\n")
+        for i in range(150):
+            f.write(f"r{i} n{i} n{i + 1} 1k\n")
+        f.write("rend n150 0 1k\n.end\n")
+    r = subprocess.run([STAGESIM, "run", path, "-o", os.path.join(t, "o")], capture_output=True,
+                       text=True, timeout=60)
+    listed = [ln for ln in r.stdout.splitlines() if ln.startswith("  n") and ln.endswith(" V")]
+    check("report: 100 of 151 node voltages listed", r.returncode == 0 and len(listed) == 100,
+          f"{len(listed)} listed")
+    check("report: says 51 more are in op.csv", "... and 51 more (all in op.csv" in r.stdout)
+    op = read_kv(os.path.join(t, "o", "op.csv"))
+    check("op.csv: all 151 node voltages", sum(1 for k in op if k.startswith("v(")) == 151)
+
 print(f"{passed} passed, {failed} failed")
 sys.exit(1 if failed else 0)
