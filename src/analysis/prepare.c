@@ -12,12 +12,20 @@ typedef struct setup_owner {
     int failed;
 } setup_owner;
 
+/* An internal node named ELEMENT#SUFFIX (for messages), its name built straight in the arena:
+ * a board of transistors makes tens of thousands of them. */
 static int cb_new_node(void *owner, const element *e, const char *suffix)
 {
     setup_owner *so = owner;
-    char name[1100];
-    snprintf(name, sizeof name, "%s#%s", e->name, suffix);
-    int idx = circuit_add_node(so->ckt, name, 1);
+    size_t ln = strlen(e->name), ls = strlen(suffix);
+    char *name = arena_alloc_raw(&so->ckt->arena, ln + ls + 2, 1);
+    int idx = -1;
+    if (name) {
+        memcpy(name, e->name, ln);
+        name[ln] = '#';
+        memcpy(name + ln + 1, suffix, ls + 1);
+        idx = circuit_add_node_borrowed(so->ckt, name, 1);
+    }
     if (idx < 0)
         so->failed = 1;
     return idx < 0 ? 0 : idx;
