@@ -85,28 +85,6 @@ static double y_of_value(const panel *p, double v)
     return p->y_bottom - t * (p->y_bottom - p->y_top);
 }
 
-static void put(ss_strbuf *b, const char *s) { strbuf_append(b, s, strlen(s)); }
-
-/* Appends text for element content or an attribute: & < > " become entities, and control
- * characters XML 1.0 does not allow become spaces, so any title keeps the file well-formed. */
-static void put_escaped(ss_strbuf *b, const char *s)
-{
-    for (; *s; s++) {
-        unsigned char c = (unsigned char)*s;
-        switch (c) {
-        case '&': put(b, "&amp;"); break;
-        case '<': put(b, "&lt;"); break;
-        case '>': put(b, "&gt;"); break;
-        case '"': put(b, "&quot;"); break;
-        default:
-            if (c < 0x20 && c != '\t' && c != '\n' && c != '\r')
-                put(b, " ");
-            else
-                strbuf_append(b, s, 1);
-        }
-    }
-}
-
 /* Characters as displayed (UTF-8 continuation bytes do not count), for width estimates. */
 static size_t visible_len(const char *s)
 {
@@ -120,16 +98,6 @@ static size_t visible_len(const char *s)
 static double text_width(const char *s, double font_px)
 {
     return (double)visible_len(s) * GLYPH_EM * font_px;
-}
-
-/* A <text> element; anchor is "start", "middle" or "end". */
-static void put_text(ss_strbuf *b, double x, double y, const char *anchor, const char *attrs,
-                     const char *text)
-{
-    strbuf_printf(b, "<text x=\"%.2f\" y=\"%.2f\" text-anchor=\"%s\"%s%s>", x, y, anchor,
-                  attrs[0] ? " " : "", attrs);
-    put_escaped(b, text);
-    put(b, "</text>\n");
 }
 
 static void put_line(ss_strbuf *b, double xa, double ya, double xb, double yb)
@@ -182,50 +150,17 @@ static void format_freq(char *buf, size_t buf_len, double freq_hz, int sig, int 
     snprintf(buf, buf_len, "%s %sHz", num, prefix[(e3 + 12) / 3]);
 }
 
-/* Formats a value with as many decimals as the step needs and a true minus sign; a value that
- * prints as zero gets no sign. */
-static void format_tick(char *buf, size_t buf_len, double v, double step)
-{
-    char digits[48];
-    int dec = step >= 1.0 ? 0 : (int)ceil(-log10(step) - 1e-9);
-    if (dec > 9)
-        dec = 9;
-    if (fabs(v) >= 1e7)
-        snprintf(digits, sizeof digits, "%.3g", fabs(v));
-    else
-        snprintf(digits, sizeof digits, "%.*f", dec, fabs(v));
-    int is_zero = strspn(digits, "0.") == strlen(digits);
-    snprintf(buf, buf_len, "%s%s", v < 0.0 && !is_zero ? U_MINUS : "", digits);
-}
-
 /* ---- value axes ---------------------------------------------------------------------------- */
-
-/* The candidate closest to raw on a log scale. */
-static double closest_step(double raw, const double *cand, int n_cand, double unit)
-{
-    double best = cand[0] * unit;
-    for (int i = 1; i < n_cand; i++)
-        if (fabs(log(cand[i] * unit / raw)) < fabs(log(best / raw)))
-            best = cand[i] * unit;
-    return best;
-}
-
-/* Tick step from the 1-2-5 series (common practice). */
-static double nice_step_125(double raw)
-{
-    static const double mult[] = {1.0, 2.0, 5.0, 10.0};
-    return closest_step(raw, mult, 4, pow(10.0, floor(log10(raw))));
-}
 
 /* Tick step for angles: 1-2-5 below a degree, then steps that land on 45 and 90 degrees. */
 static double nice_step_deg(double raw)
 {
     static const double deg[] = {1.0, 2.0, 5.0, 10.0, 15.0, 30.0, 45.0, 90.0, 180.0};
     if (raw < 1.0)
-        return nice_step_125(raw);
+        return svg_nice_step_125(raw);
     if (raw > 180.0)
-        return 90.0 * nice_step_125(raw / 90.0);
-    return closest_step(raw, deg, 9, 1.0);
+        return 90.0 * svg_nice_step_125(raw / 90.0);
+    return svg_closest_step(raw, deg, 9, 1.0);
 }
 
 /* Fits an axis around data in [lo, hi]: at least min_span wide (so a flat curve gets a sensible
@@ -242,21 +177,9 @@ static void axis_fit(lin_axis *ax, double lo, double hi, double min_span, int de
     lo -= pad;
     hi += pad;
     double raw = (hi - lo) / 5.0;
-    ax->step = degrees ? nice_step_deg(raw) : nice_step_125(raw);
+    ax->step = degrees ? nice_step_deg(raw) : svg_nice_step_125(raw);
     ax->lo = floor(lo / ax->step) * ax->step;
     ax->hi = ceil(hi / ax->step) * ax->step;
-}
-
-static void data_range(const double *v, int n, double *lo, double *hi)
-{
-    *lo = v[0];
-    *hi = v[0];
-    for (int i = 1; i < n; i++) {
-        if (v[i] < *lo)
-            *lo = v[i];
-        if (v[i] > *hi)
-            *hi = v[i];
-    }
 }
 
 /* ---- drawing ----------------------------------------------------------------------------- */
@@ -282,26 +205,26 @@ static void draw_value_grid(ss_strbuf *b, const panel *p)
     int n_steps = (int)lround((p->ax.hi - p->ax.lo) / p->ax.step);
     if (n_steps > 40) /* axis_fit gives about 8; a guard, not a limit users meet */
         n_steps = 40;
-    put(b, "<g stroke=\"" C_GRID_MAJOR "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
+    svg_put(b, "<g stroke=\"" C_GRID_MAJOR "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
     for (int i = 1; i < n_steps; i++) {
         double y = y_of_value(p, p->ax.lo + i * p->ax.step);
         put_line(b, PLOT_X0, y, PLOT_X1, y);
     }
-    put(b, "</g>\n");
+    svg_put(b, "</g>\n");
     if (p->ax.lo < 0.0 && p->ax.hi > 0.0) {
         double y = y_of_value(p, 0.0);
-        put(b, "<g stroke=\"" C_ZERO "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
+        svg_put(b, "<g stroke=\"" C_ZERO "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
         put_line(b, PLOT_X0, y, PLOT_X1, y);
-        put(b, "</g>\n");
+        svg_put(b, "</g>\n");
     }
-    put(b, "<g font-size=\"11\" fill=\"" C_TEXT "\">\n");
+    svg_put(b, "<g font-size=\"11\" fill=\"" C_TEXT "\">\n");
     for (int i = 0; i <= n_steps; i++) {
         double v = p->ax.lo + i * p->ax.step;
         char label[64];
-        format_tick(label, sizeof label, v, p->ax.step);
-        put_text(b, PLOT_X0 - 7.0, y_of_value(p, v) + 3.8, "end", "", label);
+        svg_format_tick(label, sizeof label, v, p->ax.step);
+        svg_put_text(b, PLOT_X0 - 7.0, y_of_value(p, v) + 3.8, "end", "", label);
     }
-    put(b, "</g>\n");
+    svg_put(b, "</g>\n");
 }
 
 /* Does freq_hz lie on the axis? The slack, a millionth of the axis, absorbs rounding in log10
@@ -393,7 +316,7 @@ static int pick_freq_labels(const freq_axis *fa, freq_label *out, int max_out)
                                &right_edge);
     } else {
         double f_lo = fa->f_lo_hz, f_hi = fa->f_hi_hz;
-        double step = nice_step_125((f_hi - f_lo) / 5.0);
+        double step = svg_nice_step_125((f_hi - f_lo) / 5.0);
         /* digits enough to tell neighbouring labels apart */
         int sig = (int)floor(log10(f_hi)) - (int)floor(log10(step)) + 1;
         sig = sig < 3 ? 3 : (sig > 12 ? 12 : sig);
@@ -417,7 +340,7 @@ static void draw_freq_grid(ss_strbuf *b, const freq_axis *fa, const panel *panel
     double decade_px = (PLOT_X1 - PLOT_X0) / (fa->log_hi - fa->log_lo);
     int k_lo = (int)floor(fa->log_lo), k_hi = (int)ceil(fa->log_hi);
 
-    put(b, "<g stroke=\"" C_GRID_MINOR "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
+    svg_put(b, "<g stroke=\"" C_GRID_MINOR "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
     if (decade_px >= 12.0) {
         for (int k = k_lo; k <= k_hi; k++) {
             for (int m = 2; m <= 9; m++) {
@@ -429,14 +352,14 @@ static void draw_freq_grid(ss_strbuf *b, const freq_axis *fa, const panel *panel
             }
         }
     }
-    put(b, "</g>\n");
+    svg_put(b, "</g>\n");
 
     freq_label labels[MAX_FREQ_LABELS];
     int n_labels = pick_freq_labels(fa, labels, MAX_FREQ_LABELS);
 
     /* decades every `every` (more than one only for sweeps of very many decades) */
     int every = decade_px >= 6.0 ? 1 : (int)ceil(6.0 / decade_px);
-    put(b, "<g stroke=\"" C_GRID_MAJOR "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
+    svg_put(b, "<g stroke=\"" C_GRID_MAJOR "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
     for (int k = k_lo; k <= k_hi; k++) {
         double f = pow(10.0, k);
         if (((k % every) + every) % every == 0 && on_axis(fa, f))
@@ -447,12 +370,12 @@ static void draw_freq_grid(ss_strbuf *b, const freq_axis *fa, const panel *panel
         if (fabs(lg - round(lg)) > 1e-9) /* decades are drawn above */
             put_vline(b, labels[i].x, panels, n_panels);
     }
-    put(b, "</g>\n");
+    svg_put(b, "</g>\n");
 
-    put(b, "<g font-size=\"11\" fill=\"" C_TEXT "\">\n");
+    svg_put(b, "<g font-size=\"11\" fill=\"" C_TEXT "\">\n");
     for (int i = 0; i < n_labels; i++)
-        put_text(b, labels[i].x, FREQ_LABEL_Y, "middle", "", labels[i].text);
-    put(b, "</g>\n");
+        svg_put_text(b, labels[i].x, FREQ_LABEL_Y, "middle", "", labels[i].text);
+    svg_put(b, "</g>\n");
 }
 
 /* The curve as one polyline. A point closer than CURVE_STEP_PX to the last one written, in
@@ -475,7 +398,7 @@ static void draw_curve(ss_strbuf *b, const freq_axis *fa, const panel *p, const 
         x_last = x;
         y_last = y;
     }
-    put(b, "\"/>\n");
+    svg_put(b, "\"/>\n");
 }
 
 /* ---- annotation labels: placed where they hide neither the curve nor each other ----------- */
@@ -589,7 +512,7 @@ static void put_boxed_label(ss_strbuf *b, label_spot s, const char *colour, cons
                   bx.left, bx.top, bx.right - bx.left, bx.bottom - bx.top);
     char attrs[64];
     snprintf(attrs, sizeof attrs, "font-size=\"11\" fill=\"%s\"", colour);
-    put_text(b, s.x, s.y, s.anchor, attrs, text);
+    svg_put_text(b, s.x, s.y, s.anchor, attrs, text);
 }
 
 /* The corners that get a marker: named, on the sweep. */
@@ -621,10 +544,10 @@ static void draw_corner_markers(ss_strbuf *b, const corner *cs, int n_corners, c
 {
     if (n_corners == 0)
         return;
-    put(b, "<g stroke=\"" C_CORNER "\" stroke-width=\"1.4\" stroke-dasharray=\"3 3\">\n");
+    svg_put(b, "<g stroke=\"" C_CORNER "\" stroke-width=\"1.4\" stroke-dasharray=\"3 3\">\n");
     for (int i = 0; i < n_corners; i++)
         put_vline(b, cs[i].x, panels, 2);
-    put(b, "</g>\n");
+    svg_put(b, "</g>\n");
 }
 
 /* Corner labels go beside their marker, near the foot of the magnitude panel first (beside a
@@ -686,24 +609,24 @@ static void draw_half_power_label(ss_strbuf *b, label_room *room)
 
 static void draw_axis_titles(ss_strbuf *b, const svg_bode_input *in)
 {
-    put(b, "<g font-size=\"13\" fill=\"" C_TEXT "\">\n");
+    svg_put(b, "<g font-size=\"13\" fill=\"" C_TEXT "\">\n");
     double mag_mid = 0.5 * (MAG_Y0 + MAG_Y1), phase_mid = 0.5 * (PHASE_Y0 + PHASE_Y1);
     char attrs[96];
     snprintf(attrs, sizeof attrs, "transform=\"rotate(-90 %.2f %.2f)\"", YTITLE_X, mag_mid);
-    put_text(b, YTITLE_X, mag_mid, "middle", attrs, "Gain (dB)");
+    svg_put_text(b, YTITLE_X, mag_mid, "middle", attrs, "Gain (dB)");
     snprintf(attrs, sizeof attrs, "transform=\"rotate(-90 %.2f %.2f)\"", YTITLE_X, phase_mid);
-    put_text(b, YTITLE_X, phase_mid, "middle", attrs, "Phase (" U_DEGREE ")");
-    put_text(b, 0.5 * (PLOT_X0 + PLOT_X1), FREQ_TITLE_Y, "middle", "", "Frequency");
-    put(b, "</g>\n");
+    svg_put_text(b, YTITLE_X, phase_mid, "middle", attrs, "Phase (" U_DEGREE ")");
+    svg_put_text(b, 0.5 * (PLOT_X0 + PLOT_X1), FREQ_TITLE_Y, "middle", "", "Frequency");
+    svg_put(b, "</g>\n");
 
     if (in->title)
-        put_text(b, PLOT_X0, TITLE_Y, "start",
+        svg_put_text(b, PLOT_X0, TITLE_Y, "start",
                  "font-size=\"17\" font-weight=\"bold\" fill=\"" C_TEXT "\"", in->title);
     if (!isnan(in->gain_mid_db)) {
         char num[64], note[96];
-        format_tick(num, sizeof num, in->gain_mid_db, 0.1);
+        svg_format_tick(num, sizeof num, in->gain_mid_db, 0.1);
         snprintf(note, sizeof note, "mid-band gain %s dB", num);
-        put_text(b, PLOT_X0, SUBTITLE_Y, "start", "font-size=\"12\" fill=\"" C_MUTED "\"", note);
+        svg_put_text(b, PLOT_X0, SUBTITLE_Y, "start", "font-size=\"12\" fill=\"" C_MUTED "\"", note);
     }
 }
 
@@ -767,21 +690,21 @@ static void render(ss_strbuf *b, const svg_bode_input *in)
     panel panels[2] = {{MAG_Y0, MAG_Y1, {0.0, 0.0, 1.0}}, {PHASE_Y0, PHASE_Y1, {0.0, 0.0, 1.0}}};
 
     double lo, hi;
-    data_range(in->gain_db, in->n, &lo, &hi);
+    svg_data_range(in->gain_db, in->n, &lo, &hi);
     if (!isnan(in->gain_mid_db)) { /* keep the half-power line on the panel */
         lo = fmin(lo, in->gain_mid_db + HALF_POWER_DB);
         hi = fmax(hi, in->gain_mid_db);
     }
     axis_fit(&panels[0].ax, lo, hi, 2.0, 0);
-    data_range(in->phase_deg, in->n, &lo, &hi);
+    svg_data_range(in->phase_deg, in->n, &lo, &hi);
     axis_fit(&panels[1].ax, lo, hi, 10.0, 1);
 
-    put(b, "<?xml version=\"1.0\" encoding=\"UTF-8\" standalone=\"no\"?>\n");
+    svg_put(b, "<?xml version=\"1.0\" encoding=\"UTF-8\" standalone=\"no\"?>\n");
     strbuf_printf(b,
                   "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\" width=\"%.0f\" "
                   "height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\">\n",
                   PAGE_W, PAGE_H, PAGE_W, PAGE_H);
-    put(b, "<g font-family=\"DejaVu Sans, Helvetica, Arial, sans-serif\">\n");
+    svg_put(b, "<g font-family=\"DejaVu Sans, Helvetica, Arial, sans-serif\">\n");
     strbuf_printf(b, "<rect x=\"0\" y=\"0\" width=\"%.0f\" height=\"%.0f\" fill=\"#ffffff\"/>\n",
                   PAGE_W, PAGE_H);
     for (int i = 0; i < 2; i++)
@@ -807,7 +730,7 @@ static void render(ss_strbuf *b, const svg_bode_input *in)
     if (!isnan(in->gain_mid_db))
         draw_half_power_label(b, &room);
     draw_axis_titles(b, in);
-    put(b, "</g>\n</svg>\n");
+    svg_put(b, "</g>\n</svg>\n");
 }
 
 static ss_status render_checked(ss_strbuf *out, const svg_bode_input *in, const char *file,

@@ -31,4 +31,23 @@ SS_HIDDEN ss_status svg_write_bode(const char *path, const svg_bode_input *in, s
  * Returns SS_OK, SS_ERR_INPUT, SS_ERR_NOMEM (also when *out had already failed). */
 SS_HIDDEN ss_status svg_render_bode(ss_strbuf *out, const svg_bode_input *in, ss_error *err);
 
+/* ---- primitives shared by the plot writers (svg_draw.c) ---------------------------------- */
+
+SS_HIDDEN void svg_put(ss_strbuf *b, const char *s);
+/* Text for element content or an attribute: & < > " as entities, control characters XML 1.0
+ * does not allow as spaces. */
+SS_HIDDEN void svg_put_escaped(ss_strbuf *b, const char *s);
+/* A <text> element at (x, y); anchor "start", "middle" or "end"; attrs "" or more attributes. */
+SS_HIDDEN void svg_put_text(ss_strbuf *b, double x, double y, const char *anchor,
+                            const char *attrs, const char *text);
+/* A tick label: as many decimals as the step needs (%.3g from 1e7 up), a true minus sign, no
+ * sign on a value that prints as zero. */
+SS_HIDDEN void svg_format_tick(char *buf, size_t buf_len, double v, double step);
+/* The candidate times unit closest to raw on a log scale. */
+SS_HIDDEN double svg_closest_step(double raw, const double *cand, int n_cand, double unit);
+/* Tick step from the 1-2-5 series (common practice). */
+SS_HIDDEN double svg_nice_step_125(double raw);
+/* Smallest and largest of v[0 .. n-1], n >= 1. */
+SS_HIDDEN void svg_data_range(const double *v, int n, double *lo, double *hi);
+
 #endif

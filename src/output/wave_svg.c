@@ -8,6 +8,7 @@
 #include "devices/device.h"
 #include "netlist/circuit.h"
 #include "output/output.h"
+#include "output/svg.h"
 #include "util/table.h"
 
 /* ---- page layout, in SVG user units (px) ------------------------------------------------- */
@@ -38,7 +39,6 @@
 #define C_IN "#0f7c7a"
 #define C_OUT "#7a3fb0"
 
-#define U_MINUS "\xE2\x88\x92"
 #define U_MICRO "\xC2\xB5"
 
 typedef struct wave_axis {
@@ -49,52 +49,6 @@ typedef struct wave_panel {
     double y_top, y_bottom;
     wave_axis ax;
 } wave_panel;
-
-static void put(ss_strbuf *b, const char *s)
-{
-    strbuf_append(b, s, strlen(s));
-}
-
-/* Text for element content or attributes: & < > " escaped, control characters as spaces. */
-static void put_escaped(ss_strbuf *b, const char *s)
-{
-    for (; *s; s++) {
-        unsigned char c = (unsigned char)*s;
-        if (c == '&')
-            put(b, "&amp;");
-        else if (c == '<')
-            put(b, "&lt;");
-        else if (c == '>')
-            put(b, "&gt;");
-        else if (c == '"')
-            put(b, "&quot;");
-        else if (c < 0x20)
-            put(b, " ");
-        else
-            strbuf_append(b, s, 1);
-    }
-}
-
-static void put_text(ss_strbuf *b, double x, double y, const char *anchor, const char *attrs,
-                     const char *text)
-{
-    strbuf_printf(b, "<text x=\"%.2f\" y=\"%.2f\" text-anchor=\"%s\"%s%s>", x, y, anchor,
-                  attrs[0] ? " " : "", attrs);
-    put_escaped(b, text);
-    put(b, "</text>\n");
-}
-
-/* 1-2-5 tick step nearest to raw on a log scale (common practice). */
-static double nice_step(double raw)
-{
-    double unit = pow(10.0, floor(log10(raw)));
-    static const double mult[] = {1.0, 2.0, 5.0, 10.0};
-    double best = unit;
-    for (int i = 1; i < 4; i++)
-        if (fabs(log(mult[i] * unit / raw)) < fabs(log(best / raw)))
-            best = mult[i] * unit;
-    return best;
-}
 
 /* An axis around [lo, hi]: at least min_span wide, a little padding, about five steps. */
 static void axis_fit(wave_axis *ax, double lo, double hi, double min_span)
@@ -108,7 +62,7 @@ static void axis_fit(wave_axis *ax, double lo, double hi, double min_span)
     double pad = 0.05 * (hi - lo);
     lo -= pad;
     hi += pad;
-    ax->step = nice_step((hi - lo) / 5.0);
+    ax->step = svg_nice_step_125((hi - lo) / 5.0);
     ax->lo = floor(lo / ax->step) * ax->step;
     ax->hi = ceil(hi / ax->step) * ax->step;
 }
@@ -116,18 +70,6 @@ static void axis_fit(wave_axis *ax, double lo, double hi, double min_span)
 static double y_of(const wave_panel *p, double v)
 {
     return p->y_bottom - (v - p->ax.lo) / (p->ax.hi - p->ax.lo) * (p->y_bottom - p->y_top);
-}
-
-/* A tick label: as many decimals as the step needs, a true minus sign. */
-static void format_tick(char *buf, size_t len, double v, double step)
-{
-    int dec = step >= 1.0 ? 0 : (int)ceil(-log10(step) - 1e-9);
-    if (dec > 9)
-        dec = 9;
-    char digits[48];
-    snprintf(digits, sizeof digits, "%.*f", dec, fabs(v));
-    int is_zero = strspn(digits, "0.") == strlen(digits);
-    snprintf(buf, len, "%s%s", v < 0.0 && !is_zero ? U_MINUS : "", digits);
 }
 
 /* The time unit for a span: s, ms, us or ns, and its scale. */
@@ -152,26 +94,26 @@ static void draw_value_panel(ss_strbuf *b, const wave_panel *p)
     int n_steps = (int)lround((p->ax.hi - p->ax.lo) / p->ax.step);
     if (n_steps > 40)
         n_steps = 40;
-    put(b, "<g stroke=\"" C_GRID "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
+    svg_put(b, "<g stroke=\"" C_GRID "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
     for (int i = 1; i < n_steps; i++) {
         double y = y_of(p, p->ax.lo + i * p->ax.step);
         strbuf_printf(b, "<line x1=\"%.2f\" y1=\"%.2f\" x2=\"%.2f\" y2=\"%.2f\"/>\n", PLOT_X0, y,
                       PLOT_X1, y);
     }
-    put(b, "</g>\n");
+    svg_put(b, "</g>\n");
     if (p->ax.lo < 0.0 && p->ax.hi > 0.0)
         strbuf_printf(b,
                       "<line x1=\"%.2f\" y1=\"%.2f\" x2=\"%.2f\" y2=\"%.2f\" stroke=\"" C_ZERO
                       "\" stroke-width=\"1\"/>\n",
                       PLOT_X0, y_of(p, 0.0), PLOT_X1, y_of(p, 0.0));
-    put(b, "<g font-size=\"11\" fill=\"" C_TEXT "\">\n");
+    svg_put(b, "<g font-size=\"11\" fill=\"" C_TEXT "\">\n");
     for (int i = 0; i <= n_steps; i++) {
         double v = p->ax.lo + i * p->ax.step;
         char label[64];
-        format_tick(label, sizeof label, v, p->ax.step);
-        put_text(b, PLOT_X0 - 7.0, y_of(p, v) + 3.8, "end", "", label);
+        svg_format_tick(label, sizeof label, v, p->ax.step);
+        svg_put_text(b, PLOT_X0 - 7.0, y_of(p, v) + 3.8, "end", "", label);
     }
-    put(b, "</g>\n");
+    svg_put(b, "</g>\n");
 }
 
 static void draw_frame(ss_strbuf *b, const wave_panel *p)
@@ -205,16 +147,7 @@ static void draw_trace(ss_strbuf *b, const wave_input *w, const double *v, const
         double x = PLOT_X1;
         strbuf_printf(b, " %.2f,%.2f", x, y_of(p, v[w->n - 1]));
     }
-    put(b, "\"/>\n");
-}
-
-static void data_range(const double *v, int n, double *lo, double *hi)
-{
-    *lo = *hi = v[0];
-    for (int i = 1; i < n; i++) {
-        *lo = fmin(*lo, v[i]);
-        *hi = fmax(*hi, v[i]);
-    }
+    svg_put(b, "\"/>\n");
 }
 
 static void render(ss_strbuf *b, const wave_input *w)
@@ -222,17 +155,17 @@ static void render(ss_strbuf *b, const wave_input *w)
     double t0 = w->t[0], t1 = w->t[w->n - 1];
     wave_panel pin = {IN_Y0, IN_Y1, {0.0, 1.0, 1.0}}, pout = {OUT_Y0, OUT_Y1, {0.0, 1.0, 1.0}};
     double lo, hi;
-    data_range(w->in, w->n, &lo, &hi);
+    svg_data_range(w->in, w->n, &lo, &hi);
     axis_fit(&pin.ax, lo, hi, 1e-6);
-    data_range(w->out, w->n, &lo, &hi);
+    svg_data_range(w->out, w->n, &lo, &hi);
     axis_fit(&pout.ax, lo, hi, 1e-6);
 
-    put(b, "<?xml version=\"1.0\" encoding=\"UTF-8\" standalone=\"no\"?>\n");
+    svg_put(b, "<?xml version=\"1.0\" encoding=\"UTF-8\" standalone=\"no\"?>\n");
     strbuf_printf(b,
                   "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\" width=\"%.0f\" "
                   "height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\">\n",
                   PAGE_W, PAGE_H, PAGE_W, PAGE_H);
-    put(b, "<g font-family=\"DejaVu Sans, Helvetica, Arial, sans-serif\">\n");
+    svg_put(b, "<g font-family=\"DejaVu Sans, Helvetica, Arial, sans-serif\">\n");
     strbuf_printf(b, "<rect x=\"0\" y=\"0\" width=\"%.0f\" height=\"%.0f\" fill=\"#ffffff\"/>\n",
                   PAGE_W, PAGE_H);
     draw_value_panel(b, &pin);
@@ -241,9 +174,9 @@ static void render(ss_strbuf *b, const wave_input *w)
     /* the time axis: 1-2-5 steps in a unit that keeps the numbers short */
     const char *unit;
     double scale = time_unit(t1 - t0, &unit);
-    double step = nice_step((t1 - t0) * scale / 8.0);
+    double step = svg_nice_step_125((t1 - t0) * scale / 8.0);
     double first = ceil(t0 * scale / step - 1e-9) * step;
-    put(b, "<g stroke=\"" C_GRID "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
+    svg_put(b, "<g stroke=\"" C_GRID "\" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
     for (double v = first; v <= t1 * scale * (1.0 + 1e-12); v += step) {
         double x = PLOT_X0 + (v / scale - t0) / (t1 - t0) * (PLOT_X1 - PLOT_X0);
         strbuf_printf(b, "<line x1=\"%.2f\" y1=\"%.2f\" x2=\"%.2f\" y2=\"%.2f\"/>\n", x, IN_Y0, x,
@@ -251,44 +184,44 @@ static void render(ss_strbuf *b, const wave_input *w)
         strbuf_printf(b, "<line x1=\"%.2f\" y1=\"%.2f\" x2=\"%.2f\" y2=\"%.2f\"/>\n", x, OUT_Y0, x,
                       OUT_Y1);
     }
-    put(b, "</g>\n<g font-size=\"11\" fill=\"" C_TEXT "\">\n");
+    svg_put(b, "</g>\n<g font-size=\"11\" fill=\"" C_TEXT "\">\n");
     double right_edge = -1e300;
     for (double v = first; v <= t1 * scale * (1.0 + 1e-12); v += step) {
         double x = PLOT_X0 + (v / scale - t0) / (t1 - t0) * (PLOT_X1 - PLOT_X0);
         char label[64];
-        format_tick(label, sizeof label, v, step);
+        svg_format_tick(label, sizeof label, v, step);
         double half = 0.5 * strlen(label) * GLYPH_EM * FONT_TICK;
         if (x - half < right_edge + 8.0)
             continue;
         right_edge = x + half;
-        put_text(b, x, TIME_LABEL_Y, "middle", "", label);
+        svg_put_text(b, x, TIME_LABEL_Y, "middle", "", label);
     }
-    put(b, "</g>\n");
+    svg_put(b, "</g>\n");
 
     draw_trace(b, w, w->in, &pin, t0, t1, C_IN);
     draw_trace(b, w, w->out, &pout, t0, t1, C_OUT);
     draw_frame(b, &pin);
     draw_frame(b, &pout);
 
-    put(b, "<g font-size=\"13\" fill=\"" C_TEXT "\">\n");
+    svg_put(b, "<g font-size=\"13\" fill=\"" C_TEXT "\">\n");
     char attrs[96], ttl[160];
     double in_mid = 0.5 * (IN_Y0 + IN_Y1), out_mid = 0.5 * (OUT_Y0 + OUT_Y1);
     snprintf(attrs, sizeof attrs, "transform=\"rotate(-90 %.2f %.2f)\" fill=\"" C_IN "\"", YTITLE_X,
              in_mid);
-    put_text(b, YTITLE_X, in_mid, "middle", attrs, w->in_label);
+    svg_put_text(b, YTITLE_X, in_mid, "middle", attrs, w->in_label);
     snprintf(attrs, sizeof attrs, "transform=\"rotate(-90 %.2f %.2f)\" fill=\"" C_OUT "\"",
              YTITLE_X, out_mid);
-    put_text(b, YTITLE_X, out_mid, "middle", attrs, w->out_label);
+    svg_put_text(b, YTITLE_X, out_mid, "middle", attrs, w->out_label);
     snprintf(ttl, sizeof ttl, "Time (%s)", unit);
-    put_text(b, 0.5 * (PLOT_X0 + PLOT_X1), TIME_TITLE_Y, "middle", "", ttl);
-    put(b, "</g>\n");
+    svg_put_text(b, 0.5 * (PLOT_X0 + PLOT_X1), TIME_TITLE_Y, "middle", "", ttl);
+    svg_put(b, "</g>\n");
     if (w->title)
-        put_text(b, PLOT_X0, TITLE_Y, "start",
+        svg_put_text(b, PLOT_X0, TITLE_Y, "start",
                  "font-size=\"17\" font-weight=\"bold\" fill=\"" C_TEXT "\"", w->title);
     if (w->subtitle)
-        put_text(b, PLOT_X0, SUBTITLE_Y, "start", "font-size=\"12\" fill=\"" C_MUTED "\"",
+        svg_put_text(b, PLOT_X0, SUBTITLE_Y, "start", "font-size=\"12\" fill=\"" C_MUTED "\"",
                  w->subtitle);
-    put(b, "</g>\n</svg>\n");
+    svg_put(b, "</g>\n</svg>\n");
 }
 
 /* Renders the plot into *out (appended) after checking the data. Returns SS_OK, SS_ERR_INPUT
