@@ -14,39 +14,15 @@
 #include "analysis/analysis.h"
 #include "stagesim/stagesim.h"
 
-static double now_s(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
+#include "bench_util.h"
 
 /* An RC ladder of n sections driven by an AC source: n + 1 nodes. */
 static char *rc_ladder(int n, int points)
 {
-    size_t cap = (size_t)n * 64 + 256;
-    char *t = malloc(cap);
-    size_t len = (size_t)snprintf(t, cap, "rc ladder %d\nvin n0 0 dc 0 ac 1\n", n);
-    for (int i = 0; i < n; i++)
-        len += (size_t)snprintf(t + len, cap - len, "r%d n%d n%d 100\nc%d n%d 0 1n\n", i, i,
-                                i + 1, i, i + 1);
-    snprintf(t + len, cap - len, ".ac dec %d 1k 100k\n", points / 2);
-    return t;
-}
-
-static char *read_file(const char *path)
-{
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return NULL;
-    fseek(f, 0, SEEK_END);
-    long n = ftell(f);
-    fseek(f, 0, SEEK_SET);
-    char *t = malloc((size_t)n + 1);
-    size_t got = fread(t, 1, (size_t)n, f);
-    t[got] = '\0';
-    fclose(f);
-    return t;
+    char title[64], tail[64];
+    snprintf(title, sizeof title, "rc ladder %d", n);
+    snprintf(tail, sizeof tail, ".ac dec %d 1k 100k\n", points / 2);
+    return bench_rc_ladder(title, "vin n0 0 dc 0 ac 1", n, "100", tail, NULL);
 }
 
 /* Bare KLU: analyze + factor once, then reps x (refactor + solve) on the circuit's own
@@ -62,14 +38,14 @@ static double bare_klu_per_point(ss_circuit *ckt, int reps)
     klu_symbolic *sym = klu_analyze(n, Ap, Ai, &c);
     klu_numeric *num = klu_z_factor(Ap, Ai, Az, sym, &c);
     double complex *b = malloc((size_t)n * sizeof *b);
-    double t0 = now_s();
+    double t0 = bench_now_s();
     for (int r = 0; r < reps; r++) {
         for (int i = 0; i < n; i++)
             b[i] = 1.0;
         klu_z_refactor(Ap, Ai, Az, sym, num, &c);
         klu_z_solve(sym, num, n, 1, (double *)b, &c);
     }
-    double dt = (now_s() - t0) / reps;
+    double dt = (bench_now_s() - t0) / reps;
     free(b);
     klu_free_numeric(&num, &c);
     klu_free_symbolic(&sym, &c);
@@ -98,24 +74,24 @@ static int bench(const char *label, const char *text)
     int reps = 1;
     double t_sweep = 0.0;
     while (t_sweep < 0.2) {
-        double t0 = now_s();
+        double t0 = bench_now_s();
         for (int r = 0; r < reps; r++) {
             ss_ac_sweep_run(ckt, &ac, &err);
             ss_table_destroy(&ac);
         }
-        t_sweep = now_s() - t0;
+        t_sweep = bench_now_s() - t0;
         if (t_sweep < 0.2)
             reps *= 2;
     }
     double per_point = HUGE_VAL, bare = HUGE_VAL;
     int bare_reps = (int)(0.3 * points * reps / (t_sweep + 1e-9)) + 10;
     for (int round = 0; round < 3; round++) {
-        double t0 = now_s();
+        double t0 = bench_now_s();
         for (int r = 0; r < reps; r++) {
             ss_ac_sweep_run(ckt, &ac, &err);
             ss_table_destroy(&ac);
         }
-        double pp = (now_s() - t0) / reps / points;
+        double pp = (bench_now_s() - t0) / reps / points;
         per_point = pp < per_point ? pp : per_point;
         double b = bare_klu_per_point(ckt, bare_reps);
         bare = b < bare ? b : bare;
@@ -133,7 +109,7 @@ int main(int argc, char **argv)
            "bare_us", "ratio");
     int rc = 0;
     if (argc > 1) {
-        char *t = read_file(argv[1]);
+        char *t = bench_read_file(argv[1]);
         if (!t) {
             fprintf(stderr, "cannot read %s\n", argv[1]);
             return 2;

@@ -12,12 +12,7 @@
 
 #include "output/fmt_double.h"
 
-static double now_s(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
+#include "bench_util.h"
 
 /* splitmix64 (Steele, Lea, Flood, OOPSLA 2014; constants from memory) */
 static uint64_t rng_next(uint64_t *state)
@@ -59,10 +54,10 @@ static double time_fn(fmt_fn f, const double *v, long n, long *chars)
     double best = 1e30;
     for (int rep = 0; rep < 3; rep++) {
         long total = 0;
-        double t0 = now_s();
+        double t0 = bench_now_s();
         for (long i = 0; i < n; i++)
             total += f(buf, sizeof buf, v[i]);
-        double t = now_s() - t0;
+        double t = bench_now_s() - t0;
         if (t < best)
             best = t;
         *chars = total;

@@ -10,37 +10,28 @@
 
 #include "stagesim/stagesim.h"
 
-static double now_s(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
+#include "bench_util.h"
 
 int main(int argc, char **argv)
 {
     long elements = argc > 1 ? atol(argv[1]) : 1000000;
     int repeats = argc > 2 ? atoi(argv[2]) : 5;
     long sections = elements / 2 > 0 ? elements / 2 : 1;
-    size_t cap = (size_t)sections * 64 + 256, len = 0;
-    char *text = malloc(cap);
+    size_t len = 0;
+    char *text = bench_rc_ladder("rc ladder", "vin n0 0 dc 1 ac 1", sections, "100",
+                                 ".ac dec 10 1k 100k\n", &len);
     if (!text)
         return 1;
-    len += (size_t)snprintf(text + len, cap - len, "rc ladder\nvin n0 0 dc 1 ac 1\n");
-    for (long i = 0; i < sections; i++)
-        len += (size_t)snprintf(text + len, cap - len, "r%ld n%ld n%ld 100\nc%ld n%ld 0 1n\n", i,
-                                i, i + 1, i, i + 1);
-    len += (size_t)snprintf(text + len, cap - len, ".ac dec 10 1k 100k\n");
     printf("| parse | elements | MB | seconds | MB/s |\n| ---: | ---: | ---: | ---: | ---: |\n");
     for (int r = 0; r < repeats; r++) {
         ss_circuit *ckt = NULL;
         ss_error err = {0};
-        double t0 = now_s();
+        double t0 = bench_now_s();
         if (ss_circuit_parse_text(text, len, "ladder", NULL, 0, &ckt, &err) != SS_OK) {
             fprintf(stderr, "bench_parse: %s\n", err.message);
             return 1;
         }
-        double t = now_s() - t0;
+        double t = bench_now_s() - t0;
         printf("| %d | %ld | %.1f | %.3f | %.1f |\n", r + 1, 2 * sections, len / 1e6, t,
                len / t / 1e6);
         ss_circuit_destroy(&ckt);

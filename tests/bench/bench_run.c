@@ -30,31 +30,30 @@
 #include "analysis/analysis.h"
 #include "stagesim/stagesim.h"
 
-#define AC_POINTS 21
+#include "bench_util.h"
 
-static double now_s(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
+#define AC_POINTS 21
 
 static int write_ladder(const char *path, int nodes)
 {
     FILE *f = fopen(path, "w");
     if (!f)
         return -1;
-    fprintf(f, "rc ladder of %d nodes for the end-to-end benchmark\nvin n0 0 dc 1 ac 1\n", nodes);
-    for (int i = 0; i < nodes - 1; i++)
-        fprintf(f, "r%d n%d n%d 100\nc%d n%d 0 1n\n", i, i, i + 1, i, i + 1);
-    fprintf(f, ".ac dec 10 1k 100k\n.end\n"); /* 1k .. 100k, 10 per decade: 21 points */
-    return fclose(f);
+    char title[96];
+    snprintf(title, sizeof title, "rc ladder of %d nodes for the end-to-end benchmark", nodes);
+    size_t len = 0;
+    /* 1k .. 100k, 10 per decade: 21 points */
+    char *text = bench_rc_ladder(title, "vin n0 0 dc 1 ac 1", nodes - 1, "100",
+                                 ".ac dec 10 1k 100k\n.end\n", &len);
+    int bad = !text || fwrite(text, 1, len, f) != len;
+    free(text);
+    return fclose(f) != 0 || bad ? -1 : 0;
 }
 
 /* Runs the binary; returns wall seconds and sets the child's user + system CPU seconds. */
 static double run_child(char *const argv[], double *cpu_s)
 {
-    double t0 = now_s();
+    double t0 = bench_now_s();
     pid_t pid = fork();
     if (pid == 0) {
         if (!freopen("/dev/null", "w", stdout))
@@ -65,7 +64,7 @@ static double run_child(char *const argv[], double *cpu_s)
     int status = 0;
     struct rusage ru;
     wait4(pid, &status, 0, &ru);
-    double wall = now_s() - t0;
+    double wall = bench_now_s() - t0;
     *cpu_s = (double)ru.ru_utime.tv_sec + 1e-6 * (double)ru.ru_utime.tv_usec +
              (double)ru.ru_stime.tv_sec + 1e-6 * (double)ru.ru_stime.tv_usec;
     if (!WIFEXITED(status) || WEXITSTATUS(status) != 0) {
@@ -112,45 +111,45 @@ int main(int argc, char **argv)
     /* 2. the same steps in process */
     ss_error err = {0};
     ss_circuit *ckt = NULL;
-    double t0 = now_s();
+    double t0 = bench_now_s();
     if (ss_circuit_parse_file(net, NULL, 0, &ckt, &err) != SS_OK)
         die(&err);
-    double t_parse = now_s() - t0;
-    t0 = now_s();
+    double t_parse = bench_now_s() - t0;
+    t0 = bench_now_s();
     if (analysis_prepare(ckt, &err) != SS_OK)
         die(&err);
-    double t_prep = now_s() - t0;
+    double t_prep = bench_now_s() - t0;
     ss_table *op = NULL, *ac = NULL;
-    t0 = now_s();
+    t0 = bench_now_s();
     if (ss_op_solve(ckt, &op, NULL, &err) != SS_OK)
         die(&err);
-    double t_op = now_s() - t0;
+    double t_op = bench_now_s() - t0;
     long op_solves = mna_get_counters(ckt->mna)->real_solves;
     char path[4200];
-    t0 = now_s();
+    t0 = bench_now_s();
     snprintf(path, sizeof path, "%s/op.csv", out);
     if (ss_table_write_csv(op, path, &err) != SS_OK)
         die(&err);
-    double t_wop = now_s() - t0;
+    double t_wop = bench_now_s() - t0;
     /* the sweep alone, no output (how the stage figures use it) */
-    t0 = now_s();
+    t0 = bench_now_s();
     for (int k = 0; k < AC_POINTS; k++)
         if (ac_solve_point(ckt, 2.0 * SS_PI * 1e3 * pow(10.0, k / 10.0), NULL, 0, 0, &err) !=
             SS_OK)
             die(&err);
-    double t_ac_bare_loop = now_s() - t0;
+    double t_ac_bare_loop = bench_now_s() - t0;
     ckt->ac_serial = 0; /* the written sweep starts from scratch, as in run */
     mna_reset_numeric(ckt->mna);
-    t0 = now_s();
+    t0 = bench_now_s();
     snprintf(path, sizeof path, "%s/ac.csv", out);
     if (ss_ac_sweep_write(ckt, path, &err) != SS_OK)
         die(&err);
-    double t_wac = now_s() - t0;
+    double t_wac = bench_now_s() - t0;
     /* the table form (library users who keep the numbers) */
-    t0 = now_s();
+    t0 = bench_now_s();
     if (ss_ac_sweep_run(ckt, &ac, &err) != SS_OK)
         die(&err);
-    double t_ac_table = now_s() - t0;
+    double t_ac_table = bench_now_s() - t0;
     long cells = (long)ss_table_rows(ac) * ss_table_cols(ac);
 
     /* 3. bare KLU on the same matrices: the real one as the operating point left it, the
@@ -162,10 +161,10 @@ int main(int argc, char **argv)
     double *b = malloc((size_t)n * 2 * sizeof *b);
     klu_common c;
     klu_defaults(&c);
-    t0 = now_s();
+    t0 = bench_now_s();
     klu_symbolic *sym = klu_analyze(n, Ap, Ai, &c);
-    double b_an = now_s() - t0;
-    t0 = now_s();
+    double b_an = bench_now_s() - t0;
+    t0 = bench_now_s();
     klu_numeric *num = klu_factor(Ap, Ai, Ax, sym, &c);
     for (int i = 0; i < n; i++)
         b[i] = 1.0;
@@ -176,9 +175,9 @@ int main(int argc, char **argv)
             b[i] = 1.0;
         klu_solve(sym, num, n, 1, b, &c);
     }
-    double b_op = now_s() - t0;
+    double b_op = bench_now_s() - t0;
     klu_free_numeric(&num, &c);
-    t0 = now_s();
+    t0 = bench_now_s();
     num = klu_z_factor(Ap, Ai, Az, sym, &c);
     for (int k = 0; k < AC_POINTS; k++) {
         if (k > 0)
@@ -187,7 +186,7 @@ int main(int argc, char **argv)
             b[i] = 1.0;
         klu_z_solve(sym, num, n, 1, b, &c);
     }
-    double b_ac = now_s() - t0;
+    double b_ac = bench_now_s() - t0;
     klu_free_numeric(&num, &c);
     klu_free_symbolic(&sym, &c);
     free(b);

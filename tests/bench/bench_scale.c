@@ -23,12 +23,7 @@
 #include "analysis/analysis.h"
 #include "stagesim/stagesim.h"
 
-static double now_s(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
+#include "bench_util.h"
 
 typedef struct gen {
     char *t;
@@ -55,11 +50,10 @@ static void put(gen *g, const char *fmt, ...)
 /* RC ladder: n sections, n + 1 nodes. */
 static void gen_ladder(gen *g, int nodes)
 {
-    int n = nodes - 1;
-    put(g, "rc ladder\nvin n0 0 dc 1 ac 1\n");
-    for (int i = 0; i < n; i++)
-        put(g, "r%d n%d n%d 100\nc%d n%d 0 1n\n", i, i, i + 1, i, i + 1);
-    put(g, ".ac dec 10 1k 100k\n");
+    char *t = bench_rc_ladder("rc ladder", "vin n0 0 dc 1 ac 1", nodes - 1, "100",
+                              ".ac dec 10 1k 100k\n", NULL);
+    put(g, "%s", t);
+    free(t);
 }
 
 /* A chain of AC-coupled common-emitter stages with unbypassed emitter resistors (gain about
@@ -103,42 +97,42 @@ static void bare_klu(ss_circuit *ckt, double *t_an, double *t_fac, double *t_ref
     int *Ap = (int *)mna_colptr(m), *Ai = (int *)mna_rowidx(m);
     klu_common c;
     klu_defaults(&c);
-    double t0 = now_s();
+    double t0 = bench_now_s();
     klu_symbolic *sym = klu_analyze(n, Ap, Ai, &c);
-    *t_an = now_s() - t0;
+    *t_an = bench_now_s() - t0;
     double *Ax = mna_values(m);
-    t0 = now_s();
+    t0 = bench_now_s();
     klu_numeric *num = klu_factor(Ap, Ai, Ax, sym, &c);
-    *t_fac = now_s() - t0;
+    *t_fac = bench_now_s() - t0;
     double *b = malloc((size_t)n * 2 * sizeof *b);
     int reps = n > 100000 ? 3 : n > 10000 ? 10 : n > 1000 ? 100 : 2000;
-    t0 = now_s();
+    t0 = bench_now_s();
     for (int r = 0; r < reps; r++)
         klu_refactor(Ap, Ai, Ax, sym, num, &c);
-    *t_ref = (now_s() - t0) / reps;
-    t0 = now_s();
+    *t_ref = (bench_now_s() - t0) / reps;
+    t0 = bench_now_s();
     for (int r = 0; r < reps; r++) {
         for (int i = 0; i < n; i++)
             b[i] = 1.0;
         klu_solve(sym, num, n, 1, b, &c);
     }
-    *t_sol = (now_s() - t0) / reps;
+    *t_sol = (bench_now_s() - t0) / reps;
     klu_free_numeric(&num, &c);
     double *Az = (double *)mna_zvalues(m);
-    t0 = now_s();
+    t0 = bench_now_s();
     num = klu_z_factor(Ap, Ai, Az, sym, &c);
-    *t_zfac = now_s() - t0;
-    t0 = now_s();
+    *t_zfac = bench_now_s() - t0;
+    t0 = bench_now_s();
     for (int r = 0; r < reps; r++)
         klu_z_refactor(Ap, Ai, Az, sym, num, &c);
-    *t_zref = (now_s() - t0) / reps;
-    t0 = now_s();
+    *t_zref = (bench_now_s() - t0) / reps;
+    t0 = bench_now_s();
     for (int r = 0; r < reps; r++) {
         for (int i = 0; i < 2 * n; i++)
             b[i] = 1.0;
         klu_z_solve(sym, num, n, 1, b, &c);
     }
-    *t_zsol = (now_s() - t0) / reps;
+    *t_zsol = (bench_now_s() - t0) / reps;
     klu_free_numeric(&num, &c);
     klu_free_symbolic(&sym, &c);
     free(b);
@@ -162,29 +156,29 @@ static int bench_one(const char *kind, int nodes)
         gen_array(&g, nodes);
     ss_circuit *ckt = NULL;
     ss_error err = {0};
-    double t0 = now_s();
+    double t0 = bench_now_s();
     if (ss_circuit_parse_text(g.t, g.len, kind, NULL, 0, &ckt, &err) != SS_OK) {
         fprintf(stderr, "%s: %s\n", kind, err.message);
         return 1;
     }
-    double t_parse = now_s() - t0;
+    double t_parse = bench_now_s() - t0;
     double mib_parse = peak_mib();
     size_t text_len = g.len;
     free(g.t); /* as the command line does: the text is gone once parsed */
     g.t = NULL;
     ss_op_stats stats;
-    t0 = now_s();
+    t0 = bench_now_s();
     if (analysis_prepare(ckt, &err) != SS_OK) {
         fprintf(stderr, "%s %d: %s\n", kind, nodes, err.message);
         return 1;
     }
-    double t_prep = now_s() - t0;
+    double t_prep = bench_now_s() - t0;
     double mib_prep = peak_mib();
     if (ss_op_solve(ckt, NULL, &stats, &err) != SS_OK) {
         fprintf(stderr, "%s %d: %s\n", kind, nodes, err.message);
         return 1;
     }
-    double t_op = now_s() - t0;
+    double t_op = bench_now_s() - t0;
     double mib_op = peak_mib();
     /* one Newton iteration's device work, as newton_solve does it (values cleared, every
      * element's load_dc at the answer): the part of the operating point that is neither KLU
@@ -194,7 +188,7 @@ static int bench_one(const char *kind, int nodes)
         mna *m = ckt->mna;
         double *G = mna_values(m), *rhs = ckt->work_rhs;
         int reps = 3;
-        t0 = now_s();
+        t0 = bench_now_s();
         for (int r = 0; r < reps; r++) {
             memset(G, 0, (size_t)mna_nnz(m) * sizeof *G);
             memset(rhs, 0, (size_t)ckt->n_unknowns * sizeof *rhs);
@@ -203,7 +197,7 @@ static int bench_one(const char *kind, int nodes)
             for (int i = 0; i < ckt->n_elem; i++)
                 ckt->elem[i].ops->load_dc(&ckt->elem[i], &lc);
         }
-        t_load = (now_s() - t0) / reps;
+        t_load = (bench_now_s() - t0) / reps;
     }
     if (getenv("BENCH_PHASES"))
         fprintf(stderr, "%s %d: prepare %.4f s of op %.4f s\n", kind, nodes, t_prep, t_op);
@@ -213,7 +207,7 @@ static int bench_one(const char *kind, int nodes)
      * (the cache of A0 and A1, a full complex factorization) apart from the others */
     int pts = 21;
     double t_first = 0.0;
-    t0 = now_s();
+    t0 = bench_now_s();
     for (int k = 0; k < pts; k++) {
         if (ac_solve_point(ckt, 2.0 * SS_PI * 1e3 * pow(100.0, (double)k / (pts - 1)), NULL, 0, 0,
                            &err) != SS_OK) {
@@ -221,9 +215,9 @@ static int bench_one(const char *kind, int nodes)
             return 1;
         }
         if (k == 0)
-            t_first = now_s() - t0;
+            t_first = bench_now_s() - t0;
     }
-    double t_ac = (now_s() - t0) / pts;
+    double t_ac = (bench_now_s() - t0) / pts;
     double t_ac_next = (t_ac * pts - t_first) / (pts - 1);
     if (getenv("BENCH_PHASES"))
         fprintf(stderr,

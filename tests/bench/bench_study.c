@@ -17,6 +17,8 @@
 #include "analysis/analysis.h"
 #include "stagesim/stagesim.h"
 
+#include "bench_util.h"
+
 static const char *NETLIST =
     "two-transistor benchmark stage: CE into an emitter follower\n"
     ".model qa npn is=8e-15 bf=200 vaf=80 ikf=0.1 ise=4e-15 rb=30 re=0.5 rc=1 cje=10p cjc=4p "
@@ -27,13 +29,6 @@ static const char *NETLIST =
     ".ac dec 7 10 100meg\n.stage in=vin out=out\n"
     ".tolerance r1 5%\n.tolerance r2 5%\n.tolerance rc1 5%\n.tolerance re1 5%\n"
     ".tolerance qa.bf 100 .. 300\n";
-
-static double now_s(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
 
 static double cpu_s(void)
 {
@@ -55,12 +50,12 @@ static double run_trials(const char *path, long trials, int threads)
         exit(1);
     }
     ss_study_set_threads(s, threads);
-    double t0 = now_s(), c0 = cpu_s();
+    double t0 = bench_now_s(), c0 = cpu_s();
     if (ss_study_run(s, &pts, &err) != SS_OK) {
         fprintf(stderr, "%s\n", err.message);
         exit(1);
     }
-    double dt = now_s() - t0;
+    double dt = bench_now_s() - t0;
     g_cpu = cpu_s() - c0;
     ss_table_destroy(&pts);
     ss_study_destroy(&s);
@@ -79,32 +74,32 @@ static void bare_costs(ss_circuit *ckt, double *real_s, double *complex_s, doubl
     double *Ax = mna_values(m);
     double *b = malloc((size_t)n * 2 * sizeof *b);
     klu_numeric *num = klu_factor(Ap, Ai, Ax, sym, &c);
-    double t0 = now_s();
+    double t0 = bench_now_s();
     for (int r = 0; r < reps; r++) {
         for (int i = 0; i < n; i++)
             b[i] = 1.0;
         klu_refactor(Ap, Ai, Ax, sym, num, &c);
         klu_solve(sym, num, n, 1, b, &c);
     }
-    *real_s = (now_s() - t0) / reps;
+    *real_s = (bench_now_s() - t0) / reps;
     klu_free_numeric(&num, &c);
     double *Az = (double *)mna_zvalues(m);
     num = klu_z_factor(Ap, Ai, Az, sym, &c);
-    t0 = now_s();
+    t0 = bench_now_s();
     for (int r = 0; r < reps; r++) {
         for (int i = 0; i < 2 * n; i++)
             b[i] = 1.0;
         klu_z_refactor(Ap, Ai, Az, sym, num, &c);
         klu_z_solve(sym, num, n, 1, b, &c);
     }
-    *complex_s = (now_s() - t0) / reps;
-    t0 = now_s();
+    *complex_s = (bench_now_s() - t0) / reps;
+    t0 = bench_now_s();
     for (int r = 0; r < reps; r++) {
         for (int i = 0; i < 2 * n; i++)
             b[i] = 1.0;
         klu_z_solve(sym, num, n, 1, b, &c);
     }
-    *extra_s = (now_s() - t0) / reps;
+    *extra_s = (bench_now_s() - t0) / reps;
     klu_free_numeric(&num, &c);
     klu_free_symbolic(&sym, &c);
     free(b);

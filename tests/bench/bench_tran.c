@@ -14,12 +14,7 @@
 #include "analysis/tran.h"
 #include "stagesim/stagesim.h"
 
-static double now_s(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
+#include "bench_util.h"
 
 /* A common-emitter stage of our own (invented generic card) driven by a 1 kHz sine: 5 periods,
  * 200 output points per period. */
@@ -34,29 +29,10 @@ static const char STAGE[] =
 /* An RC ladder of n sections driven by a pulse: n + 1 nodes. */
 static char *rc_ladder(int n)
 {
-    size_t cap = (size_t)n * 64 + 256;
-    char *t = malloc(cap);
-    size_t len = (size_t)snprintf(t, cap, "rc ladder %d\nvin n0 0 pulse(0 1 0 1u 1u 20u 50u)\n", n);
-    for (int i = 0; i < n; i++)
-        len += (size_t)snprintf(t + len, cap - len, "r%d n%d n%d 10\nc%d n%d 0 1n\n", i, i, i + 1,
-                                i, i + 1);
-    snprintf(t + len, cap - len, ".tran 1u 100u\n");
-    return t;
-}
-
-static char *read_file(const char *path)
-{
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return NULL;
-    fseek(f, 0, SEEK_END);
-    long n = ftell(f);
-    fseek(f, 0, SEEK_SET);
-    char *t = malloc((size_t)n + 1);
-    size_t got = fread(t, 1, (size_t)n, f);
-    t[got] = '\0';
-    fclose(f);
-    return t;
+    char title[64];
+    snprintf(title, sizeof title, "rc ladder %d", n);
+    return bench_rc_ladder(title, "vin n0 0 pulse(0 1 0 1u 1u 20u 50u)", n, "10",
+                           ".tran 1u 100u\n", NULL);
 }
 
 static int on_point(void *ctx, long k, double t_s, const double *x)
@@ -81,14 +57,14 @@ static double bare_klu(ss_circuit *ckt, int reps)
     klu_symbolic *sym = klu_analyze(n, Ap, Ai, &c);
     klu_numeric *num = klu_factor(Ap, Ai, Ax, sym, &c);
     double *b = malloc((size_t)n * sizeof *b);
-    double t0 = now_s();
+    double t0 = bench_now_s();
     for (int r = 0; r < reps; r++) {
         for (int i = 0; i < n; i++)
             b[i] = 1.0;
         klu_refactor(Ap, Ai, Ax, sym, num, &c);
         klu_solve(sym, num, n, 1, b, &c);
     }
-    double dt = (now_s() - t0) / reps;
+    double dt = (bench_now_s() - t0) / reps;
     free(b);
     klu_free_numeric(&num, &c);
     klu_free_symbolic(&sym, &c);
@@ -119,12 +95,12 @@ static int bench(const char *label, const char *text)
     }
     double t_run = HUGE_VAL, bare = HUGE_VAL;
     for (int round = 0; round < 3; round++) {
-        double t0 = now_s();
+        double t0 = bench_now_s();
         if (tran_run(ckt, &cfg, &s, &err) != SS_OK) {
             fprintf(stderr, "%s: %s\n", label, err.message);
             return 1;
         }
-        double dt = now_s() - t0;
+        double dt = bench_now_s() - t0;
         t_run = dt < t_run ? dt : t_run;
         int reps = (int)(0.3 * (double)s.newton_iterations / (dt + 1e-9) * 0.2) + 10;
         double b = bare_klu(ckt, reps);
@@ -145,7 +121,7 @@ int main(int argc, char **argv)
            "steps/s", "us/step", "it/step", "us/iter", "bare_us", "ratio", "allocs");
     int rc = 0;
     if (argc > 1) {
-        char *t = read_file(argv[1]);
+        char *t = bench_read_file(argv[1]);
         if (!t) {
             fprintf(stderr, "cannot read %s\n", argv[1]);
             return 2;
