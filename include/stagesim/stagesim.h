@@ -359,6 +359,78 @@ SS_API ss_status ss_study_merge(ss_table *const *shards, int n_shards, ss_table 
 /* Nearest value of an IEC 60063 series (12, 24 or 96 values per decade) to value (> 0). */
 SS_API ss_status ss_eseries_nearest(int series, double value, double *out_value, ss_error *err);
 
+/* ---- output sets: the files of one run, committed together (docs/cli.md) ---------------- */
+
+/* A run's output files appear together or not at all: each is written under a hidden staging
+ * name beside its final one and renamed at commit; run_manifest.csv in the set's folder then
+ * names the run (the rows noted), and every file of the set with its SHA-256. */
+typedef struct ss_outset ss_outset;
+
+/* Starts the output set of a run writing into the folder dir (which must exist; NULL: a set of
+ * files anywhere, staged and committed together, with no folder, lock or manifest). Takes the
+ * folder's lock (the file .stagesim.lock in it, removed when the set is destroyed, released by
+ * the system if the process dies): a second run writing into the same folder meanwhile gets
+ * SS_ERR_INPUT naming the folder. Output *out, the caller's (ss_outset_destroy), written on
+ * success. Returns SS_OK, SS_ERR_INPUT, SS_ERR_IO (no such folder, not writable),
+ * SS_ERR_NOMEM. */
+SS_API ss_status ss_outset_open(const char *dir, ss_outset **out, ss_error *err);
+
+/* Reserves an output file: path is where it must end up (in the set's folder or anywhere
+ * else, e.g. a JUnit report); what names it in messages ("op.csv", "--junit"). Output
+ * *out_staged: the name to write it to now (owned by the set, valid until it is destroyed).
+ * Checked here, before any work: the folder exists and is writable, path is not a folder, not
+ * the manifest or lock of the set, and no other file of the set is the same file (SS_ERR_INPUT
+ * naming both). A reserved file that is never written is not part of the set. */
+SS_API ss_status ss_outset_add(ss_outset *s, const char *path, const char *what,
+                               const char **out_staged, ss_error *err);
+
+/* Adds a key,value row to the manifest (the command, its inputs, its options). Copied. */
+SS_API ss_status ss_outset_note(ss_outset *s, const char *key, const char *value,
+                                ss_error *err);
+
+/* Notes the netlist a circuit was read from and input_sha256(PATH),HEX for it and every
+ * .include (ss_circuit_input). */
+SS_API ss_status ss_outset_note_circuit(ss_outset *s, const ss_circuit *ckt, ss_error *err);
+
+/* Makes the set visible: removes the folder's old manifest, renames every written file over
+ * its final name, removes the files the old manifest listed in the folder that this run did
+ * not write (they belong to an earlier run), and writes run_manifest.csv last: the noted rows,
+ * then file_sha256(NAME),HEX per file. Returns SS_OK, SS_ERR_IO, SS_ERR_NOMEM. */
+SS_API ss_status ss_outset_commit(ss_outset *s, ss_error *err);
+
+/* Releases the lock; the staged files of a set not committed are removed. Accepts NULL. */
+SS_API void ss_outset_destroy(ss_outset **s);
+
+/* Removes every temporary and staged file the library has open: what a SIGINT or SIGTERM
+ * handler calls before the process ends. Async-signal-safe (no lock, no allocation). */
+SS_API void ss_output_remove_temporaries(void);
+
+/* SHA-256 (FIPS PUB 180-4) of len bytes as 64 lower-case hexadecimal digits and a NUL. */
+SS_API void ss_sha256_hex(const void *data, size_t len, char out_hex[65]);
+
+/* The files the circuit was read from: the netlist file (not a text given to
+ * ss_circuit_parse_text), then every .include in the order read, each with the SHA-256 of the
+ * bytes parsed (*out_sha256, 64 hex digits; may be NULL). NULL past the end. */
+SS_API const char *ss_circuit_input(const ss_circuit *ckt, int index, const char **out_sha256);
+
+/* Notes the identity of a study in an output set: the command ("sweep" or "spread"), the
+ * netlist and the SHA-256 of every input and of the limits, the swept and sampled names with
+ * their values, seed, trial count, points, this shard (K/N and its point range) and
+ * study_id -- a SHA-256 over everything that determines the points' values, the same for every
+ * shard of one study and for no other. */
+SS_API ss_status ss_study_note_identity(const ss_study *s, const char *command, ss_outset *set,
+                                        ss_error *err);
+
+/* Merges shards of one study: paths are study.csv files as spread or sweep wrote them, each
+ * with the run_manifest.csv its run wrote beside it. Refused (SS_ERR_INPUT, naming the file):
+ * a file without a manifest, a file whose bytes are not those its run wrote (cut short,
+ * edited), a shard of another study (study_id), a shard given twice, a missing shard of the
+ * N, a table that does not hold exactly its shard's points. Output *out_points: the points of
+ * every shard in order -- written with ss_table_write_csv, the very bytes of the unsharded
+ * run. set (may be NULL): gets the study's identity rows, as one unsharded run notes them. */
+SS_API ss_status ss_study_merge_files(const char *const *paths, int n, ss_outset *set,
+                                      ss_table **out_points, ss_error *err);
+
 /* Warnings gathered while parsing and solving (e.g. a near-singular matrix); NULL past the end. */
 SS_API const char *ss_circuit_warning(const ss_circuit *ckt, int index);
 

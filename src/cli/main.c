@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <signal.h>
 #include <sys/stat.h>
 #include <time.h>
 #include <unistd.h>
@@ -97,6 +98,7 @@ typedef struct cli_args {
     double ls_freq, thd_amp, thd_target;
     const char **nodes; /* --nodes lists, each comma-separated */
     int n_nodes;
+    char *cmdline; /* the arguments after the program name, for the run's manifest */
 } cli_args;
 
 /* mkdir -p: creates DIR and any missing parents. */
@@ -136,11 +138,66 @@ static int prepare_out_dir(const char *dir)
     return 0;
 }
 
-static int write_table(const ss_table *t, const char *dir, const char *name, ss_error *err)
+static int write_table(const ss_table *t, const char *path, ss_error *err)
 {
-    char path[4096];
-    snprintf(path, sizeof path, "%s/%s", dir, name);
     return ss_table_write_csv(t, path, err) == SS_OK ? 0 : -1;
+}
+
+/* ---- output sets: the files of one run appear together (docs/cli.md, "Output sets") ------ */
+
+/* Opens the output set in the run's folder (created if missing) and notes what the run is. */
+static int out_open(const cli_args *a, ss_outset **set)
+{
+    if (prepare_out_dir(a->out_dir) != 0)
+        return EXIT_BAD_INPUT;
+    ss_error err = {0};
+    if (ss_outset_open(a->out_dir, set, &err) != SS_OK)
+        return fail(&err);
+    char tool[64];
+    snprintf(tool, sizeof tool, "stagesim %s", ss_version());
+    if (ss_outset_note(*set, "tool", tool, &err) != SS_OK ||
+        ss_outset_note(*set, "command", a->cmd, &err) != SS_OK ||
+        ss_outset_note(*set, "arguments", a->cmdline, &err) != SS_OK) {
+        ss_outset_destroy(set);
+        return fail(&err);
+    }
+    return EXIT_OK;
+}
+
+/* Reserves the files names[0 .. n-1] of the run's folder in the set, before any work: where
+ * each is to be written goes into staged[]. */
+static int out_reserve(ss_outset *set, const char *dir, const char *const *names, int n,
+                       const char **staged)
+{
+    for (int i = 0; i < n; i++) {
+        char path[4096];
+        snprintf(path, sizeof path, "%s/%s", dir, names[i]);
+        ss_error err = {0};
+        if (ss_outset_add(set, path, names[i], &staged[i], &err) != SS_OK)
+            return fail(&err);
+    }
+    return EXIT_OK;
+}
+
+/* Commits the set (the run succeeded); rc passes through unless the commit fails. */
+static int out_commit(ss_outset *set, int rc)
+{
+    ss_error err = {0};
+    if (ss_outset_commit(set, &err) != SS_OK)
+        return fail(&err);
+    return rc;
+}
+
+/* A plot that cannot be drawn (a gain that is infinite somewhere, fewer than two points) costs
+ * the plot, not the run: warn and go on without the file. */
+static int plot_result(ss_status st, const ss_error *err, const char *name)
+{
+    if (st == SS_OK)
+        return 0;
+    if (st != SS_ERR_INPUT)
+        return -1;
+    fprintf(stderr, "stagesim: warning: no %s: %s\n", name, err->message);
+    return 0;
 }
 
 /* --nodes a,b --nodes c: the nodes whose per-node results run writes. */
@@ -209,54 +266,173 @@ static int load_circuit(const cli_args *a, ss_circuit **out)
 
 /* ---- run -------------------------------------------------------------------------------- */
 
+enum {
+    F_OP, F_AC, F_STAGE, F_SUMMARY, F_BODE, F_DC, F_TRAN, F_WAVE, F_LS, F_HARM, F_THD_WAVE,
+    F_NOISE, F_NOISE_SUM, F_NOISE_CON, F_RUN_COUNT
+};
+/* every file run may write: reserved before the netlist is read; those written are the set */
+static const char *const RUN_FILES[F_RUN_COUNT] = {
+    "op.csv",          "ac.csv",          "stage.csv",    "stage_summary.csv", "bode.svg",
+    "dc.csv",          "tran.csv",        "wave.svg",     "large_signal.csv",  "harmonics.csv",
+    "thd_wave.svg",    "noise.csv",       "noise_summary.csv", "noise_contrib.csv"};
+
+static void print_large_signal(const ss_table *ls, double f_hz)
+{
+    printf("\nLarge signal at %.4g Hz\n", f_hz);
+    const char *rows[][2] = {{"swing_pos_v", "output swing before clipping, +"},
+                             {"swing_neg_v", "output swing before clipping, -"},
+                             {"thd_pct", "THD at the test amplitude (%)"},
+                             {"vin_at_thd_v", "input amplitude for the THD target"},
+                             {"iin_at_thd_a", "input amplitude for the THD target"}};
+    for (size_t k = 0; k < sizeof rows / sizeof rows[0]; k++) {
+        double v = ss_table_lookup(ls, rows[k][0], 0);
+        if (!isnan(v))
+            printf("  %-40s %.5g\n", rows[k][1], v);
+    }
+}
+
+static void print_noise(const ss_table *nsum, const ss_table *ncon)
+{
+    printf("\nNoise over the .ac band (%.4g Hz .. %.4g Hz)\n",
+           ss_table_lookup(nsum, "f_start_hz", 0), ss_table_lookup(nsum, "f_stop_hz", 0));
+    printf("  output noise    %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "out_noise_rms_v", 0));
+    printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", 0));
+    double nf = ss_table_lookup(nsum, "noise_figure_db", 0);
+    if (!isnan(nf))
+        printf("  noise figure    %.3f dB\n", nf);
+    printf("  largest contributions:\n");
+    for (int i = 0; i < ss_table_rows(ncon) && i < 5; i++)
+        printf("    %-28s %10.4g uV rms  %6.2f %%\n", ss_table_row_label(ncon, i),
+               1e6 * ss_table_get(ncon, i, 0), ss_table_get(ncon, i, 1));
+}
+
+/* AC sweep, stage figures and the Bode plot (the stage tables are kept for the report). */
+static int run_ac(ss_circuit *ckt, const cli_args *a, const char *const *path,
+                  const ss_analysis_flags *fl, ss_table **stage, ss_table **summary,
+                  ss_error *err)
+{
+    if (!fl->ac) {
+        if (fl->stage)
+            fprintf(stderr, "stagesim: warning: a stage is named but the netlist has no .ac "
+                            "sweep; no stage figures computed\n");
+        if (a->plot)
+            fprintf(stderr, "stagesim: warning: --plot needs an .ac sweep and a stage; no plot\n");
+        return 0;
+    }
+    if (ss_ac_sweep_write(ckt, path[F_AC], err) != SS_OK)
+        return -1;
+    if (!fl->stage) {
+        if (a->plot)
+            fprintf(stderr, "stagesim: warning: --plot needs an .ac sweep and a stage; no plot\n");
+        return 0;
+    }
+    if (ss_stage_run(ckt, stage, summary, err) != SS_OK ||
+        write_table(*stage, path[F_STAGE], err) != 0 ||
+        write_table(*summary, path[F_SUMMARY], err) != 0)
+        return -1;
+    if (a->plot) {
+        ss_error perr = {0};
+        ss_status st = ss_plot_write_bode(ckt, *stage, *summary, path[F_BODE], &perr);
+        if (plot_result(st, &perr, "bode.svg") != 0) {
+            *err = perr;
+            return -1;
+        }
+    }
+    return 0;
+}
+
+static int run_tran(ss_circuit *ckt, const cli_args *a, const char *const *path,
+                    const ss_analysis_flags *fl, ss_error *err)
+{
+    ss_table *tran = NULL;
+    int bad = ss_tran_run(ckt, &tran, err) != SS_OK || write_table(tran, path[F_TRAN], err) != 0;
+    if (!bad && a->plot && fl->stage) {
+        ss_error perr = {0};
+        ss_status st = ss_plot_write_wave(ckt, tran, NULL, NULL, path[F_WAVE], &perr);
+        if (plot_result(st, &perr, "wave.svg") != 0) {
+            *err = perr;
+            bad = 1;
+        }
+    }
+    ss_table_destroy(&tran);
+    return bad ? -1 : 0;
+}
+
+static int run_large_signal(ss_circuit *ckt, const cli_args *a, const char *const *path,
+                            ss_error *err)
+{
+    if (a->ls_freq > 0.0 || a->thd_amp > 0.0 || a->thd_target > 0.0)
+        if (ss_circuit_set_large_signal(ckt, a->ls_freq, a->thd_amp, a->thd_target, err) !=
+            SS_OK)
+            return -1;
+    ss_table *ls = NULL, *harm = NULL, *wave = NULL;
+    int bad = ss_stage_large_signal(ckt, &ls, err) != SS_OK ||
+              write_table(ls, path[F_LS], err) != 0;
+    double f_hz, amp, target;
+    ss_circuit_large_signal(ckt, &f_hz, &amp, &target);
+    double thd = SS_NAN_CLI;
+    if (!bad && amp > 0.0) {
+        bad = ss_stage_thd(ckt, amp, f_hz, &thd, &harm, &wave, err) != SS_OK ||
+              write_table(harm, path[F_HARM], err) != 0;
+        if (!bad && a->plot) {
+            ss_error perr = {0};
+            ss_status st = ss_plot_write_wave(ckt, wave, NULL, NULL, path[F_THD_WAVE], &perr);
+            if (plot_result(st, &perr, "thd_wave.svg") != 0) {
+                *err = perr;
+                bad = 1;
+            }
+        }
+    }
+    if (!bad && !a->quiet)
+        print_large_signal(ls, f_hz);
+    ss_table_destroy(&ls);
+    ss_table_destroy(&harm);
+    ss_table_destroy(&wave);
+    return bad ? -1 : 0;
+}
+
+static int run_noise(ss_circuit *ckt, const cli_args *a, const char *const *path, ss_error *err)
+{
+    ss_table *noise = NULL, *nsum = NULL, *ncon = NULL;
+    int bad = ss_noise_run(ckt, &noise, &nsum, &ncon, err) != SS_OK ||
+              write_table(noise, path[F_NOISE], err) != 0 ||
+              write_table(nsum, path[F_NOISE_SUM], err) != 0 ||
+              write_table(ncon, path[F_NOISE_CON], err) != 0;
+    if (!bad && !a->quiet)
+        print_noise(nsum, ncon);
+    ss_table_destroy(&noise);
+    ss_table_destroy(&nsum);
+    ss_table_destroy(&ncon);
+    return bad ? -1 : 0;
+}
+
 static int cmd_run(const cli_args *a)
 {
-    if (prepare_out_dir(a->out_dir) != 0)
-        return EXIT_BAD_INPUT;
+    ss_outset *set = NULL;
+    const char *path[F_RUN_COUNT];
+    int rc = out_open(a, &set);
+    if (rc == EXIT_OK)
+        rc = out_reserve(set, a->out_dir, RUN_FILES, F_RUN_COUNT, path);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
+        return rc;
+    }
     ss_error err = {0};
     ss_circuit *ckt = NULL;
-    int rc = load_circuit(a, &ckt);
-    if (rc != EXIT_OK)
+    rc = load_circuit(a, &ckt);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
         return rc;
+    }
     ss_table *op = NULL, *dc = NULL, *stage = NULL, *summary = NULL;
     ss_analysis_flags fl;
     ss_circuit_analyses(ckt, &fl);
     ss_op_stats stats;
-    if (ss_op_solve(ckt, &op, &stats, &err) != SS_OK ||
-        write_table(op, a->out_dir, "op.csv", &err) != 0) {
-        rc = fail(&err);
-        goto done;
-    }
-    if (fl.ac) {
-        char ac_path[4096];
-        snprintf(ac_path, sizeof ac_path, "%s/ac.csv", a->out_dir);
-        if (ss_ac_sweep_write(ckt, ac_path, &err) != SS_OK) {
-            rc = fail(&err);
-            goto done;
-        }
-        if (fl.stage) {
-            if (ss_stage_run(ckt, &stage, &summary, &err) != SS_OK ||
-                write_table(stage, a->out_dir, "stage.csv", &err) != 0 ||
-                write_table(summary, a->out_dir, "stage_summary.csv", &err) != 0) {
-                rc = fail(&err);
-                goto done;
-            }
-            if (a->plot) {
-                char path[4096];
-                snprintf(path, sizeof path, "%s/bode.svg", a->out_dir);
-                if (ss_plot_write_bode(ckt, stage, summary, path, &err) != SS_OK) {
-                    rc = fail(&err);
-                    goto done;
-                }
-            }
-        }
-    } else if (fl.stage) {
-        fprintf(stderr, "stagesim: warning: a stage is named but the netlist has no .ac sweep; "
-                        "no stage figures computed\n");
-    }
-    if (a->plot && !(fl.ac && fl.stage))
-        fprintf(stderr, "stagesim: warning: --plot needs an .ac sweep and a stage; no plot\n");
-    if (!a->quiet) {
+    int bad = ss_outset_note_circuit(set, ckt, &err) != SS_OK ||
+              ss_op_solve(ckt, &op, &stats, &err) != SS_OK ||
+              write_table(op, path[F_OP], &err) != 0 ||
+              run_ac(ckt, a, path, &fl, &stage, &summary, &err) != 0;
+    if (!bad && !a->quiet) {
         ss_report_write(ckt, summary, stdout);
         printf("operating point: %d Newton iterations", stats.newton_iterations);
         if (stats.gmin_steps)
@@ -265,105 +441,31 @@ static int cmd_run(const cli_args *a)
             printf(", %d source steps", stats.source_steps);
         printf("\n");
     }
-    /* .dc last: it moves the circuit's operating point */
-    if (fl.dc) {
-        if (ss_dc_sweep_run(ckt, &dc, &err) != SS_OK ||
-            write_table(dc, a->out_dir, "dc.csv", &err) != 0) {
-            rc = fail(&err);
-            goto done;
-        }
+    /* .dc last of the DC analyses: it moves the circuit's operating point */
+    if (!bad && fl.dc)
+        bad = ss_dc_sweep_run(ckt, &dc, &err) != SS_OK || write_table(dc, path[F_DC], &err) != 0;
+    if (!bad && fl.tran)
+        bad = run_tran(ckt, a, path, &fl, &err) != 0;
+    if (!bad && fl.large_signal && fl.stage)
+        bad = run_large_signal(ckt, a, path, &err) != 0;
+    else if (!bad && fl.large_signal)
+        fprintf(stderr, "stagesim: warning: .large_signal needs a stage; no large-signal "
+                        "figures\n");
+    if (!bad && fl.noise)
+        bad = run_noise(ckt, a, path, &err) != 0;
+    if (bad) {
+        rc = fail(&err); /* nothing of this run becomes visible */
+    } else {
+        for (int i = 0; ss_circuit_warning(ckt, i); i++)
+            fprintf(stderr, "stagesim: warning: %s\n", ss_circuit_warning(ckt, i));
+        rc = out_commit(set, EXIT_OK);
     }
-    if (fl.tran) {
-        ss_table *tran = NULL;
-        int bad = ss_tran_run(ckt, &tran, &err) != SS_OK ||
-                  write_table(tran, a->out_dir, "tran.csv", &err) != 0;
-        if (!bad && a->plot && fl.stage) {
-            char path[4096];
-            snprintf(path, sizeof path, "%s/wave.svg", a->out_dir);
-            bad = ss_plot_write_wave(ckt, tran, NULL, NULL, path, &err) != SS_OK;
-        }
-        ss_table_destroy(&tran);
-        if (bad) {
-            rc = fail(&err);
-            goto done;
-        }
-    }
-    if (fl.large_signal && fl.stage) {
-        if (a->ls_freq > 0.0 || a->thd_amp > 0.0 || a->thd_target > 0.0)
-            ss_circuit_set_large_signal(ckt, a->ls_freq, a->thd_amp, a->thd_target, &err);
-        ss_table *ls = NULL, *harm = NULL, *wave = NULL;
-        int bad = ss_stage_large_signal(ckt, &ls, &err) != SS_OK ||
-                  write_table(ls, a->out_dir, "large_signal.csv", &err) != 0;
-        double f_hz, amp, target;
-        ss_circuit_large_signal(ckt, &f_hz, &amp, &target);
-        double thd = SS_NAN_CLI;
-        if (!bad && amp > 0.0) {
-            bad = ss_stage_thd(ckt, amp, f_hz, &thd, &harm, &wave, &err) != SS_OK ||
-                  write_table(harm, a->out_dir, "harmonics.csv", &err) != 0;
-            if (!bad && a->plot) {
-                char path[4096];
-                snprintf(path, sizeof path, "%s/thd_wave.svg", a->out_dir);
-                bad = ss_plot_write_wave(ckt, wave, NULL, NULL, path, &err) != SS_OK;
-            }
-        }
-        if (!bad && !a->quiet) {
-            printf("\nLarge signal at %.4g Hz\n", f_hz);
-            const char *rows[][2] = {{"swing_pos_v", "output swing before clipping, +"},
-                                     {"swing_neg_v", "output swing before clipping, -"},
-                                     {"thd_pct", "THD at the test amplitude (%)"},
-                                     {"vin_at_thd_v", "input amplitude for the THD target"},
-                                     {"iin_at_thd_a", "input amplitude for the THD target"}};
-            for (size_t k = 0; k < sizeof rows / sizeof rows[0]; k++) {
-                double v = ss_table_lookup(ls, rows[k][0], 0);
-                if (!isnan(v))
-                    printf("  %-40s %.5g\n", rows[k][1], v);
-            }
-        }
-        ss_table_destroy(&ls);
-        ss_table_destroy(&harm);
-        ss_table_destroy(&wave);
-        if (bad) {
-            rc = fail(&err);
-            goto done;
-        }
-    } else if (fl.large_signal) {
-        fprintf(stderr, "stagesim: warning: .large_signal needs a stage; no large-signal figures\n");
-    }
-    if (fl.noise) {
-        ss_table *noise = NULL, *nsum = NULL, *ncon = NULL;
-        int bad = ss_noise_run(ckt, &noise, &nsum, &ncon, &err) != SS_OK ||
-                  write_table(noise, a->out_dir, "noise.csv", &err) != 0 ||
-                  write_table(nsum, a->out_dir, "noise_summary.csv", &err) != 0 ||
-                  write_table(ncon, a->out_dir, "noise_contrib.csv", &err) != 0;
-        if (!bad && !a->quiet) {
-            printf("\nNoise over the .ac band (%.4g Hz .. %.4g Hz)\n",
-                   ss_table_lookup(nsum, "f_start_hz", 0), ss_table_lookup(nsum, "f_stop_hz", 0));
-            printf("  output noise    %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "out_noise_rms_v", 0));
-            printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", 0));
-            double nf = ss_table_lookup(nsum, "noise_figure_db", 0);
-            if (!isnan(nf))
-                printf("  noise figure    %.3f dB\n", nf);
-            printf("  largest contributions:\n");
-            for (int i = 0; i < ss_table_rows(ncon) && i < 5; i++)
-                printf("    %-28s %10.4g uV rms  %6.2f %%\n", ss_table_row_label(ncon, i),
-                       1e6 * ss_table_get(ncon, i, 0), ss_table_get(ncon, i, 1));
-        }
-        ss_table_destroy(&noise);
-        ss_table_destroy(&nsum);
-        ss_table_destroy(&ncon);
-        if (bad) {
-            rc = fail(&err);
-            goto done;
-        }
-    }
-    for (int i = 0; ss_circuit_warning(ckt, i); i++)
-        fprintf(stderr, "stagesim: warning: %s\n", ss_circuit_warning(ckt, i));
-done:
     ss_table_destroy(&op);
     ss_table_destroy(&dc);
     ss_table_destroy(&stage);
     ss_table_destroy(&summary);
     ss_circuit_destroy(&ckt);
+    ss_outset_destroy(&set);
     return rc;
 }
 
@@ -379,20 +481,39 @@ static void print_bound(double v)
 
 static int cmd_check(const cli_args *a)
 {
-    if (a->junit || strcmp(a->out_dir, ".") != 0) {
-        if (prepare_out_dir(a->out_dir) != 0)
-            return EXIT_BAD_INPUT;
-    }
+    /* the CSVs go to a folder only with -o; the JUnit report anywhere: both are reserved (and
+     * checked against each other) before the netlist is read */
+    int has_dir = strcmp(a->out_dir, ".") != 0;
+    ss_outset *set = NULL;
     ss_error err = {0};
+    const char *path[2] = {NULL, NULL}, *junit = NULL;
+    static const char *const names[2] = {"check.csv", "figures.csv"};
+    int rc = EXIT_OK;
+    if (has_dir) {
+        rc = out_open(a, &set);
+        if (rc == EXIT_OK)
+            rc = out_reserve(set, a->out_dir, names, 2, path);
+    } else if (a->junit && ss_outset_open(NULL, &set, &err) != SS_OK) {
+        rc = fail(&err);
+    }
+    if (rc == EXIT_OK && a->junit && ss_outset_add(set, a->junit, "--junit", &junit, &err) != SS_OK)
+        rc = fail(&err);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
+        return rc;
+    }
     ss_circuit *ckt = NULL;
     ss_limits *lim = NULL;
     ss_table *figs = NULL, *verdicts = NULL;
-    int rc = load_circuit(a, &ckt);
-    if (rc != EXIT_OK)
+    rc = load_circuit(a, &ckt);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
         return rc;
+    }
     int n_failed = 0;
     if (ss_limits_create(&lim, &err) != SS_OK || ss_limits_add_circuit(lim, ckt, &err) != SS_OK ||
-        (a->limits_path && ss_limits_add_file(lim, a->limits_path, &err) != SS_OK)) {
+        (a->limits_path && ss_limits_add_file(lim, a->limits_path, &err) != SS_OK) ||
+        (has_dir && ss_outset_note_circuit(set, ckt, &err) != SS_OK)) {
         rc = fail(&err);
         goto done;
     }
@@ -408,12 +529,12 @@ static int cmd_check(const cli_args *a)
         rc = fail(&err);
         goto done;
     }
-    if (strcmp(a->out_dir, ".") != 0 && (write_table(verdicts, a->out_dir, "check.csv", &err) != 0 ||
-                                         write_table(figs, a->out_dir, "figures.csv", &err) != 0)) {
+    if (has_dir && (write_table(verdicts, path[0], &err) != 0 ||
+                    write_table(figs, path[1], &err) != 0)) {
         rc = fail(&err);
         goto done;
     }
-    if (a->junit && ss_check_write_junit(verdicts, a->netlist, a->junit, &err) != SS_OK) {
+    if (a->junit && ss_check_write_junit(verdicts, a->netlist, junit, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
     }
@@ -431,11 +552,14 @@ static int cmd_check(const cli_args *a)
         printf("\n%d passed, %d failed\n", n - n_failed, n_failed);
     }
     rc = n_failed ? EXIT_CHECK_FAILED : EXIT_OK;
+    if (set)
+        rc = out_commit(set, rc);
 done:
     ss_table_destroy(&figs);
     ss_table_destroy(&verdicts);
     ss_limits_destroy(&lim);
     ss_circuit_destroy(&ckt);
+    ss_outset_destroy(&set);
     return rc;
 }
 
@@ -531,13 +655,23 @@ static void print_summary(const ss_table *summary)
 
 static int cmd_study(const cli_args *a, int spread)
 {
-    if (prepare_out_dir(a->out_dir) != 0)
-        return EXIT_BAD_INPUT;
+    static const char *const names[2] = {"study.csv", "study_summary.csv"};
+    const char *path[2];
+    ss_outset *set = NULL;
+    int rc = out_open(a, &set);
+    if (rc == EXIT_OK)
+        rc = out_reserve(set, a->out_dir, names, 2, path);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
+        return rc;
+    }
     ss_study *s = NULL;
     ss_limits *lim = NULL;
-    int rc = make_study(a, &s, &lim);
-    if (rc != EXIT_OK)
+    rc = make_study(a, &s, &lim);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
         return rc;
+    }
     ss_error err = {0};
     ss_table *pts = NULL, *summary = NULL;
     if (spread && ss_study_set_trials(s, a->trials > 0 ? a->trials : 1000, a->seed, &err) != SS_OK) {
@@ -550,10 +684,10 @@ static int cmd_study(const cli_args *a, int spread)
     }
     progress_state ps = {isatty(2) && !a->quiet, 0};
     ss_study_set_progress(s, show_progress, &ps);
-    if (ss_study_run(s, &pts, &err) != SS_OK ||
+    if (ss_study_note_identity(s, spread ? "spread" : "sweep", set, &err) != SS_OK ||
+        ss_study_run(s, &pts, &err) != SS_OK ||
         ss_study_summarize(pts, ss_study_limits(s), &summary, &err) != SS_OK ||
-        write_table(pts, a->out_dir, "study.csv", &err) != 0 ||
-        write_table(summary, a->out_dir, "study_summary.csv", &err) != 0) {
+        write_table(pts, path[0], &err) != 0 || write_table(summary, path[1], &err) != 0) {
         rc = fail(&err);
         goto done;
     }
@@ -574,30 +708,42 @@ static int cmd_study(const cli_args *a, int spread)
         fprintf(stderr, "stagesim: warning: %d point%s did not solve (status column; figures "
                         "left empty)\n",
                 n_bad, n_bad == 1 ? "" : "s");
-    rc = print_yield(summary, a->min_yield, a->quiet);
+    rc = out_commit(set, print_yield(summary, a->min_yield, a->quiet));
 done:
     ss_table_destroy(&pts);
     ss_table_destroy(&summary);
     ss_limits_destroy(&lim);
     ss_study_destroy(&s);
+    ss_outset_destroy(&set);
     return rc;
 }
 
 static int cmd_sensitivity(const cli_args *a)
 {
-    if (prepare_out_dir(a->out_dir) != 0)
-        return EXIT_BAD_INPUT;
+    static const char *const names[2] = {"sensitivity.csv", "corners.csv"};
+    const char *path[2];
+    ss_outset *set = NULL;
+    int rc = out_open(a, &set);
+    if (rc == EXIT_OK)
+        rc = out_reserve(set, a->out_dir, names, 2, path);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
+        return rc;
+    }
     ss_study *s = NULL;
     ss_limits *lim = NULL;
-    int rc = make_study(a, &s, &lim);
-    if (rc != EXIT_OK)
+    rc = make_study(a, &s, &lim);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
         return rc;
+    }
     ss_error err = {0};
     ss_table *sens = NULL, *corners = NULL;
-    if (ss_study_sensitivity(s, &sens, &err) != SS_OK ||
-        write_table(sens, a->out_dir, "sensitivity.csv", &err) != 0 ||
+    if (ss_study_note_identity(s, "sensitivity", set, &err) != SS_OK ||
+        ss_study_sensitivity(s, &sens, &err) != SS_OK ||
+        write_table(sens, path[0], &err) != 0 ||
         ss_study_corners(s, a->temp_lo, a->temp_hi, &corners, &err) != SS_OK ||
-        write_table(corners, a->out_dir, "corners.csv", &err) != 0) {
+        write_table(corners, path[1], &err) != 0) {
         rc = fail(&err);
         goto done;
     }
@@ -647,12 +793,13 @@ static int cmd_sensitivity(const cli_args *a)
         fprintf(stderr, "stagesim: warning: %d transistor corner%s outside forward-active "
                         "operation (corners.csv)\n",
                 n_out, n_out == 1 ? "" : "s");
-    rc = EXIT_OK;
+    rc = out_commit(set, EXIT_OK);
 done:
     ss_table_destroy(&corners);
     ss_table_destroy(&sens);
     ss_limits_destroy(&lim);
     ss_study_destroy(&s);
+    ss_outset_destroy(&set);
     return rc;
 }
 
@@ -662,38 +809,39 @@ static int cmd_merge(const cli_args *a)
 {
     if (a->n_shards == 0)
         return usage_error("%s", "merge needs the shard CSV files");
-    if (prepare_out_dir(a->out_dir) != 0)
-        return EXIT_BAD_INPUT;
+    static const char *const names[2] = {"study.csv", "study_summary.csv"};
+    const char *path[2];
+    ss_outset *set = NULL;
+    int rc = out_open(a, &set);
+    if (rc == EXIT_OK)
+        rc = out_reserve(set, a->out_dir, names, 2, path);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
+        return rc;
+    }
     ss_error err = {0};
-    ss_table **shards = calloc((size_t)a->n_shards, sizeof *shards);
     ss_table *merged = NULL, *summary = NULL;
     ss_limits *lim = NULL;
-    int rc = EXIT_OK;
-    if (!shards)
-        return EXIT_BAD_INPUT;
-    for (int i = 0; i < a->n_shards && rc == EXIT_OK; i++)
-        if (ss_table_read_csv(a->shards[i], &shards[i], &err) != SS_OK)
-            rc = fail(&err);
-    if (rc == EXIT_OK && a->limits_path &&
+    if (a->limits_path &&
         (ss_limits_create(&lim, &err) != SS_OK ||
          ss_limits_add_file(lim, a->limits_path, &err) != SS_OK))
         rc = fail(&err);
-    if (rc == EXIT_OK && (ss_study_merge(shards, a->n_shards, &merged, &err) != SS_OK ||
-                          ss_study_summarize(merged, lim, &summary, &err) != SS_OK ||
-                          write_table(merged, a->out_dir, "study.csv", &err) != 0 ||
-                          write_table(summary, a->out_dir, "study_summary.csv", &err) != 0))
+    /* every shard is checked against the manifest its run wrote beside it: the same study,
+     * every one of the N there once, each file as its run wrote it */
+    if (rc == EXIT_OK &&
+        (ss_study_merge_files(a->shards, a->n_shards, set, &merged, &err) != SS_OK ||
+         ss_study_summarize(merged, lim, &summary, &err) != SS_OK ||
+         write_table(merged, path[0], &err) != 0 || write_table(summary, path[1], &err) != 0))
         rc = fail(&err);
     if (rc == EXIT_OK && !a->quiet)
         printf("merged %d shard%s: %d points\n", a->n_shards, a->n_shards == 1 ? "" : "s",
                ss_table_rows(merged));
     if (rc == EXIT_OK)
-        rc = print_yield(summary, a->min_yield, a->quiet);
-    for (int i = 0; i < a->n_shards; i++)
-        ss_table_destroy(&shards[i]);
-    free(shards);
+        rc = out_commit(set, print_yield(summary, a->min_yield, a->quiet));
     ss_table_destroy(&merged);
     ss_table_destroy(&summary);
     ss_limits_destroy(&lim);
+    ss_outset_destroy(&set);
     return rc;
 }
 
@@ -853,6 +1001,59 @@ static int parse_args(int argc, char **argv, cli_args *a)
 
 static int cmd_snap(const cli_args *a);
 
+/* SIGINT, SIGTERM, SIGHUP: the run's temporary and staged files go, then the signal takes
+ * its course (the exit status still says which signal ended the run). */
+static void on_fatal_signal(int sig)
+{
+    ss_output_remove_temporaries();
+    signal(sig, SIG_DFL);
+    raise(sig);
+}
+
+static void install_signal_handlers(void)
+{
+    static const int sigs[] = {SIGINT, SIGTERM, SIGHUP};
+    for (size_t i = 0; i < sizeof sigs / sizeof sigs[0]; i++) {
+        struct sigaction sa;
+        memset(&sa, 0, sizeof sa);
+        sa.sa_handler = on_fatal_signal;
+        sigemptyset(&sa.sa_mask);
+        sigaction(sigs[i], &sa, NULL);
+    }
+}
+
+/* argv[1..] as one line, each argument shell-quoted where it needs it. */
+static char *join_args(int argc, char **argv)
+{
+    size_t len = 1;
+    for (int i = 1; i < argc; i++)
+        len += 4 * strlen(argv[i]) + 3;
+    char *s = malloc(len), *w = s;
+    if (!s)
+        return NULL;
+    for (int i = 1; i < argc; i++) {
+        const char *t = argv[i];
+        int plain = *t && strspn(t, "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ"
+                                    "0123456789_-+=/.,:%@") == strlen(t);
+        if (i > 1)
+            *w++ = ' ';
+        if (plain) {
+            w += sprintf(w, "%s", t);
+            continue;
+        }
+        *w++ = '\'';
+        for (; *t; t++) {
+            if (*t == '\'')
+                w += sprintf(w, "'\\''");
+            else
+                *w++ = *t;
+        }
+        *w++ = '\'';
+    }
+    *w = '\0';
+    return s;
+}
+
 int main(int argc, char **argv)
 {
     if (argc < 2) {
@@ -877,6 +1078,12 @@ int main(int argc, char **argv)
         return usage_error("unknown command '%s'", argv[1]);
     cli_args a;
     memset(&a, 0, sizeof a);
+    install_signal_handlers();
+    a.cmdline = join_args(argc, argv);
+    if (!a.cmdline) {
+        fprintf(stderr, "stagesim: out of memory\n");
+        return EXIT_BAD_INPUT;
+    }
     int rc = parse_args(argc, argv, &a);
     if (rc == EXIT_OK) {
         if (strcmp(a.cmd, "run") == 0)
@@ -899,6 +1106,7 @@ int main(int argc, char **argv)
     free(a.tols);
     free(a.shards);
     free(a.nodes);
+    free(a.cmdline);
     return rc;
 }
 
@@ -908,18 +1116,28 @@ static int cmd_snap(const cli_args *a)
 {
     if (a->series == 0)
         return usage_error("%s", "snap needs --series E12, E24 or E96");
-    if (prepare_out_dir(a->out_dir) != 0)
-        return EXIT_BAD_INPUT;
+    static const char *const names[2] = {"snap_values.csv", "snap_figures.csv"};
+    const char *path[2];
+    ss_outset *set = NULL;
+    int rc = out_open(a, &set);
+    if (rc == EXIT_OK)
+        rc = out_reserve(set, a->out_dir, names, 2, path);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
+        return rc;
+    }
     ss_study *s = NULL;
     ss_limits *lim = NULL;
-    int rc = make_study(a, &s, &lim);
-    if (rc != EXIT_OK)
+    rc = make_study(a, &s, &lim);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
         return rc;
+    }
     ss_error err = {0};
     ss_table *vals = NULL, *figs = NULL;
-    if (ss_study_snap(s, a->series, "r", &vals, &figs, &err) != SS_OK ||
-        write_table(vals, a->out_dir, "snap_values.csv", &err) != 0 ||
-        write_table(figs, a->out_dir, "snap_figures.csv", &err) != 0) {
+    if (ss_study_note_identity(s, "snap", set, &err) != SS_OK ||
+        ss_study_snap(s, a->series, "r", &vals, &figs, &err) != SS_OK ||
+        write_table(vals, path[0], &err) != 0 || write_table(figs, path[1], &err) != 0) {
         rc = fail(&err);
         goto done;
     }
@@ -943,10 +1161,12 @@ static int cmd_snap(const cli_args *a)
                 printf(" %8.3f%%\n", pct);
         }
     }
+    rc = out_commit(set, EXIT_OK);
 done:
     ss_table_destroy(&vals);
     ss_table_destroy(&figs);
     ss_limits_destroy(&lim);
     ss_study_destroy(&s);
+    ss_outset_destroy(&set);
     return rc;
 }

@@ -159,6 +159,15 @@ void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *f)
 
 double ss_circuit_temp_c(const ss_circuit *ckt) { return ckt->temp_c; }
 
+const char *ss_circuit_input(const ss_circuit *ckt, int index, const char **out_sha256)
+{
+    if (!ckt || index < 0 || index >= ckt->n_inputs)
+        return NULL;
+    if (out_sha256)
+        *out_sha256 = ckt->inputs[index].sha256;
+    return ckt->inputs[index].path;
+}
+
 ss_status ss_circuit_set_temp(ss_circuit *ckt, double temp_c, ss_error *err)
 {
     if (!(temp_c > -SS_ZERO_C_IN_K && temp_c <= 1000.0))
@@ -251,6 +260,7 @@ void ss_circuit_destroy(ss_circuit **pckt)
     ss_free(ckt->models);
     strmap_clear(&ckt->model_map);
     ss_free(ckt->warnings);
+    ss_free(ckt->inputs);
     ss_free(ckt->study_lines);
     ss_free(ckt->param_name);
     ss_free(ckt->param_value);

@@ -182,6 +182,14 @@ struct ss_circuit {
 
     const char **warnings;
     int n_warnings;
+
+    /* the files read, the netlist first, then each .include as read, with the SHA-256 of the
+     * bytes parsed (ss_circuit_input; a run's manifest records them) */
+    struct ckt_input {
+        const char *path;
+        char sha256[65];
+    } *inputs;
+    int n_inputs;
 };
 
 typedef struct ac_wslot ac_wslot;

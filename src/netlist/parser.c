@@ -162,6 +162,21 @@ static ss_status tokenize(parser *ps, logline *ll, char *text)
 static ss_status read_text(parser *ps, const char *text, size_t len, const char *file,
                            int is_top);
 
+/* Records an input file and the SHA-256 of the bytes about to be parsed (the run manifest's
+ * record of what this circuit was read from). */
+static ss_status note_input(parser *ps, const char *file, const char *text, size_t len)
+{
+    ss_circuit *ckt = ps->ckt;
+    struct ckt_input *ni = ss_realloc(ckt->inputs, (size_t)(ckt->n_inputs + 1) * sizeof *ni);
+    if (!ni)
+        return nomem(ps);
+    ckt->inputs = ni;
+    ni[ckt->n_inputs].path = file;
+    ss_sha256_hex(text, len, ni[ckt->n_inputs].sha256);
+    ckt->n_inputs++;
+    return SS_OK;
+}
+
 static char *dir_of(const char *path, char *buf, size_t len)
 {
     const char *slash = strrchr(path, '/');
@@ -216,8 +231,13 @@ static ss_status read_file(parser *ps, const char *path, const logline *from, in
         strbuf_clear(&b);
         return nomem(ps);
     }
+    ss_status st = note_input(ps, file, b.data ? b.data : "", b.len);
+    if (st != SS_OK) {
+        strbuf_clear(&b);
+        return st;
+    }
     ps->inc_stack[ps->inc_depth++] = canon_copy;
-    ss_status st = read_text(ps, b.data ? b.data : "", b.len, file, is_top);
+    st = read_text(ps, b.data ? b.data : "", b.len, file, is_top);
     ps->inc_depth--;
     strbuf_clear(&b);
     return st;

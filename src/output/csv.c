@@ -73,6 +73,12 @@ void csv_field(csv_out *o, const char *s)
     csv_char(o, '"');
 }
 
+void csv_field_after(csv_out *o, const char *s)
+{
+    csv_char(o, ',');
+    csv_field(o, s);
+}
+
 void csv_number(csv_out *o, double v, int comma_before)
 {
     if (CSV_CHUNK - o->len < CSV_MAX_NUMBER + 1)

@@ -47,6 +47,44 @@ static int csv_split(char *line, char **fields, int max)
     }
 }
 
+/* A number exactly as the writer formats them (fmt_double.c): an optional minus, digits with
+ * an optional fraction, an optional exponent; or inf / -inf. Anything else -- nan, hex,
+ * spaces, a trailing letter -- is refused: a table read back must hold what was written. */
+static int number_field(const char *f, double *out)
+{
+    const char *p = f;
+    if (strcmp(f, "inf") == 0 || strcmp(f, "-inf") == 0) {
+        *out = f[0] == '-' ? -HUGE_VAL : HUGE_VAL;
+        return 0;
+    }
+    if (*p == '-')
+        p++;
+    int digits = 0;
+    while (*p >= '0' && *p <= '9')
+        p++, digits++;
+    if (*p == '.') {
+        p++;
+        while (*p >= '0' && *p <= '9')
+            p++, digits++;
+    }
+    if (!digits)
+        return -1;
+    if (*p == 'e') {
+        p++;
+        if (*p == '+' || *p == '-')
+            p++;
+        if (!(*p >= '0' && *p <= '9'))
+            return -1;
+        while (*p >= '0' && *p <= '9')
+            p++;
+    }
+    if (*p)
+        return -1;
+    char *end;
+    *out = strtod(f, &end);
+    return *end == '\0' && isfinite(*out) ? 0 : -1;
+}
+
 ss_status ss_table_read_csv(const char *path, ss_table **out, ss_error *err)
 {
     FILE *f = fopen(path, "rb");
@@ -70,8 +108,13 @@ ss_status ss_table_read_csv(const char *path, ss_table **out, ss_error *err)
     char *p = b.data;
     while (st == SS_OK && fields && *p) {
         char *nl = strchr(p, '\n');
-        if (nl)
-            *nl = '\0';
+        if (!nl) {
+            /* every line the writer makes ends in a line feed: this file was cut short */
+            st = err_set(err, SS_ERR_INPUT, path, line_no + 1,
+                         "the last line has no line end: the file was cut short");
+            break;
+        }
+        *nl = '\0';
         size_t len = strlen(p);
         if (len && p[len - 1] == '\r')
             p[len - 1] = '\0';
@@ -96,16 +139,14 @@ ss_status ss_table_read_csv(const char *path, ss_table **out, ss_error *err)
             double *row = table_add_row(t, NULL);
             if (!row)
                 st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-            for (int j = 0; row && j < n; j++) {
-                char *end;
-                row[j] = fields[j][0] ? strtod(fields[j], &end) : SS_NAN;
-                if (fields[j][0] && *end)
-                    st = err_set(err, SS_ERR_INPUT, path, line_no, "'%s' is not a number",
-                                 fields[j]);
+            for (int j = 0; row && j < n && st == SS_OK; j++) {
+                row[j] = SS_NAN;
+                if (fields[j][0] && number_field(fields[j], &row[j]) != 0)
+                    st = err_set(err, SS_ERR_INPUT, path, line_no,
+                                 "'%.40s' in column %d is not a number as stagesim writes them",
+                                 fields[j], j + 1);
             }
         }
-        if (!nl)
-            break;
         p = nl + 1;
     }
     if (!fields)

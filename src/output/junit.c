@@ -7,20 +7,7 @@
 #include "output/output.h"
 #include "util/table.h"
 
-static void xml_text(ss_strbuf *b, const char *s)
-{
-    for (; *s; s++) {
-        switch (*s) {
-        case '&': strbuf_append(b, "&amp;", 5); break;
-        case '<': strbuf_append(b, "&lt;", 4); break;
-        case '>': strbuf_append(b, "&gt;", 4); break;
-        case '"': strbuf_append(b, "&quot;", 6); break;
-        default:
-            if ((unsigned char)*s >= 0x20 || *s == '\t' || *s == '\n')
-                strbuf_append(b, s, 1);
-        }
-    }
-}
+static void xml_text(ss_strbuf *b, const char *s) { xml_put_text(b, s); }
 
 ss_status ss_check_write_junit(const ss_table *v, const char *suite_name, const char *path,
                                ss_error *err)

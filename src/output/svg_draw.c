@@ -4,31 +4,16 @@
 #include <stdio.h>
 #include <string.h>
 
+#include "output/output.h"
 #include "output/svg.h"
 
 #define U_MINUS "\xE2\x88\x92" /* the true minus sign (the documents declare UTF-8) */
 
 void svg_put(ss_strbuf *b, const char *s) { strbuf_append(b, s, strlen(s)); }
 
-/* & < > " become entities, and control characters XML 1.0 does not allow become spaces, so any
- * title keeps the file well-formed. */
-void svg_put_escaped(ss_strbuf *b, const char *s)
-{
-    for (; *s; s++) {
-        unsigned char c = (unsigned char)*s;
-        switch (c) {
-        case '&': svg_put(b, "&amp;"); break;
-        case '<': svg_put(b, "&lt;"); break;
-        case '>': svg_put(b, "&gt;"); break;
-        case '"': svg_put(b, "&quot;"); break;
-        default:
-            if (c < 0x20 && c != '\t' && c != '\n' && c != '\r')
-                svg_put(b, " ");
-            else
-                strbuf_append(b, s, 1);
-        }
-    }
-}
+/* & < > " become entities, control characters XML 1.0 does not allow become spaces, and
+ * bytes that are not UTF-8 become U+FFFD, so any title keeps the file well-formed. */
+void svg_put_escaped(ss_strbuf *b, const char *s) { xml_put_text(b, s); }
 
 void svg_put_text(ss_strbuf *b, double x, double y, const char *anchor, const char *attrs,
                   const char *text)

@@ -8,6 +8,7 @@
 
 #include "netlist/netlist.h"
 #include "study/study.h"
+#include "util/sha256.h"
 
 static const char *const POINT_QUANTITIES[] = {"gain", "gain_db", "phase_deg", "zin_ohm",
                                                "zout_ohm"};
@@ -172,6 +173,16 @@ bad:
 
 ss_status ss_limits_add_text(ss_limits *l, const char *text, const char *name, ss_error *err)
 {
+    /* a digest of every text added, chained: what a study's identity records of its limits */
+    {
+        sha256_ctx c;
+        unsigned char d[32];
+        sha256_init(&c);
+        sha256_update(&c, l->sha256, strlen(l->sha256));
+        sha256_update(&c, text, strlen(text));
+        sha256_final(&c, d);
+        sha256_hex(d, l->sha256);
+    }
     const char *file = arena_strdup(&l->arena, name ? name : "<limits>");
     if (!file)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");

@@ -49,6 +49,7 @@ struct ss_study {
     ss_progress_fn progress;
     void *progress_ctx;
     ss_circuit *nominal;
+    char limits_sha256[65]; /* of the limits added (ss_study_add_limits), "" when none */
 };
 
 static char *lower_dup(ss_arena *a, const char *s, size_t n)
@@ -412,6 +413,10 @@ ss_status ss_study_set_shard(ss_study *s, int k, int n, ss_error *err)
 ss_status ss_study_add_limits(ss_study *s, const ss_limits *l, ss_error *err)
 {
     ss_limits *own = s->own_limits;
+    /* the study's identity covers the limits' text: they decide which figures are columns */
+    char both[2 * 65 + 1];
+    snprintf(both, sizeof both, "%s%s", s->limits_sha256, l->sha256);
+    ss_sha256_hex(both, strlen(both), s->limits_sha256);
     for (int i = 0; i < l->n; i++) {
         if (own->n == own->cap) {
             int ncap = own->cap ? own->cap * 2 : 16;
@@ -656,7 +661,7 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
 /* ---- statistics --------------------------------------------------------------------------- */
 
 /* The first figure column of a points table: right after `status`. */
-static int first_figure_col(const ss_table *pts)
+int study_first_figure_col(const ss_table *pts)
 {
     for (int j = 0; j < pts->n_cols; j++)
         if (strcmp(pts->col_names[j], "status") == 0)
@@ -667,9 +672,20 @@ static int first_figure_col(const ss_table *pts)
 ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table **out_summary,
                              ss_error *err)
 {
-    int f0 = first_figure_col(pts);
+    int f0 = study_first_figure_col(pts);
     if (f0 < 0)
         return err_set(err, SS_ERR_INPUT, NULL, 0, "not a study points table (no status column)");
+    /* a limit on a figure the table does not have would pass every point unseen */
+    for (int k = 0; l && k < l->n; k++) {
+        int found = 0;
+        for (int j = f0; j < pts->n_cols && !found; j++)
+            found = strcmp(pts->col_names[j], l->items[k].quantity) == 0;
+        if (!found)
+            return err_set(err, SS_ERR_INPUT, l->items[k].file, l->items[k].line,
+                           "limit on '%s': the points have no such figure (a typo, or a figure "
+                           "this study did not compute)",
+                           l->items[k].quantity);
+    }
     static const char *const cols[] = {"n", "min", "max", "mean", "std", "pass_fraction"};
     ss_table *t = table_create(6, "figure");
     int bad = !t;
@@ -803,69 +819,6 @@ ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
         return st;
     }
     *out_sens = t;
-    return SS_OK;
-}
-
-/* ---- shards --------------------------------------------------------------------------------- */
-
-static int cmp_point(const void *a, const void *b)
-{
-    double x = **(const double *const *)a, y = **(const double *const *)b;
-    return (x > y) - (x < y);
-}
-
-ss_status ss_study_merge(ss_table *const *shards, int n_shards, ss_table **out_points,
-                         ss_error *err)
-{
-    if (n_shards < 1)
-        return err_set(err, SS_ERR_INPUT, NULL, 0, "merge: no shard files");
-    const ss_table *a = shards[0];
-    if (a->n_cols < 2 || strcmp(a->col_names[0], "point") != 0 || first_figure_col(a) < 0)
-        return err_set(err, SS_ERR_INPUT, NULL, 0, "merge: the first file is not a study table");
-    long total = 0;
-    for (int i = 0; i < n_shards; i++) {
-        const ss_table *b = shards[i];
-        if (b->n_cols != a->n_cols)
-            return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "merge: shard %d has %d columns, the first has %d", i + 1, b->n_cols,
-                           a->n_cols);
-        for (int j = 0; j < a->n_cols; j++)
-            if (strcmp(a->col_names[j], b->col_names[j]) != 0)
-                return err_set(err, SS_ERR_INPUT, NULL, 0,
-                               "merge: shard %d's column %d is '%s', the first's is '%s'", i + 1,
-                               j + 1, b->col_names[j], a->col_names[j]);
-        total += b->n_rows;
-    }
-    const double **rows = ss_alloc((size_t)(total ? total : 1) * sizeof *rows);
-    if (!rows)
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    long k = 0;
-    for (int i = 0; i < n_shards; i++)
-        for (int r = 0; r < shards[i]->n_rows; r++)
-            rows[k++] = shards[i]->data + (size_t)r * (size_t)a->n_cols;
-    qsort(rows, (size_t)total, sizeof *rows, cmp_point);
-    for (long i = 0; i < total; i++)
-        if (rows[i][0] != (double)i) {
-            double got = rows[i][0];
-            ss_free(rows);
-            return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "merge: point %ld is %s (got point %.0f there)", i,
-                           got < (double)i ? "duplicated" : "missing", got);
-        }
-    ss_table *t = table_create(a->n_cols, NULL);
-    int bad = !t || table_reserve(t, (int)(total ? total : 1)) != 0;
-    for (int j = 0; !bad && j < a->n_cols; j++)
-        bad |= table_set_col(t, j, a->col_names[j]) != 0;
-    for (long i = 0; !bad && i < total; i++) {
-        double *row = table_add_row(t, NULL);
-        memcpy(row, rows[i], (size_t)a->n_cols * sizeof *row);
-    }
-    ss_free(rows);
-    if (bad) {
-        ss_table_destroy(&t);
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
-    *out_points = t;
     return SS_OK;
 }
 
@@ -1046,4 +999,51 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
     }
     *out = t;
     return SS_OK;
+}
+
+/* ---- identity (shards.c notes it in a run's manifest) ------------------------------------ */
+
+ss_status study_identity(const ss_study *s, ss_strbuf *text, long *first, long *end, long *total,
+                         ss_error *err)
+{
+    long n = ss_study_points(s);
+    if (n < 0)
+        return err_set(err, SS_ERR_LIMIT, NULL, 0, "more than %ld points", STUDY_MAX_POINTS);
+    *total = n;
+    *first = n * (s->shard_k - 1) / s->shard_n;
+    *end = n * s->shard_k / s->shard_n;
+    /* everything that decides the points' values, in a fixed order: the inputs by content
+     * (not by path, so shards run from other folders or hosts agree), the overrides, the stage,
+     * every swept value, every tolerance, the trial count and the seed */
+    for (int i = 0; ss_circuit_input(s->nominal, i, NULL); i++) {
+        const char *sha;
+        ss_circuit_input(s->nominal, i, &sha);
+        strbuf_printf(text, "input %s\n", sha);
+    }
+    for (int i = 0; i < s->n_sets; i++)
+        strbuf_printf(text, "set %s=%s\n", s->sets[i].name, s->sets[i].value);
+    if (s->stage_in)
+        strbuf_printf(text, "stage %s %s\n", s->stage_in, s->stage_out);
+    for (int d = 0; d < s->n_dims; d++) {
+        strbuf_printf(text, "vary %s", s->dims[d].name);
+        for (int k = 0; k < s->dims[d].n; k++)
+            strbuf_printf(text, " %.17g", s->dims[d].values[k]);
+        strbuf_printf(text, "\n");
+    }
+    for (int t = 0; t < s->n_tols; t++)
+        strbuf_printf(text, "tol %s %.17g %.17g %s\n", s->tols[t].name, s->tols[t].lo,
+                      s->tols[t].hi, s->tols[t].gauss ? "gauss" : "uniform");
+    strbuf_printf(text, "trials %ld\nseed %llu\nlimits %s\n", s->trials, s->seed,
+                  s->limits_sha256[0] ? s->limits_sha256 : "-");
+    return text->failed ? err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory") : SS_OK;
+}
+
+const ss_circuit *study_nominal(const ss_study *s) { return s->nominal; }
+
+void study_shard(const ss_study *s, int *k, int *n, unsigned long long *seed, long *trials)
+{
+    *k = s->shard_k;
+    *n = s->shard_n;
+    *seed = s->seed;
+    *trials = s->trials;
 }

@@ -19,6 +19,7 @@ struct ss_limits {
     limit *items;
     int n, cap;
     ss_arena arena;
+    char sha256[65]; /* over the texts added (file and text limits), chained; "" when none */
 };
 
 /* Per-frequency stage quantities a limit may name with `@ FREQ`. */
@@ -28,6 +29,17 @@ SS_HIDDEN double figures_value(const ss_table *figs, int row_hint, const char *l
 /* Parses one limit line (no comment); 0 ok, else the error set with file:line. */
 SS_HIDDEN ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, int line,
                                       ss_error *err);
+
+/* The canonical text of everything that decides a study's points (inputs by SHA-256,
+ * overrides, stage, swept values, tolerances, trials, seed, limits), appended to text; and this
+ * shard's point range [first, end) of total. (runner.c; shards.c hashes it.) */
+SS_HIDDEN ss_status study_identity(const ss_study *s, ss_strbuf *text, long *first, long *end,
+                                   long *total, ss_error *err);
+/* The first figure column of a study's points table (right after `status`); -1 when none. */
+SS_HIDDEN int study_first_figure_col(const ss_table *pts);
+SS_HIDDEN const ss_circuit *study_nominal(const ss_study *s);
+SS_HIDDEN void study_shard(const ss_study *s, int *k, int *n, unsigned long long *seed,
+                           long *trials);
 
 /* The significands of series E12/E24/E96 (times *scale); returns the count, 0 if unknown. */
 SS_HIDDEN int eseries_table(int series, const int **values, double *scale);

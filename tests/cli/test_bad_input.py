@@ -431,7 +431,9 @@ case("-o pointing at a regular file", 2,
 case("-o under a regular file", 2,
      "stagesim: output folder '" + TMP + "/afile/sub': Not a directory",
      files=V, setup=make_file("afile"), args=["run", "{T}/n.cir", "-o", "{T}/afile/sub"])
-case("op.csv is a folder", 2, TMP + "/out/op.csv: cannot write: Is a directory",
+# found when the run's files are reserved, before the netlist is read
+case("op.csv is a folder", 2,
+     "stagesim: op.csv '" + TMP + "/out/op.csv' is a folder, not a file",
      files=V, setup=lambda t: os.makedirs(os.path.join(t, "out", "op.csv")))
 
 
