@@ -362,6 +362,23 @@ SS_API ss_status ss_eseries_nearest(int series, double value, double *out_value,
 /* Warnings gathered while parsing and solving (e.g. a near-singular matrix); NULL past the end. */
 SS_API const char *ss_circuit_warning(const ss_circuit *ckt, int index);
 
+/* ---- sanity warnings (lint) ------------------------------------------------------------- */
+
+/* Runs the sanity checks of docs/cli.md on the circuit at its operating point (solved first when
+ * there is none): SI suffixes that read as milli or femto, resistors outside 1 mohm .. 1 Tohm,
+ * nodes with one connection, coupling or bypass capacitors below 1 pF, stage transistors not
+ * in forward-active operation, currents above 1 kA. Each finding `.options lint_off=` leaves on
+ * becomes a circuit warning ("FILE:LINE: NAME: ... [CHECK]", ss_circuit_warning) that
+ * ss_circuit_warning_lint names; nothing else in the circuit changes. Running it again adds
+ * nothing. Output: *out_n (may be NULL), how many of the circuit's warnings are lint warnings.
+ * Returns SS_OK, or as ss_op_solve when the operating point had to be solved. */
+SS_API ss_status ss_lint_run(ss_circuit *ckt, int *out_n, ss_error *err);
+
+/* The lint check that raised warning `index` ("one_connection"); NULL for any other warning or
+ * past the end. *subject (subject may be NULL) gets the element or node the warning names. */
+SS_API const char *ss_circuit_warning_lint(const ss_circuit *ckt, int index,
+                                           const char **subject);
+
 #ifdef __cplusplus
 }
 #endif
