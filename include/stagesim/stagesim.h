@@ -288,6 +288,11 @@ SS_API ss_status ss_check_evaluate(const ss_limits *l, const ss_table *figures,
 /* Writes verdicts as a JUnit-style XML report (one testsuite, one testcase per limit). */
 SS_API ss_status ss_check_write_junit(const ss_table *verdicts, const char *suite_name,
                                       const char *path, ss_error *err);
+/* The same plus, after the limits, one failing testcase per lint warning of lint_ckt (after
+ * ss_lint_run; see ss_circuit_warning_lint): what `check --strict` writes. */
+SS_API ss_status ss_check_write_junit_strict(const ss_table *verdicts, const ss_circuit *lint_ckt,
+                                             const char *suite_name, const char *path,
+                                             ss_error *err);
 
 /* ---- studies: sweeps and tolerance (Monte Carlo) runs ------------------------------------ */
 

@@ -38,6 +38,7 @@ static const char USAGE[] =
     "                    the report); default every node\n"
     "  --ls-freq F --thd-amp A --thd-target PCT   (run) the large-signal test\n"
     "  --quiet           no report on stdout\n"
+    "  --strict          (check) fail (exit 1) on any sanity (lint) warning\n"
     "  --limits FILE     (sweep, spread, merge) limits for pass fractions and yield\n"
     "  --min-yield F     (sweep, spread) exit 1 when the yield is below F (0..1)\n"
     "  --vary NAME=lin:START:STOP:N | log:START:STOP:N | list:V1,V2,...  (NAME may be temp)\n"
@@ -84,6 +85,7 @@ typedef struct cli_args {
     const char *in_src, *out_node;
     double load_ohm;
     int plot, quiet;
+    int strict; /* check --strict: a lint warning fails the check */
     const char *junit;
     const char **varies, **tols, **shards;
     int n_varies, n_tols, n_shards;
@@ -223,7 +225,7 @@ static int cmd_run(const cli_args *a)
     ss_circuit_analyses(ckt, &fl);
     ss_op_stats stats;
     if (ss_op_solve(ckt, &op, &stats, &err) != SS_OK ||
-        write_table(op, a->out_dir, "op.csv", &err) != 0) {
+        write_table(op, a->out_dir, "op.csv", &err) != 0 || ss_lint_run(ckt, NULL, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
     }
@@ -390,7 +392,7 @@ static int cmd_check(const cli_args *a)
     int rc = load_circuit(a, &ckt);
     if (rc != EXIT_OK)
         return rc;
-    int n_failed = 0;
+    int n_failed = 0, n_lint = 0;
     if (ss_limits_create(&lim, &err) != SS_OK || ss_limits_add_circuit(lim, ckt, &err) != SS_OK ||
         (a->limits_path && ss_limits_add_file(lim, a->limits_path, &err) != SS_OK)) {
         rc = fail(&err);
@@ -404,7 +406,8 @@ static int cmd_check(const cli_args *a)
         goto done;
     }
     if (ss_figures_compute(ckt, lim, &figs, &err) != SS_OK ||
-        ss_check_evaluate(lim, figs, &verdicts, &n_failed, &err) != SS_OK) {
+        ss_check_evaluate(lim, figs, &verdicts, &n_failed, &err) != SS_OK ||
+        ss_lint_run(ckt, &n_lint, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
     }
@@ -413,7 +416,10 @@ static int cmd_check(const cli_args *a)
         rc = fail(&err);
         goto done;
     }
-    if (a->junit && ss_check_write_junit(verdicts, a->netlist, a->junit, &err) != SS_OK) {
+    if (a->junit && (a->strict ? ss_check_write_junit_strict(verdicts, ckt, a->netlist, a->junit,
+                                                             &err)
+                               : ss_check_write_junit(verdicts, a->netlist, a->junit, &err)) !=
+                        SS_OK) {
         rc = fail(&err);
         goto done;
     }
@@ -429,8 +435,13 @@ static int cmd_check(const cli_args *a)
             printf("  %s\n", ss_table_get(verdicts, i, 4) != 0.0 ? "pass" : "FAIL");
         }
         printf("\n%d passed, %d failed\n", n - n_failed, n_failed);
+        if (a->strict && n_lint)
+            printf("%d sanity warning%s (lint): --strict fails the check\n", n_lint,
+                   n_lint == 1 ? "" : "s");
     }
-    rc = n_failed ? EXIT_CHECK_FAILED : EXIT_OK;
+    for (int i = 0; ss_circuit_warning(ckt, i); i++)
+        fprintf(stderr, "stagesim: warning: %s\n", ss_circuit_warning(ckt, i));
+    rc = n_failed || (a->strict && n_lint) ? EXIT_CHECK_FAILED : EXIT_OK;
 done:
     ss_table_destroy(&figs);
     ss_table_destroy(&verdicts);
@@ -825,6 +836,8 @@ static int parse_args(int argc, char **argv, cli_args *a)
             a->nodes[a->n_nodes++] = next;
         } else if (strcmp(o, "--plot") == 0) {
             a->plot = 1;
+        } else if (strcmp(o, "--strict") == 0) {
+            a->strict = 1;
         } else if (strcmp(o, "--quiet") == 0 || strcmp(o, "-q") == 0) {
             a->quiet = 1;
         } else if (o[0] == '-' && o[1] != '\0') {
@@ -848,6 +861,8 @@ static int parse_args(int argc, char **argv, cli_args *a)
         return usage_error("%s needs a NETLIST", a->cmd);
     if (a->n_nodes > 0 && strcmp(a->cmd, "run") != 0)
         return usage_error("--nodes belongs to run (the per-node tables), not %s", a->cmd);
+    if (a->strict && strcmp(a->cmd, "check") != 0)
+        return usage_error("--strict belongs to check, not %s", a->cmd);
     return EXIT_OK;
 }
 
