@@ -289,7 +289,8 @@ SS_API ss_status ss_check_evaluate(const ss_limits *l, const ss_table *figures,
 SS_API ss_status ss_check_write_junit(const ss_table *verdicts, const char *suite_name,
                                       const char *path, ss_error *err);
 /* The same plus, after the limits, one failing testcase per lint warning of lint_ckt (after
- * ss_lint_run; see ss_circuit_warning_lint): what `check --strict` writes. */
+ * ss_lint_run; see ss_circuit_warning_lint): what `check --strict` writes. lint_ckt NULL:
+ * exactly ss_check_write_junit. */
 SS_API ss_status ss_check_write_junit_strict(const ss_table *verdicts, const ss_circuit *lint_ckt,
                                              const char *suite_name, const char *path,
                                              ss_error *err);

@@ -10,12 +10,12 @@
 #include "analysis/analysis.h"
 
 /* thresholds (docs/cli.md, "Sanity warnings") */
-#define LINT_R_MIN_OHM 1e-3      /* below: no resistor is made that small (a short was meant) */
-#define LINT_R_MAX_OHM 1e12      /* above: beyond the largest parts sold (an open was meant) */
+#define LINT_R_MIN_OHM 1e-3       /* below: no resistor is made that small (a short was meant) */
+#define LINT_R_MAX_OHM 1e12       /* above: beyond the largest parts sold (an open was meant) */
 #define LINT_C_SIGNAL_MIN_F 1e-12 /* a coupling or bypass capacitor below passes nothing */
-#define LINT_I_MAX_A 1e3         /* no device of a transistor stage carries a kiloampere */
-#define LINT_MILLI_BELOW_OHM 1.0 /* `m` on a resistor below this: meg was meant */
-#define LINT_FEMTO_BELOW_F 1e-12 /* `f` on a capacitor below this: farads were meant */
+#define LINT_I_MAX_A 1e3          /* no device of a transistor stage carries a kiloampere */
+#define LINT_MILLI_BELOW_OHM 1.0  /* `m` on a resistor below this: meg was meant */
+#define LINT_FEMTO_BELOW_F 1e-12  /* `f` on a capacitor below this: farads were meant */
 
 static const char *const LINT_NAMES[LINT_CHECK_COUNT] = {
     /* ORDER LINT_CHECK */
@@ -38,66 +38,97 @@ int lint_check_by_name(const char *name)
 
 static int lint_on(const ss_circuit *ckt, int check) { return !(ckt->lint_off & (1u << check)); }
 
-/* ---- values: the suffix traps and the range of resistors ---------------------------------- */
+/* What one pass over the elements gathers for the checks after it. */
+typedef struct lint_survey {
+    int src;              /* the stage source's element index, -1 without a stage */
+    unsigned char *named; /* per element: 1 named by a suffix check, 2 a capacitor in series */
+    int *first_elem;      /* per node: the first element on it (one_connection) */
+    unsigned char *count; /* per node: its element terminals, counted up to 2 */
+    int *uf;              /* per node: union-find over independent V sources (AC grounds) */
+    int n_q, n_tiny;      /* BJTs; capacitors below 1 pF not named by femto_suffix */
+    size_t n_ends;        /* element terminals in all */
+} lint_survey;
 
-/* milli_suffix, femto_suffix, resistor_range. A value the suffix check names is not named
- * again by the range checks (one slip, one warning), unless that suffix check is off; the
- * same holds for femto_suffix and coupling_cap_tiny (flag in named[]). */
-static int lint_values(ss_circuit *ckt, unsigned char *named)
+static int uf_find(int *uf, int a)
 {
-    int bad = 0;
-    for (int i = 0; i < ckt->n_elem && !bad; i++) {
-        const element *e = &ckt->elem[i];
-        char kind = e->ops->letter;
-        if (kind == 'r' && e->value_si_exp == -3 && e->value < LINT_MILLI_BELOW_OHM &&
-            lint_on(ckt, LINT_MILLI_SUFFIX)) {
-            named[i] = 1;
-            bad = circuit_warn_lint(ckt, LINT_MILLI_SUFFIX, e->name,
-                                    "%s:%d: %s: %g ohm: the suffix m is milli (also when written "
-                                    "M: case is not kept); did you mean meg? [milli_suffix]",
-                                    e->file, e->line, e->name, e->value);
-        } else if (kind == 'c' && e->value_si_exp == -15 && e->value < LINT_FEMTO_BELOW_F &&
-                   lint_on(ckt, LINT_FEMTO_SUFFIX)) {
-            named[i] = 1;
-            bad = circuit_warn_lint(ckt, LINT_FEMTO_SUFFIX, e->name,
-                                    "%s:%d: %s: %g F: the suffix f is femto, not farad (farads "
-                                    "are written as a plain number or with u, n, p) "
-                                    "[femto_suffix]",
-                                    e->file, e->line, e->name, e->value);
-        } else if (kind == 'r' && (e->value < LINT_R_MIN_OHM || e->value > LINT_R_MAX_OHM) &&
-                   lint_on(ckt, LINT_RESISTOR_RANGE)) {
-            bad = circuit_warn_lint(ckt, LINT_RESISTOR_RANGE, e->name,
-                                    "%s:%d: %s: %g ohm is %s the range of resistors (1 mohm .. "
-                                    "1 Tohm) [resistor_range]",
-                                    e->file, e->line, e->name, e->value,
-                                    e->value < LINT_R_MIN_OHM ? "below" : "above");
-        }
+    while (uf[a] != a) {
+        uf[a] = uf[uf[a]];
+        a = uf[a];
     }
-    return bad;
+    return a;
 }
 
-/* ---- one_connection ---------------------------------------------------------------------- */
+/* ---- the pass over the elements: values, connections, supplies --------------------------- */
+
+/* milli_suffix, femto_suffix and resistor_range on e. A value the suffix check names is not
+ * named again by resistor_range (one slip, one warning) unless that suffix check is off; the
+ * same holds for femto_suffix and coupling_cap_tiny (sv->named). 0 ok, -1 no memory. */
+static int lint_value(ss_circuit *ckt, int i, lint_survey *sv)
+{
+    const element *e = &ckt->elem[i];
+    char kind = e->ops->letter;
+    if (kind == 'r' && e->value_si_exp == -3 && e->value < LINT_MILLI_BELOW_OHM &&
+        lint_on(ckt, LINT_MILLI_SUFFIX)) {
+        sv->named[i] = 1;
+        return circuit_warn_lint(ckt, LINT_MILLI_SUFFIX, e->name,
+                                 "%s:%d: %s: %g ohm: the suffix m is milli (also when written "
+                                 "M: case is not kept); did you mean meg? [milli_suffix]",
+                                 e->file, e->line, e->name, e->value);
+    }
+    if (kind == 'c' && e->value_si_exp == -15 && e->value < LINT_FEMTO_BELOW_F &&
+        lint_on(ckt, LINT_FEMTO_SUFFIX)) {
+        sv->named[i] = 1;
+        return circuit_warn_lint(ckt, LINT_FEMTO_SUFFIX, e->name,
+                                 "%s:%d: %s: %g F: the suffix f is femto, not farad (farads are "
+                                 "written as a plain number or with u, n, p) [femto_suffix]",
+                                 e->file, e->line, e->name, e->value);
+    }
+    if (kind == 'r' && (e->value < LINT_R_MIN_OHM || e->value > LINT_R_MAX_OHM) &&
+        lint_on(ckt, LINT_RESISTOR_RANGE))
+        return circuit_warn_lint(ckt, LINT_RESISTOR_RANGE, e->name,
+                                 "%s:%d: %s: %g ohm is %s the range of resistors (1 mohm .. "
+                                 "1 Tohm) [resistor_range]",
+                                 e->file, e->line, e->name, e->value,
+                                 e->value < LINT_R_MIN_OHM ? "below" : "above");
+    return 0;
+}
+
+/* One pass: the value checks, terminal counts per node, the unions of the supplies, and how
+ * many BJTs and small capacitors there are. Large boards pay for every pass over their
+ * element records, so the later checks work from what this one gathers. */
+static int lint_survey_pass(ss_circuit *ckt, lint_survey *sv)
+{
+    for (int n = 0; n < ckt->n_nodes; n++)
+        sv->uf[n] = n;
+    for (int i = 0; i < ckt->n_elem; i++) {
+        const element *e = &ckt->elem[i];
+        if (lint_value(ckt, i, sv) != 0)
+            return -1;
+        sv->n_ends += e->n_node;
+        for (int k = 0; k < e->n_node; k++) {
+            int n = e->node[k];
+            if (sv->count[n] == 0)
+                sv->first_elem[n] = i;
+            if (sv->count[n] < 2)
+                sv->count[n]++;
+        }
+        char kind = e->ops->letter;
+        if (kind == 'v' && i != sv->src)
+            sv->uf[uf_find(sv->uf, e->node[0])] = uf_find(sv->uf, e->node[1]);
+        sv->n_q += kind == 'q';
+        sv->n_tiny += kind == 'c' && e->value < LINT_C_SIGNAL_MIN_F && sv->named[i] != 1;
+    }
+    return 0;
+}
 
 /* A netlist node that only one element terminal touches carries no current: most often a
  * misspelt node name. Named with the line of that element. */
-static int lint_one_connection(ss_circuit *ckt, int *first_elem, unsigned char *count)
+static int lint_one_connection(ss_circuit *ckt, const lint_survey *sv)
 {
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
-        for (int k = 0; k < e->n_node; k++) {
-            int n = e->node[k];
-            if (n <= 0 || n > ckt->n_netlist_nodes)
-                continue;
-            if (count[n] == 0)
-                first_elem[n] = i;
-            if (count[n] < 2)
-                count[n]++;
-        }
-    }
     for (int n = 1; n <= ckt->n_netlist_nodes; n++) {
-        if (count[n] != 1)
+        if (sv->count[n] != 1)
             continue;
-        const element *e = &ckt->elem[first_elem[n]];
+        const element *e = &ckt->elem[sv->first_elem[n]];
         if (circuit_warn_lint(ckt, LINT_ONE_CONNECTION, ckt->node_name[n],
                               "%s:%d: node '%s' has only one connection (%s): a misspelt node "
                               "name? [one_connection]",
@@ -115,42 +146,28 @@ static int lint_one_connection(ss_circuit *ckt, int *first_elem, unsigned char *
  * (the supplies; the stage source itself excepted). Independent current sources other than the
  * stage source are open to the signal and have no edges. */
 typedef struct sig_graph {
-    int n_vert;
-    int *off, *adj;            /* adjacency in compressed rows: adj[off[v] .. off[v+1]-1] */
-    int *disc, *low, *par;     /* depth-first search from the stage source: discovery order
-                                  (0: not reached), low link, parent vertex (-1 root) */
-    unsigned char *acg;        /* per node: 1 when an AC ground */
+    int *off, *adj;        /* adjacency in compressed rows: adj[off[v] .. off[v+1]-1] */
+    int *disc, *low, *par; /* depth-first search from the stage source: discovery order
+                              (0: not reached), low link, parent vertex (-1 root) */
+    int *q, *tiny;         /* the BJTs and the small capacitors, in netlist order */
+    unsigned char *acg;    /* per node: 1 when an AC ground */
+    unsigned char *side;   /* per node: 1 a stage transistor's emitter, 2 one resistor away */
 } sig_graph;
-
-static int uf_find(int *uf, int a)
-{
-    while (uf[a] != a) {
-        uf[a] = uf[uf[a]];
-        a = uf[a];
-    }
-    return a;
-}
-
-static int elem_has_edges(const ss_circuit *ckt, int i, int src)
-{
-    return i == src || ckt->elem[i].ops->letter != 'i';
-}
 
 /* Fills g (arrays from one block *mem, freed by the caller) and runs the search from the stage
  * source's vertex. 0 ok, -1 no memory. */
-static int sig_graph_build(const ss_circuit *ckt, int src, sig_graph *g, void **mem)
+static int sig_graph_build(const ss_circuit *ckt, const lint_survey *sv, sig_graph *g,
+                           void **mem)
 {
-    int nn = ckt->n_nodes, nv = nn + ckt->n_elem;
-    size_t n_ends = 0;
-    for (int i = 0; i < ckt->n_elem; i++)
-        n_ends += ckt->elem[i].n_node;
-    /* off (nv + 1), adj (2 n_ends), disc, low, par, it (nv), uf (nn); acg, skipped bytes */
-    size_t n_int = (size_t)nv + 1 + 2 * n_ends + 4 * (size_t)nv + (size_t)nn;
-    *mem = ss_alloc(n_int * sizeof(int) + (size_t)nn + (size_t)nv);
+    int nn = ckt->n_nodes, nv = nn + ckt->n_elem, src = sv->src;
+    size_t n_ends = sv->n_ends;
+    /* off (nv + 1), adj (2 n_ends), disc, low, par, it (nv), q, tiny; acg, side (nn),
+     * skipped (nv) bytes */
+    size_t n_int = 5 * (size_t)nv + 1 + 2 * n_ends + (size_t)sv->n_q + (size_t)sv->n_tiny;
+    *mem = ss_alloc(n_int * sizeof(int) + 2 * (size_t)nn + (size_t)nv);
     if (!*mem)
         return -1;
     int *p = *mem;
-    g->n_vert = nv;
     g->off = p, p += nv + 1;
     g->adj = p, p += 2 * n_ends;
     g->disc = p, p += nv;
@@ -158,27 +175,27 @@ static int sig_graph_build(const ss_circuit *ckt, int src, sig_graph *g, void **
     g->par = p, p += nv;
     int *it = p;
     p += nv;
-    int *uf = p;
-    p += nn;
+    g->q = p, p += sv->n_q;
+    g->tiny = p, p += sv->n_tiny;
     g->acg = (unsigned char *)p;
-    unsigned char *skipped = g->acg + nn;
+    g->side = g->acg + nn;
+    unsigned char *skipped = g->side + nn;
 
-    /* AC grounds: union the two nodes of every independent V source but the stage source */
+    int root0 = uf_find(sv->uf, 0);
     for (int n = 0; n < nn; n++)
-        uf[n] = n;
+        g->acg[n] = uf_find(sv->uf, n) == root0;
+
+    /* edges, both directions: count (and list the BJTs and small capacitors), offsets, fill
+     * (it[] as the fill cursor) */
+    int n_q = 0, n_tiny = 0;
     for (int i = 0; i < ckt->n_elem; i++) {
         const element *e = &ckt->elem[i];
-        if (e->ops->letter == 'v' && i != src)
-            uf[uf_find(uf, e->node[0])] = uf_find(uf, e->node[1]);
-    }
-    int root0 = uf_find(uf, 0);
-    for (int n = 0; n < nn; n++)
-        g->acg[n] = uf_find(uf, n) == root0;
-
-    /* edges, both directions: count, offsets, fill (it[] as the fill cursor) */
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
-        if (!elem_has_edges(ckt, i, src))
+        char kind = e->ops->letter;
+        if (kind == 'q')
+            g->q[n_q++] = i;
+        else if (kind == 'c' && e->value < LINT_C_SIGNAL_MIN_F && sv->named[i] != 1)
+            g->tiny[n_tiny++] = i;
+        else if (kind == 'i' && i != src)
             continue;
         for (int k = 0; k < e->n_node; k++)
             if (!g->acg[e->node[k]]) {
@@ -191,7 +208,7 @@ static int sig_graph_build(const ss_circuit *ckt, int src, sig_graph *g, void **
     memcpy(it, g->off, (size_t)nv * sizeof *it);
     for (int i = 0; i < ckt->n_elem; i++) {
         const element *e = &ckt->elem[i];
-        if (!elem_has_edges(ckt, i, src))
+        if (e->ops->letter == 'i' && i != src)
             continue;
         for (int k = 0; k < e->n_node; k++) {
             int n = e->node[k];
@@ -235,18 +252,17 @@ static int sig_graph_build(const ss_circuit *ckt, int src, sig_graph *g, void **
     return 0;
 }
 
-/* coupling_cap_tiny and stage_not_active: the checks that need the stage's signal network.
- * named[i] is 1 for an element a suffix check named already; set to 2 here for a capacitor in
- * series with the signal path. */
-static int lint_stage(ss_circuit *ckt, unsigned char *named)
+/* coupling_cap_tiny and stage_not_active: the checks that need the stage's signal network. */
+static int lint_stage(ss_circuit *ckt, lint_survey *sv)
 {
-    int src = circuit_find_elem(ckt, ckt->stage_in);
-    int out = circuit_find_node(ckt, ckt->stage_out);
-    if (src < 0 || out <= 0)
-        return 0;
+    int out = sv->src >= 0 ? circuit_find_node(ckt, ckt->stage_out) : -1;
+    int want_c = lint_on(ckt, LINT_COUPLING_CAP_TINY) && sv->n_tiny > 0;
+    int want_q = lint_on(ckt, LINT_STAGE_NOT_ACTIVE) && sv->n_q > 0;
+    if (sv->src < 0 || out <= 0 || !(want_c || want_q))
+        return 0; /* nothing to look at (a board of passives and 1 nF capacitors): no graph */
     sig_graph g;
     void *mem = NULL;
-    if (sig_graph_build(ckt, src, &g, &mem) != 0)
+    if (sig_graph_build(ckt, sv, &g, &mem) != 0)
         return -1;
     int nn = ckt->n_nodes, bad = 0;
 
@@ -256,35 +272,36 @@ static int lint_stage(ss_circuit *ckt, unsigned char *named)
     for (int v = out; g.disc[out] && g.par[v] >= 0; v = g.par[v]) {
         int c = g.par[v] - nn;
         if (c >= 0 && ckt->elem[c].ops->letter == 'c' && g.low[v] > g.disc[g.par[v]] &&
-            !named[c])
-            named[c] = 2;
+            !sv->named[c])
+            sv->named[c] = 2;
     }
 
     /* emitter-side nodes of the stage transistors: the emitter, and a node one resistor away
      * from it (a split emitter resistor); a capacitor from one to an AC ground bypasses it */
-    unsigned char *side = g.acg + nn; /* reuse: the search's bytes, one per vertex >= nn */
-    memset(side, 0, (size_t)nn);
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
-        if (e->ops->letter == 'q' && g.disc[nn + i] && !g.acg[e->node[2]])
-            side[e->node[2]] = 1;
+    for (int k = 0; k < sv->n_q; k++) {
+        int emitter = ckt->elem[g.q[k]].node[2];
+        if (g.disc[nn + g.q[k]] && !g.acg[emitter])
+            g.side[emitter] = 1;
     }
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
-        if (e->ops->letter != 'r')
+    for (int k = 0; k < sv->n_q; k++) {
+        int emitter = ckt->elem[g.q[k]].node[2];
+        if (g.side[emitter] != 1)
             continue;
-        for (int k = 0; k < 2; k++)
-            if (side[e->node[k]] == 1 && !g.acg[e->node[1 - k]] && !side[e->node[1 - k]])
-                side[e->node[1 - k]] = 2;
+        for (int j = g.off[emitter]; j < g.off[emitter + 1]; j++) {
+            const element *r = &ckt->elem[g.adj[j] - nn];
+            if (r->ops->letter != 'r')
+                continue;
+            int other = r->node[0] == emitter ? r->node[1] : r->node[0];
+            if (!g.acg[other] && !g.side[other])
+                g.side[other] = 2;
+        }
     }
 
-    for (int i = 0; i < ckt->n_elem && !bad && lint_on(ckt, LINT_COUPLING_CAP_TINY); i++) {
-        const element *e = &ckt->elem[i];
-        if (e->ops->letter != 'c' || named[i] == 1 || !(e->value < LINT_C_SIGNAL_MIN_F))
-            continue;
+    for (int k = 0; k < sv->n_tiny && !bad && want_c; k++) {
+        const element *e = &ckt->elem[g.tiny[k]];
         int a = e->node[0], b = e->node[1];
-        int n = g.acg[a] && side[b] ? b : g.acg[b] && side[a] ? a : -1;
-        if (named[i] == 2)
+        int n = g.acg[a] && g.side[b] ? b : g.acg[b] && g.side[a] ? a : -1;
+        if (sv->named[g.tiny[k]] == 2)
             bad = circuit_warn_lint(ckt, LINT_COUPLING_CAP_TINY, e->name,
                                     "%s:%d: %s: %g F in series with the signal path (%s to node "
                                     "%s) is below 1 pF: it passes almost nothing "
@@ -301,9 +318,9 @@ static int lint_stage(ss_circuit *ckt, unsigned char *named)
 
     /* every transistor the signal network reaches, in forward-active operation */
     double vt = analysis_vt(ckt);
-    for (int i = 0; i < ckt->n_elem && !bad && lint_on(ckt, LINT_STAGE_NOT_ACTIVE); i++) {
-        const element *e = &ckt->elem[i];
-        if (e->ops->letter != 'q' || !g.disc[nn + i])
+    for (int k = 0; k < sv->n_q && !bad && want_q; k++) {
+        const element *e = &ckt->elem[g.q[k]];
+        if (!g.disc[nn + g.q[k]])
             continue;
         bjt_op_info info;
         bjt_op_details(e, ckt->x_op, vt, ckt->opt.gmin, &info);
@@ -367,20 +384,22 @@ ss_status ss_lint_run(ss_circuit *ckt, int *out_n, ss_error *err)
     if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
         return st;
     int nn = ckt->n_nodes;
-    size_t bytes = (size_t)ckt->n_unknowns * sizeof(double) + (size_t)nn * sizeof(int) +
-                   (size_t)nn + (size_t)ckt->n_elem;
-    void *mem = ss_alloc(bytes);
+    /* r (n_unknowns doubles), first_elem, uf (nn ints), count (nn), named (n_elem bytes) */
+    void *mem = ss_alloc((size_t)ckt->n_unknowns * sizeof(double) +
+                         2 * (size_t)nn * sizeof(int) + (size_t)nn + (size_t)ckt->n_elem);
     if (!mem)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     double *r = mem;
-    int *first_elem = (int *)(r + ckt->n_unknowns);
-    unsigned char *count = (unsigned char *)(first_elem + nn);
-    unsigned char *named = count + nn;
-    int bad = lint_values(ckt, named);
+    lint_survey sv = {.src = ckt->stage_in ? circuit_find_elem(ckt, ckt->stage_in) : -1};
+    sv.first_elem = (int *)(r + ckt->n_unknowns);
+    sv.uf = sv.first_elem + nn;
+    sv.count = (unsigned char *)(sv.uf + nn);
+    sv.named = sv.count + nn;
+    int bad = lint_survey_pass(ckt, &sv);
     if (!bad && lint_on(ckt, LINT_ONE_CONNECTION))
-        bad = lint_one_connection(ckt, first_elem, count);
-    if (!bad && ckt->stage_in)
-        bad = lint_stage(ckt, named);
+        bad = lint_one_connection(ckt, &sv);
+    if (!bad)
+        bad = lint_stage(ckt, &sv);
     if (!bad && lint_on(ckt, LINT_HUGE_CURRENT))
         bad = lint_currents(ckt, r);
     ss_free(mem);

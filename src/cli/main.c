@@ -225,7 +225,8 @@ static int cmd_run(const cli_args *a)
     ss_circuit_analyses(ckt, &fl);
     ss_op_stats stats;
     if (ss_op_solve(ckt, &op, &stats, &err) != SS_OK ||
-        write_table(op, a->out_dir, "op.csv", &err) != 0 || ss_lint_run(ckt, NULL, &err) != SS_OK) {
+        write_table(op, a->out_dir, "op.csv", &err) != 0 ||
+        ss_lint_run(ckt, NULL, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
     }
@@ -416,10 +417,8 @@ static int cmd_check(const cli_args *a)
         rc = fail(&err);
         goto done;
     }
-    if (a->junit && (a->strict ? ss_check_write_junit_strict(verdicts, ckt, a->netlist, a->junit,
-                                                             &err)
-                               : ss_check_write_junit(verdicts, a->netlist, a->junit, &err)) !=
-                        SS_OK) {
+    if (a->junit && ss_check_write_junit_strict(verdicts, a->strict ? ckt : NULL, a->netlist,
+                                                a->junit, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
     }

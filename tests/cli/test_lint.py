@@ -97,8 +97,8 @@ def expect_warnings(label, r, want):
     """want: [(check, line, text fragment)] in the order they are listed, and nothing else."""
     got = lint_lines(r.stderr)
     check(f"{label}: exit 0", r.returncode == 0, r.stderr.strip())
-    check(f"{label}: lint warnings {[(g[3], g[1]) for g in got]} are {[(w[0], w[1]) for w in want]}",
-          [(g[3], g[1]) for g in got] == [(w[0], w[1]) for w in want], r.stderr.strip())
+    found, expected = [(g[3], g[1]) for g in got], [(w[0], w[1]) for w in want]
+    check(f"{label}: lint warnings {found} are {expected}", found == expected, r.stderr.strip())
     for (c, line, frag), g in zip(want, got):
         check(f"{label}: [{c}] names {frag!r} at {g[0]}:{line}",
               frag in g[2] and g[0] == f"{label}.cir", g[2])
