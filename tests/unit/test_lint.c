@@ -103,7 +103,7 @@ static void test_supply_is_no_signal_path(void **state)
 static void test_transistor_paths(void **state)
 {
     (void)state;
-    /* a common-emitter stage, Ic about 1 mA: the input capacitor is in series (the signal
+    /* a common-emitter stage, Ic about 1.4 mA: the input capacitor is in series (the signal
      * crosses Q1 from base to collector); a small capacitor from base to collector is beside
      * Q1, not in series; an element with both ends on one node changes nothing */
     static const char *stage = "t\n.model tn npn is=1e-14 bf=150\nvcc vcc 0 12\n"
