@@ -288,6 +288,12 @@ SS_API ss_status ss_check_evaluate(const ss_limits *l, const ss_table *figures,
 /* Writes verdicts as a JUnit-style XML report (one testsuite, one testcase per limit). */
 SS_API ss_status ss_check_write_junit(const ss_table *verdicts, const char *suite_name,
                                       const char *path, ss_error *err);
+/* The same plus, after the limits, one failing testcase per lint warning of lint_ckt (after
+ * ss_lint_run; see ss_circuit_warning_lint): what `check --strict` writes. lint_ckt NULL:
+ * exactly ss_check_write_junit. */
+SS_API ss_status ss_check_write_junit_strict(const ss_table *verdicts, const ss_circuit *lint_ckt,
+                                             const char *suite_name, const char *path,
+                                             ss_error *err);
 
 /* ---- studies: sweeps and tolerance (Monte Carlo) runs ------------------------------------ */
 
@@ -433,6 +439,23 @@ SS_API ss_status ss_study_merge_files(const char *const *paths, int n, ss_outset
 
 /* Warnings gathered while parsing and solving (e.g. a near-singular matrix); NULL past the end. */
 SS_API const char *ss_circuit_warning(const ss_circuit *ckt, int index);
+
+/* ---- sanity warnings (lint) ------------------------------------------------------------- */
+
+/* Runs the sanity checks of docs/cli.md on the circuit at its operating point (solved first when
+ * there is none): SI suffixes that read as milli or femto, resistors outside 1 mohm .. 1 Tohm,
+ * nodes with one connection, coupling or bypass capacitors below 1 pF, stage transistors not
+ * in forward-active operation, currents above 1 kA. Each finding `.options lint_off=` leaves on
+ * becomes a circuit warning ("FILE:LINE: NAME: ... [CHECK]", ss_circuit_warning) that
+ * ss_circuit_warning_lint names; nothing else in the circuit changes. Running it again adds
+ * nothing. Output: *out_n (may be NULL), how many of the circuit's warnings are lint warnings.
+ * Returns SS_OK, or as ss_op_solve when the operating point had to be solved. */
+SS_API ss_status ss_lint_run(ss_circuit *ckt, int *out_n, ss_error *err);
+
+/* The lint check that raised warning `index` ("one_connection"); NULL for any other warning or
+ * past the end. *subject (subject may be NULL) gets the element or node the warning names. */
+SS_API const char *ss_circuit_warning_lint(const ss_circuit *ckt, int index,
+                                           const char **subject);
 
 #ifdef __cplusplus
 }

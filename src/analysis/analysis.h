@@ -74,4 +74,21 @@ SS_HIDDEN ss_status noise_collect_sources(const ss_circuit *ckt, noise_src **out
 SS_HIDDEN ss_status stage_at_frequency(ss_circuit *ckt, double freq_hz, double _Complex *gain,
                                        double *zin_ohm, double *zout_ohm, ss_error *err);
 
+/* Lint (lint.c): the sanity checks by their stable names (docs/cli.md), in the order they run
+ * and their warnings are listed. */
+enum lint_check { /* ORDER LINT_CHECK */
+    LINT_MILLI_SUFFIX,
+    LINT_FEMTO_SUFFIX,
+    LINT_RESISTOR_RANGE,
+    LINT_ONE_CONNECTION,
+    LINT_COUPLING_CAP_TINY,
+    LINT_STAGE_NOT_ACTIVE,
+    LINT_HUGE_CURRENT,
+    LINT_CHECK_COUNT
+};
+/* "one_connection" for LINT_ONE_CONNECTION; NULL out of range. */
+SS_HIDDEN const char *lint_check_name(int check);
+/* The check of that name, -1 when there is none. */
+SS_HIDDEN int lint_check_by_name(const char *name);
+
 #endif

@@ -39,6 +39,7 @@ static const char USAGE[] =
     "                    the report); default every node\n"
     "  --ls-freq F --thd-amp A --thd-target PCT   (run) the large-signal test\n"
     "  --quiet           no report on stdout\n"
+    "  --strict          (check) fail (exit 1) on any sanity (lint) warning\n"
     "  --limits FILE     (sweep, spread, merge) limits for pass fractions and yield\n"
     "  --min-yield F     (sweep, spread) exit 1 when the yield is below F (0..1)\n"
     "  --vary NAME=lin:START:STOP:N | log:START:STOP:N | list:V1,V2,...  (NAME may be temp)\n"
@@ -85,6 +86,7 @@ typedef struct cli_args {
     const char *in_src, *out_node;
     double load_ohm;
     int plot, quiet;
+    int strict; /* check --strict: a lint warning fails the check */
     const char *junit;
     const char **varies, **tols, **shards;
     int n_varies, n_tols, n_shards;
@@ -430,7 +432,7 @@ static int cmd_run(const cli_args *a)
     ss_op_stats stats;
     int bad = ss_outset_note_circuit(set, ckt, &err) != SS_OK ||
               ss_op_solve(ckt, &op, &stats, &err) != SS_OK ||
-              write_table(op, path[F_OP], &err) != 0 ||
+              write_table(op, path[F_OP], &err) != 0 || ss_lint_run(ckt, NULL, &err) != SS_OK ||
               run_ac(ckt, a, path, &fl, &stage, &summary, &err) != 0;
     if (!bad && !a->quiet) {
         ss_report_write(ckt, summary, stdout);
@@ -510,7 +512,7 @@ static int cmd_check(const cli_args *a)
         ss_outset_destroy(&set);
         return rc;
     }
-    int n_failed = 0;
+    int n_failed = 0, n_lint = 0;
     if (ss_limits_create(&lim, &err) != SS_OK || ss_limits_add_circuit(lim, ckt, &err) != SS_OK ||
         (a->limits_path && ss_limits_add_file(lim, a->limits_path, &err) != SS_OK) ||
         (has_dir && ss_outset_note_circuit(set, ckt, &err) != SS_OK)) {
@@ -525,7 +527,8 @@ static int cmd_check(const cli_args *a)
         goto done;
     }
     if (ss_figures_compute(ckt, lim, &figs, &err) != SS_OK ||
-        ss_check_evaluate(lim, figs, &verdicts, &n_failed, &err) != SS_OK) {
+        ss_check_evaluate(lim, figs, &verdicts, &n_failed, &err) != SS_OK ||
+        ss_lint_run(ckt, &n_lint, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
     }
@@ -534,7 +537,8 @@ static int cmd_check(const cli_args *a)
         rc = fail(&err);
         goto done;
     }
-    if (a->junit && ss_check_write_junit(verdicts, a->netlist, junit, &err) != SS_OK) {
+    if (a->junit && ss_check_write_junit_strict(verdicts, a->strict ? ckt : NULL, a->netlist,
+                                                junit, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
     }
@@ -550,8 +554,13 @@ static int cmd_check(const cli_args *a)
             printf("  %s\n", ss_table_get(verdicts, i, 4) != 0.0 ? "pass" : "FAIL");
         }
         printf("\n%d passed, %d failed\n", n - n_failed, n_failed);
+        if (a->strict && n_lint)
+            printf("%d sanity warning%s (lint): --strict fails the check\n", n_lint,
+                   n_lint == 1 ? "" : "s");
     }
-    rc = n_failed ? EXIT_CHECK_FAILED : EXIT_OK;
+    for (int i = 0; ss_circuit_warning(ckt, i); i++)
+        fprintf(stderr, "stagesim: warning: %s\n", ss_circuit_warning(ckt, i));
+    rc = n_failed || (a->strict && n_lint) ? EXIT_CHECK_FAILED : EXIT_OK;
     if (set)
         rc = out_commit(set, rc);
 done:
@@ -973,6 +982,8 @@ static int parse_args(int argc, char **argv, cli_args *a)
             a->nodes[a->n_nodes++] = next;
         } else if (strcmp(o, "--plot") == 0) {
             a->plot = 1;
+        } else if (strcmp(o, "--strict") == 0) {
+            a->strict = 1;
         } else if (strcmp(o, "--quiet") == 0 || strcmp(o, "-q") == 0) {
             a->quiet = 1;
         } else if (o[0] == '-' && o[1] != '\0') {
@@ -996,6 +1007,8 @@ static int parse_args(int argc, char **argv, cli_args *a)
         return usage_error("%s needs a NETLIST", a->cmd);
     if (a->n_nodes > 0 && strcmp(a->cmd, "run") != 0)
         return usage_error("--nodes belongs to run (the per-node tables), not %s", a->cmd);
+    if (a->strict && strcmp(a->cmd, "check") != 0)
+        return usage_error("--strict belongs to check, not %s", a->cmd);
     return EXIT_OK;
 }
 

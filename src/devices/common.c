@@ -64,6 +64,7 @@ int parse_two_node_value(pctx *p, element *e, const char *what, int allow_zero)
         return pctx_error(p, "unexpected '%s' after the %s value", pctx_tok(p, 4), what);
     if (pctx_value(p, pctx_tok(p, 3), what, &e->value) != 0)
         return -1;
+    e->value_si_exp = (signed char)value_si_exp(pctx_tok(p, 3));
     if (e->value < 0.0 || (!allow_zero && e->value == 0.0))
         return pctx_error(p, "%s must be %s, got %g", what, allow_zero ? "zero or positive" : "positive",
                           e->value);

@@ -122,6 +122,30 @@ void circuit_unknown_name(const struct ss_circuit *ckt, int unknown, char *buf, 
     snprintf(buf, len, "unknown #%d", unknown);
 }
 
+/* Appends msg (copied) with its lint check (-1 none) and subject, unless the very text is
+ * there already (each warning once). 0 ok, -1 no memory. */
+static int warn_add(struct ss_circuit *ckt, const char *msg, int check, const char *subject)
+{
+    for (int i = 0; i < ckt->n_warnings; i++)
+        if (strcmp(ckt->warnings[i], msg) == 0)
+            return 0;
+    size_t n = (size_t)ckt->n_warnings + 1;
+    const char **nw = ss_realloc(ckt->warnings, n * sizeof *nw);
+    if (!nw)
+        return -1;
+    ckt->warnings = nw;
+    struct warning_lint *nl = ss_realloc(ckt->warning_lint, n * sizeof *nl);
+    if (!nl)
+        return -1;
+    ckt->warning_lint = nl;
+    char *copy = arena_strdup(&ckt->arena, msg);
+    if (!copy)
+        return -1;
+    nl[ckt->n_warnings] = (struct warning_lint){check, subject};
+    ckt->warnings[ckt->n_warnings++] = copy;
+    return 0;
+}
+
 void circuit_warn(struct ss_circuit *ckt, const char *fmt, ...)
 {
     char msg[1024];
@@ -129,16 +153,18 @@ void circuit_warn(struct ss_circuit *ckt, const char *fmt, ...)
     va_start(ap, fmt);
     vsnprintf(msg, sizeof msg, fmt, ap);
     va_end(ap);
-    for (int i = 0; i < ckt->n_warnings; i++)
-        if (strcmp(ckt->warnings[i], msg) == 0)
-            return; /* each warning once */
-    const char **nw = ss_realloc(ckt->warnings, (size_t)(ckt->n_warnings + 1) * sizeof *nw);
-    if (!nw)
-        return;
-    ckt->warnings = nw;
-    char *copy = arena_strdup(&ckt->arena, msg);
-    if (copy)
-        ckt->warnings[ckt->n_warnings++] = copy;
+    warn_add(ckt, msg, -1, NULL);
+}
+
+int circuit_warn_lint(struct ss_circuit *ckt, int check, const char *subject, const char *fmt,
+                      ...)
+{
+    char msg[1024];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    return warn_add(ckt, msg, check, subject);
 }
 
 const char *ss_circuit_warning(const ss_circuit *ckt, int index)
@@ -261,6 +287,7 @@ void ss_circuit_destroy(ss_circuit **pckt)
     strmap_clear(&ckt->model_map);
     ss_free(ckt->warnings);
     ss_free(ckt->inputs);
+    ss_free(ckt->warning_lint);
     ss_free(ckt->study_lines);
     ss_free(ckt->param_name);
     ss_free(ckt->param_value);

@@ -40,6 +40,9 @@ typedef struct element {
     int line;
     unsigned char n_node;
     unsigned char n_slot;
+    /* power of ten of the SI suffix written on the main value's token (-3 for `m`, -15 for
+     * `f`, 6 for `meg`; 0 for none, `mil` or an {expression}): the lint's suffix checks */
+    signed char value_si_exp;
     /* what only some kinds have, overlaid (120 bytes per element in all): read these only
      * through the kind they belong to (elem_is_source / elem_has_model / the F and H files) */
     union {
@@ -190,6 +193,14 @@ struct ss_circuit {
         char sha256[65];
     } *inputs;
     int n_inputs;
+    /* per warning, when the lint raised it (analysis/lint.c): its check (enum lint_check; -1
+     * for any other warning) and the element or node it names */
+    struct warning_lint {
+        int check;
+        const char *subject;
+    } *warning_lint;
+    /* bit k set: lint check k silenced by `.options lint_off=NAME,...` */
+    unsigned lint_off;
 };
 
 typedef struct ac_wslot ac_wslot;
@@ -199,6 +210,10 @@ static inline int node_unknown(int node_idx) { return node_idx - 1; }
 
 SS_HIDDEN void circuit_warn(struct ss_circuit *ckt, const char *fmt, ...)
     __attribute__((format(printf, 2, 3)));
+/* A warning of lint check `check` naming `subject` (an element or node name that outlives
+ * the circuit). 0 added or already there, -1 no memory. */
+SS_HIDDEN int circuit_warn_lint(struct ss_circuit *ckt, int check, const char *subject,
+                                const char *fmt, ...) __attribute__((format(printf, 4, 5)));
 SS_HIDDEN int circuit_find_node(const struct ss_circuit *ckt, const char *name);
 SS_HIDDEN int circuit_find_elem(const struct ss_circuit *ckt, const char *name);
 /* Adds a node (name copied to the arena); returns its index or -1 on allocation failure. */

@@ -24,6 +24,10 @@ SS_HIDDEN size_t value_scan(const char *s, double *out);
 SS_HIDDEN size_t value_number_len(const char *s);
 /* The whole text must be one finite value. 0 ok, -1 bad. */
 SS_HIDDEN int value_parse(const char *text, double *out);
+/* Power of ten of the SI suffix on a value token: -3 for `68m` (milli, however it was written:
+ * netlists are read in lower case), -15 for `1f`, 6 for `1meg`; 0 for no suffix, `mil` or
+ * anything that is not a number (an {expression}). */
+SS_HIDDEN int value_si_exp(const char *tok);
 SS_HIDDEN int strncasecmp_ascii(const char *a, const char *b, size_t n);
 /* 1 when equal ignoring ASCII case */
 SS_HIDDEN int strcasecmp_ascii_eq(const char *a, const char *b);

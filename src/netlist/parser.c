@@ -11,6 +11,7 @@
 #include <string.h>
 #include <sys/stat.h>
 
+#include "analysis/analysis.h"
 #include "devices/device.h"
 #include "netlist/circuit.h"
 #include "netlist/netlist.h"
@@ -1192,6 +1193,34 @@ static ss_status expand_instance(parser *ps, const logline *ll, const scope *sc)
     return build_lines(ps, &inner, sd->body_first, sd->body_end);
 }
 
+/* `.options lint_off=NAME[,NAME...]`: the lint checks (analysis/lint.c) to silence. */
+static int set_lint_off(parser *ps, const logline *ll, const char *text)
+{
+    for (const char *t = text; *t;) {
+        size_t n = strcspn(t, " ,");
+        if (n > 0) {
+            char name[64] = "";
+            if (n < sizeof name)
+                memcpy(name, t, n);
+            int k = lint_check_by_name(name);
+            if (k < 0) {
+                char known[512] = "";
+                for (int j = 0; j < LINT_CHECK_COUNT; j++)
+                    snprintf(known + strlen(known), sizeof known - strlen(known), "%s%s",
+                             j ? ", " : "", lint_check_name(j));
+                return line_error(ps, ll, ".options: lint_off: unknown warning name '%.*s' "
+                                          "(known: %s)",
+                                  (int)(n > 64 ? 64 : n), t, known),
+                       -1;
+            }
+            ps->ckt->lint_off |= 1u << k;
+        }
+        t += n;
+        t += strspn(t, " ,");
+    }
+    return 0;
+}
+
 static int set_option(parser *ps, const logline *ll, void *vctx, const char *name,
                       const char *text)
 {
@@ -1208,6 +1237,8 @@ static int set_option(parser *ps, const logline *ll, void *vctx, const char *nam
                    -1;
         return 0;
     }
+    if (strcmp(name, "lint_off") == 0) /* sanity warnings to silence: docs/cli.md */
+        return set_lint_off(ps, ll, text);
     if (line_value(ps, ll, NULL, text, ".options", name, &v) != 0)
         return -1;
     ss_options_set *o = &ps->ckt->opt;
@@ -1233,7 +1264,7 @@ static int set_option(parser *ps, const logline *ll, void *vctx, const char *nam
     else
         return line_error(ps, ll,
                           ".options: unknown option '%s' (known: tol_rel, tol_v, tol_i, gmin, "
-                          "newton_iters, tran_method, tran_tol_rel, tran_tol_v)",
+                          "newton_iters, tran_method, tran_tol_rel, tran_tol_v, lint_off)",
                           name),
                -1;
     return 0;
@@ -1630,6 +1661,7 @@ static ss_status apply_late_overrides(parser *ps)
                                "--set %s: %s must not be negative, got %g", ov->name,
                                el->ops->value_name, v);
             el->value = v;
+            el->value_si_exp = (signed char)value_si_exp(vtext);
             continue;
         }
         char *dot = strrchr(name, '.');

@@ -7,26 +7,43 @@
 
 #include "netlist/netlist.h"
 
-/* Scale of an SI suffix at s (lower case); sets *len to the suffix length, 0 for none.
- * `meg` and `mil` are tried before `m` (common practice of netlist languages). */
-static double suffix_scale(const char *s, size_t *len)
+/* The SI suffixes (lower case) with their scale and power of ten (`mil` is no power of ten:
+ * 0). `meg` and `mil` are tried before `m` (common practice of netlist languages). */
+static const struct {
+    const char *text;
+    double scale;
+    int exp10;
+} SUFFIXES[] = {
+    {"meg", 1e6, 6}, {"mil", 25.4e-6, 0}, {"t", 1e12, 12}, {"g", 1e9, 9},     {"k", 1e3, 3},
+    {"m", 1e-3, -3}, {"u", 1e-6, -6},     {"n", 1e-9, -9}, {"p", 1e-12, -12}, {"f", 1e-15, -15},
+};
+
+/* Index into SUFFIXES of the suffix at s, -1 for none; sets *len to its length (0 for none). */
+static int suffix_at(const char *s, size_t *len)
 {
-    static const struct {
-        const char *text;
-        double scale;
-    } table[] = {
-        {"meg", 1e6}, {"mil", 25.4e-6}, {"t", 1e12}, {"g", 1e9}, {"k", 1e3}, {"m", 1e-3},
-        {"u", 1e-6},  {"n", 1e-9},      {"p", 1e-12}, {"f", 1e-15},
-    };
-    for (size_t i = 0; i < sizeof table / sizeof table[0]; i++) {
-        size_t n = strlen(table[i].text);
-        if (strncasecmp_ascii(s, table[i].text, n) == 0) {
+    for (size_t i = 0; i < sizeof SUFFIXES / sizeof SUFFIXES[0]; i++) {
+        size_t n = strlen(SUFFIXES[i].text);
+        if (strncasecmp_ascii(s, SUFFIXES[i].text, n) == 0) {
             *len = n;
-            return table[i].scale;
+            return (int)i;
         }
     }
     *len = 0;
-    return 1.0;
+    return -1;
+}
+
+/* Scale of an SI suffix at s; sets *len to the suffix length, 0 for none. */
+static double suffix_scale(const char *s, size_t *len)
+{
+    int k = suffix_at(s, len);
+    return k >= 0 ? SUFFIXES[k].scale : 1.0;
+}
+
+int value_si_exp(const char *tok)
+{
+    size_t n = value_number_len(tok), len;
+    int k = n > 0 ? suffix_at(tok + n, &len) : -1;
+    return k >= 0 ? SUFFIXES[k].exp10 : 0;
 }
 
 int strncasecmp_ascii(const char *a, const char *b, size_t n)

@@ -4,24 +4,32 @@
 #include <stdio.h>
 #include <string.h>
 
+#include "netlist/circuit.h"
 #include "output/output.h"
 #include "util/table.h"
 
 static void xml_text(ss_strbuf *b, const char *s) { xml_put_text(b, s); }
 
-ss_status ss_check_write_junit(const ss_table *v, const char *suite_name, const char *path,
-                               ss_error *err)
+static void put(ss_strbuf *b, const char *s) { strbuf_append(b, s, strlen(s)); }
+
+/* One testcase per limit of v, then (lint_ckt not NULL) one failing testcase per lint warning
+ * of lint_ckt: `CHECK SUBJECT` in class stagesim.lint.SUITE, the warning as the message. */
+static ss_status write_junit(const ss_table *v, const ss_circuit *lint_ckt,
+                             const char *suite_name, const char *path, ss_error *err)
 {
-    int failures = 0;
+    int failures = 0, n_lint = 0;
     for (int i = 0; i < v->n_rows; i++)
         failures += v->data[(size_t)i * 5 + 4] == 0.0;
+    for (int i = 0; lint_ckt && ss_circuit_warning(lint_ckt, i); i++)
+        n_lint += ss_circuit_warning_lint(lint_ckt, i, NULL) != NULL;
+    failures += n_lint;
     ss_strbuf b = {0};
     strbuf_printf(&b, "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n<testsuites tests=\"%d\" "
                       "failures=\"%d\" errors=\"0\">\n  <testsuite name=\"",
-                  v->n_rows, failures);
+                  v->n_rows + n_lint, failures);
     xml_text(&b, suite_name);
     strbuf_printf(&b, "\" tests=\"%d\" failures=\"%d\" errors=\"0\" skipped=\"0\" time=\"0\">\n",
-                  v->n_rows, failures);
+                  v->n_rows + n_lint, failures);
     for (int i = 0; i < v->n_rows; i++) {
         const double *r = v->data + (size_t)i * 5;
         strbuf_append(&b, "    <testcase name=\"", 20);
@@ -50,6 +58,35 @@ ss_status ss_check_write_junit(const ss_table *v, const char *suite_name, const 
                           "</testcase>\n",
                       meas[0] ? meas : "none", lo[0] ? lo : "none", hi[0] ? hi : "none");
     }
+    for (int i = 0; lint_ckt && ss_circuit_warning(lint_ckt, i); i++) {
+        const char *subject = NULL;
+        const char *check = ss_circuit_warning_lint(lint_ckt, i, &subject);
+        if (!check)
+            continue;
+        put(&b, "    <testcase name=\"");
+        xml_text(&b, check);
+        put(&b, " ");
+        xml_text(&b, subject ? subject : "");
+        put(&b, "\" classname=\"stagesim.lint.");
+        xml_text(&b, suite_name);
+        put(&b, "\" time=\"0\">\n      <failure message=\"");
+        xml_text(&b, ss_circuit_warning(lint_ckt, i));
+        put(&b, "\" type=\"lint\">");
+        xml_text(&b, ss_circuit_warning(lint_ckt, i));
+        put(&b, "</failure>\n    </testcase>\n");
+    }
     strbuf_append(&b, "  </testsuite>\n</testsuites>\n", 29);
     return output_write_strbuf(&b, path, err);
+}
+
+ss_status ss_check_write_junit(const ss_table *v, const char *suite_name, const char *path,
+                               ss_error *err)
+{
+    return write_junit(v, NULL, suite_name, path, err);
+}
+
+ss_status ss_check_write_junit_strict(const ss_table *v, const ss_circuit *lint_ckt,
+                                      const char *suite_name, const char *path, ss_error *err)
+{
+    return write_junit(v, lint_ckt, suite_name, path, err);
 }

@@ -582,6 +582,40 @@ static void run_dc(ss_circuit *ckt)
     ss_table_destroy(&dc);
 }
 
+/* The sanity checks at the operating point: every lint warning names its check at its end and
+ * a subject, the count matches, and a second run adds nothing. */
+static void run_lint(ss_circuit *ckt)
+{
+    ss_error err = {0};
+    int n = -1, n2 = -1;
+    ss_status st = ss_lint_run(ckt, &n, &err);
+    if (st != SS_OK) {
+        check_failure(st, &err);
+        return;
+    }
+    int named = 0, total = 0;
+    for (int i = 0; ss_circuit_warning(ckt, i); i++, total++) {
+        const char *subject = NULL, *check = ss_circuit_warning_lint(ckt, i, &subject);
+        if (!check)
+            continue;
+        named++;
+        const char *w = ss_circuit_warning(ckt, i);
+        size_t lw = strlen(w), lc = strlen(check);
+        FUZZ_CHECK(subject && subject[0], "lint warning without a subject");
+        FUZZ_CHECK(lw > lc + 2 && w[lw - 1] == ']' && w[lw - lc - 2] == '[' &&
+                       strncmp(w + lw - lc - 1, check, lc) == 0,
+                   "lint warning does not end in its check's name");
+    }
+    FUZZ_CHECK(named == n, "lint count differs from the warnings it named");
+    note("lint", "%d warnings", n);
+    st = ss_lint_run(ckt, &n2, &err);
+    FUZZ_CHECK(st == SS_OK && n2 == n, "a second lint run changed the count");
+    int total2 = 0;
+    for (int i = 0; ss_circuit_warning(ckt, i); i++)
+        total2++;
+    FUZZ_CHECK(total2 == total, "a second lint run added warnings");
+}
+
 static void run_analyses(ss_circuit *ckt)
 {
     ss_table *op = NULL, *summary = NULL;
@@ -600,6 +634,7 @@ static void run_analyses(ss_circuit *ckt)
     note("op", "ok, %d Newton iterations", stats.newton_iterations);
     write_csv(op, "op.csv");
     ss_table_destroy(&op);
+    run_lint(ckt);
 
     int ac_ok = fl.ac && ac_within_limit(ckt);
     if (ac_ok)
