@@ -43,6 +43,13 @@ SS_API void ss_error_format(const ss_error *err, char *buf, size_t buf_len);
 SS_API const char *ss_status_name(ss_status code);
 SS_API const char *ss_version(void);
 
+/* Reads one number as netlist values are written, for option values: decimal digits
+ * ([+-]D[.D][e[+-]D]) and an optional SI suffix (t g meg k m u n p f mil, any case: m is milli,
+ * meg mega), nothing after it -- no unit letters, no hex, no inf or nan. A lone capital M
+ * ("1M") is refused as ambiguous. Returns SS_OK with *out_value (finite) or SS_ERR_INPUT with
+ * err saying why, quoting the text. */
+SS_API ss_status ss_value_parse(const char *text, double *out_value, ss_error *err);
+
 /* ---- circuits ---------------------------------------------------------------------------- */
 
 typedef struct ss_circuit ss_circuit;
