@@ -286,6 +286,17 @@ SS_API void ss_limits_destroy(ss_limits **l);
 SS_API ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits,
                                     ss_table **out_figures, ss_error *err);
 
+/* Checks, without solving anything, that every limit names a figure ss_figures_compute will
+ * give for this circuit: an op.csv quantity (v(NODE) of a written node, i(V) per V source,
+ * ic/ib/vbe/vce/gm(Q) per BJT, id(D) per diode), a stage summary metric (with .ac and a
+ * stage), a noise figure (with .noise and .ac), a large-signal figure of the stage's source
+ * kind (with a stage) or QUANTITY@FREQ (with a stage). Call it after the stage is named and
+ * before the first solve, so a misspelt limit costs no solving. limits may be NULL.
+ * Returns SS_OK, SS_ERR_INPUT at the first limit naming no figure (with its file and line:
+ * "limit on 'QUANTITY': no such figure (why)"), SS_ERR_NOMEM. */
+SS_API ss_status ss_limits_check_names(const ss_limits *limits, const ss_circuit *ckt,
+                                       ss_error *err);
+
 /* Judges figures against limits. Output: a table labelled by quantity with columns measured,
  * lower, upper, margin (distance to the nearest bound; negative when failing), pass (1/0);
  * *n_failed the number failing. A limit on a figure not computed is SS_ERR_INPUT. */
