@@ -43,6 +43,13 @@ SS_API void ss_error_format(const ss_error *err, char *buf, size_t buf_len);
 SS_API const char *ss_status_name(ss_status code);
 SS_API const char *ss_version(void);
 
+/* Reads one number as netlist values are written, for option values: decimal digits
+ * ([+-]D[.D][e[+-]D]) and an optional SI suffix (t g meg k m u n p f mil, any case: m is milli,
+ * meg mega), nothing after it -- no unit letters, no hex, no inf or nan. A lone capital M
+ * ("1M") is refused as ambiguous. Returns SS_OK with *out_value (finite) or SS_ERR_INPUT with
+ * err saying why, quoting the text. */
+SS_API ss_status ss_value_parse(const char *text, double *out_value, ss_error *err);
+
 /* ---- circuits ---------------------------------------------------------------------------- */
 
 typedef struct ss_circuit ss_circuit;
@@ -57,7 +64,8 @@ typedef struct ss_override {
 } ss_override;
 
 /* Parses a netlist file (with its .include files) into a circuit.
- * Inputs: path; overrides[n_overrides] (may be NULL when n_overrides is 0).
+ * Inputs: path; overrides[n_overrides] (may be NULL when n_overrides is 0), each NAME once:
+ * a NAME given twice (in any case) is SS_ERR_INPUT ("--set NAME: set twice ...").
  * Output: *out_ckt, owned by the caller (ss_circuit_destroy), written on success only.
  * Returns SS_OK, SS_ERR_INPUT, SS_ERR_IO, SS_ERR_NOMEM or SS_ERR_LIMIT with err filled. */
 SS_API ss_status ss_circuit_parse_file(const char *path, const ss_override *overrides,
@@ -279,6 +287,17 @@ SS_API void ss_limits_destroy(ss_limits **l);
 SS_API ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits,
                                     ss_table **out_figures, ss_error *err);
 
+/* Checks, without solving anything, that every limit names a figure ss_figures_compute will
+ * give for this circuit: an op.csv quantity (v(NODE) of a written node, i(V) per V source,
+ * ic/ib/vbe/vce/gm(Q) per BJT, id(D) per diode), a stage summary metric (with .ac and a
+ * stage), a noise figure (with .noise and .ac), a large-signal figure of the stage's source
+ * kind (with a stage) or QUANTITY@FREQ (with a stage). Call it after the stage is named and
+ * before the first solve, so a misspelt limit costs no solving. limits may be NULL.
+ * Returns SS_OK, SS_ERR_INPUT at the first limit naming no figure (with its file and line:
+ * "limit on 'QUANTITY': no such figure (why)"), SS_ERR_NOMEM. */
+SS_API ss_status ss_limits_check_names(const ss_limits *limits, const ss_circuit *ckt,
+                                       ss_error *err);
+
 /* Judges figures against limits. Output: a table labelled by quantity with columns measured,
  * lower, upper, margin (distance to the nearest bound; negative when failing), pass (1/0);
  * *n_failed the number failing. A limit on a figure not computed is SS_ERR_INPUT. */
@@ -309,11 +328,15 @@ SS_API ss_status ss_study_create(const char *netlist_path, const ss_override *se
                                  ss_study **out, ss_error *err);
 SS_API ss_status ss_study_set_stage(ss_study *s, const char *in_source, const char *out_node,
                                     ss_error *err);
-/* `NAME=lin:START:STOP:N`, `NAME=log:START:STOP:N` or `NAME=list:V1,V2,...`; NAME as for
- * --set, or `temp` (degrees C). Several combine as a grid (the first varies slowest). */
+/* `NAME=lin:START:STOP:N`, `NAME=log:START:STOP:N` or `NAME=list:V1,V2,...`, every field
+ * present and read whole by ss_value_parse; NAME as for --set, or `temp` (degrees C, each value
+ * within -273.15 .. 1000). Several combine as a grid (the first varies slowest). A NAME the
+ * study was created with a --set of is SS_ERR_INPUT: the swept value would replace it. */
 SS_API ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err);
 /* `NAME=5%` (uniform within +-5 % of nominal), `NAME=5%:gauss` (gaussian, 5 % = 3 sigma),
- * `NAME=LO..HI` or `NAME=LO..HI:gauss` (mean the middle, half-range = 3 sigma). */
+ * `NAME=LO..HI` or `NAME=LO..HI:gauss` (mean the middle, half-range = 3 sigma); numbers as
+ * ss_value_parse reads them. The nominal is the value after the study's --set overrides, so
+ * a tolerance on a --set name spreads around the --set value. */
 SS_API ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err);
 /* Monte Carlo: trials > 0 random trials per grid point from seed. */
 SS_API ss_status ss_study_set_trials(ss_study *s, long trials, unsigned long long seed,
@@ -328,7 +351,9 @@ SS_API const ss_limits *ss_study_limits(const ss_study *s);
 SS_API void ss_study_set_progress(ss_study *s, ss_progress_fn fn, void *ctx);
 SS_API long ss_study_points(const ss_study *s);
 /* Output: one row per point of this shard: point, swept and sampled values, status (0 ok, else
- * the exit-code class of the failure), then every figure of the nominal run. */
+ * the exit-code class of the failure), then every figure of the nominal run. Before any point
+ * is solved: SS_ERR_INPUT for a limit naming no figure (ss_limits_check_names) and, with
+ * trials, for a name both swept and toleranced. */
 SS_API ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err);
 SS_API void ss_study_destroy(ss_study **s);
 
@@ -338,17 +363,21 @@ SS_API ss_status ss_study_summarize(const ss_table *points, const ss_limits *lim
                                     ss_table **out_summary, ss_error *err);
 
 /* Normalised sensitivities (dF/F)/(dx/x) of every figure to every toleranced or listed value,
- * by central differences of +-1 %: a table labelled by figure, one column per value. */
+ * by central differences of +-1 %: a table labelled by figure, one column per value. The
+ * limits' names are checked first (ss_limits_check_names). */
 SS_API ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err);
 
 /* Operating point at the beta extremes (every BJT model's BF at its tolerance limits, else
- * halved and doubled) and at two temperatures: one row per BJT and corner with temp_c,
- * beta_corner (-1 low, +1 high), ic_a, vce_v, forward_active (1/0, empty if unsolved). */
+ * halved and doubled; the corner value replaces a --set of BF) and at two temperatures
+ * (-273.15 < temp_lo_c < temp_hi_c <= 1000, else SS_ERR_INPUT): one row per BJT and corner with
+ * temp_c, beta_corner (-1 low, +1 high), ic_a, vce_v, forward_active (1/0, empty if
+ * unsolved). */
 SS_API ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c,
                                   ss_table **out_corners, ss_error *err);
 
 /* Snaps every element whose letter is in kinds ("r", "rc") to the nearest value of series
- * E12/E24/E96 and solves again. Outputs: per element value, preferred, change_pct; per
+ * E12/E24/E96 (an element given with --set from its --set value) and solves again; the
+ * limits' names are checked first. Outputs: per element value, preferred, change_pct; per
  * figure computed, preferred, shift, shift_pct. */
 SS_API ss_status ss_study_snap(ss_study *s, int series, const char *kinds,
                                ss_table **out_values, ss_table **out_figures, ss_error *err);

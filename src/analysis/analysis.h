@@ -44,6 +44,10 @@ SS_HIDDEN ss_status newton_solve(ss_circuit *ckt, double *x, const newton_params
                                  newton_result *res);
 /* Full operating point with fallbacks into ckt->x_op; stats optional. */
 SS_HIDDEN ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err);
+/* The rows of op.csv through fn(sink, quantity, name, value), in op.csv's order: v(NODE) per
+ * written node, then each V source's, BJT's and diode's report rows. x is the solution; NULL
+ * names the same rows with NaN values before anything is solved. */
+SS_HIDDEN void op_rows(const ss_circuit *ckt, const double *x, dev_report_fn fn, void *sink);
 /* Formats a singular-matrix error naming the unknown. */
 SS_HIDDEN ss_status report_singular(ss_circuit *ckt, int bad_unknown, const char *during,
                                     ss_error *err);

@@ -457,6 +457,22 @@ static void sink_row(void *vs, const char *quantity, const char *elem_name, doub
         row[0] = value;
 }
 
+void op_rows(const ss_circuit *ckt, const double *x, dev_report_fn fn, void *sink)
+{
+    for (int j = 0; j < circuit_n_out_nodes(ckt); j++) {
+        int node = circuit_out_node(ckt, j);
+        fn(sink, "v", ckt->node_name[node], x ? x[node - 1] : SS_NAN);
+    }
+    static const char order[] = {'v', 'q', 'd'};
+    double vt = analysis_vt(ckt);
+    for (size_t k = 0; k < sizeof order; k++)
+        for (int i = 0; i < ckt->n_elem; i++) {
+            const element *e = &ckt->elem[i];
+            if (e->ops->letter == order[k] && e->ops->report)
+                e->ops->report(e, x, vt, ckt->opt.gmin, fn, sink);
+        }
+}
+
 static ss_status op_table(ss_circuit *ckt, ss_table **out, ss_error *err)
 {
     ss_table *t = table_create(1, "quantity");
@@ -465,24 +481,7 @@ static ss_status op_table(ss_circuit *ckt, ss_table **out, ss_error *err)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
     op_sink s = {t, 0};
-    for (int j = 0; j < circuit_n_out_nodes(ckt); j++) {
-        int node = circuit_out_node(ckt, j);
-        char label[1200];
-        snprintf(label, sizeof label, "v(%s)", ckt->node_name[node]);
-        double *row = table_add_row(t, label);
-        if (!row)
-            s.failed = 1;
-        else
-            row[0] = ckt->x_op[node - 1];
-    }
-    static const char order[] = {'v', 'q', 'd'};
-    double vt = analysis_vt(ckt);
-    for (size_t k = 0; k < sizeof order; k++)
-        for (int i = 0; i < ckt->n_elem; i++) {
-            const element *e = &ckt->elem[i];
-            if (e->ops->letter == order[k] && e->ops->report)
-                e->ops->report(e, ckt->x_op, vt, ckt->opt.gmin, sink_row, &s);
-        }
+    op_rows(ckt, ckt->x_op, sink_row, &s);
     if (s.failed) {
         ss_table_destroy(&t);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");

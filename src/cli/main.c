@@ -2,7 +2,9 @@
  * picks the exit code. All computation is the library's (include/stagesim only). */
 #define _POSIX_C_SOURCE 200809L
 #include <errno.h>
+#include <limits.h>
 #include <math.h>
+#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -18,38 +20,211 @@ enum { EXIT_OK = 0, EXIT_CHECK_FAILED = 1, EXIT_BAD_INPUT = 2, EXIT_NO_CONVERGEN
 
 static const char USAGE[] =
     "usage: stagesim run NETLIST [options]          operating point, sweeps, stage figures\n"
-    "       stagesim check NETLIST [LIMITS] [options] [--junit FILE]\n"
+    "       stagesim check NETLIST [LIMITS] [options]\n"
     "                                                judge figures against limits\n"
     "       stagesim sweep NETLIST --vary NAME=SPEC... [options]\n"
     "       stagesim spread NETLIST [--trials N] [--seed S] [--tol NAME=SPEC]... [options]\n"
     "                                                tolerance (Monte Carlo) run\n"
     "       stagesim sensitivity NETLIST [--tol NAME=SPEC]... [options]\n"
     "       stagesim snap NETLIST --series E12|E24|E96 [options]\n"
-    "       stagesim merge -o DIR [--limits FILE] SHARD.csv...\n"
+    "       stagesim merge [-o DIR] [--limits FILE] SHARD.csv...\n"
     "       stagesim --help | --version\n"
     "\n"
-    "options:\n"
+    "Each command's options, with an example: stagesim COMMAND --help (or stagesim help\n"
+    "COMMAND). A command refuses the options it does not use.\n"
+    "\n"
+    "options (the commands that take them in parentheses):\n"
     "  -o DIR            output folder (default: current folder; created if missing)\n"
     "  --set NAME=VALUE  override a .param, an element value (R1=10k) or a model parameter\n"
-    "                    (qgen.bf=250); repeatable\n"
-    "  --in SRC --out NODE   the stage's source and output node (override .stage)\n"
-    "  --load OHMS       the load the stage drives, for the Zout check\n"
+    "                    (qgen.bf=250); repeatable, each NAME once (not merge)\n"
+    "  --in SRC --out NODE   the stage's source and output node (override .stage; not merge)\n"
+    "  --load OHMS       (run) the load the stage drives, for the Zout check\n"
     "  --plot            (run) also write bode.svg (and wave.svg, thd_wave.svg)\n"
     "  --nodes A,B,...   (run) write only these nodes' voltages (op, dc, ac, tran tables and\n"
     "                    the report); default every node\n"
     "  --ls-freq F --thd-amp A --thd-target PCT   (run) the large-signal test\n"
+    "  --junit FILE      (check) the verdicts as JUnit-style XML\n"
     "  --quiet           no report on stdout\n"
     "  --strict          (check) fail (exit 1) on any sanity (lint) warning\n"
-    "  --limits FILE     (sweep, spread, merge) limits for pass fractions and yield\n"
-    "  --min-yield F     (sweep, spread) exit 1 when the yield is below F (0..1)\n"
-    "  --vary NAME=lin:START:STOP:N | log:START:STOP:N | list:V1,V2,...  (NAME may be temp)\n"
-    "  --tol NAME=PCT%[:gauss] | NAME=LO..HI[:gauss]\n"
-    "  --trials N --seed S   tolerance trials (default 1000, seed 1)\n"
-    "  --threads N       worker threads (default: all cores); results never depend on it\n"
-    "  --shard K/N       run the K-th of N slices of the points (merge them with merge)\n"
+    "  --limits FILE     (all but run) a limits file (check: or its LIMITS argument)\n"
+    "  --min-yield F     (sweep, spread, merge) exit 1 when the yield is below F (0..1)\n"
+    "  --vary NAME=lin:START:STOP:N | log:START:STOP:N | list:V1,V2,...  (sweep, spread;\n"
+    "                    NAME may be temp)\n"
+    "  --tol NAME=PCT%[:gauss] | NAME=LO..HI[:gauss]   (spread, sensitivity)\n"
+    "  --trials N --seed S   (spread) tolerance trials (default 1000, seed 1)\n"
+    "  --threads N       (sweep, spread) worker threads (default: all cores); results never\n"
+    "                    depend on it\n"
+    "  --shard K/N       (sweep, spread) run the K-th of N slices of the points\n"
     "  --temps LO,HI     (sensitivity) temperature extremes, default -40,85\n"
+    "  --series E12|E24|E96   (snap) the preferred-value series\n"
+    "Real numbers take the netlist's SI suffixes (10k, 4.7meg, 100n; m is milli, a lone M\n"
+    "is refused); counts are plain digits.\n"
     "\n"
     "exit: 0 ok, 1 a check failed, 2 bad input, 3 no convergence. docs/cli.md has it all.\n";
+
+/* ---- commands and their options ---------------------------------------------------------- */
+
+enum {
+    C_RUN = 1 << 0,
+    C_CHECK = 1 << 1,
+    C_SWEEP = 1 << 2,
+    C_SPREAD = 1 << 3,
+    C_SENS = 1 << 4,
+    C_SNAP = 1 << 5,
+    C_MERGE = 1 << 6,
+    C_ALL = (1 << 7) - 1,
+    C_NETLIST = C_ALL & ~C_MERGE, /* the commands that read a netlist */
+};
+
+typedef struct cli_command {
+    const char *name;
+    unsigned bit;
+    const char *synopsis;
+    const char *what; /* one paragraph, wrapped */
+    const char *example;
+} cli_command;
+
+static const cli_command COMMANDS[] = {
+    {"run", C_RUN, "stagesim run NETLIST [options]",
+     "Solves the operating point and every analysis the netlist asks for (.dc, .ac with the\n"
+     "stage figures, .noise, .tran, .large_signal), writes the CSV files into the output\n"
+     "folder and prints a report.",
+     "stagesim run netlists/vibration_frontend.cir -o out/vib --set R1=51k --plot"},
+    {"check", C_CHECK, "stagesim check NETLIST [LIMITS] [options]",
+     "Judges the circuit's figures against the limits of its .expect lines and of the limits\n"
+     "file LIMITS (or --limits FILE). Every limit's figure is checked to exist before\n"
+     "anything is solved. Exit 0 every limit met, 1 one failed, 2 bad input, 3 no\n"
+     "operating point.",
+     "stagesim check netlists/vibration_frontend.cir netlists/vibration_frontend.limits \\\n"
+     "      -o out/check --junit out/check.xml"},
+    {"sweep", C_SWEEP, "stagesim sweep NETLIST --vary NAME=SPEC... [options]",
+     "Solves the circuit at every point of a grid of swept values (several --vary make a\n"
+     "grid, the first varying slowest); writes study.csv (one row per point, every figure)\n"
+     "and study_summary.csv.",
+     "stagesim sweep netlists/vibration_frontend.cir --vary temp=lin:-40:85:6 \\\n"
+     "      --vary ss_npn.bf=list:100,200,300 -o out/sweep"},
+    {"spread", C_SPREAD, "stagesim spread NETLIST [--tol NAME=SPEC]... [options]",
+     "Tolerance (Monte Carlo) run: random trials over the --tol and .tolerance tolerances\n"
+     "(at every point of a --vary grid, if given); study.csv, study_summary.csv and the\n"
+     "yield against the limits. A tolerance on a --set name spreads around the --set value.",
+     "stagesim spread netlists/vibration_frontend.cir --tol R1=5% --tol ss_npn.bf=100..300 \\\n"
+     "      --trials 500 --limits netlists/vibration_frontend.limits --min-yield 0.9 -o out/mc"},
+    {"sensitivity", C_SENS, "stagesim sensitivity NETLIST [--tol NAME=SPEC]... [options]",
+     "Normalised sensitivity of every figure to every toleranced value (central differences\n"
+     "of +-1 %), and every transistor's operating point at the beta and temperature\n"
+     "extremes (sensitivity.csv, corners.csv).",
+     "stagesim sensitivity netlists/vibration_frontend.cir --tol R1=5% --tol R2=5% \\\n"
+     "      --temps -40,85 -o out/sens"},
+    {"snap", C_SNAP, "stagesim snap NETLIST --series E12|E24|E96 [options]",
+     "Snaps every resistor to the nearest value of the series (IEC 60063) and shows how\n"
+     "every figure shifts (snap_values.csv, snap_figures.csv).",
+     "stagesim snap netlists/vibration_frontend.cir --series E24 -o out/snap"},
+    {"merge", C_MERGE, "stagesim merge [options] SHARD.csv...",
+     "Puts the study.csv files of a sharded sweep or spread back together (every point\n"
+     "exactly once) and writes study.csv and study_summary.csv.",
+     "stagesim merge -o out/all --limits netlists/vibration_frontend.limits \\\n"
+     "      out/s1/study.csv out/s2/study.csv"},
+};
+#define N_COMMANDS (sizeof COMMANDS / sizeof COMMANDS[0])
+
+typedef struct cli_option {
+    const char *name, *alias; /* alias NULL when none */
+    const char *arg;          /* the value's placeholder; NULL for a flag */
+    unsigned cmds;            /* the commands this line is for */
+    const char *help;         /* one line */
+} cli_option;
+
+/* One line per option and command group: an option is accepted by the commands of all its
+ * lines, and each command's help lists exactly its lines. */
+static const cli_option OPTIONS[] = {
+    {"-o", "--out-dir", "DIR", C_ALL & ~C_CHECK,
+     "output folder (default: the current folder; created if missing)"},
+    {"-o", "--out-dir", "DIR", C_CHECK, "write check.csv and figures.csv into DIR"},
+    {"--set", NULL, "NAME=VALUE", C_NETLIST,
+     "set a .param, element value (R1=10k) or MODEL.PARAM; repeatable, each NAME once"},
+    {"--in", NULL, "SRC", C_NETLIST, "the stage's driving source (with --out; overrides .stage)"},
+    {"--out", NULL, "NODE", C_NETLIST, "the stage's output node (with --in)"},
+    {"--load", NULL, "OHMS", C_RUN,
+     "the load on the stage output, for the report's Zout warning (as .stage load=)"},
+    {"--nodes", NULL, "A,B,...", C_RUN,
+     "write only these nodes' voltages (op, dc, ac, tran tables, report)"},
+    {"--plot", NULL, NULL, C_RUN, "also write bode.svg (and wave.svg, thd_wave.svg)"},
+    {"--ls-freq", NULL, "HZ", C_RUN,
+     "large-signal test frequency (overrides .large_signal; needs a stage)"},
+    {"--thd-amp", NULL, "AMP", C_RUN,
+     "input amplitude of thd_pct, V or A (overrides .large_signal)"},
+    {"--thd-target", NULL, "PCT", C_RUN,
+     "THD whose input amplitude is searched, 0 < PCT < 100 (default 1)"},
+    {"--junit", NULL, "FILE", C_CHECK, "also write the verdicts as JUnit-style XML"},
+    {"--strict", NULL, NULL, C_CHECK,
+     "fail (exit 1) on any sanity (lint) warning, as a failing JUnit testcase each"},
+    {"--limits", NULL, "FILE", C_CHECK, "the limits file (instead of the LIMITS argument)"},
+    {"--limits", NULL, "FILE", C_SWEEP | C_SPREAD,
+     "limits for the pass fractions and the yield (with the .expect lines)"},
+    {"--limits", NULL, "FILE", C_SENS | C_SNAP,
+     "limits whose figures (QUANTITY@FREQ, large-signal) join the table"},
+    {"--limits", NULL, "FILE", C_MERGE, "limits for the pass fractions and the yield"},
+    {"--min-yield", NULL, "F", C_SWEEP | C_SPREAD | C_MERGE,
+     "exit 1 when the yield is below F (0 .. 1)"},
+    {"--vary", NULL, "NAME=SPEC", C_SWEEP,
+     "lin:START:STOP:N, log:START:STOP:N or list:V1,...; NAME as --set or temp"},
+    {"--vary", NULL, "NAME=SPEC", C_SPREAD, "a grid of swept values (as sweep), trials at each"},
+    {"--tol", NULL, "NAME=SPEC", C_SPREAD | C_SENS,
+     "PCT%[:gauss] or LO..HI[:gauss], added to the .tolerance lines; repeatable"},
+    {"--trials", NULL, "N", C_SPREAD, "number of trials, 1 .. 100000000 (default 1000)"},
+    {"--seed", NULL, "S", C_SPREAD, "random seed, 0 .. 18446744073709551615 (default 1)"},
+    {"--threads", NULL, "N", C_SWEEP | C_SPREAD,
+     "1 .. 256 worker threads (default: all cores); results do not depend on it"},
+    {"--shard", NULL, "K/N", C_SWEEP | C_SPREAD,
+     "run only the K-th of N slices of the points (merge joins them)"},
+    {"--temps", NULL, "LO,HI", C_SENS,
+     "corner temperatures in C, -273.15 < LO < HI <= 1000 (default -40,85)"},
+    {"--series", NULL, "E12|E24|E96", C_SNAP, "the preferred-value series (required)"},
+    {"--quiet", "-q", NULL, C_ALL, "no report on standard output"},
+    {"--help", "-h", NULL, C_ALL, "print this help and exit"},
+};
+#define N_OPTIONS (sizeof OPTIONS / sizeof OPTIONS[0])
+
+static const cli_command *find_command(const char *name)
+{
+    for (size_t k = 0; k < N_COMMANDS; k++)
+        if (strcmp(name, COMMANDS[k].name) == 0)
+            return &COMMANDS[k];
+    return NULL;
+}
+
+/* The first line of option o (by name or alias), NULL when unknown; *cmds gets the commands
+ * of all its lines. */
+static const cli_option *find_option(const char *o, unsigned *cmds)
+{
+    const cli_option *first = NULL;
+    *cmds = 0;
+    for (size_t k = 0; k < N_OPTIONS; k++)
+        if (strcmp(o, OPTIONS[k].name) == 0 ||
+            (OPTIONS[k].alias && strcmp(o, OPTIONS[k].alias) == 0)) {
+            if (!first)
+                first = &OPTIONS[k];
+            *cmds |= OPTIONS[k].cmds;
+        }
+    return first;
+}
+
+static void print_command_help(const cli_command *c, FILE *f)
+{
+    fprintf(f, "usage: %s\n\n%s\n\noptions:\n", c->synopsis, c->what);
+    for (size_t k = 0; k < N_OPTIONS; k++) {
+        const cli_option *o = &OPTIONS[k];
+        if (!(o->cmds & c->bit))
+            continue;
+        char spec[64];
+        snprintf(spec, sizeof spec, "%s%s%s%s%s", o->name, o->alias ? ", " : "",
+                 o->alias ? o->alias : "", o->arg ? " " : "", o->arg ? o->arg : "");
+        fprintf(f, "  %-20s %s\n", spec, o->help);
+    }
+    fprintf(f, "\nReal numbers take the netlist's SI suffixes (10k, 4.7meg, 100n; m is milli, a\n"
+               "lone M is refused); counts are plain digits.\n\nexample:\n  %s\n",
+            c->example);
+}
 
 static int exit_code_for(ss_status st)
 {
@@ -76,11 +251,24 @@ static int usage_error(const char *fmt, const char *arg)
     return EXIT_BAD_INPUT;
 }
 
+static int usage_errorf(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
+static int usage_errorf(const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    fprintf(stderr, "stagesim: ");
+    vfprintf(stderr, fmt, ap);
+    va_end(ap);
+    fprintf(stderr, "\n%s", USAGE);
+    return EXIT_BAD_INPUT;
+}
+
 typedef struct cli_args {
     const char *cmd;
     const char *netlist;
     const char *limits_path; /* check: second positional; others: --limits */
     const char *out_dir;
+    int out_dir_given; /* -o was given (check writes its CSVs only then, `-o .` included) */
     ss_override *sets;
     int n_sets;
     const char *in_src, *out_node;
@@ -238,7 +426,46 @@ static int select_nodes(ss_circuit *ckt, const cli_args *a)
     return rc;
 }
 
-/* Parses the netlist and applies --in/--out/--load/--nodes. */
+/* --load and the large-signal options act on the stage: without one they would be dropped. */
+static int apply_stage_options(ss_circuit *ckt, const cli_args *a)
+{
+    const char *ls_opt = a->ls_freq > 0.0      ? "--ls-freq"
+                         : a->thd_amp > 0.0    ? "--thd-amp"
+                         : a->thd_target > 0.0 ? "--thd-target"
+                                               : NULL;
+    if (!(a->load_ohm > 0.0) && !ls_opt)
+        return EXIT_OK;
+    ss_analysis_flags fl;
+    ss_circuit_analyses(ckt, &fl);
+    ss_error err = {0};
+    if (a->load_ohm > 0.0) {
+        if (!fl.stage) {
+            fprintf(stderr, "stagesim: --load: the circuit has no stage to load (name one with "
+                            ".stage or --in/--out)\n");
+            return EXIT_BAD_INPUT;
+        }
+        if (ss_circuit_set_stage(ckt, NULL, NULL, a->load_ohm, &err) != SS_OK) {
+            fprintf(stderr, "stagesim: --load: %s\n", err.message);
+            return EXIT_BAD_INPUT;
+        }
+    }
+    if (ls_opt) {
+        if (!fl.stage) {
+            fprintf(stderr, "stagesim: %s: the large-signal test needs a stage (name one with "
+                            ".stage or --in/--out)\n",
+                    ls_opt);
+            return EXIT_BAD_INPUT;
+        }
+        if (ss_circuit_set_large_signal(ckt, a->ls_freq, a->thd_amp, a->thd_target, &err) !=
+            SS_OK) {
+            fprintf(stderr, "stagesim: %s: %s\n", ls_opt, err.message);
+            return EXIT_BAD_INPUT;
+        }
+    }
+    return EXIT_OK;
+}
+
+/* Parses the netlist and applies --in/--out/--load/--nodes and the large-signal options. */
 static int load_circuit(const cli_args *a, ss_circuit **out)
 {
     ss_error err = {0};
@@ -255,12 +482,13 @@ static int load_circuit(const cli_args *a, ss_circuit **out)
             ss_circuit_destroy(&ckt);
             return fail(&err);
         }
-    } else if (a->load_ohm > 0.0) {
-        ss_circuit_set_stage(ckt, NULL, NULL, a->load_ohm, &err);
     }
-    if (a->n_nodes > 0 && select_nodes(ckt, a) != EXIT_OK) {
+    int rc = apply_stage_options(ckt, a);
+    if (rc == EXIT_OK && a->n_nodes > 0)
+        rc = select_nodes(ckt, a);
+    if (rc != EXIT_OK) {
         ss_circuit_destroy(&ckt);
-        return EXIT_BAD_INPUT;
+        return rc;
     }
     *out = ckt;
     return EXIT_OK;
@@ -363,10 +591,7 @@ static int run_tran(ss_circuit *ckt, const cli_args *a, const char *const *path,
 static int run_large_signal(ss_circuit *ckt, const cli_args *a, const char *const *path,
                             ss_error *err)
 {
-    if (a->ls_freq > 0.0 || a->thd_amp > 0.0 || a->thd_target > 0.0)
-        if (ss_circuit_set_large_signal(ckt, a->ls_freq, a->thd_amp, a->thd_target, err) !=
-            SS_OK)
-            return -1;
+    /* the large-signal options were applied with the stage (load_circuit) */
     ss_table *ls = NULL, *harm = NULL, *wave = NULL;
     int bad = ss_stage_large_signal(ckt, &ls, err) != SS_OK ||
               write_table(ls, path[F_LS], err) != 0;
@@ -485,7 +710,7 @@ static int cmd_check(const cli_args *a)
 {
     /* the CSVs go to a folder only with -o; the JUnit report anywhere: both are reserved (and
      * checked against each other) before the netlist is read */
-    int has_dir = strcmp(a->out_dir, ".") != 0;
+    int has_dir = a->out_dir_given;
     ss_outset *set = NULL;
     ss_error err = {0};
     const char *path[2] = {NULL, NULL}, *junit = NULL;
@@ -516,6 +741,10 @@ static int cmd_check(const cli_args *a)
     if (ss_limits_create(&lim, &err) != SS_OK || ss_limits_add_circuit(lim, ckt, &err) != SS_OK ||
         (a->limits_path && ss_limits_add_file(lim, a->limits_path, &err) != SS_OK) ||
         (has_dir && ss_outset_note_circuit(set, ckt, &err) != SS_OK)) {
+        rc = fail(&err);
+        goto done;
+    }
+    if (ss_limits_check_names(lim, ckt, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
     }
@@ -856,14 +1085,66 @@ static int cmd_merge(const cli_args *a)
 
 /* ---- argument parsing --------------------------------------------------------------------- */
 
-static int parse_long(const char *s, long *out)
+/* A whole number written in decimal digits only (no sign, no suffix), at most max. */
+static int parse_count(const char *s, unsigned long long max, unsigned long long *out)
 {
-    char *end;
+    if (!*s)
+        return -1;
+    for (const char *c = s; *c; c++)
+        if (*c < '0' || *c > '9')
+            return -1;
     errno = 0;
-    long v = strtol(s, &end, 10);
-    if (!*s || *end || errno)
+    char *end;
+    unsigned long long v = strtoull(s, &end, 10);
+    if (errno || *end || v > max)
         return -1;
     *out = v;
+    return 0;
+}
+
+/* A real option value (ss_value_parse: SI suffixes, nothing after) within lo .. hi, each end
+ * open or closed; on failure the message names the option, what it needs and the text. */
+static int parse_real(const char *opt, const char *text, double lo, int lo_open, double hi,
+                      int hi_open, const char *needs, double *out)
+{
+    ss_error err = {0};
+    double v;
+    if (ss_value_parse(text, &v, &err) != SS_OK)
+        return usage_errorf("%s needs %s: %s", opt, needs, err.message);
+    if (v < lo || (lo_open && v == lo) || v > hi || (hi_open && v == hi))
+        return usage_errorf("%s needs %s, got '%s'", opt, needs, text);
+    *out = v;
+    return EXIT_OK;
+}
+
+/* The commands of a bit set, for messages: "spread and sensitivity". */
+static void command_list(unsigned cmds, char *buf, size_t len)
+{
+    int n = 0, total = 0;
+    for (size_t k = 0; k < N_COMMANDS; k++)
+        total += (cmds & COMMANDS[k].bit) != 0;
+    buf[0] = '\0';
+    for (size_t k = 0; k < N_COMMANDS; k++) {
+        if (!(cmds & COMMANDS[k].bit))
+            continue;
+        size_t used = strlen(buf);
+        snprintf(buf + used, len - used, "%s%s", n == 0 ? "" : n == total - 1 ? " and " : ", ",
+                 COMMANDS[k].name);
+        n++;
+    }
+}
+
+/* -h or --help anywhere among the options (not as another option's value). */
+static int help_asked(int argc, char **argv)
+{
+    for (int i = 2; i < argc; i++) {
+        unsigned cmds;
+        const cli_option *o = find_option(argv[i], &cmds);
+        if (o && !o->arg && strcmp(o->name, "--help") == 0)
+            return 1;
+        if (o && o->arg)
+            i++;
+    }
     return 0;
 }
 
@@ -882,20 +1163,31 @@ static int parse_args(int argc, char **argv, cli_args *a)
     a->nodes = calloc((size_t)argc, sizeof *a->nodes);
     if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes)
         return EXIT_BAD_INPUT;
-    int is_merge = strcmp(a->cmd, "merge") == 0;
+    const cli_command *cmd = find_command(a->cmd);
+    int is_merge = cmd->bit == C_MERGE;
+    unsigned char seen[N_OPTIONS] = {0};
     for (int i = 2; i < argc; i++) {
         const char *o = argv[i];
         const char *next = i + 1 < argc ? argv[i + 1] : NULL;
-        /* options that take a value */
-        static const char *const with_value[] = {
-            "-o",       "--out-dir", "--set",   "--in",     "--out",   "--load",   "--junit",
-            "--limits", "--vary",    "--tol",   "--trials", "--seed",  "--threads", "--shard",
-            "--min-yield", "--series", "--temps", "--ls-freq", "--thd-amp", "--thd-target",
-            "--nodes"};
-        int takes = 0;
-        for (size_t k = 0; k < sizeof with_value / sizeof with_value[0]; k++)
-            takes |= strcmp(o, with_value[k]) == 0;
-        if (takes && !next) {
+        unsigned cmds = 0;
+        const cli_option *opt = o[0] == '-' && o[1] != '\0' ? find_option(o, &cmds) : NULL;
+        if (!opt && o[0] == '-' && o[1] != '\0')
+            return usage_error("unknown option '%s'", o);
+        if (opt && !(cmds & cmd->bit)) {
+            char list[128];
+            command_list(cmds, list, sizeof list);
+            return usage_errorf("%s belongs to %s, not %s", o, list, cmd->name);
+        }
+        /* a value given twice would drop the first; only these options add up */
+        if (opt && opt->arg && strcmp(opt->name, "--set") != 0 &&
+            strcmp(opt->name, "--vary") != 0 && strcmp(opt->name, "--tol") != 0 &&
+            strcmp(opt->name, "--nodes") != 0 && strcmp(opt->name, "--limits") != 0) {
+            if (seen[opt - OPTIONS])
+                return usage_errorf("%s given twice", o);
+            seen[opt - OPTIONS] = 1;
+        }
+        int rc = EXIT_OK;
+        if (opt && opt->arg && !next) {
             if (strcmp(o, "--set") == 0)
                 return usage_error("--set needs NAME=VALUE, got '%s'", "");
             if (strcmp(o, "-o") == 0 || strcmp(o, "--out-dir") == 0)
@@ -904,13 +1196,26 @@ static int parse_args(int argc, char **argv, cli_args *a)
                 return usage_error("%s needs a source name", o);
             if (strcmp(o, "--out") == 0)
                 return usage_error("%s needs a node name", o);
-            if (strcmp(o, "--load") == 0)
-                return usage_error("--load needs a positive resistance in ohms, got '%s'", "");
             return usage_error("%s needs a value", o);
         }
-        if (strcmp(o, "-o") == 0 || strcmp(o, "--out-dir") == 0) {
+        if (!opt) {
+            if (is_merge)
+                a->shards[a->n_shards++] = o;
+            else if (!a->netlist)
+                a->netlist = o;
+            else if (cmd->bit == C_CHECK && !a->limits_path)
+                a->limits_path = o;
+            else if (cmd->bit == C_CHECK)
+                return usage_error("check takes one limits file, got a second ('%s')", o);
+            else
+                return usage_error("more than one netlist given ('%s')", o);
+            continue;
+        }
+        const char *n = opt->name;
+        if (strcmp(n, "-o") == 0) {
             a->out_dir = next;
-        } else if (strcmp(o, "--set") == 0) {
+            a->out_dir_given = 1;
+        } else if (strcmp(n, "--set") == 0) {
             char *eq = strchr(next, '=');
             if (!eq || eq == next || !eq[1])
                 return usage_error("--set needs NAME=VALUE, got '%s'", next);
@@ -918,97 +1223,99 @@ static int parse_args(int argc, char **argv, cli_args *a)
             a->sets[a->n_sets].name = next;
             a->sets[a->n_sets].value = eq + 1;
             a->n_sets++;
-        } else if (strcmp(o, "--in") == 0) {
+        } else if (strcmp(n, "--in") == 0) {
             a->in_src = next;
-        } else if (strcmp(o, "--out") == 0) {
+        } else if (strcmp(n, "--out") == 0) {
             a->out_node = next;
-        } else if (strcmp(o, "--load") == 0) {
-            char *end = NULL;
-            a->load_ohm = strtod(next, &end);
-            if (!end || *end || !(a->load_ohm > 0.0))
-                return usage_error("--load needs a positive resistance in ohms, got '%s'", next);
-        } else if (strcmp(o, "--junit") == 0) {
+        } else if (strcmp(n, "--load") == 0) {
+            rc = parse_real(o, next, 0.0, 1, HUGE_VAL, 1, "a resistance in ohms above 0",
+                            &a->load_ohm);
+        } else if (strcmp(n, "--junit") == 0) {
             a->junit = next;
-        } else if (strcmp(o, "--limits") == 0) {
+        } else if (strcmp(n, "--limits") == 0) {
+            if (a->limits_path)
+                return usage_error("--limits: one limits file only, got a second ('%s')", next);
             a->limits_path = next;
-        } else if (strcmp(o, "--vary") == 0) {
+        } else if (strcmp(n, "--vary") == 0) {
             a->varies[a->n_varies++] = next;
-        } else if (strcmp(o, "--tol") == 0) {
+        } else if (strcmp(n, "--tol") == 0) {
             a->tols[a->n_tols++] = next;
-        } else if (strcmp(o, "--trials") == 0) {
-            if (parse_long(next, &a->trials) != 0 || a->trials < 1)
-                return usage_error("--trials needs a whole number >= 1, got '%s'", next);
-        } else if (strcmp(o, "--seed") == 0) {
-            long v;
-            if (parse_long(next, &v) != 0 || v < 0)
-                return usage_error("--seed needs a whole number >= 0, got '%s'", next);
-            a->seed = (unsigned long long)v;
-        } else if (strcmp(o, "--threads") == 0) {
-            long v;
-            if (parse_long(next, &v) != 0 || v < 1 || v > 256)
-                return usage_error("--threads needs a number from 1 to 256, got '%s'", next);
+        } else if (strcmp(n, "--trials") == 0) {
+            unsigned long long v;
+            if (parse_count(next, 100000000ull, &v) != 0 || v < 1)
+                return usage_error("--trials needs a whole number from 1 to 100000000, got '%s'",
+                                   next);
+            a->trials = (long)v;
+        } else if (strcmp(n, "--seed") == 0) {
+            if (parse_count(next, ULLONG_MAX, &a->seed) != 0)
+                return usage_error("--seed needs a whole number from 0 to "
+                                   "18446744073709551615, got '%s'",
+                                   next);
+        } else if (strcmp(n, "--threads") == 0) {
+            unsigned long long v;
+            if (parse_count(next, 256, &v) != 0 || v < 1)
+                return usage_error("--threads needs a whole number from 1 to 256, got '%s'", next);
             a->threads = (int)v;
-        } else if (strcmp(o, "--shard") == 0) {
-            char tail;
-            if (sscanf(next, "%d/%d%c", &a->shard_k, &a->shard_n, &tail) != 2 ||
-                a->shard_n < 1 || a->shard_k < 1 || a->shard_k > a->shard_n)
-                return usage_error("--shard needs K/N with 1 <= K <= N, got '%s'", next);
-        } else if (strcmp(o, "--min-yield") == 0) {
-            char *end = NULL;
-            a->min_yield = strtod(next, &end);
-            if (!end || *end || !(a->min_yield >= 0.0 && a->min_yield <= 1.0))
-                return usage_error("--min-yield needs a fraction from 0 to 1, got '%s'", next);
-        } else if (strcmp(o, "--series") == 0) {
+        } else if (strcmp(n, "--shard") == 0) {
+            char buf[64];
+            unsigned long long k, m;
+            char *slash = strlen(next) < sizeof buf ? strchr(strcpy(buf, next), '/') : NULL;
+            if (slash)
+                *slash = '\0';
+            if (!slash || parse_count(buf, 100000000ull, &k) != 0 ||
+                parse_count(slash + 1, 100000000ull, &m) != 0 || k < 1 || k > m)
+                return usage_error("--shard needs K/N, whole numbers with 1 <= K <= N <= "
+                                   "100000000, got '%s'",
+                                   next);
+            a->shard_k = (int)k;
+            a->shard_n = (int)m;
+        } else if (strcmp(n, "--min-yield") == 0) {
+            rc = parse_real(o, next, 0.0, 0, 1.0, 0, "a fraction from 0 to 1", &a->min_yield);
+        } else if (strcmp(n, "--series") == 0) {
             const char *v = (next[0] == 'E' || next[0] == 'e') ? next + 1 : next;
-            a->series = atoi(v);
-            if (a->series != 12 && a->series != 24 && a->series != 96)
+            a->series = strcmp(v, "12") == 0 ? 12 : strcmp(v, "24") == 0 ? 24
+                        : strcmp(v, "96") == 0                          ? 96
+                                                                        : 0;
+            if (!a->series)
                 return usage_error("--series needs E12, E24 or E96, got '%s'", next);
-        } else if (strcmp(o, "--temps") == 0) {
-            if (sscanf(next, "%lf,%lf", &a->temp_lo, &a->temp_hi) != 2)
-                return usage_error("--temps needs LO,HI in degrees C, got '%s'", next);
-        } else if (strcmp(o, "--ls-freq") == 0 || strcmp(o, "--thd-amp") == 0 ||
-                   strcmp(o, "--thd-target") == 0) {
-            char *end = NULL;
-            double v = strtod(next, &end);
-            if (!end || *end || !(v > 0.0))
-                return usage_error("%s needs a positive number", o);
-            if (o[2] == 'l')
-                a->ls_freq = v;
-            else if (strcmp(o, "--thd-amp") == 0)
-                a->thd_amp = v;
-            else
-                a->thd_target = v;
-        } else if (strcmp(o, "--nodes") == 0) {
+        } else if (strcmp(n, "--temps") == 0) {
+            static const char needs[] = "LO,HI in degrees C with -273.15 < LO < HI <= 1000";
+            char buf[256];
+            char *comma = strlen(next) < sizeof buf ? strchr(strcpy(buf, next), ',') : NULL;
+            ss_error err = {0};
+            if (!comma)
+                return usage_errorf("--temps needs %s, got '%s'", needs, next);
+            *comma = '\0';
+            if (ss_value_parse(buf, &a->temp_lo, &err) != SS_OK ||
+                ss_value_parse(comma + 1, &a->temp_hi, &err) != SS_OK)
+                return usage_errorf("--temps needs %s: %s", needs, err.message);
+            if (!(a->temp_lo > -273.15 && a->temp_lo < a->temp_hi && a->temp_hi <= 1000.0))
+                return usage_errorf("--temps needs %s, got '%s'", needs, next);
+        } else if (strcmp(n, "--ls-freq") == 0) {
+            rc = parse_real(o, next, 0.0, 1, HUGE_VAL, 1, "a frequency in Hz above 0",
+                            &a->ls_freq);
+        } else if (strcmp(n, "--thd-amp") == 0) {
+            rc = parse_real(o, next, 0.0, 1, HUGE_VAL, 1, "an amplitude above 0 (V or A)",
+                            &a->thd_amp);
+        } else if (strcmp(n, "--thd-target") == 0) {
+            rc = parse_real(o, next, 0.0, 1, 100.0, 1, "a THD in percent, 0 < PCT < 100",
+                            &a->thd_target);
+        } else if (strcmp(n, "--nodes") == 0) {
             a->nodes[a->n_nodes++] = next;
-        } else if (strcmp(o, "--plot") == 0) {
+        } else if (strcmp(n, "--plot") == 0) {
             a->plot = 1;
-        } else if (strcmp(o, "--strict") == 0) {
+        } else if (strcmp(n, "--strict") == 0) {
             a->strict = 1;
-        } else if (strcmp(o, "--quiet") == 0 || strcmp(o, "-q") == 0) {
+        } else if (strcmp(n, "--quiet") == 0) {
             a->quiet = 1;
-        } else if (o[0] == '-' && o[1] != '\0') {
-            return usage_error("unknown option '%s'", o);
-        } else if (is_merge) {
-            a->shards[a->n_shards++] = o;
-            continue;
-        } else if (!a->netlist) {
-            a->netlist = o;
-            continue;
-        } else if (strcmp(a->cmd, "check") == 0 && !a->limits_path) {
-            a->limits_path = o;
-            continue;
-        } else {
-            return usage_error("more than one netlist given ('%s')", o);
         }
-        if (takes)
+        if (rc != EXIT_OK)
+            return rc;
+        if (opt->arg)
             i++;
     }
     if (!is_merge && !a->netlist)
         return usage_error("%s needs a NETLIST", a->cmd);
-    if (a->n_nodes > 0 && strcmp(a->cmd, "run") != 0)
-        return usage_error("--nodes belongs to run (the per-node tables), not %s", a->cmd);
-    if (a->strict && strcmp(a->cmd, "check") != 0)
-        return usage_error("--strict belongs to check, not %s", a->cmd);
     return EXIT_OK;
 }
 
@@ -1074,21 +1381,30 @@ int main(int argc, char **argv)
         return EXIT_BAD_INPUT;
     }
     if (strcmp(argv[1], "--help") == 0 || strcmp(argv[1], "-h") == 0 ||
-        strcmp(argv[1], "help") == 0) {
+        (strcmp(argv[1], "help") == 0 && argc == 2)) {
         fputs(USAGE, stdout);
+        return EXIT_OK;
+    }
+    if (strcmp(argv[1], "help") == 0) {
+        const cli_command *c = find_command(argv[2]);
+        if (!c || argc > 3)
+            return argc > 3 ? usage_error("help takes one command name, got '%s' after it",
+                                          argv[3])
+                            : usage_error("unknown command '%s'", argv[2]);
+        print_command_help(c, stdout);
         return EXIT_OK;
     }
     if (strcmp(argv[1], "--version") == 0) {
         printf("stagesim %s\n", ss_version());
         return EXIT_OK;
     }
-    static const char *const commands[] = {"run",         "check", "sweep", "spread",
-                                           "sensitivity", "snap",  "merge"};
-    int known = 0;
-    for (size_t k = 0; k < sizeof commands / sizeof commands[0]; k++)
-        known |= strcmp(argv[1], commands[k]) == 0;
-    if (!known)
+    const cli_command *command = find_command(argv[1]);
+    if (!command)
         return usage_error("unknown command '%s'", argv[1]);
+    if (help_asked(argc, argv)) {
+        print_command_help(command, stdout);
+        return EXIT_OK;
+    }
     cli_args a;
     memset(&a, 0, sizeof a);
     install_signal_handlers();

@@ -323,8 +323,9 @@ void bjt_op_details(const element *e, const double *x, double vt_v, double gmin_
 static void bjt_report(const element *e, const double *x, double vt_v, double gmin_s,
                        dev_report_fn fn, void *sink)
 {
-    bjt_op_info info;
-    bjt_op_details(e, x, vt_v, gmin_s, &info);
+    bjt_op_info info = {SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, NULL};
+    if (x)
+        bjt_op_details(e, x, vt_v, gmin_s, &info);
     fn(sink, "ic", e->name, info.ic_a);
     fn(sink, "ib", e->name, info.ib_a);
     fn(sink, "vbe", e->name, info.vbe_v);

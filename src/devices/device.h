@@ -125,7 +125,8 @@ typedef struct dev_ops {
      * resid[branch]: the independent check of a converged answer */
     void (*kcl)(const element *e, const double *x, const dev_load_ctx *lc, double *resid);
     void (*load_ac)(const element *e, dev_ac_ctx *ac);
-    /* op.csv rows at the solution x; NULL when none */
+    /* op.csv rows at the solution x; NULL when none. With x NULL (no solution yet) it names
+     * the same rows with NaN values and reads nothing else: the figures a limit may name */
     void (*report)(const element *e, const double *x, double vt_v, double gmin_s,
                    dev_report_fn fn, void *sink);
     /* the element's noise current sources at the operating point into out[0 ..

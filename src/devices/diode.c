@@ -116,9 +116,12 @@ static void diode_load_ac(const element *e, dev_ac_ctx *ac)
 static void diode_report(const element *e, const double *x, double vt_v, double gmin_s,
                          dev_report_fn fn, void *sink)
 {
-    double vd = xv(x, e->inode[0]) - xv(x, e->node[1]);
-    double gd;
-    double id = junction_current(e->tp[DP_IS], vd, e->tp[DP_N] * vt_v, &gd) + gmin_s * vd;
+    double id = SS_NAN;
+    if (x) {
+        double vd = xv(x, e->inode[0]) - xv(x, e->node[1]);
+        double gd;
+        id = junction_current(e->tp[DP_IS], vd, e->tp[DP_N] * vt_v, &gd) + gmin_s * vd;
+    }
     fn(sink, "id", e->name, id);
 }
 

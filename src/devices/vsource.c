@@ -41,7 +41,7 @@ static void vsrc_report(const element *e, const double *x, double vt_v, double g
 {
     (void)vt_v;
     (void)gmin_s;
-    fn(sink, "i", e->name, x[e->branch]);
+    fn(sink, "i", e->name, x ? x[e->branch] : SS_NAN);
 }
 
 static void vsrc_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)

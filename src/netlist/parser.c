@@ -1718,6 +1718,32 @@ static void parser_clear(parser *ps)
     arena_clear(&ps->scratch);
 }
 
+/* A --set NAME given twice (in any case) is refused: one of its values would be dropped. */
+static ss_status check_overrides_once(parser *ps)
+{
+    if (ps->n_overrides < 2)
+        return SS_OK;
+    ss_strmap seen = {0};
+    ss_status st = SS_OK;
+    for (int i = 0; i < ps->n_overrides && st == SS_OK; i++) {
+        const ss_override *ov = &ps->overrides[i];
+        char *key = arena_strdup(&ps->scratch, ov->name);
+        int j;
+        if (!key)
+            st = nomem(ps);
+        for (char *c = key; c && *c; c++)
+            *c = (char)tolower((unsigned char)*c);
+        if (st == SS_OK && strmap_get(&seen, key, &j))
+            st = err_set(ps->err, SS_ERR_INPUT, NULL, 0, "--set %s: set twice (%s=%s, then %s=%s)",
+                         ov->name, ps->overrides[j].name, ps->overrides[j].value, ov->name,
+                         ov->value);
+        else if (st == SS_OK && strmap_put(&seen, key, i) != 0)
+            st = nomem(ps);
+    }
+    strmap_clear(&seen);
+    return st;
+}
+
 static ss_status parse_common(const char *path, const char *text, size_t text_len,
                               const char *name, const ss_override *overrides, int n_overrides,
                               ss_circuit **out_ckt, ss_error *err)
@@ -1749,6 +1775,8 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
         if (!ps.override_used)
             st = nomem(&ps);
     }
+    if (st == SS_OK)
+        st = check_overrides_once(&ps);
     if (st == SS_OK) {
         if (path) {
             st = read_file(&ps, path, NULL, 1);

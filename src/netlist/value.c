@@ -130,3 +130,31 @@ int strcasecmp_ascii_eq(const char *a, const char *b)
             return 0;
     return *a == *b;
 }
+
+ss_status ss_value_parse(const char *text, double *out_value, ss_error *err)
+{
+    if (!text)
+        text = "";
+    size_t n = value_number_len(text), slen = 0;
+    if (n > 0)
+        suffix_scale(text + n, &slen);
+    if (n == 0 || text[n + slen] != '\0')
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "'%s' is not a number (decimal digits and an optional SI suffix: t g meg "
+                       "k m u n p f)",
+                       text);
+    /* "1M" reads milli, as everywhere in the netlist; on a command line it is too likely
+     * meant as mega to take silently */
+    if (slen == 1 && text[n] == 'M')
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "'%s': M is milli here as in the netlist; write %.*sm for milli or "
+                       "%.*smeg for mega",
+                       text, (int)n, text, (int)n, text);
+    double v;
+    if (value_scan(text, &v) == 0) /* a number of 64 digits or more needs a copy */
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    if (!isfinite(v))
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "'%s' is out of range", text);
+    *out_value = v;
+    return SS_OK;
+}

@@ -25,6 +25,158 @@ double figures_value(const ss_table *figs, int row_hint, const char *label)
     return ss_table_lookup(figs, label, 0);
 }
 
+/* The figures beyond op.csv, by name, in the order ss_figures_compute lists them; the unit
+ * tests check these names against the tables the analyses produce. */
+static const char *const NOISE_FIGURES[] = {"out_noise_rms_v", "in_noise_rms_v",
+                                            "noise_figure_db"};
+static const char *const STAGE_FIGURES[] = {"gain_mid_db", "f_mid_hz",     "f_low_hz",
+                                            "f_high_hz",   "bandwidth_hz", "zin_mid_ohm",
+                                            "zout_mid_ohm"};
+/* ss_stage_large_signal's rows: a voltage-source stage's names, a current-source stage's */
+static const char *const LS_FIGURES_V[] = {
+    "ls_freq_hz",       "qs_gain",          "swing_pos_v", "swing_neg_v",    "vin_at_swing_pos_v",
+    "vin_at_swing_neg_v", "swing_pos_tran_v", "swing_neg_tran_v", "thd_amp_v", "thd_pct",
+    "thd_target_pct",   "vin_at_thd_v"};
+static const char *const LS_FIGURES_I[] = {
+    "ls_freq_hz",       "qs_gain",          "swing_pos_v", "swing_neg_v",    "iin_at_swing_pos_a",
+    "iin_at_swing_neg_a", "swing_pos_tran_v", "swing_neg_tran_v", "thd_amp_a", "thd_pct",
+    "thd_target_pct",   "iin_at_thd_a"};
+#define N_OF(a) (sizeof(a) / sizeof((a)[0]))
+
+static int in_list(const char *name, const char *const *list, size_t n)
+{
+    for (size_t k = 0; k < n; k++)
+        if (strcmp(name, list[k]) == 0)
+            return 1;
+    return 0;
+}
+
+/* Large-signal figures cost transient runs (a second or more each): they are computed only
+ * when a limit names one (of either source kind), so tolerance runs do not pay for them
+ * unasked. */
+static int limits_want_large_signal(const ss_limits *limits)
+{
+    for (int i = 0; limits && i < limits->n; i++)
+        if (in_list(limits->items[i].quantity, LS_FIGURES_V, N_OF(LS_FIGURES_V)) ||
+            in_list(limits->items[i].quantity, LS_FIGURES_I, N_OF(LS_FIGURES_I)))
+            return 1;
+    return 0;
+}
+
+/* The large-signal names of the circuit's stage (by its source's kind). */
+static const char *const *large_signal_names(const ss_circuit *ckt, size_t *n)
+{
+    int e = ckt->stage_in ? circuit_find_elem(ckt, ckt->stage_in) : -1;
+    int current = e >= 0 && ckt->elem[e].ops->letter == 'i';
+    *n = current ? N_OF(LS_FIGURES_I) : N_OF(LS_FIGURES_V);
+    return current ? LS_FIGURES_I : LS_FIGURES_V;
+}
+
+/* A figure at a frequency (a limit's QUANTITY@FREQ) named by an earlier limit too: solved and
+ * listed once. */
+static int freq_figure_seen(const ss_limits *limits, int i)
+{
+    for (int j = 0; j < i; j++)
+        if (strcmp(limits->items[j].quantity, limits->items[i].quantity) == 0)
+            return 1;
+    return 0;
+}
+
+static ss_status freq_needs_stage(const limit *lim, ss_error *err)
+{
+    return err_set(err, SS_ERR_INPUT, lim->file, lim->line,
+                   "limit on %s needs a stage: add `.stage in=SOURCE out=NODE`", lim->quantity);
+}
+
+void figures_names(const ss_circuit *ckt, const ss_limits *limits, dev_report_fn fn, void *sink)
+{
+    op_rows(ckt, NULL, fn, sink);
+    if (ckt->want_ac && ckt->stage_in)
+        for (size_t k = 0; k < N_OF(STAGE_FIGURES); k++)
+            fn(sink, STAGE_FIGURES[k], NULL, SS_NAN);
+    if (ckt->want_noise && ckt->want_ac)
+        for (size_t k = 0; k < N_OF(NOISE_FIGURES); k++)
+            fn(sink, NOISE_FIGURES[k], NULL, SS_NAN);
+    if (limits_want_large_signal(limits) && ckt->stage_in) {
+        size_t n;
+        const char *const *names = large_signal_names(ckt, &n);
+        for (size_t k = 0; k < n; k++)
+            fn(sink, names[k], NULL, SS_NAN);
+    }
+    for (int i = 0; limits && ckt->stage_in && i < limits->n; i++)
+        if (limits->items[i].at_freq && !freq_figure_seen(limits, i))
+            fn(sink, limits->items[i].quantity, NULL, SS_NAN);
+}
+
+/* ---- ss_limits_check_names ---------------------------------------------------------------- */
+
+typedef struct name_check {
+    const ss_limits *limits;
+    unsigned char *found;
+    int n_left;
+} name_check;
+
+static void mark_found(void *vs, const char *quantity, const char *elem_name, double value)
+{
+    (void)value;
+    name_check *nc = vs;
+    char label[1200];
+    const char *name = quantity;
+    if (elem_name) {
+        snprintf(label, sizeof label, "%s(%s)", quantity, elem_name);
+        name = label;
+    }
+    for (int i = 0; nc->n_left > 0 && i < nc->limits->n; i++)
+        if (!nc->found[i] && strcmp(nc->limits->items[i].quantity, name) == 0) {
+            nc->found[i] = 1;
+            nc->n_left--;
+        }
+}
+
+/* Why a name is no figure of this circuit, when it is one of another. */
+static const char *missing_because(const ss_circuit *ckt, const char *q)
+{
+    if (in_list(q, STAGE_FIGURES, N_OF(STAGE_FIGURES)))
+        return !ckt->want_ac   ? (ckt->stage_in ? "a stage summary metric needs an .ac sweep"
+                                                  : "a stage summary metric needs an .ac sweep "
+                                                    "and a stage (.stage or --in/--out)")
+                               : "a stage summary metric needs a stage (.stage or --in/--out)";
+    if (in_list(q, NOISE_FIGURES, N_OF(NOISE_FIGURES)))
+        return "a noise figure needs .noise and an .ac sweep";
+    if (in_list(q, LS_FIGURES_V, N_OF(LS_FIGURES_V)) ||
+        in_list(q, LS_FIGURES_I, N_OF(LS_FIGURES_I)))
+        return !ckt->stage_in ? "a large-signal figure needs a stage (.stage or --in/--out)"
+                              : "the stage source's kind names its input figures: vin_..._v "
+                                "and thd_amp_v for a V source, iin_..._a and thd_amp_a for an "
+                                "I source";
+    return "the figures are the op.csv quantities of this circuit's nodes and devices, the "
+           "stage summary metrics, the noise and large-signal figures and QUANTITY@FREQ; "
+           "docs/checks.md lists them";
+}
+
+ss_status ss_limits_check_names(const ss_limits *limits, const ss_circuit *ckt, ss_error *err)
+{
+    if (!limits || limits->n == 0)
+        return SS_OK;
+    for (int i = 0; i < limits->n; i++)
+        if (limits->items[i].at_freq && !ckt->stage_in)
+            return freq_needs_stage(&limits->items[i], err);
+    name_check nc = {limits, ss_alloc((size_t)limits->n), limits->n};
+    if (!nc.found)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    figures_names(ckt, limits, mark_found, &nc);
+    ss_status st = SS_OK;
+    for (int i = 0; i < limits->n && st == SS_OK; i++) {
+        const limit *lim = &limits->items[i];
+        if (!nc.found[i])
+            st = err_set(err, SS_ERR_INPUT, lim->file, lim->line,
+                         "limit on '%s': no such figure (%s)", lim->quantity,
+                         missing_because(ckt, lim->quantity));
+    }
+    ss_free(nc.found);
+    return st;
+}
+
 ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table **out_figures,
                              ss_error *err)
 {
@@ -55,23 +207,11 @@ ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table 
             ss_table_destroy(&t);
             return st;
         }
-        static const char *const keep[] = {"out_noise_rms_v", "in_noise_rms_v", "noise_figure_db"};
-        for (size_t k = 0; !bad && k < sizeof keep / sizeof keep[0]; k++)
-            bad |= add_row(t, keep[k], ss_table_lookup(nsum, keep[k], 0)) != 0;
+        for (size_t k = 0; !bad && k < N_OF(NOISE_FIGURES); k++)
+            bad |= add_row(t, NOISE_FIGURES[k], ss_table_lookup(nsum, NOISE_FIGURES[k], 0)) != 0;
         ss_table_destroy(&nsum);
     }
-    /* large-signal figures cost transient runs (a second or more each): only when a limit
-     * names one, so tolerance runs do not pay for them unasked */
-    int want_ls = 0;
-    static const char *const ls_names[] = {"ls_freq_hz", "qs_gain", "swing_pos_v", "swing_neg_v",
-                                           "vin_at_swing_pos_v", "vin_at_swing_neg_v",
-                                           "swing_pos_tran_v", "swing_neg_tran_v", "thd_amp_v",
-                                           "thd_pct", "thd_target_pct", "vin_at_thd_v",
-                                           "iin_at_swing_pos_a", "iin_at_swing_neg_a",
-                                           "thd_amp_a", "iin_at_thd_a"};
-    for (int i = 0; limits && i < limits->n; i++)
-        for (size_t k = 0; k < sizeof ls_names / sizeof ls_names[0]; k++)
-            want_ls |= strcmp(limits->items[i].quantity, ls_names[k]) == 0;
+    int want_ls = limits_want_large_signal(limits);
     if (!bad && want_ls && ckt->stage_in) {
         ss_table *ls = NULL;
         st = ss_stage_large_signal(ckt, &ls, err);
@@ -87,17 +227,11 @@ ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table 
         const limit *lim = &limits->items[i];
         if (!lim->at_freq)
             continue;
-        /* a figure named by two limits is solved and listed once */
-        int seen = 0;
-        for (int j = 0; j < i && !seen; j++)
-            seen = strcmp(limits->items[j].quantity, lim->quantity) == 0;
-        if (seen)
+        if (freq_figure_seen(limits, i))
             continue;
         if (!ckt->stage_in) {
             ss_table_destroy(&t);
-            return err_set(err, SS_ERR_INPUT, lim->file, lim->line,
-                           "limit on %s needs a stage: add `.stage in=SOURCE out=NODE`",
-                           lim->quantity);
+            return freq_needs_stage(lim, err);
         }
         double complex g;
         double zin, zout;

@@ -110,6 +110,8 @@ static double rng_gauss(rng *r)
 
 /* ---- configuration ------------------------------------------------------------------------ */
 
+static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules, ss_error *err);
+
 ss_status ss_study_create(const char *netlist_path, const ss_override *sets, int n_sets,
                           ss_study **out, ss_error *err)
 {
@@ -172,7 +174,7 @@ ss_status ss_study_create(const char *netlist_path, const ss_override *sets, int
         packed[k] = '\0';
         snprintf(spec, sizeof spec, "%.*s=%s%s", (int)n, t, packed, gauss ? ":gauss" : "");
         ss_error e2 = {0};
-        if (ss_study_add_tolerance(s, spec, &e2) != SS_OK) {
+        if (add_tolerance(s, spec, 1, &e2) != SS_OK) {
             err_set(err, e2.code, sl->file, sl->line, ".tolerance: %s", e2.message);
             ss_study_destroy(&s);
             return SS_ERR_INPUT;
@@ -224,7 +226,8 @@ static ss_status check_name(ss_study *s, const char *name, double *nominal, ss_e
     return SS_OK;
 }
 
-static int parse_number(const char *t, double *out)
+/* A number of a .tolerance line: a netlist value (unit letters allowed, `1uF`). */
+static int parse_netlist_number(const char *t, double *out)
 {
     char buf[128];
     size_t n = strlen(t);
@@ -235,6 +238,35 @@ static int parse_number(const char *t, double *out)
         *c = (char)tolower((unsigned char)*c);
     return value_parse(buf, out);
 }
+
+/* A number of a --vary or --tol spec: ss_value_parse's form (an SI suffix, nothing else), or
+ * a netlist value when the spec comes from a .tolerance line. */
+static int spec_number(const char *t, int netlist_rules, double *out)
+{
+    if (netlist_rules)
+        return parse_netlist_number(t, out);
+    ss_error e2 = {0};
+    return ss_value_parse(t, out, &e2) == SS_OK ? 0 : -1;
+}
+
+/* Splits s in place at every sep, empty fields kept; returns the field count, or max + 1 when
+ * there are more than max. */
+static int split_fields(char *s, char sep, char **f, int max)
+{
+    int n = 0;
+    for (;;) {
+        if (n == max)
+            return max + 1;
+        f[n++] = s;
+        char *c = strchr(s, sep);
+        if (!c)
+            return n;
+        *c = '\0';
+        s = c + 1;
+    }
+}
+
+static int temp_in_range(double t) { return t > -SS_ZERO_C_IN_K && t <= 1000.0; }
 
 ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
 {
@@ -254,34 +286,49 @@ ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
     for (int i = 0; i < s->n_dims; i++)
         if (strcmp(s->dims[i].name, d->name) == 0)
             return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: swept twice", d->name);
+    /* a --set of the same name would be replaced by the swept value at every point */
+    for (int i = 0; i < s->n_sets; i++)
+        if (strcasecmp_ascii_eq(s->sets[i].name, d->name))
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "--vary %s and --set %s name the same value: the swept value would "
+                           "replace the --set one at every point; give one of them",
+                           d->name, s->sets[i].name);
     double nominal;
-    ss_status st = check_name(s, d->name, &nominal, err);
+    ss_error name_err = {0};
+    ss_status st = check_name(s, d->name, &nominal, &name_err);
     if (st != SS_OK)
-        return err_set(err, st, NULL, 0, "--vary %s", d->name), st;
+        return err_set(err, st, NULL, 0, "--vary %s: %s", d->name, name_err.message);
     char body[1024];
+    if (strlen(eq + 1) >= sizeof body)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: longer than %zu characters",
+                       d->name, sizeof body - 1);
     snprintf(body, sizeof body, "%s", eq + 1);
     char *kind = body, *rest = strchr(body, ':');
     if (!rest)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "--vary %s: expected lin:, log: or list: after '='", d->name);
     *rest++ = '\0';
-    double vals_buf[3];
+    int is_temp = strcmp(d->name, "temp") == 0;
     if (strcmp(kind, "lin") == 0 || strcmp(kind, "log") == 0) {
         char *f[3];
-        int nf = 0;
-        for (char *tok = strtok(rest, ":"); tok && nf < 4; tok = strtok(NULL, ":"))
-            f[nf < 3 ? nf : 2] = tok, nf++;
-        if (nf != 3 || parse_number(f[0], &vals_buf[0]) != 0 ||
-            parse_number(f[1], &vals_buf[1]) != 0 || parse_number(f[2], &vals_buf[2]) != 0)
+        double v[3];
+        if (split_fields(rest, ':', f, 3) != 3)
             return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "--vary %s: expected %s:START:STOP:N with numbers", d->name, kind);
-        double n = vals_buf[2];
+                           "--vary %s: expected %s:START:STOP:N, got %s:%s", d->name, kind, kind,
+                           eq + 1 + strlen(kind) + 1);
+        for (int k = 0; k < 3; k++) {
+            ss_error e2 = {0};
+            if (ss_value_parse(f[k], &v[k], &e2) != SS_OK)
+                return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: %s %s", d->name,
+                               k == 0 ? "START" : k == 1 ? "STOP" : "N", e2.message);
+        }
+        double n = v[2];
         if (!(n >= 1.0) || n != floor(n) || n > 1e6)
             return err_set(err, SS_ERR_INPUT, NULL, 0,
                            "--vary %s: the point count must be a whole number from 1 to 1e6, "
                            "got %g",
                            d->name, n);
-        if (kind[1] == 'o' && !(vals_buf[0] > 0.0 && vals_buf[1] > 0.0))
+        if (kind[1] == 'o' && !(v[0] > 0.0 && v[1] > 0.0))
             return err_set(err, SS_ERR_INPUT, NULL, 0,
                            "--vary %s: a log sweep needs positive START and STOP", d->name);
         d->n = (int)n;
@@ -290,39 +337,57 @@ ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
             return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
         for (int i = 0; i < d->n; i++) {
             double t = d->n == 1 ? 0.0 : (double)i / (d->n - 1);
-            d->values[i] = kind[1] == 'i'
-                               ? vals_buf[0] + t * (vals_buf[1] - vals_buf[0])
-                               : exp(log(vals_buf[0]) + t * (log(vals_buf[1]) - log(vals_buf[0])));
+            d->values[i] = kind[1] == 'i' ? v[0] + t * (v[1] - v[0])
+                                          : exp(log(v[0]) + t * (log(v[1]) - log(v[0])));
         }
     } else if (strcmp(kind, "list") == 0) {
+        if (!*rest)
+            return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: empty list", d->name);
         int cap = 1;
         for (const char *c = rest; *c; c++)
             cap += *c == ',';
+        char **f = ss_alloc((size_t)cap * sizeof *f);
         d->values = ss_alloc((size_t)cap * sizeof *d->values);
-        if (!d->values)
-            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-        d->n = 0;
-        for (char *tok = strtok(rest, ","); tok; tok = strtok(NULL, ","))
-            if (parse_number(tok, &d->values[d->n++]) != 0) {
-                err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: bad value '%s'", d->name, tok);
-                ss_free(d->values);
-                d->values = NULL;
-                return SS_ERR_INPUT;
-            }
-        if (d->n == 0) {
+        if (!f || !d->values) {
+            ss_free(f);
             ss_free(d->values);
             d->values = NULL;
-            return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: empty list", d->name);
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        }
+        d->n = split_fields(rest, ',', f, cap);
+        st = SS_OK;
+        for (int i = 0; i < d->n && st == SS_OK; i++) {
+            ss_error e2 = {0};
+            if (!*f[i])
+                st = err_set(err, SS_ERR_INPUT, NULL, 0,
+                             "--vary %s: list item %d of %d is empty", d->name, i + 1, d->n);
+            else if (ss_value_parse(f[i], &d->values[i], &e2) != SS_OK)
+                st = err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: %s", d->name, e2.message);
+        }
+        ss_free(f);
+        if (st != SS_OK) {
+            ss_free(d->values);
+            d->values = NULL;
+            return st;
         }
     } else {
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "--vary %s: unknown kind '%s' (lin, log or list)", d->name, kind);
     }
+    for (int i = 0; is_temp && i < d->n; i++)
+        if (!temp_in_range(d->values[i])) {
+            err_set(err, SS_ERR_INPUT, NULL, 0,
+                    "--vary temp: %g C is outside -273.15 .. 1000 C", d->values[i]);
+            ss_free(d->values);
+            d->values = NULL;
+            return SS_ERR_INPUT;
+        }
     s->n_dims++;
     return SS_OK;
 }
 
-ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err)
+/* netlist_rules: the spec comes from a .tolerance line, whose numbers are netlist values. */
+static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules, ss_error *err)
 {
     const char *eq = strchr(spec, '=');
     if (!eq || eq == spec || !eq[1])
@@ -343,6 +408,9 @@ ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err)
         if (strcmp(s->tols[i].name, name) == 0)
             return err_set(err, SS_ERR_INPUT, NULL, 0, "tolerance on %s given twice", name);
     char body[256];
+    if (strlen(eq + 1) >= sizeof body)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "tolerance on %s: longer than %zu characters",
+                       name, sizeof body - 1);
     snprintf(body, sizeof body, "%s", eq + 1);
     tol_spec t = {name, nominal, 0, 0, 0};
     char *colon = strchr(body, ':');
@@ -360,14 +428,15 @@ ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err)
     if (len > 0 && body[len - 1] == '%') {
         body[len - 1] = '\0';
         double pct;
-        if (parse_number(body, &pct) != 0 || !(pct >= 0.0 && pct < 100.0))
+        if (spec_number(body, netlist_rules, &pct) != 0 || !(pct >= 0.0 && pct < 100.0))
             return err_set(err, SS_ERR_INPUT, NULL, 0,
                            "tolerance on %s: percentage must be from 0 to below 100", name);
         t.lo = nominal - fabs(nominal) * pct / 100.0;
         t.hi = nominal + fabs(nominal) * pct / 100.0;
     } else if (dots) {
         *dots = '\0';
-        if (parse_number(body, &t.lo) != 0 || parse_number(dots + 2, &t.hi) != 0 || t.hi < t.lo)
+        if (spec_number(body, netlist_rules, &t.lo) != 0 ||
+            spec_number(dots + 2, netlist_rules, &t.hi) != 0 || t.hi < t.lo)
             return err_set(err, SS_ERR_INPUT, NULL, 0,
                            "tolerance on %s: expected LO..HI with LO <= HI", name);
     } else {
@@ -384,6 +453,11 @@ ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err)
     }
     s->tols[s->n_tols++] = t;
     return SS_OK;
+}
+
+ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err)
+{
+    return add_tolerance(s, spec, 0, err);
 }
 
 ss_status ss_study_set_trials(ss_study *s, long trials, unsigned long long seed, ss_error *err)
@@ -487,6 +561,15 @@ static void point_values(const ss_study *s, long p, double *vals)
     }
 }
 
+/* 1 when one of ov[0 .. n-1] names `name` (case-insensitive): that override replaces it. */
+static int shadowed_by(const ss_override *ov, int n, const char *name)
+{
+    for (int j = 0; j < n; j++)
+        if (strcasecmp_ascii_eq(ov[j].name, name))
+            return 1;
+    return 0;
+}
+
 static ss_status solve_point(ss_study *s, const double *vals, int n_vals_tol,
                              ss_table **out_figs, ss_error *err)
 {
@@ -517,14 +600,13 @@ static ss_status solve_point(ss_study *s, const double *vals, int n_vals_tol,
         ovp[k].value = textp[k];
         k++;
     }
-    /* the fixed --set values come last only where no swept name overrides them */
-    for (int i = 0; i < s->n_sets; i++) {
-        int shadowed = 0;
-        for (int j = 0; j < k; j++)
-            shadowed |= strcasecmp_ascii_eq(ovp[j].name, s->sets[i].name);
-        if (!shadowed)
+    /* the fixed --set values come last, but not where a sampled value replaces them: a
+     * tolerance on a --set name spreads around the --set value (its nominal); a swept name
+     * cannot also be --set (ss_study_add_vary) */
+    int n_sampled = k;
+    for (int i = 0; i < s->n_sets; i++)
+        if (!shadowed_by(ovp, n_sampled, s->sets[i].name))
             ovp[k++] = s->sets[i];
-    }
     ss_circuit *ckt = NULL;
     ss_status st = ss_circuit_parse_file(s->netlist, ovp, k, &ckt, err);
     if (ovp != ov) {
@@ -596,11 +678,22 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
     if (s->n_dims == 0 && s->trials == 0)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "nothing to run: give --vary NAME=... and/or --trials N");
+    /* a value both swept and sampled would take one of the two silently */
+    for (int d = 0; s->trials > 0 && d < s->n_dims; d++)
+        for (int t = 0; t < s->n_tols; t++)
+            if (strcmp(s->dims[d].name, s->tols[t].name) == 0)
+                return err_set(err, SS_ERR_INPUT, NULL, 0,
+                               "--vary %s: %s also has a tolerance (--tol or .tolerance); a "
+                               "tolerance run cannot both sweep and sample it",
+                               s->dims[d].name, s->dims[d].name);
+    ss_status st = ss_limits_check_names(s->limits, s->nominal, err);
+    if (st != SS_OK)
+        return st;
     long first = total * (s->shard_k - 1) / s->shard_n;
     long end = total * s->shard_k / s->shard_n;
     /* the nominal run fixes the figure columns */
     ss_table *nominal_figs = NULL;
-    ss_status st = ss_figures_compute(s->nominal, s->limits, &nominal_figs, err);
+    st = ss_figures_compute(s->nominal, s->limits, &nominal_figs, err);
     if (st != SS_OK)
         return st;
     int n_vals = s->n_dims + (s->trials > 0 ? s->n_tols : 0);
@@ -764,7 +857,9 @@ ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "sensitivities need toleranced values: .tolerance lines or --tol");
     ss_table *nom = NULL;
-    ss_status st = ss_figures_compute(s->nominal, s->limits, &nom, err);
+    ss_status st = ss_limits_check_names(s->limits, s->nominal, err);
+    if (st == SS_OK)
+        st = ss_figures_compute(s->nominal, s->limits, &nom, err);
     if (st != SS_OK)
         return st;
     ss_table *t = table_create(s->n_tols, "figure");
@@ -838,6 +933,9 @@ ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **o
         n_snap += strchr(kinds, nom->elem[i].ops->letter) != NULL && nom->elem[i].value > 0.0;
     if (n_snap == 0)
         return err_set(err, SS_ERR_INPUT, nom->file, 0, "no element of kind '%s' to snap", kinds);
+    ss_status lst = ss_limits_check_names(s->limits, nom, err);
+    if (lst != SS_OK)
+        return lst;
     ss_override *ov = ss_alloc((size_t)(n_snap + s->n_sets) * sizeof *ov);
     char(*text)[40] = ss_alloc((size_t)n_snap * sizeof *text);
     ss_table *vals = table_create(3, "element");
@@ -866,14 +964,18 @@ ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **o
         ov[k].value = text[k];
         k++;
     }
+    int n_ov = k;
     if (st == SS_OK) {
+        /* an element given with --set is snapped from its --set value and takes the snapped
+         * one; the other --set values stay */
         for (int i = 0; i < s->n_sets; i++)
-            ov[k + i] = s->sets[i];
+            if (!shadowed_by(ov, k, s->sets[i].name))
+                ov[n_ov++] = s->sets[i];
         st = ss_figures_compute(s->nominal, s->limits, &nfig, err);
     }
     if (st == SS_OK) {
         ss_circuit *snapped = NULL;
-        st = ss_circuit_parse_file(s->netlist, ov, k + s->n_sets, &snapped, err);
+        st = ss_circuit_parse_file(s->netlist, ov, n_ov, &snapped, err);
         if (st == SS_OK && s->stage_in)
             st = ss_circuit_set_stage(snapped, s->stage_in, s->stage_out, 0.0, err);
         if (st == SS_OK)
@@ -920,6 +1022,10 @@ ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **o
 ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_table **out,
                            ss_error *err)
 {
+    if (!temp_in_range(temp_lo_c) || !temp_in_range(temp_hi_c) || !(temp_lo_c < temp_hi_c))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "corner temperatures %g and %g C: need -273.15 < LO < HI <= 1000 C",
+                       temp_lo_c, temp_hi_c);
     const ss_circuit *nom = s->nominal;
     /* every BJT model's BF at its toleranced extremes, or halved / doubled (beta spreads 2-3x
      * within one type: common practice) */
@@ -955,8 +1061,11 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
             ov[k].value = text[k];
             k++;
         }
+        /* a --set BF is the nominal the corners were taken from: the corner value replaces it */
+        int n_beta = k;
         for (int i = 0; i < s->n_sets; i++)
-            ov[k++] = s->sets[i];
+            if (!shadowed_by(ov, n_beta, s->sets[i].name))
+                ov[k++] = s->sets[i];
         for (int tc = 0; st == SS_OK && tc < 2; tc++) {
             ss_circuit *ckt = NULL;
             ss_error e2 = {0};

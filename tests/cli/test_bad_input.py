@@ -407,8 +407,7 @@ case("--nodes with only commas", 2, "stagesim: --nodes needs node names separate
      usage=True, files=V, args=RUN + ["--nodes", ",,"])
 case("--nodes as the last argument", 2, "stagesim: --nodes needs a value", usage=True,
      files=V, args=RUN + ["--nodes"])
-case("--nodes outside run", 2, "stagesim: --nodes belongs to run (the per-node tables), not "
-     "sweep", usage=True, files=V,
+case("--nodes outside run", 2, "stagesim: --nodes belongs to run, not sweep", usage=True, files=V,
      args=["sweep", "{T}/n.cir", "-o", "{T}/out", "--vary", "rtop=list:1k", "--nodes", "in"])
 case("netlist file that does not exist", 2,
      TMP + "/nothere.cir: cannot open netlist: No such file or directory",
