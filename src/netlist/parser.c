@@ -9,7 +9,6 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 
 #include "devices/device.h"
 #include "netlist/circuit.h"
@@ -75,6 +74,7 @@ typedef struct parser {
     const ss_override *overrides;
     int n_overrides;
     unsigned char *override_used;
+    size_t text_bytes; /* netlist text read so far, all files together */
     int nomem;
     int expr_depth; /* expression nesting, shared by the parameters an expression refers to */
 } parser;
@@ -184,28 +184,31 @@ static ss_status read_file(parser *ps, const char *path, const logline *from, in
     if (ps->inc_depth > NETLIST_MAX_INCLUDE_DEPTH)
         return err_set(ps->err, SS_ERR_LIMIT, from ? from->file : path, from ? from->line : 0,
                        ".include nested deeper than %d files", NETLIST_MAX_INCLUDE_DEPTH);
-    struct stat sb;
-    FILE *f = NULL;
-    if (stat(path, &sb) == 0 && S_ISDIR(sb.st_mode))
-        errno = EISDIR;
-    else
-        f = fopen(path, "rb");
-    if (!f) {
+    /* one budget for the netlist and everything it includes */
+    ss_strbuf b = {0};
+    int sys_errno = 0;
+    int rc = strbuf_read_file(&b, path, NETLIST_MAX_TEXT_BYTES - ps->text_bytes, &sys_errno);
+    if (rc != SS_READ_OK) {
+        strbuf_clear(&b);
+        if (rc == SS_READ_NOMEM)
+            return nomem(ps);
+        if (rc == SS_READ_TOO_LARGE && from)
+            return err_set(ps->err, SS_ERR_LIMIT, from->file, from->line,
+                           "'%s': the netlist and its included files together would be larger "
+                           "than %s",
+                           path, NETLIST_MAX_TEXT_TEXT);
+        if (rc == SS_READ_TOO_LARGE)
+            return err_set(ps->err, SS_ERR_LIMIT, path, 0, "the netlist is larger than %s",
+                           NETLIST_MAX_TEXT_TEXT);
+        const char *why = strbuf_read_error_text(rc, sys_errno);
+        if (rc == SS_READ_IO)
+            return err_set(ps->err, SS_ERR_IO, path, 0, "read error: %s", why);
         if (from)
             return err_set(ps->err, SS_ERR_IO, from->file, from->line, "cannot open '%s': %s",
-                           path, strerror(errno));
-        return err_set(ps->err, SS_ERR_IO, path, 0, "cannot open netlist: %s", strerror(errno));
+                           path, why);
+        return err_set(ps->err, SS_ERR_IO, path, 0, "cannot open netlist: %s", why);
     }
-    ss_strbuf b = {0};
-    int rerr = strbuf_read_file(&b, f);
-    if (b.failed) {
-        strbuf_clear(&b);
-        return nomem(ps);
-    }
-    if (rerr) {
-        strbuf_clear(&b);
-        return err_set(ps->err, SS_ERR_IO, path, 0, "read error");
-    }
+    ps->text_bytes += b.len;
     const char *file = arena_strdup(&ps->ckt->arena, path);
     if (!file) {
         strbuf_clear(&b);
@@ -357,6 +360,13 @@ static ss_status read_text(parser *ps, const char *text, size_t len, const char 
             if (cur.len == 0) {
                 st = err_set(ps->err, SS_ERR_INPUT, file, line_no,
                              "continuation line '+' with nothing to continue");
+                break;
+            }
+            /* the limit holds for the joined line, not only for each piece of it */
+            if (cur.len + 1 + (keep - first - 1) > NETLIST_MAX_LINE_BYTES) {
+                st = err_set(ps->err, SS_ERR_LIMIT, file, cur_line,
+                             "line longer than %u bytes (joined with its '+' continuations)",
+                             NETLIST_MAX_LINE_BYTES);
                 break;
             }
             strbuf_append(&cur, " ", 1);
@@ -1702,7 +1712,13 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
             st = read_file(&ps, path, NULL, 1);
         } else {
             ps.inc_stack[ps.inc_depth++] = ckt->file;
-            st = read_text(&ps, text, text_len, ckt->file, 1);
+            if (text_len > NETLIST_MAX_TEXT_BYTES)
+                st = err_set(err, SS_ERR_LIMIT, ckt->file, 0, "the netlist is larger than %s",
+                             NETLIST_MAX_TEXT_TEXT);
+            else {
+                ps.text_bytes = text_len;
+                st = read_text(&ps, text, text_len, ckt->file, 1);
+            }
         }
     }
     if (st == SS_OK && !ckt->title)
