@@ -1773,6 +1773,8 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
         st = check_noise(&ps);
     if (st == SS_OK)
         st = apply_late_overrides(&ps);
+    if (st == SS_OK)
+        st = circuit_check_temp(ckt, ckt->temp_c, err);
     if (st == SS_OK && ckt->n_elem == 0)
         st = err_set(err, SS_ERR_INPUT, ckt->file, 0, "the netlist has no elements");
     if (st == SS_OK)

@@ -1,6 +1,7 @@
 /* Reading whole files (strbuf_read_file): regular files only, refused before any byte is read
  * when they are not (a FIFO must not block, a device must not be read without end), a size cap,
- * and the first failed allocation ends the read. */
+ * and the first failed allocation ends the read. Also the temperature check of
+ * ss_circuit_set_temp, the way a study's temperature sweep reaches the models. */
 #define _DEFAULT_SOURCE /* mkdtemp */
 #include "ss_test.h"
 
@@ -9,6 +10,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "netlist/circuit.h"
 #include "util/util.h"
 
 typedef struct tmp_dir {
@@ -134,6 +136,26 @@ static void test_allocation_failure_ends_the_read(void **state)
     rmdir(d.path);
 }
 
+/* A temperature set after parsing (a study's temp sweep) is checked against every model's
+ * scaled parameters: XTB = 1e300 leaves BF at 100 at TNOM but overflows it at 85 C
+ * (BF(T) = BF (T/TNOM)^XTB, docs/models.md). The circuit keeps its temperature. */
+static void test_set_temp_checks_the_models(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse("t\nvcc c 0 5\nvb b 0 0.7\nq1 c b 0 qhot\n"
+                                    ".model qhot npn xtb=1e300\n");
+    ss_error err = {0};
+    assert_int_equal(ss_circuit_set_temp(ckt, 85.0, &err), SS_ERR_INPUT);
+    char msg[1400];
+    ss_error_format(&err, msg, sizeof msg);
+    assert_string_equal(msg, "test.cir:5: model 'qhot': at 85 C, bf becomes inf (it must stay "
+                             "finite and > 0)");
+    ss_assert_close(ss_circuit_temp_c(ckt), 27.0, 0, 0);
+    memset(&err, 0, sizeof err);
+    assert_int_equal(ss_circuit_set_temp(ckt, 27.0, &err), SS_OK);
+    ss_circuit_destroy(&ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -141,6 +163,7 @@ int main(void)
         cmocka_unit_test(test_size_cap),
         cmocka_unit_test(test_not_regular_refused_without_blocking),
         cmocka_unit_test(test_allocation_failure_ends_the_read),
+        cmocka_unit_test(test_set_temp_checks_the_models),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
