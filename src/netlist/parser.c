@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "devices/device.h"
+#include "devices/wave.h"
 #include "netlist/circuit.h"
 #include "netlist/netlist.h"
 
@@ -1585,6 +1586,23 @@ static ss_status check_noise(parser *ps)
     return SS_OK;
 }
 
+/* The sources' time-varying forms stay finite up to the .tran stop time. */
+static ss_status check_waves(parser *ps)
+{
+    ss_circuit *ckt = ps->ckt;
+    if (!ckt->want_tran)
+        return SS_OK;
+    for (int i = 0; i < ckt->n_elem; i++) {
+        const element *e = &ckt->elem[i];
+        char why[200];
+        if (elem_is_source(e) && e->wave &&
+            wave_check_until(e->wave, ckt->tran_stop_s, why, sizeof why) != 0)
+            return err_set(ps->err, SS_ERR_INPUT, e->file, e->line, "%s: %s (.tran at %s:%d)",
+                           e->name, why, ckt->tran_file, ckt->tran_line);
+    }
+    return SS_OK;
+}
+
 static ss_status apply_late_overrides(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
@@ -1746,6 +1764,8 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
         top.prefix = "";
         st = build_lines(&ps, &top, 0, ps.n_lines);
     }
+    if (st == SS_OK)
+        st = check_waves(&ps);
     if (st == SS_OK) {
         /* evaluate every global parameter so an unused broken one is still reported */
         for (int i = 0; i < ps.n_params && st == SS_OK; i++) {
