@@ -76,6 +76,12 @@ typedef struct parser {
     int n_overrides;
     unsigned char *override_used;
     size_t text_bytes; /* netlist text read so far, all files together */
+    /* where analysis directives were first given: each may be given once */
+    const logline *first_ac, *first_temp, *first_large_signal;
+    /* .options names given so far (each once), with their lines */
+    const char *opt_name[32];
+    const logline *opt_at[32];
+    int n_opt;
     int nomem;
     int expr_depth; /* expression nesting, shared by the parameters an expression refers to */
 } parser;
@@ -293,8 +299,11 @@ static ss_status finish_logical(parser *ps, ss_strbuf *cur, const char *file, in
     if (is_include(cur->data)) {
         st = do_include(ps, file, line_no, cur->data);
     } else {
+        /* ASCII letters only, whatever locale the program runs in: a byte >= 0x80 (a piece of
+         * a UTF-8 letter) is kept as it is, so names are compared byte for byte after this */
         for (size_t i = 0; i < cur->len; i++)
-            cur->data[i] = (char)tolower((unsigned char)cur->data[i]);
+            if (cur->data[i] >= 'A' && cur->data[i] <= 'Z')
+                cur->data[i] = (char)(cur->data[i] - 'A' + 'a');
         /* `.end` ends only the top-level netlist: a library file ending in .end must not
          * swallow the lines after its .include */
         const char *t = cur->data;
@@ -737,17 +746,26 @@ const char *pctx_scoped_name(pctx *p, const char *tok)
 
 typedef struct model_ctx {
     model *m;
+    const char *text[MODEL_MAX_PARAMS]; /* each parameter's value as written on the card */
 } model_ctx;
 
 static int set_model_param(parser *ps, const logline *ll, void *vctx, const char *name,
                            const char *text)
 {
-    model *m = ((model_ctx *)vctx)->m;
+    model_ctx *mc = vctx;
+    model *m = mc->m;
     int idx = model_param_index(m->type, name);
     if (idx < 0)
         return line_error(ps, ll, "model '%s': unknown parameter '%s' for a %s model", m->name,
                           name, m->type == MODEL_D ? "diode" : "BJT"),
                -1;
+    /* one card, one value per parameter: a second one (often on a continuation line) is a
+     * mistake either way it is read */
+    if (mc->text[idx])
+        return line_error(ps, ll, "model '%s': parameter %s given twice (%s=%.40s, then %s=%.40s)",
+                          m->name, name, name, mc->text[idx], name, text),
+               -1;
+    mc->text[idx] = text;
     double v;
     char what[64];
     snprintf(what, sizeof what, "parameter %s", name);
@@ -852,7 +870,9 @@ static int define_model(parser *ps, const logline *ll)
     }
     if (tokenize(ps, &sub, s) != SS_OK)
         return -1;
-    model_ctx mc = {m};
+    model_ctx mc;
+    memset(&mc, 0, sizeof mc);
+    mc.m = m;
     if (parse_assignments(ps, &sub, 0, set_model_param, &mc) != 0)
         return -1;
     if (check_model(ps, ll, m) != 0)
@@ -928,7 +948,7 @@ static int collect_subckt_header(parser *ps, const logline *ll, subckt_def *sd)
 
 static ss_status pass1(parser *ps)
 {
-    int depth = 0;
+    int depth = 0, n_model_lines = 0;
     int open_idx[NETLIST_MAX_SUBCKT_DEPTH] = {0};
     for (int i = 0; i < ps->n_lines; i++) {
         logline *ll = &ps->lines[i];
@@ -976,8 +996,7 @@ static ss_status pass1(parser *ps)
             continue;
         }
         if (is_directive(ll, ".model")) {
-            if (define_model(ps, ll) != 0)
-                return ps->err->code;
+            n_model_lines++; /* defined below, once every global parameter is known */
             continue;
         }
         if (depth == 0 && is_directive(ll, ".param")) {
@@ -991,6 +1010,15 @@ static ss_status pass1(parser *ps)
         subckt_def *sd = &ps->subckts[open_idx[depth - 1]];
         return err_set(ps->err, SS_ERR_INPUT, sd->file, sd->line,
                        ".subckt %s has no matching .ends", sd->name);
+    }
+    /* model cards see every global parameter, wherever its .param line stands (parameters
+     * are order-free) */
+    for (int i = 0; i < ps->n_lines && n_model_lines > 0; i++) {
+        if (is_directive(&ps->lines[i], ".model")) {
+            n_model_lines--;
+            if (define_model(ps, &ps->lines[i]) != 0)
+                return ps->err->code;
+        }
     }
     return SS_OK;
 }
@@ -1188,6 +1216,16 @@ static int set_option(parser *ps, const logline *ll, void *vctx, const char *nam
 {
     (void)vctx;
     double v;
+    /* each option once, on one line or across several */
+    for (int k = 0; k < ps->n_opt; k++)
+        if (strcmp(ps->opt_name[k], name) == 0)
+            return line_error(ps, ll, ".options: %s given twice (first at %s:%d)", name,
+                              ps->opt_at[k]->file, ps->opt_at[k]->line),
+                   -1;
+    if (ps->n_opt < (int)(sizeof ps->opt_name / sizeof ps->opt_name[0])) {
+        ps->opt_name[ps->n_opt] = name;
+        ps->opt_at[ps->n_opt++] = ll;
+    }
     if (strcmp(name, "tran_method") == 0) { /* transient integration: docs/transient.md */
         if (strcmp(text, "trap") == 0)
             ps->ckt->tran_method = 0;
@@ -1235,7 +1273,9 @@ static int set_stage(parser *ps, const logline *ll, void *vctx, const char *name
 {
     (void)vctx;
     ss_circuit *ckt = ps->ckt;
-    if ((strcmp(name, "in") == 0 && ckt->stage_in) || (strcmp(name, "out") == 0 && ckt->stage_out))
+    if ((strcmp(name, "in") == 0 && ckt->stage_in) ||
+        (strcmp(name, "out") == 0 && ckt->stage_out) ||
+        (strcmp(name, "load") == 0 && ckt->stage_load_ohm > 0.0))
         return line_error(ps, ll, ".stage: '%s' given twice", name), -1;
     if (strcmp(name, "in") == 0)
         ckt->stage_in = text;
@@ -1269,6 +1309,9 @@ static int set_large_signal(parser *ps, const logline *ll, void *vctx, const cha
                           ".large_signal: unknown field '%s' (known: freq, amp, thd_target_pct)",
                           name),
                -1;
+    if ((is_freq && ckt->ls_freq_hz > 0.0) || (is_amp && ckt->ls_amp > 0.0) ||
+        (is_thd && ckt->ls_thd_target_pct > 0.0))
+        return line_error(ps, ll, ".large_signal: '%s' given twice", name), -1;
     if (line_value(ps, ll, NULL, text, ".large_signal", name, &v) != 0)
         return -1;
     if (is_thd ? !(v > 0.0 && v < 100.0) : !(v > 0.0 && isfinite(v)))
@@ -1290,8 +1333,18 @@ static int set_noise(parser *ps, const logline *ll, void *vctx, const char *name
     (void)vctx;
     if (strcmp(name, "rs") != 0)
         return line_error(ps, ll, ".noise: unknown field '%s' (known: rs)", name), -1;
+    if (ps->ckt->noise_rs)
+        return line_error(ps, ll, ".noise: 'rs' given twice"), -1;
     ps->ckt->noise_rs = text;
     return 0;
+}
+
+/* An analysis directive given a second time: which one counts would be a guess. */
+static ss_status once_error(parser *ps, const logline *ll, const char *first_file,
+                            int first_line)
+{
+    return line_error(ps, ll, "%s given twice (first at %s:%d)", ll->tok[0], first_file,
+                      first_line);
 }
 
 static ss_status directive(parser *ps, const logline *ll, const scope *sc)
@@ -1310,6 +1363,9 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
     if (strcmp(d, ".end") == 0)
         return SS_OK;
     if (strcmp(d, ".temp") == 0) {
+        if (ps->first_temp)
+            return once_error(ps, ll, ps->first_temp->file, ps->first_temp->line);
+        ps->first_temp = ll;
         if (ll->n_tok != 2)
             return line_error(ps, ll, ".temp takes one temperature in degrees Celsius");
         double t;
@@ -1331,6 +1387,8 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
         return parse_assignments(ps, ll, 1, set_stage, NULL) == 0 ? SS_OK : ps->err->code;
     }
     if (strcmp(d, ".dc") == 0) {
+        if (ckt->n_dc > 0)
+            return once_error(ps, ll, ckt->dc[0].file, ckt->dc[0].line);
         int n = ll->n_tok - 1;
         if (n != 4 && n != 8)
             return line_error(ps, ll, ".dc expects SRC start stop step [SRC2 start2 stop2 step2]");
@@ -1354,6 +1412,9 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
         return SS_OK;
     }
     if (strcmp(d, ".ac") == 0) {
+        if (ps->first_ac)
+            return once_error(ps, ll, ps->first_ac->file, ps->first_ac->line);
+        ps->first_ac = ll;
         if (ll->n_tok != 5)
             return line_error(ps, ll, ".ac expects dec|oct|lin N fstart fstop");
         const char *t = ll->tok[1];
@@ -1414,6 +1475,8 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
     }
     if (strcmp(d, ".tran") == 0) {
         /* .tran TSTEP TSTOP [TSTART]: rows of tran.csv at TSTART + k TSTEP (analysis/tran.c) */
+        if (ckt->want_tran)
+            return once_error(ps, ll, ckt->tran_file, ckt->tran_line);
         if (ll->n_tok != 3 && ll->n_tok != 4)
             return line_error(ps, ll, ".tran expects TSTEP TSTOP [TSTART]");
         double step, stop, start = 0.0;
@@ -1443,11 +1506,17 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
         return SS_OK;
     }
     if (strcmp(d, ".large_signal") == 0) {
+        if (ps->first_large_signal)
+            return once_error(ps, ll, ps->first_large_signal->file,
+                              ps->first_large_signal->line);
+        ps->first_large_signal = ll;
         ckt->want_large_signal = 1;
         return parse_assignments(ps, ll, 1, set_large_signal, NULL) == 0 ? SS_OK : ps->err->code;
     }
     if (strcmp(d, ".noise") == 0) {
         /* .noise v(OUT) SRC [rs=RNAME]: names checked after parsing (check_noise) */
+        if (ckt->want_noise)
+            return once_error(ps, ll, ckt->noise_file, ckt->noise_line);
         if (ll->n_tok < 3)
             return line_error(ps, ll, ".noise expects v(OUT) SRC [rs=RESISTOR]");
         const char *o = ll->tok[1];
