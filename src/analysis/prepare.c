@@ -123,7 +123,8 @@ static ss_status check_topology(ss_circuit *ckt, ss_error *err)
     for (int node = 1; node < n && st == SS_OK; node++) {
         if (ckt->node_internal[node] || uf_find(dcpath, node) == ground)
             continue;
-        /* name an element on the node for the location */
+        /* name an element on the node for the location (the parser refuses a netlist node
+         * that no element connects to, naming the X line that brought it in, so there is one) */
         const element *on = NULL;
         for (int i = 0; i < ckt->n_elem && !on; i++)
             for (int k = 0; k < ckt->elem[i].n_node; k++)

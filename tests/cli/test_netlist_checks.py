@@ -65,6 +65,23 @@ def close(a, b, rel):
     return abs(a - b) <= rel * abs(b)
 
 
+# ---- subcircuit headers --------------------------------------------------------------------------
+
+bad("subcircuit port listed twice", F + ":2: .subckt amp: port 'a' is listed twice",
+    "t", ".subckt amp a b a", "R1 a b 1k", ".ends", "V1 n 0 1", "X1 n 0 n amp")
+bad("subcircuit parameter default given twice", F + ":2: .subckt amp: parameter 'r' given twice",
+    "t", ".subckt amp a r=1k r=2k", "R1 a 0 {r}", ".ends", "V1 n 0 1", "X1 n amp")
+# `params:` is no keyword: defaults are written name=value after the ports
+bad("params: on a subcircuit line",
+    F + ":2: .subckt div: port 'params:' ends in ':'; parameter defaults are written name=value "
+    "after the ports",
+    "t", ".subckt div top mid params: r1=10k", "R1 top mid {r1}", "R2 mid 0 1k", ".ends",
+    "V1 in 0 10", "X1 in m div")
+bad("port name ending in a colon",
+    F + ":2: .subckt div: port 'mid:' ends in ':'; parameter defaults are written name=value "
+    "after the ports",
+    "t", ".subckt div top mid:", "R1 top 0 1k", ".ends", "V1 in 0 10", "X1 in m div")
+
 # ---- a parameter or directive given twice --------------------------------------------------------
 
 bad("model parameter given twice",
@@ -97,7 +114,57 @@ bad(".large_signal field twice", F + ":4: .large_signal: 'freq' given twice",
 bad(".noise rs twice", F + ":5: .noise: 'rs' given twice",
     "t", "V1 n 0 0 AC 1", "R1 n o 1k", "R2 o 0 1k", ".noise v(o) v1 rs=r1 rs=r2")
 
+# ---- hierarchical names spelled at the top level -------------------------------------------------
+
+bad("top-level node spelled like an instance's node (instance first)",
+    F + ":8: r9: the top-level node 'x1.mid' is spelled like node 'mid' of instance x1 (" + F +
+    ":7): the two would be one node; rename one",
+    "t", ".subckt s a", "R1 a mid 1k", "R2 mid 0 1k", ".ends", "V1 n 0 1", "X1 n s",
+    "R9 x1.mid 0 1k")
+bad("top-level node spelled like an instance's node (instance last)",
+    F + ":3: x1.r1: node 'mid' of instance x1 (" + F + ":8) is spelled like the top-level node "
+    "'x1.mid' (" + F + ":7, r9): the two would be one node; rename one",
+    "t", ".subckt s a", "R1 a mid 1k", "R2 mid 0 1k", ".ends", "V1 n 0 1", "R9 x1.mid 0 1k",
+    "X1 n s")
+bad("node of an instance spelled like a nested instance's node",
+    F + ":8: x1.r5: node 'x2.mid' of instance x1 (" + F + ":11) is spelled like node 'mid' of "
+    "instance x1.x2 (" + F + ":7): the two would be one node; rename one",
+    "t", ".subckt inner a", "R1 a mid 1k", "R2 mid 0 1k", ".ends", ".subckt outer a",
+    "X2 a inner", "R5 x2.mid 0 1k", ".ends", "V1 n 0 1", "X1 n outer")
+bad("instance name used twice", F + ":7: x1: instance name used twice (first at " + F + ":6)",
+    "t", ".subckt s a", "R1 a 0 1k", ".ends", "V1 n 0 1", "X1 n s", "X1 n s")
+
 # ---- names ---------------------------------------------------------------------------------------
+
+# a name that reaches a CSV header must not start a spreadsheet formula
+NODE_RULE = ("a name starts with a letter, a digit or '_' and holds no '=', braces, "
+             "parentheses or '\"'")
+bad("model name starting a spreadsheet formula",
+    F + ":2: .model '+cmd|'calc'!a0': not a valid model name: a name starts with a letter, a "
+    "digit or '_'",
+    "t", ".model +cmd|'calc'!A0 npn", "V1 c 0 5", "Q1 c c 0 +cmd|'calc'!A0")
+bad("model name '='",
+    F + ":2: .model '=': not a valid model name: a name starts with a letter, a digit or '_'",
+    "t", ".model =cmd npn", "V1 c 0 5", "Q1 c c 0 q")
+bad("node name starting with '@'",
+    F + ":3: r1: '@sum' is not a valid node name: " + NODE_RULE,
+    "t", "V1 n 0 1", "R1 n @sum 1k")
+bad("node name starting with '-'",
+    F + ":3: r1: '-out' is not a valid node name: " + NODE_RULE,
+    "t", "V1 n 0 1", "R1 n -out 1k")
+bad("node name with parentheses",
+    F + ":3: r1: 'a(1)' is not a valid node name: " + NODE_RULE,
+    "t", "V1 n 0 1", "R1 n a(1) 1k")
+bad("subcircuit name starting with '@'",
+    F + ":2: .subckt '@s': not a valid subcircuit name: a name starts with a letter, a digit or "
+    "'_'", "t", ".subckt @s a", "R1 a 0 1k", ".ends", "V1 n 0 1", "X1 n @s")
+bad("port name starting with '+'",
+    F + ":2: .subckt s: '+p' is not a valid port name: " + NODE_RULE,
+    "t", ".subckt s +p", "R1 +p 0 1k", ".ends", "V1 n 0 1", "X1 n s")
+bad("subcircuit parameter name starting with a digit",
+    F + ":2: .subckt s: '2r' is not a valid parameter name: a parameter name starts with a "
+    "letter or '_'", "t", ".subckt s a 2r=1k", "R1 a 0 1k", ".ends", "V1 n 0 1", "X1 n s")
+
 
 def check_utf8_nodes(tmp, out):
     """`ä` and `Ä` are two nodes (bytes >= 0x80 are not case-folded): the divider of two equal
@@ -189,8 +256,60 @@ bad("pulse timing overflows", F + ":2: v1: pulse: delay + rise time + width + fa
 bad("pwl step overflows", F + ":2: v1: pwl: the step from value 1 (-1e+308) to value 2 (1e+308) "
     "overflows", "t", "V1 in 0 PWL(0 -1e308 1 1e308)", "R1 in 0 1k", ".op")
 
+# ---- a node brought in only by an X line ---------------------------------------------------------
+
+bad("node only on a port the subcircuit leaves unconnected",
+    F + ":6: x1: node 'b' connects to nothing: its port 'q' of subcircuit 's' is used by no "
+    "element inside, so the node has no DC path to ground",
+    "t", ".subckt s p q", "R1 p 0 1k", ".ends", "V1 n 0 1", "X1 n b s")
+bad("node only on a nested instance's unused port",
+    F + ":6: x1.x2: node 'x1.loose' connects to nothing: its port 'q' of subcircuit 'inner' is "
+    "used by no element inside, so the node has no DC path to ground",
+    "t", ".subckt inner p q", "R1 p 0 1k", ".ends", ".subckt outer a", "X2 a loose inner",
+    ".ends", "V1 n 0 1", "X1 n outer")
+bad("port unused through two levels",
+    F + ":10: x1: node 'b' connects to nothing: its port 'y' of subcircuit 'outer' is used by no "
+    "element inside, so the node has no DC path to ground",
+    "t", ".subckt inner p q", "R1 p 0 1k", ".ends", ".subckt outer x y", "X2 x y inner",
+    ".ends", "V1 n 0 1", "R2 n 0 1k", "X1 n b outer")
+
+
+def check_port_used_elsewhere(tmp, out):
+    v = op_values(tmp)
+    return None if close(v["v(b)"], 0.5, 1e-12) else "v(b) = %r" % v.get("v(b)")
+
+
+good("node on an unused port and on an element", check_port_used_elsewhere,
+     "t", ".subckt s p q", "R1 p 0 1k", ".ends", "V1 n 0 1", "X1 n b s", "R2 n b 1k",
+     "R3 b 0 1k", ".op")
+
 # ---- sizes: expansion, joined lines, files -------------------------------------------------------
 
+
+def fan_out(levels, width, leaf):
+    """A subcircuit `l<levels>` made of `width` instances of the level below, down to l0."""
+    lines = ["fan-out", ".subckt l0 a"] + leaf + [".ends"]
+    for k in range(1, levels + 1):
+        lines.append(".subckt l%d a" % k)
+        lines += ["x%d a l%d" % (m, k - 1) for m in range(width)]
+        lines.append(".ends")
+    return lines
+
+
+bad("subcircuit fan-out past the element limit",
+    F + ":151: x1: subcircuit 'l12' expands to 1e+12 elements: the circuit would have more than "
+    "10000000 elements",
+    *(fan_out(12, 10, ["R1 a 0 1k"]) + ["V1 n 0 1", "R0 n 0 1k", "X1 n l12", ".op"]))
+bad("fan-out of empty subcircuits past the instance limit",
+    F + ":150: x1: subcircuit 'l12' expands to 1.11e+12 subcircuit instances: the circuit would "
+    "have more than 10000000",
+    *(fan_out(12, 10, []) + ["V1 n 0 1", "R0 n 0 1k", "X1 n l12", ".op"]))
+# the nesting limit is found by counting, before a million elements per level are built; the
+# first line too deep is the one building would have stopped at (l1's first X line, 33 deep)
+bad("self-instantiating subcircuit behind a large one",
+    F + ":6: x0: subcircuits nested deeper than 32 (is 'l0' instantiating itself?)",
+    *(fan_out(6, 10, ["R1 a 0 1k"])[:-1] + [".ends", ".subckt loop a", "X1 a l6", "X2 a loop",
+                                             ".ends", "V1 n 0 1", "X9 n loop"]))
 
 bad("continuation lines joined past the line limit",
     F + ":3: line longer than 1048576 bytes (joined with its '+' continuations)",
