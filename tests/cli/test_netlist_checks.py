@@ -373,7 +373,7 @@ def built_with_asan(binary):
 
 def run_case(binary, c, asan):
     if c.limit_as and asan:
-        return None, "skip (the address sanitizer needs more address space than the cap)"
+        return None, "the address sanitizer needs more address space than the cap"
     tmp = os.path.realpath(tempfile.mkdtemp(prefix="stagesim-netcheck-"))
     try:
         for name, content in c.files.items():
