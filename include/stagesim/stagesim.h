@@ -259,7 +259,9 @@ SS_API ss_status ss_plot_write_bode(const ss_circuit *ckt, const ss_table *stage
 /* Writes the human-readable report (operating point, per-BJT table, stage block) to f. */
 SS_API void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f);
 
-/* Sets the circuit temperature (overrides .temp); applied at the next solve. */
+/* Sets the circuit temperature (overrides .temp); applied at the next solve. SS_ERR_INPUT when
+ * it is outside -273.15 .. 1000 C, or when a model's parameters scaled to it are not finite or
+ * leave their range (the error names the model card, the parameter and its value). */
 SS_API ss_status ss_circuit_set_temp(ss_circuit *ckt, double temp_c, ss_error *err);
 
 /* The present value of NAME as --set understands it: a .param, an element's main value or

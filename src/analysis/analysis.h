@@ -11,8 +11,9 @@
 /* Builds internal nodes, branch unknowns, the matrix pattern and the symbolic analysis once.
  * Checks the topology first (no DC path to ground, loops of voltage sources). */
 SS_HIDDEN ss_status analysis_prepare(ss_circuit *ckt, ss_error *err);
-/* Applies the circuit temperature to every device's parameters. */
-SS_HIDDEN void analysis_apply_temp(ss_circuit *ckt);
+/* Applies the circuit temperature to every device's parameters; SS_ERR_INPUT names the model
+ * whose scaled parameters leave their range. */
+SS_HIDDEN ss_status analysis_apply_temp(ss_circuit *ckt, ss_error *err);
 SS_HIDDEN double analysis_vt(const ss_circuit *ckt);
 /* Netlist (not internal) nodes: their count, and one column per node and format ("v(%s)")
  * from first_col on, the formats of a node side by side. 0 ok, -1 no memory. */

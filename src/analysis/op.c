@@ -373,7 +373,9 @@ ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err)
     ss_status st = analysis_prepare(ckt, err);
     if (st != SS_OK)
         return st;
-    analysis_apply_temp(ckt);
+    st = analysis_apply_temp(ckt, err);
+    if (st != SS_OK)
+        return st;
     int n = ckt->n_unknowns;
     double *x = ckt->x_op;
     ss_op_stats s = {0, 0, 0};

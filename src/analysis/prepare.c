@@ -123,7 +123,8 @@ static ss_status check_topology(ss_circuit *ckt, ss_error *err)
     for (int node = 1; node < n && st == SS_OK; node++) {
         if (ckt->node_internal[node] || uf_find(dcpath, node) == ground)
             continue;
-        /* name an element on the node for the location */
+        /* name an element on the node for the location (the parser refuses a netlist node
+         * that no element connects to, naming the X line that brought it in, so there is one) */
         const element *on = NULL;
         for (int i = 0; i < ckt->n_elem && !on; i++)
             for (int k = 0; k < ckt->elem[i].n_node; k++)
@@ -146,15 +147,18 @@ double analysis_vt(const ss_circuit *ckt)
     return thermal_voltage_v(ckt->temp_c + SS_ZERO_C_IN_K);
 }
 
-void analysis_apply_temp(ss_circuit *ckt)
+ss_status analysis_apply_temp(ss_circuit *ckt, ss_error *err)
 {
     double temp_k = ckt->temp_c + SS_ZERO_C_IN_K;
     /* only the elements with a temperature law (listed in prepare), not every resistor */
     for (int k = 0; k < ckt->n_temp_elems; k++) {
         element *e = &ckt->elem[ckt->temp_elems[k]];
-        e->ops->temp(e, temp_k);
+        char why[200];
+        if (e->ops->temp(e, temp_k, e->tp, why, sizeof why) != 0)
+            return circuit_temp_error(ckt, e, why, err);
     }
     ckt->temp_applied_k = temp_k;
+    return SS_OK;
 }
 
 ss_status analysis_prepare(ss_circuit *ckt, ss_error *err)

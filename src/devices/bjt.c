@@ -114,10 +114,9 @@ static void bjt_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *s
 
 static double inf_if_zero(double v) { return v == 0.0 ? HUGE_VAL : v; }
 
-static void bjt_temp(element *e, double temp_k)
+static int bjt_temp(const element *e, double temp_k, double *tp, char *why, size_t why_len)
 {
     const double *mp = e->mod->p;
-    double *tp = e->tp;
     memcpy(tp, mp, MODEL_MAX_PARAMS * sizeof *tp);
     double tnom_k = mp[BP_TNOM] + SS_ZERO_C_IN_K;
     double vt = thermal_voltage_v(temp_k);
@@ -148,6 +147,21 @@ static void bjt_temp(element *e, double temp_k)
     tp[BP_RC] = mp[BP_RC] / a;
     tp[BP_VAF] = inf_if_zero(mp[BP_VAF]);
     tp[BP_VAR] = inf_if_zero(mp[BP_VAR]);
+    /* what the equations divide by or take logarithms of must survive the scaling (an extreme
+     * XTB, EG or temperature can overflow or underflow them); a junction potential matters
+     * only with its capacitance, and IKF, IKR, VAF, VAR are infinite when absent */
+    static const struct {
+        int idx, positive;
+    } checks[] = {{BP_IS, 1},  {BP_BF, 1},  {BP_BR, 1},  {BP_ISE, 0}, {BP_ISC, 0},
+                  {BP_CJE, 0}, {BP_CJC, 0}, {BP_RB, 0},  {BP_RE, 0},  {BP_RC, 0}};
+    for (size_t k = 0; k < sizeof checks / sizeof checks[0]; k++)
+        if (temp_param_check(bjt_params[checks[k].idx].name, tp[checks[k].idx],
+                             checks[k].positive, why, why_len) != 0)
+            return -1;
+    if (temp_param_check("vje", tp[BP_VJE], tp[BP_CJE] > 0.0, why, why_len) != 0 ||
+        temp_param_check("vjc", tp[BP_VJC], tp[BP_CJC] > 0.0, why, why_len) != 0)
+        return -1;
+    return 0;
 }
 
 /* Model currents (NPN sense) and their derivatives at internal junction voltages. */

@@ -2,10 +2,20 @@
  * controlled-source blocks, and parsing the common `Xname n+ n- value` line shape. */
 #include <ctype.h>
 #include <math.h>
+#include <stdio.h>
 #include <string.h>
 
 #include "devices/passive.h"
 #include "devices/wave.h"
+
+int temp_param_check(const char *name, double v, int positive, char *why, size_t why_len)
+{
+    if (isfinite(v) && (positive ? v > 0.0 : v >= 0.0))
+        return 0;
+    snprintf(why, why_len, "%s becomes %g (it must stay finite and %s)", name, v,
+             positive ? "> 0" : ">= 0");
+    return -1;
+}
 
 void claim_pair(element *e, dev_setup_ctx *sc, int first, int a, int b)
 {

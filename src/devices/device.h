@@ -117,8 +117,11 @@ typedef struct dev_ops {
     void (*claim)(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc);
     /* how many slots claim() fills (e->n_slot; at most ELEM_MAX_SLOTS) */
     int n_slot;
-    /* temperature and area adjustment of model parameters into e->tp; NULL when none */
-    void (*temp)(element *e, double temp_k);
+    /* temperature and area adjustment of the model parameters into tp[MODEL_MAX_PARAMS] (e->tp
+     * when solving); NULL when none. 0 ok; -1 when a scaled parameter is not finite or leaves
+     * its range, with what happened written into why ("bf becomes inf (it must stay finite
+     * and > 0)") */
+    int (*temp)(const element *e, double temp_k, double *tp, char *why, size_t why_len);
     void (*load_dc)(element *e, dev_load_ctx *lc);
     /* adds the element's terminal currents at x (into the device, from its own equations,
      * not its Newton stamps) to resid[node unknown], and its branch equation's residual to
@@ -212,6 +215,11 @@ static inline double noise_flicker_a2(double kf, double af, double i_a)
 {
     return kf > 0.0 ? kf * pow(fabs(i_a), af) : 0.0;
 }
+
+/* A model parameter after temperature and area scaling (name as on the card): finite and > 0
+ * (positive set) or >= 0. 0 ok; -1 with the reason in why. */
+SS_HIDDEN int temp_param_check(const char *name, double v, int positive, char *why,
+                               size_t why_len);
 
 /* Claims the four slots of a two-terminal admittance between nodes a and b into
  * e->slot[first..first+3] in the order (a,a) (b,b) (a,b) (b,a). */

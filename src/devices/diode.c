@@ -60,10 +60,9 @@ static void diode_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx 
     claim_pair(e, sc, SL_J, e->inode[0], e->node[1]);
 }
 
-static void diode_temp(element *e, double temp_k)
+static int diode_temp(const element *e, double temp_k, double *tp, char *why, size_t why_len)
 {
     const double *mp = e->mod->p;
-    double *tp = e->tp;
     memcpy(tp, mp, MODEL_MAX_PARAMS * sizeof *tp);
     double tnom_k = mp[DP_TNOM] + SS_ZERO_C_IN_K;
     double vt = thermal_voltage_v(temp_k);
@@ -75,6 +74,14 @@ static void diode_temp(element *e, double temp_k)
                         &tp[DP_CJO]);
     tp[DP_CJO] *= e->area;
     tp[DP_RS] = mp[DP_RS] / e->area;
+    /* what the equations divide by or take logarithms of must survive the scaling; the
+     * junction potential matters only with its capacitance */
+    if (temp_param_check("is", tp[DP_IS], 1, why, why_len) != 0 ||
+        temp_param_check("cjo", tp[DP_CJO], 0, why, why_len) != 0 ||
+        temp_param_check("rs", tp[DP_RS], 0, why, why_len) != 0 ||
+        temp_param_check("vj", tp[DP_VJ], tp[DP_CJO] > 0.0, why, why_len) != 0)
+        return -1;
+    return 0;
 }
 
 static void diode_load_dc(element *e, dev_load_ctx *lc)

@@ -2,6 +2,7 @@
  * corners for the transient's step control. The integration itself is src/analysis/tran.c's. */
 #include <ctype.h>
 #include <math.h>
+#include <stdio.h>
 #include <string.h>
 
 #include "devices/wave.h"
@@ -84,6 +85,15 @@ static int check_sin(pctx *p, src_wave *w, int n)
         return pctx_error(p, "sin: frequency must not be negative, got %g", w->p[WS_FREQ]);
     if (w->p[WS_TD] < 0.0)
         return pctx_error(p, "sin: delay must not be negative, got %g", w->p[WS_TD]);
+    /* every value is finite; what wave_value computes from them must be too */
+    if (!isfinite(2.0 * SS_PI * w->p[WS_FREQ]))
+        return pctx_error(p, "sin: frequency %g Hz is too large (2 pi f overflows)",
+                          w->p[WS_FREQ]);
+    if (!isfinite(fabs(w->p[WS_VO]) + fabs(w->p[WS_VA])))
+        return pctx_error(p, "sin: offset %g and amplitude %g overflow when added", w->p[WS_VO],
+                          w->p[WS_VA]);
+    if (!isfinite(w->p[WS_PHASE] * SS_PI))
+        return pctx_error(p, "sin: phase %g degrees is too large", w->p[WS_PHASE]);
     return 0;
 }
 
@@ -101,7 +111,12 @@ static int check_pulse(pctx *p, src_wave *w, int n)
         w->p[WP_PW] = HUGE_VAL; /* left out: the pulse never ends */
     if (n <= WP_PER || w->p[WP_PER] == 0.0)
         w->p[WP_PER] = HUGE_VAL; /* left out or 0: a single pulse */
+    if (!isfinite(w->p[WP_V2] - w->p[WP_V1]))
+        return pctx_error(p, "pulse: the step from %g to %g overflows", w->p[WP_V1],
+                          w->p[WP_V2]);
     double used = w->p[WP_TR] + w->p[WP_TF] + w->p[WP_PW];
+    if (!isfinite(w->p[WP_TD] + used) && isfinite(w->p[WP_PW]))
+        return pctx_error(p, "pulse: delay + rise time + width + fall time overflows");
     if (isfinite(w->p[WP_PER]) && used > w->p[WP_PER])
         return pctx_error(p, "pulse: rise time + width + fall time (%g s) exceed the period %g s",
                           used, w->p[WP_PER]);
@@ -120,6 +135,9 @@ static int check_pwl(pctx *p, src_wave *w, double *vals, int n)
         if (k > 0 && !(t > vals[2 * k - 2]))
             return pctx_error(p, "pwl: time %d (%g s) is not after time %d (%g s)", k + 1, t, k,
                               vals[2 * k - 2]);
+        if (k > 0 && !isfinite(vals[2 * k + 1] - vals[2 * k - 1]))
+            return pctx_error(p, "pwl: the step from value %d (%g) to value %d (%g) overflows", k,
+                              vals[2 * k - 1], k + 1, vals[2 * k + 1]);
     }
     w->pwl = vals;
     w->n_pwl = n / 2;
@@ -165,6 +183,29 @@ int wave_parse(pctx *p, int tok_index, src_wave **out)
         return -1;
     *out = w;
     return used;
+}
+
+int wave_check_until(const src_wave *w, double t_end_s, char *why, size_t why_len)
+{
+    if (w->kind != WAVE_SIN)
+        return 0; /* PULSE and PWL stay between values already checked */
+    const double *q = w->p;
+    double span = t_end_s - q[WS_TD];
+    if (!(span > 0.0))
+        return 0;
+    if (!isfinite(2.0 * SS_PI * q[WS_FREQ] * span)) {
+        snprintf(why, why_len, "sin: the phase 2 pi f t overflows before %g s (frequency %g Hz)",
+                 t_end_s, q[WS_FREQ]);
+        return -1;
+    }
+    /* a negative THETA makes the sine grow as exp(-THETA t) */
+    if (q[WS_THETA] < 0.0 && q[WS_VA] != 0.0 &&
+        !isfinite(fabs(q[WS_VO]) + fabs(q[WS_VA]) * exp(-q[WS_THETA] * span))) {
+        snprintf(why, why_len, "sin: with theta %g 1/s the sine grows past any number before %g s",
+                 q[WS_THETA], t_end_s);
+        return -1;
+    }
+    return 0;
 }
 
 /* ---- evaluation ------------------------------------------------------------------------- */

@@ -29,6 +29,12 @@ SS_HIDDEN int wave_is_form(const char *tok);
  * Returns the number of tokens used (1 or 2), or -1 with the error set naming the element. */
 SS_HIDDEN int wave_parse(pctx *p, int tok_index, src_wave **out);
 
+/* The form stays computable (finite) from t = 0 to t_end_s: a SIN's phase 2 pi f t and its
+ * growth exp(-THETA t) for a negative THETA. (The values themselves, the SIN frequency at
+ * t = 0 and the steps of PULSE and PWL are checked by wave_parse.) 0 ok; -1 with the reason in
+ * why. */
+SS_HIDDEN int wave_check_until(const src_wave *w, double t_end_s, char *why, size_t why_len);
+
 /* The source value at time t_s (t < 0 is taken as 0). tstep_s: the transient's output step,
  * which stands for a PULSE rise or fall time given as 0 or left out (common practice); with
  * tstep_s 0 such an edge is a jump. */

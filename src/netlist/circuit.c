@@ -194,11 +194,44 @@ const char *ss_circuit_input(const ss_circuit *ckt, int index, const char **out_
     return ckt->inputs[index].path;
 }
 
+ss_status circuit_temp_error(const struct ss_circuit *ckt, const element *e, const char *why,
+                             ss_error *err)
+{
+    if (e->area != 1.0)
+        return err_set(err, SS_ERR_INPUT, e->mod->file, e->mod->line,
+                       "model '%s': at %g C with the area %g of %s, %s", e->mod->name,
+                       ckt->temp_c, e->area, e->name, why);
+    return err_set(err, SS_ERR_INPUT, e->mod->file, e->mod->line, "model '%s': at %g C, %s",
+                   e->mod->name, ckt->temp_c, why);
+}
+
+ss_status circuit_check_temp(const struct ss_circuit *ckt, double temp_c, ss_error *err)
+{
+    for (int m = 0; m < ckt->n_models; m++) {
+        const model *md = ckt->models[m];
+        element probe; /* what the temperature law reads: the model and an area of 1 */
+        memset(&probe, 0, sizeof probe);
+        probe.ops = device_for_model_type(md->type);
+        probe.mod = md;
+        probe.area = 1.0;
+        double tp[MODEL_MAX_PARAMS];
+        char why[200];
+        if (probe.ops->temp &&
+            probe.ops->temp(&probe, temp_c + SS_ZERO_C_IN_K, tp, why, sizeof why) != 0)
+            return err_set(err, SS_ERR_INPUT, md->file, md->line, "model '%s': at %g C, %s",
+                           md->name, temp_c, why);
+    }
+    return SS_OK;
+}
+
 ss_status ss_circuit_set_temp(ss_circuit *ckt, double temp_c, ss_error *err)
 {
     if (!(temp_c > -SS_ZERO_C_IN_K && temp_c <= 1000.0))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "temperature %g C is outside -273.15 .. 1000 C", temp_c);
+    ss_status st = circuit_check_temp(ckt, temp_c, err);
+    if (st != SS_OK)
+        return st;
     ckt->temp_c = temp_c;
     ckt->have_op = 0;
     return SS_OK;

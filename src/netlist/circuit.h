@@ -208,6 +208,13 @@ typedef struct ac_wslot ac_wslot;
 /* Unknown index of a node: ground is -1 (its row and column are dropped). */
 static inline int node_unknown(int node_idx) { return node_idx - 1; }
 
+/* Every model's parameters scaled to temp_c (area 1): SS_ERR_INPUT at the first model card
+ * whose scaled parameters leave their range, naming the parameter, temperature and value. */
+SS_HIDDEN ss_status circuit_check_temp(const struct ss_circuit *ckt, double temp_c,
+                                       ss_error *err);
+/* The error for element e whose model, scaled to the circuit temperature, failed: why. */
+SS_HIDDEN ss_status circuit_temp_error(const struct ss_circuit *ckt, const element *e,
+                                       const char *why, ss_error *err);
 SS_HIDDEN void circuit_warn(struct ss_circuit *ckt, const char *fmt, ...)
     __attribute__((format(printf, 2, 3)));
 /* A warning of lint check `check` naming `subject` (an element or node name that outlives

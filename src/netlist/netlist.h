@@ -16,6 +16,9 @@
 #define NETLIST_MAX_LINE_BYTES (1u << 20)
 #define NETLIST_MAX_TOKENS 4096
 #define NETLIST_MAX_ELEMENTS 10000000
+/* netlist text, the top-level file and its includes together */
+#define NETLIST_MAX_TEXT_BYTES ((size_t)1 << 30)
+#define NETLIST_MAX_TEXT_TEXT "1 GiB"
 
 /* ---- values ------------------------------------------------------------------------------ */
 /* Scans a number with optional SI suffix and unit letters at s; returns the characters used

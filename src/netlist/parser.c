@@ -9,10 +9,10 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 
 #include "analysis/analysis.h"
 #include "devices/device.h"
+#include "devices/wave.h"
 #include "netlist/circuit.h"
 #include "netlist/netlist.h"
 
@@ -45,19 +45,36 @@ typedef struct subckt_def {
     int body_first, body_end; /* logical line range of the body */
     const char *file;
     int line;
+    /* what one instance expands to, counted once (subckt_expansion): elements, instances and
+     * the nesting levels below it */
+    double n_elem, n_inst;
+    int height;
+    int counted;
 } subckt_def;
 
 typedef struct scope {
     const struct scope *parent;
     const char *prefix; /* "" at top level, "x1." inside X1 */
+    int prefix_len;
     const char **port_names;
     const int *port_nodes;
+    unsigned char *port_used; /* set when an element of the body (or of an instance in it)
+                               * connects to the port */
     int n_ports;
     const char **pnames;
     double *pvals;
     int n_params;
     int depth;
 } scope;
+
+/* A node an X line brought in through a port its subcircuit leaves unconnected: an error after
+ * parsing if no element connects to the node either. */
+typedef struct port_note {
+    int node;
+    const logline *at;   /* the X line */
+    const char *prefix;  /* the instance's full name and a '.' */
+    const char *subckt, *port;
+} port_note;
 
 typedef struct parser {
     ss_circuit *ckt;
@@ -76,6 +93,22 @@ typedef struct parser {
     const ss_override *overrides;
     int n_overrides;
     unsigned char *override_used;
+    size_t text_bytes; /* netlist text read so far, all files together */
+    /* per node, the length of the instance prefix it was named with (0 at the top level):
+     * `x1.mid` written at the top level and node `mid` inside X1 are two nodes spelled the
+     * same, found by their differing prefixes */
+    unsigned short *node_plen;
+    size_t cap_node_plen;
+    ss_strmap inst_map; /* instance prefix ("x1.", "x1.x2.") -> its X line's index */
+    int n_instances;    /* subcircuit instances built so far */
+    port_note *notes;
+    int n_notes, cap_notes;
+    /* where analysis directives were first given: each may be given once */
+    const logline *first_ac, *first_temp, *first_large_signal;
+    /* .options names given so far (each once), with their lines */
+    const char *opt_name[32];
+    const logline *opt_at[32];
+    int n_opt;
     int nomem;
     int expr_depth; /* expression nesting, shared by the parameters an expression refers to */
 } parser;
@@ -200,28 +233,31 @@ static ss_status read_file(parser *ps, const char *path, const logline *from, in
     if (ps->inc_depth > NETLIST_MAX_INCLUDE_DEPTH)
         return err_set(ps->err, SS_ERR_LIMIT, from ? from->file : path, from ? from->line : 0,
                        ".include nested deeper than %d files", NETLIST_MAX_INCLUDE_DEPTH);
-    struct stat sb;
-    FILE *f = NULL;
-    if (stat(path, &sb) == 0 && S_ISDIR(sb.st_mode))
-        errno = EISDIR;
-    else
-        f = fopen(path, "rb");
-    if (!f) {
+    /* one budget for the netlist and everything it includes */
+    ss_strbuf b = {0};
+    int sys_errno = 0;
+    int rc = strbuf_read_file(&b, path, NETLIST_MAX_TEXT_BYTES - ps->text_bytes, &sys_errno);
+    if (rc != SS_READ_OK) {
+        strbuf_clear(&b);
+        if (rc == SS_READ_NOMEM)
+            return nomem(ps);
+        if (rc == SS_READ_TOO_LARGE && from)
+            return err_set(ps->err, SS_ERR_LIMIT, from->file, from->line,
+                           "'%s': the netlist and its included files together would be larger "
+                           "than %s",
+                           path, NETLIST_MAX_TEXT_TEXT);
+        if (rc == SS_READ_TOO_LARGE)
+            return err_set(ps->err, SS_ERR_LIMIT, path, 0, "the netlist is larger than %s",
+                           NETLIST_MAX_TEXT_TEXT);
+        const char *why = strbuf_read_error_text(rc, sys_errno);
+        if (rc == SS_READ_IO)
+            return err_set(ps->err, SS_ERR_IO, path, 0, "read error: %s", why);
         if (from)
             return err_set(ps->err, SS_ERR_IO, from->file, from->line, "cannot open '%s': %s",
-                           path, strerror(errno));
-        return err_set(ps->err, SS_ERR_IO, path, 0, "cannot open netlist: %s", strerror(errno));
+                           path, why);
+        return err_set(ps->err, SS_ERR_IO, path, 0, "cannot open netlist: %s", why);
     }
-    ss_strbuf b = {0};
-    int rerr = strbuf_read_file(&b, f);
-    if (b.failed) {
-        strbuf_clear(&b);
-        return nomem(ps);
-    }
-    if (rerr) {
-        strbuf_clear(&b);
-        return err_set(ps->err, SS_ERR_IO, path, 0, "read error");
-    }
+    ps->text_bytes += b.len;
     const char *file = arena_strdup(&ps->ckt->arena, path);
     if (!file) {
         strbuf_clear(&b);
@@ -310,8 +346,11 @@ static ss_status finish_logical(parser *ps, ss_strbuf *cur, const char *file, in
     if (is_include(cur->data)) {
         st = do_include(ps, file, line_no, cur->data);
     } else {
+        /* ASCII letters only, whatever locale the program runs in: a byte >= 0x80 (a piece of
+         * a UTF-8 letter) is kept as it is, so names are compared byte for byte after this */
         for (size_t i = 0; i < cur->len; i++)
-            cur->data[i] = (char)tolower((unsigned char)cur->data[i]);
+            if (cur->data[i] >= 'A' && cur->data[i] <= 'Z')
+                cur->data[i] = (char)(cur->data[i] - 'A' + 'a');
         /* `.end` ends only the top-level netlist: a library file ending in .end must not
          * swallow the lines after its .include */
         const char *t = cur->data;
@@ -378,6 +417,13 @@ static ss_status read_text(parser *ps, const char *text, size_t len, const char 
             if (cur.len == 0) {
                 st = err_set(ps->err, SS_ERR_INPUT, file, line_no,
                              "continuation line '+' with nothing to continue");
+                break;
+            }
+            /* the limit holds for the joined line, not only for each piece of it */
+            if (cur.len + 1 + (keep - first - 1) > NETLIST_MAX_LINE_BYTES) {
+                st = err_set(ps->err, SS_ERR_LIMIT, file, cur_line,
+                             "line longer than %u bytes (joined with its '+' continuations)",
+                             NETLIST_MAX_LINE_BYTES);
                 break;
             }
             strbuf_append(&cur, " ", 1);
@@ -660,6 +706,26 @@ static int scoped_name(parser *ps, const logline *ll, const char *who, char *buf
     return -1;
 }
 
+/* The first character of a node, model or subcircuit name: a letter, a digit, '_' or a byte of
+ * a UTF-8 character (>= 0x80). Punctuation is refused: names end up in CSV headers and labels,
+ * where a cell starting with '=', '+', '-' or '@' is a formula to a spreadsheet. */
+#define NAME_START_RULE "a name starts with a letter, a digit or '_'"
+static int name_start_ok(const char *t)
+{
+    unsigned char c = (unsigned char)t[0];
+    return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') ||
+           c == '_' || c >= 0x80;
+}
+
+/* Parameter names are what expressions can refer to: ASCII letter or '_' first. */
+#define PARAM_NAME_RULE "a parameter name starts with a letter or '_'"
+static int param_name_ok(const char *t)
+{
+    unsigned char c = (unsigned char)t[0];
+    return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || c == '_';
+}
+
+#define NODE_NAME_RULE NAME_START_RULE " and holds no '=', braces, parentheses or '\"'"
 static int valid_node_name(const char *t)
 {
     if (!*t)
@@ -670,31 +736,98 @@ static int valid_node_name(const char *t)
     return 1;
 }
 
-int pctx_node(pctx *p, const char *tok)
+/* Records the prefix length a new node was named with. 0 ok, -1 out of memory (set). */
+static int note_node_prefix(parser *ps, int idx, int prefix_len)
 {
+    if ((size_t)idx >= ps->cap_node_plen) {
+        size_t ncap = ps->cap_node_plen ? ps->cap_node_plen : 256;
+        while (ncap <= (size_t)idx)
+            ncap *= 2;
+        unsigned short *np = ss_realloc(ps->node_plen, ncap * sizeof *np);
+        if (!np)
+            return nomem(ps), -1;
+        ps->node_plen = np;
+        ps->cap_node_plen = ncap;
+    }
+    ps->node_plen[idx] = (unsigned short)prefix_len;
+    return 0;
+}
+
+/* "the top-level node 'x1.mid'" or "node 'mid' of instance x1 (F:L)" for the node named full
+ * with a prefix of prefix_len characters; with_where adds, for a top-level node, an element
+ * that uses it. */
+static void describe_node(parser *ps, int idx, const char *full, int prefix_len, int with_where,
+                          char *buf, size_t len)
+{
+    if (prefix_len == 0) {
+        int n = snprintf(buf, len, "the top-level node '%s'", full);
+        const element *on = NULL;
+        for (int i = 0; with_where && i < ps->ckt->n_elem && !on; i++)
+            for (int k = 0; k < ps->ckt->elem[i].n_node; k++)
+                if (ps->ckt->elem[i].node[k] == idx)
+                    on = &ps->ckt->elem[i];
+        if (on && n >= 0 && (size_t)n < len)
+            snprintf(buf + n, len - (size_t)n, " (%s:%d, %s)", on->file, on->line, on->name);
+        return;
+    }
+    char prefix[SCOPED_NAME_BYTES];
+    snprintf(prefix, sizeof prefix, "%.*s", prefix_len, full);
+    int at;
+    if (strmap_get(&ps->inst_map, prefix, &at))
+        snprintf(buf, len, "node '%s' of instance %.*s (%s:%d)", full + prefix_len,
+                 prefix_len - 1, full, ps->lines[at].file, ps->lines[at].line);
+    else
+        snprintf(buf, len, "node '%s' of instance %.*s", full + prefix_len, prefix_len - 1, full);
+}
+
+/* The node for tok in p's scope; *port gets the index of the scope's port it names, or -1. */
+static int scope_node(pctx *p, const char *tok, int *port)
+{
+    *port = -1;
     if (!tok)
         return pctx_error(p, "missing node");
     if (is_ground_name(tok))
         return 0;
-    if (!valid_node_name(tok))
-        return pctx_error(p, "'%s' is not a valid node name", tok);
+    if (!valid_node_name(tok) || !name_start_ok(tok))
+        return pctx_error(p, "'%.40s' is not a valid node name: %s", tok, NODE_NAME_RULE);
     for (int i = 0; i < p->sc->n_ports; i++)
-        if (strcmp(p->sc->port_names[i], tok) == 0)
+        if (strcmp(p->sc->port_names[i], tok) == 0) {
+            *port = i;
             return p->sc->port_nodes[i];
+        }
+    parser *ps = p->ps;
     char buf[SCOPED_NAME_BYTES];
     const char *name = tok; /* top level: the arena token itself */
     if (p->sc->prefix[0]) {
-        if (scoped_name(p->ps, p->ll, p->ll->tok[0], buf, p->sc->prefix, tok, "") != 0)
+        if (scoped_name(ps, p->ll, p->ll->tok[0], buf, p->sc->prefix, tok, "") != 0)
             return -1;
         name = buf;
     }
-    int idx = circuit_find_node(p->ps->ckt, name);
-    if (idx >= 0)
-        return idx;
-    idx = name == tok ? circuit_add_node_borrowed(p->ps->ckt, tok, 0)
-                      : circuit_add_node(p->ps->ckt, name, 0);
+    int idx = circuit_find_node(ps->ckt, name);
+    if (idx >= 0) {
+        if (ps->node_plen[idx] == p->sc->prefix_len)
+            return idx;
+        char here[1400], other[1400];
+        describe_node(ps, idx, name, p->sc->prefix_len, 0, here, sizeof here);
+        describe_node(ps, idx, name, ps->node_plen[idx], 1, other, sizeof other);
+        return pctx_error(p, "%s is spelled like %s: the two would be one node; rename one",
+                          here, other);
+    }
+    idx = name == tok ? circuit_add_node_borrowed(ps->ckt, tok, 0)
+                      : circuit_add_node(ps->ckt, name, 0);
     if (idx < 0)
-        nomem(p->ps);
+        return nomem(ps), -1;
+    if (note_node_prefix(ps, idx, p->sc->prefix_len) != 0)
+        return -1;
+    return idx;
+}
+
+int pctx_node(pctx *p, const char *tok)
+{
+    int port;
+    int idx = scope_node(p, tok, &port);
+    if (port >= 0)
+        p->sc->port_used[port] = 1;
     return idx;
 }
 
@@ -747,17 +880,26 @@ const char *pctx_scoped_name(pctx *p, const char *tok)
 
 typedef struct model_ctx {
     model *m;
+    const char *text[MODEL_MAX_PARAMS]; /* each parameter's value as written on the card */
 } model_ctx;
 
 static int set_model_param(parser *ps, const logline *ll, void *vctx, const char *name,
                            const char *text)
 {
-    model *m = ((model_ctx *)vctx)->m;
+    model_ctx *mc = vctx;
+    model *m = mc->m;
     int idx = model_param_index(m->type, name);
     if (idx < 0)
         return line_error(ps, ll, "model '%s': unknown parameter '%s' for a %s model", m->name,
                           name, m->type == MODEL_D ? "diode" : "BJT"),
                -1;
+    /* one card, one value per parameter: a second one (often on a continuation line) is a
+     * mistake either way it is read */
+    if (mc->text[idx])
+        return line_error(ps, ll, "model '%s': parameter %s given twice (%s=%.40s, then %s=%.40s)",
+                          m->name, name, name, mc->text[idx], name, text),
+               -1;
+    mc->text[idx] = text;
     double v;
     char what[64];
     snprintf(what, sizeof what, "parameter %s", name);
@@ -808,6 +950,10 @@ static int define_model(parser *ps, const logline *ll)
     if (ll->n_tok < 3)
         return line_error(ps, ll, ".model needs a name and a type (npn, pnp or d)"), -1;
     const char *name = ll->tok[1];
+    if (!name_start_ok(name))
+        return line_error(ps, ll, ".model '%.40s': not a valid model name: %s", name,
+                          NAME_START_RULE),
+               -1;
     char type_tok[64];
     snprintf(type_tok, sizeof type_tok, "%s", ll->tok[2]);
     char *paren = strchr(type_tok, '(');
@@ -862,7 +1008,9 @@ static int define_model(parser *ps, const logline *ll)
     }
     if (tokenize(ps, &sub, s) != SS_OK)
         return -1;
-    model_ctx mc = {m};
+    model_ctx mc;
+    memset(&mc, 0, sizeof mc);
+    mc.m = m;
     if (parse_assignments(ps, &sub, 0, set_model_param, &mc) != 0)
         return -1;
     if (check_model(ps, ll, m) != 0)
@@ -893,42 +1041,70 @@ static int collect_subckt_header(parser *ps, const logline *ll, subckt_def *sd)
     sd->name = ll->tok[1];
     sd->file = ll->file;
     sd->line = ll->line;
+    if (!name_start_ok(sd->name))
+        return line_error(ps, ll, ".subckt '%.40s': not a valid subcircuit name: %s", sd->name,
+                          NAME_START_RULE),
+               -1;
     int i = 2;
     int first_param = ll->n_tok;
     for (int j = 2; j < ll->n_tok; j++) {
-        if (strcmp(ll->tok[j], "params:") == 0 ||
-            (j + 1 < ll->n_tok && strcmp(ll->tok[j + 1], "=") == 0)) {
+        if (j + 1 < ll->n_tok && strcmp(ll->tok[j + 1], "=") == 0) {
             first_param = j;
             break;
         }
     }
     sd->n_ports = first_param - i;
     sd->ports = (const char **)(ll->tok + i);
-    for (int j = 0; j < sd->n_ports; j++)
-        if (is_ground_name(sd->ports[j]))
+    for (int j = 0; j < sd->n_ports; j++) {
+        const char *port = sd->ports[j];
+        if (is_ground_name(port))
             return line_error(ps, ll, ".subckt %s: ground cannot be a port", sd->name), -1;
-    int pstart = first_param;
-    if (pstart < ll->n_tok && strcmp(ll->tok[pstart], "params:") == 0)
-        pstart++;
+        if (port[strlen(port) - 1] == ':')
+            return line_error(ps, ll,
+                              ".subckt %s: port '%.40s' ends in ':'; parameter defaults are "
+                              "written name=value after the ports",
+                              sd->name, port),
+                   -1;
+        if (!valid_node_name(port) || !name_start_ok(port))
+            return line_error(ps, ll, ".subckt %s: '%.40s' is not a valid port name: %s",
+                              sd->name, port, NODE_NAME_RULE),
+                   -1;
+        /* a port listed twice would be two names for one node of the instance */
+        for (int k = 0; k < j; k++)
+            if (strcmp(sd->ports[k], port) == 0)
+                return line_error(ps, ll, ".subckt %s: port '%s' is listed twice", sd->name,
+                                  port),
+                       -1;
+    }
     /* defaults: name = text pairs (texts evaluated per instance) */
     int cap = ll->n_tok;
     sd->pnames = arena_alloc(&ps->ckt->arena, (size_t)cap * sizeof *sd->pnames);
     sd->ptexts = arena_alloc(&ps->ckt->arena, (size_t)cap * sizeof *sd->ptexts);
     if (!sd->pnames || !sd->ptexts)
         return nomem(ps), -1;
-    int k = pstart;
+    int k = first_param;
     while (k < ll->n_tok) {
         if (k + 2 >= ll->n_tok || strcmp(ll->tok[k + 1], "=") != 0)
             return line_error(ps, ll, ".subckt %s: expected name=default, got '%s'", sd->name,
                               ll->tok[k]),
                    -1;
+        const char *pname = ll->tok[k];
+        if (!param_name_ok(pname))
+            return line_error(ps, ll, ".subckt %s: '%.40s' is not a valid parameter name: %s",
+                              sd->name, pname, PARAM_NAME_RULE),
+                   -1;
+        for (int q = 0; q < sd->n_params; q++)
+            if (strcmp(sd->pnames[q], pname) == 0)
+                return line_error(ps, ll, ".subckt %s: parameter '%s' given twice", sd->name,
+                                  pname),
+                       -1;
         int j = k + 2;
         while (j < ll->n_tok && !(j + 1 < ll->n_tok && strcmp(ll->tok[j + 1], "=") == 0))
             j++;
         const char *text = (j == k + 3) ? ll->tok[k + 2] : join_tokens(ps, ll, k + 2, j);
         if (!text)
             return nomem(ps), -1;
-        sd->pnames[sd->n_params] = ll->tok[k];
+        sd->pnames[sd->n_params] = pname;
         sd->ptexts[sd->n_params] = text;
         sd->n_params++;
         k = j;
@@ -938,7 +1114,7 @@ static int collect_subckt_header(parser *ps, const logline *ll, subckt_def *sd)
 
 static ss_status pass1(parser *ps)
 {
-    int depth = 0;
+    int depth = 0, n_model_lines = 0;
     int open_idx[NETLIST_MAX_SUBCKT_DEPTH] = {0};
     for (int i = 0; i < ps->n_lines; i++) {
         logline *ll = &ps->lines[i];
@@ -986,8 +1162,7 @@ static ss_status pass1(parser *ps)
             continue;
         }
         if (is_directive(ll, ".model")) {
-            if (define_model(ps, ll) != 0)
-                return ps->err->code;
+            n_model_lines++; /* defined below, once every global parameter is known */
             continue;
         }
         if (depth == 0 && is_directive(ll, ".param")) {
@@ -1001,6 +1176,15 @@ static ss_status pass1(parser *ps)
         subckt_def *sd = &ps->subckts[open_idx[depth - 1]];
         return err_set(ps->err, SS_ERR_INPUT, sd->file, sd->line,
                        ".subckt %s has no matching .ends", sd->name);
+    }
+    /* model cards see every global parameter, wherever its .param line stands (parameters
+     * are order-free) */
+    for (int i = 0; i < ps->n_lines && n_model_lines > 0; i++) {
+        if (is_directive(&ps->lines[i], ".model")) {
+            n_model_lines--;
+            if (define_model(ps, &ps->lines[i]) != 0)
+                return ps->err->code;
+        }
     }
     return SS_OK;
 }
@@ -1110,22 +1294,161 @@ static int add_local_param(parser *ps, const logline *ll, void *vctx, const char
     return 0;
 }
 
+/* The subcircuit an X line names (the token before its first name=value), -1 when unknown;
+ * *first_assign gets that first name=value's token index (n_tok when none). */
+static int x_line_subckt(const parser *ps, const logline *ll, int *first_assign)
+{
+    *first_assign = ll->n_tok;
+    for (int j = 1; j < ll->n_tok; j++)
+        if (j + 1 < ll->n_tok && strcmp(ll->tok[j + 1], "=") == 0) {
+            *first_assign = j;
+            break;
+        }
+    int idx;
+    if (*first_assign < 2 || !strmap_get(&ps->subckt_map, ll->tok[*first_assign - 1], &idx))
+        return -1;
+    return idx;
+}
+
+/* What one instance of subcircuit idx expands to, at nesting depth `depth` (1 for an
+ * instance at the top level), counted from the bodies before anything is built (as doubles:
+ * ten levels of ten instances is 1e10): elements into *n_elem, instances into *n_inst. Each
+ * subcircuit is counted once. An X line nested deeper than the limit is reported here, at the
+ * line where the expansion would have stopped (the recursion follows the lines in the same
+ * order), so that a deep or self-instantiating subcircuit is not half built first. 0 ok, -1
+ * with the error set. */
+static int subckt_expansion(parser *ps, int idx, int depth, double *n_elem, double *n_inst)
+{
+    subckt_def *sd = &ps->subckts[idx];
+    if (!sd->counted || depth + sd->height > NETLIST_MAX_SUBCKT_DEPTH) {
+        double ne = 0.0, ni = 0.0;
+        int height = 0;
+        for (int i = sd->body_first; i < sd->body_end; i++) {
+            const logline *bl = &ps->lines[i];
+            char c = bl->tok[0][0];
+            if (c == '.')
+                continue;
+            if (c != 'x') {
+                ne += 1.0;
+                continue;
+            }
+            int first_assign;
+            int sub = x_line_subckt(ps, bl, &first_assign);
+            if (sub < 0)
+                continue; /* reported when the line is built */
+            if (depth + 1 > NETLIST_MAX_SUBCKT_DEPTH)
+                return err_set(ps->err, SS_ERR_LIMIT, bl->file, bl->line,
+                               "%s: subcircuits nested deeper than %d (is '%s' instantiating "
+                               "itself?)",
+                               bl->tok[0], NETLIST_MAX_SUBCKT_DEPTH, ps->subckts[sub].name),
+                       -1;
+            double se, si;
+            if (subckt_expansion(ps, sub, depth + 1, &se, &si) != 0)
+                return -1;
+            ne += se;
+            ni += 1.0 + si;
+            if (ps->subckts[sub].height + 1 > height)
+                height = ps->subckts[sub].height + 1;
+        }
+        sd->n_elem = ne;
+        sd->n_inst = ni;
+        sd->height = height;
+        sd->counted = 1;
+    }
+    *n_elem = sd->n_elem;
+    *n_inst = sd->n_inst;
+    return 0;
+}
+
+static int note_unused_port(parser *ps, const logline *ll, const scope *inner,
+                            const subckt_def *sd, int port)
+{
+    if (ps->n_notes == ps->cap_notes) {
+        int ncap = ps->cap_notes ? ps->cap_notes * 2 : 16;
+        port_note *nn = ss_realloc(ps->notes, (size_t)ncap * sizeof *nn);
+        if (!nn)
+            return nomem(ps), -1;
+        ps->notes = nn;
+        ps->cap_notes = ncap;
+    }
+    port_note *pn = &ps->notes[ps->n_notes++];
+    pn->node = inner->port_nodes[port];
+    pn->at = ll;
+    pn->prefix = inner->prefix;
+    pn->subckt = sd->name;
+    pn->port = sd->ports[port];
+    return 0;
+}
+
+/* Builds the body of one instance (expand_instance has checked the line and laid out inner's
+ * arrays): the port nodes, the parameters, the local .param lines, the body's lines; then
+ * which of the caller's ports are used through it, and the ports it leaves unconnected. */
+static ss_status build_instance(parser *ps, const logline *ll, const scope *sc,
+                                const subckt_def *sd, scope *inner, inst_ctx *ic,
+                                int first_assign, int *port_nodes, int *outer_port,
+                                unsigned char *made)
+{
+    const char *xname = ll->tok[0];
+    int n_nodes = inner->n_ports;
+    pctx p = {ps, ll, sc, xname};
+    for (int i = 0; i < n_nodes; i++) {
+        int n_before = ps->ckt->n_nodes;
+        port_nodes[i] = scope_node(&p, ll->tok[1 + i], &outer_port[i]);
+        if (port_nodes[i] < 0)
+            return ps->err->code;
+        made[i] = port_nodes[i] >= n_before;
+    }
+    /* parameters: instance values (evaluated in the caller's scope), else the defaults */
+    if (parse_assignments(ps, ll, first_assign, collect_inst_param, ic) != 0)
+        return ps->err->code;
+    for (int i = 0; i < sd->n_params; i++) {
+        const char *text = sd->ptexts[i];
+        const scope *eval_scope = NULL; /* defaults: globals only */
+        for (int j = 0; j < ic->n; j++)
+            if (strcmp(ic->names[j], sd->pnames[i]) == 0) {
+                text = ic->texts[j];
+                eval_scope = sc;
+            }
+        char msg[512];
+        double v;
+        if (eval_text(ps, eval_scope, text, &v, msg, sizeof msg) != 0)
+            return line_error(ps, ll, "%s: parameter %s: %s", xname, sd->pnames[i], msg);
+        inner->pnames[inner->n_params] = sd->pnames[i];
+        inner->pvals[inner->n_params] = v;
+        inner->n_params++;
+    }
+    /* local .param lines in the body, in order, each seeing the ones before it */
+    local_param_ctx lp = {inner, 64, xname, sd->name};
+    for (int i = sd->body_first; i < sd->body_end; i++) {
+        const logline *bl = &ps->lines[i];
+        if (is_directive(bl, ".param") && parse_assignments(ps, bl, 1, add_local_param, &lp) != 0)
+            return ps->err->code;
+    }
+    ss_status st = build_lines(ps, inner, sd->body_first, sd->body_end);
+    if (st != SS_OK)
+        return st;
+    for (int i = 0; i < n_nodes; i++) {
+        if (inner->port_used[i]) {
+            if (outer_port[i] >= 0) /* the caller's port is connected through this instance */
+                sc->port_used[outer_port[i]] = 1;
+        } else if (made[i] && port_nodes[i] > 0 && note_unused_port(ps, ll, inner, sd, i) != 0) {
+            return ps->err->code;
+        }
+    }
+    return SS_OK;
+}
+
 static ss_status expand_instance(parser *ps, const logline *ll, const scope *sc)
 {
     /* Xname node... subckt [name=value ...] */
     const char *xname = ll->tok[0];
-    int first_assign = ll->n_tok;
-    for (int j = 1; j < ll->n_tok; j++)
-        if (j + 1 < ll->n_tok && strcmp(ll->tok[j + 1], "=") == 0) {
-            first_assign = j;
-            break;
-        }
+    int first_assign;
+    int idx = x_line_subckt(ps, ll, &first_assign);
     if (first_assign < 2)
         return line_error(ps, ll, "%s: needs nodes and a subcircuit name", xname);
-    const char *sub = ll->tok[first_assign - 1];
-    int idx;
-    if (!strmap_get(&ps->subckt_map, sub, &idx))
-        return line_error(ps, ll, "%s: unknown subcircuit '%s'", xname, sub);
+    if (idx < 0)
+        return line_error(ps, ll, "%s: unknown subcircuit '%s'", xname,
+                          ll->tok[first_assign - 1]);
     const subckt_def *sd = &ps->subckts[idx];
     int n_nodes = first_assign - 2;
     if (n_nodes != sd->n_ports)
@@ -1135,7 +1458,22 @@ static ss_status expand_instance(parser *ps, const logline *ll, const scope *sc)
         return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
                        "%s: subcircuits nested deeper than %d (is '%s' instantiating itself?)",
                        xname, NETLIST_MAX_SUBCKT_DEPTH, sd->name);
-    ss_arena *ar = &ps->ckt->arena;
+    if (sc->depth == 0) {
+        /* refuse an expansion past the element limit here, before building any of it */
+        double n_elem, n_inst;
+        if (subckt_expansion(ps, idx, 1, &n_elem, &n_inst) != 0)
+            return ps->err->code;
+        if ((double)ps->ckt->n_elem + n_elem > NETLIST_MAX_ELEMENTS)
+            return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                           "%s: subcircuit '%s' expands to %.3g elements: the circuit would "
+                           "have more than %d elements",
+                           xname, sd->name, n_elem, NETLIST_MAX_ELEMENTS);
+        if ((double)ps->n_instances + 1.0 + n_inst > NETLIST_MAX_ELEMENTS)
+            return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                           "%s: subcircuit '%s' expands to %.3g subcircuit instances: the "
+                           "circuit would have more than %d",
+                           xname, sd->name, n_inst, NETLIST_MAX_ELEMENTS);
+    }
     scope inner;
     memset(&inner, 0, sizeof inner);
     inner.parent = NULL; /* subcircuit bodies see their own parameters, then the globals */
@@ -1143,54 +1481,50 @@ static ss_status expand_instance(parser *ps, const logline *ll, const scope *sc)
     char prefix[SCOPED_NAME_BYTES];
     if (scoped_name(ps, ll, xname, prefix, sc->prefix, xname, ".") != 0)
         return SS_ERR_LIMIT;
-    inner.prefix = arena_strdup(ar, prefix);
-    int *port_nodes = arena_alloc(ar, (size_t)(n_nodes ? n_nodes : 1) * sizeof(int));
-    if (!inner.prefix || !port_nodes)
+    inner.prefix = arena_strdup(&ps->ckt->arena, prefix); /* kept: inst_map's key */
+    inner.prefix_len = (int)strlen(prefix);
+    if (!inner.prefix)
         return nomem(ps);
-    pctx p = {ps, ll, sc, xname};
-    for (int i = 0; i < n_nodes; i++) {
-        port_nodes[i] = pctx_node(&p, ll->tok[1 + i]);
-        if (port_nodes[i] < 0)
-            return ps->err->code;
-    }
+    /* one instance per full name: two X lines named alike would share their nodes */
+    int first;
+    if (strmap_get(&ps->inst_map, inner.prefix, &first))
+        return line_error(ps, ll, "%.*s: instance name used twice (first at %s:%d)",
+                          inner.prefix_len - 1, inner.prefix, ps->lines[first].file,
+                          ps->lines[first].line);
+    if (strmap_put(&ps->inst_map, inner.prefix, (int)(ll - ps->lines)) != 0)
+        return nomem(ps);
+    ps->n_instances++;
+    /* what only the expansion needs, in one block freed after it (not in the circuit's arena:
+     * a million instances would keep a GB): the parameters' values and names, the instance's
+     * name=value pairs, per port its node, the caller's port it connects to (-1: none),
+     * whether this line made the node and whether the body uses it */
+    size_t n_par = (size_t)sd->n_params + 1, n_local = n_par + 64, n_port = (size_t)n_nodes;
+    size_t bytes = n_local * (sizeof(double) + sizeof(char *)) + 2 * n_par * sizeof(char *) +
+                   n_port * (2 * sizeof(int) + 2);
+    char *block = ss_alloc(bytes);
+    if (!block)
+        return nomem(ps);
+    char *w = block;
+    inner.pvals = (double *)(void *)w;
+    w += n_local * sizeof(double);
+    inner.pnames = (const char **)(void *)w;
+    w += n_local * sizeof(char *);
+    inst_ctx ic = {sd, (const char **)(void *)w, NULL, 0};
+    w += n_par * sizeof(char *);
+    ic.texts = (const char **)(void *)w;
+    w += n_par * sizeof(char *);
+    int *port_nodes = (int *)(void *)w;
+    int *outer_port = port_nodes + n_port;
+    w += 2 * n_port * sizeof(int);
+    unsigned char *made = (unsigned char *)w;
+    inner.port_used = made + n_port;
     inner.port_names = sd->ports;
     inner.port_nodes = port_nodes;
     inner.n_ports = n_nodes;
-
-    /* parameters: instance values (evaluated in the caller's scope), else the defaults */
-    int cap = sd->n_params + 1;
-    inst_ctx ic = {sd, arena_alloc(ar, (size_t)cap * sizeof(char *)),
-                   arena_alloc(ar, (size_t)cap * sizeof(char *)), 0};
-    inner.pnames = arena_alloc(ar, (size_t)(cap + 64) * sizeof(char *));
-    inner.pvals = arena_alloc(ar, (size_t)(cap + 64) * sizeof(double));
-    if (!ic.names || !ic.texts || !inner.pnames || !inner.pvals)
-        return nomem(ps);
-    if (parse_assignments(ps, ll, first_assign, collect_inst_param, &ic) != 0)
-        return ps->err->code;
-    for (int i = 0; i < sd->n_params; i++) {
-        const char *text = sd->ptexts[i];
-        const scope *eval_scope = NULL; /* defaults: globals only */
-        for (int j = 0; j < ic.n; j++)
-            if (strcmp(ic.names[j], sd->pnames[i]) == 0) {
-                text = ic.texts[j];
-                eval_scope = sc;
-            }
-        char msg[512];
-        double v;
-        if (eval_text(ps, eval_scope, text, &v, msg, sizeof msg) != 0)
-            return line_error(ps, ll, "%s: parameter %s: %s", xname, sd->pnames[i], msg);
-        inner.pnames[inner.n_params] = sd->pnames[i];
-        inner.pvals[inner.n_params] = v;
-        inner.n_params++;
-    }
-    /* local .param lines in the body, in order, each seeing the ones before it */
-    local_param_ctx lp = {&inner, 64, xname, sd->name};
-    for (int i = sd->body_first; i < sd->body_end; i++) {
-        const logline *bl = &ps->lines[i];
-        if (is_directive(bl, ".param") && parse_assignments(ps, bl, 1, add_local_param, &lp) != 0)
-            return ps->err->code;
-    }
-    return build_lines(ps, &inner, sd->body_first, sd->body_end);
+    ss_status st =
+        build_instance(ps, ll, sc, sd, &inner, &ic, first_assign, port_nodes, outer_port, made);
+    ss_free(block);
+    return st;
 }
 
 /* `.options lint_off=NAME[,NAME...]`: the lint checks (analysis/lint.c) to silence. */
@@ -1226,6 +1560,16 @@ static int set_option(parser *ps, const logline *ll, void *vctx, const char *nam
 {
     (void)vctx;
     double v;
+    /* each option once, on one line or across several */
+    for (int k = 0; k < ps->n_opt; k++)
+        if (strcmp(ps->opt_name[k], name) == 0)
+            return line_error(ps, ll, ".options: %s given twice (first at %s:%d)", name,
+                              ps->opt_at[k]->file, ps->opt_at[k]->line),
+                   -1;
+    if (ps->n_opt < (int)(sizeof ps->opt_name / sizeof ps->opt_name[0])) {
+        ps->opt_name[ps->n_opt] = name;
+        ps->opt_at[ps->n_opt++] = ll;
+    }
     if (strcmp(name, "tran_method") == 0) { /* transient integration: docs/transient.md */
         if (strcmp(text, "trap") == 0)
             ps->ckt->tran_method = 0;
@@ -1275,7 +1619,9 @@ static int set_stage(parser *ps, const logline *ll, void *vctx, const char *name
 {
     (void)vctx;
     ss_circuit *ckt = ps->ckt;
-    if ((strcmp(name, "in") == 0 && ckt->stage_in) || (strcmp(name, "out") == 0 && ckt->stage_out))
+    if ((strcmp(name, "in") == 0 && ckt->stage_in) ||
+        (strcmp(name, "out") == 0 && ckt->stage_out) ||
+        (strcmp(name, "load") == 0 && ckt->stage_load_ohm > 0.0))
         return line_error(ps, ll, ".stage: '%s' given twice", name), -1;
     if (strcmp(name, "in") == 0)
         ckt->stage_in = text;
@@ -1309,6 +1655,9 @@ static int set_large_signal(parser *ps, const logline *ll, void *vctx, const cha
                           ".large_signal: unknown field '%s' (known: freq, amp, thd_target_pct)",
                           name),
                -1;
+    if ((is_freq && ckt->ls_freq_hz > 0.0) || (is_amp && ckt->ls_amp > 0.0) ||
+        (is_thd && ckt->ls_thd_target_pct > 0.0))
+        return line_error(ps, ll, ".large_signal: '%s' given twice", name), -1;
     if (line_value(ps, ll, NULL, text, ".large_signal", name, &v) != 0)
         return -1;
     if (is_thd ? !(v > 0.0 && v < 100.0) : !(v > 0.0 && isfinite(v)))
@@ -1330,8 +1679,18 @@ static int set_noise(parser *ps, const logline *ll, void *vctx, const char *name
     (void)vctx;
     if (strcmp(name, "rs") != 0)
         return line_error(ps, ll, ".noise: unknown field '%s' (known: rs)", name), -1;
+    if (ps->ckt->noise_rs)
+        return line_error(ps, ll, ".noise: 'rs' given twice"), -1;
     ps->ckt->noise_rs = text;
     return 0;
+}
+
+/* An analysis directive given a second time: which one counts would be a guess. */
+static ss_status once_error(parser *ps, const logline *ll, const char *first_file,
+                            int first_line)
+{
+    return line_error(ps, ll, "%s given twice (first at %s:%d)", ll->tok[0], first_file,
+                      first_line);
 }
 
 static ss_status directive(parser *ps, const logline *ll, const scope *sc)
@@ -1350,6 +1709,9 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
     if (strcmp(d, ".end") == 0)
         return SS_OK;
     if (strcmp(d, ".temp") == 0) {
+        if (ps->first_temp)
+            return once_error(ps, ll, ps->first_temp->file, ps->first_temp->line);
+        ps->first_temp = ll;
         if (ll->n_tok != 2)
             return line_error(ps, ll, ".temp takes one temperature in degrees Celsius");
         double t;
@@ -1371,6 +1733,8 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
         return parse_assignments(ps, ll, 1, set_stage, NULL) == 0 ? SS_OK : ps->err->code;
     }
     if (strcmp(d, ".dc") == 0) {
+        if (ckt->n_dc > 0)
+            return once_error(ps, ll, ckt->dc[0].file, ckt->dc[0].line);
         int n = ll->n_tok - 1;
         if (n != 4 && n != 8)
             return line_error(ps, ll, ".dc expects SRC start stop step [SRC2 start2 stop2 step2]");
@@ -1394,6 +1758,9 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
         return SS_OK;
     }
     if (strcmp(d, ".ac") == 0) {
+        if (ps->first_ac)
+            return once_error(ps, ll, ps->first_ac->file, ps->first_ac->line);
+        ps->first_ac = ll;
         if (ll->n_tok != 5)
             return line_error(ps, ll, ".ac expects dec|oct|lin N fstart fstop");
         const char *t = ll->tok[1];
@@ -1454,6 +1821,8 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
     }
     if (strcmp(d, ".tran") == 0) {
         /* .tran TSTEP TSTOP [TSTART]: rows of tran.csv at TSTART + k TSTEP (analysis/tran.c) */
+        if (ckt->want_tran)
+            return once_error(ps, ll, ckt->tran_file, ckt->tran_line);
         if (ll->n_tok != 3 && ll->n_tok != 4)
             return line_error(ps, ll, ".tran expects TSTEP TSTOP [TSTART]");
         double step, stop, start = 0.0;
@@ -1483,11 +1852,17 @@ static ss_status directive(parser *ps, const logline *ll, const scope *sc)
         return SS_OK;
     }
     if (strcmp(d, ".large_signal") == 0) {
+        if (ps->first_large_signal)
+            return once_error(ps, ll, ps->first_large_signal->file,
+                              ps->first_large_signal->line);
+        ps->first_large_signal = ll;
         ckt->want_large_signal = 1;
         return parse_assignments(ps, ll, 1, set_large_signal, NULL) == 0 ? SS_OK : ps->err->code;
     }
     if (strcmp(d, ".noise") == 0) {
         /* .noise v(OUT) SRC [rs=RNAME]: names checked after parsing (check_noise) */
+        if (ckt->want_noise)
+            return once_error(ps, ll, ckt->noise_file, ckt->noise_line);
         if (ll->n_tok < 3)
             return line_error(ps, ll, ".noise expects v(OUT) SRC [rs=RESISTOR]");
         const char *o = ll->tok[1];
@@ -1626,6 +2001,51 @@ static ss_status check_noise(parser *ps)
     return SS_OK;
 }
 
+/* The sources' time-varying forms stay finite up to the .tran stop time. */
+static ss_status check_waves(parser *ps)
+{
+    ss_circuit *ckt = ps->ckt;
+    if (!ckt->want_tran)
+        return SS_OK;
+    for (int i = 0; i < ckt->n_elem; i++) {
+        const element *e = &ckt->elem[i];
+        char why[200];
+        if (elem_is_source(e) && e->wave &&
+            wave_check_until(e->wave, ckt->tran_stop_s, why, sizeof why) != 0)
+            return err_set(ps->err, SS_ERR_INPUT, e->file, e->line, "%s: %s (.tran at %s:%d)",
+                           e->name, why, ckt->tran_file, ckt->tran_line);
+    }
+    return SS_OK;
+}
+
+/* A node that an X line brought in through a port its subcircuit leaves unconnected, and that
+ * no element connects to either: it has no DC path to ground and no element to name, so the X
+ * line is named. */
+static ss_status check_unused_ports(parser *ps)
+{
+    if (ps->n_notes == 0)
+        return SS_OK;
+    ss_circuit *ckt = ps->ckt;
+    unsigned char *touched = ss_alloc((size_t)ckt->n_nodes);
+    if (!touched)
+        return nomem(ps);
+    for (int i = 0; i < ckt->n_elem; i++)
+        for (int k = 0; k < ckt->elem[i].n_node; k++)
+            touched[ckt->elem[i].node[k]] = 1;
+    ss_status st = SS_OK;
+    for (int k = 0; k < ps->n_notes && st == SS_OK; k++) {
+        const port_note *pn = &ps->notes[k];
+        if (!touched[pn->node])
+            st = err_set(ps->err, SS_ERR_INPUT, pn->at->file, pn->at->line,
+                         "%.*s: node '%s' connects to nothing: its port '%s' of subcircuit '%s' "
+                         "is used by no element inside, so the node has no DC path to ground",
+                         (int)strlen(pn->prefix) - 1, pn->prefix, ckt->node_name[pn->node],
+                         pn->port, pn->subckt);
+    }
+    ss_free(touched);
+    return st;
+}
+
 static ss_status apply_late_overrides(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
@@ -1715,6 +2135,9 @@ static void parser_clear(parser *ps)
     ss_free(ps->subckts);
     strmap_clear(&ps->subckt_map);
     ss_free(ps->override_used);
+    ss_free(ps->node_plen);
+    strmap_clear(&ps->inst_map);
+    ss_free(ps->notes);
     arena_clear(&ps->scratch);
 }
 
@@ -1768,7 +2191,7 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
     ps.overrides = overrides;
     ps.n_overrides = n_overrides;
     ss_status st = SS_OK;
-    if (!ckt->file || circuit_add_node(ckt, "0", 0) != 0)
+    if (!ckt->file || circuit_add_node(ckt, "0", 0) != 0 || note_node_prefix(&ps, 0, 0) != 0)
         st = nomem(&ps);
     if (st == SS_OK && n_overrides > 0) {
         ps.override_used = ss_alloc((size_t)n_overrides);
@@ -1782,7 +2205,13 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
             st = read_file(&ps, path, NULL, 1);
         } else {
             ps.inc_stack[ps.inc_depth++] = ckt->file;
-            st = read_text(&ps, text, text_len, ckt->file, 1);
+            if (text_len > NETLIST_MAX_TEXT_BYTES)
+                st = err_set(err, SS_ERR_LIMIT, ckt->file, 0, "the netlist is larger than %s",
+                             NETLIST_MAX_TEXT_TEXT);
+            else {
+                ps.text_bytes = text_len;
+                st = read_text(&ps, text, text_len, ckt->file, 1);
+            }
         }
     }
     if (st == SS_OK && !ckt->title)
@@ -1810,6 +2239,10 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
         top.prefix = "";
         st = build_lines(&ps, &top, 0, ps.n_lines);
     }
+    if (st == SS_OK)
+        st = check_unused_ports(&ps);
+    if (st == SS_OK)
+        st = check_waves(&ps);
     if (st == SS_OK) {
         /* evaluate every global parameter so an unused broken one is still reported */
         for (int i = 0; i < ps.n_params && st == SS_OK; i++) {
@@ -1837,6 +2270,8 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
         st = check_noise(&ps);
     if (st == SS_OK)
         st = apply_late_overrides(&ps);
+    if (st == SS_OK)
+        st = circuit_check_temp(ckt, ckt->temp_c, err);
     if (st == SS_OK && ckt->n_elem == 0)
         st = err_set(err, SS_ERR_INPUT, ckt->file, 0, "the netlist has no elements");
     if (st == SS_OK)

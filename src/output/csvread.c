@@ -8,6 +8,10 @@
 #include "output/output.h"
 #include "util/table.h"
 
+/* A shard's study.csv of a million points is a few hundred MB (docs/studies.md) */
+#define CSV_READ_MAX_BYTES ((size_t)1 << 30)
+#define CSV_READ_MAX_TEXT "1 GiB"
+
 /* Splits one CSV line into fields in place; returns the count (fields point into line). */
 static int csv_split(char *line, char **fields, int max)
 {
@@ -85,27 +89,46 @@ static int number_field(const char *f, double *out)
     return *end == '\0' && isfinite(*out) ? 0 : -1;
 }
 
+ss_status csv_read_bytes(const char *path, ss_strbuf *b, ss_error *err)
+{
+    int sys_errno;
+    int rc = strbuf_read_file(b, path, CSV_READ_MAX_BYTES, &sys_errno);
+    if (rc != SS_READ_OK || b->len == 0) {
+        strbuf_clear(b);
+        if (rc == SS_READ_NOMEM)
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        if (rc == SS_READ_TOO_LARGE)
+            return err_set(err, SS_ERR_LIMIT, path, 0, "larger than %s, the limit for a CSV "
+                           "table", CSV_READ_MAX_TEXT);
+        if (rc == SS_READ_OPEN || rc == SS_READ_NOT_REGULAR)
+            return err_set(err, SS_ERR_IO, path, 0, "cannot open: %s",
+                           strbuf_read_error_text(rc, sys_errno));
+        if (rc != SS_READ_OK)
+            return err_set(err, SS_ERR_IO, path, 0, "read error: %s",
+                           strbuf_read_error_text(rc, sys_errno));
+        return err_set(err, SS_ERR_INPUT, path, 0, "empty file");
+    }
+    return SS_OK;
+}
+
 ss_status ss_table_read_csv(const char *path, ss_table **out, ss_error *err)
 {
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return err_set(err, SS_ERR_IO, path, 0, "cannot open");
     ss_strbuf b = {0};
-    if (strbuf_read_file(&b, f) != 0) {
-        strbuf_clear(&b);
-        return err_set(err, SS_ERR_IO, path, 0, "read error");
-    }
-    if (b.failed || !b.data) {
-        strbuf_clear(&b);
-        return err_set(err, b.failed ? SS_ERR_NOMEM : SS_ERR_INPUT, path, 0,
-                       b.failed ? "out of memory" : "empty file");
-    }
+    ss_status st = csv_read_bytes(path, &b, err);
+    if (st == SS_OK)
+        st = table_parse_csv(path, b.data, out, err);
+    strbuf_clear(&b);
+    return st;
+}
+
+ss_status table_parse_csv(const char *path, char *text, ss_table **out, ss_error *err)
+{
     enum { MAX_FIELDS = 100000 };
     char **fields = ss_alloc(MAX_FIELDS * sizeof *fields);
     ss_table *t = NULL;
     ss_status st = SS_OK;
     int line_no = 0, n_cols = 0;
-    char *p = b.data;
+    char *p = text;
     while (st == SS_OK && fields && *p) {
         char *nl = strchr(p, '\n');
         if (!nl) {
@@ -152,7 +175,6 @@ ss_status ss_table_read_csv(const char *path, ss_table **out, ss_error *err)
     if (!fields)
         st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     ss_free(fields);
-    strbuf_clear(&b);
     if (st == SS_OK && !t)
         st = err_set(err, SS_ERR_INPUT, path, 0, "empty file");
     if (st != SS_OK) {

@@ -68,6 +68,11 @@ SS_HIDDEN void csv_abort(csv_out *o);
 /* Writes a buffer with output_write_atomic (SS_ERR_NOMEM when the buffer's growth failed) and
  * clears it either way. */
 SS_HIDDEN ss_status output_write_strbuf(ss_strbuf *b, const char *path, ss_error *err);
+/* Reads a CSV file for ss_table_read_csv (a regular file, at most the CSV size limit, not
+ * empty) into b; then table_parse_csv makes the table of its text (changed in place; path names
+ * it in messages). csvread.c. */
+SS_HIDDEN ss_status csv_read_bytes(const char *path, ss_strbuf *b, ss_error *err);
+SS_HIDDEN ss_status table_parse_csv(const char *path, char *text, ss_table **out, ss_error *err);
 /* Appends text for XML element content or an attribute value: & < > " as entities, control
  * characters XML 1.0 does not allow as spaces, every byte that is not part of well-formed UTF-8
  * as U+FFFD, so any netlist name or title keeps the document well-formed (xml.c). */

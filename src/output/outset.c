@@ -19,6 +19,7 @@
 #define OUTSET_MANIFEST "run_manifest.csv"
 #define OUTSET_LOCK ".stagesim.lock"
 #define OUTSET_FILE_KEY "file_sha256("
+#define OUTSET_MANIFEST_MAX_BYTES (16 << 20) /* a manifest is a few hundred bytes per file */
 
 typedef struct outset_file {
     char *path;   /* as the caller gave it */
@@ -404,15 +405,19 @@ bad:
 ss_status manifest_read(const char *path, kv_pair **out, int *n_out, const char *who, ss_error *err)
 {
     ss_strbuf b = {0};
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return err_set(err, SS_ERR_IO, who ? who : path, 0, "cannot open the manifest '%s': %s",
-                       path, strerror(errno));
-    if (strbuf_read_file(&b, f) != 0 || b.failed) {
-        ss_status st = b.failed ? nomem(err)
-                                : err_set(err, SS_ERR_IO, path, 0, "read error");
+    int sys_errno = 0;
+    int rc = strbuf_read_file(&b, path, OUTSET_MANIFEST_MAX_BYTES, &sys_errno);
+    if (rc != SS_READ_OK) {
         strbuf_clear(&b);
-        return st;
+        if (rc == SS_READ_NOMEM)
+            return nomem(err);
+        if (rc == SS_READ_TOO_LARGE)
+            return err_set(err, SS_ERR_INPUT, who ? who : path, 0,
+                           "the manifest '%s' is larger than %d MiB: not a stagesim manifest",
+                           path, OUTSET_MANIFEST_MAX_BYTES >> 20);
+        return err_set(err, rc == SS_READ_OPEN ? SS_ERR_IO : SS_ERR_INPUT, who ? who : path, 0,
+                       "cannot read the manifest '%s': %s", path,
+                       strbuf_read_error_text(rc, sys_errno));
     }
     kv_pair *kv = NULL;
     int n = 0, cap = 0, line = 0;

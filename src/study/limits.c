@@ -10,6 +10,10 @@
 #include "study/study.h"
 #include "util/sha256.h"
 
+/* A limits file holds a line per figure: far below this (docs/checks.md) */
+#define LIMITS_MAX_FILE_BYTES ((size_t)64 << 20)
+#define LIMITS_MAX_FILE_TEXT "64 MiB"
+
 static const char *const POINT_QUANTITIES[] = {"gain", "gain_db", "phase_deg", "zin_ohm",
                                                "zout_ohm"};
 
@@ -226,18 +230,22 @@ ss_status ss_limits_add_text(ss_limits *l, const char *text, const char *name, s
 
 ss_status ss_limits_add_file(ss_limits *l, const char *path, ss_error *err)
 {
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return err_set(err, SS_ERR_IO, path, 0, "cannot open limits file");
     ss_strbuf b = {0};
-    if (strbuf_read_file(&b, f) != 0) {
+    int sys_errno;
+    int rc = strbuf_read_file(&b, path, LIMITS_MAX_FILE_BYTES, &sys_errno);
+    if (rc != SS_READ_OK)
         strbuf_clear(&b);
-        return err_set(err, SS_ERR_IO, path, 0, "read error");
-    }
-    if (b.failed) {
-        strbuf_clear(&b);
+    if (rc == SS_READ_NOMEM)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
+    if (rc == SS_READ_TOO_LARGE)
+        return err_set(err, SS_ERR_LIMIT, path, 0, "limits file larger than %s",
+                       LIMITS_MAX_FILE_TEXT);
+    if (rc == SS_READ_OPEN || rc == SS_READ_NOT_REGULAR)
+        return err_set(err, SS_ERR_IO, path, 0, "cannot open limits file: %s",
+                       strbuf_read_error_text(rc, sys_errno));
+    if (rc != SS_READ_OK)
+        return err_set(err, SS_ERR_IO, path, 0, "read error: %s",
+                       strbuf_read_error_text(rc, sys_errno));
     if (b.data && memchr(b.data, '\0', b.len)) {
         strbuf_clear(&b);
         return err_set(err, SS_ERR_INPUT, path, 0, "not a text limits file (NUL byte)");

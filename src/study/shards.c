@@ -7,6 +7,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include "output/output.h"
 #include "study/study.h"
@@ -126,27 +127,6 @@ typedef struct shard_in {
     ss_table *t;
 } shard_in;
 
-static ss_status file_sha256(const char *path, char hex[65], ss_error *err)
-{
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return err_set(err, SS_ERR_IO, path, 0, "cannot open: %s", strerror(errno));
-    sha256_ctx c;
-    sha256_init(&c);
-    unsigned char buf[65536];
-    size_t got;
-    while ((got = fread(buf, 1, sizeof buf, f)) > 0)
-        sha256_update(&c, buf, got);
-    int bad = ferror(f);
-    fclose(f);
-    if (bad)
-        return err_set(err, SS_ERR_IO, path, 0, "read error");
-    unsigned char d[32];
-    sha256_final(&c, d);
-    sha256_hex(d, hex);
-    return SS_OK;
-}
-
 static int parse_long_exact(const char *t, long *out)
 {
     if (!t || !*t)
@@ -161,6 +141,25 @@ static int parse_long_exact(const char *t, long *out)
 }
 
 /* Reads the manifest beside a shard file and checks the file against it. */
+/* "K/N" with 1 <= K <= N, each a plain whole number. */
+static int parse_shard(const char *t, int *k, int *n)
+{
+    char buf[64];
+    const char *slash = t ? strchr(t, '/') : NULL;
+    long a, b;
+    if (!slash || (size_t)(slash - t) >= sizeof buf)
+        return -1;
+    memcpy(buf, t, (size_t)(slash - t));
+    buf[slash - t] = '\0';
+    if (parse_long_exact(buf, &a) != 0 || parse_long_exact(slash + 1, &b) != 0 || a < 1 ||
+        a > b || b > 100000000L)
+        return -1;
+    *k = (int)a;
+    *n = (int)b;
+    return 0;
+}
+
+/* Reads the manifest beside a shard file, checks the file against it and reads its table. */
 static ss_status shard_open(shard_in *sh, ss_error *err)
 {
     char man[PATH_MAX];
@@ -170,13 +169,11 @@ static ss_status shard_open(shard_in *sh, ss_error *err)
     if (snprintf(man, sizeof man, "%.*s%s%s", dir_len, sh->path, slash ? "/" : "",
                  MANIFEST_NAME) >= (int)sizeof man)
         return err_set(err, SS_ERR_LIMIT, sh->path, 0, "path too long");
-    FILE *probe = fopen(man, "rb");
-    if (!probe)
+    if (access(man, F_OK) != 0)
         return err_set(err, SS_ERR_INPUT, sh->path, 0,
                        "no %s beside it: merge takes the study.csv files that spread or sweep "
                        "wrote, each in its own folder with the manifest its run wrote",
                        MANIFEST_NAME);
-    fclose(probe);
     ss_status st = manifest_read(man, &sh->kv, &sh->n_kv, NULL, err);
     if (st != SS_OK)
         return st;
@@ -184,33 +181,36 @@ static ss_status shard_open(shard_in *sh, ss_error *err)
     if (!study || (strcmp(study, "spread") != 0 && strcmp(study, "sweep") != 0))
         return err_set(err, SS_ERR_INPUT, sh->path, 0,
                        "%s beside it is not that of a spread or sweep run", MANIFEST_NAME);
+    for (size_t i = 0; i < sizeof SHARED_KEYS / sizeof SHARED_KEYS[0]; i++)
+        if (!manifest_get(sh->kv, sh->n_kv, SHARED_KEYS[i]))
+            return err_set(err, SS_ERR_INPUT, man, 0, "no '%s' row", SHARED_KEYS[i]);
+    if (parse_shard(manifest_get(sh->kv, sh->n_kv, "shard"), &sh->k, &sh->n) != 0 ||
+        parse_long_exact(manifest_get(sh->kv, sh->n_kv, "first_point"), &sh->first) != 0 ||
+        parse_long_exact(manifest_get(sh->kv, sh->n_kv, "end_point"), &sh->end) != 0 ||
+        sh->end < sh->first)
+        return err_set(err, SS_ERR_INPUT, man, 0,
+                       "malformed shard rows (shard, first_point, end_point)");
     char key[PATH_MAX + 16];
     snprintf(key, sizeof key, "file_sha256(%s)", base);
     const char *want = manifest_get(sh->kv, sh->n_kv, key);
     if (!want)
         return err_set(err, SS_ERR_INPUT, sh->path, 0, "its run's %s does not list '%s'",
                        MANIFEST_NAME, base);
-    char have[65];
-    if ((st = file_sha256(sh->path, have, err)) != SS_OK)
+    /* read once: the bytes hashed are the bytes parsed */
+    ss_strbuf bytes = {0};
+    if ((st = csv_read_bytes(sh->path, &bytes, err)) != SS_OK)
         return st;
+    char have[65];
+    ss_sha256_hex(bytes.data, bytes.len, have);
     if (strcmp(have, want) != 0)
-        return err_set(err, SS_ERR_INPUT, sh->path, 0,
-                       "the file is not as its run wrote it (cut short, edited or replaced: "
-                       "SHA-256 %.12s..., the manifest has %.12s...)",
-                       have, want);
-    const char *shard = manifest_get(sh->kv, sh->n_kv, "shard");
-    char tail;
-    if (!shard || sscanf(shard, "%d/%d%c", &sh->k, &sh->n, &tail) != 2 || sh->n < 1 ||
-        sh->k < 1 || sh->k > sh->n ||
-        parse_long_exact(manifest_get(sh->kv, sh->n_kv, "first_point"), &sh->first) != 0 ||
-        parse_long_exact(manifest_get(sh->kv, sh->n_kv, "end_point"), &sh->end) != 0 ||
-        sh->end < sh->first)
-        return err_set(err, SS_ERR_INPUT, man, 0, "malformed shard rows (shard, first_point, "
-                                                  "end_point)");
-    for (size_t i = 0; i < sizeof SHARED_KEYS / sizeof SHARED_KEYS[0]; i++)
-        if (!manifest_get(sh->kv, sh->n_kv, SHARED_KEYS[i]))
-            return err_set(err, SS_ERR_INPUT, man, 0, "no '%s' row", SHARED_KEYS[i]);
-    return ss_table_read_csv(sh->path, &sh->t, err);
+        st = err_set(err, SS_ERR_INPUT, sh->path, 0,
+                     "the file is not as its run wrote it (cut short, edited or replaced: "
+                     "SHA-256 %.12s..., the manifest has %.12s...)",
+                     have, want);
+    if (st == SS_OK)
+        st = table_parse_csv(sh->path, bytes.data, &sh->t, err);
+    strbuf_clear(&bytes);
+    return st;
 }
 
 /* The first identity row in which two shards differ, for the message; NULL when none. */

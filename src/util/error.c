@@ -1,10 +1,13 @@
 /* Error recording (first error wins, so the netlist line where it was detected survives the
  * way up), error formatting, and the growable string buffer. */
-#define _POSIX_C_SOURCE 200809L /* fileno */
+#define _POSIX_C_SOURCE 200809L /* O_CLOEXEC */
+#include <errno.h>
+#include <fcntl.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 #include "util/util.h"
 
@@ -111,33 +114,101 @@ void strbuf_clear(ss_strbuf *b)
     memset(b, 0, sizeof *b);
 }
 
-int strbuf_read_file(ss_strbuf *b, FILE *f)
+/* Grows b so that `more` bytes and a NUL fit after its contents; 0 ok, -1 failed (b->failed). */
+static int strbuf_reserve(ss_strbuf *b, size_t more)
 {
-    /* a regular file's size is known: one allocation of the right size, not a doubling
-     * buffer copied at every step (a netlist of a million elements is tens of MiB) */
-    struct stat st;
-    if (fstat(fileno(f), &st) == 0 && S_ISREG(st.st_mode) && st.st_size > 0 &&
-        (uintmax_t)st.st_size < SIZE_MAX / 2 && b->cap < b->len + (size_t)st.st_size + 1) {
-        size_t want = b->len + (size_t)st.st_size + 1;
-        char *nd = ss_realloc(b->data, want);
-        if (!nd) {
-            b->failed = 1;
-            fclose(f);
-            return 0;
-        }
-        b->data = nd;
-        b->cap = want;
-        size_t got = fread(b->data + b->len, 1, b->cap - b->len - 1, f);
-        b->len += got;
-        b->data[b->len] = '\0';
+    if (b->len + more + 1 <= b->cap)
+        return 0;
+    char *nd = ss_realloc(b->data, b->len + more + 1);
+    if (!nd) {
+        b->failed = 1;
+        return -1;
     }
-    char chunk[65536]; /* a pipe, or what a growing file added since */
-    size_t got;
-    while ((got = fread(chunk, 1, sizeof chunk, f)) > 0)
-        strbuf_append(b, chunk, got);
-    int bad = ferror(f);
-    fclose(f);
-    return bad ? -1 : 0;
+    b->data = nd;
+    b->cap = b->len + more + 1;
+    return 0;
+}
+
+int strbuf_read_file(ss_strbuf *b, const char *path, size_t max_bytes, int *sys_errno)
+{
+    *sys_errno = 0;
+    if (b->failed)
+        return SS_READ_NOMEM;
+    /* O_NONBLOCK: opening a FIFO with no writer must not wait for one; fstat then tells what
+     * the path is before a byte is read */
+    int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC);
+    if (fd < 0) {
+        *sys_errno = errno;
+        return SS_READ_OPEN;
+    }
+    struct stat st;
+    if (fstat(fd, &st) != 0) {
+        *sys_errno = errno;
+        close(fd);
+        return SS_READ_IO;
+    }
+    if (S_ISDIR(st.st_mode)) {
+        close(fd);
+        *sys_errno = EISDIR;
+        return SS_READ_OPEN;
+    }
+    if (!S_ISREG(st.st_mode)) {
+        close(fd);
+        return SS_READ_NOT_REGULAR;
+    }
+    if (st.st_size < 0 || (uintmax_t)st.st_size > (uintmax_t)max_bytes) {
+        close(fd);
+        return SS_READ_TOO_LARGE;
+    }
+    /* the size is known: one allocation of the right size (a netlist of a million elements is
+     * tens of MiB); the end of the file is then found with a small probe, and only a file that
+     * grew while it was read makes the buffer grow */
+    size_t start = b->len;
+    int rc = strbuf_reserve(b, (size_t)st.st_size) == 0 ? SS_READ_OK : SS_READ_NOMEM;
+    char probe[4096];
+    while (rc == SS_READ_OK) {
+        size_t room = b->cap - b->len - 1;
+        char *dst = room ? b->data + b->len : probe;
+        ssize_t got = read(fd, dst, room ? room : sizeof probe);
+        if (got < 0 && errno == EINTR)
+            continue;
+        if (got < 0) {
+            *sys_errno = errno;
+            rc = SS_READ_IO;
+        } else if (got == 0) {
+            break;
+        } else if (b->len - start + (size_t)got > max_bytes) {
+            rc = SS_READ_TOO_LARGE;
+        } else if (dst == probe) {
+            size_t read_so_far = b->len - start, cap_left = max_bytes - read_so_far;
+            size_t grow = read_so_far > (size_t)got ? read_so_far : (size_t)got;
+            if (strbuf_reserve(b, grow < cap_left ? grow : cap_left) != 0) {
+                rc = SS_READ_NOMEM;
+            } else {
+                memcpy(b->data + b->len, probe, (size_t)got);
+                b->len += (size_t)got;
+            }
+        } else {
+            b->len += (size_t)got;
+        }
+    }
+    if (b->data)
+        b->data[b->len] = '\0';
+    close(fd);
+    return rc;
+}
+
+const char *strbuf_read_error_text(int code, int sys_errno)
+{
+    switch (code) {
+    case SS_READ_OK: return "no error";
+    case SS_READ_OPEN:
+    case SS_READ_IO: return strerror(sys_errno);
+    case SS_READ_NOT_REGULAR: return "not a regular file (a FIFO, a device or a socket)";
+    case SS_READ_TOO_LARGE: return "too large";
+    case SS_READ_NOMEM: return "out of memory";
+    }
+    return "unknown error";
 }
 
 int name_lower_copy(const char *in, char *out, size_t len)

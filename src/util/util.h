@@ -77,9 +77,26 @@ SS_HIDDEN void strbuf_append(ss_strbuf *b, const char *s, size_t n);
 SS_HIDDEN void strbuf_printf(ss_strbuf *b, const char *fmt, ...)
     __attribute__((format(printf, 2, 3)));
 SS_HIDDEN void strbuf_clear(ss_strbuf *b);
-/* Appends everything left in f and closes it. 0 ok, -1 on a read error (b->failed reports an
- * allocation failure). */
-SS_HIDDEN int strbuf_read_file(ss_strbuf *b, FILE *f);
+
+/* ---- reading a whole file ---------------------------------------------------------------- */
+/* What strbuf_read_file found; 0 is success. */
+enum {
+    SS_READ_OK = 0,
+    SS_READ_OPEN,        /* it could not be opened, or is a directory: *sys_errno says why */
+    SS_READ_NOT_REGULAR, /* a FIFO, a device or a socket: refused before anything is read */
+    SS_READ_TOO_LARGE,   /* more than max_bytes */
+    SS_READ_IO,          /* a read failed: *sys_errno says why */
+    SS_READ_NOMEM        /* the buffer could not be allocated (b->failed is set too) */
+};
+/* Appends the whole regular file at path to b (NUL-terminated), at most max_bytes of it. The
+ * file is opened without blocking and checked before anything is read, so a FIFO or a device
+ * (/dev/zero) is refused at once, and a file larger than max_bytes is refused by its size; the
+ * first failed read or allocation ends the read. Returns an SS_READ_ code; *sys_errno gets
+ * errno for SS_READ_OPEN and SS_READ_IO (0 otherwise). */
+SS_HIDDEN int strbuf_read_file(ss_strbuf *b, const char *path, size_t max_bytes, int *sys_errno);
+/* A short reason for an SS_READ_ code other than SS_READ_TOO_LARGE (which the caller words,
+ * naming its limit): strerror for SS_READ_OPEN and SS_READ_IO. */
+SS_HIDDEN const char *strbuf_read_error_text(int code, int sys_errno);
 
 /* ---- physical constants (exact in the 2019 SI; CODATA 2018) ------------------------------- */
 #define SS_BOLTZMANN_J_PER_K 1.380649e-23

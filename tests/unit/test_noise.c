@@ -348,7 +348,8 @@ static void test_rs_names_the_noise_figure_reference(void **state)
     noise_run auto_r, named;
     run_noise(STAGE, &auto_r);
     char text[2048];
-    snprintf(text, sizeof text, "%s.noise v(out) vin rs=r2\n", STAGE);
+    /* the same stage with rs= on its .noise line (a second .noise line is an error) */
+    snprintf(text, sizeof text, "%.*s rs=r2\n", (int)strlen(STAGE) - 1, STAGE);
     run_noise(text, &named);
     ss_assert_close(metric(&named, "source_res_ohm"), 12e3, 0, 0);
     ss_assert_close(metric(&named, "out_noise_rms_v"), metric(&auto_r, "out_noise_rms_v"), 1e-12,
