@@ -159,6 +159,36 @@ static double next_corner(const ss_circuit *ckt, const tran_ws *w, double t_s, d
     return best;
 }
 
+/* The longest step every source's form still allows from t_s on (HUGE_VAL: no limit). */
+static double source_step_cap(const ss_circuit *ckt, const tran_ws *w, double t_s)
+{
+    double cap = HUGE_VAL;
+    for (int k = 0; k < w->n_src; k++)
+        cap = fmin(cap, wave_max_step(ckt->elem[w->src[k]].wave, t_s));
+    return cap;
+}
+
+/* The steps the sources ask for up to tstop at the least, for the source asking most (*which):
+ * the span of a SIN over its largest step, two for the start after each corner. */
+static double source_steps_needed(const ss_circuit *ckt, const tran_ws *w, double tstop,
+                                  int *which)
+{
+    double most = 0.0;
+    *which = -1;
+    for (int k = 0; k < w->n_src; k++) {
+        const src_wave *f = ckt->elem[w->src[k]].wave;
+        double need = 2.0 * wave_corners_until(f, tstop);
+        double h = wave_max_step(f, HUGE_VAL);
+        if (f->kind == WAVE_SIN && isfinite(h) && f->p[WS_TD] < tstop)
+            need += (tstop - f->p[WS_TD]) / h;
+        if (need > most) {
+            most = need;
+            *which = w->src[k];
+        }
+    }
+    return most;
+}
+
 /* The charges of every element at the solution x, into q. */
 static void eval_charges(ss_circuit *ckt, const tran_ws *w, const double *x, double *q)
 {
@@ -555,6 +585,22 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
     }
     memcpy(w.x_n, ckt->x_op, (size_t)w.n * sizeof *w.x_n);
     eval_charges(ckt, &w, w.x_n, w.q_n); /* at rest: i_n = 0 (ss_alloc zeroed it) */
+    int busiest;
+    double needed = source_steps_needed(ckt, &w, tstop, &busiest);
+    if (needed > (double)TRAN_MAX_STEPS) {
+        const element *e = &ckt->elem[busiest];
+        char why[64] = "two at each of its corners";
+        if (((const src_wave *)e->wave)->kind == WAVE_SIN)
+            snprintf(why, sizeof why, "%d a period of its sine", WAVE_SIN_STEPS);
+        st = err_set(err, SS_ERR_LIMIT, ckt->tran_file ? ckt->tran_file : ckt->file,
+                     ckt->tran_line,
+                     "transient: %s needs %.3g steps or more up to %g s (%s), more than the "
+                     "limit of %.3g steps: shorten the run or slow the source",
+                     e->name, needed, tstop, why, (double)TRAN_MAX_STEPS);
+        restore_sources(ckt, &w);
+        ws_free(&w);
+        return st;
+    }
 
     long k_last = (long)floor((tstop - tstart) / tstep + 1e-9);
     long k_next = 0;
@@ -567,7 +613,8 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
     double t = 0.0, h_prev = 0.0;
     double t_hist[3] = {0.0, 0.0, 0.0}; /* t_n, t_n-1, t_n-2 */
     double next_bp = next_corner(ckt, &w, 0.0, eps_t, tstep);
-    double h = TRAN_FIRST_STEP * fmin(fmin(tstep, hmax), next_bp);
+    double h_src = source_step_cap(ckt, &w, 0.0); /* the sources' own limit from here on */
+    double h = TRAN_FIRST_STEP * fmin(fmin(fmin(tstep, hmax), h_src), next_bp);
     int pts_since_bp = 1; /* accepted points since the last corner, the corner included */
     double rej_r = 0.0, rej_h = 0.0; /* the last error rejection from t: its ratio and step */
     int stalls = 0;                  /* rejections in a row whose estimate did not fall */
@@ -589,7 +636,7 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
             continue;
         }
         double target = fmin(t_grid, next_bp);
-        double h_prop = fmin(h, hmax);
+        double h_prop = fmin(h, fmin(hmax, h_src));
         double h_try = h_prop;
         int lands = 0;
         if (target - t <= h_try * (1.0 + 1e-9)) {
@@ -710,7 +757,8 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
         if (lands && fabs(t - next_bp) <= eps_t) {
             pts_since_bp = 1;
             next_bp = next_corner(ckt, &w, t, eps_t, tstep);
-            h_next = TRAN_BP_CUT * fmin(h_prop, next_bp - t);
+            h_src = source_step_cap(ckt, &w, t);
+            h_next = TRAN_BP_CUT * fmin(fmin(h_prop, h_src), next_bp - t);
         }
         h = fmin(h_next, hmax);
     }
@@ -769,6 +817,23 @@ ss_status ss_tran_run(ss_circuit *ckt, ss_table **out_tran, ss_error *err)
     if (bad || table_reserve(t, (int)n_rows) != 0) {
         ss_table_destroy(&t);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    /* tran.csv samples every TSTEP: a source repeating faster than every second sample is
+     * aliased there, though the integration follows it */
+    for (int i = 0; i < ckt->n_elem; i++) {
+        const element *e = &ckt->elem[i];
+        if (!elem_is_source(e) || !e->wave)
+            continue;
+        double period = wave_period(e->wave);
+        if (isfinite(period) && ckt->tran_step_s > 0.5 * period)
+            circuit_warn(ckt,
+                         "%s: .tran samples its %s of period %g s every %g s, less than twice a "
+                         "period: tran.csv aliases it (the integration follows it; a step of "
+                         "%g s or less shows it)",
+                         e->name,
+                         ((const src_wave *)e->wave)->kind == WAVE_SIN ? "sine" : "pulse train",
+                         period,
+                         ckt->tran_step_s, 0.5 * period);
     }
     tran_sink sink = {ckt, t};
     tran_cfg cfg = {.tstep_s = ckt->tran_step_s,

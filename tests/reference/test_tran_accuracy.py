@@ -33,6 +33,16 @@ Checks:
    it falls as tran_tol_rel^(2/3), not in proportion). Before the start-up after a corner was
    error-checked, both runs erred by about 3.5 mV at 1.25 us: set by TSTEP alone.
 2. The same with tran_method=gear2 at tran_tol_rel = 1e-7.
+3. A sine faster than the output step (our own: a 100 kHz excitation of a 1 kOhm / 1.6 nF
+   sensor filter, written every 1 ms for 50 ms): every row after the first must be the
+   filter's steady-state response at that instant, where the input crosses zero going up:
+   v(out) = -|H| sin(phi), |H| = 1 / sqrt(1 + (w tau)^2), phi = atan(w tau) (first-order RC
+   low-pass, standard circuit theory, e.g. J. W. Nilsson, S. A. Riedel, Electric Circuits --
+   from memory), within 2e-4 V; and the run warns that tran.csv aliases the sine. The
+   internal step used to be a whole number of periods, so every step saw the sine at zero and
+   the output stayed at 0 V.
+4. A 1 GHz sine over 1 s needs 2e10 steps at 20 a period: refused before any step (exit 2),
+   the message naming the source and the limit of 2e8 steps.
 """
 
 import math
@@ -146,8 +156,9 @@ def netlist(options):
             ".end\n" % (pwl, VR, R, C, IS, N, CJO, VJ, M, FC, TT, TSTEP, TSTOP, options))
 
 
-def run_tran(exe, name, text):
-    """Runs `stagesim run` on text; returns (times, {column: values}) or None."""
+def run_cli(exe, name, text):
+    """Runs `stagesim run` on text; returns (exit code, stderr, tran.csv as a record array or
+    None)."""
     d = tempfile.mkdtemp(prefix="ssref_%s_" % name)
     try:
         cir = os.path.join(d, name + ".cir")
@@ -155,13 +166,22 @@ def run_tran(exe, name, text):
             f.write(text)
         p = subprocess.run([exe, "run", cir, "-o", os.path.join(d, "out"), "--quiet"],
                            capture_output=True, text=True, timeout=120)
-        if p.returncode != 0:
-            report(False, "run %s: exit %d: %s" % (name, p.returncode, p.stderr.strip()))
-            return None
-        data = np.genfromtxt(os.path.join(d, "out", "tran.csv"), delimiter=",", names=True)
-        return data
+        path = os.path.join(d, "out", "tran.csv")
+        data = None
+        if p.returncode == 0 and os.path.isfile(path):
+            data = np.genfromtxt(path, delimiter=",", names=True)
+        return p.returncode, p.stderr, data
     finally:
         shutil.rmtree(d, ignore_errors=True)
+
+
+def run_tran(exe, name, text):
+    """Runs `stagesim run` on text; returns tran.csv as a record array, or None (a failure)."""
+    rc, err, data = run_cli(exe, name, text)
+    if rc != 0 or data is None:
+        report(False, "run %s: exit %d: %s" % (name, rc, err.strip()))
+        return None
+    return data
 
 
 def errors_after_corners(data, ref):
@@ -215,8 +235,50 @@ def main():
                "trap: the error after the corners falls %.1f times from tran_tol_rel 1e-4 to "
                "1e-7 (>= 30)  [%s]" % (ratio, SRC))
 
+    check_fast_sine(exe)
+    check_too_many_steps(exe)
+
     print("%d passed, %d failed" % (_passed, _failed))
     return 1 if _failed else 0
+
+
+def check_fast_sine(exe):
+    f_hz, r_ohm, c_f = 100e3, 1e3, 1.6e-9
+    text = ("sensor filter, fast excitation\n"
+            "v1 in 0 sin(0 1 %.17g)\n"
+            "r1 in out %.17g\n"
+            "c1 out 0 %.17g\n"
+            ".tran 1m 50m\n"
+            ".end\n" % (f_hz, r_ohm, c_f))
+    rc, err, data = run_cli(exe, "fast_sine", text)
+    if rc != 0 or data is None:
+        report(False, "fast sine: exit %d: %s" % (rc, err.strip()))
+        return
+    wt = 2.0 * math.pi * f_hz * r_ohm * c_f
+    want = -math.sin(math.atan(wt)) / math.sqrt(1.0 + wt * wt)
+    rows = [(t, v) for t, v in zip(data["time_s"], data["vout"]) if t > 0.0]
+    worst = max(abs(v - want) for _, v in rows)
+    report(len(rows) == 50 and worst <= 2e-4,
+           "fast sine: %d rows after t = 0, v(out) within %.3g V of the steady state %.6f V "
+           "(<= 2e-4 V)  [first-order RC low-pass, standard circuit theory]"
+           % (len(rows), worst, want))
+    warned = "v1: .tran samples its sine of period 1e-05 s every 0.001 s" in err and \
+             "tran.csv aliases it" in err
+    report(warned, "fast sine: the run warns that tran.csv aliases the sine (stderr: %s)"
+           % err.strip())
+
+
+def check_too_many_steps(exe):
+    text = ("gigahertz sine over a second\n"
+            "v1 in 0 sin(0 1 1g)\n"
+            "r1 in out 1k\n"
+            "c1 out 0 1p\n"
+            ".tran 1m 1\n"
+            ".end\n")
+    rc, err, _ = run_cli(exe, "too_many_steps", text)
+    ok = (rc == 2 and ":5: transient: v1 needs 2e+10 steps or more up to 1 s" in err and
+          "(20 a period of its sine), more than the limit of 2e+08 steps" in err)
+    report(ok, "1 GHz sine over 1 s: refused with exit %d (2 expected): %s" % (rc, err.strip()))
 
 
 if __name__ == "__main__":

@@ -4,6 +4,7 @@
 #include "ss_test.h"
 
 #include "analysis/tran.h"
+#include "devices/wave.h"
 #include "netlist/circuit.h"
 
 /* A common-emitter switch pulsed into saturation (our own scenario: a solenoid driver's
@@ -166,12 +167,43 @@ static void test_tolerance_below_rounding_is_named(void **state)
     ss_circuit_destroy(&ckt);
 }
 
+/* The sources' own time scales, by hand from the forms (docs/transient.md sec. 1, 4): a SIN's
+ * step limit is its period / 20 from its delay on; PULSE and PWL corners are landed on, so
+ * they set no step limit; the period is 1 / FREQ or PER; corners are counted up to a time. */
+static void test_source_time_scales(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse("t\nv1 a 0 sin(0 1 1meg 2u)\nv2 b 0 pulse(0 1 1u 1n 1n 48n "
+                                    "100n)\nv3 c 0 pwl(0 0 1u 1 2u 0)\nv4 d 0 pulse(0 1)\n"
+                                    "r1 a 0 1\nr2 b 0 1\nr3 c 0 1\nr4 d 0 1\n");
+    const src_wave *s1 = ckt->elem[circuit_find_elem(ckt, "v1")].wave;
+    const src_wave *s2 = ckt->elem[circuit_find_elem(ckt, "v2")].wave;
+    const src_wave *s3 = ckt->elem[circuit_find_elem(ckt, "v3")].wave;
+    const src_wave *s4 = ckt->elem[circuit_find_elem(ckt, "v4")].wave;
+    assert_true(wave_max_step(s1, 1e-6) == HUGE_VAL); /* before the delay: constant */
+    ss_assert_close(wave_max_step(s1, 2e-6), 1e-6 / 20.0, 1e-15, 0.0);
+    ss_assert_close(wave_period(s1), 1e-6, 1e-15, 0.0);
+    assert_true(wave_corners_until(s1, 1e-6) == 0.0);
+    assert_true(wave_corners_until(s1, 3e-6) == 1.0); /* the delay */
+    assert_true(wave_max_step(s2, 5e-6) == HUGE_VAL);
+    ss_assert_close(wave_period(s2), 100e-9, 1e-15, 0.0);
+    /* the delay, then 4 corners in each of the periods started by 1.25 us (1 us, 1.1 us,
+     * 1.2 us) */
+    assert_true(wave_corners_until(s2, 1.25e-6) == 1.0 + 4.0 * 3.0);
+    assert_true(wave_period(s3) == HUGE_VAL);
+    assert_true(wave_max_step(s3, 0.5e-6) == HUGE_VAL);
+    assert_true(wave_corners_until(s3, 1.5e-6) == 2.0);
+    assert_true(wave_period(s4) == HUGE_VAL); /* a single pulse */
+    ss_circuit_destroy(&ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_answer_after_a_corner_does_not_depend_on_tstep),
         cmocka_unit_test(test_tight_tolerances_converge),
         cmocka_unit_test(test_tolerance_below_rounding_is_named),
+        cmocka_unit_test(test_source_time_scales),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
