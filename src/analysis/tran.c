@@ -573,7 +573,9 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
         moved |= v0 != e->value;
         e->value = v0;
     }
-    if (need_op || moved) {
+    if (cfg->x_start) {
+        moved = 0; /* x_op is left as it is */
+    } else if (need_op || moved) {
         ss_error e2 = {0};
         st = op_solve_into(ckt, NULL, &e2);
         if (st != SS_OK) {
@@ -583,8 +585,11 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
                            e2.message);
         }
     }
-    memcpy(w.x_n, ckt->x_op, (size_t)w.n * sizeof *w.x_n);
-    eval_charges(ckt, &w, w.x_n, w.q_n); /* at rest: i_n = 0 (ss_alloc zeroed it) */
+    memcpy(w.x_n, cfg->x_start ? cfg->x_start : ckt->x_op, (size_t)w.n * sizeof *w.x_n);
+    if (cfg->x_start)
+        reset_device_state(ckt, w.x_n);
+    /* at rest: i_n = 0 (ss_alloc zeroed it); from x_start the start after t = 0 needs none */
+    eval_charges(ckt, &w, w.x_n, w.q_n);
     int busiest;
     double needed = source_steps_needed(ckt, &w, tstop, &busiest);
     if (needed > (double)TRAN_MAX_STEPS) {

@@ -66,7 +66,8 @@ ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table 
     static const char *const ls_names[] = {"ls_freq_hz", "qs_gain", "swing_pos_v", "swing_neg_v",
                                            "vin_at_swing_pos_v", "vin_at_swing_neg_v",
                                            "swing_pos_tran_v", "swing_neg_tran_v", "thd_amp_v",
-                                           "thd_pct", "thd_target_pct", "vin_at_thd_v",
+                                           "thd_pct", "thd_err_pct", "thd_target_pct",
+                                           "vin_at_thd_v",
                                            "iin_at_swing_pos_a", "iin_at_swing_neg_a",
                                            "thd_amp_a", "iin_at_thd_a"};
     for (int i = 0; limits && i < limits->n; i++)

@@ -43,6 +43,13 @@ Checks:
    the output stayed at 0 V.
 4. A 1 GHz sine over 1 s needs 2e10 steps at 20 a period: refused before any step (exit 2),
    the message naming the source and the limit of 2e8 steps.
+5. The THD's estimated error reaches large_signal.csv (thd_err_pct) and the report: a junction
+   driven by 0.6 V + 5 mV sin, its current read out through 1 kOhm (our own test stage), has
+   THD = sqrt(sum_(k=2..10) I_k(x)^2) / I_1(x), x = 5 mV / Vt (exp(x sin t) expanded in
+   modified Bessel functions: M. Abramowitz, I. A. Stegun, Handbook of Mathematical Functions,
+   1964, eq. 9.6.34 -- from memory; scipy.special.iv); thd_pct must match it within 1e-6
+   relative, thd_err_pct must be given, non-negative and below 1e-4 of the THD, and the report
+   line must print it.
 """
 
 import math
@@ -55,6 +62,7 @@ import tempfile
 import numpy as np
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
+from scipy.special import iv
 
 K_BOLTZMANN = 1.380649e-23   # J/K, exact (SI 2019)
 Q_ELECTRON = 1.602176634e-19  # C, exact (SI 2019)
@@ -237,6 +245,7 @@ def main():
 
     check_fast_sine(exe)
     check_too_many_steps(exe)
+    check_thd_error_reported(exe)
 
     print("%d passed, %d failed" % (_passed, _failed))
     return 1 if _failed else 0
@@ -266,6 +275,46 @@ def check_fast_sine(exe):
              "tran.csv aliases it" in err
     report(warned, "fast sine: the run warns that tran.csv aliases the sine (stderr: %s)"
            % err.strip())
+
+
+def check_thd_error_reported(exe):
+    amp = 5e-3
+    text = ("junction stage\n"
+            "vin a 0 dc 0.6\n"
+            "vs a k 0\n"
+            "d1 k 0 dx\n"
+            "h1 out 0 vs 1k\n"
+            ".model dx d (is=1e-14)\n"
+            ".stage in=vin out=out\n"
+            ".large_signal freq=1k amp=%.17g\n"
+            ".end\n" % amp)
+    d = tempfile.mkdtemp(prefix="ssref_thd_err_")
+    try:
+        cir = os.path.join(d, "stage.cir")
+        with open(cir, "w") as f:
+            f.write(text)
+        p = subprocess.run([exe, "run", cir, "-o", os.path.join(d, "out")], capture_output=True,
+                           text=True, timeout=120)
+        rows = {}
+        path = os.path.join(d, "out", "large_signal.csv")
+        if os.path.isfile(path):
+            with open(path) as f:
+                for line in f.read().splitlines()[1:]:
+                    k, _, v = line.partition(",")
+                    rows[k] = float(v) if v else float("nan")
+    finally:
+        shutil.rmtree(d, ignore_errors=True)
+    x = amp / VT
+    want = 100.0 * math.sqrt(sum(iv(k, x) ** 2 for k in range(2, 11))) / iv(1, x)
+    thd, thd_err = rows.get("thd_pct", float("nan")), rows.get("thd_err_pct", float("nan"))
+    report(p.returncode == 0 and abs(thd - want) <= 1e-6 * want,
+           "junction stage: thd_pct %.9f %%, Bessel closed form %.9f %% (within 1e-6 relative)"
+           "  [Abramowitz & Stegun 9.6.34, scipy.special.iv]" % (thd, want))
+    report(thd_err >= 0.0 and thd_err <= 1e-4 * want,
+           "junction stage: thd_err_pct %.3g given, >= 0 and <= 1e-4 of the THD" % thd_err)
+    line = [ln for ln in p.stdout.splitlines() if "THD at the test amplitude" in ln]
+    report(len(line) == 1 and "(estimated error " in line[0],
+           "junction stage: the report prints the THD with its error: %r" % line)
 
 
 def check_too_many_steps(exe):
