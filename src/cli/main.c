@@ -315,8 +315,9 @@ static int cmd_run(const cli_args *a)
                                      {"iin_at_thd_a", "input amplitude for the THD target"}};
             for (size_t k = 0; k < sizeof rows / sizeof rows[0]; k++) {
                 double v = ss_table_lookup(ls, rows[k][0], 0);
-                double e = strcmp(rows[k][0], "thd_pct") == 0 ? ss_table_lookup(ls, "thd_err_pct", 0)
-                                                               : SS_NAN_CLI;
+                double e = strcmp(rows[k][0], "thd_pct") == 0
+                               ? ss_table_lookup(ls, "thd_err_pct", 0)
+                               : SS_NAN_CLI;
                 if (!isnan(v) && !isnan(e))
                     printf("  %-40s %.5g (estimated error %.2g)\n", rows[k][1], v, e);
                 else if (!isnan(v))

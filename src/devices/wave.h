@@ -1,6 +1,6 @@
 /* Time-varying forms of independent sources -- SIN, PULSE, PWL: parsing what is inside the
- * form's parentheses, the value at a time, and the corners a transient must step onto.
- * Integrating the circuit is src/analysis/tran.c's. */
+ * form's parentheses, the value at a time, the corners a transient must step onto and the time
+ * scales it must follow. Integrating the circuit is src/analysis/tran.c's. */
 #ifndef SS_WAVE_H
 #define SS_WAVE_H
 
