@@ -15,120 +15,15 @@
 #include "devices/wave.h"
 #include "netlist/circuit.h"
 #include "netlist/netlist.h"
+#include "netlist/parser_internal.h"
 
-/* ---- logical lines ----------------------------------------------------------------------- */
-
-typedef struct logline {
-    const char *file;
-    int line;
-    char **tok;
-    int n_tok;
-} logline;
-
-typedef struct param_def {
-    const char *name;
-    const char *text; /* expression text */
-    const char *file;
-    int line;
-    double value;
-    int state; /* 0 not evaluated, 1 being evaluated, 2 done */
-    int from_set; /* the text came from a --set override */
-} param_def;
-
-typedef struct subckt_def {
-    const char *name;
-    const char **ports;
-    int n_ports;
-    const char **pnames; /* parameter names with defaults */
-    const char **ptexts;
-    int n_params;
-    int body_first, body_end; /* logical line range of the body */
-    const char *file;
-    int line;
-    /* what one instance expands to, counted once (subckt_expansion): elements, instances and
-     * the nesting levels below it */
-    double n_elem, n_inst;
-    int height;
-    int counted;
-} subckt_def;
-
-typedef struct scope {
-    const struct scope *parent;
-    const char *prefix; /* "" at top level, "x1." inside X1 */
-    int prefix_len;
-    const char **port_names;
-    const int *port_nodes;
-    unsigned char *port_used; /* set when an element of the body (or of an instance in it)
-                               * connects to the port */
-    int n_ports;
-    const char **pnames;
-    double *pvals;
-    int n_params;
-    int depth;
-} scope;
-
-/* A node an X line brought in through a port its subcircuit leaves unconnected: an error after
- * parsing if no element connects to the node either. */
-typedef struct port_note {
-    int node;
-    const logline *at;   /* the X line */
-    const char *prefix;  /* the instance's full name and a '.' */
-    const char *subckt, *port;
-} port_note;
-
-typedef struct parser {
-    ss_circuit *ckt;
-    ss_error *err;
-    logline *lines;
-    int n_lines, cap_lines;
-    const char *inc_stack[NETLIST_MAX_INCLUDE_DEPTH + 1];
-    int inc_depth;
-    param_def *params;
-    int n_params, cap_params;
-    ss_strmap param_map;
-    subckt_def *subckts;
-    int n_subckts, cap_subckts;
-    ss_strmap subckt_map;
-    ss_arena scratch; /* parse-lifetime data (token arrays), freed with the parser */
-    const ss_override *overrides;
-    int n_overrides;
-    unsigned char *override_used;
-    size_t text_bytes; /* netlist text read so far, all files together */
-    /* per node, the length of the instance prefix it was named with (0 at the top level):
-     * `x1.mid` written at the top level and node `mid` inside X1 are two nodes spelled the
-     * same, found by their differing prefixes */
-    unsigned short *node_plen;
-    size_t cap_node_plen;
-    ss_strmap inst_map; /* instance prefix ("x1.", "x1.x2.") -> its X line's index */
-    int n_instances;    /* subcircuit instances built so far */
-    port_note *notes;
-    int n_notes, cap_notes;
-    /* where analysis directives were first given: each may be given once */
-    const logline *first_ac, *first_temp, *first_large_signal;
-    /* .options names given so far (each once), with their lines */
-    const char *opt_name[32];
-    const logline *opt_at[32];
-    int n_opt;
-    int nomem;
-    int expr_depth; /* expression nesting, shared by the parameters an expression refers to */
-} parser;
-
-struct pctx {
-    parser *ps;
-    const logline *ll;
-    const scope *sc;
-    const char *elem_name;
-};
-
-static ss_status nomem(parser *ps)
+ss_status nomem(parser *ps)
 {
     ps->nomem = 1;
     return err_set(ps->err, SS_ERR_NOMEM, ps->ckt->file, 0, "out of memory while parsing");
 }
 
-static ss_status line_error(parser *ps, const logline *ll, const char *fmt, ...)
-    __attribute__((format(printf, 3, 4)));
-static ss_status line_error(parser *ps, const logline *ll, const char *fmt, ...)
+ss_status line_error(parser *ps, const logline *ll, const char *fmt, ...)
 {
     va_list ap;
     va_start(ap, fmt);
@@ -139,7 +34,7 @@ static ss_status line_error(parser *ps, const logline *ll, const char *fmt, ...)
 
 /* Splits one logical line (already lower-cased where appropriate) into tokens: whitespace and
  * commas separate, '=' is a token of its own, {...} and (...) stay whole. */
-static ss_status tokenize(parser *ps, logline *ll, char *text)
+ss_status tokenize(parser *ps, logline *ll, char *text)
 {
     char *toks[NETLIST_MAX_TOKENS];
     int n = 0;
@@ -193,9 +88,6 @@ static ss_status tokenize(parser *ps, logline *ll, char *text)
     return SS_OK;
 }
 
-static ss_status read_text(parser *ps, const char *text, size_t len, const char *file,
-                           int is_top);
-
 /* Records an input file and the SHA-256 of the bytes about to be parsed (the run manifest's
  * record of what this circuit was read from). */
 static ss_status note_input(parser *ps, const char *file, const char *text, size_t len)
@@ -221,7 +113,7 @@ static char *dir_of(const char *path, char *buf, size_t len)
     return buf;
 }
 
-static ss_status read_file(parser *ps, const char *path, const logline *from, int is_top)
+ss_status read_file(parser *ps, const char *path, const logline *from, int is_top)
 {
     /* compare canonical paths, so lib/../top.cir is recognised as top.cir */
     char canon[PATH_MAX];
@@ -365,8 +257,7 @@ static ss_status finish_logical(parser *ps, ss_strbuf *cur, const char *file, in
     return st;
 }
 
-static ss_status read_text(parser *ps, const char *text, size_t len, const char *file,
-                           int is_top)
+ss_status read_text(parser *ps, const char *text, size_t len, const char *file, int is_top)
 {
     ss_strbuf cur = {0};
     int cur_line = 0, line_no = 0;
@@ -449,8 +340,6 @@ typedef struct lookup_ctx {
     const scope *sc;
 } lookup_ctx;
 
-static int eval_global_param(parser *ps, int idx, char *msg, size_t msg_len);
-
 static int scope_lookup(void *vctx, const char *name, double *out, char *msg, size_t msg_len)
 {
     lookup_ctx *lc = vctx;
@@ -478,7 +367,7 @@ static int scope_lookup(void *vctx, const char *name, double *out, char *msg, si
 }
 
 /* Evaluates an expression text in a scope: {braces} optional. */
-static int eval_text(parser *ps, const scope *sc, const char *text, double *out, char *msg,
+int eval_text(parser *ps, const scope *sc, const char *text, double *out, char *msg,
                      size_t msg_len)
 {
     size_t n = strlen(text);
@@ -497,7 +386,7 @@ static int eval_text(parser *ps, const scope *sc, const char *text, double *out,
     return expr_eval_nested(t, &ps->expr_depth, scope_lookup, &lc, out, msg, msg_len);
 }
 
-static int eval_global_param(parser *ps, int idx, char *msg, size_t msg_len)
+int eval_global_param(parser *ps, int idx, char *msg, size_t msg_len)
 {
     param_def *pd = &ps->params[idx];
     if (pd->state == 2)
@@ -528,7 +417,7 @@ static int eval_global_param(parser *ps, int idx, char *msg, size_t msg_len)
 }
 
 /* A value token on a line: number with suffix, or {expr}. */
-static int line_value(parser *ps, const logline *ll, const scope *sc, const char *tok,
+int line_value(parser *ps, const logline *ll, const scope *sc, const char *tok,
                       const char *owner, const char *what, double *out)
 {
     if (tok[0] == '{') {
@@ -558,7 +447,7 @@ static int line_value(parser *ps, const logline *ll, const scope *sc, const char
 }
 
 /* Joins tokens [from, to) back into one expression text (for `name = 2 * x` forms). */
-static const char *join_tokens(parser *ps, const logline *ll, int from, int to)
+const char *join_tokens(parser *ps, const logline *ll, int from, int to)
 {
     size_t len = 0;
     for (int i = from; i < to; i++)
@@ -575,10 +464,7 @@ static const char *join_tokens(parser *ps, const logline *ll, int from, int to)
 }
 
 /* Parses `name = value` pairs from token `from`; calls back with each name and value text. */
-typedef int (*assign_fn)(parser *ps, const logline *ll, void *ctx, const char *name,
-                         const char *text);
-
-static int parse_assignments(parser *ps, const logline *ll, int from, assign_fn fn, void *ctx)
+int parse_assignments(parser *ps, const logline *ll, int from, assign_fn fn, void *ctx)
 {
     int i = from;
     while (i < ll->n_tok) {
@@ -613,7 +499,7 @@ static const char *override_for(parser *ps, const char *name)
     return NULL;
 }
 
-static int add_global_param(parser *ps, const logline *ll, void *ctx, const char *name,
+int add_global_param(parser *ps, const logline *ll, void *ctx, const char *name,
                             const char *text)
 {
     (void)ctx;
@@ -680,16 +566,9 @@ void *pctx_alloc(pctx *p, size_t size)
     return d;
 }
 
-static int is_ground_name(const char *t) { return strcmp(t, "0") == 0 || strcmp(t, "gnd") == 0; }
-
-/* Hierarchical names (subcircuit prefix + local name) are built in buffers of this size. A
- * longer one is an error, never cut short: two names cut to the same text would silently merge
- * two nodes (or confuse two elements). */
-#define SCOPED_NAME_BYTES 1024
-
 /* Writes prefix + tok + suffix into buf[SCOPED_NAME_BYTES]; 0 ok, -1 with the error set
  * (naming `who` at line ll) when the name does not fit. */
-static int scoped_name(parser *ps, const logline *ll, const char *who, char *buf,
+int scoped_name(parser *ps, const logline *ll, const char *who, char *buf,
                        const char *prefix, const char *tok, const char *suffix)
 {
     int n = snprintf(buf, SCOPED_NAME_BYTES, "%s%s%s", prefix, tok, suffix);
@@ -706,38 +585,8 @@ static int scoped_name(parser *ps, const logline *ll, const char *who, char *buf
     return -1;
 }
 
-/* The first character of a node, model or subcircuit name: a letter, a digit, '_' or a byte of
- * a UTF-8 character (>= 0x80). Punctuation is refused: names end up in CSV headers and labels,
- * where a cell starting with '=', '+', '-' or '@' is a formula to a spreadsheet. */
-#define NAME_START_RULE "a name starts with a letter, a digit or '_'"
-static int name_start_ok(const char *t)
-{
-    unsigned char c = (unsigned char)t[0];
-    return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') ||
-           c == '_' || c >= 0x80;
-}
-
-/* Parameter names are what expressions can refer to: ASCII letter or '_' first. */
-#define PARAM_NAME_RULE "a parameter name starts with a letter or '_'"
-static int param_name_ok(const char *t)
-{
-    unsigned char c = (unsigned char)t[0];
-    return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || c == '_';
-}
-
-#define NODE_NAME_RULE NAME_START_RULE " and holds no '=', braces, parentheses or '\"'"
-static int valid_node_name(const char *t)
-{
-    if (!*t)
-        return 0;
-    for (; *t; t++)
-        if (*t == '=' || *t == '{' || *t == '}' || *t == '(' || *t == ')' || *t == '"')
-            return 0;
-    return 1;
-}
-
 /* Records the prefix length a new node was named with. 0 ok, -1 out of memory (set). */
-static int note_node_prefix(parser *ps, int idx, int prefix_len)
+int note_node_prefix(parser *ps, int idx, int prefix_len)
 {
     if ((size_t)idx >= ps->cap_node_plen) {
         size_t ncap = ps->cap_node_plen ? ps->cap_node_plen : 256;
@@ -781,7 +630,7 @@ static void describe_node(parser *ps, int idx, const char *full, int prefix_len,
 }
 
 /* The node for tok in p's scope; *port gets the index of the scope's port it names, or -1. */
-static int scope_node(pctx *p, const char *tok, int *port)
+int scope_node(pctx *p, const char *tok, int *port)
 {
     *port = -1;
     if (!tok)
@@ -911,7 +760,7 @@ static int set_model_param(parser *ps, const logline *ll, void *vctx, const char
 }
 
 /* Checks the physical ranges the equations need (divisions, logarithms). */
-static int check_model(parser *ps, const logline *ll, const model *m)
+int check_model(parser *ps, const logline *ll, const model *m)
 {
     const dev_ops *ops = device_for_model_type(m->type);
     for (int i = 0; i < ops->n_model_params; i++) {
@@ -944,7 +793,7 @@ static int check_model(parser *ps, const logline *ll, const model *m)
     return 0;
 }
 
-static int define_model(parser *ps, const logline *ll)
+int define_model(parser *ps, const logline *ll)
 {
     /* .model name type [(] p=v ... [)]  -- parentheses were taken apart below */
     if (ll->n_tok < 3)
@@ -1032,9 +881,7 @@ static int define_model(parser *ps, const logline *ll)
 
 /* ---- pass 1: subcircuit bodies, parameters, models ---------------------------------------- */
 
-static int is_directive(const logline *ll, const char *d) { return strcmp(ll->tok[0], d) == 0; }
-
-static int collect_subckt_header(parser *ps, const logline *ll, subckt_def *sd)
+int collect_subckt_header(parser *ps, const logline *ll, subckt_def *sd)
 {
     if (ll->n_tok < 2)
         return line_error(ps, ll, ".subckt needs a name"), -1;
@@ -1190,8 +1037,6 @@ static ss_status pass1(parser *ps)
 }
 
 /* ---- pass 2: elements and analysis directives -------------------------------------------- */
-
-static ss_status build_lines(parser *ps, const scope *sc, int first, int end);
 
 static ss_status add_element(parser *ps, const logline *ll, const scope *sc)
 {
@@ -1438,7 +1283,7 @@ static ss_status build_instance(parser *ps, const logline *ll, const scope *sc,
     return SS_OK;
 }
 
-static ss_status expand_instance(parser *ps, const logline *ll, const scope *sc)
+ss_status expand_instance(parser *ps, const logline *ll, const scope *sc)
 {
     /* Xname node... subckt [name=value ...] */
     const char *xname = ll->tok[0];
@@ -1693,7 +1538,7 @@ static ss_status once_error(parser *ps, const logline *ll, const char *first_fil
                       first_line);
 }
 
-static ss_status directive(parser *ps, const logline *ll, const scope *sc)
+ss_status directive(parser *ps, const logline *ll, const scope *sc)
 {
     ss_circuit *ckt = ps->ckt;
     const char *d = ll->tok[0];
@@ -1912,7 +1757,7 @@ static void prefetch_line(const parser *ps, const logline *ll)
         strmap_prefetch(&ps->ckt->node_map, ll->tok[k]);
 }
 
-static ss_status build_lines(parser *ps, const scope *sc, int first, int end)
+ss_status build_lines(parser *ps, const scope *sc, int first, int end)
 {
     for (int i = first; i < end; i++) {
         const logline *ll = &ps->lines[i];
@@ -1959,7 +1804,7 @@ static ss_status resolve_controls(parser *ps)
 }
 
 /* A .dc sweep must name an independent source: checked before anything is solved. */
-static ss_status check_dc_sources(parser *ps)
+ss_status check_dc_sources(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
     for (int k = 0; k < ckt->n_dc; k++) {
@@ -1974,7 +1819,7 @@ static ss_status check_dc_sources(parser *ps)
 
 /* A .noise line must name an existing output node and an independent source, and its rs= a
  * resistor: checked before anything is solved. */
-static ss_status check_noise(parser *ps)
+ss_status check_noise(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
     if (!ckt->want_noise)
@@ -2002,7 +1847,7 @@ static ss_status check_noise(parser *ps)
 }
 
 /* The sources' time-varying forms stay finite up to the .tran stop time. */
-static ss_status check_waves(parser *ps)
+ss_status check_waves(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
     if (!ckt->want_tran)
@@ -2021,7 +1866,7 @@ static ss_status check_waves(parser *ps)
 /* A node that an X line brought in through a port its subcircuit leaves unconnected, and that
  * no element connects to either: it has no DC path to ground and no element to name, so the X
  * line is named. */
-static ss_status check_unused_ports(parser *ps)
+ss_status check_unused_ports(parser *ps)
 {
     if (ps->n_notes == 0)
         return SS_OK;
@@ -2046,7 +1891,7 @@ static ss_status check_unused_ports(parser *ps)
     return st;
 }
 
-static ss_status apply_late_overrides(parser *ps)
+ss_status apply_late_overrides(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
     for (int i = 0; i < ps->n_overrides; i++) {
@@ -2110,7 +1955,7 @@ static ss_status apply_late_overrides(parser *ps)
     return SS_OK;
 }
 
-static ss_status check_stage(parser *ps)
+ss_status check_stage(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
     if (!ckt->stage_in && !ckt->stage_out)
@@ -2142,7 +1987,7 @@ static void parser_clear(parser *ps)
 }
 
 /* A --set NAME given twice (in any case) is refused: one of its values would be dropped. */
-static ss_status check_overrides_once(parser *ps)
+ss_status check_overrides_once(parser *ps)
 {
     if (ps->n_overrides < 2)
         return SS_OK;
