@@ -1,18 +1,10 @@
-/* Netlist parser: reads files (with .include), joins continuation lines, tokenises, collects
- * .param/.subckt/.model, then builds the flat circuit, expanding X instances. Device syntax
- * is each device's own parse (through pctx_*); solving is left to src/analysis. */
-#define _DEFAULT_SOURCE /* realpath */
-#include <ctype.h>
-#include <errno.h>
-#include <limits.h>
-#include <math.h>
-#include <stdio.h>
-#include <stdlib.h>
+/* Netlist parser: the parser's state over the two passes (pass 1: .param, .subckt, .model;
+ * pass 2: elements, X instances, directives), the checks after them and the public entry
+ * points. Reading lines is reader.c's, values params.c's, subcircuits subckt.c's, directives
+ * directives.c's, models models.c's; device syntax is each device's own parse (pctx.c). */
 #include <string.h>
 
-#include "analysis/analysis.h"
 #include "devices/device.h"
-#include "devices/wave.h"
 #include "netlist/circuit.h"
 #include "netlist/netlist.h"
 #include "netlist/parser_internal.h"
@@ -32,7 +24,7 @@ ss_status line_error(parser *ps, const logline *ll, const char *fmt, ...)
     return SS_ERR_INPUT;
 }
 
-/* ---- pass 1: subcircuit bodies, parameters, models ---------------------------------------- */
+/* ---- pass 1: subcircuit bodies, parameters, models --------------------------------------- */
 
 static ss_status pass1(parser *ps)
 {
@@ -203,7 +195,7 @@ ss_status build_lines(parser *ps, const scope *sc, int first, int end)
     return SS_OK;
 }
 
-/* ---- after parsing: controls, overrides, checks ------------------------------------------ */
+/* ---- after parsing: controls, then the public entry points ------------------------------- */
 
 static ss_status resolve_controls(parser *ps)
 {

@@ -112,7 +112,7 @@ struct pctx {
     const char *elem_name;
 };
 
-/* ---- errors and the passes --------------------------------------------------------------- */
+/* ---- parser.c: errors and the passes ----------------------------------------------------- */
 
 /* Records "out of memory while parsing"; returns SS_ERR_NOMEM. */
 SS_HIDDEN ss_status nomem(parser *ps);
@@ -127,7 +127,7 @@ static inline int is_directive(const logline *ll, const char *d)
 /* Pass 2 over lines [first, end) in scope sc: elements, X instances, directives. */
 SS_HIDDEN ss_status build_lines(parser *ps, const scope *sc, int first, int end);
 
-/* ---- files, .include, logical lines, tokens ---------------------------------------------- */
+/* ---- reader.c: files, .include, logical lines, tokens ------------------------------------ */
 
 /* Splits one logical line into ll's tokens (strings in the circuit's arena). */
 SS_HIDDEN ss_status tokenize(parser *ps, logline *ll, char *text);
@@ -136,7 +136,7 @@ SS_HIDDEN ss_status read_file(parser *ps, const char *path, const logline *from,
 SS_HIDDEN ss_status read_text(parser *ps, const char *text, size_t len, const char *file,
                               int is_top);
 
-/* ---- parameters and values --------------------------------------------------------------- */
+/* ---- params.c: parameters and values ----------------------------------------------------- */
 
 /* Evaluates an expression text in a scope (NULL: the globals only); {braces} optional. 0 ok,
  * -1 with a message in msg. */
@@ -165,7 +165,7 @@ SS_HIDDEN ss_status check_overrides_once(parser *ps);
  * parameters. */
 SS_HIDDEN ss_status apply_late_overrides(parser *ps);
 
-/* ---- names and nodes --------------------------------------------------------------------- */
+/* ---- pctx.c: names and nodes ------------------------------------------------------------- */
 
 static inline int is_ground_name(const char *t)
 {
@@ -217,14 +217,14 @@ SS_HIDDEN int note_node_prefix(parser *ps, int idx, int prefix_len);
 /* The node for tok in p's scope; *port gets the index of the scope's port it names, or -1. */
 SS_HIDDEN int scope_node(pctx *p, const char *tok, int *port);
 
-/* ---- models ------------------------------------------------------------------------------ */
+/* ---- models.c ---------------------------------------------------------------------------- */
 
 /* A .model line: the card checked and added to the circuit; 0 ok, -1 with the error set. */
 SS_HIDDEN int define_model(parser *ps, const logline *ll);
 /* Checks the physical ranges the equations need; 0 ok, -1 with the error set at ll. */
 SS_HIDDEN int check_model(parser *ps, const logline *ll, const model *m);
 
-/* ---- subcircuits ------------------------------------------------------------------------- */
+/* ---- subckt.c: subcircuits --------------------------------------------------------------- */
 
 /* A .subckt line into sd: name, ports, parameter defaults; 0 ok, -1 with the error set. */
 SS_HIDDEN int collect_subckt_header(parser *ps, const logline *ll, subckt_def *sd);
@@ -233,7 +233,7 @@ SS_HIDDEN ss_status expand_instance(parser *ps, const logline *ll, const scope *
 /* After building: a node brought in only through ports no element uses is refused. */
 SS_HIDDEN ss_status check_unused_ports(parser *ps);
 
-/* ---- directives and the checks after parsing --------------------------------------------- */
+/* ---- directives.c: directives and the checks after parsing ------------------------------- */
 
 /* A dot line met in pass 2 in scope sc. */
 SS_HIDDEN ss_status directive(parser *ps, const logline *ll, const scope *sc);
