@@ -168,216 +168,257 @@ static int set_noise(parser *ps, const logline *ll, void *vctx, const char *name
     return 0;
 }
 
-/* An analysis directive given a second time: which one counts would be a guess. */
-static ss_status once_error(parser *ps, const logline *ll, const char *first_file,
-                            int first_line)
+/* ---- the directives: one handler each, dispatched through DIRECTIVES below ---------------- */
+
+static ss_status dir_op(parser *ps, const logline *ll)
 {
-    return line_error(ps, ll, "%s given twice (first at %s:%d)", ll->tok[0], first_file,
-                      first_line);
+    (void)ll;
+    ps->ckt->want_op = 1;
+    return SS_OK;
 }
 
-ss_status directive(parser *ps, const logline *ll, const scope *sc)
+static ss_status dir_temp(parser *ps, const logline *ll)
+{
+    if (ll->n_tok != 2)
+        return line_error(ps, ll, ".temp takes one temperature in degrees Celsius");
+    double t;
+    if (line_value(ps, ll, NULL, ll->tok[1], NULL, "temperature", &t) != 0)
+        return SS_ERR_INPUT;
+    if (t <= -SS_ZERO_C_IN_K || t > 1000.0)
+        return line_error(ps, ll, ".temp %g C is outside -273.15 .. 1000 C", t);
+    ps->ckt->temp_c = t;
+    return SS_OK;
+}
+
+static ss_status dir_options(parser *ps, const logline *ll)
+{
+    return parse_assignments(ps, ll, 1, set_option, NULL) == 0 ? SS_OK : ps->err->code;
+}
+
+static ss_status dir_stage(parser *ps, const logline *ll)
+{
+    ss_circuit *ckt = ps->ckt;
+    ckt->stage_file = ll->file;
+    ckt->stage_line = ll->line;
+    return parse_assignments(ps, ll, 1, set_stage, NULL) == 0 ? SS_OK : ps->err->code;
+}
+
+static ss_status dir_dc(parser *ps, const logline *ll)
+{
+    ss_circuit *ckt = ps->ckt;
+    int n = ll->n_tok - 1;
+    if (n != 4 && n != 8)
+        return line_error(ps, ll, ".dc expects SRC start stop step [SRC2 start2 stop2 step2]");
+    ckt->n_dc = n / 4;
+    for (int k = 0; k < ckt->n_dc; k++) {
+        dc_sweep_spec *s = &ckt->dc[k];
+        s->src = ll->tok[1 + 4 * k];
+        s->file = ll->file;
+        s->line = ll->line;
+        if (line_value(ps, ll, NULL, ll->tok[2 + 4 * k], ".dc", "start", &s->start) ||
+            line_value(ps, ll, NULL, ll->tok[3 + 4 * k], ".dc", "stop", &s->stop) ||
+            line_value(ps, ll, NULL, ll->tok[4 + 4 * k], ".dc", "step", &s->step))
+            return SS_ERR_INPUT;
+        if (s->step == 0.0 || (s->stop - s->start) / s->step < 0.0)
+            return line_error(ps, ll, ".dc %s: step %g does not lead from %g to %g", s->src,
+                              s->step, s->start, s->stop);
+        if (fabs((s->stop - s->start) / s->step) > 1e7)
+            return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                           ".dc %s: more than 1e7 points", s->src);
+    }
+    return SS_OK;
+}
+
+static ss_status dir_ac(parser *ps, const logline *ll)
+{
+    ss_circuit *ckt = ps->ckt;
+    if (ll->n_tok != 5)
+        return line_error(ps, ll, ".ac expects dec|oct|lin N fstart fstop");
+    const char *t = ll->tok[1];
+    if (strcmp(t, "dec") == 0)
+        ckt->ac_type = AC_DEC;
+    else if (strcmp(t, "oct") == 0)
+        ckt->ac_type = AC_OCT;
+    else if (strcmp(t, "lin") == 0)
+        ckt->ac_type = AC_LIN;
+    else
+        return line_error(ps, ll, ".ac: sweep type '%s' is not dec, oct or lin", t);
+    double n, f1, f2;
+    if (line_value(ps, ll, NULL, ll->tok[2], ".ac", "point count", &n) ||
+        line_value(ps, ll, NULL, ll->tok[3], ".ac", "start frequency", &f1) ||
+        line_value(ps, ll, NULL, ll->tok[4], ".ac", "stop frequency", &f2))
+        return SS_ERR_INPUT;
+    if (!(n >= 1.0) || n != floor(n))
+        return line_error(ps, ll, ".ac: the point count must be a whole number >= 1, got %g",
+                          n);
+    if (n > 1e6)
+        return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                       ".ac: more than 1e6 points");
+    if (!(f1 > 0.0) || !(f2 > 0.0))
+        return line_error(ps, ll, ".ac: frequencies must be positive (got %g and %g Hz)", f1,
+                          f2);
+    if (f2 < f1)
+        return line_error(ps, ll, ".ac: stop frequency %g Hz is below start %g Hz", f2, f1);
+    double decades = log10(f2) - log10(f1);
+    double total = ckt->ac_type == AC_LIN ? n
+                   : floor((ckt->ac_type == AC_DEC ? decades : decades / log10(2.0)) * n) + 1;
+    if (total > 1e6)
+        return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                       ".ac: %.3g frequencies in all, more than the limit of 1e6", total);
+
+    ckt->want_ac = 1;
+    ckt->ac_points = (int)n;
+    ckt->ac_fstart_hz = f1;
+    ckt->ac_fstop_hz = f2;
+    return SS_OK;
+}
+
+/* .expect and .tolerance: limits and tolerances, kept as text, parsed and checked by src/study */
+static ss_status dir_study_line(parser *ps, const logline *ll)
 {
     ss_circuit *ckt = ps->ckt;
     const char *d = ll->tok[0];
-    int top = sc->depth == 0;
-    if (strcmp(d, ".param") == 0 || strcmp(d, ".model") == 0)
-        return SS_OK; /* handled in pass 1 / at instantiation */
-    if (!top)
-        return line_error(ps, ll, "%s is not allowed inside a .subckt", d);
-    if (strcmp(d, ".op") == 0) {
-        ckt->want_op = 1;
-        return SS_OK;
-    }
-    if (strcmp(d, ".end") == 0)
-        return SS_OK;
-    if (strcmp(d, ".temp") == 0) {
-        if (ps->first_temp)
-            return once_error(ps, ll, ps->first_temp->file, ps->first_temp->line);
-        ps->first_temp = ll;
-        if (ll->n_tok != 2)
-            return line_error(ps, ll, ".temp takes one temperature in degrees Celsius");
-        double t;
-        if (line_value(ps, ll, NULL, ll->tok[1], NULL, "temperature", &t) != 0)
-            return SS_ERR_INPUT;
-        if (t <= -SS_ZERO_C_IN_K || t > 1000.0)
-            return line_error(ps, ll, ".temp %g C is outside -273.15 .. 1000 C", t);
-        ckt->temp_c = t;
-        return SS_OK;
-    }
-    if (strcmp(d, ".options") == 0 || strcmp(d, ".option") == 0)
-        return parse_assignments(ps, ll, 1, set_option, NULL) == 0 ? SS_OK : ps->err->code;
-    if (strcmp(d, ".stage") == 0) {
-        if (ckt->stage_file)
-            return line_error(ps, ll, ".stage given twice (first at %s:%d)", ckt->stage_file,
-                              ckt->stage_line);
-        ckt->stage_file = ll->file;
-        ckt->stage_line = ll->line;
-        return parse_assignments(ps, ll, 1, set_stage, NULL) == 0 ? SS_OK : ps->err->code;
-    }
-    if (strcmp(d, ".dc") == 0) {
-        if (ckt->n_dc > 0)
-            return once_error(ps, ll, ckt->dc[0].file, ckt->dc[0].line);
-        int n = ll->n_tok - 1;
-        if (n != 4 && n != 8)
-            return line_error(ps, ll, ".dc expects SRC start stop step [SRC2 start2 stop2 step2]");
-        ckt->n_dc = n / 4;
-        for (int k = 0; k < ckt->n_dc; k++) {
-            dc_sweep_spec *s = &ckt->dc[k];
-            s->src = ll->tok[1 + 4 * k];
-            s->file = ll->file;
-            s->line = ll->line;
-            if (line_value(ps, ll, NULL, ll->tok[2 + 4 * k], ".dc", "start", &s->start) ||
-                line_value(ps, ll, NULL, ll->tok[3 + 4 * k], ".dc", "stop", &s->stop) ||
-                line_value(ps, ll, NULL, ll->tok[4 + 4 * k], ".dc", "step", &s->step))
-                return SS_ERR_INPUT;
-            if (s->step == 0.0 || (s->stop - s->start) / s->step < 0.0)
-                return line_error(ps, ll, ".dc %s: step %g does not lead from %g to %g", s->src,
-                                  s->step, s->start, s->stop);
-            if (fabs((s->stop - s->start) / s->step) > 1e7)
-                return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
-                               ".dc %s: more than 1e7 points", s->src);
-        }
-        return SS_OK;
-    }
-    if (strcmp(d, ".ac") == 0) {
-        if (ps->first_ac)
-            return once_error(ps, ll, ps->first_ac->file, ps->first_ac->line);
-        ps->first_ac = ll;
-        if (ll->n_tok != 5)
-            return line_error(ps, ll, ".ac expects dec|oct|lin N fstart fstop");
-        const char *t = ll->tok[1];
-        if (strcmp(t, "dec") == 0)
-            ckt->ac_type = AC_DEC;
-        else if (strcmp(t, "oct") == 0)
-            ckt->ac_type = AC_OCT;
-        else if (strcmp(t, "lin") == 0)
-            ckt->ac_type = AC_LIN;
-        else
-            return line_error(ps, ll, ".ac: sweep type '%s' is not dec, oct or lin", t);
-        double n, f1, f2;
-        if (line_value(ps, ll, NULL, ll->tok[2], ".ac", "point count", &n) ||
-            line_value(ps, ll, NULL, ll->tok[3], ".ac", "start frequency", &f1) ||
-            line_value(ps, ll, NULL, ll->tok[4], ".ac", "stop frequency", &f2))
-            return SS_ERR_INPUT;
-        if (!(n >= 1.0) || n != floor(n))
-            return line_error(ps, ll, ".ac: the point count must be a whole number >= 1, got %g",
-                              n);
-        if (n > 1e6)
-            return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
-                           ".ac: more than 1e6 points");
-        if (!(f1 > 0.0) || !(f2 > 0.0))
-            return line_error(ps, ll, ".ac: frequencies must be positive (got %g and %g Hz)", f1,
-                              f2);
-        if (f2 < f1)
-            return line_error(ps, ll, ".ac: stop frequency %g Hz is below start %g Hz", f2, f1);
-        double decades = log10(f2) - log10(f1);
-        double total = ckt->ac_type == AC_LIN ? n
-                       : floor((ckt->ac_type == AC_DEC ? decades : decades / log10(2.0)) * n) + 1;
-        if (total > 1e6)
-            return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
-                           ".ac: %.3g frequencies in all, more than the limit of 1e6", total);
+    if (ll->n_tok < 2)
+        return line_error(ps, ll, "%s needs a quantity and its %s", d,
+                          d[1] == 'e' ? "limits" : "tolerance");
+    const char *text = join_tokens(ps, ll, 1, ll->n_tok);
+    struct study_line *nl =
+        ss_realloc(ckt->study_lines, (size_t)(ckt->n_study_lines + 1) * sizeof *nl);
+    if (!text || !nl)
+        return nomem(ps);
+    ckt->study_lines = nl;
+    nl[ckt->n_study_lines].file = ll->file;
+    nl[ckt->n_study_lines].line = ll->line;
+    nl[ckt->n_study_lines].text = text;
+    nl[ckt->n_study_lines].is_tolerance = d[1] == 't';
+    ckt->n_study_lines++;
+    return SS_OK;
+}
 
-        ckt->want_ac = 1;
-        ckt->ac_points = (int)n;
-        ckt->ac_fstart_hz = f1;
-        ckt->ac_fstop_hz = f2;
-        return SS_OK;
+/* .tran TSTEP TSTOP [TSTART]: rows of tran.csv at TSTART + k TSTEP (analysis/tran.c) */
+static ss_status dir_tran(parser *ps, const logline *ll)
+{
+    ss_circuit *ckt = ps->ckt;
+    if (ll->n_tok != 3 && ll->n_tok != 4)
+        return line_error(ps, ll, ".tran expects TSTEP TSTOP [TSTART]");
+    double step, stop, start = 0.0;
+    if (line_value(ps, ll, NULL, ll->tok[1], ".tran", "step", &step) ||
+        line_value(ps, ll, NULL, ll->tok[2], ".tran", "stop time", &stop) ||
+        (ll->n_tok == 4 && line_value(ps, ll, NULL, ll->tok[3], ".tran", "start time", &start)))
+        return SS_ERR_INPUT;
+    if (!(step > 0.0) || !(stop > 0.0))
+        return line_error(ps, ll, ".tran: step and stop time must be positive (got %g, %g s)",
+                          step, stop);
+    if (!(start >= 0.0 && start < stop))
+        return line_error(ps, ll, ".tran: start time %g s must be in [0, stop time %g s)", start,
+                          stop);
+    if (step > stop - start)
+        return line_error(ps, ll, ".tran: step %g s is longer than the span from %g s to %g s",
+                          step, start, stop);
+    if ((stop - start) / step > 1e7)
+        return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
+                       ".tran: more than 1e7 output points");
+    ckt->tran_step_s = step;
+    ckt->tran_stop_s = stop;
+    ckt->tran_start_s = start;
+    ckt->tran_file = ll->file;
+    ckt->tran_line = ll->line;
+    ckt->want_tran = 1;
+    return SS_OK;
+}
+
+static ss_status dir_large_signal(parser *ps, const logline *ll)
+{
+    ps->ckt->want_large_signal = 1;
+    return parse_assignments(ps, ll, 1, set_large_signal, NULL) == 0 ? SS_OK : ps->err->code;
+}
+
+/* .noise v(OUT) SRC [rs=RNAME]: names checked after parsing (check_noise) */
+static ss_status dir_noise(parser *ps, const logline *ll)
+{
+    ss_circuit *ckt = ps->ckt;
+    if (ll->n_tok < 3)
+        return line_error(ps, ll, ".noise expects v(OUT) SRC [rs=RESISTOR]");
+    const char *o = ll->tok[1];
+    size_t len = strlen(o);
+    if (len < 4 || strncmp(o, "v(", 2) != 0 || o[len - 1] != ')')
+        return line_error(ps, ll, ".noise: the output must be written v(NODE), got '%s'", o);
+    if (strchr(o, ','))
+        return line_error(ps, ll,
+                          ".noise: a differential output '%s' is not supported; name one "
+                          "node, v(NODE)",
+                          o);
+    size_t b = 2, e = len - 1;
+    while (b < e && isspace((unsigned char)o[b]))
+        b++;
+    while (e > b && isspace((unsigned char)o[e - 1]))
+        e--;
+    if (b == e)
+        return line_error(ps, ll, ".noise: v() names no output node");
+    char *node = arena_strndup(&ckt->arena, o + b, e - b);
+    if (!node)
+        return nomem(ps);
+    ckt->noise_out = node;
+    ckt->noise_src = ll->tok[2];
+    ckt->noise_rs = NULL;
+    ckt->noise_file = ll->file;
+    ckt->noise_line = ll->line;
+    ckt->want_noise = 1;
+    return parse_assignments(ps, ll, 3, set_noise, NULL) == 0 ? SS_OK : ps->err->code;
+}
+
+/* Where a directive may stand and how often: every directive is top-level only unless
+ * DIRECTIVE_IN_SUBCKT; a DIRECTIVE_ONCE one given a second time is an error, since which of
+ * the two counts would be a guess. */
+enum { DIRECTIVE_IN_SUBCKT = 1, DIRECTIVE_ONCE = 2 };
+
+typedef struct directive_def {
+    const char *name;
+    ss_status (*handle)(parser *ps, const logline *ll); /* NULL: nothing to do in pass 2 */
+    unsigned flags;
+} directive_def;
+
+static const directive_def DIRECTIVES[] = {
+    {".param", NULL, DIRECTIVE_IN_SUBCKT}, /* pass 1, or when an instance is built */
+    {".model", NULL, DIRECTIVE_IN_SUBCKT}, /* pass 1 */
+    {".op", dir_op, 0},
+    {".end", NULL, 0},
+    {".temp", dir_temp, DIRECTIVE_ONCE},
+    {".options", dir_options, 0}, /* each option once: set_option */
+    {".option", dir_options, 0},
+    {".stage", dir_stage, DIRECTIVE_ONCE},
+    {".dc", dir_dc, DIRECTIVE_ONCE},
+    {".ac", dir_ac, DIRECTIVE_ONCE},
+    {".expect", dir_study_line, 0},
+    {".tolerance", dir_study_line, 0},
+    {".tran", dir_tran, DIRECTIVE_ONCE},
+    {".large_signal", dir_large_signal, DIRECTIVE_ONCE},
+    {".noise", dir_noise, DIRECTIVE_ONCE},
+    {".ends", NULL, 0}, /* pass 1; build_lines skips the bodies */
+    {".subckt", NULL, 0},
+};
+#define N_DIRECTIVES ((int)(sizeof DIRECTIVES / sizeof DIRECTIVES[0]))
+_Static_assert(N_DIRECTIVES <= DIRECTIVE_MAX, "parser.directive_first has a slot per directive");
+
+ss_status directive(parser *ps, const logline *ll, const scope *sc)
+{
+    const char *d = ll->tok[0];
+    int k = 0;
+    while (k < N_DIRECTIVES && strcmp(DIRECTIVES[k].name, d) != 0)
+        k++;
+    const directive_def *def = k < N_DIRECTIVES ? &DIRECTIVES[k] : NULL;
+    if (sc->depth != 0 && !(def && (def->flags & DIRECTIVE_IN_SUBCKT)))
+        return line_error(ps, ll, "%s is not allowed inside a .subckt", d);
+    if (!def)
+        return line_error(ps, ll, "unknown directive '%s'", d);
+    if (def->flags & DIRECTIVE_ONCE) {
+        const logline *first = ps->directive_first[k];
+        if (first)
+            return line_error(ps, ll, "%s given twice (first at %s:%d)", d, first->file,
+                              first->line);
+        ps->directive_first[k] = ll;
     }
-    if (strcmp(d, ".expect") == 0 || strcmp(d, ".tolerance") == 0) {
-        /* limits and tolerances: kept as text, parsed and checked by src/study */
-        if (ll->n_tok < 2)
-            return line_error(ps, ll, "%s needs a quantity and its %s", d,
-                              d[1] == 'e' ? "limits" : "tolerance");
-        const char *text = join_tokens(ps, ll, 1, ll->n_tok);
-        struct study_line *nl =
-            ss_realloc(ckt->study_lines, (size_t)(ckt->n_study_lines + 1) * sizeof *nl);
-        if (!text || !nl)
-            return nomem(ps);
-        ckt->study_lines = nl;
-        nl[ckt->n_study_lines].file = ll->file;
-        nl[ckt->n_study_lines].line = ll->line;
-        nl[ckt->n_study_lines].text = text;
-        nl[ckt->n_study_lines].is_tolerance = d[1] == 't';
-        ckt->n_study_lines++;
-        return SS_OK;
-    }
-    if (strcmp(d, ".tran") == 0) {
-        /* .tran TSTEP TSTOP [TSTART]: rows of tran.csv at TSTART + k TSTEP (analysis/tran.c) */
-        if (ckt->want_tran)
-            return once_error(ps, ll, ckt->tran_file, ckt->tran_line);
-        if (ll->n_tok != 3 && ll->n_tok != 4)
-            return line_error(ps, ll, ".tran expects TSTEP TSTOP [TSTART]");
-        double step, stop, start = 0.0;
-        if (line_value(ps, ll, NULL, ll->tok[1], ".tran", "step", &step) ||
-            line_value(ps, ll, NULL, ll->tok[2], ".tran", "stop time", &stop) ||
-            (ll->n_tok == 4 &&
-             line_value(ps, ll, NULL, ll->tok[3], ".tran", "start time", &start)))
-            return SS_ERR_INPUT;
-        if (!(step > 0.0) || !(stop > 0.0))
-            return line_error(ps, ll, ".tran: step and stop time must be positive (got %g, %g s)",
-                              step, stop);
-        if (!(start >= 0.0 && start < stop))
-            return line_error(ps, ll, ".tran: start time %g s must be in [0, stop time %g s)",
-                              start, stop);
-        if (step > stop - start)
-            return line_error(ps, ll, ".tran: step %g s is longer than the span from %g s to %g s",
-                              step, start, stop);
-        if ((stop - start) / step > 1e7)
-            return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
-                           ".tran: more than 1e7 output points");
-        ckt->tran_step_s = step;
-        ckt->tran_stop_s = stop;
-        ckt->tran_start_s = start;
-        ckt->tran_file = ll->file;
-        ckt->tran_line = ll->line;
-        ckt->want_tran = 1;
-        return SS_OK;
-    }
-    if (strcmp(d, ".large_signal") == 0) {
-        if (ps->first_large_signal)
-            return once_error(ps, ll, ps->first_large_signal->file,
-                              ps->first_large_signal->line);
-        ps->first_large_signal = ll;
-        ckt->want_large_signal = 1;
-        return parse_assignments(ps, ll, 1, set_large_signal, NULL) == 0 ? SS_OK : ps->err->code;
-    }
-    if (strcmp(d, ".noise") == 0) {
-        /* .noise v(OUT) SRC [rs=RNAME]: names checked after parsing (check_noise) */
-        if (ckt->want_noise)
-            return once_error(ps, ll, ckt->noise_file, ckt->noise_line);
-        if (ll->n_tok < 3)
-            return line_error(ps, ll, ".noise expects v(OUT) SRC [rs=RESISTOR]");
-        const char *o = ll->tok[1];
-        size_t len = strlen(o);
-        if (len < 4 || strncmp(o, "v(", 2) != 0 || o[len - 1] != ')')
-            return line_error(ps, ll, ".noise: the output must be written v(NODE), got '%s'", o);
-        if (strchr(o, ','))
-            return line_error(ps, ll,
-                              ".noise: a differential output '%s' is not supported; name one "
-                              "node, v(NODE)",
-                              o);
-        size_t b = 2, e = len - 1;
-        while (b < e && isspace((unsigned char)o[b]))
-            b++;
-        while (e > b && isspace((unsigned char)o[e - 1]))
-            e--;
-        if (b == e)
-            return line_error(ps, ll, ".noise: v() names no output node");
-        char *node = arena_strndup(&ckt->arena, o + b, e - b);
-        if (!node)
-            return nomem(ps);
-        ckt->noise_out = node;
-        ckt->noise_src = ll->tok[2];
-        ckt->noise_rs = NULL;
-        ckt->noise_file = ll->file;
-        ckt->noise_line = ll->line;
-        ckt->want_noise = 1;
-        return parse_assignments(ps, ll, 3, set_noise, NULL) == 0 ? SS_OK : ps->err->code;
-    }
-    if (strcmp(d, ".ends") == 0 || strcmp(d, ".subckt") == 0)
-        return SS_OK;
-    return line_error(ps, ll, "unknown directive '%s'", d);
+    return def->handle ? def->handle(ps, ll) : SS_OK;
 }
 
 /* A .dc sweep must name an independent source: checked before anything is solved. */

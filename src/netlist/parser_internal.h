@@ -8,6 +8,9 @@
 #include "netlist/circuit.h"
 #include "netlist/netlist.h"
 
+/* directives known to directives.c (its table has at most this many entries) */
+#define DIRECTIVE_MAX 24
+
 /* ---- state ------------------------------------------------------------------------------- */
 
 typedef struct logline {
@@ -95,8 +98,8 @@ typedef struct parser {
     int n_instances;    /* subcircuit instances built so far */
     port_note *notes;
     int n_notes, cap_notes;
-    /* where analysis directives were first given: each may be given once */
-    const logline *first_ac, *first_temp, *first_large_signal;
+    /* per directive (directives.c's table), the line it was first given on */
+    const logline *directive_first[DIRECTIVE_MAX];
     /* .options names given so far (each once), with their lines */
     const char *opt_name[32];
     const logline *opt_at[32];
