@@ -228,6 +228,88 @@ static void parser_clear(parser *ps)
     arena_clear(&ps->scratch);
 }
 
+/* Reads the netlist, the file at path or else text[text_len], into ps->lines. */
+static ss_status read_netlist(parser *ps, const char *path, const char *text, size_t text_len)
+{
+    ss_circuit *ckt = ps->ckt;
+    if (path)
+        return read_file(ps, path, NULL, 1);
+    ps->inc_stack[ps->inc_depth++] = ckt->file;
+    if (text_len > NETLIST_MAX_TEXT_BYTES)
+        return err_set(ps->err, SS_ERR_LIMIT, ckt->file, 0, "the netlist is larger than %s",
+                       NETLIST_MAX_TEXT_TEXT);
+    ps->text_bytes = text_len;
+    return read_text(ps, text, text_len, ckt->file, 1);
+}
+
+/* Sizes the element array and the name tables for the lines at hand: no doubling (and no
+ * transient double copy) on large netlists; subcircuit expansion may still grow them. */
+static ss_status reserve_for_lines(parser *ps)
+{
+    ss_circuit *ckt = ps->ckt;
+    element *ne = ss_realloc(ckt->elem, (size_t)ps->n_lines * sizeof *ne);
+    if (!ne || strmap_reserve(&ckt->elem_map, (size_t)ps->n_lines) != 0 ||
+        strmap_reserve(&ckt->node_map, (size_t)ps->n_lines / 2) != 0) {
+        if (ne)
+            ckt->elem = ne;
+        return nomem(ps);
+    }
+    ckt->elem = ne;
+    ckt->cap_elem = ps->n_lines;
+    return SS_OK;
+}
+
+/* Evaluates every global parameter, so an unused broken one is still reported, and keeps
+ * their names and values in the circuit. */
+static ss_status keep_params(parser *ps)
+{
+    ss_circuit *ckt = ps->ckt;
+    for (int i = 0; i < ps->n_params; i++) {
+        char msg[512];
+        if (eval_global_param(ps, i, msg, sizeof msg) != 0)
+            return ps->err->code;
+    }
+    if (ps->n_params == 0)
+        return SS_OK;
+    ss_status st = SS_OK;
+    ckt->param_name = ss_alloc((size_t)ps->n_params * sizeof *ckt->param_name);
+    ckt->param_value = ss_alloc((size_t)ps->n_params * sizeof *ckt->param_value);
+    if (!ckt->param_name || !ckt->param_value)
+        st = nomem(ps);
+    for (int i = 0; st == SS_OK && i < ps->n_params; i++) {
+        ckt->param_name[i] = ps->params[i].name;
+        ckt->param_value[i] = ps->params[i].value;
+    }
+    ckt->n_params = ps->n_params;
+    return st;
+}
+
+/* Once every line is built: what needs the whole circuit, in this order. */
+static ss_status finish_circuit(parser *ps)
+{
+    ss_circuit *ckt = ps->ckt;
+    ss_status st = check_unused_ports(ps);
+    if (st == SS_OK)
+        st = check_waves(ps);
+    if (st == SS_OK)
+        st = keep_params(ps);
+    if (st == SS_OK)
+        st = resolve_controls(ps);
+    if (st == SS_OK)
+        st = check_dc_sources(ps);
+    if (st == SS_OK)
+        st = check_noise(ps);
+    if (st == SS_OK)
+        st = apply_late_overrides(ps);
+    if (st == SS_OK)
+        st = circuit_check_temp(ckt, ckt->temp_c, ps->err);
+    if (st == SS_OK && ckt->n_elem == 0)
+        st = err_set(ps->err, SS_ERR_INPUT, ckt->file, 0, "the netlist has no elements");
+    if (st == SS_OK)
+        st = check_stage(ps);
+    return st;
+}
+
 static ss_status parse_common(const char *path, const char *text, size_t text_len,
                               const char *name, const ss_override *overrides, int n_overrides,
                               ss_circuit **out_ckt, ss_error *err)
@@ -261,39 +343,14 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
     }
     if (st == SS_OK)
         st = check_overrides_once(&ps);
-    if (st == SS_OK) {
-        if (path) {
-            st = read_file(&ps, path, NULL, 1);
-        } else {
-            ps.inc_stack[ps.inc_depth++] = ckt->file;
-            if (text_len > NETLIST_MAX_TEXT_BYTES)
-                st = err_set(err, SS_ERR_LIMIT, ckt->file, 0, "the netlist is larger than %s",
-                             NETLIST_MAX_TEXT_TEXT);
-            else {
-                ps.text_bytes = text_len;
-                st = read_text(&ps, text, text_len, ckt->file, 1);
-            }
-        }
-    }
+    if (st == SS_OK)
+        st = read_netlist(&ps, path, text, text_len);
     if (st == SS_OK && !ckt->title)
         st = err_set(err, SS_ERR_INPUT, ckt->file, 0, "empty netlist (no title line)");
     if (st == SS_OK)
         st = pass1(&ps);
-    if (st == SS_OK && ps.n_lines > 64) {
-        /* size the element array and the name tables for the lines at hand: no doubling (and
-         * no transient double copy) on large netlists; subcircuit expansion may still grow
-         * them */
-        element *ne = ss_realloc(ckt->elem, (size_t)ps.n_lines * sizeof *ne);
-        if (!ne || strmap_reserve(&ckt->elem_map, (size_t)ps.n_lines) != 0 ||
-            strmap_reserve(&ckt->node_map, (size_t)ps.n_lines / 2) != 0) {
-            if (ne)
-                ckt->elem = ne;
-            st = nomem(&ps);
-        } else {
-            ckt->elem = ne;
-            ckt->cap_elem = ps.n_lines;
-        }
-    }
+    if (st == SS_OK && ps.n_lines > 64)
+        st = reserve_for_lines(&ps);
     if (st == SS_OK) {
         scope top;
         memset(&top, 0, sizeof top);
@@ -301,42 +358,7 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
         st = build_lines(&ps, &top, 0, ps.n_lines);
     }
     if (st == SS_OK)
-        st = check_unused_ports(&ps);
-    if (st == SS_OK)
-        st = check_waves(&ps);
-    if (st == SS_OK) {
-        /* evaluate every global parameter so an unused broken one is still reported */
-        for (int i = 0; i < ps.n_params && st == SS_OK; i++) {
-            char msg[512];
-            if (eval_global_param(&ps, i, msg, sizeof msg) != 0)
-                st = err->code;
-        }
-    }
-    if (st == SS_OK && ps.n_params > 0) {
-        ckt->param_name = ss_alloc((size_t)ps.n_params * sizeof *ckt->param_name);
-        ckt->param_value = ss_alloc((size_t)ps.n_params * sizeof *ckt->param_value);
-        if (!ckt->param_name || !ckt->param_value)
-            st = nomem(&ps);
-        for (int i = 0; st == SS_OK && i < ps.n_params; i++) {
-            ckt->param_name[i] = ps.params[i].name;
-            ckt->param_value[i] = ps.params[i].value;
-        }
-        ckt->n_params = ps.n_params;
-    }
-    if (st == SS_OK)
-        st = resolve_controls(&ps);
-    if (st == SS_OK)
-        st = check_dc_sources(&ps);
-    if (st == SS_OK)
-        st = check_noise(&ps);
-    if (st == SS_OK)
-        st = apply_late_overrides(&ps);
-    if (st == SS_OK)
-        st = circuit_check_temp(ckt, ckt->temp_c, err);
-    if (st == SS_OK && ckt->n_elem == 0)
-        st = err_set(err, SS_ERR_INPUT, ckt->file, 0, "the netlist has no elements");
-    if (st == SS_OK)
-        st = check_stage(&ps);
+        st = finish_circuit(&ps);
     parser_clear(&ps);
     if (st != SS_OK) {
         if (err->code == SS_OK)
