@@ -9,47 +9,65 @@
 
 #include "netlist/parser_internal.h"
 
-/* Splits one logical line (already lower-cased where appropriate) into tokens: whitespace and
- * commas separate, '=' is a token of its own, {...} and (...) stay whole. */
+netlist_token netlist_token_next(const char *text, size_t *pos, size_t *start, size_t *len)
+{
+    const char *s = text + *pos;
+    while (*s && (isspace((unsigned char)*s) || *s == ','))
+        s++;
+    if (!*s) {
+        *pos = (size_t)(s - text);
+        return NETLIST_TOKEN_END;
+    }
+    const char *first = s;
+    netlist_token found = NETLIST_TOKEN_OK;
+    if (*s == '=') {
+        s++;
+    } else {
+        int brace = 0, paren = 0;
+        while (*s) {
+            char c = *s;
+            if (c == '{')
+                brace++;
+            else if (c == '}')
+                brace--;
+            else if (c == '(')
+                paren++;
+            else if (c == ')')
+                paren--;
+            else if (brace <= 0 && paren <= 0 &&
+                     (isspace((unsigned char)c) || c == ',' || c == '='))
+                break;
+            s++;
+        }
+        if (brace > 0)
+            found = NETLIST_TOKEN_OPEN_BRACE;
+        else if (paren > 0)
+            found = NETLIST_TOKEN_OPEN_PAREN;
+    }
+    *start = (size_t)(first - text);
+    *len = (size_t)(s - first);
+    *pos = (size_t)(s - text);
+    return found;
+}
+
+/* Splits one logical line (already lower-cased where appropriate) into tokens with
+ * netlist_token_next. */
 ss_status tokenize(parser *ps, logline *ll, char *text)
 {
     char *toks[NETLIST_MAX_TOKENS];
     int n = 0;
-    char *s = text;
-    while (*s) {
-        while (*s && (isspace((unsigned char)*s) || *s == ','))
-            s++;
-        if (!*s)
-            break;
+    size_t pos = 0, start, len;
+    netlist_token found;
+    while ((found = netlist_token_next(text, &pos, &start, &len)) != NETLIST_TOKEN_END) {
         if (n >= NETLIST_MAX_TOKENS)
             return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
                            "line has more than %d fields", NETLIST_MAX_TOKENS);
-        char *start = s;
-        if (*s == '=') {
-            s++;
-        } else {
-            int brace = 0, paren = 0;
-            while (*s) {
-                char c = *s;
-                if (c == '{')
-                    brace++;
-                else if (c == '}')
-                    brace--;
-                else if (c == '(')
-                    paren++;
-                else if (c == ')')
-                    paren--;
-                else if (brace <= 0 && paren <= 0 &&
-                         (isspace((unsigned char)c) || c == ',' || c == '='))
-                    break;
-                s++;
-            }
-            if (brace > 0)
-                return line_error(ps, ll, "missing '}' in '%s'", start);
-            if (paren > 0)
-                return line_error(ps, ll, "missing ')' in '%s'", start);
-        }
-        char *t = arena_strndup(&ps->ckt->arena, start, (size_t)(s - start));
+        /* an unclosed field runs to the end of the line */
+        if (found == NETLIST_TOKEN_OPEN_BRACE)
+            return line_error(ps, ll, "missing '}' in '%s'", text + start);
+        if (found == NETLIST_TOKEN_OPEN_PAREN)
+            return line_error(ps, ll, "missing ')' in '%s'", text + start);
+        char *t = arena_strndup(&ps->ckt->arena, text + start, len);
         if (!t)
             return nomem(ps);
         toks[n++] = t;
