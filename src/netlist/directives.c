@@ -229,6 +229,16 @@ static ss_status dir_dc(parser *ps, const logline *ll)
     return SS_OK;
 }
 
+double ac_point_count(int type, int points, double f1, double f2)
+{
+    if (type == AC_LIN)
+        return points;
+    /* computed in logarithms so that extreme ratios cannot overflow */
+    double decades = log10(f2) - log10(f1);
+    double per = type == AC_DEC ? decades : decades / log10(2.0);
+    return floor(per * points + 1e-9) + 1.0;
+}
+
 static ss_status dir_ac(parser *ps, const logline *ll)
 {
     ss_circuit *ckt = ps->ckt;
@@ -259,10 +269,9 @@ static ss_status dir_ac(parser *ps, const logline *ll)
                           f2);
     if (f2 < f1)
         return line_error(ps, ll, ".ac: stop frequency %g Hz is below start %g Hz", f2, f1);
-    double decades = log10(f2) - log10(f1);
-    double total = ckt->ac_type == AC_LIN ? n
-                   : floor((ckt->ac_type == AC_DEC ? decades : decades / log10(2.0)) * n) + 1;
-    if (total > 1e6)
+    /* counted as the sweep counts (the same rounding allowance), so what passes here runs */
+    double total = ac_point_count(ckt->ac_type, (int)n, f1, f2);
+    if (total > AC_MAX_POINTS)
         return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
                        ".ac: %.3g frequencies in all, more than the limit of 1e6", total);
 
