@@ -9,7 +9,10 @@
 
 #include "netlist/parser_internal.h"
 
-netlist_token netlist_token_next(const char *text, size_t *pos, size_t *start, size_t *len)
+/* netlist_token_next itself; tokenize has it inlined (a call per field cost the parse of a
+ * large netlist 3 % more instructions). */
+static inline netlist_token token_next(const char *text, size_t *pos, size_t *start,
+                                       size_t *len)
 {
     const char *s = text + *pos;
     while (*s && (isspace((unsigned char)*s) || *s == ','))
@@ -50,6 +53,11 @@ netlist_token netlist_token_next(const char *text, size_t *pos, size_t *start, s
     return found;
 }
 
+netlist_token netlist_token_next(const char *text, size_t *pos, size_t *start, size_t *len)
+{
+    return token_next(text, pos, start, len);
+}
+
 /* Splits one logical line (already lower-cased where appropriate) into tokens with
  * netlist_token_next. */
 ss_status tokenize(parser *ps, logline *ll, char *text)
@@ -58,7 +66,7 @@ ss_status tokenize(parser *ps, logline *ll, char *text)
     int n = 0;
     size_t pos = 0, start, len;
     netlist_token found;
-    while ((found = netlist_token_next(text, &pos, &start, &len)) != NETLIST_TOKEN_END) {
+    while ((found = token_next(text, &pos, &start, &len)) != NETLIST_TOKEN_END) {
         if (n >= NETLIST_MAX_TOKENS)
             return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
                            "line has more than %d fields", NETLIST_MAX_TOKENS);
