@@ -8,16 +8,6 @@
 #include "analysis/analysis.h"
 #include "output/output.h"
 
-double ac_point_count(int type, int points, double f1, double f2)
-{
-    if (type == AC_LIN)
-        return points;
-    /* computed in logarithms so that extreme ratios cannot overflow */
-    double decades = log10(f2) - log10(f1);
-    double per = type == AC_DEC ? decades : decades / log10(2.0);
-    return floor(per * points + 1e-9) + 1.0;
-}
-
 ss_status ac_frequencies(const ss_circuit *ckt, double **out_freqs, int *out_n, ss_error *err)
 {
     if (!ckt->want_ac)

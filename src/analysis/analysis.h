@@ -59,9 +59,7 @@ SS_HIDDEN double op_kcl_residual(ss_circuit *ckt, const double *x, int *worst);
 /* AC: one complex solve at omega with the given source selection; result in ckt->work_zrhs. */
 SS_HIDDEN ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
                                    int all_src_off, int inject_node, ss_error *err);
-/* Number of frequencies of a sweep (as a double: it may be astronomically large). */
-#define AC_MAX_POINTS 1000000
-SS_HIDDEN double ac_point_count(int type, int points, double f1, double f2);
+/* The sweep's frequencies (ac_point_count of them, at most AC_MAX_POINTS: circuit.h). */
 SS_HIDDEN ss_status ac_frequencies(const ss_circuit *ckt, double **out_freqs, int *out_n,
                                    ss_error *err);
 

@@ -92,7 +92,7 @@ static int find_source_resistor(const ss_circuit *ckt, const element *src)
 ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node, const char *in_source,
                                const char *rs_resistor, ss_error *err)
 {
-    char name[1024]; /* circuit names are at most 1023 characters (parser.c) */
+    char name[1024]; /* circuit names are at most 1023 characters (parser_internal.h) */
     name_lower_copy(out_node, name, sizeof name);
     int n = circuit_find_node(ckt, name);
     if (n <= 0 || ckt->node_internal[n])

@@ -73,6 +73,12 @@ typedef struct ss_options_set {
 } ss_options_set;
 
 enum ac_sweep_type { AC_DEC, AC_OCT, AC_LIN };
+/* Most frequencies an .ac sweep may have (docs/netlist.md, limits). */
+#define AC_MAX_POINTS 1000000
+/* Number of frequencies of a sweep of `points` per decade or octave (lin: in all) from f1 to
+ * f2 Hz, 0 < f1 <= f2, as a double: it may be astronomically large. The parser's limit and
+ * the sweep's own frequency list (ac_frequencies) both count with it. */
+SS_HIDDEN double ac_point_count(int type, int points, double f1, double f2);
 
 typedef struct dc_sweep_spec {
     const char *src;

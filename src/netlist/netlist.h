@@ -20,6 +20,20 @@
 #define NETLIST_MAX_TEXT_BYTES ((size_t)1 << 30)
 #define NETLIST_MAX_TEXT_TEXT "1 GiB"
 
+/* ---- tokens ------------------------------------------------------------------------------ */
+/* How a logical line is split into fields: whitespace and commas separate, '=' is a field of its
+ * own, {...} and (...) stay whole (a ',', '=' or blank inside them does not split). */
+typedef enum netlist_token {
+    NETLIST_TOKEN_END,        /* no field left on the line */
+    NETLIST_TOKEN_OK,         /* a field */
+    NETLIST_TOKEN_OPEN_BRACE, /* a field with a '{' never closed: it runs to the end of the line */
+    NETLIST_TOKEN_OPEN_PAREN, /* the same with a '(' (an open brace is reported first) */
+} netlist_token;
+/* Finds the field at or after text[*pos]: its offset into *start and its length into *len,
+ * and moves *pos past it. At the end of the text only *pos moves. */
+SS_HIDDEN netlist_token netlist_token_next(const char *text, size_t *pos, size_t *start,
+                                           size_t *len);
+
 /* ---- values ------------------------------------------------------------------------------ */
 /* Scans a number with optional SI suffix and unit letters at s; returns the characters used
  * (0: no number there) and writes *out. */

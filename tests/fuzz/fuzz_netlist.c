@@ -74,36 +74,12 @@ static int tok_is(const fz_tok *t, const char *s)
     return t->n == n && memcmp(t->s, s, n) == 0;
 }
 
-/* The parser's tokenisation (parser.c tokenize): whitespace and commas separate, '=' is a
- * token of its own, {...} and (...) stay whole. */
-static int scan_tokenize(fz_scan *sc, char *s)
+/* The line's tokens, split by the parser's own tokenizer (an unclosed brace or parenthesis,
+ * which the parser refuses, is kept as a token). */
+static int scan_tokenize(fz_scan *sc, const char *s)
 {
-    while (*s) {
-        while (*s && (*s == ' ' || *s == '\t' || *s == '\v' || *s == '\f' || *s == ','))
-            s++;
-        if (!*s)
-            break;
-        char *start = s;
-        if (*s == '=') {
-            s++;
-        } else {
-            int brace = 0, paren = 0;
-            for (; *s; s++) {
-                char c = *s;
-                if (c == '{')
-                    brace++;
-                else if (c == '}')
-                    brace--;
-                else if (c == '(')
-                    paren++;
-                else if (c == ')')
-                    paren--;
-                else if (brace <= 0 && paren <= 0 &&
-                         (c == ' ' || c == '\t' || c == '\v' || c == '\f' || c == ',' ||
-                          c == '='))
-                    break;
-            }
-        }
+    size_t pos = 0, start, len;
+    while (netlist_token_next(s, &pos, &start, &len) != NETLIST_TOKEN_END) {
         if (sc->n_toks == sc->cap_toks) {
             int ncap = sc->cap_toks ? 2 * sc->cap_toks : 1024;
             fz_tok *nt = realloc(sc->toks, (size_t)ncap * sizeof *nt);
@@ -112,8 +88,8 @@ static int scan_tokenize(fz_scan *sc, char *s)
             sc->toks = nt;
             sc->cap_toks = ncap;
         }
-        sc->toks[sc->n_toks].s = start;
-        sc->toks[sc->n_toks].n = (size_t)(s - start);
+        sc->toks[sc->n_toks].s = s + start;
+        sc->toks[sc->n_toks].n = len;
         sc->n_toks++;
     }
     return 0;
