@@ -217,6 +217,8 @@ SS_HIDDEN const dev_ops *device_at(int index);
 SS_HIDDEN const dev_ops *device_by_letter(char letter);
 SS_HIDDEN const dev_ops *device_for_model_type(enum model_type t);
 SS_HIDDEN int model_param_index(enum model_type t, const char *name);
+/* The model parameter table of a kind as docs/models.md prints it (markdown), appended to out. */
+SS_HIDDEN void device_param_table_md(const dev_ops *ops, ss_strbuf *out);
 /* The parameter of the model that the beta/temperature corners spread (DMP_CORNER), -1 none. */
 SS_HIDDEN int model_corner_param(const model *m);
 
