@@ -206,9 +206,10 @@ SS_API void ss_circuit_large_signal(const ss_circuit *ckt, double *freq_hz, doub
                                     double *thd_target_pct);
 
 /* THD of the stage: its source driven by amplitude * sin(2 pi freq_hz t) around its DC value
- * (every other source at its DC value), run until the output repeats from one period to the
- * next, then the first 10 harmonics of v(out) from a DFT over one whole period sampled at 256
- * points; THD = sqrt(A2^2 + ... + A10^2) / A1, in percent.
+ * (every other source at its DC value), run until the THD's estimated error from the distance
+ * to the periodic steady state is within 1e-4 of it (docs/transient.md), then the first 10
+ * harmonics of v(out) from a DFT over one whole period sampled at 256 points;
+ * THD = sqrt(A2^2 + ... + A10^2) / A1, in percent.
  * Outputs (owned by the caller, written on success only; each may be NULL if not wanted):
  *   out_thd_pct   the THD in percent
  *   out_harmonics harmonic, freq_hz, amplitude_v, relative_pct (of A1), phase_deg (of a sine)
@@ -238,8 +239,10 @@ SS_API ss_status ss_stage_amplitude_at_thd(ss_circuit *ckt, double thd_target_pc
 SS_API ss_status ss_stage_clipping(ss_circuit *ckt, ss_table **out_summary, ss_error *err);
 
 /* Every large-signal figure in one metric,value table: ss_stage_clipping's rows, then thd_pct
- * (at the .large_signal amplitude; empty without one), thd_target_pct and vin_at_thd_v
- * (iin_at_thd_a for a current source). Returns as ss_stage_thd. */
+ * (at the .large_signal amplitude; empty without one) and thd_err_pct (its estimated error
+ * from the distance to the periodic steady state, percentage points; empty when unknown),
+ * thd_target_pct and vin_at_thd_v (iin_at_thd_a for a current source). Returns as
+ * ss_stage_thd. */
 SS_API ss_status ss_stage_large_signal(ss_circuit *ckt, ss_table **out_summary, ss_error *err);
 
 /* Writes a waveform plot (input above, output below, over a shared time axis) from a table

@@ -14,14 +14,29 @@
 #define LS_THD_TARGET_DEFAULT_PCT 1.0 /* THD whose input amplitude is searched by default */
 #define THD_HARMONICS 10
 #define THD_STEPS_PER_PERIOD 256 /* a multiple of 4: the sine's peaks fall on samples */
-#define THD_MIN_PERIODS 3
 #define THD_MAX_PERIODS 1000
-/* Settled: the largest change of a sample from one period to the next, delta, is within
- * THD_SETTLE_TOL of the period's peak-to-peak output, and so is the drift still to come,
- * estimated from the ratio r of successive deltas as a geometric tail delta r / (1 - r);
- * twice in a row. A delta below THD_SETTLE_FLOOR of that is settled whatever its ratio. */
+/* Settled, twice in a row: for a swing, the estimated distance of the last period from the
+ * periodic steady state -- the change still to come, from a two-mode model of the last
+ * THD_FIT_DIFFS per-period changes -- is within THD_SETTLE_TOL of the period's peak-to-peak
+ * output; for a THD, the THD's estimated error (what that change would still make of it) is
+ * within THD_ERR_REL of it plus THD_ERR_ABS. The model is used while it fits the changes to
+ * THD_FIT_RESID and its slowest mode decays by at least 1 - THD_RHO_MAX a period; changes
+ * below Newton's tolerance are not resolved and count as settled, that tolerance standing for
+ * the distance. */
 #define THD_SETTLE_TOL 1e-5
-#define THD_SETTLE_FLOOR 1e-2
+#define THD_ERR_REL 1e-4 /* a tenth of the amplitude search's THD_TARGET_REL */
+#define THD_ERR_ABS 1e-7
+/* a run of the amplitude search only has to tell on which side of the target it is, and by
+ * about how much: its THD's error may be up to this fraction of its distance from the target */
+#define THD_GOAL_FRAC 0.1
+/* the THD's error is estimated by the model only once the waveform is within this fraction
+ * of its peak-to-peak of the steady state (where the period map is nearly linear) */
+#define THD_LINEAR 1e-3
+#define THD_FIT_DIFFS 5
+#define THD_FIT_RESID 0.05
+#define THD_RHO_MAX 0.9995
+#define THD_TAIL_SAFETY 2.0 /* the distance claimed: twice the estimated tail (and THD change) */
+#define THD_MIN_PERIODS (THD_FIT_DIFFS + 1)
 #define THD_WAVE_PERIODS 3 /* periods kept for the waveform table */
 /* Newton at each step of a large-signal run: tight, so solver error stays far below the
  * harmonics measured (they are differences of ~1e-5 of the signal and less) */
@@ -139,32 +154,183 @@ typedef struct thd_run {
     double amp, freq_hz;
     /* out */
     double a[THD_HARMONICS + 1], ph[THD_HARMONICS + 1];
-    double thd; /* ratio */
+    double thd;     /* ratio */
+    double thd_err; /* estimated error of thd from the distance to the steady state (ratio);
+                       NaN when the distance could not be estimated */
+    double dist_v;  /* estimated distance of the last period from the steady state (V, the
+                       largest over its samples); HUGE_VAL when it could not be estimated */
     double vmax, vmin;
     long periods;
     int settled;
+    int for_swing; /* in: settle on the waveform's distance (swings), else on the THD's error */
+    double goal;   /* in: the THD (ratio) a search looks for (0: none; see THD_GOAL_FRAC) */
+    /* in/out (may be NULL): every unknown at the start of a period of a similar run, to start
+     * from when have_state; gets this run's, at the start of its last period */
+    double *state;
+    int have_state;
     /* waveform of the last THD_WAVE_PERIODS periods (when wanted): time and output */
     double *wave_t, *wave_out;
     int n_wave;
 } thd_run;
 
+#define THD_RING (THD_FIT_DIFFS + 2) /* periods kept: the fitted ones and the one filling */
+
 typedef struct thd_sink {
     int n;                     /* samples per period */
     int out_u;                 /* unknown of the output node */
-    double *cur, *prev;        /* this period's samples and the last complete period's */
+    double *per;               /* THD_RING periods of samples; period p at (p % THD_RING) n */
+    double *tail;              /* n: the estimated change still to come of each sample */
+    double *cs, *sn;           /* n: cos and sin of 2 pi j / n, for the harmonics */
+    int for_swing;             /* settle on the distance, else on the THD's error */
+    double goal;               /* the THD a search looks for (0: none) */
+    /* every unknown at the start of the last three periods, period p's at (p % 3) n_unknowns
+     * (NULL: not kept), and the number of period starts seen */
+    double *start;
+    int n_unknowns;
+    long starts;
+    double fit_a, fit_b; /* the model of the last fit that held (fit_ok) */
+    int fit_ok;
     double *ring_t, *ring_out; /* the last THD_WAVE_PERIODS periods (NULL: not kept) */
     long periods;              /* complete periods */
     int settled;
-    int settled_run;   /* consecutive settled periods */
-    double last_delta; /* the previous period's delta */
+    int settled_run; /* consecutive settled periods */
+    double dist_v;   /* the last complete period's estimated distance (HUGE_VAL: unknown) */
+    double thd, thd_err; /* the last complete period's THD and its estimated error (ratios) */
 } thd_sink;
+
+static double *period_of(const thd_sink *s, long p)
+{
+    return s->per + (size_t)(p % THD_RING) * (size_t)s->n;
+}
+
+/* The change still to come after the last complete period P, from the changes
+ * d_m = x_m - x_(m-1) of the last THD_FIT_DIFFS periods, into s->tail; returns the distance
+ * claimed for P, THD_TAIL_SAFETY times the tail's largest magnitude, or HUGE_VAL when the
+ * model does not hold.
+ * Model: near a periodic steady state the period map is linear, so every sample's change is
+ * a sum of the same decaying modes, d_(m+1) = a d_m + b d_(m-1) with a and b shared by all
+ * samples -- two modes, which is what an AC-coupled stage shows (its coupling and bypass
+ * capacitors settle at rates as close as 0.976 and 0.991 a period, with opposite signs, so
+ * that their sum can all but vanish for a while). a and b are fitted by least squares over
+ * every sample and period (the minimal-polynomial idea of vector extrapolation: S. Cabay,
+ * L. W. Jackson, SIAM J. Numer. Anal. 13, 1976; for periodic steady states, S. Skelboe, IEEE
+ * Trans. Circuits Syst. 27, 1980 -- both from memory); when the changes are proportional
+ * (one mode) b = 0. Summing the recurrence, the tail S = sum_(m>P) d_m solves
+ * S = a (d_P + S) + b (d_(P-1) + d_P + S):
+ *     S = ((a + b) d_P + b d_(P-1)) / (1 - a - b),
+ * the geometric tail d_P a / (1 - a) for one mode. */
+static double steady_state_tail(thd_sink *s)
+{
+    const int n = s->n;
+    const long p_last = s->periods - 1;
+    /* sums over the triples (d_(m-1), d_m, d_(m+1)) */
+    double s00 = 0.0, s01 = 0.0, s11 = 0.0, s20 = 0.0, s21 = 0.0, s22 = 0.0;
+    for (long m = p_last - THD_FIT_DIFFS + 2; m <= p_last - 1; m++) {
+        const double *x_mm2 = period_of(s, m - 2), *x_mm1 = period_of(s, m - 1);
+        const double *x_m = period_of(s, m), *x_mp1 = period_of(s, m + 1);
+        for (int j = 0; j < n; j++) {
+            double d0 = x_mm1[j] - x_mm2[j], d1 = x_m[j] - x_mm1[j], d2 = x_mp1[j] - x_m[j];
+            s00 += d0 * d0;
+            s01 += d0 * d1;
+            s11 += d1 * d1;
+            s20 += d2 * d0;
+            s21 += d2 * d1;
+            s22 += d2 * d2;
+        }
+    }
+    if (!(s11 > 0.0) || !(s00 > 0.0))
+        return HUGE_VAL;
+    double a, b;
+    double det = s11 * s00 - s01 * s01;
+    if (det > 1e-6 * s11 * s00) { /* two modes: the normal equations */
+        a = (s21 * s00 - s20 * s01) / det;
+        b = (s20 * s11 - s21 * s01) / det;
+    } else { /* the changes are proportional: one mode */
+        a = s21 / s11;
+        b = 0.0;
+    }
+    /* how well the model fits: residual over the changes it predicts */
+    double resid = s22 - 2.0 * a * s21 - 2.0 * b * s20 + a * a * s11 + 2.0 * a * b * s01 +
+                   b * b * s00;
+    if (!(resid <= THD_FIT_RESID * THD_FIT_RESID * s22))
+        return HUGE_VAL;
+    /* the slowest mode: the larger root of z^2 - a z - b */
+    double disc = a * a + 4.0 * b;
+    double rho = disc >= 0.0 ? 0.5 * (fabs(a) + sqrt(disc)) : sqrt(-b);
+    if (!(rho < THD_RHO_MAX) || !(1.0 - a - b > 0.0))
+        return HUGE_VAL;
+    s->fit_a = a;
+    s->fit_b = b;
+    s->fit_ok = 1;
+    const double *x_p = period_of(s, p_last), *x_pm1 = period_of(s, p_last - 1);
+    const double *x_pm2 = period_of(s, p_last - 2);
+    double dist = 0.0;
+    for (int j = 0; j < n; j++) {
+        double d_p = x_p[j] - x_pm1[j], d_pm1 = x_pm1[j] - x_pm2[j];
+        s->tail[j] = ((a + b) * d_p + b * d_pm1) / (1.0 - a - b);
+        dist = fmax(dist, fabs(s->tail[j]));
+    }
+    return THD_TAIL_SAFETY * dist;
+}
+
+/* THD (a ratio) of one period x of n samples, and its fundamental's amplitude (*a1): as
+ * thd_harmonics and thd_ratio, with the angles from the table of s->cs, s->sn. */
+static double period_thd(const thd_sink *s, const double *x, double *a1)
+{
+    const int n = s->n;
+    double sum2 = 0.0;
+    *a1 = 0.0;
+    for (int k = 1; k <= THD_HARMONICS; k++) {
+        double re = 0.0, im = 0.0;
+        for (int j = 0; j < n; j++) {
+            int idx = (int)((long)k * j % n);
+            re += x[j] * s->cs[idx];
+            im -= x[j] * s->sn[idx];
+        }
+        double a = 2.0 * hypot(re, im) / n;
+        if (k == 1)
+            *a1 = a;
+        else
+            sum2 += a * a;
+    }
+    return *a1 > 0.0 ? sqrt(sum2) / *a1 : SS_NAN;
+}
+
+/* The estimated error of the THD of the last period x (ratio) from its distance to the steady
+ * state: THD_TAIL_SAFETY times the THD change the estimated tail would still make (the limit
+ * is x plus the tail); where the change was below Newton's tolerance (no tail), the most a
+ * change of that size in every sample can move it, (2 d / A1) (3 + THD) (each harmonic by 2 d
+ * at most, the nine of the THD together by 3 x 2 d); NaN when no distance could be
+ * estimated. Sets s->thd too. Uses s->tail's room after it. */
+static double thd_error(thd_sink *s, const double *x)
+{
+    double a1;
+    s->thd = period_thd(s, x, &a1);
+    if (!isfinite(s->dist_v) || !(a1 > 0.0))
+        return SS_NAN;
+    int zero_tail = 1;
+    for (int j = 0; j < s->n && zero_tail; j++)
+        zero_tail = s->tail[j] == 0.0;
+    if (zero_tail)
+        return 2.0 * s->dist_v / a1 * (3.0 + s->thd);
+    double *lim = s->tail + s->n;
+    for (int j = 0; j < s->n; j++)
+        lim[j] = x[j] + s->tail[j];
+    return THD_TAIL_SAFETY * fabs(period_thd(s, lim, &a1) - s->thd);
+}
 
 static int thd_point(void *vctx, long k, double t_s, const double *x)
 {
     thd_sink *s = vctx;
     int j = (int)(k % s->n);
     double v = x[s->out_u];
-    s->cur[j] = v;
+    double *cur = period_of(s, s->periods);
+    cur[j] = v;
+    if (j == 0 && s->start) {
+        memcpy(s->start + (size_t)(s->starts % 3) * (size_t)s->n_unknowns, x,
+               (size_t)s->n_unknowns * sizeof *s->start);
+        s->starts++;
+    }
     if (s->ring_t) {
         long r = k % ((long)THD_WAVE_PERIODS * s->n);
         s->ring_t[r] = t_s;
@@ -172,28 +338,36 @@ static int thd_point(void *vctx, long k, double t_s, const double *x)
     }
     if (j != s->n - 1)
         return 0;
-    /* a period is complete: compare it with the one before */
-    double lo = s->cur[0], hi = s->cur[0], delta = 0.0;
+    /* a period is complete: its change from the one before, and the change still to come */
+    const double *prev = s->periods > 0 ? period_of(s, s->periods - 1) : cur;
+    double lo = cur[0], hi = cur[0], delta = 0.0, big = 0.0;
     for (int i = 0; i < s->n; i++) {
-        lo = fmin(lo, s->cur[i]);
-        hi = fmax(hi, s->cur[i]);
-        if (s->periods > 0)
-            delta = fmax(delta, fabs(s->cur[i] - s->prev[i]));
+        lo = fmin(lo, cur[i]);
+        hi = fmax(hi, cur[i]);
+        big = fmax(big, fabs(cur[i]));
+        delta = fmax(delta, fabs(cur[i] - prev[i]));
     }
-    double *tmp = s->prev;
-    s->prev = s->cur;
-    s->cur = tmp;
     s->periods++;
-    double scale = fmax(hi - lo, 1e-12 * fmax(fabs(hi), fabs(lo)));
-    double allowed = THD_SETTLE_TOL * scale;
-    int now = 0;
-    if (s->periods >= 2 && delta <= THD_SETTLE_FLOOR * allowed) {
-        now = 1;
-    } else if (s->periods >= 3 && delta <= allowed && s->last_delta > 0.0) {
-        double r = delta / s->last_delta;
-        now = r < 0.95 && delta * r / (1.0 - r) <= allowed;
+    double scale = fmax(hi - lo, 1e-12 * big);
+    /* below Newton's tolerance a change is not resolved */
+    double unresolved = THD_NEWTON_TOL_REL * big + THD_NEWTON_TOL_V;
+    s->dist_v = HUGE_VAL;
+    s->fit_ok = 0;
+    if (s->periods >= 2 && delta <= unresolved) {
+        memset(s->tail, 0, (size_t)s->n * sizeof *s->tail);
+        s->dist_v = unresolved;
+    } else if (s->periods > THD_FIT_DIFFS) {
+        s->dist_v = steady_state_tail(s);
     }
-    s->last_delta = delta;
+    int now;
+    if (s->for_swing) {
+        now = s->dist_v <= THD_SETTLE_TOL * scale;
+    } else {
+        s->thd_err = thd_error(s, cur);
+        now = s->dist_v <= THD_LINEAR * scale &&
+              s->thd_err <= fmax(THD_ERR_REL * s->thd + THD_ERR_ABS,
+                                 s->goal > 0.0 ? THD_GOAL_FRAC * fabs(s->thd - s->goal) : 0.0);
+    }
     s->settled_run = now ? s->settled_run + 1 : 0;
     s->settled = s->settled_run >= 2;
     return s->periods >= THD_MIN_PERIODS && s->settled;
@@ -212,7 +386,7 @@ static ss_status thd_measure(ss_circuit *ckt, const stage_ref *sr, thd_run *r, i
     memset(&s, 0, sizeof s);
     s.n = n;
     s.out_u = sr->out_node - 1;
-    double *buf = ss_alloc((size_t)(2 * n) * sizeof *buf);
+    double *buf = ss_alloc((size_t)((THD_RING + 4) * n) * sizeof *buf);
     double *ring = want_wave ? ss_alloc((size_t)(2 * THD_WAVE_PERIODS * n) * sizeof *ring) : NULL;
     void **saved_wave = ss_alloc((size_t)(ckt->n_elem ? ckt->n_elem : 1) * sizeof *saved_wave);
     if (!buf || (want_wave && !ring) || !saved_wave) {
@@ -221,8 +395,27 @@ static ss_status thd_measure(ss_circuit *ckt, const stage_ref *sr, thd_run *r, i
         ss_free(saved_wave);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
-    s.cur = buf;
-    s.prev = buf + n;
+    s.per = buf;
+    s.tail = buf + THD_RING * n; /* and n more after it for thd_error */
+    s.cs = buf + (THD_RING + 2) * n;
+    s.sn = buf + (THD_RING + 3) * n;
+    for (int j = 0; j < n; j++) {
+        s.cs[j] = cos(2.0 * SS_PI * j / n);
+        s.sn[j] = sin(2.0 * SS_PI * j / n);
+    }
+    s.dist_v = HUGE_VAL;
+    s.thd_err = SS_NAN;
+    s.for_swing = r->for_swing;
+    s.goal = r->goal;
+    s.n_unknowns = ckt->n_unknowns;
+    if (r->state) {
+        s.start = ss_alloc((size_t)(3 * ckt->n_unknowns) * sizeof *s.start);
+        if (!s.start) {
+            ss_free(buf);
+            ss_free(ring);
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        }
+    }
     if (ring) {
         s.ring_t = ring;
         s.ring_out = ring + THD_WAVE_PERIODS * n;
@@ -251,8 +444,27 @@ static ss_status thd_measure(ss_circuit *ckt, const stage_ref *sr, thd_run *r, i
                     .newton_tol_rel = THD_NEWTON_TOL_REL,
                     .newton_tol_v = THD_NEWTON_TOL_V,
                     .on_point = thd_point,
-                    .ctx = &s};
+                    .ctx = &s,
+                    .x_start = r->state && r->have_state ? r->state : NULL};
     ss_status st = tran_run(ckt, &cfg, NULL, err);
+    if (r->state && st == SS_OK && s.starts > 0) {
+        /* the periodic state for the next run: the latest period start, taken on to the limit
+         * with the last model that held (the same modes move every unknown) */
+        long l = s.starts - 1;
+        const double *y0 = s.start + (size_t)(l % 3) * (size_t)s.n_unknowns;
+        const double *y1 = s.start + (size_t)((l + 2) % 3) * (size_t)s.n_unknowns;
+        const double *y2 = s.start + (size_t)((l + 1) % 3) * (size_t)s.n_unknowns;
+        int extrapolate = s.fit_ok && l >= 2;
+        double a = s.fit_a, b = s.fit_b;
+        for (int u = 0; u < s.n_unknowns; u++)
+            r->state[u] = y0[u] + (extrapolate ? ((a + b) * (y0[u] - y1[u]) +
+                                                  b * (y1[u] - y2[u])) / (1.0 - a - b)
+                                               : 0.0);
+        r->have_state = 1;
+    } else if (r->state) {
+        r->have_state = 0;
+    }
+    ss_free(s.start);
     for (int i = 0; i < ckt->n_elem; i++)
         if (elem_is_source(&ckt->elem[i]))
             ckt->elem[i].wave = saved_wave[i];
@@ -260,15 +472,18 @@ static ss_status thd_measure(ss_circuit *ckt, const stage_ref *sr, thd_run *r, i
     if (st == SS_OK && s.periods < 1)
         st = err_set(err, SS_ERR_INTERNAL, ckt->file, 0, "THD: no complete period");
     if (st == SS_OK) {
+        const double *x_last = period_of(&s, s.periods - 1);
         r->periods = s.periods;
         r->settled = s.settled;
-        thd_harmonics(s.prev, n, THD_HARMONICS, r->a, r->ph);
+        thd_harmonics(x_last, n, THD_HARMONICS, r->a, r->ph);
         r->thd = thd_ratio(r->a, THD_HARMONICS);
-        r->vmax = r->vmin = s.prev[0];
+        r->vmax = r->vmin = x_last[0];
         for (int j = 0; j < n; j++) {
-            r->vmax = fmax(r->vmax, s.prev[j]);
-            r->vmin = fmin(r->vmin, s.prev[j]);
+            r->vmax = fmax(r->vmax, x_last[j]);
+            r->vmin = fmin(r->vmin, x_last[j]);
         }
+        r->dist_v = s.dist_v;
+        r->thd_err = s.for_swing ? thd_error(&s, x_last) : s.thd_err;
         if (!s.settled)
             circuit_warn(ckt,
                          "large signal: the output at %g Hz, amplitude %g, still changes from "
@@ -388,6 +603,43 @@ ss_status ss_stage_thd(ss_circuit *ckt, double amplitude, double freq_hz, double
         *out_harmonics = h;
     if (out_wave)
         *out_wave = w;
+    return SS_OK;
+}
+
+/* One large-signal run with what it knows of its own accuracy, for the tests: settled as for
+ * a swing (for_swing) or for a THD; the last period's THD_STEPS_PER_PERIOD output samples
+ * (last_period, may be NULL), the THD and its estimated error (ratios), the estimated distance
+ * of that period from the periodic steady state (V; HUGE_VAL when unknown) and the periods
+ * run. Returns as ss_stage_thd. */
+SS_HIDDEN ss_status thd_steady_state(ss_circuit *ckt, double amplitude, double freq_hz,
+                                     int for_swing, double *last_period, double *thd,
+                                     double *thd_err, double *dist_v, long *periods,
+                                     ss_error *err);
+ss_status thd_steady_state(ss_circuit *ckt, double amplitude, double freq_hz, int for_swing,
+                           double *last_period, double *thd, double *thd_err, double *dist_v,
+                           long *periods, ss_error *err)
+{
+    stage_ref sr;
+    ss_status st = stage_lookup(ckt, &sr, err);
+    if (st == SS_OK)
+        st = ensure_op(ckt, err);
+    if (st != SS_OK)
+        return st;
+    thd_run r;
+    memset(&r, 0, sizeof r);
+    r.amp = amplitude;
+    r.freq_hz = freq_hz;
+    r.for_swing = for_swing;
+    if ((st = thd_measure(ckt, &sr, &r, last_period != NULL, err)) != SS_OK)
+        return st;
+    if (last_period) /* the wave's last THD_STEPS_PER_PERIOD samples */
+        memcpy(last_period, r.wave_out + r.n_wave - THD_STEPS_PER_PERIOD,
+               THD_STEPS_PER_PERIOD * sizeof *last_period);
+    ss_free(r.wave_t);
+    *thd = r.thd;
+    *thd_err = r.thd_err;
+    *dist_v = r.dist_v;
+    *periods = r.periods;
     return SS_OK;
 }
 
@@ -728,6 +980,7 @@ static ss_status clipping_compute(ss_circuit *ckt, const stage_ref *sr, clip_res
         memset(&r, 0, sizeof r);
         r.amp = amp;
         r.freq_hz = res->freq_hz;
+        r.for_swing = 1;
         st = thd_measure(ckt, sr, &r, 0, err);
         if (st != SS_OK)
             break;
@@ -747,14 +1000,26 @@ done:
 
 /* ---- the amplitude for a THD ------------------------------------------------------------- */
 
+/* The periodic state one THD run of a search ended in, for the next to start from: the
+ * amplitudes it tries are close, and a stage with slow bias networks would otherwise settle
+ * them afresh from the operating point every time. */
+typedef struct thd_warm {
+    double *state; /* every unknown (NULL: start every run from the operating point) */
+    int have;
+} thd_warm;
+
 static ss_status thd_at(ss_circuit *ckt, const stage_ref *sr, double amp, double freq_hz,
-                        double *thd, ss_error *err)
+                        double goal, thd_warm *warm, double *thd, ss_error *err)
 {
     thd_run r;
     memset(&r, 0, sizeof r);
     r.amp = amp;
     r.freq_hz = freq_hz;
+    r.goal = goal;
+    r.state = warm->state;
+    r.have_state = warm->have;
     ss_status st = thd_measure(ckt, sr, &r, 0, err);
+    warm->have = r.have_state;
     if (st == SS_OK && !(r.thd >= 0.0))
         st = err_set(err, SS_ERR_INPUT, ckt->file, 0,
                      "THD: no fundamental at the output '%s' at %g Hz", ckt->stage_out, freq_hz);
@@ -766,12 +1031,12 @@ static ss_status thd_at(ss_circuit *ckt, const stage_ref *sr, double amp, double
 /* The amplitude where THD = target (a ratio), searched from a_start and not above a_max.
  * *out_amp is NaN when THD stays below the target up to a_max. */
 static ss_status amplitude_at_thd(ss_circuit *ckt, const stage_ref *sr, double target,
-                                  double freq_hz, double a_start, double a_max, double *out_amp,
-                                  ss_error *err)
+                                  double freq_hz, double a_start, double a_max, thd_warm *warm,
+                                  double *out_amp, ss_error *err)
 {
     /* bracket [a_lo, a_hi] with THD(a_lo) < target <= THD(a_hi), by factors of two */
     double a = fmin(a_start, a_max), thd = 0.0;
-    ss_status st = thd_at(ckt, sr, a, freq_hz, &thd, err);
+    ss_status st = thd_at(ckt, sr, a, freq_hz, target, warm, &thd, err);
     if (st != SS_OK)
         return st;
     double a_lo = 0.0, t_lo = 0.0, a_hi = 0.0, t_hi = 0.0;
@@ -780,7 +1045,7 @@ static ss_status amplitude_at_thd(ss_circuit *ckt, const stage_ref *sr, double t
         t_lo = thd;
         for (int k = 0; k < 40 && st == SS_OK && a < a_max; k++) {
             a = fmin(THD_BRACKET_GROW * a, a_max);
-            st = thd_at(ckt, sr, a, freq_hz, &thd, err);
+            st = thd_at(ckt, sr, a, freq_hz, target, warm, &thd, err);
             if (st == SS_OK && thd >= target) {
                 a_hi = a;
                 t_hi = thd;
@@ -796,7 +1061,7 @@ static ss_status amplitude_at_thd(ss_circuit *ckt, const stage_ref *sr, double t
         t_hi = thd;
         for (int k = 0; k < 80 && st == SS_OK; k++) {
             a /= THD_BRACKET_GROW;
-            st = thd_at(ckt, sr, a, freq_hz, &thd, err);
+            st = thd_at(ckt, sr, a, freq_hz, target, warm, &thd, err);
             if (st == SS_OK && thd < target) {
                 a_lo = a;
                 t_lo = thd;
@@ -830,7 +1095,7 @@ static ss_status amplitude_at_thd(ss_circuit *ckt, const stage_ref *sr, double t
         double lm = (fb - fa) != 0.0 ? lb - fb * (lb - la) / (fb - fa) : 0.5 * (la + lb);
         if (!(lm > la && lm < lb))
             lm = 0.5 * (la + lb);
-        st = thd_at(ckt, sr, exp(lm), freq_hz, &thd, err);
+        st = thd_at(ckt, sr, exp(lm), freq_hz, target, warm, &thd, err);
         if (st != SS_OK)
             return st;
         double fm = log(thd / target);
@@ -881,7 +1146,11 @@ ss_status ss_stage_amplitude_at_thd(ss_circuit *ckt, double thd_target_pct, doub
         return err_set(err, SS_ERR_INPUT, ckt->file, 0,
                        "THD: the stage passes nothing to '%s' at %g Hz", ckt->stage_out, freq_hz);
     double a0 = 0.1 * v_scale / cabs(g), a_max = CLIP_RANGE * v_scale / cabs(g), a;
-    st = amplitude_at_thd(ckt, &sr, thd_target_pct / 100.0, freq_hz, a0, a_max, &a, err);
+    thd_warm warm = {ss_alloc((size_t)ckt->n_unknowns * sizeof(double)), 0};
+    if (!warm.state)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    st = amplitude_at_thd(ckt, &sr, thd_target_pct / 100.0, freq_hz, a0, a_max, &warm, &a, err);
+    ss_free(warm.state);
     if (st == SS_OK && isnan(a))
         return err_set(err, SS_ERR_NO_CONVERGENCE, ckt->file, 0,
                        "THD stays below %g %% up to amplitude %g (output %g V peak at the AC "
@@ -911,13 +1180,23 @@ static ss_status clipping_rows(ss_circuit *ckt, const stage_ref *sr, ss_table *t
         return st;
     const char *in_pos = sr->is_current ? "iin_at_swing_pos_a" : "vin_at_swing_pos_v";
     const char *in_neg = sr->is_current ? "iin_at_swing_neg_a" : "vin_at_swing_neg_v";
-    int bad = add_metric(t, "ls_freq_hz", res->freq_hz) | add_metric(t, "qs_gain", res->qs_gain) |
-              add_metric(t, "swing_pos_v", res->swing_pos) |
-              add_metric(t, "swing_neg_v", res->swing_neg) | add_metric(t, in_pos, res->in_pos) |
-              add_metric(t, in_neg, res->in_neg) |
-              add_metric(t, "swing_pos_tran_v", res->swing_pos_tran) |
-              add_metric(t, "swing_neg_tran_v", res->swing_neg_tran);
-    return bad ? err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory") : SS_OK;
+    /* one row after the other: the operands of | may be evaluated in any order, and the rows'
+     * order is large_signal.csv's */
+    const struct {
+        const char *name;
+        double v;
+    } rows[] = {{"ls_freq_hz", res->freq_hz},
+                {"qs_gain", res->qs_gain},
+                {"swing_pos_v", res->swing_pos},
+                {"swing_neg_v", res->swing_neg},
+                {in_pos, res->in_pos},
+                {in_neg, res->in_neg},
+                {"swing_pos_tran_v", res->swing_pos_tran},
+                {"swing_neg_tran_v", res->swing_neg_tran}};
+    for (size_t i = 0; i < sizeof rows / sizeof rows[0]; i++)
+        if (add_metric(t, rows[i].name, rows[i].v) != 0)
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    return SS_OK;
 }
 
 static ss_table *metric_table(void)
@@ -965,9 +1244,25 @@ ss_status ss_stage_large_signal(ss_circuit *ckt, ss_table **out_summary, ss_erro
     if (st != SS_OK)
         return st;
     double f = ls_freq(ckt);
-    double thd_pct = SS_NAN;
-    if (st == SS_OK && ckt->ls_amp > 0.0)
-        st = ss_stage_thd(ckt, ckt->ls_amp, f, &thd_pct, NULL, NULL, err);
+    double thd_pct = SS_NAN, thd_err_pct = SS_NAN;
+    thd_warm warm = {ss_alloc((size_t)ckt->n_unknowns * sizeof(double)), 0};
+    if (!warm.state)
+        st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    if (st == SS_OK && ckt->ls_amp > 0.0) {
+        thd_run r;
+        memset(&r, 0, sizeof r);
+        r.amp = ckt->ls_amp;
+        r.freq_hz = f;
+        r.state = warm.state; /* from the operating point; the search goes on from its end */
+        st = thd_measure(ckt, &sr, &r, 0, err);
+        warm.have = r.have_state;
+        if (st == SS_OK && !(r.a[1] > 0.0))
+            st = err_set(err, SS_ERR_INPUT, ckt->file, 0,
+                         "THD: no fundamental at the output '%s' (the stage does not pass %g Hz)",
+                         ckt->stage_out, f);
+        thd_pct = 100.0 * r.thd;
+        thd_err_pct = 100.0 * r.thd_err;
+    }
     double target =
         ckt->ls_thd_target_pct > 0.0 ? ckt->ls_thd_target_pct : LS_THD_TARGET_DEFAULT_PCT;
     double a_thd = SS_NAN;
@@ -981,7 +1276,7 @@ ss_status ss_stage_large_signal(ss_circuit *ckt, ss_table **out_summary, ss_erro
         double a_max = CLIP_RANGE * v_scale / fabs(res.qs_gain);
         if (!isfinite(a0))
             a0 = 0.1 * a_max;
-        st = amplitude_at_thd(ckt, &sr, target / 100.0, f, a0, a_max, &a_thd, err);
+        st = amplitude_at_thd(ckt, &sr, target / 100.0, f, a0, a_max, &warm, &a_thd, err);
         if (st == SS_OK && isnan(a_thd))
             circuit_warn(ckt,
                          "large signal: THD stays below %g %% up to input amplitude %g; "
@@ -989,13 +1284,20 @@ ss_status ss_stage_large_signal(ss_circuit *ckt, ss_table **out_summary, ss_erro
                          target, a_max);
     }
     if (st == SS_OK) {
-        int bad = add_metric(t, sr.is_current ? "thd_amp_a" : "thd_amp_v",
-                             ckt->ls_amp > 0.0 ? ckt->ls_amp : SS_NAN) |
-                  add_metric(t, "thd_pct", thd_pct) | add_metric(t, "thd_target_pct", target) |
-                  add_metric(t, sr.is_current ? "iin_at_thd_a" : "vin_at_thd_v", a_thd);
-        if (bad)
-            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        const struct {
+            const char *name;
+            double v;
+        } rows[] = {{sr.is_current ? "thd_amp_a" : "thd_amp_v",
+                     ckt->ls_amp > 0.0 ? ckt->ls_amp : SS_NAN},
+                    {"thd_pct", thd_pct},
+                    {"thd_err_pct", thd_err_pct},
+                    {"thd_target_pct", target},
+                    {sr.is_current ? "iin_at_thd_a" : "vin_at_thd_v", a_thd}};
+        for (size_t i = 0; i < sizeof rows / sizeof rows[0] && st == SS_OK; i++)
+            if (add_metric(t, rows[i].name, rows[i].v) != 0)
+                st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
+    ss_free(warm.state);
     if (st != SS_OK) {
         ss_table_destroy(&t);
         return st;

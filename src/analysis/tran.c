@@ -13,11 +13,18 @@
 #define TRAN_NEWTON_MAX 25    /* Newton iterations per step before the step is cut */
 #define TRAN_NEWTON_CUT 0.125 /* step factor after a Newton failure */
 #define TRAN_GROW_MAX 2.0     /* largest step growth from one step to the next */
-#define TRAN_SHRINK_MIN 0.2   /* smallest factor an LTE rejection cuts the step by */
-#define TRAN_SAFETY 0.9       /* aim the next step's estimated error at 0.9^3 of the limit */
+#define TRAN_SHRINK_MIN 0.2   /* smallest factor an error rejection cuts the step by */
+#define TRAN_SAFETY 0.9       /* aim the next step's estimated error below the limit */
 #define TRAN_BP_CUT 0.1       /* after a source corner: step <= 0.1 x min(last, next corner) */
 #define TRAN_FIRST_STEP 0.01  /* the first step: 0.01 x min(tstep, hmax, first corner) */
 #define TRAN_HMIN_REL 1e-12   /* step floor, relative to the stop time */
+/* Rounding, not truncation: Newton updates that shrink by less than TRAN_STALL_SHRINK per
+ * iteration, or an error estimate that falls by less than TRAN_STALL_ERR when the step is at
+ * least halved (truncation error would fall 8 times), TRAN_STALL_COUNT times in a row -- each
+ * within the solve's rounding bound */
+#define TRAN_STALL_SHRINK 0.25
+#define TRAN_STALL_ERR 0.5
+#define TRAN_STALL_COUNT 2
 #define TRAN_MAX_STEPS 200000000L
 #define TRAN_MAX_CELLS 1e8 /* tran.csv values held in memory (800 MB) */
 
@@ -38,8 +45,13 @@ typedef struct tran_ws {
     double *i_n;                 /* dq/dt at t_n as the integration formula gave it */
     double *hist;                /* the history term of this step's formula */
     double *x_new, *x_n, *x_nm1, *x_nm2;
-    int *src;       /* elements with a time-varying form */
-    double *src_dc; /* their DC values, restored at the end */
+    /* the start-up step: its results at the midpoint and the first-level extrapolation at
+     * the end; the backward-Euler solutions it extrapolates from (xs) and their charges (qs) */
+    double *x_mid, *q_mid, *x_full;
+    double *xs[4], *qs[2];
+    double rcond;                   /* the last solve's reciprocal pivot ratio (KLU) */
+    int *src;                       /* elements with a time-varying form */
+    double *src_dc;                 /* their DC values, restored at the end */
     int n_src;
 } tran_ws;
 
@@ -55,6 +67,13 @@ static void ws_free(tran_ws *w)
     ss_free(w->x_n);
     ss_free(w->x_nm1);
     ss_free(w->x_nm2);
+    ss_free(w->x_full);
+    ss_free(w->x_mid);
+    ss_free(w->q_mid);
+    for (int k = 0; k < 4; k++)
+        ss_free(w->xs[k]);
+    for (int k = 0; k < 2; k++)
+        ss_free(w->qs[k]);
     ss_free(w->src);
     ss_free(w->src_dc);
     memset(w, 0, sizeof *w);
@@ -96,8 +115,16 @@ static ss_status ws_alloc(const ss_circuit *ckt, tran_ws *w, ss_error *err)
     w->x_n = ss_alloc(nx * sizeof(double));
     w->x_nm1 = ss_alloc(nx * sizeof(double));
     w->x_nm2 = ss_alloc(nx * sizeof(double));
-    if (!w->q_new || !w->q_n || !w->q_nm1 || !w->i_n || !w->hist || !w->x_new || !w->x_n ||
-        !w->x_nm1 || !w->x_nm2) {
+    w->x_full = ss_alloc(nx * sizeof(double));
+    w->x_mid = ss_alloc(nx * sizeof(double));
+    w->q_mid = ss_alloc(nq * sizeof(double));
+    int bad = 0;
+    for (int k = 0; k < 4; k++)
+        bad |= !(w->xs[k] = ss_alloc(nx * sizeof(double)));
+    for (int k = 0; k < 2; k++)
+        bad |= !(w->qs[k] = ss_alloc(nq * sizeof(double)));
+    if (bad || !w->q_new || !w->q_n || !w->q_nm1 || !w->i_n || !w->hist || !w->x_new || !w->x_n ||
+        !w->x_nm1 || !w->x_nm2 || !w->x_full || !w->x_mid || !w->q_mid) {
         ws_free(w);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
@@ -130,6 +157,36 @@ static double next_corner(const ss_circuit *ckt, const tran_ws *w, double t_s, d
             best = c;
     }
     return best;
+}
+
+/* The longest step every source's form still allows from t_s on (HUGE_VAL: no limit). */
+static double source_step_cap(const ss_circuit *ckt, const tran_ws *w, double t_s)
+{
+    double cap = HUGE_VAL;
+    for (int k = 0; k < w->n_src; k++)
+        cap = fmin(cap, wave_max_step(ckt->elem[w->src[k]].wave, t_s));
+    return cap;
+}
+
+/* The steps the sources ask for up to tstop at the least, for the source asking most (*which):
+ * the span of a SIN over its largest step, two for the start after each corner. */
+static double source_steps_needed(const ss_circuit *ckt, const tran_ws *w, double tstop,
+                                  int *which)
+{
+    double most = 0.0;
+    *which = -1;
+    for (int k = 0; k < w->n_src; k++) {
+        const src_wave *f = ckt->elem[w->src[k]].wave;
+        double need = 2.0 * wave_corners_until(f, tstop);
+        double h = wave_max_step(f, HUGE_VAL);
+        if (f->kind == WAVE_SIN && isfinite(h) && f->p[WS_TD] < tstop)
+            need += (tstop - f->p[WS_TD]) / h;
+        if (need > most) {
+            most = need;
+            *which = w->src[k];
+        }
+    }
+    return most;
 }
 
 /* The charges of every element at the solution x, into q. */
@@ -166,10 +223,28 @@ static void reset_device_state(ss_circuit *ckt, const double *x)
         ckt->elem[i].ops->load_dc(&ckt->elem[i], &lc);
 }
 
+/* The rounding bound of a solve's node voltages: eps / rcond times the largest of them, a
+ * forward-error bound with KLU's reciprocal pivot ratio standing for the condition number
+ * (G. H. Golub, C. F. Van Loan, Matrix Computations, 3rd ed., 1996, sec. 2.7 -- from memory).
+ * It grows as the step shrinks under a large charge: a charge current a0 (q - q_n) keeps only
+ * the digits that a0 q has beyond it. */
+static double rounding_bound(const tran_ws *w, const double *x, double rcond)
+{
+    double big = 0.0;
+    for (int u = 0; u < w->n_volt; u++)
+        big = fmax(big, fabs(x[u]));
+    return rcond > 0.0 ? DBL_EPSILON / rcond * big : HUGE_VAL;
+}
+
 /* Newton at one time point: every device's DC companion, then its charges' companion with
  * the step's coefficient a0 and history terms. x: the predictor in, the solution out.
- * Converged when an update is within the operating point's tolerances, nothing was limited,
- * and at least two iterations were made (the first one is measured from the predictor). */
+ * Converged when an update is within the tolerances, nothing was limited, and at least two
+ * iterations were made (the first one is measured from the predictor) -- or, when the
+ * tolerances lie below what double precision resolves in this step's system, at the rounding
+ * floor: the updates have stopped shrinking (by less than TRAN_STALL_SHRINK from one
+ * iteration to the next) and every node voltage's is within its tolerance plus the solve's
+ * rounding bound (branch currents are not judged there: at given node voltages they follow
+ * from them). w->rcond gets the last solve's pivot ratio. */
 static ss_status step_newton(ss_circuit *ckt, tran_ws *w, double a0, double tol_rel, double tol_v,
                              double *x, int *iters, int *worst_unknown)
 {
@@ -179,6 +254,7 @@ static ss_status step_newton(ss_circuit *ckt, tran_ws *w, double a0, double tol_
     double *rhs = ckt->work_rhs;
     const ss_options_set *o = &ckt->opt;
     double vt = analysis_vt(ckt);
+    double worst_prev = HUGE_VAL;
     *worst_unknown = -1;
     for (int it = 0; it < TRAN_NEWTON_MAX; it++) {
         memset(G, 0, (size_t)nnz * sizeof *G);
@@ -202,9 +278,10 @@ static ss_status step_newton(ss_circuit *ckt, tran_ws *w, double a0, double tol_
             ckt->elem[i].ops->load_tran(&ckt->elem[i], &tc);
         }
         int bad;
-        double rcond;
+        double rcond = 0.0;
         ss_status st = mna_solve_real(m, rhs, &bad, &rcond);
         (*iters)++;
+        w->rcond = rcond;
         if (st != SS_OK) {
             *worst_unknown = bad;
             return st;
@@ -223,39 +300,74 @@ static ss_status step_newton(ss_circuit *ckt, tran_ws *w, double a0, double tol_
                 *worst_unknown = u;
             }
         }
+        int at_floor = 0;
+        if (worst > 1.0 && it >= 2 && worst > TRAN_STALL_SHRINK * worst_prev) {
+            double bound = rounding_bound(w, rhs, rcond);
+            at_floor = 1;
+            for (int u = 0; u < w->n_volt && at_floor; u++)
+                at_floor = fabs(rhs[u] - x[u]) <=
+                           tol_rel * fmax(fabs(rhs[u]), fabs(x[u])) + tol_v + bound;
+        }
         memcpy(x, rhs, (size_t)n * sizeof *x);
-        if (worst <= 1.0 && !lc.limited && it > 0)
+        if (!lc.limited && it > 0 && (worst <= 1.0 || at_floor))
             return SS_OK;
+        worst_prev = worst;
     }
     return SS_ERR_NO_CONVERGENCE;
 }
 
 /* Estimated local truncation error of the step to t0 over the allowed error, the worst node
- * (*worst_unknown): C h^3 |x'''| with x''' = 6 x[t0,t1,t2,t3], the third divided difference of
- * each node voltage over the new point and the three before it (Nagel 1975; Lambert 1991 --
- * from memory). Allowed: tol_rel max(|x0|, |x1|) + tol_v. */
+ * (*worst_unknown) and its estimate in volts (*worst_v): C h^3 |x'''| with
+ * x''' = 6 x[t0,t1,t2,t3], the third divided difference of each node voltage over the new
+ * point and the three before it (Nagel 1975; Lambert 1991 -- from memory). Allowed:
+ * tol_rel max(|x0|, |x1|) + tol_v. *weight_sum: the sum of the four points' |weights| (what
+ * the estimate makes of an error in each point). */
 static double lte_ratio(const tran_ws *w, const double *t, double c_lte, double h, double tol_rel,
-                        double tol_v, int *worst_unknown)
+                        double tol_v, int *worst_unknown, double *worst_v, double *weight_sum)
 {
     const double *x0 = w->x_new, *x1 = w->x_n, *x2 = w->x_nm1, *x3 = w->x_nm2;
     /* x[t0,t1,t2,t3] = sum_i x_i / prod_{j != i} (t_i - t_j): the same weights for every node,
      * times the error constant, h^3 and 6 */
     double wt[4];
+    *weight_sum = 0.0;
     for (int i = 0; i < 4; i++) {
         double p = 1.0;
         for (int j = 0; j < 4; j++)
             if (j != i)
                 p *= t[i] - t[j];
         wt[i] = c_lte * h * h * h * 6.0 / p;
+        *weight_sum += fabs(wt[i]);
     }
     double worst = 0.0;
     *worst_unknown = -1;
+    *worst_v = 0.0;
     for (int u = 0; u < w->n_volt; u++) {
         double lte = fabs(wt[0] * x0[u] + wt[1] * x1[u] + wt[2] * x2[u] + wt[3] * x3[u]);
         double allowed = tol_rel * fmax(fabs(x0[u]), fabs(x1[u])) + tol_v;
         if (lte > worst * allowed) {
             worst = lte / allowed;
             *worst_unknown = u;
+            *worst_v = lte;
+        }
+    }
+    return worst;
+}
+
+/* The largest |a - b| of a node voltage over its allowed error tol_rel max(|a|, |b|) + tol_v,
+ * the node (*worst_unknown) and the difference there (*worst_v). */
+static double diff_ratio(const tran_ws *w, const double *a, const double *b, double tol_rel,
+                         double tol_v, int *worst_unknown, double *worst_v)
+{
+    double worst = 0.0;
+    *worst_unknown = -1;
+    *worst_v = 0.0;
+    for (int u = 0; u < w->n_volt; u++) {
+        double d = fabs(a[u] - b[u]);
+        double allowed = tol_rel * fmax(fabs(a[u]), fabs(b[u])) + tol_v;
+        if (d > worst * allowed) {
+            worst = d / allowed;
+            *worst_unknown = u;
+            *worst_v = d;
         }
     }
     return worst;
@@ -266,6 +378,132 @@ static void rotate(double **a, double **b)
     double *t = *a;
     *a = *b;
     *b = t;
+}
+
+typedef struct step_tols {
+    double n_rel, n_v; /* Newton's tolerances */
+    double tstep_s;    /* the output step (PULSE edges given as 0 stand for it) */
+} step_tols;
+
+/* The coefficients of a formula for the step h (h_prev: the step before), and the history
+ * term of every charge into w->hist from the accepted charges q_n (and w->q_nm1, w->i_n).
+ * Returns a0: the step's charge currents are a0 q + hist. */
+static double set_history(tran_ws *w, enum step_form form, double h, double h_prev,
+                          const double *q_n)
+{
+    double a0, a1, a2 = 0.0;
+    if (form == FORM_BE) {
+        a0 = 1.0 / h;
+        a1 = -a0;
+    } else if (form == FORM_TRAP) {
+        a0 = 2.0 / h;
+        a1 = -a0;
+    } else { /* variable-step BDF2 on t_n+1, t_n, t_n-1 (Lambert 1991 -- from memory) */
+        double r = h / h_prev;
+        a0 = (1.0 + 2.0 * r) / (h * (1.0 + r));
+        a1 = -(1.0 + r) / h;
+        a2 = r * r / (h * (1.0 + r));
+    }
+    for (int q = 0; q < w->n_q; q++)
+        w->hist[q] = a1 * q_n[q] + a2 * w->q_nm1[q] - (form == FORM_TRAP ? w->i_n[q] : 0.0);
+    return a0;
+}
+
+/* Newton for one step to t_new with a0 and w->hist set; x holds the predictor and gets the
+ * solution. */
+static ss_status solve_point(ss_circuit *ckt, tran_ws *w, const step_tols *tl, double a0,
+                             double t_new, double *x, tran_stats *s, int *worst_u)
+{
+    set_sources(ckt, w, t_new, tl->tstep_s);
+    int iters = 0;
+    ss_status st = step_newton(ckt, w, a0, tl->n_rel, tl->n_v, x, &iters, worst_u);
+    s->newton_iterations += iters;
+    return st;
+}
+
+/* The first step from a corner (or from t = 0), where no point on this side of it is known
+ * yet, so no derivative either: backward Euler over the step h in 1, 2 and 4 equal steps,
+ * extrapolated (local Richardson extrapolation of the implicit Euler method: E. Hairer,
+ * G. Wanner, Solving Ordinary Differential Equations II, 2nd ed., Springer 1996, sec. IV.9 --
+ * from memory). With s the sub-step, a backward-Euler solution at a fixed time is
+ * x + a s + b s^2 + ..., so R1 = 2 x(h/2) - x(h) and R2 = 2 x(h/4) - x(h/2) are second-order
+ * (errors -b h^2 / 2 and -b h^2 / 8, b of order h x'''), and (R2 - R1) / 3 estimates R2's error.
+ * R2 goes to w->x_new and, from the sub-steps that pass it, the midpoint's to w->x_mid; R1 to
+ * w->x_full. Seven Newton solves. */
+static ss_status startup_step(ss_circuit *ckt, tran_ws *w, const step_tols *tl, double t,
+                              double t_new, tran_stats *s, int *worst_u)
+{
+    const int n = w->n;
+    const double h = t_new - t;
+    double *x1 = w->x_full, *xa = w->xs[0], *xb = w->xs[1], *xc = w->xs[2], *xcm = w->xs[3];
+    double *qa = w->qs[0], *qc = w->qs[1];
+    double rcond = HUGE_VAL;
+    /* one step of h */
+    memcpy(x1, w->x_n, (size_t)n * sizeof *x1);
+    double a0 = set_history(w, FORM_BE, h, 0.0, w->q_n);
+    ss_status st = solve_point(ckt, w, tl, a0, t_new, x1, s, worst_u);
+    /* two of h / 2 */
+    if (st == SS_OK) {
+        rcond = fmin(rcond, w->rcond);
+        for (int u = 0; u < n; u++)
+            xa[u] = 0.5 * (w->x_n[u] + x1[u]);
+        a0 = set_history(w, FORM_BE, 0.5 * h, 0.0, w->q_n);
+        st = solve_point(ckt, w, tl, a0, t + 0.5 * h, xa, s, worst_u);
+    }
+    if (st == SS_OK) {
+        rcond = fmin(rcond, w->rcond);
+        eval_charges(ckt, w, xa, qa);
+        memcpy(xb, x1, (size_t)n * sizeof *xb);
+        a0 = set_history(w, FORM_BE, 0.5 * h, 0.0, qa);
+        st = solve_point(ckt, w, tl, a0, t_new, xb, s, worst_u);
+    }
+    /* four of h / 4, each guessed on the line through the half steps' points */
+    for (int k = 1; k <= 4 && st == SS_OK; k++) {
+        rcond = fmin(rcond, w->rcond);
+        const double *lo = k <= 2 ? w->x_n : xa, *hi = k <= 2 ? xa : xb;
+        double f = k % 2 ? 0.5 : 1.0;
+        for (int u = 0; u < n; u++)
+            xc[u] = lo[u] + f * (hi[u] - lo[u]);
+        a0 = set_history(w, FORM_BE, 0.25 * h, 0.0, k == 1 ? w->q_n : qc);
+        st = solve_point(ckt, w, tl, a0, k == 4 ? t_new : t + 0.25 * k * h, xc, s, worst_u);
+        if (st == SS_OK)
+            eval_charges(ckt, w, xc, qc);
+        if (k == 2)
+            memcpy(xcm, xc, (size_t)n * sizeof *xcm);
+    }
+    if (st != SS_OK)
+        return st;
+    w->rcond = fmin(rcond, w->rcond);
+    for (int u = 0; u < n; u++) {
+        w->x_mid[u] = 2.0 * xcm[u] - xa[u];
+        w->x_new[u] = 2.0 * xc[u] - xb[u];
+        x1[u] = 2.0 * xb[u] - x1[u];
+    }
+    return SS_OK;
+}
+
+/* Makes the solution x (charges q; x is w->x_new or w->x_mid, q w->q_new or w->q_mid) at t_s
+ * the newest accepted point: the histories move back one place and the buffer x came from
+ * gets the oldest one. */
+static void accept_point(tran_ws *w, double *x, double *q, double *t_hist, double t_s)
+{
+    rotate(&w->x_nm2, &w->x_nm1);
+    rotate(&w->x_nm1, &w->x_n); /* x_n now holds the oldest point: free */
+    rotate(&w->q_nm1, &w->q_n); /* q_n likewise */
+    double *x_free = w->x_n, *q_free = w->q_n;
+    w->x_n = x;
+    w->q_n = q;
+    if (x == w->x_new)
+        w->x_new = x_free;
+    else
+        w->x_mid = x_free;
+    if (q == w->q_new)
+        w->q_new = q_free;
+    else
+        w->q_mid = q_free;
+    t_hist[2] = t_hist[1];
+    t_hist[1] = t_hist[0];
+    t_hist[0] = t_s;
 }
 
 static ss_status step_floor_error(ss_circuit *ckt, double t_s, double h_s, int worst_unknown,
@@ -281,6 +519,22 @@ static ss_status step_floor_error(ss_circuit *ckt, double t_s, double h_s, int w
         "jump: give its edges a rise time",
         h_s, t_s, newton_failed ? "Newton does not converge" : "truncation error stays too large",
         what);
+}
+
+/* The error estimate at node worst_unknown stays at err_v as the step is cut to h_s: rounding,
+ * not truncation, so the tolerances ask for more digits than double precision holds there. */
+static ss_status rounding_error(ss_circuit *ckt, double t_s, double h_s, int worst_unknown,
+                                double err_v, double tol_rel, double tol_v, ss_error *err)
+{
+    char what[1200] = "an unknown";
+    if (worst_unknown >= 0 && worst_unknown < ckt->n_unknowns)
+        circuit_unknown_name(ckt, worst_unknown, what, sizeof what);
+    return err_set(err, SS_ERR_NO_CONVERGENCE, ckt->tran_file ? ckt->tran_file : ckt->file,
+                   ckt->tran_line,
+                   "transient: tran_tol_rel=%g and tran_tol_v=%g cannot be held at t = %.9g s: "
+                   "the error estimate at %s stays at %.2g V as the step is cut to %.3g s, the "
+                   "rounding level of double precision there; loosen tran_tol_v or tran_tol_rel",
+                   tol_rel, tol_v, t_s, what, err_v, h_s);
 }
 
 ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_error *err)
@@ -305,11 +559,11 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
     const double eps_t = 64.0 * DBL_EPSILON * tstop;
     const double tol_rel = cfg->tol_rel > 0.0 ? cfg->tol_rel : TRAN_TOL_REL_DEFAULT;
     const double tol_v = cfg->tol_v > 0.0 ? cfg->tol_v : TRAN_TOL_V_DEFAULT;
-    const double c_lte = cfg->method == TRAN_GEAR2 ? LTE_C_GEAR2 : LTE_C_TRAP;
-    const double ntol_rel =
-        cfg->newton_tol_rel > 0.0 ? cfg->newton_tol_rel : 0.1 * fmin(ckt->opt.tol_rel, tol_rel);
-    const double ntol_v =
-        cfg->newton_tol_v > 0.0 ? cfg->newton_tol_v : 0.1 * fmin(ckt->opt.tol_v, tol_v);
+    const step_tols tols = {
+        .n_rel = cfg->newton_tol_rel > 0.0 ? cfg->newton_tol_rel
+                                           : 0.1 * fmin(ckt->opt.tol_rel, tol_rel),
+        .n_v = cfg->newton_tol_v > 0.0 ? cfg->newton_tol_v : 0.1 * fmin(ckt->opt.tol_v, tol_v),
+        .tstep_s = tstep};
 
     /* the initial condition: the operating point with every source at its t = 0 value */
     int need_op = !ckt->have_op, moved = 0;
@@ -319,7 +573,9 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
         moved |= v0 != e->value;
         e->value = v0;
     }
-    if (need_op || moved) {
+    if (cfg->x_start) {
+        moved = 0; /* x_op is left as it is */
+    } else if (need_op || moved) {
         ss_error e2 = {0};
         st = op_solve_into(ckt, NULL, &e2);
         if (st != SS_OK) {
@@ -329,8 +585,27 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
                            e2.message);
         }
     }
-    memcpy(w.x_n, ckt->x_op, (size_t)w.n * sizeof *w.x_n);
-    eval_charges(ckt, &w, w.x_n, w.q_n); /* at rest: i_n = 0 (ss_alloc zeroed it) */
+    memcpy(w.x_n, cfg->x_start ? cfg->x_start : ckt->x_op, (size_t)w.n * sizeof *w.x_n);
+    if (cfg->x_start)
+        reset_device_state(ckt, w.x_n);
+    /* at rest: i_n = 0 (ss_alloc zeroed it); from x_start the start after t = 0 needs none */
+    eval_charges(ckt, &w, w.x_n, w.q_n);
+    int busiest;
+    double needed = source_steps_needed(ckt, &w, tstop, &busiest);
+    if (needed > (double)TRAN_MAX_STEPS) {
+        const element *e = &ckt->elem[busiest];
+        char why[64] = "two at each of its corners";
+        if (((const src_wave *)e->wave)->kind == WAVE_SIN)
+            snprintf(why, sizeof why, "%d a period of its sine", WAVE_SIN_STEPS);
+        st = err_set(err, SS_ERR_LIMIT, ckt->tran_file ? ckt->tran_file : ckt->file,
+                     ckt->tran_line,
+                     "transient: %s needs %.3g steps or more up to %g s (%s), more than the "
+                     "limit of %.3g steps: shorten the run or slow the source",
+                     e->name, needed, tstop, why, (double)TRAN_MAX_STEPS);
+        restore_sources(ckt, &w);
+        ws_free(&w);
+        return st;
+    }
 
     long k_last = (long)floor((tstop - tstart) / tstep + 1e-9);
     long k_next = 0;
@@ -343,8 +618,11 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
     double t = 0.0, h_prev = 0.0;
     double t_hist[3] = {0.0, 0.0, 0.0}; /* t_n, t_n-1, t_n-2 */
     double next_bp = next_corner(ckt, &w, 0.0, eps_t, tstep);
-    double h = TRAN_FIRST_STEP * fmin(fmin(tstep, hmax), next_bp);
+    double h_src = source_step_cap(ckt, &w, 0.0); /* the sources' own limit from here on */
+    double h = TRAN_FIRST_STEP * fmin(fmin(fmin(tstep, hmax), h_src), next_bp);
     int pts_since_bp = 1; /* accepted points since the last corner, the corner included */
+    double rej_r = 0.0, rej_h = 0.0; /* the last error rejection from t: its ratio and step */
+    int stalls = 0;                  /* rejections in a row whose estimate did not fall */
     long alloc_mark = ss_alloc_count();
     s.h_min_used_s = HUGE_VAL;
 
@@ -363,7 +641,7 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
             continue;
         }
         double target = fmin(t_grid, next_bp);
-        double h_prop = fmin(h, hmax);
+        double h_prop = fmin(h, fmin(hmax, h_src));
         double h_try = h_prop;
         int lands = 0;
         if (target - t <= h_try * (1.0 + 1e-9)) {
@@ -375,39 +653,35 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
         double t_new = lands ? target : t + h_try;
         h_try = t_new - t;
 
-        /* the formula: backward Euler for the first step after a corner (the old derivative
-         * belongs to the other side of it), else the chosen method */
-        enum step_form form = pts_since_bp < 2            ? FORM_BE
-                              : cfg->method == TRAN_GEAR2 ? FORM_GEAR2
-                                                          : FORM_TRAP;
-        double a0, a1 = 0.0, a2 = 0.0;
-        if (form == FORM_BE) {
-            a0 = 1.0 / h_try;
-            a1 = -a0;
-        } else if (form == FORM_TRAP) {
-            a0 = 2.0 / h_try;
-            a1 = -a0;
-        } else { /* variable-step BDF2 on t_n+1, t_n, t_n-1 (Lambert 1991 -- from memory) */
-            double r = h_try / h_prev;
-            a0 = (1.0 + 2.0 * r) / (h_try * (1.0 + r));
-            a1 = -(1.0 + r) / h_try;
-            a2 = r * r / (h_try * (1.0 + r));
-        }
-        for (int q = 0; q < w.n_q; q++)
-            w.hist[q] = a1 * w.q_n[q] + a2 * w.q_nm1[q] - (form == FORM_TRAP ? w.i_n[q] : 0.0);
-
-        set_sources(ckt, &w, t_new, tstep);
-        /* predictor: the line through the last two points */
-        if (pts_since_bp >= 2 && h_prev > 0.0) {
+        /* the first step from a corner: extrapolated backward Euler (it needs no derivative
+         * from before the corner); the next two gear2 (nor does it); then the chosen method */
+        int startup = pts_since_bp == 1;
+        enum step_form form = startup                                          ? FORM_BE
+                              : pts_since_bp < 4 || cfg->method == TRAN_GEAR2 ? FORM_GEAR2
+                                                                               : FORM_TRAP;
+        int worst_u = -1, err_u = -1;
+        double r = 0.0, err_v = 0.0, a0 = 0.0, err_gain;
+        ss_status nst;
+        if (startup) {
+            nst = startup_step(ckt, &w, &tols, t, t_new, &s, &worst_u);
+            if (nst == SS_OK) { /* (R2 - R1) / 3 */
+                r = diff_ratio(&w, w.x_full, w.x_new, tol_rel, tol_v, &err_u, &err_v) / 3.0;
+                err_v /= 3.0;
+            }
+            /* (R2 - R1) / 3 = (2 x(h/4) - 3 x(h/2) + x(h)) / 3: the solutions' rounding, twice */
+            err_gain = 2.0;
+        } else {
+            a0 = set_history(&w, form, h_try, h_prev, w.q_n);
+            /* predictor: the line through the last two points */
             double f = h_try / h_prev;
             for (int u = 0; u < w.n; u++)
                 w.x_new[u] = w.x_n[u] + f * (w.x_n[u] - w.x_nm1[u]);
-        } else {
-            memcpy(w.x_new, w.x_n, (size_t)w.n * sizeof *w.x_new);
+            nst = solve_point(ckt, &w, &tols, a0, t_new, w.x_new, &s, &worst_u);
+            double tt[4] = {t_new, t_hist[0], t_hist[1], t_hist[2]};
+            if (nst == SS_OK)
+                r = lte_ratio(&w, tt, form == FORM_TRAP ? LTE_C_TRAP : LTE_C_GEAR2, h_try,
+                              tol_rel, tol_v, &err_u, &err_v, &err_gain);
         }
-        int iters = 0, worst_u = -1;
-        ss_status nst = step_newton(ckt, &w, a0, ntol_rel, ntol_v, w.x_new, &iters, &worst_u);
-        s.newton_iterations += iters;
         if (nst == SS_ERR_NOMEM) {
             st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
             break;
@@ -420,43 +694,65 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
                 st = step_floor_error(ckt, t, h, worst_u, 1, err);
             continue;
         }
-        double h_next = TRAN_GROW_MAX * h_try;
-        if (form != FORM_BE && pts_since_bp >= 3) {
-            double tt[4] = {t_new, t_hist[0], t_hist[1], t_hist[2]};
-            int lte_u;
-            double r = lte_ratio(&w, tt, c_lte, h_try, tol_rel, tol_v, &lte_u);
-            double f = r > 0.0 ? TRAN_SAFETY * pow(r, -1.0 / 3.0) : TRAN_GROW_MAX;
-            if (r > 1.0) {
-                s.rejected_lte++;
-                reset_device_state(ckt, w.x_n);
-                h = h_try * fmax(TRAN_SHRINK_MIN, f);
-                if (h < hmin)
-                    st = step_floor_error(ckt, t, h, lte_u, 0, err);
-                continue;
-            }
-            h_next = h_try * fmin(TRAN_GROW_MAX, f);
+        /* every error estimate goes as h^3 */
+        double f = r > 0.0 ? TRAN_SAFETY * pow(r, -1.0 / 3.0) : TRAN_GROW_MAX;
+        if (r > 1.0) {
+            s.rejected_lte++;
+            reset_device_state(ckt, w.x_n);
+            /* an estimate within what the solutions' rounding can make of it that does not
+             * fall when the step is at least halved, or that drove the step to its floor, is
+             * rounding, not truncation */
+            int rounding = err_v <= err_gain * rounding_bound(&w, w.x_new, w.rcond);
+            int stalled = rounding && rej_r > 0.0 && h_try <= 0.5 * rej_h &&
+                          r > TRAN_STALL_ERR * rej_r;
+            stalls = stalled ? stalls + 1 : 0;
+            rej_r = r;
+            rej_h = h_try;
+            h = h_try * fmax(TRAN_SHRINK_MIN, f);
+            if (stalls >= TRAN_STALL_COUNT || (h < hmin && rounding))
+                st = rounding_error(ckt, t, h_try, err_u, err_v, tol_rel, tol_v, err);
+            else if (h < hmin)
+                st = step_floor_error(ckt, t, h, err_u, 0, err);
+            continue;
         }
+        rej_r = rej_h = 0.0;
+        stalls = 0;
 
         /* accepted: the charges at the solution, the formula's current, the histories */
-        eval_charges(ckt, &w, w.x_new, w.q_new);
-        for (int q = 0; q < w.n_q; q++)
-            w.i_n[q] = a0 * w.q_new[q] + w.hist[q];
-        rotate(&w.q_nm1, &w.q_n); /* q_nm1 <- q_n */
-        rotate(&w.q_n, &w.q_new); /* q_n <- q_new; q_new gets the oldest buffer */
-        rotate(&w.x_nm2, &w.x_nm1);
-        rotate(&w.x_nm1, &w.x_n);
-        rotate(&w.x_n, &w.x_new);
-        t_hist[2] = t_hist[1];
-        t_hist[1] = t_hist[0];
-        t_hist[0] = t_new;
-        h_prev = h_try;
+        double h_next;
+        if (startup) {
+            double hh = 0.5 * h_try;
+            /* the midpoint first, then the end point with the second-order backward
+             * difference's derivative over the corner, the midpoint and the end */
+            eval_charges(ckt, &w, w.x_mid, w.q_mid);
+            accept_point(&w, w.x_mid, w.q_mid, t_hist, t + hh);
+            s.steps++;
+            pts_since_bp++;
+            h_prev = hh;
+            s.h_min_used_s = fmin(s.h_min_used_s, hh);
+            s.h_max_used_s = fmax(s.h_max_used_s, hh);
+            /* the next step, gear2, grows from the half step by at most TRAN_GROW_MAX */
+            h_next = hh * fmin(TRAN_GROW_MAX, 2.0 * f);
+            eval_charges(ckt, &w, w.x_new, w.q_new);
+            for (int q = 0; q < w.n_q; q++)
+                w.i_n[q] = (3.0 * w.q_new[q] - 4.0 * w.q_n[q] + w.q_nm1[q]) / h_try;
+            accept_point(&w, w.x_new, w.q_new, t_hist, t_new);
+            reset_device_state(ckt, w.x_n); /* the extrapolated point, not the last solve */
+        } else {
+            h_prev = h_try;
+            s.h_min_used_s = fmin(s.h_min_used_s, h_try);
+            s.h_max_used_s = fmax(s.h_max_used_s, h_try);
+            h_next = h_try * fmin(TRAN_GROW_MAX, f);
+            if (h_try < h_prop) /* cut short to land: the step asked for still stands */
+                h_next = fmax(h_next, h_prop);
+            eval_charges(ckt, &w, w.x_new, w.q_new);
+            for (int q = 0; q < w.n_q; q++)
+                w.i_n[q] = a0 * w.q_new[q] + w.hist[q];
+            accept_point(&w, w.x_new, w.q_new, t_hist, t_new);
+        }
         t = t_new;
         s.steps++;
         pts_since_bp++;
-        s.h_min_used_s = fmin(s.h_min_used_s, h_try);
-        s.h_max_used_s = fmax(s.h_max_used_s, h_try);
-        if (h_try < h_prop) /* cut short to land: the step asked for still stands */
-            h_next = fmax(h_next, h_prop);
 
         if (lands && fabs(t - t_grid) <= eps_t) {
             s.points++;
@@ -466,7 +762,8 @@ ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_e
         if (lands && fabs(t - next_bp) <= eps_t) {
             pts_since_bp = 1;
             next_bp = next_corner(ckt, &w, t, eps_t, tstep);
-            h_next = TRAN_BP_CUT * fmin(h_prop, next_bp - t);
+            h_src = source_step_cap(ckt, &w, t);
+            h_next = TRAN_BP_CUT * fmin(fmin(h_prop, h_src), next_bp - t);
         }
         h = fmin(h_next, hmax);
     }
@@ -525,6 +822,23 @@ ss_status ss_tran_run(ss_circuit *ckt, ss_table **out_tran, ss_error *err)
     if (bad || table_reserve(t, (int)n_rows) != 0) {
         ss_table_destroy(&t);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    /* tran.csv samples every TSTEP: a source repeating faster than every second sample is
+     * aliased there, though the integration follows it */
+    for (int i = 0; i < ckt->n_elem; i++) {
+        const element *e = &ckt->elem[i];
+        if (!elem_is_source(e) || !e->wave)
+            continue;
+        double period = wave_period(e->wave);
+        if (isfinite(period) && ckt->tran_step_s > 0.5 * period)
+            circuit_warn(ckt,
+                         "%s: .tran samples its %s of period %g s every %g s, less than twice a "
+                         "period: tran.csv aliases it (the integration follows it; a step of "
+                         "%g s or less shows it)",
+                         e->name,
+                         ((const src_wave *)e->wave)->kind == WAVE_SIN ? "sine" : "pulse train",
+                         period,
+                         ckt->tran_step_s, 0.5 * period);
     }
     tran_sink sink = {ckt, t};
     tran_cfg cfg = {.tstep_s = ckt->tran_step_s,

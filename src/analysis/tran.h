@@ -26,6 +26,9 @@ typedef struct tran_cfg {
     double newton_tol_rel, newton_tol_v;
     tran_point_fn on_point;
     void *ctx;
+    /* the state at t = 0, every unknown (NULL: the operating point with every source at its
+     * t = 0 value): a periodic run continued from where a similar one ended */
+    const double *x_start;
 } tran_cfg;
 
 typedef struct tran_stats {
@@ -39,7 +42,8 @@ typedef struct tran_stats {
 } tran_stats;
 
 /* Runs a transient from the DC operating point with every time-varying source at its t = 0
- * value (solved here, or reused when the circuit already holds it) to the last output point.
+ * value (solved here, or reused when the circuit already holds it), or from cfg->x_start, to
+ * the last output point.
  * Inputs: cfg (not modified); the circuit's elements, whose sources' e->wave give their values
  * in time (the caller may point a source's wave at its own form for the run).
  * Outputs: cfg->on_point per output point; stats (optional). Sources' DC values are restored;

@@ -516,7 +516,11 @@ static void print_large_signal(const ss_table *ls, double f_hz)
                              {"iin_at_thd_a", "input amplitude for the THD target"}};
     for (size_t k = 0; k < sizeof rows / sizeof rows[0]; k++) {
         double v = ss_table_lookup(ls, rows[k][0], 0);
-        if (!isnan(v))
+        double e = strcmp(rows[k][0], "thd_pct") == 0 ? ss_table_lookup(ls, "thd_err_pct", 0)
+                                                      : SS_NAN_CLI;
+        if (!isnan(v) && !isnan(e))
+            printf("  %-40s %.5g (estimated error %.2g)\n", rows[k][1], v, e);
+        else if (!isnan(v))
             printf("  %-40s %.5g\n", rows[k][1], v);
     }
 }

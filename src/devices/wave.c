@@ -318,3 +318,50 @@ double wave_next_break(const src_wave *w, double t_s, double tstep_s)
     }
     return HUGE_VAL;
 }
+
+/* ---- time scales ------------------------------------------------------------------------- */
+
+double wave_max_step(const src_wave *w, double t_s)
+{
+    const double *q = w->p;
+    if (w->kind == WAVE_SIN && q[WS_FREQ] > 0.0 && t_s >= q[WS_TD])
+        return 1.0 / (q[WS_FREQ] * WAVE_SIN_STEPS);
+    return HUGE_VAL;
+}
+
+double wave_period(const src_wave *w)
+{
+    const double *q = w->p;
+    if (w->kind == WAVE_SIN)
+        return q[WS_FREQ] > 0.0 ? 1.0 / q[WS_FREQ] : HUGE_VAL;
+    if (w->kind == WAVE_PULSE)
+        return q[WP_PER]; /* HUGE_VAL for a single pulse */
+    return HUGE_VAL;
+}
+
+double wave_corners_until(const src_wave *w, double t_s)
+{
+    const double *q = w->p;
+    switch (w->kind) {
+    case WAVE_SIN:
+        return q[WS_TD] > 0.0 && q[WS_TD] <= t_s ? 1.0 : 0.0;
+    case WAVE_PULSE:
+        if (t_s < q[WP_TD])
+            return 0.0;
+        if (!isfinite(q[WP_PER]))
+            return 5.0;
+        return 1.0 + 4.0 * floor((t_s - q[WP_TD]) / q[WP_PER] + 1.0);
+    case WAVE_PWL: {
+        int lo = 0, hi = w->n_pwl; /* points with time <= t_s */
+        while (lo < hi) {
+            int mid = (lo + hi) / 2;
+            if (w->pwl[2 * mid] <= t_s)
+                lo = mid + 1;
+            else
+                hi = mid;
+        }
+        return (double)lo;
+    }
+    }
+    return 0.0;
+}

@@ -1,6 +1,6 @@
 /* Time-varying forms of independent sources -- SIN, PULSE, PWL: parsing what is inside the
- * form's parentheses, the value at a time, and the corners a transient must step onto.
- * Integrating the circuit is src/analysis/tran.c's. */
+ * form's parentheses, the value at a time, the corners a transient must step onto and the time
+ * scales it must follow. Integrating the circuit is src/analysis/tran.c's. */
 #ifndef SS_WAVE_H
 #define SS_WAVE_H
 
@@ -43,5 +43,21 @@ SS_HIDDEN double wave_value(const src_wave *w, double t_s, double tstep_s);
 /* The first corner of the waveform strictly after t_s (PULSE edges, PWL points, a SIN's
  * delay), or HUGE_VAL when there is none. */
 SS_HIDDEN double wave_next_break(const src_wave *w, double t_s, double tstep_s);
+
+/* Steps per period a SIN needs at least for the transient to follow it (our choice: enough
+ * for the truncation-error estimate to see its curvature, which then sets the step). */
+#define WAVE_SIN_STEPS 20
+
+/* The longest internal step that still follows the form from time t_s on: a SIN's period /
+ * WAVE_SIN_STEPS from its delay on; HUGE_VAL before the delay, for a frequency of 0, and for
+ * PULSE and PWL, whose every corner the steps land on. */
+SS_HIDDEN double wave_max_step(const src_wave *w, double t_s);
+
+/* The form's repetition period: 1 / FREQ of a SIN, PER of a periodic PULSE; HUGE_VAL when it
+ * does not repeat. */
+SS_HIDDEN double wave_period(const src_wave *w);
+
+/* About how many corners (wave_next_break) the form has in (0, t_s]. */
+SS_HIDDEN double wave_corners_until(const src_wave *w, double t_s);
 
 #endif

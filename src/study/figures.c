@@ -36,11 +36,11 @@ static const char *const STAGE_FIGURES[] = {"gain_mid_db", "f_mid_hz",     "f_lo
 static const char *const LS_FIGURES_V[] = {
     "ls_freq_hz",       "qs_gain",          "swing_pos_v", "swing_neg_v",    "vin_at_swing_pos_v",
     "vin_at_swing_neg_v", "swing_pos_tran_v", "swing_neg_tran_v", "thd_amp_v", "thd_pct",
-    "thd_target_pct",   "vin_at_thd_v"};
+    "thd_err_pct",      "thd_target_pct",   "vin_at_thd_v"};
 static const char *const LS_FIGURES_I[] = {
     "ls_freq_hz",       "qs_gain",          "swing_pos_v", "swing_neg_v",    "iin_at_swing_pos_a",
     "iin_at_swing_neg_a", "swing_pos_tran_v", "swing_neg_tran_v", "thd_amp_a", "thd_pct",
-    "thd_target_pct",   "iin_at_thd_a"};
+    "thd_err_pct",      "thd_target_pct",   "iin_at_thd_a"};
 #define N_OF(a) (sizeof(a) / sizeof((a)[0]))
 
 static int in_list(const char *name, const char *const *list, size_t n)
