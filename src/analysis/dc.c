@@ -14,7 +14,7 @@ static int sweep_points(const dc_sweep_spec *s)
 static element *sweep_source(ss_circuit *ckt, const dc_sweep_spec *s, ss_error *err)
 {
     int idx = circuit_find_elem(ckt, s->src);
-    if (idx < 0 || (ckt->elem[idx].ops->letter != 'v' && ckt->elem[idx].ops->letter != 'i')) {
+    if (idx < 0 || !elem_is_source(&ckt->elem[idx])) {
         err_set(err, SS_ERR_INPUT, s->file, s->line,
                 ".dc: '%s' is not an independent voltage or current source", s->src);
         return NULL;

@@ -60,14 +60,20 @@ static int uf_find(int *uf, int a)
 
 /* ---- the pass over the elements: values, connections, supplies --------------------------- */
 
+/* An independent current source other than the stage's: open for the signal. */
+static int is_other_current_source(const element *e, int i, int src)
+{
+    return elem_is(e, DEV_SOURCE) && elem_is(e, DEV_DRIVES_CURRENT) && i != src;
+}
+
 /* milli_suffix, femto_suffix and resistor_range on e. A value the suffix check names is not
  * named again by resistor_range (one slip, one warning) unless that suffix check is off; the
  * same holds for femto_suffix and coupling_cap_tiny (sv->named). 0 ok, -1 no memory. */
 static int lint_value(ss_circuit *ckt, int i, lint_survey *sv)
 {
     const element *e = &ckt->elem[i];
-    char kind = e->ops->letter;
-    if (kind == 'r' && e->value_si_exp == -3 && e->value < LINT_MILLI_BELOW_OHM &&
+    int is_r = elem_is(e, DEV_RESISTOR), is_c = elem_is(e, DEV_CAPACITOR);
+    if (is_r && e->value_si_exp == -3 && e->value < LINT_MILLI_BELOW_OHM &&
         lint_on(ckt, LINT_MILLI_SUFFIX)) {
         sv->named[i] = 1;
         return circuit_warn_lint(ckt, LINT_MILLI_SUFFIX, e->name,
@@ -75,7 +81,7 @@ static int lint_value(ss_circuit *ckt, int i, lint_survey *sv)
                                  "M: case is not kept); did you mean meg? [milli_suffix]",
                                  e->file, e->line, e->name, e->value);
     }
-    if (kind == 'c' && e->value_si_exp == -15 && e->value < LINT_FEMTO_BELOW_F &&
+    if (is_c && e->value_si_exp == -15 && e->value < LINT_FEMTO_BELOW_F &&
         lint_on(ckt, LINT_FEMTO_SUFFIX)) {
         sv->named[i] = 1;
         return circuit_warn_lint(ckt, LINT_FEMTO_SUFFIX, e->name,
@@ -83,7 +89,7 @@ static int lint_value(ss_circuit *ckt, int i, lint_survey *sv)
                                  "written as a plain number or with u, n, p) [femto_suffix]",
                                  e->file, e->line, e->name, e->value);
     }
-    if (kind == 'r' && (e->value < LINT_R_MIN_OHM || e->value > LINT_R_MAX_OHM) &&
+    if (is_r && (e->value < LINT_R_MIN_OHM || e->value > LINT_R_MAX_OHM) &&
         lint_on(ckt, LINT_RESISTOR_RANGE))
         return circuit_warn_lint(ckt, LINT_RESISTOR_RANGE, e->name,
                                  "%s:%d: %s: %g ohm is %s the range of resistors (1 mohm .. "
@@ -112,11 +118,13 @@ static int lint_survey_pass(ss_circuit *ckt, lint_survey *sv)
             if (sv->count[n] < 2)
                 sv->count[n]++;
         }
-        char kind = e->ops->letter;
-        if (kind == 'v' && i != sv->src)
+        /* a supply (an independent V source other than the stage's) holds its nodes together
+         * for AC */
+        if (elem_is(e, DEV_SOURCE) && !elem_is(e, DEV_DRIVES_CURRENT) && i != sv->src)
             sv->uf[uf_find(sv->uf, e->node[0])] = uf_find(sv->uf, e->node[1]);
-        sv->n_q += kind == 'q';
-        sv->n_tiny += kind == 'c' && e->value < LINT_C_SIGNAL_MIN_F && sv->named[i] != 1;
+        sv->n_q += e->ops->op_point != NULL;
+        sv->n_tiny += elem_is(e, DEV_CAPACITOR) && e->value < LINT_C_SIGNAL_MIN_F &&
+                      sv->named[i] != 1;
     }
     return 0;
 }
@@ -190,12 +198,11 @@ static int sig_graph_build(const ss_circuit *ckt, const lint_survey *sv, sig_gra
     int n_q = 0, n_tiny = 0;
     for (int i = 0; i < ckt->n_elem; i++) {
         const element *e = &ckt->elem[i];
-        char kind = e->ops->letter;
-        if (kind == 'q')
+        if (e->ops->op_point)
             g->q[n_q++] = i;
-        else if (kind == 'c' && e->value < LINT_C_SIGNAL_MIN_F && sv->named[i] != 1)
+        else if (elem_is(e, DEV_CAPACITOR) && e->value < LINT_C_SIGNAL_MIN_F && sv->named[i] != 1)
             g->tiny[n_tiny++] = i;
-        else if (kind == 'i' && i != src)
+        else if (is_other_current_source(e, i, src))
             continue;
         for (int k = 0; k < e->n_node; k++)
             if (!g->acg[e->node[k]]) {
@@ -208,7 +215,7 @@ static int sig_graph_build(const ss_circuit *ckt, const lint_survey *sv, sig_gra
     memcpy(it, g->off, (size_t)nv * sizeof *it);
     for (int i = 0; i < ckt->n_elem; i++) {
         const element *e = &ckt->elem[i];
-        if (e->ops->letter == 'i' && i != src)
+        if (is_other_current_source(e, i, src))
             continue;
         for (int k = 0; k < e->n_node; k++) {
             int n = e->node[k];
@@ -271,7 +278,7 @@ static int lint_stage(ss_circuit *ckt, lint_survey *sv)
      * bridge */
     for (int v = out; g.disc[out] && g.par[v] >= 0; v = g.par[v]) {
         int c = g.par[v] - nn;
-        if (c >= 0 && ckt->elem[c].ops->letter == 'c' && g.low[v] > g.disc[g.par[v]] &&
+        if (c >= 0 && elem_is(&ckt->elem[c], DEV_CAPACITOR) && g.low[v] > g.disc[g.par[v]] &&
             !sv->named[c])
             sv->named[c] = 2;
     }
@@ -279,17 +286,19 @@ static int lint_stage(ss_circuit *ckt, lint_survey *sv)
     /* emitter-side nodes of the stage transistors: the emitter, and a node one resistor away
      * from it (a split emitter resistor); a capacitor from one to an AC ground bypasses it */
     for (int k = 0; k < sv->n_q; k++) {
-        int emitter = ckt->elem[g.q[k]].node[2];
+        const element *q = &ckt->elem[g.q[k]];
+        int emitter = q->node[q->ops->bypass_terminal];
         if (g.disc[nn + g.q[k]] && !g.acg[emitter])
             g.side[emitter] = 1;
     }
     for (int k = 0; k < sv->n_q; k++) {
-        int emitter = ckt->elem[g.q[k]].node[2];
+        const element *q = &ckt->elem[g.q[k]];
+        int emitter = q->node[q->ops->bypass_terminal];
         if (g.side[emitter] != 1)
             continue;
         for (int j = g.off[emitter]; j < g.off[emitter + 1]; j++) {
             const element *r = &ckt->elem[g.adj[j] - nn];
-            if (r->ops->letter != 'r')
+            if (!elem_is(r, DEV_RESISTOR))
                 continue;
             int other = r->node[0] == emitter ? r->node[1] : r->node[0];
             if (!g.acg[other] && !g.side[other])
@@ -322,16 +331,14 @@ static int lint_stage(ss_circuit *ckt, lint_survey *sv)
         const element *e = &ckt->elem[g.q[k]];
         if (!g.disc[nn + g.q[k]])
             continue;
-        bjt_op_info info;
-        bjt_op_details(e, ckt->x_op, vt, ckt->opt.gmin, &info);
-        if (strcmp(info.region, "forward active") == 0)
+        dev_op_point op;
+        e->ops->op_point(e, ckt->x_op, vt, ckt->opt.gmin, &op);
+        if (op.amplifying)
             continue;
         bad = circuit_warn_lint(ckt, LINT_STAGE_NOT_ACTIVE, e->name,
                                 "%s:%d: %s: stage transistor in %s at the operating point, not "
-                                "forward active (Vbe = %.4g V, Vce = %.4g V, Ic = %.4g A) "
-                                "[stage_not_active]",
-                                e->file, e->line, e->name, info.region, info.vbe_v, info.vce_v,
-                                info.ic_a);
+                                "forward active (%s) [stage_not_active]",
+                                e->file, e->line, e->name, op.region, op.detail);
     }
     ss_free(mem);
     return bad;

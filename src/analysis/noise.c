@@ -56,7 +56,7 @@ static int elem_touches(const element *e, int node_idx)
 static int find_source_resistor(const ss_circuit *ckt, const element *src)
 {
     int found = -1;
-    if (src->ops->letter == 'v') {
+    if (!elem_is(src, DEV_DRIVES_CURRENT)) {
         int hot;
         if (src->node[1] == 0 && src->node[0] != 0)
             hot = src->node[0];
@@ -68,7 +68,7 @@ static int find_source_resistor(const ss_circuit *ckt, const element *src)
             const element *e = &ckt->elem[i];
             if (e == src || !elem_touches(e, hot))
                 continue;
-            if (found >= 0 || e->ops->letter != 'r' || e->node[0] == 0 || e->node[1] == 0)
+            if (found >= 0 || !elem_is(e, DEV_RESISTOR) || e->node[0] == 0 || e->node[1] == 0)
                 return -1;
             found = i;
         }
@@ -76,7 +76,7 @@ static int find_source_resistor(const ss_circuit *ckt, const element *src)
     }
     for (int i = 0; i < ckt->n_elem; i++) {
         const element *e = &ckt->elem[i];
-        if (e->ops->letter != 'r')
+        if (!elem_is(e, DEV_RESISTOR))
             continue;
         int same = (e->node[0] == src->node[0] && e->node[1] == src->node[1]) ||
                    (e->node[0] == src->node[1] && e->node[1] == src->node[0]);
@@ -100,14 +100,14 @@ ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node, const char
                        n == 0 ? "is ground" : "does not exist");
     name_lower_copy(in_source, name, sizeof name);
     int s = circuit_find_elem(ckt, name);
-    if (s < 0 || (ckt->elem[s].ops->letter != 'v' && ckt->elem[s].ops->letter != 'i'))
+    if (s < 0 || !elem_is_source(&ckt->elem[s]))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "noise input '%s' is not an independent source of the circuit", in_source);
     int r = -1;
     if (rs_resistor) {
         name_lower_copy(rs_resistor, name, sizeof name);
         r = circuit_find_elem(ckt, name);
-        if (r < 0 || ckt->elem[r].ops->letter != 'r')
+        if (r < 0 || !elem_is(&ckt->elem[r], DEV_RESISTOR))
             return err_set(err, SS_ERR_INPUT, NULL, 0,
                            "noise source resistance '%s' is not a resistor of the circuit",
                            rs_resistor);

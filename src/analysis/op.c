@@ -128,7 +128,7 @@ double op_kcl_residual(ss_circuit *ckt, const double *x, int *worst)
     for (int u = n_node_unknowns; u < n; u++)
         i_scale = fmax(i_scale, fabs(x[u]));
     for (int i = 0; i < ckt->n_elem; i++)
-        if (ckt->elem[i].ops->letter == 'i')
+        if (elem_is(&ckt->elem[i], DEV_SOURCE) && elem_is(&ckt->elem[i], DEV_DRIVES_CURRENT))
             i_scale = fmax(i_scale, fabs(ckt->elem[i].value));
     /* residuals as multiples of what is allowed: node rows in amperes, branch rows (the
      * voltage equations of sources) in volts */
@@ -465,14 +465,16 @@ void op_rows(const ss_circuit *ckt, const double *x, dev_report_fn fn, void *sin
         int node = circuit_out_node(ckt, j);
         fn(sink, "v", ckt->node_name[node], x ? x[node - 1] : SS_NAN);
     }
-    static const char order[] = {'v', 'q', 'd'};
+    /* the element rows kind by kind, in the registry's order */
     double vt = analysis_vt(ckt);
-    for (size_t k = 0; k < sizeof order; k++)
-        for (int i = 0; i < ckt->n_elem; i++) {
+    for (int k = 0; k < device_count(); k++) {
+        const dev_ops *ops = device_at(k);
+        for (int i = 0; ops->report && i < ckt->n_elem; i++) {
             const element *e = &ckt->elem[i];
-            if (e->ops->letter == order[k] && e->ops->report)
+            if (e->ops == ops)
                 e->ops->report(e, x, vt, ckt->opt.gmin, fn, sink);
         }
+    }
 }
 
 static ss_status op_table(ss_circuit *ckt, ss_table **out, ss_error *err)

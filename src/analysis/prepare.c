@@ -72,20 +72,6 @@ static void uf_union(int *parent, unsigned char *rank, int a, int b)
         rank[a]++;
 }
 
-/* Which element kinds fix a voltage between their first two nodes (so a loop of them is
- * contradictory), and which conduct at DC between which terminals. */
-static int defines_voltage(const element *e)
-{
-    char l = e->ops->letter;
-    return l == 'v' || l == 'e' || l == 'h' || l == 'l';
-}
-
-static int conducts_dc(const element *e)
-{
-    char l = e->ops->letter;
-    return l == 'r' || l == 'd' || l == 'q' || defines_voltage(e);
-}
-
 static ss_status check_topology(ss_circuit *ckt, ss_error *err)
 {
     int n = ckt->n_nodes;
@@ -104,7 +90,7 @@ static ss_status check_topology(ss_circuit *ckt, ss_error *err)
     ss_status st = SS_OK;
     for (int i = 0; i < ckt->n_elem && st == SS_OK; i++) {
         const element *e = &ckt->elem[i];
-        if (defines_voltage(e)) {
+        if (elem_is(e, DEV_FIXES_VOLTAGE)) { /* a loop of these has no DC solution */
             int a = e->node[0], b = e->node[1];
             if (uf_find(vloop, a) == uf_find(vloop, b))
                 st = err_set(err, SS_ERR_SINGULAR, e->file, e->line,
@@ -113,11 +99,9 @@ static ss_status check_topology(ss_circuit *ckt, ss_error *err)
                              e->name, ckt->node_name[a], ckt->node_name[b]);
             uf_union(vloop, vrank, a, b);
         }
-        if (conducts_dc(e)) {
-            int n_conn = e->ops->letter == 'q' ? 3 : 2;
-            for (int k = 1; k < n_conn; k++)
-                uf_union(dcpath, dcrank, e->node[0], e->node[k]);
-        }
+        for (int k = 0; k < e->ops->n_dc_pairs; k++) /* the terminals that conduct at DC */
+            uf_union(dcpath, dcrank, e->node[e->ops->dc_pairs[k][0]],
+                     e->node[e->ops->dc_pairs[k][1]]);
     }
     int ground = uf_find(dcpath, 0);
     for (int node = 1; node < n && st == SS_OK; node++) {

@@ -24,7 +24,7 @@ static ss_status stage_point(ss_circuit *ckt, const element *src, int out_node, 
         return st;
     const double complex *x = ckt->work_zrhs;
     pt->gain = x[out_node - 1]; /* the source's own AC value is 1 */
-    if (src->ops->letter == 'v') {
+    if (!elem_is(src, DEV_DRIVES_CURRENT)) {
         /* i(V) enters the + node through the source: the current it delivers is -i(V) */
         double complex i_del = -x[src->branch];
         pt->zin = 1.0 / i_del;

@@ -75,7 +75,7 @@ static ss_status stage_lookup(ss_circuit *ckt, stage_ref *r, ss_error *err)
         return err_set(err, SS_ERR_INPUT, ckt->file, 0, "stage source or output not found");
     r->src = &ckt->elem[idx];
     r->out_node = node;
-    r->is_current = r->src->ops->letter == 'i';
+    r->is_current = elem_is(r->src, DEV_DRIVES_CURRENT);
     return SS_OK;
 }
 
@@ -682,8 +682,8 @@ static ss_status qs_classify(qs_ctx *c, double freq_hz, double *gain_ac, ss_erro
     dev_tran_ctx tc = {.G = NULL, .x = ckt->x_op, .vt_v = analysis_vt(ckt), .q = q};
     for (int i = 0; i < ckt->n_elem && st == SS_OK; i++) {
         element *e = &ckt->elem[i];
-        char l = e->ops->letter;
-        if ((l != 'c' && l != 'l') || !(e->value > 0.0))
+        int is_c = elem_is(e, DEV_CAPACITOR);
+        if ((!is_c && !elem_is(e, DEV_INDUCTOR)) || !(e->value > 0.0))
             continue;
         double v0 = e->value;
         e->value = v0 * CLASS_SCALE;
@@ -694,9 +694,9 @@ static ss_status qs_classify(qs_ctx *c, double freq_hz, double *gain_ac, ss_erro
         if (st != SS_OK)
             break;
         /* a capacitor made large is a short; an inductor made small is */
-        double d_short = fabs((l == 'c' ? g_big : g_small) - g_nom);
-        double d_open = fabs((l == 'c' ? g_small : g_big) - g_nom);
-        int hold = l == 'c' ? d_short <= d_open : d_open <= d_short;
+        double d_short = fabs((is_c ? g_big : g_small) - g_nom);
+        double d_open = fabs((is_c ? g_small : g_big) - g_nom);
+        int hold = is_c ? d_short <= d_open : d_open <= d_short;
         if (fmin(d_short, d_open) > CLASS_TOL * g_nom)
             circuit_warn(ckt,
                          "large signal: %s is neither a short nor an open at %g Hz (the gain "
@@ -707,7 +707,7 @@ static ss_status qs_classify(qs_ctx *c, double freq_hz, double *gain_ac, ss_erro
         if (!hold)
             continue;
         e->ops->load_tran(e, &tc);
-        c->a0[i] = (l == 'c' ? FROZEN_G_S : FROZEN_R_OHM) / v0;
+        c->a0[i] = (is_c ? FROZEN_G_S : FROZEN_R_OHM) / v0;
         c->hist[i] = -c->a0[i] * q[0];
     }
     ckt->ac_serial = 0;
@@ -913,7 +913,7 @@ static ss_status clipping_compute(ss_circuit *ckt, const stage_ref *sr, clip_res
     res->gain_ac = SS_NAN;
     int has_storage = 0;
     for (int i = 0; i < ckt->n_elem; i++)
-        has_storage |= ckt->elem[i].ops->letter == 'c' || ckt->elem[i].ops->letter == 'l';
+        has_storage |= elem_is(&ckt->elem[i], DEV_CAPACITOR | DEV_INDUCTOR);
     if (has_storage && (st = qs_classify(&c, res->freq_hz, &res->gain_ac, err)) != SS_OK)
         goto done;
     memcpy(c.x, ckt->x_op, (size_t)n * sizeof *c.x);

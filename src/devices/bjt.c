@@ -13,19 +13,55 @@ enum {
     BP_TR, BP_XTB, BP_XTI, BP_EG, BP_TNOM, BP_KF, BP_AF, BP_COUNT
 };
 
-/* Published names and defaults (Nagel 1975; Getreu 1976; docs/models.md). HUGE_VAL marks a
- * term that is absent; a card value of 0 for VAF VAR IKF IKR also means absent. */
+/* Published names and defaults (Nagel 1975; Getreu 1976), the ranges the equations need, and
+ * where each is used: docs/models.md prints this table (and a test compares the two). A card
+ * value of 0 for VAF VAR IKF IKR means infinite (the term is absent). */
+#define ALL (DMP_USE_DC | DMP_USE_AC | DMP_USE_NOISE | DMP_USE_TRAN)
+#define CAP (DMP_USE_AC | DMP_USE_TRAN)
+#define POS 0.0, HUGE_VAL, DMP_MIN_OPEN    /* > 0 */
+#define NONNEG 0.0, HUGE_VAL, 0            /* >= 0 */
+#define ANY -HUGE_VAL, HUGE_VAL, 0
 /* ORDER BJT_PARAM */
 static const dev_model_param bjt_params[BP_COUNT] = {
-    {"is", 1e-16},      {"bf", 100.0},      {"nf", 1.0},    {"vaf", HUGE_VAL},
-    {"ikf", HUGE_VAL},  {"ise", 0.0},       {"ne", 1.5},    {"br", 1.0},
-    {"nr", 1.0},        {"var", HUGE_VAL},  {"ikr", HUGE_VAL}, {"isc", 0.0},
-    {"nc", 2.0},        {"rb", 0.0},        {"re", 0.0},    {"rc", 0.0},
-    {"cje", 0.0},       {"vje", 0.75},      {"mje", 0.33},  {"cjc", 0.0},
-    {"vjc", 0.75},      {"mjc", 0.33},      {"fc", 0.5},    {"tf", 0.0},
-    {"tr", 0.0},        {"xtb", 0.0},       {"xti", 3.0},   {"eg", 1.11},
-    {"tnom", SS_TNOM_DEFAULT_C}, {"kf", 0.0}, {"af", 1.0},
+    {"is", 1e-16, POS, "A", ALL | DMP_USE_TEMP, "transport saturation current"},
+    {"bf", 100.0, POS | DMP_CORNER, "", ALL | DMP_USE_TEMP, "ideal maximum forward beta"},
+    {"nf", 1.0, POS, "", ALL, "forward emission coefficient"},
+    {"vaf", HUGE_VAL, NONNEG | DMP_ZERO_INF, "V", ALL, "forward Early voltage"},
+    {"ikf", HUGE_VAL, NONNEG | DMP_ZERO_INF, "A", ALL, "forward high-injection knee current"},
+    {"ise", 0.0, NONNEG, "A", ALL | DMP_USE_TEMP, "base-emitter leakage saturation current"},
+    {"ne", 1.5, POS, "", ALL | DMP_USE_TEMP, "base-emitter leakage emission coefficient"},
+    {"br", 1.0, POS, "", ALL | DMP_USE_TEMP, "ideal maximum reverse beta"},
+    {"nr", 1.0, POS, "", ALL, "reverse emission coefficient"},
+    {"var", HUGE_VAL, NONNEG | DMP_ZERO_INF, "V", ALL, "reverse Early voltage"},
+    {"ikr", HUGE_VAL, NONNEG | DMP_ZERO_INF, "A", ALL, "reverse high-injection knee current"},
+    {"isc", 0.0, NONNEG, "A", ALL | DMP_USE_TEMP, "base-collector leakage saturation current"},
+    {"nc", 2.0, POS, "", ALL | DMP_USE_TEMP, "base-collector leakage emission coefficient"},
+    {"rb", 0.0, NONNEG, "ohm", ALL, "base resistance"},
+    {"re", 0.0, NONNEG, "ohm", ALL, "emitter resistance"},
+    {"rc", 0.0, NONNEG, "ohm", ALL, "collector resistance"},
+    {"cje", 0.0, NONNEG, "F", CAP | DMP_USE_TEMP, "base-emitter zero-bias depletion capacitance"},
+    {"vje", 0.75, POS, "V", CAP | DMP_USE_TEMP, "base-emitter built-in potential"},
+    {"mje", 0.33, ANY, "", CAP | DMP_USE_TEMP, "base-emitter grading coefficient"},
+    {"cjc", 0.0, NONNEG, "F", CAP | DMP_USE_TEMP,
+     "base-collector zero-bias depletion capacitance"},
+    {"vjc", 0.75, POS, "V", CAP | DMP_USE_TEMP, "base-collector built-in potential"},
+    {"mjc", 0.33, ANY, "", CAP | DMP_USE_TEMP, "base-collector grading coefficient"},
+    {"fc", 0.5, 0.0, 1.0, DMP_MAX_OPEN, "", CAP, "forward-bias depletion capacitance coefficient"},
+    {"tf", 0.0, NONNEG, "s", CAP, "ideal forward transit time"},
+    {"tr", 0.0, NONNEG, "s", CAP, "ideal reverse transit time"},
+    {"xtb", 0.0, ANY, "", DMP_USE_TEMP, "beta temperature exponent"},
+    {"xti", 3.0, ANY, "", DMP_USE_TEMP, "saturation current temperature exponent"},
+    {"eg", 1.11, ANY, "eV", DMP_USE_TEMP, "energy gap of the saturation current law"},
+    {"tnom", SS_TNOM_DEFAULT_C, -SS_ZERO_C_IN_K, 1000.0, DMP_MIN_OPEN | DMP_CELSIUS, "C",
+     DMP_USE_TEMP, "temperature the parameters were measured at"},
+    {"kf", 0.0, ANY, "", DMP_USE_NOISE, "flicker noise coefficient"},
+    {"af", 1.0, ANY, "", DMP_USE_NOISE, "flicker noise exponent"},
 };
+#undef ALL
+#undef CAP
+#undef POS
+#undef NONNEG
+#undef ANY
 
 /* Slot layout: three resistor pairs, then the 3x3 core on (c', b', e'). */
 enum { SL_RC = 0, SL_RB = 4, SL_RE = 8, SL_CORE = 12, SL_COUNT = 21 };
@@ -36,6 +72,9 @@ static const int pair_of[3] = {SL_RC, SL_RB, SL_RE};
 static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
 /* state[] */
 enum { ST_VBE = 0, ST_VBC = 1 };
+
+/* model types, in the order of enum model_type's NPN, PNP */
+static const char *const BJT_TYPES[] = {"npn", "pnp"};
 
 static double polarity(const element *e) { return e->mod->type == MODEL_PNP ? -1.0 : 1.0; }
 
@@ -311,8 +350,14 @@ static void bjt_load_ac(const element *e, dev_ac_ctx *ac)
             zstamp_pair(ac->G, &e->slot[pair_of[t]], 1.0 / tp[r_of[t]]);
 }
 
-void bjt_op_details(const element *e, const double *x, double vt_v, double gmin_s,
-                    bjt_op_info *out)
+/* Operating-point details for the report and op.csv (currents into the terminals). */
+typedef struct bjt_op_info {
+    double ic_a, ib_a, ie_a, vbe_v, vce_v, vbc_v, gm_s, power_w;
+    const char *region;
+} bjt_op_info;
+
+static void bjt_op_details(const element *e, const double *x, double vt_v, double gmin_s,
+                           bjt_op_info *out)
 {
     double vbe_i, vbc_i;
     junction_voltages(e, x, &vbe_i, &vbc_i);
@@ -332,6 +377,37 @@ void bjt_op_details(const element *e, const double *x, double vt_v, double gmin_
     int be_on = p * out->vbe_v > 0.4, bc_on = p * out->vbc_v > 0.4;
     out->region = be_on ? (bc_on ? "saturation" : "forward active")
                         : (bc_on ? "reverse active" : "cut-off");
+}
+
+static void bjt_op_point(const element *e, const double *x, double vt_v, double gmin_s,
+                         dev_op_point *out)
+{
+    bjt_op_info info;
+    bjt_op_details(e, x, vt_v, gmin_s, &info);
+    out->i_a = info.ic_a;
+    out->v_v = info.vce_v;
+    out->region = info.region;
+    out->amplifying = strcmp(info.region, "forward active") == 0;
+    snprintf(out->detail, sizeof out->detail, "Vbe = %.4g V, Vce = %.4g V, Ic = %.4g A",
+             info.vbe_v, info.vce_v, info.ic_a);
+}
+
+static const char BJT_REPORT_HEADING[] =
+    "\nTransistors\n  name         type          Ic          Ib        Vbe        Vce     beta"
+    "          gm       power  region\n";
+
+static void bjt_report_line(const element *e, const double *x, double vt_v, double gmin_s,
+                            char *buf, size_t len)
+{
+    char a[48], b[48], c[48], d[48], f[48], g[48];
+    bjt_op_info info;
+    bjt_op_details(e, x, vt_v, gmin_s, &info);
+    double beta = info.ib_a != 0.0 ? info.ic_a / info.ib_a : SS_NAN;
+    snprintf(buf, len, "  %-12s %-4s %11s %11s %10s %10s %8.1f %11s %11s  %s", e->name,
+             BJT_TYPES[e->mod->type], fmt_eng(a, sizeof a, info.ic_a, "A"),
+             fmt_eng(b, sizeof b, info.ib_a, "A"), fmt_eng(c, sizeof c, info.vbe_v, "V"),
+             fmt_eng(d, sizeof d, info.vce_v, "V"), beta, fmt_eng(f, sizeof f, info.gm_s, "S"),
+             fmt_eng(g, sizeof g, info.power_w, "W"), info.region);
 }
 
 static void bjt_report(const element *e, const double *x, double vt_v, double gmin_s,
@@ -448,9 +524,18 @@ static void bjt_load_tran(element *e, dev_tran_ctx *tc)
     rhs_add(tc->rhs, e->inode[TC], ieq_bc);
 }
 
+/* collector-base and collector-emitter: every terminal is on one DC path */
+static const unsigned char BJT_DC_PAIRS[2][2] = {{0, 1}, {0, 2}};
+
 const dev_ops bjt_ops = {
     .letter = 'q',
     .kind_name = "bipolar transistor",
+    .dc_pairs = BJT_DC_PAIRS,
+    .n_dc_pairs = 2,
+    .op_point = bjt_op_point,
+    .bypass_terminal = 2,
+    .report_heading = BJT_REPORT_HEADING,
+    .report_line = bjt_report_line,
     .parse = bjt_parse,
     .setup = bjt_setup,
     .claim = bjt_claim,

@@ -47,6 +47,8 @@ static void cap_load_tran(element *e, dev_tran_ctx *tc)
 const dev_ops capacitor_ops = {
     .letter = 'c',
     .kind_name = "capacitor",
+    .flags = DEV_CAPACITOR,
+    .value_range = VALUE_NONNEG,
     .parse = cap_parse,
     .claim = cap_claim,
     .n_slot = 4,

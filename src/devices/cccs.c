@@ -46,6 +46,7 @@ static void cccs_kcl(const element *e, const double *x, const dev_load_ctx *lc, 
 const dev_ops cccs_ops = {
     .letter = 'f',
     .kind_name = "current-controlled current source",
+    .flags = DEV_CONTROLLED,
     .parse = cccs_parse,
     .claim = cccs_claim,
     .n_slot = 2,

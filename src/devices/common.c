@@ -17,6 +17,8 @@ int temp_param_check(const char *name, double v, int positive, char *why, size_t
     return -1;
 }
 
+const unsigned char DC_PAIR_AB[1][2] = {{0, 1}};
+
 void claim_pair(element *e, dev_setup_ctx *sc, int first, int a, int b)
 {
     int ua = node_unknown(a), ub = node_unknown(b);

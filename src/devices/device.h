@@ -54,11 +54,6 @@ typedef struct dev_ac_ctx {
 typedef void (*dev_report_fn)(void *sink, const char *quantity, const char *elem_name,
                               double value);
 
-/* Operating-point details of a BJT for the report (forward: currents into terminals). */
-typedef struct bjt_op_info {
-    double ic_a, ib_a, ie_a, vbe_v, vce_v, vbc_v, gm_s, power_w;
-    const char *region;
-} bjt_op_info;
 
 /* Noise: one independent noise current source of an element at the operating point, sitting
  * between circuit nodes a and b (0 is ground; internal nodes included). Its current's power
@@ -101,14 +96,71 @@ typedef struct dev_tran_ctx {
     double *q;          /* out: this element's n_charge charges (C) or fluxes (Wb) */
 } dev_tran_ctx;
 
+/* One model parameter: its published name and default, the range the equations need, its unit
+ * and where it is used. Parsing (unknown names), the card's checks, --set, tolerances and the
+ * parameter tables of docs/models.md are all driven by these tables. */
+enum {
+    DMP_MIN_OPEN = 1u << 0,  /* value > min (else >= min) */
+    DMP_MAX_OPEN = 1u << 1,  /* value < max (else <= max) */
+    DMP_ZERO_INF = 1u << 2,  /* 0 on a card means infinite (VAF, IKF, ...) */
+    DMP_CORNER = 1u << 3,    /* the parameter the beta/temperature corners spread */
+    DMP_CELSIUS = 1u << 4,   /* a temperature in degrees C (TNOM) */
+};
+/* where a parameter is used (dev_model_param.uses) */
+enum {
+    DMP_USE_DC = 1u << 0,
+    DMP_USE_AC = 1u << 1,
+    DMP_USE_NOISE = 1u << 2,
+    DMP_USE_TRAN = 1u << 3,
+    DMP_USE_TEMP = 1u << 4,
+};
 typedef struct dev_model_param {
     const char *name;
     double def;
+    double min, max; /* valid range (flags say open or closed); -HUGE_VAL / HUGE_VAL: none */
+    unsigned flags;
+    const char *unit; /* "A", "V", "ohm", "F", "s", "eV", "C", "1/V", "" */
+    unsigned uses;
+    const char *meaning; /* one line, for the docs */
 } dev_model_param;
+
+/* What a kind is (dev_ops.flags): the facts code outside src/devices asks of an element, instead
+ * of testing its letter. */
+enum {
+    DEV_SOURCE = 1u << 0,         /* an independent source (V, I): a DC value, an AC phasor, a
+                                     waveform; a stage or noise input, a .dc sweep variable */
+    DEV_DRIVES_CURRENT = 1u << 1, /* its value is a current (I): input amplitudes in A */
+    DEV_FIXES_VOLTAGE = 1u << 2,  /* fixes the voltage between its first two nodes at DC (V, E,
+                                     H, L): a loop of such elements has no DC solution */
+    DEV_CURRENT_PROBE = 1u << 3,  /* its branch current may control an F or H (V) */
+    DEV_RESISTOR = 1u << 4,       /* a plain resistance between its two nodes (R) */
+    DEV_CAPACITOR = 1u << 5,      /* a plain capacitance (C): a short as its value grows */
+    DEV_INDUCTOR = 1u << 6,       /* a plain inductance (L): an open as its value grows */
+    DEV_CONTROLLED = 1u << 7,     /* controlled by another element's branch current (F, H) */
+};
+
+/* A transistor-like element's operating point in the terms the corners, the report and the
+ * sanity checks share (dev_ops.op_point). */
+typedef struct dev_op_point {
+    double i_a;         /* the main current into the main terminal (Ic, Id), A */
+    double v_v;         /* the main voltage (Vce, Vds), V */
+    const char *region; /* "forward active", "saturation", ... (static text) */
+    int amplifying;     /* 1 in the region an amplifying stage works in */
+    char detail[128];   /* the terminal voltages and current in the kind's own terms */
+} dev_op_point;
+
+enum { VALUE_ANY = 0, VALUE_POSITIVE, VALUE_NONNEG };
+
+/* the single pair of two-terminal kinds that conduct at DC (common.c) */
+SS_HIDDEN extern const unsigned char DC_PAIR_AB[1][2];
 
 typedef struct dev_ops {
     char letter;
     const char *kind_name;
+    unsigned flags; /* DEV_ facts */
+    /* the terminal pairs that conduct at DC (a DC path to ground runs through them) */
+    const unsigned char (*dc_pairs)[2];
+    int n_dc_pairs;
     /* parse the element line (tokens via pctx); fill e. 0 ok, -1 error set */
     int (*parse)(pctx *p, element *e);
     /* internal nodes and branches; NULL when none */
@@ -141,33 +193,48 @@ typedef struct dev_ops {
     int n_charge;
     /* the main value's name for --set and messages ("resistance"), NULL if none */
     const char *value_name;
+    /* what the main value may be: VALUE_ANY, VALUE_POSITIVE (> 0), VALUE_NONNEG (>= 0) */
+    int value_range;
     /* model parameter tables per model type (NULL when the kind takes no model) */
     const dev_model_param *model_params;
     int n_model_params;
+    /* the operating point's main current, voltage and region (transistors); NULL otherwise */
+    void (*op_point)(const element *e, const double *x, double vt_v, double gmin_s,
+                     dev_op_point *out);
+    /* the terminal a bypass capacitor decouples to AC ground (a BJT's emitter); -1 none */
+    int bypass_terminal;
+    /* this kind's table in the text report (src/output/report.c): heading lines, then one line
+     * per element at the operating point x written into buf; NULL when none */
+    const char *report_heading;
+    void (*report_line)(const element *e, const double *x, double vt_v, double gmin_s,
+                        char *buf, size_t len);
 } dev_ops;
 
-/* registry.c */
+/* registry.c: the kinds in a fixed order -- the order of their rows in op.csv and of their
+ * tables in the report */
+SS_HIDDEN int device_count(void);
+SS_HIDDEN const dev_ops *device_at(int index);
 SS_HIDDEN const dev_ops *device_by_letter(char letter);
 SS_HIDDEN const dev_ops *device_for_model_type(enum model_type t);
 SS_HIDDEN int model_param_index(enum model_type t, const char *name);
+/* The model parameter table of a kind as docs/models.md prints it (markdown), appended to out. */
+SS_HIDDEN void device_param_table_md(const dev_ops *ops, ss_strbuf *out);
+/* The parameter of the model that the beta/temperature corners spread (DMP_CORNER), -1 none. */
+SS_HIDDEN int model_corner_param(const model *m);
 
 extern const dev_ops resistor_ops, capacitor_ops, inductor_ops, vsource_ops, isource_ops,
     vcvs_ops, vccs_ops, cccs_ops, ccvs_ops, diode_ops, bjt_ops;
 
-/* BJT report details (bjt.c) */
-SS_HIDDEN void bjt_op_details(const element *e, const double *x, double vt_v, double gmin_s,
-                              bjt_op_info *out);
 
 /* ---- stamping helpers -------------------------------------------------------------------- */
 /* Which overlaid part of an element (circuit.h) its kind uses. */
-static inline int elem_is_source(const element *e)
-{
-    return e->ops->letter == 'v' || e->ops->letter == 'i';
-}
+static inline int elem_is_source(const element *e) { return (e->ops->flags & DEV_SOURCE) != 0; }
 static inline int elem_is_controlled(const element *e)
 {
-    return e->ops->letter == 'f' || e->ops->letter == 'h';
+    return (e->ops->flags & DEV_CONTROLLED) != 0;
 }
+/* kind facts by flag */
+static inline int elem_is(const element *e, unsigned flag) { return (e->ops->flags & flag) != 0; }
 static inline int elem_has_model(const element *e) { return e->ops->model_params != NULL; }
 
 static inline double xv(const double *x, int node_idx)

@@ -10,13 +10,35 @@
 enum { DP_IS, DP_N, DP_RS, DP_CJO, DP_VJ, DP_M, DP_FC, DP_TT, DP_XTI, DP_EG, DP_TNOM, DP_KF,
        DP_AF, DP_COUNT };
 
-/* Published names and defaults (Nagel 1975; docs/models.md). */
+/* Published names and defaults (Nagel 1975), ranges, units and uses: docs/models.md prints
+ * this table (and a test compares the two). */
+#define ALL (DMP_USE_DC | DMP_USE_AC | DMP_USE_NOISE | DMP_USE_TRAN)
+#define CAP (DMP_USE_AC | DMP_USE_TRAN)
+#define POS 0.0, HUGE_VAL, DMP_MIN_OPEN
+#define NONNEG 0.0, HUGE_VAL, 0
+#define ANY -HUGE_VAL, HUGE_VAL, 0
 /* ORDER DIODE_PARAM */
 static const dev_model_param diode_params[DP_COUNT] = {
-    {"is", 1e-14}, {"n", 1.0},   {"rs", 0.0},  {"cjo", 0.0}, {"vj", 1.0},
-    {"m", 0.5},    {"fc", 0.5},  {"tt", 0.0},  {"xti", 3.0}, {"eg", 1.11},
-    {"tnom", SS_TNOM_DEFAULT_C}, {"kf", 0.0}, {"af", 1.0},
+    {"is", 1e-14, POS, "A", ALL | DMP_USE_TEMP, "saturation current"},
+    {"n", 1.0, POS, "", ALL | DMP_USE_TEMP, "emission coefficient"},
+    {"rs", 0.0, NONNEG, "ohm", ALL, "series resistance"},
+    {"cjo", 0.0, NONNEG, "F", CAP | DMP_USE_TEMP, "zero-bias depletion capacitance"},
+    {"vj", 1.0, POS, "V", CAP | DMP_USE_TEMP, "built-in potential"},
+    {"m", 0.5, ANY, "", CAP | DMP_USE_TEMP, "grading coefficient"},
+    {"fc", 0.5, 0.0, 1.0, DMP_MAX_OPEN, "", CAP, "forward-bias depletion capacitance coefficient"},
+    {"tt", 0.0, NONNEG, "s", CAP, "transit time"},
+    {"xti", 3.0, ANY, "", DMP_USE_TEMP, "saturation current temperature exponent"},
+    {"eg", 1.11, ANY, "eV", DMP_USE_TEMP, "energy gap of the saturation current law"},
+    {"tnom", SS_TNOM_DEFAULT_C, -SS_ZERO_C_IN_K, 1000.0, DMP_MIN_OPEN | DMP_CELSIUS, "C",
+     DMP_USE_TEMP, "temperature the parameters were measured at"},
+    {"kf", 0.0, ANY, "", DMP_USE_NOISE, "flicker noise coefficient"},
+    {"af", 1.0, ANY, "", DMP_USE_NOISE, "flicker noise exponent"},
 };
+#undef ALL
+#undef CAP
+#undef POS
+#undef NONNEG
+#undef ANY
 
 enum { SL_RS = 0, SL_J = 4, SL_COUNT = 8 };
 
@@ -132,6 +154,20 @@ static void diode_report(const element *e, const double *x, double vt_v, double 
     fn(sink, "id", e->name, id);
 }
 
+static const char DIODE_REPORT_HEADING[] = "\nDiodes\n  name                  Id         Vd\n";
+
+static void diode_report_line(const element *e, const double *x, double vt_v, double gmin_s,
+                              char *buf, size_t len)
+{
+    char a[48], b[48];
+    double vd = xv(x, e->node[0]) - xv(x, e->node[1]);
+    /* the diode current exactly as op.csv has it */
+    double vdi = xv(x, e->inode[0]) - xv(x, e->node[1]), gd;
+    double id = junction_current(e->tp[DP_IS], vdi, e->tp[DP_N] * vt_v, &gd) + gmin_s * vdi;
+    snprintf(buf, len, "  %-12s %11s %10s", e->name, fmt_eng(a, sizeof a, id, "A"),
+             fmt_eng(b, sizeof b, vd, "V"));
+}
+
 /* Terminal currents from the device equations alone (not the Newton stamps). */
 static void diode_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
 {
@@ -195,6 +231,8 @@ static void diode_load_tran(element *e, dev_tran_ctx *tc)
 const dev_ops diode_ops = {
     .letter = 'd',
     .kind_name = "diode",
+    .dc_pairs = DC_PAIR_AB,
+    .n_dc_pairs = 1,
     .parse = diode_parse,
     .setup = diode_setup,
     .claim = diode_claim,
@@ -204,6 +242,8 @@ const dev_ops diode_ops = {
     .kcl = diode_kcl,
     .load_ac = diode_load_ac,
     .report = diode_report,
+    .report_heading = DIODE_REPORT_HEADING,
+    .report_line = diode_report_line,
     .noise = diode_noise,
     .load_tran = diode_load_tran,
     .n_charge = 1,

@@ -57,6 +57,10 @@ static void ind_load_tran(element *e, dev_tran_ctx *tc)
 const dev_ops inductor_ops = {
     .letter = 'l',
     .kind_name = "inductor",
+    .flags = DEV_INDUCTOR | DEV_FIXES_VOLTAGE,
+    .dc_pairs = DC_PAIR_AB,
+    .n_dc_pairs = 1,
+    .value_range = VALUE_NONNEG,
     .parse = ind_parse,
     .setup = ind_setup,
     .claim = ind_claim,

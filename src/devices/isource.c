@@ -36,6 +36,7 @@ static void isrc_kcl(const element *e, const double *x, const dev_load_ctx *lc, 
 const dev_ops isource_ops = {
     .letter = 'i',
     .kind_name = "current source",
+    .flags = DEV_SOURCE | DEV_DRIVES_CURRENT,
     .parse = isrc_parse,
     .claim = isrc_claim,
     .n_slot = 0,

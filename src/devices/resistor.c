@@ -36,6 +36,10 @@ static int res_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src *o
 const dev_ops resistor_ops = {
     .letter = 'r',
     .kind_name = "resistor",
+    .flags = DEV_RESISTOR,
+    .dc_pairs = DC_PAIR_AB,
+    .n_dc_pairs = 1,
+    .value_range = VALUE_POSITIVE,
     .parse = res_parse,
     .claim = res_claim,
     .n_slot = 4,

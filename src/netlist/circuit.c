@@ -279,7 +279,7 @@ ss_status ss_circuit_set_stage(ss_circuit *ckt, const char *in_source, const cha
         return SS_OK;
     }
     int e = name_lower_copy(in_source, name, sizeof name) ? circuit_find_elem(ckt, name) : -1;
-    if (e < 0 || (ckt->elem[e].ops->letter != 'v' && ckt->elem[e].ops->letter != 'i'))
+    if (e < 0 || !elem_is_source(&ckt->elem[e]))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "stage input '%s' is not an independent source of the circuit",
                        in_source);

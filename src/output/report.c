@@ -8,33 +8,9 @@
 #include "analysis/analysis.h"
 #include "output/output.h"
 
-/* "4.70 k" style: value scaled to an SI prefix, 4 significant digits. */
 static const char *eng(char *buf, size_t len, double v, const char *unit)
 {
-    static const char *const prefix[] = {"f", "p", "n", "u", "m", "", "k", "M", "G", "T"};
-    if (!isfinite(v)) {
-        snprintf(buf, len, "%s", isnan(v) ? "-" : (v > 0 ? "inf" : "-inf"));
-        return buf;
-    }
-    if (v == 0.0) {
-        snprintf(buf, len, "0 %s", unit);
-        return buf;
-    }
-    int e3 = (int)floor(log10(fabs(v)) / 3.0);
-    if (e3 < -5)
-        e3 = -5;
-    if (e3 > 4)
-        e3 = 4;
-    double scaled = v / pow(10.0, 3.0 * e3);
-    /* rounding may carry to 1000: move up one prefix */
-    char tmp[32];
-    snprintf(tmp, sizeof tmp, "%.4g", scaled);
-    if (fabs(strtod(tmp, NULL)) >= 1000.0 && e3 < 4) {
-        e3++;
-        scaled = v / pow(10.0, 3.0 * e3);
-    }
-    snprintf(buf, len, "%.4g %s%s", scaled, prefix[e3 + 5], unit);
-    return buf;
+    return fmt_eng(buf, len, v, unit);
 }
 
 static void report_stage(const ss_circuit *ckt, const ss_table *summary, FILE *f)
@@ -68,18 +44,10 @@ static void report_stage(const ss_circuit *ckt, const ss_table *summary, FILE *f
                 eng(a, sizeof a, ckt->stage_load_ohm, "ohm"));
 }
 
-static void capture_value(void *sink, const char *quantity, const char *elem_name, double v)
-{
-    (void)quantity;
-    (void)elem_name;
-    *(double *)sink = v;
-}
-
 #define REPORT_MAX_NODES 100
 
 void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f)
 {
-    char a[48], b[48], c[48], d[48], e_[48], g[48];
     fprintf(f, "%s\n", ckt->title && ckt->title[0] ? ckt->title : "(untitled netlist)");
     fprintf(f, "temperature %.2f C\n", ckt->temp_c);
     if (!ckt->have_op && !summary)
@@ -98,37 +66,22 @@ void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f)
         if (shown < n_out)
             fprintf(f, "  ... and %d more (all in op.csv; --nodes names the ones to show)\n",
                     n_out - shown);
-        int any = 0;
-        for (int i = 0; i < ckt->n_elem; i++) {
-            const element *el = &ckt->elem[i];
-            if (el->ops->letter != 'q')
+        /* one table per kind that has one, in the registry's order */
+        for (int k = 0; k < device_count(); k++) {
+            const dev_ops *ops = device_at(k);
+            if (!ops->report_line)
                 continue;
-            if (!any++)
-                fprintf(f, "\nTransistors\n  %-12s %-4s %11s %11s %10s %10s %8s %11s %11s  %s\n",
-                        "name", "type", "Ic", "Ib", "Vbe", "Vce", "beta", "gm", "power",
-                        "region");
-            bjt_op_info info;
-            bjt_op_details(el, ckt->x_op, vt, ckt->opt.gmin, &info);
-            double beta = info.ib_a != 0.0 ? info.ic_a / info.ib_a : SS_NAN;
-            fprintf(f, "  %-12s %-4s %11s %11s %10s %10s %8.1f %11s %11s  %s\n", el->name,
-                    el->mod->type == MODEL_PNP ? "pnp" : "npn", eng(a, sizeof a, info.ic_a, "A"),
-                    eng(b, sizeof b, info.ib_a, "A"), eng(c, sizeof c, info.vbe_v, "V"),
-                    eng(d, sizeof d, info.vce_v, "V"), beta, eng(e_, sizeof e_, info.gm_s, "S"),
-                    eng(g, sizeof g, info.power_w, "W"), info.region);
-        }
-        any = 0;
-        for (int i = 0; i < ckt->n_elem; i++) {
-            const element *el = &ckt->elem[i];
-            if (el->ops->letter != 'd')
-                continue;
-            if (!any++)
-                fprintf(f, "\nDiodes\n  %-12s %11s %10s\n", "name", "Id", "Vd");
-            double vd = (el->node[0] ? ckt->x_op[el->node[0] - 1] : 0.0) -
-                        (el->node[1] ? ckt->x_op[el->node[1] - 1] : 0.0);
-            double x_id = SS_NAN; /* the diode current exactly as op.csv has it */
-            el->ops->report(el, ckt->x_op, vt, ckt->opt.gmin, capture_value, &x_id);
-            fprintf(f, "  %-12s %11s %10s\n", el->name, eng(a, sizeof a, x_id, "A"),
-                    eng(b, sizeof b, vd, "V"));
+            int any = 0;
+            for (int i = 0; i < ckt->n_elem; i++) {
+                const element *el = &ckt->elem[i];
+                if (el->ops != ops)
+                    continue;
+                if (!any++)
+                    fputs(ops->report_heading, f);
+                char line[512];
+                ops->report_line(el, ckt->x_op, vt, ckt->opt.gmin, line, sizeof line);
+                fprintf(f, "%s\n", line);
+            }
         }
     }
     if (summary && ckt->stage_in)

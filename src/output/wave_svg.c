@@ -305,7 +305,7 @@ ss_status ss_plot_write_wave(const ss_circuit *ckt, const ss_table *wave, const 
     snprintf(title, sizeof title, "%.60s%s", t, strlen(t) > 60 ? "..." : "");
     int src = ckt->stage_in ? circuit_find_elem(ckt, ckt->stage_in) : -1;
     /* an in(SOURCE) column of a current source is in amperes */
-    int is_current = in_name[0] == 'i' && src >= 0 && ckt->elem[src].ops->letter == 'i';
+    int is_current = in_name[0] == 'i' && src >= 0 && elem_is(&ckt->elem[src], DEV_DRIVES_CURRENT);
     snprintf(in_label, sizeof in_label, "%.80s (%s)", in_name, is_current ? "A" : "V");
     snprintf(out_label, sizeof out_label, "%.80s (V)", out_name);
     wave_input w = {title,    "input above, output below", buf, buf + n, buf + 2 * n, n, in_label,

@@ -67,7 +67,7 @@ static int limits_want_large_signal(const ss_limits *limits)
 static const char *const *large_signal_names(const ss_circuit *ckt, size_t *n)
 {
     int e = ckt->stage_in ? circuit_find_elem(ckt, ckt->stage_in) : -1;
-    int current = e >= 0 && ckt->elem[e].ops->letter == 'i';
+    int current = e >= 0 && elem_is(&ckt->elem[e], DEV_DRIVES_CURRENT);
     *n = current ? N_OF(LS_FIGURES_I) : N_OF(LS_FIGURES_V);
     return current ? LS_FIGURES_I : LS_FIGURES_V;
 }

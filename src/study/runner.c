@@ -1031,7 +1031,7 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
      * within one type: common practice) */
     int n_models = 0;
     for (int m = 0; m < nom->n_models; m++)
-        n_models += nom->models[m]->type != MODEL_D;
+        n_models += model_corner_param(nom->models[m]) >= 0;
     static const char *const cols[] = {"temp_c", "beta_corner", "ic_a", "vce_v", "forward_active"};
     ss_table *t = table_create(5, "corner");
     ss_status st = SS_OK;
@@ -1048,10 +1048,12 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
         int k = 0;
         for (int m = 0; m < nom->n_models; m++) {
             const model *md = nom->models[m];
-            if (md->type == MODEL_D)
+            int cp = model_corner_param(md);
+            if (cp < 0)
                 continue;
-            snprintf(names[k], sizeof names[k], "%s.bf", md->name);
-            double bf = md->p[model_param_index(md->type, "bf")];
+            snprintf(names[k], sizeof names[k], "%s.%s", md->name,
+                     device_for_model_type(md->type)->model_params[cp].name);
+            double bf = md->p[cp];
             double v = bc == 0 ? bf * 0.5 : bf * 2.0;
             for (int i = 0; i < s->n_tols; i++)
                 if (strcmp(s->tols[i].name, names[k]) == 0)
@@ -1076,7 +1078,7 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
                 pst = op_solve_into(ckt, NULL, &e2);
             for (int i = 0; ckt && i < ckt->n_elem && st == SS_OK; i++) {
                 const element *e = &ckt->elem[i];
-                if (e->ops->letter != 'q')
+                if (!e->ops->op_point)
                     continue;
                 char label[300];
                 snprintf(label, sizeof label, "%s beta %s, %g C", e->name, bc ? "high" : "low",
@@ -1089,11 +1091,11 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
                 row[0] = temps[tc];
                 row[1] = bc ? 1.0 : -1.0;
                 if (pst == SS_OK) {
-                    bjt_op_info info;
-                    bjt_op_details(e, ckt->x_op, analysis_vt(ckt), ckt->opt.gmin, &info);
-                    row[2] = info.ic_a;
-                    row[3] = info.vce_v;
-                    row[4] = strcmp(info.region, "forward active") == 0;
+                    dev_op_point op;
+                    e->ops->op_point(e, ckt->x_op, analysis_vt(ckt), ckt->opt.gmin, &op);
+                    row[2] = op.i_a;
+                    row[3] = op.v_v;
+                    row[4] = op.amplifying;
                 }
             }
             ss_circuit_destroy(&ckt);

@@ -1,0 +1,121 @@
+/* The device table is the one source of the model parameters: the tables docs/models.md prints
+ * must be the ones the code holds (printed from them), and every kind's facts must hold
+ * together. */
+#include <stdlib.h>
+
+#include "ss_test.h"
+
+#include "devices/device.h"
+
+/* The text between the marker line `<!-- parameters: NAME -->` and the next blank line. */
+static char *doc_table(const char *doc, const char *name)
+{
+    char marker[128];
+    snprintf(marker, sizeof marker, "<!-- parameters: %s -->\n", name);
+    const char *p = strstr(doc, marker);
+    if (!p)
+        return NULL;
+    p += strlen(marker);
+    const char *end = strstr(p, "\n\n");
+    size_t n = end ? (size_t)(end - p) + 1 : strlen(p);
+    char *t = malloc(n + 1);
+    memcpy(t, p, n);
+    t[n] = '\0';
+    return t;
+}
+
+static char *read_doc(void)
+{
+    FILE *f = fopen(SS_SOURCE_DIR "/docs/models.md", "rb");
+    assert_non_null(f);
+    fseek(f, 0, SEEK_END);
+    long n = ftell(f);
+    fseek(f, 0, SEEK_SET);
+    char *s = malloc((size_t)n + 1);
+    assert_int_equal(fread(s, 1, (size_t)n, f), (size_t)n);
+    s[n] = '\0';
+    fclose(f);
+    return s;
+}
+
+static void test_docs_print_the_parameter_tables(void **state)
+{
+    (void)state;
+    char *doc = read_doc();
+    int n_tables = 0;
+    for (int k = 0; k < device_count(); k++) {
+        const dev_ops *ops = device_at(k);
+        if (!ops->model_params)
+            continue;
+        n_tables++;
+        ss_strbuf want = {0};
+        device_param_table_md(ops, &want);
+        char *have = doc_table(doc, ops->kind_name);
+        if (!have || strcmp(have, want.data) != 0) {
+            print_error("docs/models.md: the table after <!-- parameters: %s --> should be:\n%s",
+                        ops->kind_name, want.data);
+            free(have);
+            strbuf_clear(&want);
+            free(doc);
+            fail();
+        }
+        free(have);
+        strbuf_clear(&want);
+    }
+    assert_true(n_tables >= 2);
+    free(doc);
+}
+
+/* Every default lies in its own range; a corner parameter is positive; names are unique. */
+static void test_parameter_tables_hold_together(void **state)
+{
+    (void)state;
+    for (int k = 0; k < device_count(); k++) {
+        const dev_ops *ops = device_at(k);
+        for (int i = 0; i < ops->n_model_params; i++) {
+            const dev_model_param *p = &ops->model_params[i];
+            double v = p->def;
+            int lo_ok = p->flags & DMP_MIN_OPEN ? v > p->min : v >= p->min;
+            int hi_ok = p->flags & DMP_MAX_OPEN ? v < p->max : v <= p->max;
+            if (isinf(v) && p->flags & DMP_ZERO_INF)
+                hi_ok = lo_ok = 1;
+            if (!lo_ok || !hi_ok) {
+                print_error("%s: default %g of %s is outside its range\n", ops->kind_name, v,
+                            p->name);
+                fail();
+            }
+            assert_non_null(p->meaning);
+            assert_non_null(p->unit);
+            for (int j = 0; j < i; j++)
+                assert_string_not_equal(ops->model_params[j].name, p->name);
+        }
+    }
+}
+
+/* The letters of the kinds are unique, and the facts agree with each other. */
+static void test_kind_facts(void **state)
+{
+    (void)state;
+    for (int k = 0; k < device_count(); k++) {
+        const dev_ops *a = device_at(k);
+        for (int j = 0; j < k; j++)
+            assert_int_not_equal(a->letter, device_at(j)->letter);
+        if (a->flags & DEV_DRIVES_CURRENT)
+            assert_true(a->flags & DEV_SOURCE);
+        if (a->report_line)
+            assert_non_null(a->report_heading);
+        for (int p = 0; p < a->n_dc_pairs; p++)
+            assert_true(a->dc_pairs[p][0] != a->dc_pairs[p][1]);
+        assert_ptr_equal(device_by_letter(a->letter), a);
+    }
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_docs_print_the_parameter_tables),
+        cmocka_unit_test(test_parameter_tables_hold_together),
+        cmocka_unit_test(test_kind_facts),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
