@@ -297,12 +297,22 @@ def compare_output(quoted, printed):
     pos = 0
     for k, seg in enumerate(segments):
         may_skip = lead_gap if k == 0 else True
-        starts = range(pos, len(printed) - len(seg) + 1) if may_skip else [pos]
+        starts = range(pos, len(printed) - len(seg) + 1) if may_skip else \
+            ([pos] if pos + len(seg) <= len(printed) else [])
         found = None
         for s in starts:
             if all(line_matches(q, printed[s + t])[0] for t, q in enumerate(seg)):
                 found = s
                 break
+        if found is None and not may_skip:
+            # the quote starts with the output: name the first line that differs
+            for t, q in enumerate(seg):
+                if pos + t >= len(printed):
+                    return f"'{q.strip()}': nothing more is printed"
+                ok, bad = line_matches(q, printed[pos + t])
+                if not ok:
+                    return f"'{q.strip()}': printed '{printed[pos + t].strip()}'" + \
+                        (f": {', '.join(bad)}" if bad else " (mark lines left out with ...)")
         if found is None:
             # explain with the first quoted line that has no match where it should be
             for t, q in enumerate(seg):
