@@ -122,8 +122,8 @@ SS_API double ss_table_get(const ss_table *t, int row, int col);
 SS_API double ss_table_lookup(const ss_table *t, const char *label, int col);
 SS_API void ss_table_destroy(ss_table **t);
 
-/* Writes the table as CSV (RFC 4180 quoting, LF line ends, the shortest of %.15g / %.17g that
- * reads back exactly) atomically: into a
+/* Writes the table as CSV (RFC 4180 quoting, LF line ends, each number in the fewest
+ * significant digits that read back as the same double; docs/cli.md) atomically: into a
  * temporary file in the same folder, then renamed into place. */
 SS_API ss_status ss_table_write_csv(const ss_table *t, const char *path, ss_error *err);
 
@@ -136,7 +136,7 @@ typedef struct ss_op_stats {
 } ss_op_stats;
 
 /* Solves the DC operating point and keeps it in the circuit (later analyses linearise there).
- * Output: *out_op (quantity,value rows per DESIGN's op.csv), optional; stats optional.
+ * Output: *out_op (the quantity,value rows of op.csv, docs/cli.md), optional; stats optional.
  * Returns SS_OK, SS_ERR_SINGULAR, SS_ERR_NO_CONVERGENCE, SS_ERR_NOMEM. */
 SS_API ss_status ss_op_solve(ss_circuit *ckt, ss_table **out_op, ss_op_stats *stats,
                              ss_error *err);
@@ -259,7 +259,9 @@ SS_API ss_status ss_plot_write_wave(const ss_circuit *ckt, const ss_table *wave,
 SS_API ss_status ss_plot_write_bode(const ss_circuit *ckt, const ss_table *stage,
                                     const ss_table *summary, const char *path, ss_error *err);
 
-/* Writes the human-readable report (operating point, per-BJT table, stage block) to f. */
+/* Writes the human-readable report to f: title, temperature, node voltages, per-BJT and
+ * per-diode tables, the stage block (summary may be NULL) and the circuit's warnings
+ * (docs/cli.md). */
 SS_API void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f);
 
 /* Sets the circuit temperature (overrides .temp); applied at the next solve. SS_ERR_INPUT when
