@@ -21,6 +21,7 @@ enum {
 #define POS 0.0, HUGE_VAL, DMP_MIN_OPEN    /* > 0 */
 #define NONNEG 0.0, HUGE_VAL, 0            /* >= 0 */
 #define ANY -HUGE_VAL, HUGE_VAL, 0
+#define GRADING 0.0, 1.0, DMP_MAX_OPEN /* 0 <= m < 1: the depletion charge divides by 1 - m */
 /* ORDER BJT_PARAM */
 static const dev_model_param bjt_params[BP_COUNT] = {
     {"is", 1e-16, POS, "A", ALL | DMP_USE_TEMP, "transport saturation current"},
@@ -41,27 +42,28 @@ static const dev_model_param bjt_params[BP_COUNT] = {
     {"rc", 0.0, NONNEG, "ohm", ALL, "collector resistance"},
     {"cje", 0.0, NONNEG, "F", CAP | DMP_USE_TEMP, "base-emitter zero-bias depletion capacitance"},
     {"vje", 0.75, POS, "V", CAP | DMP_USE_TEMP, "base-emitter built-in potential"},
-    {"mje", 0.33, ANY, "", CAP | DMP_USE_TEMP, "base-emitter grading coefficient"},
+    {"mje", 0.33, GRADING, "", CAP | DMP_USE_TEMP, "base-emitter grading coefficient"},
     {"cjc", 0.0, NONNEG, "F", CAP | DMP_USE_TEMP,
      "base-collector zero-bias depletion capacitance"},
     {"vjc", 0.75, POS, "V", CAP | DMP_USE_TEMP, "base-collector built-in potential"},
-    {"mjc", 0.33, ANY, "", CAP | DMP_USE_TEMP, "base-collector grading coefficient"},
+    {"mjc", 0.33, GRADING, "", CAP | DMP_USE_TEMP, "base-collector grading coefficient"},
     {"fc", 0.5, 0.0, 1.0, DMP_MAX_OPEN, "", CAP, "forward-bias depletion capacitance coefficient"},
     {"tf", 0.0, NONNEG, "s", CAP, "ideal forward transit time"},
     {"tr", 0.0, NONNEG, "s", CAP, "ideal reverse transit time"},
     {"xtb", 0.0, ANY, "", DMP_USE_TEMP, "beta temperature exponent"},
     {"xti", 3.0, ANY, "", DMP_USE_TEMP, "saturation current temperature exponent"},
-    {"eg", 1.11, ANY, "eV", DMP_USE_TEMP, "energy gap of the saturation current law"},
+    {"eg", 1.11, POS, "eV", DMP_USE_TEMP, "energy gap of the saturation current law"},
     {"tnom", SS_TNOM_DEFAULT_C, -SS_ZERO_C_IN_K, 1000.0, DMP_MIN_OPEN | DMP_CELSIUS, "C",
      DMP_USE_TEMP, "temperature the parameters were measured at"},
-    {"kf", 0.0, ANY, "", DMP_USE_NOISE, "flicker noise coefficient"},
-    {"af", 1.0, ANY, "", DMP_USE_NOISE, "flicker noise exponent"},
+    {"kf", 0.0, NONNEG, "", DMP_USE_NOISE, "flicker noise coefficient"},
+    {"af", 1.0, POS, "", DMP_USE_NOISE, "flicker noise exponent"},
 };
 #undef ALL
 #undef CAP
 #undef POS
 #undef NONNEG
 #undef ANY
+#undef GRADING
 
 /* Slot layout: three resistor pairs, then the 3x3 core on (c', b', e'). */
 enum { SL_RC = 0, SL_RB = 4, SL_RE = 8, SL_CORE = 12, SL_COUNT = 21 };
@@ -73,10 +75,11 @@ static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
 /* state[] */
 enum { ST_VBE = 0, ST_VBC = 1 };
 
-/* model types, in the order of enum model_type's NPN, PNP */
-static const char *const BJT_TYPES[] = {"npn", "pnp"};
+/* model types: the index is the polarity (0 NPN, 1 PNP) */
+enum { BJT_NPN = 0, BJT_PNP = 1 };
+static const char *const BJT_TYPES[] = {"npn", "pnp", NULL};
 
-static double polarity(const element *e) { return e->mod->type == MODEL_PNP ? -1.0 : 1.0; }
+static double polarity(const element *e) { return e->mod->type == BJT_PNP ? -1.0 : 1.0; }
 
 static int bjt_parse(pctx *p, element *e)
 {
@@ -105,7 +108,7 @@ static int bjt_parse(pctx *p, element *e)
             return -1;
     }
     e->n_node = 3; /* a substrate node is accepted and not modelled in this version */
-    e->mod = pctx_model(p, pctx_tok(p, model_tok), (1u << MODEL_NPN) | (1u << MODEL_PNP));
+    e->mod = pctx_model(p, pctx_tok(p, model_tok), &bjt_ops);
     if (!e->mod)
         return -1;
     e->area = 1.0;
@@ -549,6 +552,8 @@ const dev_ops bjt_ops = {
     .load_tran = bjt_load_tran,
     .n_charge = 2,
     .value_name = NULL,
+    .model_types = BJT_TYPES,
+    .model_kind = "BJT",
     .model_params = bjt_params,
     .n_model_params = BP_COUNT,
 };

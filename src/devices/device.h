@@ -195,7 +195,11 @@ typedef struct dev_ops {
     const char *value_name;
     /* what the main value may be: VALUE_ANY, VALUE_POSITIVE (> 0), VALUE_NONNEG (>= 0) */
     int value_range;
-    /* model parameter tables per model type (NULL when the kind takes no model) */
+    /* the .model types this kind takes, NULL-terminated ({"npn", "pnp", NULL}); NULL when it
+     * takes no model. A model's type is its index here (a BJT's polarity). */
+    const char *const *model_types;
+    const char *model_kind; /* how messages name its models: "a BJT needs a model of ..." */
+    /* the model parameter table (NULL when the kind takes no model) */
     const dev_model_param *model_params;
     int n_model_params;
     /* the operating point's main current, voltage and region (transistors); NULL otherwise */
@@ -215,8 +219,14 @@ typedef struct dev_ops {
 SS_HIDDEN int device_count(void);
 SS_HIDDEN const dev_ops *device_at(int index);
 SS_HIDDEN const dev_ops *device_by_letter(char letter);
-SS_HIDDEN const dev_ops *device_for_model_type(enum model_type t);
-SS_HIDDEN int model_param_index(enum model_type t, const char *name);
+/* The kind taking .model type `name` ("npn"), with the type's index in *type; NULL if none. */
+SS_HIDDEN const dev_ops *device_for_model_type(const char *name, int *type);
+/* "npn, pnp or d" (every kind, ops NULL) or one kind's types ("npn or pnp") into buf. */
+SS_HIDDEN void model_types_text(const dev_ops *ops, char *buf, size_t len);
+/* "a" or "an" before an initialism (a type name read letter by letter: "an npn", "a pnp"). */
+SS_HIDDEN const char *initialism_article(const char *name);
+/* The index of a parameter in ops's table, -1 when it has none of that name. */
+SS_HIDDEN int model_param_index(const dev_ops *ops, const char *name);
 /* The model parameter table of a kind as docs/models.md prints it (markdown), appended to out. */
 SS_HIDDEN void device_param_table_md(const dev_ops *ops, ss_strbuf *out);
 /* The parameter of the model that the beta/temperature corners spread (DMP_CORNER), -1 none. */

@@ -17,6 +17,7 @@ enum { DP_IS, DP_N, DP_RS, DP_CJO, DP_VJ, DP_M, DP_FC, DP_TT, DP_XTI, DP_EG, DP_
 #define POS 0.0, HUGE_VAL, DMP_MIN_OPEN
 #define NONNEG 0.0, HUGE_VAL, 0
 #define ANY -HUGE_VAL, HUGE_VAL, 0
+#define GRADING 0.0, 1.0, DMP_MAX_OPEN /* 0 <= m < 1: the depletion charge divides by 1 - m */
 /* ORDER DIODE_PARAM */
 static const dev_model_param diode_params[DP_COUNT] = {
     {"is", 1e-14, POS, "A", ALL | DMP_USE_TEMP, "saturation current"},
@@ -24,23 +25,26 @@ static const dev_model_param diode_params[DP_COUNT] = {
     {"rs", 0.0, NONNEG, "ohm", ALL, "series resistance"},
     {"cjo", 0.0, NONNEG, "F", CAP | DMP_USE_TEMP, "zero-bias depletion capacitance"},
     {"vj", 1.0, POS, "V", CAP | DMP_USE_TEMP, "built-in potential"},
-    {"m", 0.5, ANY, "", CAP | DMP_USE_TEMP, "grading coefficient"},
+    {"m", 0.5, GRADING, "", CAP | DMP_USE_TEMP, "grading coefficient"},
     {"fc", 0.5, 0.0, 1.0, DMP_MAX_OPEN, "", CAP, "forward-bias depletion capacitance coefficient"},
     {"tt", 0.0, NONNEG, "s", CAP, "transit time"},
     {"xti", 3.0, ANY, "", DMP_USE_TEMP, "saturation current temperature exponent"},
-    {"eg", 1.11, ANY, "eV", DMP_USE_TEMP, "energy gap of the saturation current law"},
+    {"eg", 1.11, POS, "eV", DMP_USE_TEMP, "energy gap of the saturation current law"},
     {"tnom", SS_TNOM_DEFAULT_C, -SS_ZERO_C_IN_K, 1000.0, DMP_MIN_OPEN | DMP_CELSIUS, "C",
      DMP_USE_TEMP, "temperature the parameters were measured at"},
-    {"kf", 0.0, ANY, "", DMP_USE_NOISE, "flicker noise coefficient"},
-    {"af", 1.0, ANY, "", DMP_USE_NOISE, "flicker noise exponent"},
+    {"kf", 0.0, NONNEG, "", DMP_USE_NOISE, "flicker noise coefficient"},
+    {"af", 1.0, POS, "", DMP_USE_NOISE, "flicker noise exponent"},
 };
 #undef ALL
 #undef CAP
 #undef POS
 #undef NONNEG
 #undef ANY
+#undef GRADING
 
 enum { SL_RS = 0, SL_J = 4, SL_COUNT = 8 };
+
+static const char *const DIODE_TYPES[] = {"d", NULL};
 
 static int diode_parse(pctx *p, element *e)
 {
@@ -49,7 +53,7 @@ static int diode_parse(pctx *p, element *e)
         return -1;
     if (pctx_ntok(p) < 4)
         return pctx_error(p, "missing model name");
-    e->mod = pctx_model(p, pctx_tok(p, 3), 1u << MODEL_D);
+    e->mod = pctx_model(p, pctx_tok(p, 3), &diode_ops);
     if (!e->mod)
         return -1;
     e->area = 1.0;
@@ -247,6 +251,8 @@ const dev_ops diode_ops = {
     .noise = diode_noise,
     .load_tran = diode_load_tran,
     .n_charge = 1,
+    .model_types = DIODE_TYPES,
+    .model_kind = "diode",
     .model_params = diode_params,
     .n_model_params = DP_COUNT,
 };

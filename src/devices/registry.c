@@ -30,23 +30,52 @@ const dev_ops *device_by_letter(char letter)
     return NULL;
 }
 
-const dev_ops *device_for_model_type(enum model_type t)
+const dev_ops *device_for_model_type(const char *name, int *type)
 {
-    return t == MODEL_D ? &diode_ops : &bjt_ops;
+    for (int k = 0; k < device_count(); k++) {
+        const char *const *t = DEVICES[k]->model_types;
+        for (int i = 0; t && t[i]; i++)
+            if (strcmp(t[i], name) == 0) {
+                *type = i;
+                return DEVICES[k];
+            }
+    }
+    return NULL;
+}
+
+void model_types_text(const dev_ops *ops, char *buf, size_t len)
+{
+    const char *names[32];
+    int n = 0;
+    for (int k = 0; k < device_count(); k++) {
+        const char *const *t = DEVICES[k]->model_types;
+        if (ops && DEVICES[k] != ops)
+            continue;
+        for (int i = 0; t && t[i] && n < 32; i++)
+            names[n++] = t[i];
+    }
+    buf[0] = '\0';
+    for (int i = 0; i < n; i++)
+        snprintf(buf + strlen(buf), len - strlen(buf), "%s%s",
+                 i == 0 ? "" : i == n - 1 ? " or " : ", ", names[i]);
+}
+
+const char *initialism_article(const char *name)
+{
+    /* the letters whose names start with a vowel sound: a e f h i l m n o r s x */
+    return name[0] && strchr("aefhilmnorsx", name[0]) ? "an" : "a";
 }
 
 int model_corner_param(const model *m)
 {
-    const dev_ops *ops = device_for_model_type(m->type);
-    for (int i = 0; i < ops->n_model_params; i++)
-        if (ops->model_params[i].flags & DMP_CORNER)
+    for (int i = 0; i < m->ops->n_model_params; i++)
+        if (m->ops->model_params[i].flags & DMP_CORNER)
             return i;
     return -1;
 }
 
-int model_param_index(enum model_type t, const char *name)
+int model_param_index(const dev_ops *ops, const char *name)
 {
-    const dev_ops *ops = device_for_model_type(t);
     for (int i = 0; i < ops->n_model_params; i++)
         if (strcmp(ops->model_params[i].name, name) == 0)
             return i;

@@ -211,7 +211,7 @@ ss_status circuit_check_temp(const struct ss_circuit *ckt, double temp_c, ss_err
         const model *md = ckt->models[m];
         element probe; /* what the temperature law reads: the model and an area of 1 */
         memset(&probe, 0, sizeof probe);
-        probe.ops = device_for_model_type(md->type);
+        probe.ops = md->ops;
         probe.mod = md;
         probe.area = 1.0;
         double tp[MODEL_MAX_PARAMS];
@@ -257,7 +257,7 @@ ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *
         *dot = '\0';
         int mi;
         if (strmap_get(&ckt->model_map, low, &mi)) {
-            int pi = model_param_index(ckt->models[mi]->type, dot + 1);
+            int pi = model_param_index(ckt->models[mi]->ops, dot + 1);
             if (pi >= 0) {
                 *out_value = ckt->models[mi]->p[pi];
                 return SS_OK;

@@ -8,12 +8,12 @@
 struct dev_ops;
 struct mna;
 
-enum model_type { MODEL_NPN = 0, MODEL_PNP = 1, MODEL_D = 2, MODEL_TYPE_COUNT };
 #define MODEL_MAX_PARAMS 40
 
 typedef struct model {
     const char *name;
-    enum model_type type;
+    const struct dev_ops *ops; /* the kind whose model this is */
+    int type;                  /* its index in ops->model_types (a BJT's polarity) */
     const char *file;
     int line;
     double p[MODEL_MAX_PARAMS];

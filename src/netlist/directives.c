@@ -437,7 +437,7 @@ ss_status check_dc_sources(parser *ps)
     for (int k = 0; k < ckt->n_dc; k++) {
         const dc_sweep_spec *s = &ckt->dc[k];
         int idx = circuit_find_elem(ckt, s->src);
-        if (idx < 0 || (ckt->elem[idx].ops->letter != 'v' && ckt->elem[idx].ops->letter != 'i'))
+        if (idx < 0 || !elem_is_source(&ckt->elem[idx]))
             return err_set(ps->err, SS_ERR_INPUT, s->file, s->line,
                            ".dc: '%s' is not an independent voltage or current source", s->src);
     }
@@ -458,14 +458,14 @@ ss_status check_noise(parser *ps)
                        n == 0 ? "is ground" : "does not exist");
     ckt->noise_out = ckt->node_name[n];
     int idx = circuit_find_elem(ckt, ckt->noise_src);
-    if (idx < 0 || (ckt->elem[idx].ops->letter != 'v' && ckt->elem[idx].ops->letter != 'i'))
+    if (idx < 0 || !elem_is_source(&ckt->elem[idx]))
         return err_set(ps->err, SS_ERR_INPUT, ckt->noise_file, ckt->noise_line,
                        ".noise: '%s' is not an independent voltage or current source",
                        ckt->noise_src);
     ckt->noise_src = ckt->elem[idx].name;
     if (ckt->noise_rs) {
         idx = circuit_find_elem(ckt, ckt->noise_rs);
-        if (idx < 0 || ckt->elem[idx].ops->letter != 'r')
+        if (idx < 0 || !elem_is(&ckt->elem[idx], DEV_RESISTOR))
             return err_set(ps->err, SS_ERR_INPUT, ckt->noise_file, ckt->noise_line,
                            ".noise: rs=%s is not a resistor of the circuit", ckt->noise_rs);
         ckt->noise_rs = ckt->elem[idx].name;

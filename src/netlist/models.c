@@ -1,6 +1,7 @@
 /* .model cards: the type, the parameters (published names, given once each) and the physical
  * ranges the equations need. Parameter tables and defaults are each device's (src/devices). */
 #include <ctype.h>
+#include <math.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -17,10 +18,10 @@ static int set_model_param(parser *ps, const logline *ll, void *vctx, const char
 {
     model_ctx *mc = vctx;
     model *m = mc->m;
-    int idx = model_param_index(m->type, name);
+    int idx = model_param_index(m->ops, name);
     if (idx < 0)
         return line_error(ps, ll, "model '%s': unknown parameter '%s' for a %s model", m->name,
-                          name, m->type == MODEL_D ? "diode" : "BJT"),
+                          name, m->ops->model_kind),
                -1;
     /* one card, one value per parameter: a second one (often on a continuation line) is a
      * mistake either way it is read */
@@ -39,36 +40,33 @@ static int set_model_param(parser *ps, const logline *ll, void *vctx, const char
     return 0;
 }
 
-/* Checks the physical ranges the equations need (divisions, logarithms). */
+/* Checks the physical ranges the equations need (divisions, logarithms), as the kind's
+ * parameter table states them. */
 int check_model(parser *ps, const logline *ll, const model *m)
 {
-    const dev_ops *ops = device_for_model_type(m->type);
+    const dev_ops *ops = m->ops;
     for (int i = 0; i < ops->n_model_params; i++) {
-        const char *n = ops->model_params[i].name;
+        const dev_model_param *pd = &ops->model_params[i];
+        const char *n = pd->name;
         double v = m->p[i];
-        int positive = strcmp(n, "is") == 0 || strcmp(n, "n") == 0 || strcmp(n, "nf") == 0 ||
-                       strcmp(n, "nr") == 0 || strcmp(n, "ne") == 0 || strcmp(n, "nc") == 0 ||
-                       strcmp(n, "bf") == 0 || strcmp(n, "br") == 0 || strcmp(n, "vje") == 0 ||
-                       strcmp(n, "vjc") == 0 || strcmp(n, "vj") == 0;
-        int nonneg = strcmp(n, "rb") == 0 || strcmp(n, "re") == 0 || strcmp(n, "rc") == 0 ||
-                     strcmp(n, "rs") == 0 || strcmp(n, "ise") == 0 || strcmp(n, "isc") == 0 ||
-                     strcmp(n, "cje") == 0 || strcmp(n, "cjc") == 0 || strcmp(n, "cjo") == 0 ||
-                     strcmp(n, "tf") == 0 || strcmp(n, "tr") == 0 || strcmp(n, "tt") == 0 ||
-                     strcmp(n, "vaf") == 0 || strcmp(n, "var") == 0 || strcmp(n, "ikf") == 0 ||
-                     strcmp(n, "ikr") == 0;
-        if (positive && !(v > 0.0))
-            return line_error(ps, ll, "model '%s': %s must be positive, got %g", m->name, n, v),
-                   -1;
-        if (nonneg && v < 0.0)
-            return line_error(ps, ll, "model '%s': %s must not be negative, got %g", m->name, n,
-                              v),
-                   -1;
-        if (strcmp(n, "tnom") == 0 && !(v > -SS_ZERO_C_IN_K && v <= 1000.0))
-            return line_error(ps, ll, "model '%s': tnom %g C is outside -273.15 .. 1000 C",
-                              m->name, v),
-                   -1;
-        if ((strcmp(n, "fc") == 0) && !(v >= 0.0 && v < 1.0))
-            return line_error(ps, ll, "model '%s': fc must be in [0, 1), got %g", m->name, v), -1;
+        int lo_ok = pd->flags & DMP_MIN_OPEN ? v > pd->min : v >= pd->min;
+        int hi_ok = pd->flags & DMP_MAX_OPEN ? v < pd->max : v <= pd->max;
+        if (isinf(v) && v > 0 && pd->flags & DMP_ZERO_INF) /* the default of an absent term */
+            lo_ok = hi_ok = 1;
+        if (lo_ok && hi_ok)
+            continue;
+        if (pd->flags & DMP_CELSIUS)
+            line_error(ps, ll, "model '%s': %s %g C is outside %g .. %g C", m->name, n, v,
+                       pd->min, pd->max);
+        else if (!isfinite(pd->max) && pd->min == 0.0 && pd->flags & DMP_MIN_OPEN)
+            line_error(ps, ll, "model '%s': %s must be positive, got %g", m->name, n, v);
+        else if (!isfinite(pd->max) && pd->min == 0.0)
+            line_error(ps, ll, "model '%s': %s must not be negative, got %g", m->name, n, v);
+        else
+            line_error(ps, ll, "model '%s': %s must be in %c%g, %g%c, got %g", m->name, n,
+                       pd->flags & DMP_MIN_OPEN ? '(' : '[', pd->min, pd->max,
+                       pd->flags & DMP_MAX_OPEN ? ')' : ']', v);
+        return -1;
     }
     return 0;
 }
@@ -76,8 +74,10 @@ int check_model(parser *ps, const logline *ll, const model *m)
 int define_model(parser *ps, const logline *ll)
 {
     /* .model name type [(] p=v ... [)]  -- parentheses were taken apart below */
+    char all_types[256];
+    model_types_text(NULL, all_types, sizeof all_types);
     if (ll->n_tok < 3)
-        return line_error(ps, ll, ".model needs a name and a type (npn, pnp or d)"), -1;
+        return line_error(ps, ll, ".model needs a name and a type (%s)", all_types), -1;
     const char *name = ll->tok[1];
     if (!name_start_ok(name))
         return line_error(ps, ll, ".model '%.40s': not a valid model name: %s", name,
@@ -88,16 +88,11 @@ int define_model(parser *ps, const logline *ll)
     char *paren = strchr(type_tok, '(');
     if (paren)
         *paren = '\0';
-    enum model_type t;
-    if (strcmp(type_tok, "npn") == 0)
-        t = MODEL_NPN;
-    else if (strcmp(type_tok, "pnp") == 0)
-        t = MODEL_PNP;
-    else if (strcmp(type_tok, "d") == 0)
-        t = MODEL_D;
-    else
-        return line_error(ps, ll, "model '%s': unknown type '%s' (expected npn, pnp or d)", name,
-                          type_tok),
+    int t;
+    const dev_ops *ops = device_for_model_type(type_tok, &t);
+    if (!ops)
+        return line_error(ps, ll, "model '%s': unknown type '%s' (expected %s)", name, type_tok,
+                          all_types),
                -1;
     int first;
     if (strmap_get(&ps->ckt->model_map, name, &first))
@@ -108,10 +103,10 @@ int define_model(parser *ps, const logline *ll)
     if (!m)
         return nomem(ps), -1;
     m->name = name;
+    m->ops = ops;
     m->type = t;
     m->file = ll->file;
     m->line = ll->line;
-    const dev_ops *ops = device_for_model_type(t);
     for (int i = 0; i < ops->n_model_params; i++)
         m->p[i] = ops->model_params[i].def;
 

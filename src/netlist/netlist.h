@@ -66,6 +66,7 @@ SS_HIDDEN int expr_eval_nested(const char *text, int *depth, expr_lookup_fn look
 typedef struct pctx pctx; /* the parser's state for one element line */
 struct element;
 struct model;
+struct dev_ops;
 
 /* Token i of the element line (0 is the element name), NULL past the end. */
 SS_HIDDEN const char *pctx_tok(const pctx *p, int i);
@@ -76,9 +77,9 @@ SS_HIDDEN int pctx_node(pctx *p, const char *tok);
 SS_HIDDEN int pctx_value(pctx *p, const char *tok, const char *what, double *out);
 /* 1 when a model of that name exists (any type). */
 SS_HIDDEN int pctx_is_model(const pctx *p, const char *name);
-/* The model called name, checked against the accepted types (bit mask of 1 << model_type);
- * NULL with the error set otherwise. */
-SS_HIDDEN const struct model *pctx_model(pctx *p, const char *name, unsigned type_mask);
+/* The model called name, which must be one of the kind ops (its .model type among
+ * ops->model_types); NULL with the error set otherwise. */
+SS_HIDDEN const struct model *pctx_model(pctx *p, const char *name, const struct dev_ops *ops);
 /* Records "FILE:LINE: ELEMENT: message"; returns -1. */
 SS_HIDDEN int pctx_error(pctx *p, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 /* The hierarchical (subcircuit-prefixed, lower-case) name of an element named on the line. */

@@ -230,10 +230,11 @@ ss_status apply_late_overrides(parser *ps)
                                "--set %s: a %s has no single value to set (set its model's "
                                "parameters as MODEL.PARAM)",
                                ov->name, el->ops->kind_name);
-            if (el->ops->letter == 'r' && !(v > 0.0))
+            if (el->ops->value_range == VALUE_POSITIVE && !(v > 0.0))
                 return err_set(ps->err, SS_ERR_INPUT, NULL, 0,
-                               "--set %s: resistance must be positive, got %g", ov->name, v);
-            if ((el->ops->letter == 'c' || el->ops->letter == 'l') && v < 0.0)
+                               "--set %s: %s must be positive, got %g", ov->name,
+                               el->ops->value_name, v);
+            if (el->ops->value_range == VALUE_NONNEG && v < 0.0)
                 return err_set(ps->err, SS_ERR_INPUT, NULL, 0,
                                "--set %s: %s must not be negative, got %g", ov->name,
                                el->ops->value_name, v);
@@ -247,7 +248,7 @@ ss_status apply_late_overrides(parser *ps)
             int mi;
             if (strmap_get(&ckt->model_map, name, &mi)) {
                 model *m = ckt->models[mi];
-                int pi = model_param_index(m->type, dot + 1);
+                int pi = model_param_index(m->ops, dot + 1);
                 if (pi < 0)
                     return err_set(ps->err, SS_ERR_INPUT, NULL, 0,
                                    "--set %s: model '%s' has no parameter '%s'", ov->name, name,

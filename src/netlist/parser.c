@@ -205,7 +205,7 @@ static ss_status resolve_controls(parser *ps)
         if (!elem_is_controlled(e))
             continue;
         int c = circuit_find_elem(ckt, e->ctrl_name);
-        if (c < 0 || ckt->elem[c].ops->letter != 'v')
+        if (c < 0 || !elem_is(&ckt->elem[c], DEV_CURRENT_PROBE))
             return err_set(ps->err, SS_ERR_INPUT, e->file, e->line,
                            "%s: controlling source '%s' is not a voltage source of the circuit",
                            e->name, e->ctrl_name);

@@ -4,6 +4,7 @@
 #include <stdio.h>
 #include <string.h>
 
+#include "devices/device.h"
 #include "netlist/parser_internal.h"
 
 const char *pctx_tok(const pctx *p, int i)
@@ -166,7 +167,7 @@ int pctx_is_model(const pctx *p, const char *name)
     return name && strmap_get(&p->ps->ckt->model_map, name, NULL);
 }
 
-const model *pctx_model(pctx *p, const char *name, unsigned type_mask)
+const model *pctx_model(pctx *p, const char *name, const struct dev_ops *ops)
 {
     int idx;
     if (!name) {
@@ -178,14 +179,12 @@ const model *pctx_model(pctx *p, const char *name, unsigned type_mask)
         return NULL;
     }
     const model *m = p->ps->ckt->models[idx];
-    if (!(type_mask & (1u << m->type))) {
-        static const char *const type_names[] = {"npn", "pnp", "d"}; /* ORDER MODEL_TYPE */
-        if (type_mask == (1u << MODEL_D))
-            pctx_error(p, "model '%s' is an %s model; a diode needs a model of type d", name,
-                       type_names[m->type]);
-        else
-            pctx_error(p, "model '%s' is a %s model; a BJT needs a model of type npn or pnp",
-                       name, type_names[m->type]);
+    if (m->ops != ops) {
+        const char *type = m->ops->model_types[m->type];
+        char types[128];
+        model_types_text(ops, types, sizeof types);
+        pctx_error(p, "model '%s' is %s %s model; a %s needs a model of type %s", name,
+                   initialism_article(type), type, ops->model_kind, types);
         return NULL;
     }
     return m;

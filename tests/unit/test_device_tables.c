@@ -110,12 +110,50 @@ static void test_kind_facts(void **state)
     }
 }
 
+static void expect_error(const char *text, const char *want)
+{
+    char msg[1400];
+    ss_test_parse_error(text, msg, sizeof msg);
+    if (strcmp(msg, want) != 0) {
+        print_error("got  %s\nwant %s\n", msg, want);
+        fail();
+    }
+}
+
+/* The card checks come from the tables' ranges: values the equations cannot take are refused
+ * naming the model and the parameter (a grading coefficient of 1 divides the depletion charge
+ * by zero; a negative KF would silently switch flicker noise off). */
+static void test_card_ranges_come_from_the_tables(void **state)
+{
+    (void)state;
+    expect_error("t\n.model q npn mje=1\nq1 c b 0 q\nv1 c 0 1\nv2 b 0 1\n",
+                 "test.cir:2: model 'q': mje must be in [0, 1), got 1");
+    expect_error("t\n.model q npn kf=-1e-16\nq1 c b 0 q\nv1 c 0 1\nv2 b 0 1\n",
+                 "test.cir:2: model 'q': kf must not be negative, got -1e-16");
+    expect_error("t\n.model q npn af=0\nq1 c b 0 q\nv1 c 0 1\nv2 b 0 1\n",
+                 "test.cir:2: model 'q': af must be positive, got 0");
+    expect_error("t\n.model dd d m=-0.1\nd1 a 0 dd\nv1 a 0 1\n",
+                 "test.cir:2: model 'dd': m must be in [0, 1), got -0.1");
+    expect_error("t\n.model dd d eg=0\nd1 a 0 dd\nv1 a 0 1\n",
+                 "test.cir:2: model 'dd': eg must be positive, got 0");
+    expect_error("t\n.model dd d tnom=-300\nd1 a 0 dd\nv1 a 0 1\n",
+                 "test.cir:2: model 'dd': tnom -300 C is outside -273.15 .. 1000 C");
+    /* the types and kinds named from the tables */
+    expect_error("t\n.model x njx\n", "test.cir:2: model 'x': unknown type 'njx' (expected "
+                                      "npn, pnp or d)");
+    expect_error("t\n.model p pnp\nd1 a 0 p\nv1 a 0 1\n",
+                 "test.cir:3: d1: model 'p' is a pnp model; a diode needs a model of type d");
+    expect_error("t\n.model q npn\nd1 a 0 q\nv1 a 0 1\n",
+                 "test.cir:3: d1: model 'q' is an npn model; a diode needs a model of type d");
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_docs_print_the_parameter_tables),
         cmocka_unit_test(test_parameter_tables_hold_together),
         cmocka_unit_test(test_kind_facts),
+        cmocka_unit_test(test_card_ranges_come_from_the_tables),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
