@@ -67,6 +67,23 @@ def close(a, b, rel):
 
 # ---- subcircuit headers --------------------------------------------------------------------------
 
+# run does not judge .expect lines, but refuses one that check would refuse
+bad("run: .expect on a node that does not exist",
+    F + ":5: limit on 'v(bb)': no such figure (the figures are the op.csv quantities of this "
+    "circuit's nodes and devices, the stage summary metrics, the noise and large-signal figures "
+    "and QUANTITY@FREQ; docs/checks.md lists them)",
+    "divider", "V1 a 0 10", "R1 a b 1k", "R2 b 0 1k", ".expect v(bb) 4 .. 6")
+bad("run: .expect that does not read",
+    F + ":5: limit on v(b): cannot read 'between 4 and 6' (write LO .. HI, >= LO, <= HI or "
+    "= NOMINAL +- TOL[%])",
+    "divider", "V1 a 0 10", "R1 a b 1k", "R2 b 0 1k", ".expect v(b) between 4 and 6")
+
+bad(".tolerance written NAME=SPEC",
+    F + ":5: .tolerance r2: write the name and the spread apart, `.tolerance NAME 5%` or "
+    "`.tolerance NAME LO .. HI` (NAME=SPEC is --tol's form)",
+    "divider", "V1 a 0 10", "R1 a b 1k", "R2 b 0 1k", ".tolerance R2=5%",
+    args=["spread", "{T}/n.cir", "-o", "{T}/out", "--trials", "10"])
+
 bad("subcircuit port listed twice", F + ":2: .subckt amp: port 'a' is listed twice",
     "t", ".subckt amp a b a", "R1 a b 1k", ".ends", "V1 n 0 1", "X1 n 0 n amp")
 bad("subcircuit parameter default given twice", F + ":2: .subckt amp: parameter 'r' given twice",
