@@ -157,6 +157,15 @@ ss_status ss_study_create(const char *netlist_path, const ss_override *sets, int
         const char *rest = t + n;
         while (*rest == ' ')
             rest++;
+        if (*rest == '=' || !*rest) {
+            /* `.tolerance R2=5%`: the --tol spelling, which the netlist line does not take */
+            err_set(err, SS_ERR_INPUT, sl->file, sl->line,
+                    ".tolerance %.*s: write the name and the spread apart, `.tolerance NAME 5%%` "
+                    "or `.tolerance NAME LO .. HI` (NAME=SPEC is --tol's form)",
+                    (int)n, t);
+            ss_study_destroy(&s);
+            return SS_ERR_INPUT;
+        }
         char body[512];
         snprintf(body, sizeof body, "%s", rest);
         /* tokens were joined with spaces: "5 %" -> "5%", "100 .. 300" -> "100..300" */
@@ -1052,7 +1061,7 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
             if (cp < 0)
                 continue;
             snprintf(names[k], sizeof names[k], "%s.%s", md->name,
-                     device_for_model_type(md->type)->model_params[cp].name);
+                     md->ops->model_params[cp].name);
             double bf = md->p[cp];
             double v = bc == 0 ? bf * 0.5 : bf * 2.0;
             for (int i = 0; i < s->n_tols; i++)
