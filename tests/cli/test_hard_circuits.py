@@ -19,8 +19,8 @@ law at every node with the device equations below, and solves that with scipy.op
 where that stalls, Newton with the whole step scaled to move no node more than 0.1 V),
 through a source ramp from 0 to 1 when no starting point is given; the Jacobian comes from
 complex-step differentiation (J. N. Lyness, C. B. Moler, SIAM J. Numer. Anal. 4(2), 1967 --
-from memory), exact to rounding. Equations (docs/models.md sections 2-4 and REFERENCES.md
-section 2, there marked "from memory"):
+from memory), exact to rounding. Equations (docs/models.md sections 2-4, which name their
+published sources; the Gummel-Poon and temperature forms there are marked "from memory"):
   diode       Shockley 1949: I = IS (exp(V/(N Vt)) - 1) + GMIN V, RS as a resistor
   BJT         Gummel & Poon 1970, parameterised after Nagel 1975 / Getreu 1976:
               IF = IS (exp(Vbe/(NF Vt)) - 1), IR = IS (exp(Vbc/(NR Vt)) - 1),

@@ -7,8 +7,8 @@ Usage: test_bjt_gummel_poon.py PATH_TO_STAGESIM
 Model equations (the expected values are computed from these, nothing else):
   H. K. Gummel, H. C. Poon, Bell Syst. Tech. J. 49, 827-852, 1970, in the DC form and
   parameter names of L. W. Nagel (UCB/ERL M520, 1975) and I. Getreu ("Modeling the
-  Bipolar Transistor", 1976) - equations as listed in REFERENCES.md section 2 (there
-  marked "from memory") and in the netlist-language description of this project:
+  Bipolar Transistor", 1976) - equations from memory, as stated in docs/models.md
+  section 3.2:
     IF = IS (exp(Vbe/(NF Vt)) - 1)          IR = IS (exp(Vbc/(NR Vt)) - 1)
     q1 = 1/(1 - Vbc/VAF - Vbe/VAR)          q2 = IF/IKF + IR/IKR
     qb = q1/2 (1 + sqrt(1 + 4 q2))
@@ -18,8 +18,9 @@ Model equations (the expected values are computed from these, nothing else):
   Vbc), IC -= GMIN Vbc. RB, RE, RC are plain resistors to internal nodes; the area
   factor multiplies IS IKF IKR ISE ISC and divides RB RE RC. PNP: all junction voltages
   and terminal currents reversed.
-  Temperature (Getreu 1976 / Antognetti & Massobrio tables, "from memory" in
-  REFERENCES.md section 2), r = T/TNOM, Vt = kT/q at T (exact SI-2019 k, q):
+  Temperature (Getreu 1976, as tabulated by P. Antognetti, G. Massobrio (eds.),
+  McGraw-Hill, 2nd ed. 1993 - from memory; docs/models.md section 4), r = T/TNOM,
+  Vt = kT/q at T (exact SI-2019 k, q):
     IS(T) = IS r^XTI exp((r-1) EG/Vt)   BF(T) = BF r^XTB   BR(T) = BR r^XTB
     ISE(T) = ISE r^-XTB (IS(T)/IS)^(1/NE)   ISC(T) likewise with NC.
 
@@ -417,10 +418,11 @@ def circuit_g(exe):
 
 
 def selfchecks():
-    # the temperature law reproduces the REFERENCES.md s.2 check value IS(350.15 K)
+    # the temperature law reproduces the check value IS(350.15 K) of docs/models.md section 4
+    # (computed there from the same law in double precision)
     d = Bjt("NPN", dict(IS=1e-14), temp_c=77.0)
     rc.check("selfcheck: IS(350.15 K)", d.IS, 7.28045000e-12, 1e-8, 0.0,
-             "REFERENCES.md s.2 check value vs temperature law here")
+             "docs/models.md s.4 check value vs temperature law here")
     # finite-difference gm equals the closed form for the plain Ebers-Moll case
     e = Bjt("NPN", dict(IS=1e-14, BF=100.0))
     vbe = 0.65
@@ -435,7 +437,7 @@ def selfchecks():
     go = -(f.currents(vbe, vbc + h)[0] - f.currents(vbe, vbc - h)[0]) / (2 * h)
     ic = f.currents(vbe, vbc)[0]
     rc.check("selfcheck: ro = (VAF - Vbc)/IC", 1.0 / go, (100.0 - vbc) / ic, 1e-6, 0.0,
-             "REFERENCES.md s.3 hybrid-pi: the model's own q1 gives ro = (VAF - VBC)/IC")
+             "docs/models.md s.3.2: the model's own q1 gives ro = (VAF - VBC)/IC")
 
 
 def main():

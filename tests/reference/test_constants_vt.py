@@ -8,19 +8,23 @@ What is checked (usage: test_constants_vt.py PATH_TO_STAGESIM):
      so Vt = V/(m*N) is read straight off v(node) and compared with
      Vt(300.15 K) = 0.025864925786 V.
      Sources: exact SI-2019 constants k = 1.380649e-23 J/K, q = 1.602176634e-19 C
-     (CODATA 2018); Vt value as tabulated in REFERENCES.md section 3 (computed there
-     from those constants); diode law W. Shockley, Bell Syst. Tech. J. 28 (1949).
+     (CODATA 2018); the Vt value is kT/q computed from those constants in double
+     precision and rounded to 12 decimals (also stated in docs/models.md), re-computed
+     here as a self-check; diode law W. Shockley, Bell Syst. Tech. J. 28 (1949).
   2. Vt at other temperatures from the difference of two diode voltages at a current
      ratio near e^8 (dV = N*Vt*ln((I1 + IS(T))/(I2 + IS(T))), which barely depends on
-     IS(T)): 0 degC, 26.85 degC (300 K, expected 0.025851999786 V from REFERENCES.md
-     section 3), 50 degC. Expected values computed here from the exact constants.
+     IS(T)): 0 degC, 26.85 degC (300 K, expected 0.025851999786 V: kT/q from the exact
+     constants, double precision, 12 decimals), 50 degC. Expected values computed here
+     from the exact constants.
   3. The diode IS(T) law IS(T) = IS*r^(XTI/N)*exp((r-1)*EG/(N*Vt(T))), r = T/TNOM
-     (temperature law as tabulated by Antognetti & Massobrio after Getreu 1976, "from
-     memory" in REFERENCES.md section 2): with IS = 1e-14 A, XTI 3, EG 1.11 eV,
-     IS(T) derived from v(node) at 1 mA must equal the check values 7.28045000e-12 A
-     (350.15 K), 1.08955613e-18 A (250.15 K), 1.07738733e-09 A (400.15 K) listed in
-     REFERENCES.md section 2 (computed there from the formula); each is also re-computed
-     here with the formula as a self-check of this script.
+     (temperature law as tabulated by P. Antognetti, G. Massobrio (eds.), McGraw-Hill,
+     2nd ed. 1993, after I. Getreu, Modeling the Bipolar Transistor, 1976 -- from memory;
+     stated in docs/models.md section 4): with IS = 1e-14 A, XTI 3, EG 1.11 eV,
+     TNOM 300.15 K, IS(T) derived from v(node) at 1 mA must equal the check values
+     7.28045000e-12 A (350.15 K), 1.08955613e-18 A (250.15 K), 1.07738733e-09 A
+     (400.15 K), computed from that formula in double precision and rounded to 9
+     significant digits (docs/models.md section 4 lists the first two); each is also
+     re-computed here with the formula as a self-check of this script.
 
 Every netlist here is solved with tight Newton tolerances (refcommon.TIGHT_OPTIONS:
 tol_rel 1e-9), so that v(node) is the model's exact solution and an error of 1e-8 in Vt
@@ -68,11 +72,11 @@ def main():
 
     # reference self-checks: the constants give the tabulated Vt values
     rc.check("selfcheck: Vt(300.15 K)", rc.vt(300.15), 0.025864925786, 0.0, 5e-13,
-             "REFERENCES.md s.3 value (12 decimals) vs kT/q here")
+             "kT/q value rounded to 12 decimals vs kT/q here")
     rc.check("selfcheck: Vt(300 K)", rc.vt(300.0), 0.025851999786, 0.0, 5e-13,
-             "REFERENCES.md s.3 value (12 decimals) vs kT/q here")
+             "kT/q value rounded to 12 decimals vs kT/q here")
     rc.check("selfcheck: Vt(298.15 K)", rc.vt(298.15), 0.025692579121, 0.0, 5e-13,
-             "REFERENCES.md s.3 value (12 decimals) vs kT/q here")
+             "kT/q value rounded to 12 decimals vs kT/q here")
 
     # ---- 1. Vt at 27 degC straight from one diode voltage --------------------------------
     is0 = 1e-14
@@ -92,7 +96,7 @@ def main():
                  "KCL: the diode carries the source current")
         if vgot is not None:
             rc.check("N=%g Vt = v(mon)/(m N) at 27 C" % n, vgot / (m * n), 0.025864925786,
-                     1e-8, 0.0, "REFERENCES.md s.3 Vt(300.15 K), " + SRC_VT)
+                     1e-8, 0.0, "Vt(300.15 K) to 12 decimals, " + SRC_VT)
 
     # ---- 2. Vt at other temperatures from a two-current voltage difference ---------------
     i2 = 1e-5
@@ -117,7 +121,7 @@ def main():
         rc.check("%g C v(hi)" % temp_c, ghi, vhi, 1e-8, 1e-12, src)
         rc.check("%g C v(lo)" % temp_c, glo, vlo, 1e-8, 1e-12, src)
         vt_exp = rc.vt(tk) if tabulated is None else tabulated
-        vt_src = SRC_VT if tabulated is None else "REFERENCES.md s.3 Vt(300 K), " + SRC_VT
+        vt_src = SRC_VT if tabulated is None else "Vt(300 K) to 12 decimals, " + SRC_VT
         if ghi is not None and glo is not None:
             # junction currents are the source currents less the GMIN shunt currents
             vt_got = (ghi - glo) / math.log((i1 - GMIN * ghi + ist) / (i2 - GMIN * glo + ist))
@@ -130,7 +134,7 @@ def main():
                                   (127.0, 400.15, 1.07738733e-09)):
         ist = is_t(1e-14, 1.0, 3.0, 1.11, tk, t27)
         rc.check("selfcheck: IS(%g K) formula" % tk, ist, tabulated, 1e-8, 0.0,
-                 "REFERENCES.md s.2 check value vs formula here")
+                 "IS(T) check value (docs/models.md s.4 law, 9 digits) vs formula here")
         net = ("enclosure-temperature probe diode at %g C\n"
                "IPROBE 0 a DC 1m\n"
                "DPROBE a 0 dprobe\n"
@@ -145,7 +149,7 @@ def main():
             # IS(T) implied by the solved voltage (GMIN current removed)
             is_got = (ibias - GMIN * va) / math.expm1(va / rc.vt(tk))
             rc.check("%g C IS(T) from v(a)" % temp_c, is_got, tabulated, 1e-6, 0.0,
-                     "REFERENCES.md s.2 IS(T) check value (computed from the IS(T) law)")
+                     "IS(T) check value (computed from the docs/models.md s.4 law)")
 
     rc.finish()
 

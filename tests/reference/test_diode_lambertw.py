@@ -24,10 +24,11 @@ A model RS is one more series resistance to the internal junction node, so R -> 
 the formula, and v(anode) = V - I*R (RS is inside the device).
 
 Cases (27 degC, Vt = kT/q with exact SI-2019 constants): V = 5 / 1 / 0.3 V, N = 1 and
-N = 2, R = 1 kOhm, IS = 1e-14 A - the check values of REFERENCES.md section 3 (computed
-there with the g = 0 formula, agreeing with bisection) are reproduced first as
-"selfcheck" lines; then own cases with RS, a high-current case, a case whose exponent
-overflows double (wrightomega) and a reverse-biased case.
+N = 2, R = 1 kOhm, IS = 1e-14 A - check values computed from the paper's g = 0 formula in
+double precision (scipy lambertw; a bisection of V = I R + N Vt ln(1 + I/IS) gives the same
+12 digits) are reproduced first as "selfcheck" lines; then own cases with RS, a
+high-current case, a case whose exponent overflows double (wrightomega) and a
+reverse-biased case.
 Each case is solved twice: with the default Newton tolerances, compared at rel 1e-6 on
 current and voltage, and with tight tolerances (refcommon.TIGHT_OPTIONS), compared at
 rel 1e-9 - the latter tests the equations alone (absolute floors 1e-15 A / 1e-9 V).
@@ -64,17 +65,17 @@ def diode_series_current(v, r, is_, n, temp_k, g=GMIN):
 def main():
     exe = rc.binary_from_argv()
 
-    # ---- reproduce the published check values (g = 0) ----------------------------------
+    # ---- reproduce the check values of the paper's formula (g = 0) ----------------------
     for v, n, i_tab, vd_tab in ((5.0, 1.0, 4.30711216762e-3, 0.692887832),
                                 (1.0, 1.0, 3.70559089479e-4, 0.629440911),
                                 (5.0, 2.0, 3.62316938285e-3, 1.376830617),
                                 (0.3, 1.0, 1.08952518939e-9, None)):
         i0 = diode_series_current(v, 1e3, 1e-14, n, T27, g=0.0)
         rc.check("selfcheck: V=%g N=%g I (g=0)" % (v, n), i0, i_tab, 1e-10, 0.0,
-                 "REFERENCES.md s.3 check value vs formula here")
+                 "Banwell-Jayakumar g = 0 value (double precision) vs formula here")
         if vd_tab is not None:
             rc.check("selfcheck: V=%g N=%g Vd (g=0)" % (v, n), v - i0 * 1e3, vd_tab, 1e-8, 0.0,
-                     "REFERENCES.md s.3 check value vs formula here")
+                     "Banwell-Jayakumar g = 0 value (double precision) vs formula here")
     # the two evaluation routes agree where both are finite
     nvt = rc.vt(T27)
     z = math.log(1e-14 * 1e3 / nvt) + (5.0 + 1e-14 * 1e3) / nvt

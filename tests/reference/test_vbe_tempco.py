@@ -16,8 +16,10 @@ Two arrangements (own scenarios, invented model cards):
 
 Expected values:
   1. Vbe at each temperature from this script's own solution of the Gummel-Poon DC
-     equations with the temperature laws (Getreu 1976 / Antognetti & Massobrio table,
-     "from memory" in REFERENCES.md section 2): IS(T) = IS r^XTI exp((r-1) EG/Vt(T)),
+     equations with the temperature laws (I. Getreu, Modeling the Bipolar Transistor,
+     1976, as tabulated by P. Antognetti, G. Massobrio (eds.), McGraw-Hill, 2nd ed.
+     1993 -- from memory; stated in docs/models.md section 4):
+     IS(T) = IS r^XTI exp((r-1) EG/Vt(T)),
      ISE(T) = ISE r^-XTB (IS(T)/IS)^(1/NE), r = T/TNOM, Vt = kT/q with exact SI-2019 k, q;
      GMIN = 1e-12 S across each junction included. The one-unknown equation is solved
      with scipy.optimize.brentq (xtol 1e-15). For the diode-connected case the closed
@@ -26,8 +28,9 @@ Expected values:
      floor 1e-9 V / 1e-12 A, also on the slope) and with tight ones
      (refcommon.TIGHT_OPTIONS, compared at rel 1e-7).
   2. The slope (Vbe(50 C) - Vbe(0 C))/50 K lies between -2.5 and -1.5 mV/K: "Vbe falls
-     about 2 mV per kelvin at fixed collector current" - common practice (REFERENCES.md
-     section 4; Horowitz & Hill quote about -2.1 mV/degC, from memory).
+     about 2 mV per kelvin at fixed collector current" - common practice (P. Horowitz,
+     W. Hill, The Art of Electronics, 2nd ed., Cambridge 1989, ch. 2, quote about
+     -2.1 mV/degC -- from memory).
 """
 
 import math

@@ -17,7 +17,9 @@
 SS_HIDDEN void thd_harmonics(const double *x, int n, int n_harm, double *amp, double *phase_deg);
 SS_HIDDEN double thd_ratio(const double *amp, int n_harm);
 
-/* thermal voltage at 27 C (REFERENCES.md sec. 3, computed from the exact 2019-SI k and q) */
+/* thermal voltage kT/q at 27 C = 300.15 K, computed in double precision from the exact
+ * 2019-SI k = 1.380649e-23 J/K and q = 1.602176634e-19 C (CODATA 2018), rounded to 12
+ * decimals; docs/models.md states the same value */
 #define VT_300K15 0.025864925786
 
 static ss_table *run_tran(const char *text, ss_circuit **out_ckt)
