@@ -39,7 +39,7 @@ the cap is at 300, only to keep a wild trial point finite).
 Three checks guard behaviour that was once wrong (marked REGRESSION GUARD below):
   latch, latch_pnpn      the unstable in-between solution used to be reported
   resistance_spread      v(m), v(t) used to be right to 2.4e-5 only
-  tiny_is_extreme        the linear continuation of exp() above 80 decides the answer (6.7 V)
+  tiny_is_extreme        a junction at exp(85): beyond an exponent cap of 80 (the old one)
 The runs are killed after TIMEOUT_S seconds: 'reverse_midpoint gmin=0' guards a Newton solve
 that must end (polishing past newton_iters has to be bounded), and a killed run fails.
 
