@@ -42,6 +42,11 @@ typedef struct ss_error {
 SS_API void ss_error_format(const ss_error *err, char *buf, size_t buf_len);
 SS_API const char *ss_status_name(ss_status code);
 SS_API const char *ss_version(void);
+/* Opt-in: hands SuiteSparse (KLU) the library's large-block allocation (whole huge pages for
+ * the LU factors of big circuits), once per process and only when the process has not set
+ * SuiteSparse's memory functions itself. It changes a process-wide setting, so the library
+ * never calls it on its own; the command-line tool does, at start. */
+SS_API void ss_klu_use_library_memory(void);
 
 /* Reads one number as netlist values are written, for option values: decimal digits
  * ([+-]D[.D][e[+-]D]) and an optional SI suffix (t g meg k m u n p f mil, any case: m is milli,
@@ -80,21 +85,54 @@ SS_API ss_status ss_circuit_parse_text(const char *text, size_t text_len, const 
 /* Frees the circuit and everything it owns; accepts NULL and nulls the handle. */
 SS_API void ss_circuit_destroy(ss_circuit **ckt);
 
+/* ---- solver contexts --------------------------------------------------------------------- */
+
+/* A solver context: made from a parsed circuit (which it reads, never writes, and which must
+ * outlive it), it owns everything that changes while solving -- the current values of
+ * parameters, elements and model parameters, the temperature, the stage, noise and large-signal
+ * requests, the matrix and the operating point. Several contexts of one circuit may run in
+ * parallel threads, one thread per context. */
+typedef struct ss_solver ss_solver;
+SS_API ss_status ss_solver_create(const ss_circuit *ckt, ss_solver **out, ss_error *err);
+/* Frees the context; accepts NULL and nulls the handle. */
+SS_API void ss_solver_destroy(ss_solver **sv);
+SS_API const ss_circuit *ss_solver_circuit(const ss_solver *sv);
+/* Sets a value by name, as --set names it: a global .param (whatever is written in its terms
+ * follows at the next analysis), an element's main value (R1) or a model parameter (QN.BF).
+ * SS_ERR_INPUT for a name the circuit does not have; a value outside the element's or
+ * parameter's range is refused by the next analysis, naming it. A value an analysis setting,
+ * option or waveform is written in terms of cannot change (the analysis says which). */
+SS_API ss_status ss_solver_set_value(ss_solver *sv, const char *name, double value,
+                                     ss_error *err);
+/* The current value of a name as ss_solver_set_value takes it. */
+SS_API ss_status ss_solver_get_value(ss_solver *sv, const char *name, double *out_value,
+                                     ss_error *err);
+/* Every value and the temperature back to the circuit's own. */
+SS_API void ss_solver_reset_values(ss_solver *sv);
+/* Sets the context's temperature (overrides .temp); applied at the next solve. SS_ERR_INPUT
+ * when it is outside -273.15 .. 1000 C, or when a model's parameters scaled to it are not
+ * finite or leave their range (the error names the model card, the parameter and its value). */
+SS_API ss_status ss_solver_set_temp(ss_solver *sv, double temp_c, ss_error *err);
+SS_API double ss_solver_temp_c(const ss_solver *sv);
+/* The warnings: the circuit's, then what the analyses run on this context raised. NULL past
+ * the last. */
+SS_API const char *ss_solver_warning(const ss_solver *sv, int index);
+
 /* What the netlist asks for. */
 typedef struct ss_analysis_flags {
     int op;    /* .op (an operating point is always solved before other analyses) */
     int dc;    /* .dc */
     int ac;    /* .ac */
-    int stage; /* .stage, or a stage named with ss_circuit_set_stage */
+    int stage; /* .stage, or a stage named with ss_solver_set_stage */
     int tran;  /* .tran */
-    int noise; /* .noise, or a noise analysis named with ss_circuit_set_noise */
-    int large_signal; /* .large_signal, or ss_circuit_set_large_signal */
+    int noise; /* .noise, or a noise analysis named with ss_solver_set_noise */
+    int large_signal; /* .large_signal, or ss_solver_set_large_signal */
 } ss_analysis_flags;
 SS_API void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *out_flags);
 
 /* Names the stage's driving source and output node (overrides a .stage line). load_ohm <= 0
  * means no load named. Returns SS_ERR_INPUT when the source or node does not exist. */
-SS_API ss_status ss_circuit_set_stage(ss_circuit *ckt, const char *in_source,
+SS_API ss_status ss_solver_set_stage(ss_solver *sv, const char *in_source,
                                       const char *out_node, double load_ohm, ss_error *err);
 
 SS_API double ss_circuit_temp_c(const ss_circuit *ckt);
@@ -103,7 +141,7 @@ SS_API double ss_circuit_temp_c(const ss_circuit *ckt);
  * point table and the report, and the columns of the DC, AC and transient tables, in the order
  * given. n = 0 (or names NULL) goes back to every netlist node, the default. A name twice is
  * kept once. SS_ERR_INPUT names a node the circuit does not have. */
-SS_API ss_status ss_circuit_select_nodes(ss_circuit *ckt, const char *const *names, int n,
+SS_API ss_status ss_solver_select_nodes(ss_solver *sv, const char *const *names, int n,
                                          ss_error *err);
 
 /* ---- result tables ----------------------------------------------------------------------- */
@@ -129,6 +167,31 @@ SS_API ss_status ss_table_write_csv(const ss_table *t, const char *path, ss_erro
 
 /* ---- analyses ---------------------------------------------------------------------------- */
 
+/* ---- sinks: where an analysis's rows go ---------------------------------------------------- */
+
+/* A sink takes an analysis's rows as it makes them: into a table (ss_sink_table), into a CSV
+ * file written while the analysis runs (ss_sink_csv), or to the caller's functions
+ * (ss_sink_create). One sink serves one analysis run at a time. */
+typedef struct ss_sink ss_sink;
+typedef struct ss_sink_callbacks {
+    /* once: the column names (valid during the call) and how many rows come (0 unknown) */
+    int (*begin)(void *ctx, int n_cols, const char *const *names, long n_rows_hint);
+    /* per row: n_cols values (valid during the call) */
+    int (*row)(void *ctx, const double *values, int n_cols);
+    /* once at the end: ok 1 when the analysis succeeded (else it stopped with an error) */
+    int (*end)(void *ctx, int ok);
+} ss_sink_callbacks; /* each may be NULL; a nonzero return stops the analysis (SS_ERR_IO) */
+SS_API ss_status ss_sink_create(const ss_sink_callbacks *cb, void *ctx, ss_sink **out,
+                                ss_error *err);
+SS_API ss_status ss_sink_table(ss_sink **out, ss_error *err);
+/* The table a table sink collected (the caller's to destroy); NULL for any other sink or when
+ * the analysis failed. */
+SS_API ss_table *ss_sink_take_table(ss_sink *sink);
+/* The CSV file `path`, written row by row as the analysis runs (a second thread formats the
+ * text of large sweeps), replaced atomically when the analysis succeeds, left alone otherwise. */
+SS_API ss_status ss_sink_csv(const char *path, ss_sink **out, ss_error *err);
+SS_API void ss_sink_destroy(ss_sink **sink);
+
 typedef struct ss_op_stats {
     int newton_iterations; /* total, fallbacks included */
     int gmin_steps;        /* 0 when plain Newton converged */
@@ -138,36 +201,38 @@ typedef struct ss_op_stats {
 /* Solves the DC operating point and keeps it in the circuit (later analyses linearise there).
  * Output: *out_op (the quantity,value rows of op.csv, docs/cli.md), optional; stats optional.
  * Returns SS_OK, SS_ERR_SINGULAR, SS_ERR_NO_CONVERGENCE, SS_ERR_NOMEM. */
-SS_API ss_status ss_op_solve(ss_circuit *ckt, ss_table **out_op, ss_op_stats *stats,
+SS_API ss_status ss_op_solve(ss_solver *sv, ss_table **out_op, ss_op_stats *stats,
                              ss_error *err);
 
 /* Runs the netlist's .dc sweep (each point starts from the previous solution). Output table:
  * the swept source(s), then v(NODE) per node. Leaves the circuit at its unswept values. */
-SS_API ss_status ss_dc_sweep_run(ss_circuit *ckt, ss_table **out_dc, ss_error *err);
+SS_API ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err);
 
 /* Runs the .ac sweep at the present operating point (solves it first if needed).
  * Output: freq_hz, vm(NODE), vp(NODE) per node. */
-SS_API ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err);
+SS_API ss_status ss_ac_sweep_run(ss_solver *sv, ss_table **out_ac, ss_error *err);
 /* The same sweep written straight to a CSV file (the very text ss_table_write_csv writes of
  * ss_ac_sweep_run's table), formatted on a second thread while the next frequency is solved
  * and never held whole in memory: what a board of many nodes needs. */
-SS_API ss_status ss_ac_sweep_write(ss_circuit *ckt, const char *path, ss_error *err);
+/* The AC sweep's rows (freq_hz, then vm(NODE), vp(NODE) per written node) into a sink. */
+SS_API ss_status ss_ac_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
+SS_API ss_status ss_ac_sweep_write(ss_solver *sv, const char *path, ss_error *err);
 
 /* Stage figures over the .ac frequencies: out_stage (freq_hz, gain, gain_db, phase_deg,
  * zin_ohm, zout_ohm) and out_summary (metric,value). Corners are refined by extra solves. */
-SS_API ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_summary,
+SS_API ss_status ss_stage_run(ss_solver *sv, ss_table **out_stage, ss_table **out_summary,
                               ss_error *err);
 
 /* Names the noise analysis's output node and input source (overrides a .noise line) and,
  * optionally, the resistor whose thermal noise is the noise figure's reference (rs_resistor
  * NULL: the resistor in series with a V source / across an I source, when there is exactly
  * one -- docs/noise.md). Returns SS_ERR_INPUT naming what does not exist. */
-SS_API ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node,
+SS_API ss_status ss_solver_set_noise(ss_solver *sv, const char *out_node,
                                       const char *in_source, const char *rs_resistor,
                                       ss_error *err);
 
 /* Noise analysis over the .ac frequencies at the operating point (solved first if needed),
- * for the output node and input source of .noise (or ss_circuit_set_noise); docs/noise.md.
+ * for the output node and input source of .noise (or ss_solver_set_noise); docs/noise.md.
  * Outputs (owned by the caller, written on success only; each may be NULL if not wanted):
  *   out_noise   freq_hz, out_noise_v_rthz, in_noise_v_rthz per frequency (noise.csv); the
  *               input-referred density is empty where the gain is 0
@@ -178,7 +243,7 @@ SS_API ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node,
  *               ("q1 collector shot"), elements ranked by their total, sources within each
  * Returns SS_OK, SS_ERR_INPUT (no noise analysis named, no .ac), SS_ERR_SINGULAR,
  * SS_ERR_NO_CONVERGENCE, SS_ERR_NOMEM, SS_ERR_LIMIT. */
-SS_API ss_status ss_noise_run(ss_circuit *ckt, ss_table **out_noise, ss_table **out_summary,
+SS_API ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **out_summary,
                               ss_table **out_contrib, ss_error *err);
 
 /* ---- transient and the stage's large-signal figures (docs/transient.md) ------------------ */
@@ -192,17 +257,17 @@ SS_API ss_status ss_noise_run(ss_circuit *ckt, ss_table **out_noise, ss_table **
  * success only. Returns SS_OK, SS_ERR_INPUT (no .tran), SS_ERR_NO_CONVERGENCE (no operating
  * point at t = 0, or the step fell below its floor: the message names the time and the node),
  * SS_ERR_SINGULAR, SS_ERR_NOMEM, SS_ERR_LIMIT. */
-SS_API ss_status ss_tran_run(ss_circuit *ckt, ss_table **out_tran, ss_error *err);
+SS_API ss_status ss_tran_run(ss_solver *sv, ss_table **out_tran, ss_error *err);
 
 /* Sets the stage's large-signal test (overrides a .large_signal line): the signal frequency
  * (<= 0: keep; default 1 kHz), the input amplitude thd_pct is computed at (V for a voltage
  * source, A for a current source; <= 0: keep; none by default) and the THD in percent whose
  * input amplitude is searched for (<= 0: keep; default 1 %). Returns SS_OK or SS_ERR_INPUT. */
-SS_API ss_status ss_circuit_set_large_signal(ss_circuit *ckt, double freq_hz, double amplitude,
+SS_API ss_status ss_solver_set_large_signal(ss_solver *sv, double freq_hz, double amplitude,
                                              double thd_target_pct, ss_error *err);
 /* The large-signal test in force, defaults applied: frequency (Hz), amplitude (0 when none is
  * named) and THD target (percent). Any output may be NULL. */
-SS_API void ss_circuit_large_signal(const ss_circuit *ckt, double *freq_hz, double *amplitude,
+SS_API void ss_solver_large_signal(const ss_solver *sv, double *freq_hz, double *amplitude,
                                     double *thd_target_pct);
 
 /* THD of the stage: its source driven by amplitude * sin(2 pi freq_hz t) around its DC value
@@ -216,7 +281,7 @@ SS_API void ss_circuit_large_signal(const ss_circuit *ckt, double *freq_hz, doub
  *   out_wave      time_s, in(SOURCE) (its value: V or A), v(OUT): the last 3 periods
  * Returns SS_OK, SS_ERR_INPUT (no stage, amplitude or frequency not positive),
  * SS_ERR_NO_CONVERGENCE, SS_ERR_SINGULAR, SS_ERR_NOMEM. */
-SS_API ss_status ss_stage_thd(ss_circuit *ckt, double amplitude, double freq_hz,
+SS_API ss_status ss_stage_thd(ss_solver *sv, double amplitude, double freq_hz,
                               double *out_thd_pct, ss_table **out_harmonics, ss_table **out_wave,
                               ss_error *err);
 
@@ -224,7 +289,7 @@ SS_API ss_status ss_stage_thd(ss_circuit *ckt, double amplitude, double freq_hz,
  * then regula falsi on log amplitude against log THD, to 0.1 % of the target). Returns SS_OK,
  * SS_ERR_INPUT, SS_ERR_NO_CONVERGENCE (also: the target is not reached below clipping),
  * SS_ERR_SINGULAR, SS_ERR_NOMEM. */
-SS_API ss_status ss_stage_amplitude_at_thd(ss_circuit *ckt, double thd_target_pct,
+SS_API ss_status ss_stage_amplitude_at_thd(ss_solver *sv, double thd_target_pct,
                                            double freq_hz, double *out_amplitude, ss_error *err);
 
 /* Output swing at the onset of clipping, both polarities: from the stage's quasi-static
@@ -236,41 +301,36 @@ SS_API ss_status ss_stage_amplitude_at_thd(ss_circuit *ckt, double thd_target_pc
  * vin_at_swing_pos_v, vin_at_swing_neg_v (iin_..._a for a current source), swing_pos_tran_v,
  * swing_neg_tran_v; a polarity that does not clip within four times the largest node voltage
  * is written empty. Returns as ss_stage_thd. */
-SS_API ss_status ss_stage_clipping(ss_circuit *ckt, ss_table **out_summary, ss_error *err);
+SS_API ss_status ss_stage_clipping(ss_solver *sv, ss_table **out_summary, ss_error *err);
 
 /* Every large-signal figure in one metric,value table: ss_stage_clipping's rows, then thd_pct
  * (at the .large_signal amplitude; empty without one) and thd_err_pct (its estimated error
  * from the distance to the periodic steady state, percentage points; empty when unknown),
  * thd_target_pct and vin_at_thd_v (iin_at_thd_a for a current source). Returns as
  * ss_stage_thd. */
-SS_API ss_status ss_stage_large_signal(ss_circuit *ckt, ss_table **out_summary, ss_error *err);
+SS_API ss_status ss_stage_large_signal(ss_solver *sv, ss_table **out_summary, ss_error *err);
 
 /* Writes a waveform plot (input above, output below, over a shared time axis) from a table
  * whose first column is time_s: in_col and out_col name its columns (NULL: "in(SOURCE)" or
  * else v(+ node of the stage source), and v(OUT) of the stage). Atomic. Returns SS_OK,
  * SS_ERR_INPUT (no such column, fewer than 2 points), SS_ERR_IO, SS_ERR_NOMEM. */
-SS_API ss_status ss_plot_write_wave(const ss_circuit *ckt, const ss_table *wave,
+SS_API ss_status ss_plot_write_wave(const ss_solver *sv, const ss_table *wave,
                                     const char *in_col, const char *out_col, const char *path,
                                     ss_error *err);
 
 /* Writes bode.svg-style plot (gain and phase over log frequency, corners marked) from the
  * tables of ss_stage_run, atomically. Returns SS_OK, SS_ERR_INPUT (fewer than 2 points),
  * SS_ERR_IO, SS_ERR_NOMEM. */
-SS_API ss_status ss_plot_write_bode(const ss_circuit *ckt, const ss_table *stage,
+SS_API ss_status ss_plot_write_bode(const ss_solver *sv, const ss_table *stage,
                                     const ss_table *summary, const char *path, ss_error *err);
 
 /* Writes the human-readable report to f: title, temperature, node voltages, per-BJT and
  * per-diode tables, the stage block (summary may be NULL) and the circuit's warnings
  * (docs/cli.md). */
-SS_API void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f);
+SS_API void ss_report_write(const ss_solver *sv, const ss_table *summary, FILE *f);
 
-/* Sets the circuit temperature (overrides .temp); applied at the next solve. SS_ERR_INPUT when
- * it is outside -273.15 .. 1000 C, or when a model's parameters scaled to it are not finite or
- * leave their range (the error names the model card, the parameter and its value). */
-SS_API ss_status ss_circuit_set_temp(ss_circuit *ckt, double temp_c, ss_error *err);
-
-/* The present value of NAME as --set understands it: a .param, an element's main value or
- * MODEL.PARAM. Returns SS_ERR_INPUT naming NAME when there is no such thing. */
+/* The value of NAME in the circuit as parsed (ss_solver_get_value: a context's present one),
+ * as --set understands it: a .param, an element's main value or MODEL.PARAM. Returns SS_ERR_INPUT naming NAME when there is no such thing. */
 SS_API ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *out_value,
                                       ss_error *err);
 
@@ -291,7 +351,7 @@ SS_API void ss_limits_destroy(ss_limits **l);
 /* Every figure of the circuit in one labelled table (metric,value): the op.csv quantities, the
  * stage summary (when the netlist has .ac and a stage) and each QUANTITY@FREQ the limits name
  * (solved at that frequency, not interpolated). limits may be NULL. */
-SS_API ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits,
+SS_API ss_status ss_figures_compute(ss_solver *sv, const ss_limits *limits,
                                     ss_table **out_figures, ss_error *err);
 
 /* Checks, without solving anything, that every limit names a figure ss_figures_compute will
@@ -302,7 +362,7 @@ SS_API ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits,
  * before the first solve, so a misspelt limit costs no solving. limits may be NULL.
  * Returns SS_OK, SS_ERR_INPUT at the first limit naming no figure (with its file and line:
  * "limit on 'QUANTITY': no such figure (why)"), SS_ERR_NOMEM. */
-SS_API ss_status ss_limits_check_names(const ss_limits *limits, const ss_circuit *ckt,
+SS_API ss_status ss_limits_check_names(const ss_limits *limits, const ss_solver *sv,
                                        ss_error *err);
 
 /* Judges figures against limits. Output: a table labelled by quantity with columns measured,
@@ -314,10 +374,10 @@ SS_API ss_status ss_check_evaluate(const ss_limits *l, const ss_table *figures,
 /* Writes verdicts as a JUnit-style XML report (one testsuite, one testcase per limit). */
 SS_API ss_status ss_check_write_junit(const ss_table *verdicts, const char *suite_name,
                                       const char *path, ss_error *err);
-/* The same plus, after the limits, one failing testcase per lint warning of lint_ckt (after
- * ss_lint_run; see ss_circuit_warning_lint): what `check --strict` writes. lint_ckt NULL:
+/* The same plus, after the limits, one failing testcase per lint warning of lint_sv (after
+ * ss_lint_run; see ss_solver_warning_lint): what `check --strict` writes. lint_sv NULL:
  * exactly ss_check_write_junit. */
-SS_API ss_status ss_check_write_junit_strict(const ss_table *verdicts, const ss_circuit *lint_ckt,
+SS_API ss_status ss_check_write_junit_strict(const ss_table *verdicts, const ss_solver *lint_sv,
                                              const char *suite_name, const char *path,
                                              ss_error *err);
 
@@ -473,24 +533,21 @@ SS_API ss_status ss_study_note_identity(const ss_study *s, const char *command, 
 SS_API ss_status ss_study_merge_files(const char *const *paths, int n, ss_outset *set,
                                       ss_table **out_points, ss_error *err);
 
-/* Warnings gathered while parsing and solving (e.g. a near-singular matrix); NULL past the end. */
-SS_API const char *ss_circuit_warning(const ss_circuit *ckt, int index);
-
 /* ---- sanity warnings (lint) ------------------------------------------------------------- */
 
 /* Runs the sanity checks of docs/cli.md on the circuit at its operating point (solved first when
  * there is none): SI suffixes that read as milli or femto, resistors outside 1 mohm .. 1 Tohm,
  * nodes with one connection, coupling or bypass capacitors below 1 pF, stage transistors not
  * in forward-active operation, currents above 1 kA. Each finding `.options lint_off=` leaves on
- * becomes a circuit warning ("FILE:LINE: NAME: ... [CHECK]", ss_circuit_warning) that
- * ss_circuit_warning_lint names; nothing else in the circuit changes. Running it again adds
- * nothing. Output: *out_n (may be NULL), how many of the circuit's warnings are lint warnings.
+ * becomes a warning of the context ("FILE:LINE: NAME: ... [CHECK]", ss_solver_warning) that
+ * ss_solver_warning_lint names; nothing else changes. Running it again adds
+ * nothing. Output: *out_n (may be NULL), how many of the context's warnings are lint warnings.
  * Returns SS_OK, or as ss_op_solve when the operating point had to be solved. */
-SS_API ss_status ss_lint_run(ss_circuit *ckt, int *out_n, ss_error *err);
+SS_API ss_status ss_lint_run(ss_solver *sv, int *out_n, ss_error *err);
 
 /* The lint check that raised warning `index` ("one_connection"); NULL for any other warning or
  * past the end. *subject (subject may be NULL) gets the element or node the warning names. */
-SS_API const char *ss_circuit_warning_lint(const ss_circuit *ckt, int index,
+SS_API const char *ss_solver_warning_lint(const ss_solver *sv, int index,
                                            const char **subject);
 
 #ifdef __cplusplus

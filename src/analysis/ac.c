@@ -1,50 +1,50 @@
 /* Small-signal AC sweep: every device linearised at the operating point, one complex KLU
  * refactor + solve per frequency on the pattern analysed once. Stage figures are stage.c's. */
 #include <math.h>
-#include <pthread.h>
 #include <stdio.h>
 #include <string.h>
 
 #include "analysis/analysis.h"
+#include "output/sink.h"
 #include "output/output.h"
 
-ss_status ac_frequencies(const ss_circuit *ckt, double **out_freqs, int *out_n, ss_error *err)
+ss_status ac_frequencies(const ss_solver *sv, double **out_freqs, int *out_n, ss_error *err)
 {
-    if (!ckt->want_ac)
-        return err_set(err, SS_ERR_INPUT, ckt->file, 0, "the netlist has no .ac sweep");
-    double f1 = ckt->ac_fstart_hz, f2 = ckt->ac_fstop_hz;
-    double count = ac_point_count(ckt->ac_type, ckt->ac_points, f1, f2);
+    if (!sv->ckt->ac.want)
+        return err_set(err, SS_ERR_INPUT, sv->ckt->file, 0, "the netlist has no .ac sweep");
+    double f1 = sv->ckt->ac.fstart_hz, f2 = sv->ckt->ac.fstop_hz;
+    double count = ac_point_count(sv->ckt->ac.type, sv->ckt->ac.points, f1, f2);
     if (!(count <= AC_MAX_POINTS))
-        return err_set(err, SS_ERR_LIMIT, ckt->file, 0, ".ac: more than %g frequencies",
+        return err_set(err, SS_ERR_LIMIT, sv->ckt->file, 0, ".ac: more than %g frequencies",
                        (double)AC_MAX_POINTS);
     int n = (int)count;
     double *f = ss_alloc((size_t)n * sizeof *f);
     if (!f)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     for (int k = 0; k < n; k++) {
-        if (ckt->ac_type == AC_LIN)
+        if (sv->ckt->ac.type == AC_LIN)
             f[k] = n == 1 ? f1 : f1 + (f2 - f1) * k / (n - 1);
-        else if (ckt->ac_type == AC_DEC)
-            f[k] = f1 * pow(10.0, (double)k / ckt->ac_points);
+        else if (sv->ckt->ac.type == AC_DEC)
+            f[k] = f1 * pow(10.0, (double)k / sv->ckt->ac.points);
         else
-            f[k] = f1 * pow(2.0, (double)k / ckt->ac_points);
+            f[k] = f1 * pow(2.0, (double)k / sv->ckt->ac.points);
     }
     *out_freqs = f;
     *out_n = n;
     return SS_OK;
 }
 
-/* Loads every device's AC stamps at omega into the matrix values and ckt->work_zrhs. */
-static void load_ac_all(ss_circuit *ckt, double omega, const element *only_src, int all_src_off)
+/* Loads every device's AC stamps at omega into the matrix values and sv->work_zrhs. */
+static void load_ac_all(ss_solver *sv, double omega, const element *only_src, int all_src_off)
 {
-    mna *m = ckt->mna;
+    mna *m = sv->mna;
     double complex *G = mna_zvalues(m);
     memset(G, 0, (size_t)mna_nnz(m) * sizeof *G);
-    memset(ckt->work_zrhs, 0, (size_t)ckt->n_unknowns * sizeof *ckt->work_zrhs);
-    dev_ac_ctx ac = {G, ckt->work_zrhs, ckt->x_op, omega, analysis_vt(ckt), ckt->opt.gmin,
+    memset(sv->work_zrhs, 0, (size_t)sv->n_unknowns * sizeof *sv->work_zrhs);
+    dev_ac_ctx ac = {G, sv->work_zrhs, sv->x_op, omega, analysis_vt(sv), sv->ckt->opt.gmin,
                      only_src, all_src_off};
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
+    for (int i = 0; i < sv->n_elem; i++) {
+        const element *e = &sv->elem[i];
         e->ops->load_ac(e, &ac);
     }
 }
@@ -55,23 +55,23 @@ static void load_ac_all(ss_circuit *ckt, double omega, const element *only_src, 
  * rewritten per point; the right-hand side of the source selection at hand is kept too. A
  * device whose admittance is not of that form turns the fast path off. Two passes over the
  * elements in all; Y(1) is held only while checking. */
-static ss_status ac_cache_build(ss_circuit *ckt, const element *only_src, int all_src_off,
+static ss_status ac_cache_build(ss_solver *sv, const element *only_src, int all_src_off,
                                 ss_error *err)
 {
-    mna *m = ckt->mna;
-    int nnz = mna_nnz(m), n = ckt->n_unknowns;
-    if (!ckt->ac_rhs && !(ckt->ac_rhs = ss_alloc((size_t)n * sizeof *ckt->ac_rhs)))
+    mna *m = sv->mna;
+    int nnz = mna_nnz(m), n = sv->n_unknowns;
+    if (!sv->ac_rhs && !(sv->ac_rhs = ss_alloc((size_t)n * sizeof *sv->ac_rhs)))
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     double complex *y1 = ss_alloc((size_t)nnz * sizeof *y1);
     if (!y1)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     const double complex *G = mna_zvalues(m);
-    const double complex *rhs = ckt->work_zrhs;
-    load_ac_all(ckt, 1.0, only_src, all_src_off);
+    const double complex *rhs = sv->work_zrhs;
+    load_ac_all(sv, 1.0, only_src, all_src_off);
     memcpy(y1, G, (size_t)nnz * sizeof *y1);
-    memcpy(ckt->ac_rhs, rhs, (size_t)n * sizeof *rhs);
+    memcpy(sv->ac_rhs, rhs, (size_t)n * sizeof *rhs);
     const double w_test = 2.0 * SS_PI * 12345.678;
-    load_ac_all(ckt, w_test, only_src, all_src_off);
+    load_ac_all(sv, w_test, only_src, all_src_off);
     int affine = 1, n_w = 0;
     for (int k = 0; k < nnz && affine; k++) { /* |difference| <= 1e-12 |value|, in L1 norms */
         double d_re = creal(y1[k]) - creal(G[k]), d_im = w_test * cimag(y1[k]) - cimag(G[k]);
@@ -80,58 +80,58 @@ static ss_status ac_cache_build(ss_circuit *ckt, const element *only_src, int al
         n_w += cimag(y1[k]) != 0.0;
     }
     for (int u = 0; u < n && affine; u++)
-        affine = rhs[u] == ckt->ac_rhs[u];
-    ss_free(ckt->ac_w);
-    ckt->ac_w = NULL;
-    ckt->n_ac_w = 0;
+        affine = rhs[u] == sv->ac_rhs[u];
+    ss_free(sv->ac_w);
+    sv->ac_w = NULL;
+    sv->n_ac_w = 0;
     if (affine) {
-        ckt->ac_w = ss_alloc((size_t)(n_w ? n_w : 1) * sizeof *ckt->ac_w);
-        if (!ckt->ac_w) {
+        sv->ac_w = ss_alloc((size_t)(n_w ? n_w : 1) * sizeof *sv->ac_w);
+        if (!sv->ac_w) {
             ss_free(y1);
             return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
         }
         for (int k = 0; k < nnz; k++)
             if (cimag(y1[k]) != 0.0)
-                ckt->ac_w[ckt->n_ac_w++] = (ac_wslot){creal(y1[k]), cimag(y1[k]), k};
+                sv->ac_w[sv->n_ac_w++] = (ac_wslot){creal(y1[k]), cimag(y1[k]), k};
     }
     ss_free(y1);
-    ckt->ac_affine = affine;
-    ckt->ac_rhs_src = only_src;
-    ckt->ac_rhs_all_off = all_src_off;
-    ckt->ac_rhs_ok = 1;
-    ckt->ac_serial = ckt->op_serial;
+    sv->ac_affine = affine;
+    sv->ac_rhs_src = only_src;
+    sv->ac_rhs_all_off = all_src_off;
+    sv->ac_rhs_ok = 1;
+    sv->ac_serial = sv->op_serial;
     return SS_OK;
 }
 
-ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src, int all_src_off,
+ss_status ac_solve_point(ss_solver *sv, double omega, const element *only_src, int all_src_off,
                          int inject_node, ss_error *err)
 {
-    mna *m = ckt->mna;
-    int n = ckt->n_unknowns;
+    mna *m = sv->mna;
+    int n = sv->n_unknowns;
     double complex *G = mna_zvalues(m);
-    double complex *rhs = ckt->work_zrhs;
+    double complex *rhs = sv->work_zrhs;
     ss_status st;
-    if (ckt->ac_serial != ckt->op_serial &&
-        (st = ac_cache_build(ckt, only_src, all_src_off, err)) != SS_OK)
+    if (sv->ac_serial != sv->op_serial &&
+        (st = ac_cache_build(sv, only_src, all_src_off, err)) != SS_OK)
         return st;
-    if (!ckt->ac_affine) {
-        load_ac_all(ckt, omega, only_src, all_src_off);
+    if (!sv->ac_affine) {
+        load_ac_all(sv, omega, only_src, all_src_off);
     } else {
         /* the sources' phasors do not depend on frequency: cache them per selection */
-        if (!ckt->ac_rhs_ok || ckt->ac_rhs_src != (const void *)only_src ||
-            ckt->ac_rhs_all_off != all_src_off) {
-            load_ac_all(ckt, 0.0, only_src, all_src_off);
-            memcpy(ckt->ac_rhs, rhs, (size_t)n * sizeof *rhs);
-            ckt->ac_rhs_src = only_src;
-            ckt->ac_rhs_all_off = all_src_off;
-            ckt->ac_rhs_ok = 1;
+        if (!sv->ac_rhs_ok || sv->ac_rhs_src != (const void *)only_src ||
+            sv->ac_rhs_all_off != all_src_off) {
+            load_ac_all(sv, 0.0, only_src, all_src_off);
+            memcpy(sv->ac_rhs, rhs, (size_t)n * sizeof *rhs);
+            sv->ac_rhs_src = only_src;
+            sv->ac_rhs_all_off = all_src_off;
+            sv->ac_rhs_ok = 1;
         }
         /* every load since the cache build left the other slots at their (frequency-
          * independent) value */
-        const ac_wslot *w = ckt->ac_w;
-        for (int j = 0; j < ckt->n_ac_w; j++)
+        const ac_wslot *w = sv->ac_w;
+        for (int j = 0; j < sv->n_ac_w; j++)
             G[w[j].slot] = w[j].a0 + SS_J * (omega * w[j].a1);
-        memcpy(rhs, ckt->ac_rhs, (size_t)n * sizeof *rhs);
+        memcpy(rhs, sv->ac_rhs, (size_t)n * sizeof *rhs);
     }
     if (inject_node > 0)
         rhs[inject_node - 1] += 1.0; /* 1 A into the node */
@@ -141,12 +141,12 @@ ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
     if (st == SS_ERR_SINGULAR) {
         char during[64];
         snprintf(during, sizeof during, "solving AC at %.6g Hz", omega / (2.0 * SS_PI));
-        return report_singular(ckt, bad, during, err);
+        return report_singular(sv, bad, during, err);
     }
     if (st != SS_OK)
         return err_set(err, st, NULL, 0, "AC solve failed: %s", ss_status_name(st));
     if (rcond < MNA_RCOND_WARN)
-        circuit_warn(ckt,
+        solver_warn(sv,
                      "AC: the matrix is nearly singular near %.4g Hz (reciprocal condition "
                      "%.2g); results there may be inaccurate",
                      omega / (2.0 * SS_PI), rcond);
@@ -159,8 +159,8 @@ ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
     for (int u = 0; u < n && probe != 0.0; u++) /* probe is 0.0 or NaN */
         if (!isfinite(creal(rhs[u])) || !isfinite(cimag(rhs[u]))) {
             char what[1200];
-            circuit_unknown_name(ckt, u, what, sizeof what);
-            return err_set(err, SS_ERR_SINGULAR, ckt->file, 0,
+            solver_unknown_name(sv, u, what, sizeof what);
+            return err_set(err, SS_ERR_SINGULAR, sv->ckt->file, 0,
                            "AC solution is not finite at %s (%.6g Hz)", what,
                            omega / (2.0 * SS_PI));
         }
@@ -179,183 +179,88 @@ static void mag_phase(double complex x, double *mag, double *deg)
 /* What both forms of the sweep start with: the operating point (solved if missing), the .ac
  * frequencies, and a fresh complex factorization at the first point -- so a sweep gives the
  * same bits whatever was solved before it (refactoring on older pivots rounds differently). */
-static ss_status ac_sweep_begin(ss_circuit *ckt, double **freqs, int *nf, ss_error *err)
+static ss_status ac_sweep_begin(ss_solver *sv, double **freqs, int *nf, ss_error *err)
 {
     ss_status st;
-    if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
+    if (!sv->have_op && (st = op_solve_into(sv, NULL, err)) != SS_OK)
         return st;
-    if (ckt->mna)
-        mna_reset_complex(ckt->mna);
-    return ac_frequencies(ckt, freqs, nf, err);
+    if (sv->mna)
+        mna_reset_complex(sv->mna);
+    return ac_frequencies(sv, freqs, nf, err);
 }
 
-ss_status ss_ac_sweep_run(ss_circuit *ckt, ss_table **out_ac, ss_error *err)
+/* The sweep's column names: freq_hz, then vm(NODE) and vp(NODE) per written node. */
+static const char **ac_col_names(ss_solver *sv, int *n_cols)
 {
-    double *freqs = NULL;
-    int nf = 0;
-    ss_status st = ac_sweep_begin(ckt, &freqs, &nf, err);
-    if (st != SS_OK)
-        return st;
-    ss_table *t = table_create(1 + 2 * circuit_n_out_nodes(ckt), NULL);
-    static const char *const fmts[] = {"vm(%s)", "vp(%s)"};
-    int bad = !t || table_set_col(t, 0, "freq_hz") != 0 || analysis_node_cols(t, ckt, 1, fmts, 2);
-    if (bad || table_reserve(t, nf) != 0) {
-        ss_free(freqs);
-        ss_table_destroy(&t);
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
-    for (int k = 0; k < nf; k++) {
-        st = ac_solve_point(ckt, 2.0 * SS_PI * freqs[k], NULL, 0, 0, err);
-        if (st != SS_OK)
-            break;
-        double *row = table_add_row(t, NULL);
-        row[0] = freqs[k];
-        const double complex *x = ckt->work_zrhs;
-        for (int j = 0, c = 1; j < circuit_n_out_nodes(ckt); j++, c += 2)
-            mag_phase(x[node_unknown(circuit_out_node(ckt, j))], &row[c], &row[c + 1]);
-    }
-    ss_free(freqs);
-    if (st != SS_OK) {
-        ss_table_destroy(&t);
-        return st;
-    }
-    *out_ac = t;
-    return SS_OK;
-}
-
-/* ---- ac.csv written while the sweep runs ------------------------------------------------ */
-
-/* Rows go from the solving thread to a writing thread through AC_RING slots, each holding the
- * written nodes' complex voltages at one frequency: the magnitudes, phases and their text of
- * one point are made while the next point is solved. Below AC_THREAD_MIN values in all the
- * thread is not worth its start and one thread does both. */
-#define AC_RING 4
-#define AC_THREAD_MIN 100000.0
-
-typedef struct ac_stream {
-    pthread_mutex_t mu;
-    pthread_cond_t cv;
-    double complex *x[AC_RING];
-    double freq[AC_RING];
-    long produced, consumed;
-    int done;
-    int n_out;
-    csv_out *o;
-} ac_stream;
-
-static void ac_stream_row(csv_out *o, double freq, const double complex *x, int n_out)
-{
-    csv_number(o, freq, 0);
+    int n_out = solver_n_out_nodes(sv);
+    *n_cols = 1 + 2 * n_out;
+    const char **names = arena_alloc(&sv->arena, (size_t)*n_cols * sizeof *names);
+    if (!names)
+        return NULL;
+    names[0] = "freq_hz";
     for (int j = 0; j < n_out; j++) {
-        double mag, deg;
-        mag_phase(x[j], &mag, &deg);
-        csv_number(o, mag, 1);
-        csv_number(o, deg, 1);
-    }
-    csv_char(o, '\n');
-}
-
-static void *ac_stream_writer(void *arg)
-{
-    ac_stream *s = arg;
-    for (;;) {
-        pthread_mutex_lock(&s->mu);
-        while (s->consumed == s->produced && !s->done)
-            pthread_cond_wait(&s->cv, &s->mu);
-        int have = s->consumed < s->produced;
-        pthread_mutex_unlock(&s->mu);
-        if (!have)
+        const char *node = sv->node_name[solver_out_node(sv, j)];
+        size_t len = strlen(node) + 5;
+        char *vm = arena_alloc(&sv->arena, len), *vp = arena_alloc(&sv->arena, len);
+        if (!vm || !vp)
             return NULL;
-        int slot = (int)(s->consumed % AC_RING);
-        ac_stream_row(s->o, s->freq[slot], s->x[slot], s->n_out);
-        pthread_mutex_lock(&s->mu);
-        s->consumed++;
-        pthread_cond_broadcast(&s->cv);
-        pthread_mutex_unlock(&s->mu);
+        snprintf(vm, len, "vm(%s)", node);
+        snprintf(vp, len, "vp(%s)", node);
+        names[1 + 2 * j] = vm;
+        names[2 + 2 * j] = vp;
     }
+    return names;
 }
 
-ss_status ss_ac_sweep_write(ss_circuit *ckt, const char *path, ss_error *err)
+ss_status ss_ac_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
 {
     double *freqs = NULL;
-    int nf = 0;
-    ss_status st = ac_sweep_begin(ckt, &freqs, &nf, err);
+    int nf = 0, n_cols = 0;
+    ss_status st = ac_sweep_begin(sv, &freqs, &nf, err);
     if (st != SS_OK)
         return st;
-    int n_out = circuit_n_out_nodes(ckt);
-    ac_stream s;
-    memset(&s, 0, sizeof s);
-    s.n_out = n_out;
-    int ring = (double)nf * n_out >= AC_THREAD_MIN ? AC_RING : 1;
-    for (int r = 0; r < ring; r++)
-        if (!(s.x[r] = ss_alloc((size_t)(n_out ? n_out : 1) * sizeof *s.x[r])))
-            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    csv_out o;
-    if (st == SS_OK && (st = csv_open(&o, path, err)) == SS_OK) {
-        s.o = &o;
-        csv_field(&o, "freq_hz");
-        for (int j = 0; j < n_out; j++) {
-            char name[1200];
-            const char *node = ckt->node_name[circuit_out_node(ckt, j)];
-            snprintf(name, sizeof name, "vm(%s)", node);
-            csv_char(&o, ',');
-            csv_field(&o, name);
-            snprintf(name, sizeof name, "vp(%s)", node);
-            csv_char(&o, ',');
-            csv_field(&o, name);
-        }
-        csv_char(&o, '\n');
-        pthread_t writer;
-        int threaded = ring > 1;
-        if (threaded) {
-            pthread_mutex_init(&s.mu, NULL);
-            pthread_cond_init(&s.cv, NULL);
-            if (pthread_create(&writer, NULL, ac_stream_writer, &s) != 0) {
-                pthread_mutex_destroy(&s.mu);
-                pthread_cond_destroy(&s.cv);
-                threaded = 0;
-            }
-        }
+    const char **names = ac_col_names(sv, &n_cols);
+    double *row = ss_alloc((size_t)n_cols * sizeof *row);
+    if (!names || !row)
+        st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    if (st == SS_OK)
+        st = sink_begin(sink, n_cols, names, nf, err);
+    if (st == SS_OK) {
         for (int k = 0; k < nf && st == SS_OK; k++) {
-            st = ac_solve_point(ckt, 2.0 * SS_PI * freqs[k], NULL, 0, 0, err);
+            st = ac_solve_point(sv, 2.0 * SS_PI * freqs[k], NULL, 0, 0, err);
             if (st != SS_OK)
                 break;
-            if (threaded) { /* wait for a free slot */
-                pthread_mutex_lock(&s.mu);
-                while (s.produced - s.consumed == AC_RING)
-                    pthread_cond_wait(&s.cv, &s.mu);
-                pthread_mutex_unlock(&s.mu);
-            }
-            int slot = threaded ? (int)(s.produced % AC_RING) : 0;
-            const double complex *x = ckt->work_zrhs;
-            for (int j = 0; j < n_out; j++)
-                s.x[slot][j] = x[node_unknown(circuit_out_node(ckt, j))];
-            s.freq[slot] = freqs[k];
-            if (threaded) {
-                pthread_mutex_lock(&s.mu);
-                s.produced++;
-                pthread_cond_broadcast(&s.cv);
-                pthread_mutex_unlock(&s.mu);
-            } else {
-                ac_stream_row(&o, freqs[k], s.x[0], n_out);
-            }
+            row[0] = freqs[k];
+            const double complex *x = sv->work_zrhs;
+            for (int j = 0, c = 1; j < solver_n_out_nodes(sv); j++, c += 2)
+                mag_phase(x[node_unknown(solver_out_node(sv, j))], &row[c], &row[c + 1]);
+            st = sink_row(sink, row, err);
         }
-        if (threaded) {
-            pthread_mutex_lock(&s.mu);
-            s.done = 1;
-            pthread_cond_broadcast(&s.cv);
-            pthread_mutex_unlock(&s.mu);
-            pthread_join(writer, NULL);
-            pthread_mutex_destroy(&s.mu);
-            pthread_cond_destroy(&s.cv);
-        }
-        if (st == SS_OK)
-            st = csv_commit(&o, err);
-        else
-            csv_abort(&o);
+        st = sink_end(sink, st, err);
     }
-    for (int r = 0; r < ring; r++)
-        ss_free(s.x[r]);
+    ss_free(row);
     ss_free(freqs);
+    return st;
+}
+
+ss_status ss_ac_sweep_run(ss_solver *sv, ss_table **out_ac, ss_error *err)
+{
+    ss_sink *sink = NULL;
+    ss_status st = ss_sink_table(&sink, err);
+    if (st == SS_OK)
+        st = ss_ac_sweep_emit(sv, sink, err);
+    if (st == SS_OK)
+        *out_ac = ss_sink_take_table(sink);
+    ss_sink_destroy(&sink);
+    return st;
+}
+
+ss_status ss_ac_sweep_write(ss_solver *sv, const char *path, ss_error *err)
+{
+    ss_sink *sink = NULL;
+    ss_status st = ss_sink_csv(path, &sink, err);
+    if (st == SS_OK)
+        st = ss_ac_sweep_emit(sv, sink, err);
+    ss_sink_destroy(&sink);
     return st;
 }

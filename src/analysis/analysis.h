@@ -6,18 +6,19 @@
 #include "devices/device.h"
 #include "mna/mna.h"
 #include "netlist/circuit.h"
+#include "solver/solver.h"
 #include "util/table.h"
 
 /* Builds internal nodes, branch unknowns, the matrix pattern and the symbolic analysis once.
  * Checks the topology first (no DC path to ground, loops of voltage sources). */
-SS_HIDDEN ss_status analysis_prepare(ss_circuit *ckt, ss_error *err);
+SS_HIDDEN ss_status solver_prepare(ss_solver *sv, ss_error *err);
 /* Applies the circuit temperature to every device's parameters; SS_ERR_INPUT names the model
  * whose scaled parameters leave their range. */
-SS_HIDDEN ss_status analysis_apply_temp(ss_circuit *ckt, ss_error *err);
-SS_HIDDEN double analysis_vt(const ss_circuit *ckt);
+SS_HIDDEN ss_status analysis_apply_temp(ss_solver *sv, ss_error *err);
+SS_HIDDEN double analysis_vt(const ss_solver *sv);
 /* Netlist (not internal) nodes: their count, and one column per node and format ("v(%s)")
  * from first_col on, the formats of a node side by side. 0 ok, -1 no memory. */
-SS_HIDDEN int analysis_node_cols(ss_table *t, const ss_circuit *ckt, int first_col,
+SS_HIDDEN int analysis_node_cols(ss_table *t, const ss_solver *sv, int first_col,
                                  const char *const *fmts, int n_fmts);
 
 /* Newton solve from x (in/out) at the given source scale; first_mode says how the first
@@ -41,26 +42,26 @@ typedef struct newton_result {
     int bad_unknown; /* singular pivot */
 } newton_result;
 
-SS_HIDDEN ss_status newton_solve(ss_circuit *ckt, double *x, const newton_params *np,
+SS_HIDDEN ss_status newton_solve(ss_solver *sv, double *x, const newton_params *np,
                                  newton_result *res);
-/* Full operating point with fallbacks into ckt->x_op; stats optional. */
-SS_HIDDEN ss_status op_solve_into(ss_circuit *ckt, ss_op_stats *stats, ss_error *err);
+/* Full operating point with fallbacks into sv->x_op; stats optional. */
+SS_HIDDEN ss_status op_solve_into(ss_solver *sv, ss_op_stats *stats, ss_error *err);
 /* The rows of op.csv through fn(sink, quantity, name, value), in op.csv's order: v(NODE) per
  * written node, then each V source's, BJT's and diode's report rows. x is the solution; NULL
  * names the same rows with NaN values before anything is solved. */
-SS_HIDDEN void op_rows(const ss_circuit *ckt, const double *x, dev_report_fn fn, void *sink);
+SS_HIDDEN void op_rows(const ss_solver *sv, const double *x, dev_report_fn fn, void *sink);
 /* Formats a singular-matrix error naming the unknown. */
-SS_HIDDEN ss_status report_singular(ss_circuit *ckt, int bad_unknown, const char *during,
+SS_HIDDEN ss_status report_singular(ss_solver *sv, int bad_unknown, const char *during,
                                     ss_error *err);
 /* Largest KCL residual of x (terminal currents from each device's own equations, not its
  * Newton stamps) as a multiple of the allowed residual; *worst gets the unknown. */
-SS_HIDDEN double op_kcl_residual(ss_circuit *ckt, const double *x, int *worst);
+SS_HIDDEN double op_kcl_residual(ss_solver *sv, const double *x, int *worst);
 
-/* AC: one complex solve at omega with the given source selection; result in ckt->work_zrhs. */
-SS_HIDDEN ss_status ac_solve_point(ss_circuit *ckt, double omega, const element *only_src,
+/* AC: one complex solve at omega with the given source selection; result in sv->work_zrhs. */
+SS_HIDDEN ss_status ac_solve_point(ss_solver *sv, double omega, const element *only_src,
                                    int all_src_off, int inject_node, ss_error *err);
 /* The sweep's frequencies (ac_point_count of them, at most AC_MAX_POINTS: circuit.h). */
-SS_HIDDEN ss_status ac_frequencies(const ss_circuit *ckt, double **out_freqs, int *out_n,
+SS_HIDDEN ss_status ac_frequencies(const ss_solver *sv, double **out_freqs, int *out_n,
                                    ss_error *err);
 
 /* Noise (noise.c): every element's noise current sources at the operating point, in element
@@ -68,13 +69,13 @@ SS_HIDDEN ss_status ac_frequencies(const ss_circuit *ckt, double **out_freqs, in
  * success. Needs the operating point. Returns SS_OK or SS_ERR_NOMEM. */
 typedef struct noise_src {
     dev_noise_src src; /* nodes, white and 1/f parts, static label */
-    int elem;          /* index into ckt->elem */
+    int elem;          /* index into sv->elem */
 } noise_src;
-SS_HIDDEN ss_status noise_collect_sources(const ss_circuit *ckt, noise_src **out_src, int *out_n,
+SS_HIDDEN ss_status noise_collect_sources(const ss_solver *sv, noise_src **out_src, int *out_n,
                                           ss_error *err);
 
 /* Stage figures at one frequency: complex gain, |Zin|, |Zout| (solves the op if needed). */
-SS_HIDDEN ss_status stage_at_frequency(ss_circuit *ckt, double freq_hz, double _Complex *gain,
+SS_HIDDEN ss_status stage_at_frequency(ss_solver *sv, double freq_hz, double _Complex *gain,
                                        double *zin_ohm, double *zout_ohm, ss_error *err);
 
 /* Lint (lint.c): the sanity checks by their stable names (docs/cli.md), in the order they run

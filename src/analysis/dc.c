@@ -11,38 +11,38 @@ static int sweep_points(const dc_sweep_spec *s)
     return (int)floor((s->stop - s->start) / s->step + 1e-9) + 1;
 }
 
-static element *sweep_source(ss_circuit *ckt, const dc_sweep_spec *s, ss_error *err)
+static element *sweep_source(ss_solver *sv, const dc_sweep_spec *s, ss_error *err)
 {
-    int idx = circuit_find_elem(ckt, s->src);
-    if (idx < 0 || !elem_is_source(&ckt->elem[idx])) {
+    int idx = circuit_find_elem(sv->ckt, s->src);
+    if (idx < 0 || !elem_is_source(&sv->elem[idx])) {
         err_set(err, SS_ERR_INPUT, s->file, s->line,
                 ".dc: '%s' is not an independent voltage or current source", s->src);
         return NULL;
     }
-    return &ckt->elem[idx];
+    return &sv->elem[idx];
 }
 
-ss_status ss_dc_sweep_run(ss_circuit *ckt, ss_table **out_dc, ss_error *err)
+ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
 {
-    if (ckt->n_dc == 0)
-        return err_set(err, SS_ERR_INPUT, ckt->file, 0, "the netlist has no .dc sweep");
+    if (sv->ckt->dc.n == 0)
+        return err_set(err, SS_ERR_INPUT, sv->ckt->file, 0, "the netlist has no .dc sweep");
     element *src[2] = {NULL, NULL};
-    for (int k = 0; k < ckt->n_dc; k++)
-        if (!(src[k] = sweep_source(ckt, &ckt->dc[k], err)))
+    for (int k = 0; k < sv->ckt->dc.n; k++)
+        if (!(src[k] = sweep_source(sv, &sv->ckt->dc.sweep[k], err)))
             return SS_ERR_INPUT;
-    int n_inner = sweep_points(&ckt->dc[0]);
-    int n_outer = ckt->n_dc == 2 ? sweep_points(&ckt->dc[1]) : 1;
+    int n_inner = sweep_points(&sv->ckt->dc.sweep[0]);
+    int n_outer = sv->ckt->dc.n == 2 ? sweep_points(&sv->ckt->dc.sweep[1]) : 1;
     if ((double)n_inner * n_outer > 1e7)
-        return err_set(err, SS_ERR_LIMIT, ckt->dc[0].file, ckt->dc[0].line,
+        return err_set(err, SS_ERR_LIMIT, sv->ckt->dc.sweep[0].file, sv->ckt->dc.sweep[0].line,
                        ".dc: more than 1e7 points in all");
-    ss_table *t = table_create(ckt->n_dc + circuit_n_out_nodes(ckt), NULL);
+    ss_table *t = table_create(sv->ckt->dc.n + solver_n_out_nodes(sv), NULL);
     if (!t)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     int col = 0, bad = 0;
-    for (int k = 0; k < ckt->n_dc; k++)
+    for (int k = 0; k < sv->ckt->dc.n; k++)
         bad |= table_set_col(t, col++, src[k]->name);
     static const char *const fmt[] = {"v(%s)"};
-    bad |= analysis_node_cols(t, ckt, col, fmt, 1);
+    bad |= analysis_node_cols(t, sv, col, fmt, 1);
     if (bad || table_reserve(t, n_inner * n_outer) != 0) {
         ss_table_destroy(&t);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
@@ -52,40 +52,40 @@ ss_status ss_dc_sweep_run(ss_circuit *ckt, ss_table **out_dc, ss_error *err)
     double *x = NULL;
     for (int jo = 0; jo < n_outer && st == SS_OK; jo++) {
         if (src[1])
-            src[1]->value = ckt->dc[1].start + jo * ckt->dc[1].step;
+            src[1]->value = sv->ckt->dc.sweep[1].start + jo * sv->ckt->dc.sweep[1].step;
         for (int ji = 0; ji < n_inner && st == SS_OK; ji++) {
-            src[0]->value = ckt->dc[0].start + ji * ckt->dc[0].step;
+            src[0]->value = sv->ckt->dc.sweep[0].start + ji * sv->ckt->dc.sweep[0].step;
             int need_full = (ji == 0 && jo == 0) || !x;
             if (!need_full) {
-                newton_params np = {0.0, 1.0, LOAD_FROM_X, ckt->opt.newton_iters, NULL, NULL, 0.0};
+                newton_params np = {0.0, 1.0, LOAD_FROM_X, sv->ckt->opt.newton_iters, NULL, NULL, 0.0};
                 newton_result r;
-                if (newton_solve(ckt, x, &np, &r) != SS_OK)
+                if (newton_solve(sv, x, &np, &r) != SS_OK)
                     need_full = 1;
             }
             if (need_full) {
                 ss_error e2 = {0};
-                st = op_solve_into(ckt, NULL, &e2);
+                st = op_solve_into(sv, NULL, &e2);
                 if (st != SS_OK) {
                     err_set(err, st, e2.file, e2.line, ".dc at %s = %g%s: %s", src[0]->name,
                             src[0]->value, src[1] ? " (outer sweep point)" : "", e2.message);
                     break;
                 }
-                x = ckt->x_op;
+                x = sv->x_op;
             }
             double *row = table_add_row(t, NULL);
             int c = 0;
             row[c++] = src[0]->value;
             if (src[1])
                 row[c++] = src[1]->value;
-            for (int j = 0; j < circuit_n_out_nodes(ckt); j++)
-                row[c++] = x[node_unknown(circuit_out_node(ckt, j))];
+            for (int j = 0; j < solver_n_out_nodes(sv); j++)
+                row[c++] = x[node_unknown(solver_out_node(sv, j))];
         }
     }
     src[0]->value = saved[0];
     if (src[1])
         src[1]->value = saved[1];
-    ckt->have_op = 0; /* x_op now holds the last sweep point */
-    ckt->op_serial++;
+    sv->have_op = 0; /* x_op now holds the last sweep point */
+    sv->op_serial++;
     if (st != SS_OK) {
         ss_table_destroy(&t);
         return st;

@@ -36,7 +36,7 @@ int lint_check_by_name(const char *name)
     return -1;
 }
 
-static int lint_on(const ss_circuit *ckt, int check) { return !(ckt->lint_off & (1u << check)); }
+static int lint_on(const ss_solver *sv, int check) { return !(sv->ckt->lint_off & (1u << check)); }
 
 /* What one pass over the elements gathers for the checks after it. */
 typedef struct lint_survey {
@@ -68,30 +68,30 @@ static int is_other_current_source(const element *e, int i, int src)
 
 /* milli_suffix, femto_suffix and resistor_range on e. A value the suffix check names is not
  * named again by resistor_range (one slip, one warning) unless that suffix check is off; the
- * same holds for femto_suffix and coupling_cap_tiny (sv->named). 0 ok, -1 no memory. */
-static int lint_value(ss_circuit *ckt, int i, lint_survey *sv)
+ * same holds for femto_suffix and coupling_cap_tiny (svy->named). 0 ok, -1 no memory. */
+static int lint_value(ss_solver *sv, int i, lint_survey *svy)
 {
-    const element *e = &ckt->elem[i];
+    const element *e = &sv->elem[i];
     int is_r = elem_is(e, DEV_RESISTOR), is_c = elem_is(e, DEV_CAPACITOR);
     if (is_r && e->value_si_exp == -3 && e->value < LINT_MILLI_BELOW_OHM &&
-        lint_on(ckt, LINT_MILLI_SUFFIX)) {
-        sv->named[i] = 1;
-        return circuit_warn_lint(ckt, LINT_MILLI_SUFFIX, e->name,
+        lint_on(sv, LINT_MILLI_SUFFIX)) {
+        svy->named[i] = 1;
+        return solver_warn_lint(sv, LINT_MILLI_SUFFIX, e->name,
                                  "%s:%d: %s: %g ohm: the suffix m is milli (also when written "
                                  "M: case is not kept); did you mean meg? [milli_suffix]",
                                  e->file, e->line, e->name, e->value);
     }
     if (is_c && e->value_si_exp == -15 && e->value < LINT_FEMTO_BELOW_F &&
-        lint_on(ckt, LINT_FEMTO_SUFFIX)) {
-        sv->named[i] = 1;
-        return circuit_warn_lint(ckt, LINT_FEMTO_SUFFIX, e->name,
+        lint_on(sv, LINT_FEMTO_SUFFIX)) {
+        svy->named[i] = 1;
+        return solver_warn_lint(sv, LINT_FEMTO_SUFFIX, e->name,
                                  "%s:%d: %s: %g F: the suffix f is femto, not farad (farads are "
                                  "written as a plain number or with u, n, p) [femto_suffix]",
                                  e->file, e->line, e->name, e->value);
     }
     if (is_r && (e->value < LINT_R_MIN_OHM || e->value > LINT_R_MAX_OHM) &&
-        lint_on(ckt, LINT_RESISTOR_RANGE))
-        return circuit_warn_lint(ckt, LINT_RESISTOR_RANGE, e->name,
+        lint_on(sv, LINT_RESISTOR_RANGE))
+        return solver_warn_lint(sv, LINT_RESISTOR_RANGE, e->name,
                                  "%s:%d: %s: %g ohm is %s the range of resistors (1 mohm .. "
                                  "1 Tohm) [resistor_range]",
                                  e->file, e->line, e->name, e->value,
@@ -102,45 +102,45 @@ static int lint_value(ss_circuit *ckt, int i, lint_survey *sv)
 /* One pass: the value checks, terminal counts per node, the unions of the supplies, and how
  * many BJTs and small capacitors there are. Large boards pay for every pass over their
  * element records, so the later checks work from what this one gathers. */
-static int lint_survey_pass(ss_circuit *ckt, lint_survey *sv)
+static int lint_survey_pass(ss_solver *sv, lint_survey *svy)
 {
-    for (int n = 0; n < ckt->n_nodes; n++)
-        sv->uf[n] = n;
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
-        if (lint_value(ckt, i, sv) != 0)
+    for (int n = 0; n < sv->n_nodes; n++)
+        svy->uf[n] = n;
+    for (int i = 0; i < sv->n_elem; i++) {
+        const element *e = &sv->elem[i];
+        if (lint_value(sv, i, svy) != 0)
             return -1;
-        sv->n_ends += e->n_node;
+        svy->n_ends += e->n_node;
         for (int k = 0; k < e->n_node; k++) {
             int n = e->node[k];
-            if (sv->count[n] == 0)
-                sv->first_elem[n] = i;
-            if (sv->count[n] < 2)
-                sv->count[n]++;
+            if (svy->count[n] == 0)
+                svy->first_elem[n] = i;
+            if (svy->count[n] < 2)
+                svy->count[n]++;
         }
         /* a supply (an independent V source other than the stage's) holds its nodes together
          * for AC */
-        if (elem_is(e, DEV_SOURCE) && !elem_is(e, DEV_DRIVES_CURRENT) && i != sv->src)
-            sv->uf[uf_find(sv->uf, e->node[0])] = uf_find(sv->uf, e->node[1]);
-        sv->n_q += e->ops->op_point != NULL;
-        sv->n_tiny += elem_is(e, DEV_CAPACITOR) && e->value < LINT_C_SIGNAL_MIN_F &&
-                      sv->named[i] != 1;
+        if (elem_is(e, DEV_SOURCE) && !elem_is(e, DEV_DRIVES_CURRENT) && i != svy->src)
+            svy->uf[uf_find(svy->uf, e->node[0])] = uf_find(svy->uf, e->node[1]);
+        svy->n_q += e->ops->op_point != NULL;
+        svy->n_tiny += elem_is(e, DEV_CAPACITOR) && e->value < LINT_C_SIGNAL_MIN_F &&
+                      svy->named[i] != 1;
     }
     return 0;
 }
 
 /* A netlist node that only one element terminal touches carries no current: most often a
  * misspelt node name. Named with the line of that element. */
-static int lint_one_connection(ss_circuit *ckt, const lint_survey *sv)
+static int lint_one_connection(ss_solver *sv, const lint_survey *svy)
 {
-    for (int n = 1; n <= ckt->n_netlist_nodes; n++) {
-        if (sv->count[n] != 1)
+    for (int n = 1; n <= sv->ckt->n_netlist_nodes; n++) {
+        if (svy->count[n] != 1)
             continue;
-        const element *e = &ckt->elem[sv->first_elem[n]];
-        if (circuit_warn_lint(ckt, LINT_ONE_CONNECTION, ckt->node_name[n],
+        const element *e = &sv->elem[svy->first_elem[n]];
+        if (solver_warn_lint(sv, LINT_ONE_CONNECTION, sv->node_name[n],
                               "%s:%d: node '%s' has only one connection (%s): a misspelt node "
                               "name? [one_connection]",
-                              e->file, e->line, ckt->node_name[n], e->name) != 0)
+                              e->file, e->line, sv->node_name[n], e->name) != 0)
             return -1;
     }
     return 0;
@@ -164,14 +164,14 @@ typedef struct sig_graph {
 
 /* Fills g (arrays from one block *mem, freed by the caller) and runs the search from the stage
  * source's vertex. 0 ok, -1 no memory. */
-static int sig_graph_build(const ss_circuit *ckt, const lint_survey *sv, sig_graph *g,
+static int sig_graph_build(const ss_solver *sv, const lint_survey *svy, sig_graph *g,
                            void **mem)
 {
-    int nn = ckt->n_nodes, nv = nn + ckt->n_elem, src = sv->src;
-    size_t n_ends = sv->n_ends;
+    int nn = sv->n_nodes, nv = nn + sv->n_elem, src = svy->src;
+    size_t n_ends = svy->n_ends;
     /* off (nv + 1), adj (2 n_ends), disc, low, par, it (nv), q, tiny; acg, side (nn),
      * skipped (nv) bytes */
-    size_t n_int = 5 * (size_t)nv + 1 + 2 * n_ends + (size_t)sv->n_q + (size_t)sv->n_tiny;
+    size_t n_int = 5 * (size_t)nv + 1 + 2 * n_ends + (size_t)svy->n_q + (size_t)svy->n_tiny;
     *mem = ss_alloc(n_int * sizeof(int) + 2 * (size_t)nn + (size_t)nv);
     if (!*mem)
         return -1;
@@ -183,24 +183,24 @@ static int sig_graph_build(const ss_circuit *ckt, const lint_survey *sv, sig_gra
     g->par = p, p += nv;
     int *it = p;
     p += nv;
-    g->q = p, p += sv->n_q;
-    g->tiny = p, p += sv->n_tiny;
+    g->q = p, p += svy->n_q;
+    g->tiny = p, p += svy->n_tiny;
     g->acg = (unsigned char *)p;
     g->side = g->acg + nn;
     unsigned char *skipped = g->side + nn;
 
-    int root0 = uf_find(sv->uf, 0);
+    int root0 = uf_find(svy->uf, 0);
     for (int n = 0; n < nn; n++)
-        g->acg[n] = uf_find(sv->uf, n) == root0;
+        g->acg[n] = uf_find(svy->uf, n) == root0;
 
     /* edges, both directions: count (and list the BJTs and small capacitors), offsets, fill
      * (it[] as the fill cursor) */
     int n_q = 0, n_tiny = 0;
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
+    for (int i = 0; i < sv->n_elem; i++) {
+        const element *e = &sv->elem[i];
         if (e->ops->op_point)
             g->q[n_q++] = i;
-        else if (elem_is(e, DEV_CAPACITOR) && e->value < LINT_C_SIGNAL_MIN_F && sv->named[i] != 1)
+        else if (elem_is(e, DEV_CAPACITOR) && e->value < LINT_C_SIGNAL_MIN_F && svy->named[i] != 1)
             g->tiny[n_tiny++] = i;
         else if (is_other_current_source(e, i, src))
             continue;
@@ -213,8 +213,8 @@ static int sig_graph_build(const ss_circuit *ckt, const lint_survey *sv, sig_gra
     for (int v = 0; v < nv; v++)
         g->off[v + 1] += g->off[v];
     memcpy(it, g->off, (size_t)nv * sizeof *it);
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
+    for (int i = 0; i < sv->n_elem; i++) {
+        const element *e = &sv->elem[i];
         if (is_other_current_source(e, i, src))
             continue;
         for (int k = 0; k < e->n_node; k++) {
@@ -260,44 +260,44 @@ static int sig_graph_build(const ss_circuit *ckt, const lint_survey *sv, sig_gra
 }
 
 /* coupling_cap_tiny and stage_not_active: the checks that need the stage's signal network. */
-static int lint_stage(ss_circuit *ckt, lint_survey *sv)
+static int lint_stage(ss_solver *sv, lint_survey *svy)
 {
-    int out = sv->src >= 0 ? circuit_find_node(ckt, ckt->stage_out) : -1;
-    int want_c = lint_on(ckt, LINT_COUPLING_CAP_TINY) && sv->n_tiny > 0;
-    int want_q = lint_on(ckt, LINT_STAGE_NOT_ACTIVE) && sv->n_q > 0;
-    if (sv->src < 0 || out <= 0 || !(want_c || want_q))
+    int out = svy->src >= 0 ? circuit_find_node(sv->ckt, sv->stage.out) : -1;
+    int want_c = lint_on(sv, LINT_COUPLING_CAP_TINY) && svy->n_tiny > 0;
+    int want_q = lint_on(sv, LINT_STAGE_NOT_ACTIVE) && svy->n_q > 0;
+    if (svy->src < 0 || out <= 0 || !(want_c || want_q))
         return 0; /* nothing to look at (a board of passives and 1 nF capacitors): no graph */
     sig_graph g;
     void *mem = NULL;
-    if (sig_graph_build(ckt, sv, &g, &mem) != 0)
+    if (sig_graph_build(sv, svy, &g, &mem) != 0)
         return -1;
-    int nn = ckt->n_nodes, bad = 0;
+    int nn = sv->n_nodes, bad = 0;
 
     /* a capacitor on every path from the stage source to the output: on the search tree's path
      * from the output back to the source, the capacitors whose edge down that path is a
      * bridge */
     for (int v = out; g.disc[out] && g.par[v] >= 0; v = g.par[v]) {
         int c = g.par[v] - nn;
-        if (c >= 0 && elem_is(&ckt->elem[c], DEV_CAPACITOR) && g.low[v] > g.disc[g.par[v]] &&
-            !sv->named[c])
-            sv->named[c] = 2;
+        if (c >= 0 && elem_is(&sv->elem[c], DEV_CAPACITOR) && g.low[v] > g.disc[g.par[v]] &&
+            !svy->named[c])
+            svy->named[c] = 2;
     }
 
     /* emitter-side nodes of the stage transistors: the emitter, and a node one resistor away
      * from it (a split emitter resistor); a capacitor from one to an AC ground bypasses it */
-    for (int k = 0; k < sv->n_q; k++) {
-        const element *q = &ckt->elem[g.q[k]];
+    for (int k = 0; k < svy->n_q; k++) {
+        const element *q = &sv->elem[g.q[k]];
         int emitter = q->node[q->ops->bypass_terminal];
         if (g.disc[nn + g.q[k]] && !g.acg[emitter])
             g.side[emitter] = 1;
     }
-    for (int k = 0; k < sv->n_q; k++) {
-        const element *q = &ckt->elem[g.q[k]];
+    for (int k = 0; k < svy->n_q; k++) {
+        const element *q = &sv->elem[g.q[k]];
         int emitter = q->node[q->ops->bypass_terminal];
         if (g.side[emitter] != 1)
             continue;
         for (int j = g.off[emitter]; j < g.off[emitter + 1]; j++) {
-            const element *r = &ckt->elem[g.adj[j] - nn];
+            const element *r = &sv->elem[g.adj[j] - nn];
             if (!elem_is(r, DEV_RESISTOR))
                 continue;
             int other = r->node[0] == emitter ? r->node[1] : r->node[0];
@@ -306,36 +306,36 @@ static int lint_stage(ss_circuit *ckt, lint_survey *sv)
         }
     }
 
-    for (int k = 0; k < sv->n_tiny && !bad && want_c; k++) {
-        const element *e = &ckt->elem[g.tiny[k]];
+    for (int k = 0; k < svy->n_tiny && !bad && want_c; k++) {
+        const element *e = &sv->elem[g.tiny[k]];
         int a = e->node[0], b = e->node[1];
         int n = g.acg[a] && g.side[b] ? b : g.acg[b] && g.side[a] ? a : -1;
-        if (sv->named[g.tiny[k]] == 2)
-            bad = circuit_warn_lint(ckt, LINT_COUPLING_CAP_TINY, e->name,
+        if (svy->named[g.tiny[k]] == 2)
+            bad = solver_warn_lint(sv, LINT_COUPLING_CAP_TINY, e->name,
                                     "%s:%d: %s: %g F in series with the signal path (%s to node "
                                     "%s) is below 1 pF: it passes almost nothing "
                                     "[coupling_cap_tiny]",
-                                    e->file, e->line, e->name, e->value, ckt->stage_in,
-                                    ckt->stage_out);
+                                    e->file, e->line, e->name, e->value, sv->stage.in,
+                                    sv->stage.out);
         else if (n > 0)
-            bad = circuit_warn_lint(ckt, LINT_COUPLING_CAP_TINY, e->name,
+            bad = solver_warn_lint(sv, LINT_COUPLING_CAP_TINY, e->name,
                                     "%s:%d: %s: %g F bypassing emitter-side node '%s' to AC "
                                     "ground is below 1 pF: it bypasses almost nothing "
                                     "[coupling_cap_tiny]",
-                                    e->file, e->line, e->name, e->value, ckt->node_name[n]);
+                                    e->file, e->line, e->name, e->value, sv->node_name[n]);
     }
 
     /* every transistor the signal network reaches, in forward-active operation */
-    double vt = analysis_vt(ckt);
-    for (int k = 0; k < sv->n_q && !bad && want_q; k++) {
-        const element *e = &ckt->elem[g.q[k]];
+    double vt = analysis_vt(sv);
+    for (int k = 0; k < svy->n_q && !bad && want_q; k++) {
+        const element *e = &sv->elem[g.q[k]];
         if (!g.disc[nn + g.q[k]])
             continue;
         dev_op_point op;
-        e->ops->op_point(e, ckt->x_op, vt, ckt->opt.gmin, &op);
+        e->ops->op_point(e, sv->x_op, vt, sv->ckt->opt.gmin, &op);
         if (op.amplifying)
             continue;
-        bad = circuit_warn_lint(ckt, LINT_STAGE_NOT_ACTIVE, e->name,
+        bad = solver_warn_lint(sv, LINT_STAGE_NOT_ACTIVE, e->name,
                                 "%s:%d: %s: stage transistor in %s at the operating point, not "
                                 "forward active (%s) [stage_not_active]",
                                 e->file, e->line, e->name, op.region, op.detail);
@@ -348,13 +348,13 @@ static int lint_stage(ss_circuit *ckt, lint_survey *sv)
 
 /* Every element's terminal currents from its own equations (the kcl hook) at the operating
  * point; the largest above LINT_I_MAX_A is named. r[] is n_unknowns zeros, left zero. */
-static int lint_currents(ss_circuit *ckt, double *r)
+static int lint_currents(ss_solver *sv, double *r)
 {
-    const double *x = ckt->x_op;
-    dev_load_ctx lc = {NULL, NULL, x, ckt->opt.gmin, 1.0, analysis_vt(ckt), LOAD_FROM_X, 0,
-                       ckt->elem};
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
+    const double *x = sv->x_op;
+    dev_load_ctx lc = {NULL, NULL, x, sv->ckt->opt.gmin, 1.0, analysis_vt(sv), LOAD_FROM_X, 0,
+                       sv->elem};
+    for (int i = 0; i < sv->n_elem; i++) {
+        const element *e = &sv->elem[i];
         if (!e->ops->kcl)
             continue;
         e->ops->kcl(e, x, &lc, r);
@@ -374,7 +374,7 @@ static int lint_currents(ss_circuit *ckt, double *r)
             r[e->branch] = 0.0;
         if (worst <= LINT_I_MAX_A)
             continue;
-        if (circuit_warn_lint(ckt, LINT_HUGE_CURRENT, e->name,
+        if (solver_warn_lint(sv, LINT_HUGE_CURRENT, e->name,
                               "%s:%d: %s: %.4g A at the operating point is above 1 kA: a source "
                               "straight across a junction or a short? [huge_current]",
                               e->file, e->line, e->name, worst) != 0)
@@ -385,47 +385,47 @@ static int lint_currents(ss_circuit *ckt, double *r)
 
 /* ---- the public entry points ------------------------------------------------------------- */
 
-ss_status ss_lint_run(ss_circuit *ckt, int *out_n, ss_error *err)
+ss_status ss_lint_run(ss_solver *sv, int *out_n, ss_error *err)
 {
     ss_status st;
-    if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
+    if (!sv->have_op && (st = op_solve_into(sv, NULL, err)) != SS_OK)
         return st;
-    int nn = ckt->n_nodes;
+    int nn = sv->n_nodes;
     /* r (n_unknowns doubles), first_elem, uf (nn ints), count (nn), named (n_elem bytes) */
-    void *mem = ss_alloc((size_t)ckt->n_unknowns * sizeof(double) +
-                         2 * (size_t)nn * sizeof(int) + (size_t)nn + (size_t)ckt->n_elem);
+    void *mem = ss_alloc((size_t)sv->n_unknowns * sizeof(double) +
+                         2 * (size_t)nn * sizeof(int) + (size_t)nn + (size_t)sv->n_elem);
     if (!mem)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     double *r = mem;
-    lint_survey sv = {.src = ckt->stage_in ? circuit_find_elem(ckt, ckt->stage_in) : -1};
-    sv.first_elem = (int *)(r + ckt->n_unknowns);
-    sv.uf = sv.first_elem + nn;
-    sv.count = (unsigned char *)(sv.uf + nn);
-    sv.named = sv.count + nn;
-    int bad = lint_survey_pass(ckt, &sv);
-    if (!bad && lint_on(ckt, LINT_ONE_CONNECTION))
-        bad = lint_one_connection(ckt, &sv);
+    lint_survey svy = {.src = sv->stage.in ? circuit_find_elem(sv->ckt, sv->stage.in) : -1};
+    svy.first_elem = (int *)(r + sv->n_unknowns);
+    svy.uf = svy.first_elem + nn;
+    svy.count = (unsigned char *)(svy.uf + nn);
+    svy.named = svy.count + nn;
+    int bad = lint_survey_pass(sv, &svy);
+    if (!bad && lint_on(sv, LINT_ONE_CONNECTION))
+        bad = lint_one_connection(sv, &svy);
     if (!bad)
-        bad = lint_stage(ckt, &sv);
-    if (!bad && lint_on(ckt, LINT_HUGE_CURRENT))
-        bad = lint_currents(ckt, r);
+        bad = lint_stage(sv, &svy);
+    if (!bad && lint_on(sv, LINT_HUGE_CURRENT))
+        bad = lint_currents(sv, r);
     ss_free(mem);
     if (bad)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     if (out_n) {
         int n = 0;
-        for (int i = 0; i < ckt->n_warnings; i++)
-            n += ckt->warning_lint[i].check >= 0;
+        for (int i = 0; i < sv->n_warnings; i++)
+            n += sv->warning_lint[i].check >= 0;
         *out_n = n;
     }
     return SS_OK;
 }
 
-const char *ss_circuit_warning_lint(const ss_circuit *ckt, int index, const char **subject)
+const char *ss_solver_warning_lint(const ss_solver *sv, int index, const char **subject)
 {
-    if (!ckt || index < 0 || index >= ckt->n_warnings || ckt->warning_lint[index].check < 0)
+    if (!sv || index < 0 || index >= sv->n_warnings || sv->warning_lint[index].check < 0)
         return NULL;
     if (subject)
-        *subject = ckt->warning_lint[index].subject;
-    return lint_check_name(ckt->warning_lint[index].check);
+        *subject = sv->warning_lint[index].subject;
+    return lint_check_name(sv->warning_lint[index].check);
 }

@@ -8,14 +8,14 @@
 
 #include "analysis/analysis.h"
 
-ss_status noise_collect_sources(const ss_circuit *ckt, noise_src **out_src, int *out_n,
+ss_status noise_collect_sources(const ss_solver *sv, noise_src **out_src, int *out_n,
                                 ss_error *err)
 {
-    dev_noise_ctx nc = {ckt->x_op, ckt->temp_c + SS_ZERO_C_IN_K, analysis_vt(ckt), ckt->opt.gmin};
+    dev_noise_ctx nc = {sv->x_op, sv->temp_c + SS_ZERO_C_IN_K, analysis_vt(sv), sv->ckt->opt.gmin};
     dev_noise_src buf[DEV_MAX_NOISE_SRC];
     int n = 0;
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
+    for (int i = 0; i < sv->n_elem; i++) {
+        const element *e = &sv->elem[i];
         if (e->ops->noise)
             n += e->ops->noise(e, &nc, buf);
     }
@@ -25,8 +25,8 @@ ss_status noise_collect_sources(const ss_circuit *ckt, noise_src **out_src, int 
         if (!s)
             return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
         int k = 0;
-        for (int i = 0; i < ckt->n_elem; i++) {
-            const element *e = &ckt->elem[i];
+        for (int i = 0; i < sv->n_elem; i++) {
+            const element *e = &sv->elem[i];
             int m = e->ops->noise ? e->ops->noise(e, &nc, buf) : 0;
             for (int j = 0; j < m; j++) {
                 s[k].src = buf[j];
@@ -53,7 +53,7 @@ static int elem_touches(const element *e, int node_idx)
  * its ungrounded node and does not go to ground itself (a source behind its series resistor);
  * for an I source, the only resistor across the same two nodes (its Norton resistance).
  * Returns the element index, or -1 when there is none or it is ambiguous. */
-static int find_source_resistor(const ss_circuit *ckt, const element *src)
+static int find_source_resistor(const ss_solver *sv, const element *src)
 {
     int found = -1;
     if (!elem_is(src, DEV_DRIVES_CURRENT)) {
@@ -64,8 +64,8 @@ static int find_source_resistor(const ss_circuit *ckt, const element *src)
             hot = src->node[1];
         else
             return -1;
-        for (int i = 0; i < ckt->n_elem; i++) {
-            const element *e = &ckt->elem[i];
+        for (int i = 0; i < sv->n_elem; i++) {
+            const element *e = &sv->elem[i];
             if (e == src || !elem_touches(e, hot))
                 continue;
             if (found >= 0 || !elem_is(e, DEV_RESISTOR) || e->node[0] == 0 || e->node[1] == 0)
@@ -74,8 +74,8 @@ static int find_source_resistor(const ss_circuit *ckt, const element *src)
         }
         return found;
     }
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
+    for (int i = 0; i < sv->n_elem; i++) {
+        const element *e = &sv->elem[i];
         if (!elem_is(e, DEV_RESISTOR))
             continue;
         int same = (e->node[0] == src->node[0] && e->node[1] == src->node[1]) ||
@@ -89,35 +89,35 @@ static int find_source_resistor(const ss_circuit *ckt, const element *src)
     return found;
 }
 
-ss_status ss_circuit_set_noise(ss_circuit *ckt, const char *out_node, const char *in_source,
+ss_status ss_solver_set_noise(ss_solver *sv, const char *out_node, const char *in_source,
                                const char *rs_resistor, ss_error *err)
 {
     char name[1024]; /* circuit names are at most 1023 characters (parser_internal.h) */
     name_lower_copy(out_node, name, sizeof name);
-    int n = circuit_find_node(ckt, name);
-    if (n <= 0 || ckt->node_internal[n])
+    int n = circuit_find_node(sv->ckt, name);
+    if (n <= 0 || sv->node_internal[n])
         return err_set(err, SS_ERR_INPUT, NULL, 0, "noise output node '%s' %s", out_node,
                        n == 0 ? "is ground" : "does not exist");
     name_lower_copy(in_source, name, sizeof name);
-    int s = circuit_find_elem(ckt, name);
-    if (s < 0 || !elem_is_source(&ckt->elem[s]))
+    int s = circuit_find_elem(sv->ckt, name);
+    if (s < 0 || !elem_is_source(&sv->elem[s]))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "noise input '%s' is not an independent source of the circuit", in_source);
     int r = -1;
     if (rs_resistor) {
         name_lower_copy(rs_resistor, name, sizeof name);
-        r = circuit_find_elem(ckt, name);
-        if (r < 0 || !elem_is(&ckt->elem[r], DEV_RESISTOR))
+        r = circuit_find_elem(sv->ckt, name);
+        if (r < 0 || !elem_is(&sv->elem[r], DEV_RESISTOR))
             return err_set(err, SS_ERR_INPUT, NULL, 0,
                            "noise source resistance '%s' is not a resistor of the circuit",
                            rs_resistor);
     }
-    ckt->noise_out = ckt->node_name[n];
-    ckt->noise_src = ckt->elem[s].name;
-    ckt->noise_rs = r >= 0 ? ckt->elem[r].name : NULL;
-    ckt->noise_file = NULL;
-    ckt->noise_line = 0;
-    ckt->want_noise = 1;
+    sv->noise.out = sv->node_name[n];
+    sv->noise.src = sv->elem[s].name;
+    sv->noise.rs = r >= 0 ? sv->elem[r].name : NULL;
+    sv->noise.file = NULL;
+    sv->noise.line = 0;
+    sv->noise.want = 1;
     return SS_OK;
 }
 
@@ -146,16 +146,16 @@ static void noise_work_clear(noise_work *w)
     ss_table_destroy(&w->contrib);
 }
 
-static ss_status noise_work_init(ss_circuit *ckt, int nf, noise_work *w, ss_error *err)
+static ss_status noise_work_init(ss_solver *sv, int nf, noise_work *w, ss_error *err)
 {
-    ss_status st = noise_collect_sources(ckt, &w->src, &w->n_src, err);
+    ss_status st = noise_collect_sources(sv, &w->src, &w->n_src, err);
     if (st != SS_OK)
         return st;
     size_t ns = (size_t)(w->n_src ? w->n_src : 1);
-    w->y = ss_alloc((size_t)ckt->n_unknowns * sizeof *w->y);
+    w->y = ss_alloc((size_t)sv->n_unknowns * sizeof *w->y);
     w->psd_prev = ss_alloc(ns * sizeof *w->psd_prev);
     w->pow = ss_alloc(ns * sizeof *w->pow);
-    w->elem_pow = ss_alloc((size_t)ckt->n_elem * sizeof *w->elem_pow);
+    w->elem_pow = ss_alloc((size_t)sv->n_elem * sizeof *w->elem_pow);
     w->order = ss_alloc(ns * sizeof *w->order);
     w->noise = table_create(3, NULL);
     w->summary = table_create(1, "metric");
@@ -180,28 +180,28 @@ static double abs2(double complex z) { return creal(z) * creal(z) + cimag(z) * c
  * nodes a and b then gives v(out) = (y_a - y_b) i, so every source costs a subtraction, not a
  * solve (the adjoint network; docs/noise.md). Integration is the trapezoid rule in f on the
  * power spectral densities. No allocation inside. */
-static ss_status noise_sweep(ss_circuit *ckt, const element *src, int out_node, const double *freqs,
+static ss_status noise_sweep(ss_solver *sv, const element *src, int out_node, const double *freqs,
                              int nf, noise_work *w, double *pow_out, double *pow_in, ss_error *err)
 {
-    int n = ckt->n_unknowns;
+    int n = sv->n_unknowns;
     double prev_f = 0.0, prev_out = 0.0, prev_in = 0.0;
     *pow_out = *pow_in = 0.0;
     for (int k = 0; k < nf; k++) {
         double f = freqs[k];
-        ss_status st = ac_solve_point(ckt, 2.0 * SS_PI * f, src, 0, 0, err);
+        ss_status st = ac_solve_point(sv, 2.0 * SS_PI * f, src, 0, 0, err);
         if (st != SS_OK)
             return st;
-        double complex gain = ckt->work_zrhs[out_node - 1]; /* the source's AC value is 1 */
+        double complex gain = sv->work_zrhs[out_node - 1]; /* the source's AC value is 1 */
         double complex *y = w->y;
         memset(y, 0, (size_t)n * sizeof *y);
         y[out_node - 1] = 1.0;
-        if ((st = mna_solve_complex_transpose_again(ckt->mna, y)) != SS_OK)
+        if ((st = mna_solve_complex_transpose_again(sv->mna, y)) != SS_OK)
             return err_set(err, st, NULL, 0, "noise: adjoint solve failed at %.6g Hz", f);
         for (int u = 0; u < n; u++)
             if (!isfinite(creal(y[u])) || !isfinite(cimag(y[u]))) {
                 char what[1200];
-                circuit_unknown_name(ckt, u, what, sizeof what);
-                return err_set(err, SS_ERR_SINGULAR, ckt->file, 0,
+                solver_unknown_name(sv, u, what, sizeof what);
+                return err_set(err, SS_ERR_SINGULAR, sv->ckt->file, 0,
                                "noise: transfer to the output is not finite from %s (%.6g Hz)",
                                what, f);
             }
@@ -245,7 +245,7 @@ static int ranks_before(const noise_work *w, int i, int j)
 }
 
 /* Summary and ranked contributions from the integrated powers (docs/noise.md). */
-static ss_status noise_tables(const ss_circuit *ckt, const double *freqs, int nf, int rs_elem,
+static ss_status noise_tables(const ss_solver *sv, const double *freqs, int nf, int rs_elem,
                               double pow_out, double pow_in, noise_work *w, ss_error *err)
 {
     int band = nf >= 2; /* one frequency has no band to integrate over */
@@ -263,8 +263,8 @@ static ss_status noise_tables(const ss_circuit *ckt, const double *freqs, int nf
         {"out_noise_rms_v", band ? sqrt(pow_out) : SS_NAN},
         {"in_noise_rms_v", band ? sqrt(pow_in) : SS_NAN},
         {"noise_figure_db", nf_db},
-        {"source_res_ohm", rs_elem >= 0 ? ckt->elem[rs_elem].value : SS_NAN},
-        {"temp_k", ckt->temp_c + SS_ZERO_C_IN_K},
+        {"source_res_ohm", rs_elem >= 0 ? sv->elem[rs_elem].value : SS_NAN},
+        {"temp_k", sv->temp_c + SS_ZERO_C_IN_K},
     };
     for (size_t i = 0; i < sizeof rows / sizeof rows[0]; i++) {
         double *row = table_add_row(w->summary, rows[i].name);
@@ -287,7 +287,7 @@ static ss_status noise_tables(const ss_circuit *ckt, const double *freqs, int nf
     for (int r = 0; r < w->n_src; r++) {
         const noise_src *s = &w->src[w->order[r]];
         char label[1200];
-        snprintf(label, sizeof label, "%s %s", ckt->elem[s->elem].name, s->src.what);
+        snprintf(label, sizeof label, "%s %s", sv->elem[s->elem].name, s->src.what);
         double *row = table_add_row(w->contrib, label);
         if (!row)
             return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
@@ -299,36 +299,36 @@ static ss_status noise_tables(const ss_circuit *ckt, const double *freqs, int nf
     return SS_OK;
 }
 
-ss_status ss_noise_run(ss_circuit *ckt, ss_table **out_noise, ss_table **out_summary,
+ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **out_summary,
                        ss_table **out_contrib, ss_error *err)
 {
-    if (!ckt->noise_out || !ckt->noise_src)
-        return err_set(err, SS_ERR_INPUT, ckt->file, 0,
+    if (!sv->noise.out || !sv->noise.src)
+        return err_set(err, SS_ERR_INPUT, sv->ckt->file, 0,
                        "no noise analysis named: add `.noise v(OUT) SRC` to the netlist");
-    if (!ckt->want_ac)
-        return err_set(err, SS_ERR_INPUT, ckt->noise_file ? ckt->noise_file : ckt->file,
-                       ckt->noise_line,
+    if (!sv->ckt->ac.want)
+        return err_set(err, SS_ERR_INPUT, sv->noise.file ? sv->noise.file : sv->ckt->file,
+                       sv->noise.line,
                        ".noise: the netlist has no .ac sweep (noise is computed over the .ac "
                        "frequencies)");
     ss_status st;
-    if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
+    if (!sv->have_op && (st = op_solve_into(sv, NULL, err)) != SS_OK)
         return st;
-    const element *src = &ckt->elem[circuit_find_elem(ckt, ckt->noise_src)];
-    int out_node = circuit_find_node(ckt, ckt->noise_out);
+    const element *src = &sv->elem[circuit_find_elem(sv->ckt, sv->noise.src)];
+    int out_node = circuit_find_node(sv->ckt, sv->noise.out);
     int rs_elem =
-        ckt->noise_rs ? circuit_find_elem(ckt, ckt->noise_rs) : find_source_resistor(ckt, src);
+        sv->noise.rs ? circuit_find_elem(sv->ckt, sv->noise.rs) : find_source_resistor(sv, src);
     double *freqs = NULL;
     int nf = 0;
-    if ((st = ac_frequencies(ckt, &freqs, &nf, err)) != SS_OK)
+    if ((st = ac_frequencies(sv, &freqs, &nf, err)) != SS_OK)
         return st;
     noise_work w;
     memset(&w, 0, sizeof w);
     double pow_out = 0.0, pow_in = 0.0;
-    st = noise_work_init(ckt, nf, &w, err);
+    st = noise_work_init(sv, nf, &w, err);
     if (st == SS_OK)
-        st = noise_sweep(ckt, src, out_node, freqs, nf, &w, &pow_out, &pow_in, err);
+        st = noise_sweep(sv, src, out_node, freqs, nf, &w, &pow_out, &pow_in, err);
     if (st == SS_OK)
-        st = noise_tables(ckt, freqs, nf, rs_elem, pow_out, pow_in, &w, err);
+        st = noise_tables(sv, freqs, nf, rs_elem, pow_out, pow_in, &w, err);
     ss_free(freqs);
     if (st == SS_OK) {
         if (out_noise) {

@@ -139,9 +139,9 @@ static void bjt_setup(element *e, dev_setup_ctx *sc)
     e->inode[TE] = mp[BP_RE] > 0.0 ? sc->new_node(sc->owner, e, "e") : e->node[TE];
 }
 
-static void bjt_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+static void bjt_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
-    (void)ckt;
+    (void)elems;
     for (int i = 0; i < SL_COUNT; i++)
         e->slot[i] = -1;
     for (int t = 0; t < 3; t++) {

@@ -16,9 +16,9 @@ static int cccs_parse(pctx *p, element *e)
 }
 
 /* (a,m) +gain, (b,m) -gain with m the controlling branch */
-static void cccs_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+static void cccs_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
-    int m = ckt->elem[e->ctrl_elem].branch;
+    int m = elems[e->ctrl_elem].branch;
     e->slot[0] = sc->claim(sc->owner, node_unknown(e->node[0]), m);
     e->slot[1] = sc->claim(sc->owner, node_unknown(e->node[1]), m);
 }

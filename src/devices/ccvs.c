@@ -17,9 +17,9 @@ static int ccvs_parse(pctx *p, element *e)
 static void ccvs_setup(element *e, dev_setup_ctx *sc) { e->branch = sc->new_branch(sc->owner); }
 
 /* slots: (a,k) (b,k) (k,a) (k,b) (k,m) */
-static void ccvs_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+static void ccvs_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
-    int k = e->branch, m = ckt->elem[e->ctrl_elem].branch;
+    int k = e->branch, m = elems[e->ctrl_elem].branch;
     e->slot[0] = sc->claim(sc->owner, node_unknown(e->node[0]), k);
     e->slot[1] = sc->claim(sc->owner, node_unknown(e->node[1]), k);
     e->slot[2] = sc->claim(sc->owner, k, node_unknown(e->node[0]));

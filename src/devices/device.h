@@ -165,8 +165,9 @@ typedef struct dev_ops {
     int (*parse)(pctx *p, element *e);
     /* internal nodes and branches; NULL when none */
     void (*setup)(element *e, dev_setup_ctx *sc);
-    /* claim matrix slots into e->slot (after all branches are numbered) */
-    void (*claim)(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc);
+    /* claim matrix slots into e->slot (after all branches are numbered); elems: every element
+     * of the context (a controlled source reads its control's branch) */
+    void (*claim)(element *e, const element *elems, dev_setup_ctx *sc);
     /* how many slots claim() fills (e->n_slot; at most ELEM_MAX_SLOTS) */
     int n_slot;
     /* temperature and area adjustment of the model parameters into tp[MODEL_MAX_PARAMS] (e->tp

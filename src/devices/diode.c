@@ -76,9 +76,9 @@ static void diode_setup(element *e, dev_setup_ctx *sc)
     e->inode[0] = e->mod->p[DP_RS] > 0.0 ? sc->new_node(sc->owner, e, "a") : e->node[0];
 }
 
-static void diode_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+static void diode_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
-    (void)ckt;
+    (void)elems;
     for (int i = 0; i < SL_COUNT; i++)
         e->slot[i] = -1;
     if (e->inode[0] != e->node[0])

@@ -7,9 +7,9 @@ static int ind_parse(pctx *p, element *e) { return parse_two_node_value(p, e, "i
 static void ind_setup(element *e, dev_setup_ctx *sc) { e->branch = sc->new_branch(sc->owner); }
 
 /* slots: (a,k) (b,k) (k,a) (k,b) (k,k) */
-static void ind_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+static void ind_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
-    (void)ckt;
+    (void)elems;
     int ua = node_unknown(e->node[0]), ub = node_unknown(e->node[1]), k = e->branch;
     e->slot[0] = sc->claim(sc->owner, ua, k);
     e->slot[1] = sc->claim(sc->owner, ub, k);

@@ -4,10 +4,10 @@
 
 static int isrc_parse(pctx *p, element *e) { return parse_source_spec(p, e); }
 
-static void isrc_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+static void isrc_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
     (void)e;
-    (void)ckt;
+    (void)elems;
     (void)sc;
 }
 

@@ -4,9 +4,9 @@
 
 static int res_parse(pctx *p, element *e) { return parse_two_node_value(p, e, "resistance", 0); }
 
-static void res_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+static void res_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
-    (void)ckt;
+    (void)elems;
     claim_pair(e, sc, 0, e->node[0], e->node[1]);
 }
 

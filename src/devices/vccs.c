@@ -10,9 +10,9 @@ static int vccs_parse(pctx *p, element *e)
     return pctx_value(p, pctx_tok(p, 5), "transconductance", &e->value);
 }
 
-static void vccs_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+static void vccs_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
-    (void)ckt;
+    (void)elems;
     claim_quad(e, sc, 0, e->node[0], e->node[1], e->node[2], e->node[3]);
 }
 

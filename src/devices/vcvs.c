@@ -13,9 +13,9 @@ static int vcvs_parse(pctx *p, element *e)
 static void vcvs_setup(element *e, dev_setup_ctx *sc) { e->branch = sc->new_branch(sc->owner); }
 
 /* slots: (a,k) (b,k) (k,a) (k,b) (k,c) (k,d) */
-static void vcvs_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+static void vcvs_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
-    (void)ckt;
+    (void)elems;
     int k = e->branch;
     e->slot[0] = sc->claim(sc->owner, node_unknown(e->node[0]), k);
     e->slot[1] = sc->claim(sc->owner, node_unknown(e->node[1]), k);

@@ -8,9 +8,9 @@ static void vsrc_setup(element *e, dev_setup_ctx *sc) { e->branch = sc->new_bran
 
 /* MNA voltage-source stamp (Ho, Ruehli & Brennan 1975): (a,k) +1, (b,k) -1, (k,a) +1,
  * (k,b) -1, rhs[k] = V. */
-static void vsrc_claim(element *e, const struct ss_circuit *ckt, dev_setup_ctx *sc)
+static void vsrc_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
-    (void)ckt;
+    (void)elems;
     int ua = node_unknown(e->node[0]), ub = node_unknown(e->node[1]), k = e->branch;
     e->slot[0] = sc->claim(sc->owner, ua, k);
     e->slot[1] = sc->claim(sc->owner, ub, k);

@@ -35,7 +35,6 @@ mna *mna_create(int n_unknowns)
     if (!m)
         return NULL;
     m->n = n_unknowns;
-    ss_use_memory_functions_for_klu();
     klu_defaults(&m->common);
     return m;
 }

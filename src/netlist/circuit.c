@@ -7,7 +7,6 @@
 
 #include "netlist/circuit.h"
 #include "devices/device.h"
-#include "mna/mna.h"
 
 int circuit_find_node(const struct ss_circuit *ckt, const char *name)
 {
@@ -56,131 +55,23 @@ int circuit_add_node_borrowed(struct ss_circuit *ckt, const char *copy, int inte
     return idx;
 }
 
-ss_status ss_circuit_select_nodes(ss_circuit *ckt, const char *const *names, int n,
-                                  ss_error *err)
-{
-    if (!names || n <= 0) {
-        ss_free(ckt->out_nodes);
-        ckt->out_nodes = NULL;
-        ckt->n_out_nodes = 0;
-        return SS_OK;
-    }
-    int *sel = ss_alloc((size_t)n * sizeof *sel);
-    unsigned char *taken = ss_alloc((size_t)ckt->n_nodes);
-    if (!sel || !taken) {
-        ss_free(sel);
-        ss_free(taken);
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
-    int count = 0;
-    for (int k = 0; k < n; k++) {
-        char low[1024]; /* a name that does not fit is no node: never cut it to one that is */
-        int node = names[k] && name_lower_copy(names[k], low, sizeof low)
-                       ? (strcmp(low, "gnd") == 0 ? 0 : circuit_find_node(ckt, low))
-                       : -1;
-        if (node == 0) {
-            ss_free(sel);
-            ss_free(taken);
-            return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "node '%s' is ground: its voltage is 0 by definition", names[k]);
-        }
-        if (node < 0 || ckt->node_internal[node]) {
-            ss_free(sel);
-            ss_free(taken);
-            return err_set(err, SS_ERR_INPUT, NULL, 0, "'%s' is no node of the circuit",
-                           names[k] ? names[k] : "(null)");
-        }
-        if (!taken[node]) {
-            taken[node] = 1;
-            sel[count++] = node;
-        }
-    }
-    ss_free(taken);
-    ss_free(ckt->out_nodes);
-    ckt->out_nodes = sel;
-    ckt->n_out_nodes = count;
-    return SS_OK;
-}
 
-void circuit_unknown_name(const struct ss_circuit *ckt, int unknown, char *buf, size_t len)
-{
-    int n_node_unknowns = ckt->n_nodes - 1;
-    if (unknown < n_node_unknowns) {
-        int node = unknown + 1;
-        if (ckt->node_internal[node])
-            snprintf(buf, len, "internal node '%s'", ckt->node_name[node]);
-        else
-            snprintf(buf, len, "node '%s'", ckt->node_name[node]);
-        return;
-    }
-    for (int i = 0; i < ckt->n_elem; i++) {
-        if (ckt->elem[i].branch == unknown) {
-            snprintf(buf, len, "branch current of '%s'", ckt->elem[i].name);
-            return;
-        }
-    }
-    snprintf(buf, len, "unknown #%d", unknown);
-}
 
 /* Appends msg (copied) with its lint check (-1 none) and subject, unless the very text is
  * there already (each warning once). 0 ok, -1 no memory. */
-static int warn_add(struct ss_circuit *ckt, const char *msg, int check, const char *subject)
-{
-    for (int i = 0; i < ckt->n_warnings; i++)
-        if (strcmp(ckt->warnings[i], msg) == 0)
-            return 0;
-    size_t n = (size_t)ckt->n_warnings + 1;
-    const char **nw = ss_realloc(ckt->warnings, n * sizeof *nw);
-    if (!nw)
-        return -1;
-    ckt->warnings = nw;
-    struct warning_lint *nl = ss_realloc(ckt->warning_lint, n * sizeof *nl);
-    if (!nl)
-        return -1;
-    ckt->warning_lint = nl;
-    char *copy = arena_strdup(&ckt->arena, msg);
-    if (!copy)
-        return -1;
-    nl[ckt->n_warnings] = (struct warning_lint){check, subject};
-    ckt->warnings[ckt->n_warnings++] = copy;
-    return 0;
-}
 
-void circuit_warn(struct ss_circuit *ckt, const char *fmt, ...)
-{
-    char msg[1024];
-    va_list ap;
-    va_start(ap, fmt);
-    vsnprintf(msg, sizeof msg, fmt, ap);
-    va_end(ap);
-    warn_add(ckt, msg, -1, NULL);
-}
 
-int circuit_warn_lint(struct ss_circuit *ckt, int check, const char *subject, const char *fmt,
-                      ...)
-{
-    char msg[1024];
-    va_list ap;
-    va_start(ap, fmt);
-    vsnprintf(msg, sizeof msg, fmt, ap);
-    va_end(ap);
-    return warn_add(ckt, msg, check, subject);
-}
 
-const char *ss_circuit_warning(const ss_circuit *ckt, int index)
-{
-    return (ckt && index >= 0 && index < ckt->n_warnings) ? ckt->warnings[index] : NULL;
-}
 
 void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *f)
 {
     f->op = ckt->want_op;
-    f->dc = ckt->n_dc > 0;
-    f->ac = ckt->want_ac;
-    f->stage = ckt->stage_in != NULL;
-    f->tran = ckt->want_tran;
-    f->noise = ckt->want_noise;
-    f->large_signal = ckt->want_large_signal;
+    f->dc = ckt->dc.n > 0;
+    f->ac = ckt->ac.want;
+    f->stage = ckt->stage.in != NULL;
+    f->tran = ckt->tran.want;
+    f->noise = ckt->noise.want;
+    f->large_signal = ckt->ls.want;
 }
 
 double ss_circuit_temp_c(const ss_circuit *ckt) { return ckt->temp_c; }
@@ -194,16 +85,6 @@ const char *ss_circuit_input(const ss_circuit *ckt, int index, const char **out_
     return ckt->inputs[index].path;
 }
 
-ss_status circuit_temp_error(const struct ss_circuit *ckt, const element *e, const char *why,
-                             ss_error *err)
-{
-    if (e->area != 1.0)
-        return err_set(err, SS_ERR_INPUT, e->mod->file, e->mod->line,
-                       "model '%s': at %g C with the area %g of %s, %s", e->mod->name,
-                       ckt->temp_c, e->area, e->name, why);
-    return err_set(err, SS_ERR_INPUT, e->mod->file, e->mod->line, "model '%s': at %g C, %s",
-                   e->mod->name, ckt->temp_c, why);
-}
 
 ss_status circuit_check_temp(const struct ss_circuit *ckt, double temp_c, ss_error *err)
 {
@@ -224,18 +105,6 @@ ss_status circuit_check_temp(const struct ss_circuit *ckt, double temp_c, ss_err
     return SS_OK;
 }
 
-ss_status ss_circuit_set_temp(ss_circuit *ckt, double temp_c, ss_error *err)
-{
-    if (!(temp_c > -SS_ZERO_C_IN_K && temp_c <= 1000.0))
-        return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "temperature %g C is outside -273.15 .. 1000 C", temp_c);
-    ss_status st = circuit_check_temp(ckt, temp_c, err);
-    if (st != SS_OK)
-        return st;
-    ckt->temp_c = temp_c;
-    ckt->have_op = 0;
-    return SS_OK;
-}
 
 ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *out_value,
                                ss_error *err)
@@ -243,8 +112,8 @@ ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *
     char low[1024]; /* a name that does not fit is not found, never cut short to another */
     name_lower_copy(name, low, sizeof low);
     for (int k = 0; k < ckt->n_params; k++)
-        if (strcmp(ckt->param_name[k], low) == 0) {
-            *out_value = ckt->param_value[k];
+        if (strcmp(ckt->params[k].name, low) == 0) {
+            *out_value = ckt->params[k].value;
             return SS_OK;
         }
     int e = circuit_find_elem(ckt, low);
@@ -269,48 +138,12 @@ ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *
                    "'%s' is no parameter, element value or model parameter of the circuit", name);
 }
 
-ss_status ss_circuit_set_stage(ss_circuit *ckt, const char *in_source, const char *out_node,
-                               double load_ohm, ss_error *err)
-{
-    char name[1024]; /* a name that does not fit exists nowhere: never cut it to one that does */
-    if (!in_source || !out_node) { /* only the load changes */
-        if (load_ohm > 0.0)
-            ckt->stage_load_ohm = load_ohm;
-        return SS_OK;
-    }
-    int e = name_lower_copy(in_source, name, sizeof name) ? circuit_find_elem(ckt, name) : -1;
-    if (e < 0 || !elem_is_source(&ckt->elem[e]))
-        return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "stage input '%s' is not an independent source of the circuit",
-                       in_source);
-    const char *in_copy = ckt->elem[e].name;
-    int n = name_lower_copy(out_node, name, sizeof name) ? circuit_find_node(ckt, name) : -1;
-    if (n <= 0 || ckt->node_internal[n])
-        return err_set(err, SS_ERR_INPUT, NULL, 0, "stage output node '%s' %s", out_node,
-                       n == 0 ? "is ground" : "does not exist");
-    ckt->stage_in = in_copy;
-    ckt->stage_out = ckt->node_name[n];
-    ckt->stage_load_ohm = load_ohm > 0.0 ? load_ohm : ckt->stage_load_ohm;
-    return SS_OK;
-}
 
 void ss_circuit_destroy(ss_circuit **pckt)
 {
     if (!pckt || !*pckt)
         return;
     ss_circuit *ckt = *pckt;
-    mna_destroy(&ckt->mna);
-    ss_free(ckt->x_op);
-    ss_free(ckt->work_rhs);
-    ss_free(ckt->work_x);
-    ss_free(ckt->x_refine);
-    ss_free(ckt->work_esc);
-    ss_free(ckt->work_bytes);
-    ss_free(ckt->work_zrhs);
-    ss_free(ckt->work_zx);
-    ss_free(ckt->ac_w);
-    ss_free(ckt->ac_rhs);
-    ss_free(ckt->out_nodes);
     ss_free(ckt->node_name);
     ss_free(ckt->node_internal);
     strmap_clear(&ckt->node_map);
@@ -318,13 +151,31 @@ void ss_circuit_destroy(ss_circuit **pckt)
     strmap_clear(&ckt->elem_map);
     ss_free(ckt->models);
     strmap_clear(&ckt->model_map);
-    ss_free(ckt->warnings);
     ss_free(ckt->inputs);
-    ss_free(ckt->warning_lint);
     ss_free(ckt->study_lines);
-    ss_free(ckt->param_name);
-    ss_free(ckt->param_value);
+    ss_free(ckt->params);
+    ss_free(ckt->tape.entry);
+    ss_free(ckt->tape.scope);
+    ss_free(ckt->tape.slot_name);
     arena_clear(&ckt->arena);
     ss_free(ckt);
     *pckt = NULL;
+}
+
+ss_status circuit_stage_names(const ss_circuit *ckt, const char *in_source, const char *out_node,
+                              const char **in_name, const char **out_name, ss_error *err)
+{
+    char name[1024]; /* a name that does not fit exists nowhere: never cut it to one that does */
+    int e = name_lower_copy(in_source, name, sizeof name) ? circuit_find_elem(ckt, name) : -1;
+    if (e < 0 || !elem_is_source(&ckt->elem[e]))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "stage input '%s' is not an independent source of the circuit",
+                       in_source);
+    int n = name_lower_copy(out_node, name, sizeof name) ? circuit_find_node(ckt, name) : -1;
+    if (n <= 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "stage output node '%s' %s", out_node,
+                       n == 0 ? "is ground" : "does not exist");
+    *in_name = ckt->elem[e].name;
+    *out_name = ckt->node_name[n];
+    return SS_OK;
 }

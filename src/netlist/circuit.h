@@ -64,6 +64,13 @@ typedef struct element {
      * (claim() may write up to ELEM_MAX_SLOTS) */
 } element;
 
+/* Per warning, when the lint raised it (analysis/lint.c): its check (enum lint_check; -1 for
+ * any other warning) and the element or node it names. */
+struct warning_lint {
+    int check;
+    const char *subject;
+};
+
 typedef struct ss_options_set {
     double tol_rel;
     double tol_v;
@@ -87,19 +94,110 @@ typedef struct dc_sweep_spec {
     int line;
 } dc_sweep_spec;
 
+/* The expression tape: every value the parser computed from an {expression}, in the order it
+ * computed them, with where the result went. A solver context replays it when a value it
+ * depends on changes (src/solver/values.c), so a changed .param reaches every element, model
+ * parameter and subcircuit parameter written in its terms without reading the text again. */
+enum tape_target {
+    TAPE_ELEM = 1, /* a double inside element `index`, at byte offset `field` */
+    TAPE_MODEL,    /* parameter `field` of model `index` */
+    TAPE_SCOPE,    /* subcircuit-instance parameter slot `field` (expr_tape.slot_name) */
+    TAPE_FIXED     /* an analysis setting, option or waveform value: fixed after parsing */
+};
+typedef struct tape_entry {
+    const char *text; /* the expression as written ({braces} optional) */
+    const char *file;
+    int line;
+    int scope;            /* the scope it is evaluated in: -1 the globals only */
+    unsigned char target; /* enum tape_target */
+    int index, field;
+    double nominal; /* the value at parse time (what a TAPE_FIXED value must keep) */
+} tape_entry;
+typedef struct tape_scope {
+    int first, n; /* its parameter slots: first .. first+n-1 */
+} tape_scope;
+typedef struct expr_tape {
+    tape_entry *entry;
+    int n_entry, cap_entry;
+    tape_scope *scope;
+    int n_scope, cap_scope;
+    const char **slot_name; /* per slot, the parameter's name */
+    int n_slot, cap_slot;
+} expr_tape;
+
+/* A global .param as written (its text replaced by a --set one), with its value at parse. */
+typedef struct global_param {
+    const char *name, *text, *file;
+    int line;
+    int from_set;
+    double value;
+} global_param;
+
+/* The analysis requests, one struct per analysis, each with the line that asked for it. */
+typedef struct ac_spec {
+    int want;
+    enum ac_sweep_type type;
+    int points;
+    double fstart_hz, fstop_hz;
+    const char *file;
+    int line;
+} ac_spec;
+
+typedef struct dc_spec {
+    int n; /* 0, 1 or 2 nested sweeps */
+    dc_sweep_spec sweep[2];
+} dc_spec;
+
+/* .tran TSTEP TSTOP [TSTART] (analysis/tran.c); .options tran_method, tran_tol_rel,
+ * tran_tol_v */
+typedef struct tran_spec {
+    int want;
+    double step_s, stop_s, start_s;
+    const char *file;
+    int line;
+    int method; /* 0 trapezoidal, 1 second-order backward difference (gear2) */
+    double tol_rel, tol_v;
+} tran_spec;
+
+typedef struct stage_spec {
+    const char *in, *out; /* input source, output node; in NULL: no stage request */
+    double load_ohm;
+    const char *file;
+    int line;
+} stage_spec;
+
+/* .noise v(OUT) SRC [rs=RNAME]: the output node, the input source and the resistor whose
+ * thermal noise is the noise figure's reference (NULL: the one found in series with SRC, if
+ * any); checked after parsing */
+typedef struct noise_spec {
+    int want;
+    const char *out, *src, *rs;
+    const char *file;
+    int line;
+} noise_spec;
+
+/* .large_signal freq= amp= thd_target_pct= (analysis/thd.c) */
+typedef struct large_signal_spec {
+    int want;
+    double freq_hz, amp, thd_target_pct; /* 0 / NaN when not given */
+} large_signal_spec;
+
+/* The circuit as parsed, read-only afterwards: solver contexts (src/solver) are made from it
+ * and own everything that changes. */
 struct ss_circuit {
     ss_arena arena;
     const char *title;
     const char *file; /* top-level netlist name, for messages */
 
-    /* nodes: 0 is ground; netlist nodes first (in order of first use), then internal ones */
+    /* nodes: 0 is ground, then the netlist's in order of first use (internal nodes belong to
+     * each solver context) */
     const char **node_name;
-    unsigned char *node_internal;
+    unsigned char *node_internal; /* all 0 here; kept for the parser's checks */
     int n_nodes, cap_nodes;
-    int n_netlist_nodes; /* nodes 1 .. n_netlist_nodes are the netlist's, the rest internal */
+    int n_netlist_nodes; /* nodes 1 .. n_netlist_nodes */
     ss_strmap node_map;
 
-    element *elem;
+    element *elem; /* nominal values; the solver-only fields stay zero */
     int n_elem, cap_elem;
     ss_strmap elem_map;
 
@@ -112,22 +210,12 @@ struct ss_circuit {
 
     /* analyses */
     int want_op;
-    int n_dc; /* 0, 1 or 2 nested sweeps */
-    dc_sweep_spec dc[2];
-    int want_ac;
-    enum ac_sweep_type ac_type;
-    int ac_points;
-    double ac_fstart_hz, ac_fstop_hz;
-    int want_tran, want_noise;
-    /* .tran TSTEP TSTOP [TSTART] (analysis/tran.c); .options tran_method, tran_tol_rel,
-     * tran_tol_v; .large_signal freq= amp= thd_target_pct= (analysis/thd.c) */
-    double tran_step_s, tran_stop_s, tran_start_s;
-    const char *tran_file;
-    int tran_line;
-    int tran_method; /* 0 trapezoidal, 1 second-order backward difference (gear2) */
-    double tran_tol_rel, tran_tol_v;
-    double ls_freq_hz, ls_amp, ls_thd_target_pct; /* 0 / NaN when not given */
-    int want_large_signal;
+    dc_spec dc;
+    ac_spec ac;
+    tran_spec tran;
+    stage_spec stage;
+    noise_spec noise;
+    large_signal_spec ls;
     /* study directives kept as text for src/study: .expect (limits), .tolerance */
     struct study_line {
         const char *file;
@@ -136,61 +224,10 @@ struct ss_circuit {
         int is_tolerance;
     } *study_lines;
     int n_study_lines;
-    /* global .param values as evaluated (after --set), for studies and lookups */
-    const char **param_name;
-    double *param_value;
+    /* global .param definitions and values as evaluated (after --set) */
+    global_param *params;
     int n_params;
-    const char *stage_in, *stage_out;
-    double stage_load_ohm;
-    const char *stage_file;
-    int stage_line;
-    /* .noise v(OUT) SRC [rs=RNAME] (or ss_circuit_set_noise): the output node, the input
-     * source and the resistor whose thermal noise is the noise figure's reference (NULL: the
-     * one found in series with SRC, if any); checked after parsing */
-    const char *noise_out, *noise_src, *noise_rs;
-    const char *noise_file;
-    int noise_line;
-
-    /* solver state (analysis module) */
-    struct mna *mna;
-    int n_branches;
-    int n_unknowns;
-    int prepared;
-    double temp_applied_k;
-    int *temp_elems; /* elements with a temperature law (arena), set in prepare */
-    int n_temp_elems;
-    double *x_op; /* operating point, n_unknowns; valid when have_op */
-    int have_op;
-    double *work_rhs, *work_x;    /* Newton work vectors, n_unknowns */
-    double *x_refine;             /* saved solution during refinement, n_unknowns */
-    double *work_esc;             /* unstable-equilibrium escape, 2 n_unknowns */
-    unsigned char *work_bytes;    /* n_unknowns bytes (permutation parity) */
-    double _Complex *work_zrhs;   /* AC right-hand side, n_unknowns */
-    double _Complex *work_zx;     /* AC second solution (output-impedance test) */
-    double last_rcond;
-    double last_kcl_residual;
-    int op_serial; /* incremented by every new operating point */
-
-    /* AC fast path (analysis/ac.c): every device's admittance is G + jwC, so the matrix is
-     * A0 + jw A1 with A0, A1 fixed at the operating point; checked once per operating point */
-    struct ac_wslot {
-        double a0, a1;
-        int slot;
-    } *ac_w; /* the slots with A1 != 0, the only ones that change with frequency */
-    int n_ac_w;
-    double _Complex *ac_rhs;
-    int ac_serial;   /* op_serial the cache was built for; 0 = none */
-    int ac_affine;   /* 1 when the check passed */
-    const void *ac_rhs_src;
-    int ac_rhs_all_off, ac_rhs_ok;
-
-    /* the nodes whose per-node results are written (ss_circuit_select_nodes): out_nodes[0 ..
-     * n_out_nodes-1], node indices; NULL = every netlist node (circuit_out_node) */
-    int *out_nodes;
-    int n_out_nodes;
-
-    const char **warnings;
-    int n_warnings;
+    expr_tape tape;
 
     /* the files read, the netlist first, then each .include as read, with the SHA-256 of the
      * bytes parsed (ss_circuit_input; a run's manifest records them) */
@@ -199,52 +236,32 @@ struct ss_circuit {
         char sha256[65];
     } *inputs;
     int n_inputs;
-    /* per warning, when the lint raised it (analysis/lint.c): its check (enum lint_check; -1
-     * for any other warning) and the element or node it names */
-    struct warning_lint {
-        int check;
-        const char *subject;
-    } *warning_lint;
     /* bit k set: lint check k silenced by `.options lint_off=NAME,...` */
     unsigned lint_off;
 };
 
-typedef struct ac_wslot ac_wslot;
 
 /* Unknown index of a node: ground is -1 (its row and column are dropped). */
 static inline int node_unknown(int node_idx) { return node_idx - 1; }
 
 /* Every model's parameters scaled to temp_c (area 1): SS_ERR_INPUT at the first model card
  * whose scaled parameters leave their range, naming the parameter, temperature and value. */
+/* Model m's parameters inside the ranges its kind's table states: 0, or -1 with the message
+ * ("model 'qn': bf must be positive, got 0") in msg. */
+SS_HIDDEN int model_range_check(const model *m, char *msg, size_t msg_len);
 SS_HIDDEN ss_status circuit_check_temp(const struct ss_circuit *ckt, double temp_c,
                                        ss_error *err);
-/* The error for element e whose model, scaled to the circuit temperature, failed: why. */
-SS_HIDDEN ss_status circuit_temp_error(const struct ss_circuit *ckt, const element *e,
-                                       const char *why, ss_error *err);
-SS_HIDDEN void circuit_warn(struct ss_circuit *ckt, const char *fmt, ...)
-    __attribute__((format(printf, 2, 3)));
-/* A warning of lint check `check` naming `subject` (an element or node name that outlives
- * the circuit). 0 added or already there, -1 no memory. */
-SS_HIDDEN int circuit_warn_lint(struct ss_circuit *ckt, int check, const char *subject,
-                                const char *fmt, ...) __attribute__((format(printf, 4, 5)));
+/* The stage's input source and output node checked and found: their names as the circuit
+ * keeps them. SS_ERR_INPUT when the source is no independent source or the node is ground or
+ * none of the circuit's. */
+SS_HIDDEN ss_status circuit_stage_names(const struct ss_circuit *ckt, const char *in_source,
+                                        const char *out_node, const char **in_name,
+                                        const char **out_name, ss_error *err);
 SS_HIDDEN int circuit_find_node(const struct ss_circuit *ckt, const char *name);
 SS_HIDDEN int circuit_find_elem(const struct ss_circuit *ckt, const char *name);
 /* Adds a node (name copied to the arena); returns its index or -1 on allocation failure. */
 SS_HIDDEN int circuit_add_node(struct ss_circuit *ckt, const char *name, int internal);
 /* The same with a name that already lives in the circuit's arena (not copied). */
 SS_HIDDEN int circuit_add_node_borrowed(struct ss_circuit *ckt, const char *name, int internal);
-/* The nodes whose per-node results are written, in order: the selection, or every netlist
- * node. Netlist nodes are 1 .. n (their count); internal nodes are numbered after them. */
-static inline int circuit_n_out_nodes(const struct ss_circuit *ckt)
-{
-    return ckt->out_nodes ? ckt->n_out_nodes : ckt->n_netlist_nodes;
-}
-static inline int circuit_out_node(const struct ss_circuit *ckt, int k)
-{
-    return ckt->out_nodes ? ckt->out_nodes[k] : k + 1;
-}
-/* Name of an MNA unknown for messages: "node 'vb'" or "branch current of 'v1'". */
-SS_HIDDEN void circuit_unknown_name(const struct ss_circuit *ckt, int unknown, char *buf,
-                                    size_t len);
 
 #endif

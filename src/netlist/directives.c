@@ -55,9 +55,9 @@ static int set_option(parser *ps, const logline *ll, void *vctx, const char *nam
     }
     if (strcmp(name, "tran_method") == 0) { /* transient integration: docs/transient.md */
         if (strcmp(text, "trap") == 0)
-            ps->ckt->tran_method = 0;
+            ps->ckt->tran.method = 0;
         else if (strcmp(text, "gear2") == 0)
-            ps->ckt->tran_method = 1;
+            ps->ckt->tran.method = 1;
         else
             return line_error(ps, ll, ".options: tran_method must be trap or gear2, got '%s'",
                               text),
@@ -72,9 +72,9 @@ static int set_option(parser *ps, const logline *ll, void *vctx, const char *nam
     if (strcmp(name, "tol_rel") == 0 && v > 0.0 && v < 1.0)
         o->tol_rel = v;
     else if (strcmp(name, "tran_tol_rel") == 0 && v > 0.0 && v < 1.0)
-        ps->ckt->tran_tol_rel = v;
+        ps->ckt->tran.tol_rel = v;
     else if (strcmp(name, "tran_tol_v") == 0 && v > 0.0)
-        ps->ckt->tran_tol_v = v;
+        ps->ckt->tran.tol_v = v;
     else if (strcmp(name, "tol_v") == 0 && v > 0.0)
         o->tol_v = v;
     else if (strcmp(name, "tol_i") == 0 && v > 0.0)
@@ -102,14 +102,14 @@ static int set_stage(parser *ps, const logline *ll, void *vctx, const char *name
 {
     (void)vctx;
     ss_circuit *ckt = ps->ckt;
-    if ((strcmp(name, "in") == 0 && ckt->stage_in) ||
-        (strcmp(name, "out") == 0 && ckt->stage_out) ||
-        (strcmp(name, "load") == 0 && ckt->stage_load_ohm > 0.0))
+    if ((strcmp(name, "in") == 0 && ckt->stage.in) ||
+        (strcmp(name, "out") == 0 && ckt->stage.out) ||
+        (strcmp(name, "load") == 0 && ckt->stage.load_ohm > 0.0))
         return line_error(ps, ll, ".stage: '%s' given twice", name), -1;
     if (strcmp(name, "in") == 0)
-        ckt->stage_in = text;
+        ckt->stage.in = text;
     else if (strcmp(name, "out") == 0)
-        ckt->stage_out = text;
+        ckt->stage.out = text;
     else if (strcmp(name, "load") == 0) {
         double v;
         if (line_value(ps, ll, NULL, text, ".stage", "load", &v) != 0)
@@ -117,7 +117,7 @@ static int set_stage(parser *ps, const logline *ll, void *vctx, const char *name
         if (!(v > 0.0))
             return line_error(ps, ll, ".stage: load must be a positive resistance, got %g", v),
                    -1;
-        ckt->stage_load_ohm = v;
+        ckt->stage.load_ohm = v;
     } else
         return line_error(ps, ll, ".stage: unknown field '%s' (known: in, out, load)", name), -1;
     return 0;
@@ -138,8 +138,8 @@ static int set_large_signal(parser *ps, const logline *ll, void *vctx, const cha
                           ".large_signal: unknown field '%s' (known: freq, amp, thd_target_pct)",
                           name),
                -1;
-    if ((is_freq && ckt->ls_freq_hz > 0.0) || (is_amp && ckt->ls_amp > 0.0) ||
-        (is_thd && ckt->ls_thd_target_pct > 0.0))
+    if ((is_freq && ckt->ls.freq_hz > 0.0) || (is_amp && ckt->ls.amp > 0.0) ||
+        (is_thd && ckt->ls.thd_target_pct > 0.0))
         return line_error(ps, ll, ".large_signal: '%s' given twice", name), -1;
     if (line_value(ps, ll, NULL, text, ".large_signal", name, &v) != 0)
         return -1;
@@ -148,11 +148,11 @@ static int set_large_signal(parser *ps, const logline *ll, void *vctx, const cha
                           is_thd ? "between 0 and 100 (percent)" : "positive", v),
                -1;
     if (is_freq)
-        ckt->ls_freq_hz = v;
+        ckt->ls.freq_hz = v;
     else if (is_amp)
-        ckt->ls_amp = v;
+        ckt->ls.amp = v;
     else
-        ckt->ls_thd_target_pct = v;
+        ckt->ls.thd_target_pct = v;
     return 0;
 }
 
@@ -162,9 +162,9 @@ static int set_noise(parser *ps, const logline *ll, void *vctx, const char *name
     (void)vctx;
     if (strcmp(name, "rs") != 0)
         return line_error(ps, ll, ".noise: unknown field '%s' (known: rs)", name), -1;
-    if (ps->ckt->noise_rs)
+    if (ps->ckt->noise.rs)
         return line_error(ps, ll, ".noise: 'rs' given twice"), -1;
-    ps->ckt->noise_rs = text;
+    ps->ckt->noise.rs = text;
     return 0;
 }
 
@@ -198,8 +198,8 @@ static ss_status dir_options(parser *ps, const logline *ll)
 static ss_status dir_stage(parser *ps, const logline *ll)
 {
     ss_circuit *ckt = ps->ckt;
-    ckt->stage_file = ll->file;
-    ckt->stage_line = ll->line;
+    ckt->stage.file = ll->file;
+    ckt->stage.line = ll->line;
     return parse_assignments(ps, ll, 1, set_stage, NULL) == 0 ? SS_OK : ps->err->code;
 }
 
@@ -209,9 +209,9 @@ static ss_status dir_dc(parser *ps, const logline *ll)
     int n = ll->n_tok - 1;
     if (n != 4 && n != 8)
         return line_error(ps, ll, ".dc expects SRC start stop step [SRC2 start2 stop2 step2]");
-    ckt->n_dc = n / 4;
-    for (int k = 0; k < ckt->n_dc; k++) {
-        dc_sweep_spec *s = &ckt->dc[k];
+    ckt->dc.n = n / 4;
+    for (int k = 0; k < ckt->dc.n; k++) {
+        dc_sweep_spec *s = &ckt->dc.sweep[k];
         s->src = ll->tok[1 + 4 * k];
         s->file = ll->file;
         s->line = ll->line;
@@ -246,11 +246,11 @@ static ss_status dir_ac(parser *ps, const logline *ll)
         return line_error(ps, ll, ".ac expects dec|oct|lin N fstart fstop");
     const char *t = ll->tok[1];
     if (strcmp(t, "dec") == 0)
-        ckt->ac_type = AC_DEC;
+        ckt->ac.type = AC_DEC;
     else if (strcmp(t, "oct") == 0)
-        ckt->ac_type = AC_OCT;
+        ckt->ac.type = AC_OCT;
     else if (strcmp(t, "lin") == 0)
-        ckt->ac_type = AC_LIN;
+        ckt->ac.type = AC_LIN;
     else
         return line_error(ps, ll, ".ac: sweep type '%s' is not dec, oct or lin", t);
     double n, f1, f2;
@@ -270,15 +270,15 @@ static ss_status dir_ac(parser *ps, const logline *ll)
     if (f2 < f1)
         return line_error(ps, ll, ".ac: stop frequency %g Hz is below start %g Hz", f2, f1);
     /* counted as the sweep counts (the same rounding allowance), so what passes here runs */
-    double total = ac_point_count(ckt->ac_type, (int)n, f1, f2);
+    double total = ac_point_count(ckt->ac.type, (int)n, f1, f2);
     if (total > AC_MAX_POINTS)
         return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
                        ".ac: %.3g frequencies in all, more than the limit of 1e6", total);
 
-    ckt->want_ac = 1;
-    ckt->ac_points = (int)n;
-    ckt->ac_fstart_hz = f1;
-    ckt->ac_fstop_hz = f2;
+    ckt->ac.want = 1;
+    ckt->ac.points = (int)n;
+    ckt->ac.fstart_hz = f1;
+    ckt->ac.fstop_hz = f2;
     return SS_OK;
 }
 
@@ -327,18 +327,18 @@ static ss_status dir_tran(parser *ps, const logline *ll)
     if ((stop - start) / step > 1e7)
         return err_set(ps->err, SS_ERR_LIMIT, ll->file, ll->line,
                        ".tran: more than 1e7 output points");
-    ckt->tran_step_s = step;
-    ckt->tran_stop_s = stop;
-    ckt->tran_start_s = start;
-    ckt->tran_file = ll->file;
-    ckt->tran_line = ll->line;
-    ckt->want_tran = 1;
+    ckt->tran.step_s = step;
+    ckt->tran.stop_s = stop;
+    ckt->tran.start_s = start;
+    ckt->tran.file = ll->file;
+    ckt->tran.line = ll->line;
+    ckt->tran.want = 1;
     return SS_OK;
 }
 
 static ss_status dir_large_signal(parser *ps, const logline *ll)
 {
-    ps->ckt->want_large_signal = 1;
+    ps->ckt->ls.want = 1;
     return parse_assignments(ps, ll, 1, set_large_signal, NULL) == 0 ? SS_OK : ps->err->code;
 }
 
@@ -367,12 +367,12 @@ static ss_status dir_noise(parser *ps, const logline *ll)
     char *node = arena_strndup(&ckt->arena, o + b, e - b);
     if (!node)
         return nomem(ps);
-    ckt->noise_out = node;
-    ckt->noise_src = ll->tok[2];
-    ckt->noise_rs = NULL;
-    ckt->noise_file = ll->file;
-    ckt->noise_line = ll->line;
-    ckt->want_noise = 1;
+    ckt->noise.out = node;
+    ckt->noise.src = ll->tok[2];
+    ckt->noise.rs = NULL;
+    ckt->noise.file = ll->file;
+    ckt->noise.line = ll->line;
+    ckt->noise.want = 1;
     return parse_assignments(ps, ll, 3, set_noise, NULL) == 0 ? SS_OK : ps->err->code;
 }
 
@@ -434,8 +434,8 @@ ss_status directive(parser *ps, const logline *ll, const scope *sc)
 ss_status check_dc_sources(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
-    for (int k = 0; k < ckt->n_dc; k++) {
-        const dc_sweep_spec *s = &ckt->dc[k];
+    for (int k = 0; k < ckt->dc.n; k++) {
+        const dc_sweep_spec *s = &ckt->dc.sweep[k];
         int idx = circuit_find_elem(ckt, s->src);
         if (idx < 0 || !elem_is_source(&ckt->elem[idx]))
             return err_set(ps->err, SS_ERR_INPUT, s->file, s->line,
@@ -449,26 +449,26 @@ ss_status check_dc_sources(parser *ps)
 ss_status check_noise(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
-    if (!ckt->want_noise)
+    if (!ckt->noise.want)
         return SS_OK;
-    int n = circuit_find_node(ckt, ckt->noise_out);
+    int n = circuit_find_node(ckt, ckt->noise.out);
     if (n <= 0)
-        return err_set(ps->err, SS_ERR_INPUT, ckt->noise_file, ckt->noise_line,
-                       ".noise: output node '%s' %s", ckt->noise_out,
+        return err_set(ps->err, SS_ERR_INPUT, ckt->noise.file, ckt->noise.line,
+                       ".noise: output node '%s' %s", ckt->noise.out,
                        n == 0 ? "is ground" : "does not exist");
-    ckt->noise_out = ckt->node_name[n];
-    int idx = circuit_find_elem(ckt, ckt->noise_src);
+    ckt->noise.out = ckt->node_name[n];
+    int idx = circuit_find_elem(ckt, ckt->noise.src);
     if (idx < 0 || !elem_is_source(&ckt->elem[idx]))
-        return err_set(ps->err, SS_ERR_INPUT, ckt->noise_file, ckt->noise_line,
+        return err_set(ps->err, SS_ERR_INPUT, ckt->noise.file, ckt->noise.line,
                        ".noise: '%s' is not an independent voltage or current source",
-                       ckt->noise_src);
-    ckt->noise_src = ckt->elem[idx].name;
-    if (ckt->noise_rs) {
-        idx = circuit_find_elem(ckt, ckt->noise_rs);
+                       ckt->noise.src);
+    ckt->noise.src = ckt->elem[idx].name;
+    if (ckt->noise.rs) {
+        idx = circuit_find_elem(ckt, ckt->noise.rs);
         if (idx < 0 || !elem_is(&ckt->elem[idx], DEV_RESISTOR))
-            return err_set(ps->err, SS_ERR_INPUT, ckt->noise_file, ckt->noise_line,
-                           ".noise: rs=%s is not a resistor of the circuit", ckt->noise_rs);
-        ckt->noise_rs = ckt->elem[idx].name;
+            return err_set(ps->err, SS_ERR_INPUT, ckt->noise.file, ckt->noise.line,
+                           ".noise: rs=%s is not a resistor of the circuit", ckt->noise.rs);
+        ckt->noise.rs = ckt->elem[idx].name;
     }
     return SS_OK;
 }
@@ -477,15 +477,15 @@ ss_status check_noise(parser *ps)
 ss_status check_waves(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
-    if (!ckt->want_tran)
+    if (!ckt->tran.want)
         return SS_OK;
     for (int i = 0; i < ckt->n_elem; i++) {
         const element *e = &ckt->elem[i];
         char why[200];
         if (elem_is_source(e) && e->wave &&
-            wave_check_until(e->wave, ckt->tran_stop_s, why, sizeof why) != 0)
+            wave_check_until(e->wave, ckt->tran.stop_s, why, sizeof why) != 0)
             return err_set(ps->err, SS_ERR_INPUT, e->file, e->line, "%s: %s (.tran at %s:%d)",
-                           e->name, why, ckt->tran_file, ckt->tran_line);
+                           e->name, why, ckt->tran.file, ckt->tran.line);
     }
     return SS_OK;
 }
@@ -493,16 +493,15 @@ ss_status check_waves(parser *ps)
 ss_status check_stage(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
-    if (!ckt->stage_in && !ckt->stage_out)
+    if (!ckt->stage.in && !ckt->stage.out)
         return SS_OK;
-    if (!ckt->stage_in || !ckt->stage_out)
-        return err_set(ps->err, SS_ERR_INPUT, ckt->stage_file, ckt->stage_line,
+    if (!ckt->stage.in || !ckt->stage.out)
+        return err_set(ps->err, SS_ERR_INPUT, ckt->stage.file, ckt->stage.line,
                        ".stage needs both in=SOURCE and out=NODE");
-    const char *in = ckt->stage_in, *out = ckt->stage_out;
-    ckt->stage_in = ckt->stage_out = NULL;
     ss_error e2 = {0};
-    if (ss_circuit_set_stage(ckt, in, out, 0.0, &e2) != SS_OK)
-        return err_set(ps->err, SS_ERR_INPUT, ckt->stage_file, ckt->stage_line, "%s",
+    if (circuit_stage_names(ckt, ckt->stage.in, ckt->stage.out, &ckt->stage.in, &ckt->stage.out,
+                            &e2) != SS_OK)
+        return err_set(ps->err, SS_ERR_INPUT, ckt->stage.file, ckt->stage.line, "%s",
                        e2.message);
     return SS_OK;
 }

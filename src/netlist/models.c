@@ -33,7 +33,11 @@ static int set_model_param(parser *ps, const logline *ll, void *vctx, const char
     double v;
     char what[64];
     snprintf(what, sizeof what, "parameter %s", name);
-    if (line_value(ps, ll, NULL, text, m->name, what, &v) != 0)
+    ps->tape_model = ps->ckt->n_models; /* the index the model gets once read */
+    ps->tape_param = idx;
+    int rc = line_value(ps, ll, NULL, text, m->name, what, &v);
+    ps->tape_model = -1;
+    if (rc != 0)
         return -1;
     m->p[idx] = v;
     m->given[idx] = 1;
@@ -42,7 +46,7 @@ static int set_model_param(parser *ps, const logline *ll, void *vctx, const char
 
 /* Checks the physical ranges the equations need (divisions, logarithms), as the kind's
  * parameter table states them. */
-int check_model(parser *ps, const logline *ll, const model *m)
+int model_range_check(const model *m, char *msg, size_t msg_len)
 {
     const dev_ops *ops = m->ops;
     for (int i = 0; i < ops->n_model_params; i++) {
@@ -56,19 +60,28 @@ int check_model(parser *ps, const logline *ll, const model *m)
         if (lo_ok && hi_ok)
             continue;
         if (pd->flags & DMP_CELSIUS)
-            line_error(ps, ll, "model '%s': %s %g C is outside %g .. %g C", m->name, n, v,
-                       pd->min, pd->max);
+            snprintf(msg, msg_len, "model '%s': %s %g C is outside %g .. %g C", m->name, n, v,
+                     pd->min, pd->max);
         else if (!isfinite(pd->max) && pd->min == 0.0 && pd->flags & DMP_MIN_OPEN)
-            line_error(ps, ll, "model '%s': %s must be positive, got %g", m->name, n, v);
+            snprintf(msg, msg_len, "model '%s': %s must be positive, got %g", m->name, n, v);
         else if (!isfinite(pd->max) && pd->min == 0.0)
-            line_error(ps, ll, "model '%s': %s must not be negative, got %g", m->name, n, v);
+            snprintf(msg, msg_len, "model '%s': %s must not be negative, got %g", m->name, n, v);
         else
-            line_error(ps, ll, "model '%s': %s must be in %c%g, %g%c, got %g", m->name, n,
-                       pd->flags & DMP_MIN_OPEN ? '(' : '[', pd->min, pd->max,
-                       pd->flags & DMP_MAX_OPEN ? ')' : ']', v);
+            snprintf(msg, msg_len, "model '%s': %s must be in %c%g, %g%c, got %g", m->name, n,
+                     pd->flags & DMP_MIN_OPEN ? '(' : '[', pd->min, pd->max,
+                     pd->flags & DMP_MAX_OPEN ? ')' : ']', v);
         return -1;
     }
     return 0;
+}
+
+int check_model(parser *ps, const logline *ll, const model *m)
+{
+    char msg[512];
+    if (model_range_check(m, msg, sizeof msg) == 0)
+        return 0;
+    line_error(ps, ll, "%s", msg);
+    return -1;
 }
 
 int define_model(parser *ps, const logline *ll)

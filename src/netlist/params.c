@@ -2,6 +2,7 @@
  * line, `name = value` lists and the --set overrides. The expression grammar is expr.c's. */
 #include <ctype.h>
 #include <math.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -99,7 +100,7 @@ int line_value(parser *ps, const logline *ll, const scope *sc, const char *tok,
             line_error(ps, ll, "%s%s%s: %s", owner ? owner : "", owner ? ": " : "", what, msg);
             return -1;
         }
-        return 0;
+        return tape_value(ps, ll, sc, tok, out);
     }
     if (value_parse(tok, out) != 0) {
         double v;
@@ -203,6 +204,16 @@ int add_global_param(parser *ps, const logline *ll, void *ctx, const char *name,
     return 0;
 }
 
+/* A --set applied after building: replayed last, as it was applied last. */
+static int tape_late(parser *ps, const char *vtext, int target, int index, int field)
+{
+    const char *text = arena_strdup(&ps->ckt->arena, vtext);
+    if (!text)
+        return nomem(ps), -1;
+    tape_entry te = {text, ps->ckt->file, 0, -1, (unsigned char)target, index, field, 0.0};
+    return tape_record(ps, &te);
+}
+
 ss_status apply_late_overrides(parser *ps)
 {
     ss_circuit *ckt = ps->ckt;
@@ -240,6 +251,8 @@ ss_status apply_late_overrides(parser *ps)
                                el->ops->value_name, v);
             el->value = v;
             el->value_si_exp = (signed char)value_si_exp(vtext);
+            if (tape_late(ps, vtext, TAPE_ELEM, e, (int)offsetof(element, value)) != 0)
+                return SS_ERR_NOMEM;
             continue;
         }
         char *dot = strrchr(name, '.');
@@ -255,6 +268,8 @@ ss_status apply_late_overrides(parser *ps)
                                    dot + 1);
                 m->p[pi] = v;
                 m->given[pi] = 1;
+                if (tape_late(ps, vtext, TAPE_MODEL, mi, pi) != 0)
+                    return SS_ERR_NOMEM;
                 logline here = {m->file, m->line, NULL, 0};
                 if (check_model(ps, &here, m) != 0)
                     return SS_ERR_INPUT;

@@ -272,13 +272,13 @@ static ss_status keep_params(parser *ps)
     if (ps->n_params == 0)
         return SS_OK;
     ss_status st = SS_OK;
-    ckt->param_name = ss_alloc((size_t)ps->n_params * sizeof *ckt->param_name);
-    ckt->param_value = ss_alloc((size_t)ps->n_params * sizeof *ckt->param_value);
-    if (!ckt->param_name || !ckt->param_value)
+    ckt->params = ss_alloc((size_t)ps->n_params * sizeof *ckt->params);
+    if (!ckt->params)
         st = nomem(ps);
     for (int i = 0; st == SS_OK && i < ps->n_params; i++) {
-        ckt->param_name[i] = ps->params[i].name;
-        ckt->param_value[i] = ps->params[i].value;
+        const param_def *pd = &ps->params[i];
+        ckt->params[i] = (global_param){pd->name, pd->text, pd->file, pd->line, pd->from_set,
+                                        pd->value};
     }
     ckt->n_params = ps->n_params;
     return st;
@@ -333,6 +333,7 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
     ps.err = err;
     ps.overrides = overrides;
     ps.n_overrides = n_overrides;
+    ps.tape_model = -1;
     ss_status st = SS_OK;
     if (!ckt->file || circuit_add_node(ckt, "0", 0) != 0 || note_node_prefix(&ps, 0, 0) != 0)
         st = nomem(&ps);
@@ -355,6 +356,7 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
         scope top;
         memset(&top, 0, sizeof top);
         top.prefix = "";
+        top.tape_id = -1;
         st = build_lines(&ps, &top, 0, ps.n_lines);
     }
     if (st == SS_OK)

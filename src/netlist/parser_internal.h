@@ -60,6 +60,7 @@ typedef struct scope {
     double *pvals;
     int n_params;
     int depth;
+    int tape_id; /* its scope on the expression tape; -1 the top level */
 } scope;
 
 /* A node an X line brought in through a port its subcircuit leaves unconnected: an error after
@@ -106,6 +107,8 @@ typedef struct parser {
     int n_opt;
     int nomem;
     int expr_depth; /* expression nesting, shared by the parameters an expression refers to */
+    /* the model and parameter a value being read belongs to (models.c), -1 when none */
+    int tape_model, tape_param;
 } parser;
 
 struct pctx {
@@ -167,6 +170,20 @@ SS_HIDDEN ss_status check_overrides_once(parser *ps);
 /* After building: the --set overrides no .param took, applied to elements and model
  * parameters. */
 SS_HIDDEN ss_status apply_late_overrides(parser *ps);
+
+/* ---- tape.c: the expression tape (circuit.h) --------------------------------------------- */
+
+/* A new scope on the tape; its id, or -1 out of memory (set). */
+SS_HIDDEN int tape_new_scope(parser *ps);
+/* Appends te; 0 ok, -1 out of memory (set). */
+SS_HIDDEN int tape_record(parser *ps, const tape_entry *te);
+/* Parameter `name` of scope `id`, given by `text` evaluated in eval_scope (-1 globals). */
+SS_HIDDEN int tape_scope_param(parser *ps, const logline *ll, int id, const char *name,
+                               const char *text, int eval_scope);
+/* An {expression} value just evaluated into *out at line ll in scope sc: where it went (the
+ * element being read, the model parameter being read, or a fixed setting). */
+SS_HIDDEN int tape_value(parser *ps, const logline *ll, const scope *sc, const char *text,
+                         double *out);
 
 /* ---- pctx.c: names and nodes ------------------------------------------------------------- */
 

@@ -130,6 +130,8 @@ static int add_local_param(parser *ps, const logline *ll, void *vctx, const char
     double v;
     if (eval_text(ps, lp->inner, text, &v, msg, sizeof msg) != 0)
         return line_error(ps, ll, "%s: .param %s: %s", lp->xname, name, msg), -1;
+    if (tape_scope_param(ps, ll, lp->inner->tape_id, name, text, lp->inner->tape_id) != 0)
+        return -1;
     lp->inner->pnames[lp->inner->n_params] = name;
     lp->inner->pvals[lp->inner->n_params] = v;
     lp->inner->n_params++;
@@ -255,6 +257,9 @@ static ss_status build_instance(parser *ps, const logline *ll, const scope *sc,
         double v;
         if (eval_text(ps, eval_scope, text, &v, msg, sizeof msg) != 0)
             return line_error(ps, ll, "%s: parameter %s: %s", xname, sd->pnames[i], msg);
+        if (tape_scope_param(ps, ll, inner->tape_id, sd->pnames[i], text,
+                             eval_scope ? eval_scope->tape_id : -1) != 0)
+            return ps->err->code;
         inner->pnames[inner->n_params] = sd->pnames[i];
         inner->pvals[inner->n_params] = v;
         inner->n_params++;
@@ -320,6 +325,9 @@ ss_status expand_instance(parser *ps, const logline *ll, const scope *sc)
     memset(&inner, 0, sizeof inner);
     inner.parent = NULL; /* subcircuit bodies see their own parameters, then the globals */
     inner.depth = sc->depth + 1;
+    inner.tape_id = tape_new_scope(ps);
+    if (inner.tape_id < 0)
+        return SS_ERR_NOMEM;
     char prefix[SCOPED_NAME_BYTES];
     if (scoped_name(ps, ll, xname, prefix, sc->prefix, xname, ".") != 0)
         return SS_ERR_LIMIT;

@@ -12,16 +12,16 @@ static void xml_text(ss_strbuf *b, const char *s) { xml_put_text(b, s); }
 
 static void put(ss_strbuf *b, const char *s) { strbuf_append(b, s, strlen(s)); }
 
-/* One testcase per limit of v, then (lint_ckt not NULL) one failing testcase per lint warning
- * of lint_ckt: `CHECK SUBJECT` in class stagesim.lint.SUITE, the warning as the message. */
-static ss_status write_junit(const ss_table *v, const ss_circuit *lint_ckt,
+/* One testcase per limit of v, then (lint_sv not NULL) one failing testcase per lint warning
+ * of lint_sv: `CHECK SUBJECT` in class stagesim.lint.SUITE, the warning as the message. */
+static ss_status write_junit(const ss_table *v, const ss_solver *lint_sv,
                              const char *suite_name, const char *path, ss_error *err)
 {
     int failures = 0, n_lint = 0;
     for (int i = 0; i < v->n_rows; i++)
         failures += v->data[(size_t)i * 5 + 4] == 0.0;
-    for (int i = 0; lint_ckt && ss_circuit_warning(lint_ckt, i); i++)
-        n_lint += ss_circuit_warning_lint(lint_ckt, i, NULL) != NULL;
+    for (int i = 0; lint_sv && ss_solver_warning(lint_sv, i); i++)
+        n_lint += ss_solver_warning_lint(lint_sv, i, NULL) != NULL;
     failures += n_lint;
     ss_strbuf b = {0};
     strbuf_printf(&b, "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n<testsuites tests=\"%d\" "
@@ -58,9 +58,9 @@ static ss_status write_junit(const ss_table *v, const ss_circuit *lint_ckt,
                           "</testcase>\n",
                       meas[0] ? meas : "none", lo[0] ? lo : "none", hi[0] ? hi : "none");
     }
-    for (int i = 0; lint_ckt && ss_circuit_warning(lint_ckt, i); i++) {
+    for (int i = 0; lint_sv && ss_solver_warning(lint_sv, i); i++) {
         const char *subject = NULL;
-        const char *check = ss_circuit_warning_lint(lint_ckt, i, &subject);
+        const char *check = ss_solver_warning_lint(lint_sv, i, &subject);
         if (!check)
             continue;
         put(&b, "    <testcase name=\"");
@@ -70,9 +70,9 @@ static ss_status write_junit(const ss_table *v, const ss_circuit *lint_ckt,
         put(&b, "\" classname=\"stagesim.lint.");
         xml_text(&b, suite_name);
         put(&b, "\" time=\"0\">\n      <failure message=\"");
-        xml_text(&b, ss_circuit_warning(lint_ckt, i));
+        xml_text(&b, ss_solver_warning(lint_sv, i));
         put(&b, "\" type=\"lint\">");
-        xml_text(&b, ss_circuit_warning(lint_ckt, i));
+        xml_text(&b, ss_solver_warning(lint_sv, i));
         put(&b, "</failure>\n    </testcase>\n");
     }
     strbuf_append(&b, "  </testsuite>\n</testsuites>\n", 29);
@@ -85,8 +85,8 @@ ss_status ss_check_write_junit(const ss_table *v, const char *suite_name, const 
     return write_junit(v, NULL, suite_name, path, err);
 }
 
-ss_status ss_check_write_junit_strict(const ss_table *v, const ss_circuit *lint_ckt,
+ss_status ss_check_write_junit_strict(const ss_table *v, const ss_solver *lint_sv,
                                       const char *suite_name, const char *path, ss_error *err)
 {
-    return write_junit(v, lint_ckt, suite_name, path, err);
+    return write_junit(v, lint_sv, suite_name, path, err);
 }

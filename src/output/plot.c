@@ -4,10 +4,11 @@
 #include <string.h>
 
 #include "netlist/circuit.h"
+#include "solver/solver.h"
 #include "output/svg.h"
 #include "util/table.h"
 
-ss_status ss_plot_write_bode(const ss_circuit *ckt, const ss_table *stage,
+ss_status ss_plot_write_bode(const ss_solver *sv, const ss_table *stage,
                              const ss_table *summary, const char *path, ss_error *err)
 {
     int n = ss_table_rows(stage);
@@ -21,10 +22,10 @@ ss_status ss_plot_write_bode(const ss_circuit *ckt, const ss_table *stage,
     }
     /* a long netlist title is cut so the plot title fits the page */
     char title[512];
-    const char *t = ckt->title && ckt->title[0] ? ckt->title : "stage";
+    const char *t = sv->ckt->title && sv->ckt->title[0] ? sv->ckt->title : "stage";
     int max_title = 60;
     snprintf(title, sizeof title, "%.*s%s: v(%s) / %s", max_title, t,
-             (int)strlen(t) > max_title ? "..." : "", ckt->stage_out, ckt->stage_in);
+             (int)strlen(t) > max_title ? "..." : "", sv->stage.out, sv->stage.in);
     svg_bode_input in = {title,
                          buf,
                          buf + n,

@@ -13,12 +13,12 @@ static const char *eng(char *buf, size_t len, double v, const char *unit)
     return fmt_eng(buf, len, v, unit);
 }
 
-static void report_stage(const ss_circuit *ckt, const ss_table *summary, FILE *f)
+static void report_stage(const ss_solver *sv, const ss_table *summary, FILE *f)
 {
     char a[48], b[48];
-    fprintf(f, "\nStage: input source %s, output node %s", ckt->stage_in, ckt->stage_out);
-    if (ckt->stage_load_ohm > 0.0)
-        fprintf(f, ", load %s", eng(a, sizeof a, ckt->stage_load_ohm, "ohm"));
+    fprintf(f, "\nStage: input source %s, output node %s", sv->stage.in, sv->stage.out);
+    if (sv->stage.load_ohm > 0.0)
+        fprintf(f, ", load %s", eng(a, sizeof a, sv->stage.load_ohm, "ohm"));
     fprintf(f, "\n");
     double g_db = ss_table_lookup(summary, "gain_mid_db", 0);
     double f_mid = ss_table_lookup(summary, "f_mid_hz", 0);
@@ -37,31 +37,31 @@ static void report_stage(const ss_circuit *ckt, const ss_table *summary, FILE *f
         fprintf(f, "  bandwidth       %s\n", eng(a, sizeof a, bw, "Hz"));
     fprintf(f, "  Zin  (mid-band) %s\n", eng(a, sizeof a, zin, "ohm"));
     fprintf(f, "  Zout (mid-band) %s\n", eng(b, sizeof b, zout, "ohm"));
-    if (ckt->stage_load_ohm > 0.0 && zout * 10.0 > ckt->stage_load_ohm)
+    if (sv->stage.load_ohm > 0.0 && zout * 10.0 > sv->stage.load_ohm)
         fprintf(f,
                 "  warning: Zout is not ten times below the %s load; loading costs gain "
                 "(rule of thumb: Zout <= load/10)\n",
-                eng(a, sizeof a, ckt->stage_load_ohm, "ohm"));
+                eng(a, sizeof a, sv->stage.load_ohm, "ohm"));
 }
 
 #define REPORT_MAX_NODES 100
 
-void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f)
+void ss_report_write(const ss_solver *sv, const ss_table *summary, FILE *f)
 {
-    fprintf(f, "%s\n", ckt->title && ckt->title[0] ? ckt->title : "(untitled netlist)");
-    fprintf(f, "temperature %.2f C\n", ckt->temp_c);
-    if (!ckt->have_op && !summary)
+    fprintf(f, "%s\n", sv->ckt->title && sv->ckt->title[0] ? sv->ckt->title : "(untitled netlist)");
+    fprintf(f, "temperature %.2f C\n", sv->temp_c);
+    if (!sv->have_op && !summary)
         return;
-    double vt = analysis_vt(ckt);
-    if (ckt->have_op) {
+    double vt = analysis_vt(sv);
+    if (sv->have_op) {
         fprintf(f, "\nNode voltages\n");
         /* a board of thousands of nodes would bury the rest of the report: the first
          * REPORT_MAX_NODES unless nodes were named (op.csv always has every one) */
-        int n_out = circuit_n_out_nodes(ckt);
-        int shown = ckt->out_nodes || n_out <= REPORT_MAX_NODES ? n_out : REPORT_MAX_NODES;
+        int n_out = solver_n_out_nodes(sv);
+        int shown = sv->out_nodes || n_out <= REPORT_MAX_NODES ? n_out : REPORT_MAX_NODES;
         for (int j = 0; j < shown; j++) {
-            int node = circuit_out_node(ckt, j);
-            fprintf(f, "  %-20s %12.6f V\n", ckt->node_name[node], ckt->x_op[node - 1]);
+            int node = solver_out_node(sv, j);
+            fprintf(f, "  %-20s %12.6f V\n", sv->node_name[node], sv->x_op[node - 1]);
         }
         if (shown < n_out)
             fprintf(f, "  ... and %d more (all in op.csv; --nodes names the ones to show)\n",
@@ -72,20 +72,20 @@ void ss_report_write(const ss_circuit *ckt, const ss_table *summary, FILE *f)
             if (!ops->report_line)
                 continue;
             int any = 0;
-            for (int i = 0; i < ckt->n_elem; i++) {
-                const element *el = &ckt->elem[i];
+            for (int i = 0; i < sv->n_elem; i++) {
+                const element *el = &sv->elem[i];
                 if (el->ops != ops)
                     continue;
                 if (!any++)
                     fputs(ops->report_heading, f);
                 char line[512];
-                ops->report_line(el, ckt->x_op, vt, ckt->opt.gmin, line, sizeof line);
+                ops->report_line(el, sv->x_op, vt, sv->ckt->opt.gmin, line, sizeof line);
                 fprintf(f, "%s\n", line);
             }
         }
     }
-    if (summary && ckt->stage_in)
-        report_stage(ckt, summary, f);
-    for (int i = 0; i < ckt->n_warnings; i++)
-        fprintf(f, "warning: %s\n", ckt->warnings[i]);
+    if (summary && sv->stage.in)
+        report_stage(sv, summary, f);
+    for (int i = 0; i < sv->n_warnings; i++)
+        fprintf(f, "warning: %s\n", sv->warnings[i]);
 }

@@ -7,6 +7,7 @@
 
 #include "devices/device.h"
 #include "netlist/circuit.h"
+#include "solver/solver.h"
 #include "output/output.h"
 #include "output/svg.h"
 #include "util/table.h"
@@ -263,7 +264,7 @@ static int find_col(const ss_table *t, const char *name)
     return -1;
 }
 
-ss_status ss_plot_write_wave(const ss_circuit *ckt, const ss_table *wave, const char *in_col,
+ss_status ss_plot_write_wave(const ss_solver *sv, const ss_table *wave, const char *in_col,
                              const char *out_col, const char *path, ss_error *err)
 {
     if (!path || !path[0])
@@ -274,16 +275,16 @@ ss_status ss_plot_write_wave(const ss_circuit *ckt, const ss_table *wave, const 
     char in_name[1100] = "", out_name[1100] = "";
     if (in_col) {
         snprintf(in_name, sizeof in_name, "%s", in_col);
-    } else if (ckt->stage_in) {
-        snprintf(in_name, sizeof in_name, "in(%s)", ckt->stage_in);
-        int e = circuit_find_elem(ckt, ckt->stage_in);
-        if (find_col(wave, in_name) < 0 && e >= 0 && ckt->elem[e].node[0] > 0)
-            snprintf(in_name, sizeof in_name, "v(%s)", ckt->node_name[ckt->elem[e].node[0]]);
+    } else if (sv->stage.in) {
+        snprintf(in_name, sizeof in_name, "in(%s)", sv->stage.in);
+        int e = circuit_find_elem(sv->ckt, sv->stage.in);
+        if (find_col(wave, in_name) < 0 && e >= 0 && sv->elem[e].node[0] > 0)
+            snprintf(in_name, sizeof in_name, "v(%s)", sv->node_name[sv->elem[e].node[0]]);
     }
     if (out_col)
         snprintf(out_name, sizeof out_name, "%s", out_col);
-    else if (ckt->stage_out)
-        snprintf(out_name, sizeof out_name, "v(%s)", ckt->stage_out);
+    else if (sv->stage.out)
+        snprintf(out_name, sizeof out_name, "v(%s)", sv->stage.out);
     int ci = find_col(wave, in_name), co = find_col(wave, out_name);
     if (ci < 0 || co < 0)
         return err_set(err, SS_ERR_INPUT, path, 0,
@@ -301,11 +302,11 @@ ss_status ss_plot_write_wave(const ss_circuit *ckt, const ss_table *wave, const 
         buf[2 * n + r] = row[co];
     }
     char title[512], in_label[1200], out_label[1200];
-    const char *t = ckt->title && ckt->title[0] ? ckt->title : "stage";
+    const char *t = sv->ckt->title && sv->ckt->title[0] ? sv->ckt->title : "stage";
     snprintf(title, sizeof title, "%.60s%s", t, strlen(t) > 60 ? "..." : "");
-    int src = ckt->stage_in ? circuit_find_elem(ckt, ckt->stage_in) : -1;
+    int src = sv->stage.in ? circuit_find_elem(sv->ckt, sv->stage.in) : -1;
     /* an in(SOURCE) column of a current source is in amperes */
-    int is_current = in_name[0] == 'i' && src >= 0 && elem_is(&ckt->elem[src], DEV_DRIVES_CURRENT);
+    int is_current = in_name[0] == 'i' && src >= 0 && elem_is(&sv->elem[src], DEV_DRIVES_CURRENT);
     snprintf(in_label, sizeof in_label, "%.80s (%s)", in_name, is_current ? "A" : "V");
     snprintf(out_label, sizeof out_label, "%.80s (V)", out_name);
     wave_input w = {title,    "input above, output below", buf, buf + n, buf + 2 * n, n, in_label,

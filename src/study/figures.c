@@ -64,10 +64,10 @@ static int limits_want_large_signal(const ss_limits *limits)
 }
 
 /* The large-signal names of the circuit's stage (by its source's kind). */
-static const char *const *large_signal_names(const ss_circuit *ckt, size_t *n)
+static const char *const *large_signal_names(const ss_solver *sv, size_t *n)
 {
-    int e = ckt->stage_in ? circuit_find_elem(ckt, ckt->stage_in) : -1;
-    int current = e >= 0 && elem_is(&ckt->elem[e], DEV_DRIVES_CURRENT);
+    int e = sv->stage.in ? circuit_find_elem(sv->ckt, sv->stage.in) : -1;
+    int current = e >= 0 && elem_is(&sv->elem[e], DEV_DRIVES_CURRENT);
     *n = current ? N_OF(LS_FIGURES_I) : N_OF(LS_FIGURES_V);
     return current ? LS_FIGURES_I : LS_FIGURES_V;
 }
@@ -88,22 +88,22 @@ static ss_status freq_needs_stage(const limit *lim, ss_error *err)
                    "limit on %s needs a stage: add `.stage in=SOURCE out=NODE`", lim->quantity);
 }
 
-void figures_names(const ss_circuit *ckt, const ss_limits *limits, dev_report_fn fn, void *sink)
+void figures_names(const ss_solver *sv, const ss_limits *limits, dev_report_fn fn, void *sink)
 {
-    op_rows(ckt, NULL, fn, sink);
-    if (ckt->want_ac && ckt->stage_in)
+    op_rows(sv, NULL, fn, sink);
+    if (sv->ckt->ac.want && sv->stage.in)
         for (size_t k = 0; k < N_OF(STAGE_FIGURES); k++)
             fn(sink, STAGE_FIGURES[k], NULL, SS_NAN);
-    if (ckt->want_noise && ckt->want_ac)
+    if (sv->noise.want && sv->ckt->ac.want)
         for (size_t k = 0; k < N_OF(NOISE_FIGURES); k++)
             fn(sink, NOISE_FIGURES[k], NULL, SS_NAN);
-    if (limits_want_large_signal(limits) && ckt->stage_in) {
+    if (limits_want_large_signal(limits) && sv->stage.in) {
         size_t n;
-        const char *const *names = large_signal_names(ckt, &n);
+        const char *const *names = large_signal_names(sv, &n);
         for (size_t k = 0; k < n; k++)
             fn(sink, names[k], NULL, SS_NAN);
     }
-    for (int i = 0; limits && ckt->stage_in && i < limits->n; i++)
+    for (int i = 0; limits && sv->stage.in && i < limits->n; i++)
         if (limits->items[i].at_freq && !freq_figure_seen(limits, i))
             fn(sink, limits->items[i].quantity, NULL, SS_NAN);
 }
@@ -134,10 +134,10 @@ static void mark_found(void *vs, const char *quantity, const char *elem_name, do
 }
 
 /* Why a name is no figure of this circuit, when it is one of another. */
-static const char *missing_because(const ss_circuit *ckt, const char *q)
+static const char *missing_because(const ss_solver *sv, const char *q)
 {
     if (in_list(q, STAGE_FIGURES, N_OF(STAGE_FIGURES)))
-        return !ckt->want_ac   ? (ckt->stage_in ? "a stage summary metric needs an .ac sweep"
+        return !sv->ckt->ac.want   ? (sv->stage.in ? "a stage summary metric needs an .ac sweep"
                                                   : "a stage summary metric needs an .ac sweep "
                                                     "and a stage (.stage or --in/--out)")
                                : "a stage summary metric needs a stage (.stage or --in/--out)";
@@ -145,7 +145,7 @@ static const char *missing_because(const ss_circuit *ckt, const char *q)
         return "a noise figure needs .noise and an .ac sweep";
     if (in_list(q, LS_FIGURES_V, N_OF(LS_FIGURES_V)) ||
         in_list(q, LS_FIGURES_I, N_OF(LS_FIGURES_I)))
-        return !ckt->stage_in ? "a large-signal figure needs a stage (.stage or --in/--out)"
+        return !sv->stage.in ? "a large-signal figure needs a stage (.stage or --in/--out)"
                               : "the stage source's kind names its input figures: vin_..._v "
                                 "and thd_amp_v for a V source, iin_..._a and thd_amp_a for an "
                                 "I source";
@@ -154,34 +154,34 @@ static const char *missing_because(const ss_circuit *ckt, const char *q)
            "docs/checks.md lists them";
 }
 
-ss_status ss_limits_check_names(const ss_limits *limits, const ss_circuit *ckt, ss_error *err)
+ss_status ss_limits_check_names(const ss_limits *limits, const ss_solver *sv, ss_error *err)
 {
     if (!limits || limits->n == 0)
         return SS_OK;
     for (int i = 0; i < limits->n; i++)
-        if (limits->items[i].at_freq && !ckt->stage_in)
+        if (limits->items[i].at_freq && !sv->stage.in)
             return freq_needs_stage(&limits->items[i], err);
     name_check nc = {limits, ss_alloc((size_t)limits->n), limits->n};
     if (!nc.found)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    figures_names(ckt, limits, mark_found, &nc);
+    figures_names(sv, limits, mark_found, &nc);
     ss_status st = SS_OK;
     for (int i = 0; i < limits->n && st == SS_OK; i++) {
         const limit *lim = &limits->items[i];
         if (!nc.found[i])
             st = err_set(err, SS_ERR_INPUT, lim->file, lim->line,
                          "limit on '%s': no such figure (%s)", lim->quantity,
-                         missing_because(ckt, lim->quantity));
+                         missing_because(sv, lim->quantity));
     }
     ss_free(nc.found);
     return st;
 }
 
-ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table **out_figures,
+ss_status ss_figures_compute(ss_solver *sv, const ss_limits *limits, ss_table **out_figures,
                              ss_error *err)
 {
     ss_table *op = NULL, *stage = NULL, *summary = NULL;
-    ss_status st = ss_op_solve(ckt, &op, NULL, err);
+    ss_status st = ss_op_solve(sv, &op, NULL, err);
     if (st != SS_OK)
         return st;
     ss_table *t = table_create(1, "metric");
@@ -189,8 +189,8 @@ ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table 
     for (int i = 0; !bad && i < op->n_rows; i++)
         bad |= add_row(t, op->row_labels[i], op->data[i]) != 0;
     ss_table_destroy(&op);
-    if (!bad && ckt->want_ac && ckt->stage_in) {
-        st = ss_stage_run(ckt, &stage, &summary, err);
+    if (!bad && sv->ckt->ac.want && sv->stage.in) {
+        st = ss_stage_run(sv, &stage, &summary, err);
         if (st != SS_OK) {
             ss_table_destroy(&t);
             return st;
@@ -200,9 +200,9 @@ ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table 
         ss_table_destroy(&stage);
         ss_table_destroy(&summary);
     }
-    if (!bad && ckt->want_noise && ckt->want_ac) {
+    if (!bad && sv->noise.want && sv->ckt->ac.want) {
         ss_table *nsum = NULL;
-        st = ss_noise_run(ckt, NULL, &nsum, NULL, err);
+        st = ss_noise_run(sv, NULL, &nsum, NULL, err);
         if (st != SS_OK) {
             ss_table_destroy(&t);
             return st;
@@ -212,9 +212,9 @@ ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table 
         ss_table_destroy(&nsum);
     }
     int want_ls = limits_want_large_signal(limits);
-    if (!bad && want_ls && ckt->stage_in) {
+    if (!bad && want_ls && sv->stage.in) {
         ss_table *ls = NULL;
-        st = ss_stage_large_signal(ckt, &ls, err);
+        st = ss_stage_large_signal(sv, &ls, err);
         if (st != SS_OK) {
             ss_table_destroy(&t);
             return st;
@@ -229,13 +229,13 @@ ss_status ss_figures_compute(ss_circuit *ckt, const ss_limits *limits, ss_table 
             continue;
         if (freq_figure_seen(limits, i))
             continue;
-        if (!ckt->stage_in) {
+        if (!sv->stage.in) {
             ss_table_destroy(&t);
             return freq_needs_stage(lim, err);
         }
         double complex g;
         double zin, zout;
-        st = stage_at_frequency(ckt, lim->freq_hz, &g, &zin, &zout, err);
+        st = stage_at_frequency(sv, lim->freq_hz, &g, &zin, &zout, err);
         if (st != SS_OK) {
             ss_table_destroy(&t);
             return st;

@@ -29,7 +29,7 @@ SS_HIDDEN double figures_value(const ss_table *figs, int row_hint, const char *l
 /* The labels of ss_figures_compute's table for ckt and limits, in its order, without solving:
  * fn(sink, quantity, name, NaN) per figure, name the element or node of an op.csv row
  * ("ic", "q1": ic(q1)) and NULL for the others. */
-SS_HIDDEN void figures_names(const ss_circuit *ckt, const ss_limits *limits, dev_report_fn fn,
+SS_HIDDEN void figures_names(const ss_solver *sv, const ss_limits *limits, dev_report_fn fn,
                              void *sink);
 /* Parses one limit line (no comment); 0 ok, else the error set with file:line. */
 SS_HIDDEN ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, int line,

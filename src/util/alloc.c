@@ -253,7 +253,7 @@ static void once_memory_functions(void)
 }
 #endif
 
-void ss_use_memory_functions_for_klu(void)
+void ss_klu_use_library_memory(void)
 {
 #if BIG_DIRECT
     static pthread_once_t once = PTHREAD_ONCE_INIT;

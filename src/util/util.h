@@ -18,9 +18,6 @@ SS_HIDDEN void *ss_alloc(size_t size);             /* zeroed; NULL on failure */
 SS_HIDDEN void *ss_realloc(void *p, size_t size);  /* NULL on failure, p untouched */
 SS_HIDDEN void ss_free(void *p);
 SS_HIDDEN char *ss_strdup(const char *s);
-/* Hands SuiteSparse (KLU) the same large-block allocation (huge pages), once per process and
- * only if the process has not set its own memory functions. */
-SS_HIDDEN void ss_use_memory_functions_for_klu(void);
 /* Test hooks: make the allocation with 0-based ordinal n fail (-1 disables); count calls. */
 SS_API void ss_alloc_fail_at(long n);
 SS_API long ss_alloc_count(void);
