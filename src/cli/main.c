@@ -271,7 +271,11 @@ static int help_asked(int argc, char **argv)
     return 0;
 }
 
-static int parse_args(int argc, char **argv, cli_args *a)
+/* What an option family's parser returns for an option that is not one of its own. */
+enum { OPT_OTHER = -1 };
+
+/* The defaults, and room for every repeatable value (argc of each is enough). */
+static int parse_args_init(int argc, char **argv, cli_args *a)
 {
     a->cmd = argv[1];
     a->out_dir = ".";
@@ -286,155 +290,217 @@ static int parse_args(int argc, char **argv, cli_args *a)
     a->nodes = calloc((size_t)argc, sizeof *a->nodes);
     if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes)
         return EXIT_BAD_INPUT;
+    return EXIT_OK;
+}
+
+/* The word o of the command line (next: the word after it, NULL at the end) before any value
+ * is read: an option must be known, be the command's, come once unless it adds up, and have
+ * its value. *opt_out gets the option's first line, NULL when o is not an option. */
+static int check_option(const char *o, const char *next, const cli_command *cmd,
+                        unsigned char *seen, const cli_option **opt_out)
+{
+    unsigned cmds = 0;
+    const cli_option *opt = o[0] == '-' && o[1] != '\0' ? find_option(o, &cmds) : NULL;
+    if (!opt && o[0] == '-' && o[1] != '\0')
+        return usage_error("unknown option '%s'", o);
+    if (opt && !(cmds & cmd->bit)) {
+        char list[128];
+        command_list(cmds, list, sizeof list);
+        return usage_errorf("%s belongs to %s, not %s", o, list, cmd->name);
+    }
+    /* a value given twice would drop the first; only these options add up */
+    if (opt && opt->arg && strcmp(opt->name, "--set") != 0 && strcmp(opt->name, "--vary") != 0 &&
+        strcmp(opt->name, "--tol") != 0 && strcmp(opt->name, "--nodes") != 0 &&
+        strcmp(opt->name, "--limits") != 0) {
+        if (seen[opt - OPTIONS])
+            return usage_errorf("%s given twice", o);
+        seen[opt - OPTIONS] = 1;
+    }
+    if (opt && opt->arg && !next) {
+        if (strcmp(o, "--set") == 0)
+            return usage_error("--set needs NAME=VALUE, got '%s'", "");
+        if (strcmp(o, "-o") == 0 || strcmp(o, "--out-dir") == 0)
+            return usage_error("%s needs a folder", o);
+        if (strcmp(o, "--in") == 0)
+            return usage_error("%s needs a source name", o);
+        if (strcmp(o, "--out") == 0)
+            return usage_error("%s needs a node name", o);
+        return usage_error("%s needs a value", o);
+    }
+    *opt_out = opt;
+    return EXIT_OK;
+}
+
+/* A word that is not an option: merge's shard files, else the netlist, then check's limits. */
+static int take_positional(const char *o, const cli_command *cmd, cli_args *a)
+{
+    int is_merge = cmd->bit == C_MERGE;
+    if (is_merge)
+        a->shards[a->n_shards++] = o;
+    else if (!a->netlist)
+        a->netlist = o;
+    else if (cmd->bit == C_CHECK && !a->limits_path)
+        a->limits_path = o;
+    else if (cmd->bit == C_CHECK)
+        return usage_error("check takes one limits file, got a second ('%s')", o);
+    else
+        return usage_error("more than one netlist given ('%s')", o);
+    return EXIT_OK;
+}
+
+/* The options several commands share: -o, --set, --in, --out, --junit, --limits, --strict,
+ * --quiet. n is the option's name, next its value. */
+static int parse_shared_option(const char *n, const char *next, cli_args *a)
+{
+    if (strcmp(n, "-o") == 0) {
+        a->out_dir = next;
+        a->out_dir_given = 1;
+    } else if (strcmp(n, "--set") == 0) {
+        char *eq = strchr(next, '=');
+        if (!eq || eq == next || !eq[1])
+            return usage_error("--set needs NAME=VALUE, got '%s'", next);
+        *eq = '\0';
+        a->sets[a->n_sets].name = next;
+        a->sets[a->n_sets].value = eq + 1;
+        a->n_sets++;
+    } else if (strcmp(n, "--in") == 0) {
+        a->in_src = next;
+    } else if (strcmp(n, "--out") == 0) {
+        a->out_node = next;
+    } else if (strcmp(n, "--junit") == 0) {
+        a->junit = next;
+    } else if (strcmp(n, "--limits") == 0) {
+        if (a->limits_path)
+            return usage_error("--limits: one limits file only, got a second ('%s')", next);
+        a->limits_path = next;
+    } else if (strcmp(n, "--strict") == 0) {
+        a->strict = 1;
+    } else if (strcmp(n, "--quiet") == 0) {
+        a->quiet = 1;
+    } else {
+        return OPT_OTHER;
+    }
+    return EXIT_OK;
+}
+
+/* run's options: --load, --ls-freq, --thd-amp, --thd-target, --nodes, --plot (o as given). */
+static int parse_run_option(const char *n, const char *o, const char *next, cli_args *a)
+{
+    int rc = EXIT_OK;
+    if (strcmp(n, "--load") == 0) {
+        rc = parse_real(o, next, 0.0, 1, HUGE_VAL, 1, "a resistance in ohms above 0", &a->load_ohm);
+    } else if (strcmp(n, "--ls-freq") == 0) {
+        rc = parse_real(o, next, 0.0, 1, HUGE_VAL, 1, "a frequency in Hz above 0", &a->ls_freq);
+    } else if (strcmp(n, "--thd-amp") == 0) {
+        rc = parse_real(o, next, 0.0, 1, HUGE_VAL, 1, "an amplitude above 0 (V or A)", &a->thd_amp);
+    } else if (strcmp(n, "--thd-target") == 0) {
+        rc = parse_real(o, next, 0.0, 1, 100.0, 1, "a THD in percent, 0 < PCT < 100",
+                        &a->thd_target);
+    } else if (strcmp(n, "--nodes") == 0) {
+        a->nodes[a->n_nodes++] = next;
+    } else if (strcmp(n, "--plot") == 0) {
+        a->plot = 1;
+    } else {
+        return OPT_OTHER;
+    }
+    return rc;
+}
+
+/* The study commands' options: --vary, --tol, --trials, --seed, --threads, --shard,
+ * --min-yield, --series, --temps (o as given). */
+static int parse_study_option(const char *n, const char *o, const char *next, cli_args *a)
+{
+    int rc = EXIT_OK;
+    if (strcmp(n, "--vary") == 0) {
+        a->varies[a->n_varies++] = next;
+    } else if (strcmp(n, "--tol") == 0) {
+        a->tols[a->n_tols++] = next;
+    } else if (strcmp(n, "--trials") == 0) {
+        unsigned long long v;
+        if (parse_count(next, 100000000ull, &v) != 0 || v < 1)
+            return usage_error("--trials needs a whole number from 1 to 100000000, got '%s'", next);
+        a->trials = (long)v;
+    } else if (strcmp(n, "--seed") == 0) {
+        if (parse_count(next, ULLONG_MAX, &a->seed) != 0)
+            return usage_error("--seed needs a whole number from 0 to "
+                               "18446744073709551615, got '%s'",
+                               next);
+    } else if (strcmp(n, "--threads") == 0) {
+        unsigned long long v;
+        if (parse_count(next, 256, &v) != 0 || v < 1)
+            return usage_error("--threads needs a whole number from 1 to 256, got '%s'", next);
+        a->threads = (int)v;
+    } else if (strcmp(n, "--shard") == 0) {
+        char buf[64];
+        unsigned long long k, m;
+        char *slash = strlen(next) < sizeof buf ? strchr(strcpy(buf, next), '/') : NULL;
+        if (slash)
+            *slash = '\0';
+        if (!slash || parse_count(buf, 100000000ull, &k) != 0 ||
+            parse_count(slash + 1, 100000000ull, &m) != 0 || k < 1 || k > m)
+            return usage_error("--shard needs K/N, whole numbers with 1 <= K <= N <= "
+                               "100000000, got '%s'",
+                               next);
+        a->shard_k = (int)k;
+        a->shard_n = (int)m;
+    } else if (strcmp(n, "--min-yield") == 0) {
+        rc = parse_real(o, next, 0.0, 0, 1.0, 0, "a fraction from 0 to 1", &a->min_yield);
+    } else if (strcmp(n, "--series") == 0) {
+        const char *v = (next[0] == 'E' || next[0] == 'e') ? next + 1 : next;
+        a->series = strcmp(v, "12") == 0 ? 12 : strcmp(v, "24") == 0 ? 24
+                    : strcmp(v, "96") == 0                          ? 96
+                                                                    : 0;
+        if (!a->series)
+            return usage_error("--series needs E12, E24 or E96, got '%s'", next);
+    } else if (strcmp(n, "--temps") == 0) {
+        static const char needs[] = "LO,HI in degrees C with -273.15 < LO < HI <= 1000";
+        char buf[256];
+        char *comma = strlen(next) < sizeof buf ? strchr(strcpy(buf, next), ',') : NULL;
+        ss_error err = {0};
+        if (!comma)
+            return usage_errorf("--temps needs %s, got '%s'", needs, next);
+        *comma = '\0';
+        if (ss_value_parse(buf, &a->temp_lo, &err) != SS_OK ||
+            ss_value_parse(comma + 1, &a->temp_hi, &err) != SS_OK)
+            return usage_errorf("--temps needs %s: %s", needs, err.message);
+        if (!(a->temp_lo > -273.15 && a->temp_lo < a->temp_hi && a->temp_hi <= 1000.0))
+            return usage_errorf("--temps needs %s, got '%s'", needs, next);
+    } else {
+        return OPT_OTHER;
+    }
+    return rc;
+}
+
+/* Reads option opt's value next (or sets its flag); o is the option as given. */
+static int parse_option(const cli_option *opt, const char *o, const char *next, cli_args *a)
+{
+    const char *n = opt->name;
+    int rc = parse_shared_option(n, next, a);
+    if (rc == OPT_OTHER)
+        rc = parse_run_option(n, o, next, a);
+    if (rc == OPT_OTHER)
+        rc = parse_study_option(n, o, next, a);
+    return rc == OPT_OTHER ? EXIT_OK : rc; /* --help: main answered it before parsing */
+}
+
+static int parse_args(int argc, char **argv, cli_args *a)
+{
+    int rc = parse_args_init(argc, argv, a);
+    if (rc != EXIT_OK)
+        return rc;
     const cli_command *cmd = find_command(a->cmd);
     int is_merge = cmd->bit == C_MERGE;
     unsigned char seen[N_OPTIONS] = {0};
     for (int i = 2; i < argc; i++) {
         const char *o = argv[i];
         const char *next = i + 1 < argc ? argv[i + 1] : NULL;
-        unsigned cmds = 0;
-        const cli_option *opt = o[0] == '-' && o[1] != '\0' ? find_option(o, &cmds) : NULL;
-        if (!opt && o[0] == '-' && o[1] != '\0')
-            return usage_error("unknown option '%s'", o);
-        if (opt && !(cmds & cmd->bit)) {
-            char list[128];
-            command_list(cmds, list, sizeof list);
-            return usage_errorf("%s belongs to %s, not %s", o, list, cmd->name);
-        }
-        /* a value given twice would drop the first; only these options add up */
-        if (opt && opt->arg && strcmp(opt->name, "--set") != 0 &&
-            strcmp(opt->name, "--vary") != 0 && strcmp(opt->name, "--tol") != 0 &&
-            strcmp(opt->name, "--nodes") != 0 && strcmp(opt->name, "--limits") != 0) {
-            if (seen[opt - OPTIONS])
-                return usage_errorf("%s given twice", o);
-            seen[opt - OPTIONS] = 1;
-        }
-        int rc = EXIT_OK;
-        if (opt && opt->arg && !next) {
-            if (strcmp(o, "--set") == 0)
-                return usage_error("--set needs NAME=VALUE, got '%s'", "");
-            if (strcmp(o, "-o") == 0 || strcmp(o, "--out-dir") == 0)
-                return usage_error("%s needs a folder", o);
-            if (strcmp(o, "--in") == 0)
-                return usage_error("%s needs a source name", o);
-            if (strcmp(o, "--out") == 0)
-                return usage_error("%s needs a node name", o);
-            return usage_error("%s needs a value", o);
-        }
-        if (!opt) {
-            if (is_merge)
-                a->shards[a->n_shards++] = o;
-            else if (!a->netlist)
-                a->netlist = o;
-            else if (cmd->bit == C_CHECK && !a->limits_path)
-                a->limits_path = o;
-            else if (cmd->bit == C_CHECK)
-                return usage_error("check takes one limits file, got a second ('%s')", o);
-            else
-                return usage_error("more than one netlist given ('%s')", o);
-            continue;
-        }
-        const char *n = opt->name;
-        if (strcmp(n, "-o") == 0) {
-            a->out_dir = next;
-            a->out_dir_given = 1;
-        } else if (strcmp(n, "--set") == 0) {
-            char *eq = strchr(next, '=');
-            if (!eq || eq == next || !eq[1])
-                return usage_error("--set needs NAME=VALUE, got '%s'", next);
-            *eq = '\0';
-            a->sets[a->n_sets].name = next;
-            a->sets[a->n_sets].value = eq + 1;
-            a->n_sets++;
-        } else if (strcmp(n, "--in") == 0) {
-            a->in_src = next;
-        } else if (strcmp(n, "--out") == 0) {
-            a->out_node = next;
-        } else if (strcmp(n, "--load") == 0) {
-            rc = parse_real(o, next, 0.0, 1, HUGE_VAL, 1, "a resistance in ohms above 0",
-                            &a->load_ohm);
-        } else if (strcmp(n, "--junit") == 0) {
-            a->junit = next;
-        } else if (strcmp(n, "--limits") == 0) {
-            if (a->limits_path)
-                return usage_error("--limits: one limits file only, got a second ('%s')", next);
-            a->limits_path = next;
-        } else if (strcmp(n, "--vary") == 0) {
-            a->varies[a->n_varies++] = next;
-        } else if (strcmp(n, "--tol") == 0) {
-            a->tols[a->n_tols++] = next;
-        } else if (strcmp(n, "--trials") == 0) {
-            unsigned long long v;
-            if (parse_count(next, 100000000ull, &v) != 0 || v < 1)
-                return usage_error("--trials needs a whole number from 1 to 100000000, got '%s'",
-                                   next);
-            a->trials = (long)v;
-        } else if (strcmp(n, "--seed") == 0) {
-            if (parse_count(next, ULLONG_MAX, &a->seed) != 0)
-                return usage_error("--seed needs a whole number from 0 to "
-                                   "18446744073709551615, got '%s'",
-                                   next);
-        } else if (strcmp(n, "--threads") == 0) {
-            unsigned long long v;
-            if (parse_count(next, 256, &v) != 0 || v < 1)
-                return usage_error("--threads needs a whole number from 1 to 256, got '%s'", next);
-            a->threads = (int)v;
-        } else if (strcmp(n, "--shard") == 0) {
-            char buf[64];
-            unsigned long long k, m;
-            char *slash = strlen(next) < sizeof buf ? strchr(strcpy(buf, next), '/') : NULL;
-            if (slash)
-                *slash = '\0';
-            if (!slash || parse_count(buf, 100000000ull, &k) != 0 ||
-                parse_count(slash + 1, 100000000ull, &m) != 0 || k < 1 || k > m)
-                return usage_error("--shard needs K/N, whole numbers with 1 <= K <= N <= "
-                                   "100000000, got '%s'",
-                                   next);
-            a->shard_k = (int)k;
-            a->shard_n = (int)m;
-        } else if (strcmp(n, "--min-yield") == 0) {
-            rc = parse_real(o, next, 0.0, 0, 1.0, 0, "a fraction from 0 to 1", &a->min_yield);
-        } else if (strcmp(n, "--series") == 0) {
-            const char *v = (next[0] == 'E' || next[0] == 'e') ? next + 1 : next;
-            a->series = strcmp(v, "12") == 0 ? 12 : strcmp(v, "24") == 0 ? 24
-                        : strcmp(v, "96") == 0                          ? 96
-                                                                        : 0;
-            if (!a->series)
-                return usage_error("--series needs E12, E24 or E96, got '%s'", next);
-        } else if (strcmp(n, "--temps") == 0) {
-            static const char needs[] = "LO,HI in degrees C with -273.15 < LO < HI <= 1000";
-            char buf[256];
-            char *comma = strlen(next) < sizeof buf ? strchr(strcpy(buf, next), ',') : NULL;
-            ss_error err = {0};
-            if (!comma)
-                return usage_errorf("--temps needs %s, got '%s'", needs, next);
-            *comma = '\0';
-            if (ss_value_parse(buf, &a->temp_lo, &err) != SS_OK ||
-                ss_value_parse(comma + 1, &a->temp_hi, &err) != SS_OK)
-                return usage_errorf("--temps needs %s: %s", needs, err.message);
-            if (!(a->temp_lo > -273.15 && a->temp_lo < a->temp_hi && a->temp_hi <= 1000.0))
-                return usage_errorf("--temps needs %s, got '%s'", needs, next);
-        } else if (strcmp(n, "--ls-freq") == 0) {
-            rc = parse_real(o, next, 0.0, 1, HUGE_VAL, 1, "a frequency in Hz above 0",
-                            &a->ls_freq);
-        } else if (strcmp(n, "--thd-amp") == 0) {
-            rc = parse_real(o, next, 0.0, 1, HUGE_VAL, 1, "an amplitude above 0 (V or A)",
-                            &a->thd_amp);
-        } else if (strcmp(n, "--thd-target") == 0) {
-            rc = parse_real(o, next, 0.0, 1, 100.0, 1, "a THD in percent, 0 < PCT < 100",
-                            &a->thd_target);
-        } else if (strcmp(n, "--nodes") == 0) {
-            a->nodes[a->n_nodes++] = next;
-        } else if (strcmp(n, "--plot") == 0) {
-            a->plot = 1;
-        } else if (strcmp(n, "--strict") == 0) {
-            a->strict = 1;
-        } else if (strcmp(n, "--quiet") == 0) {
-            a->quiet = 1;
-        }
+        const cli_option *opt = NULL;
+        rc = check_option(o, next, cmd, seen, &opt);
+        if (rc == EXIT_OK)
+            rc = opt ? parse_option(opt, o, next, a) : take_positional(o, cmd, a);
         if (rc != EXIT_OK)
             return rc;
-        if (opt->arg)
+        if (opt && opt->arg)
             i++;
     }
     if (!is_merge && !a->netlist)
