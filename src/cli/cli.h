@@ -1,0 +1,73 @@
+/* What the stagesim command's files share: the parsed arguments, the exit codes and the helpers
+ * more than one command uses. Private to src/cli; like the rest of it, it needs only the public
+ * header. */
+#ifndef SS_CLI_H
+#define SS_CLI_H
+
+#include "stagesim/stagesim.h"
+
+enum { EXIT_OK = 0, EXIT_CHECK_FAILED = 1, EXIT_BAD_INPUT = 2, EXIT_NO_CONVERGENCE = 3 };
+
+typedef struct cli_args {
+    const char *cmd;
+    const char *netlist;
+    const char *limits_path; /* check: second positional; others: --limits */
+    const char *out_dir;
+    int out_dir_given; /* -o was given (check writes its CSVs only then, `-o .` included) */
+    ss_override *sets;
+    int n_sets;
+    const char *in_src, *out_node;
+    double load_ohm;
+    int plot, quiet;
+    int strict; /* check --strict: a lint warning fails the check */
+    const char *junit;
+    const char **varies, **tols, **shards;
+    int n_varies, n_tols, n_shards;
+    long trials;
+    unsigned long long seed;
+    int threads;
+    int shard_k, shard_n;
+    double min_yield;
+    int series;
+    double temp_lo, temp_hi;
+    double ls_freq, thd_amp, thd_target;
+    const char **nodes; /* --nodes lists, each comma-separated */
+    int n_nodes;
+    char *cmdline; /* the arguments after the program name, for the run's manifest */
+} cli_args;
+
+/* ---- main.c: usage errors -------------------------------------------------------------------- */
+
+/* "stagesim: " and the message on stderr, then the --help text; return EXIT_BAD_INPUT. */
+int usage_error(const char *fmt, const char *arg);
+int usage_errorf(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
+
+/* ---- common.c: option values, errors, output sets, the circuit ------------------------------- */
+
+/* Prints the library's error (FILE:LINE: message) and returns its exit code (3 for no
+ * convergence, else 2). */
+int fail(const ss_error *err);
+/* parse_count, parse_real: option values (comments at the definitions) */
+int parse_count(const char *s, unsigned long long max, unsigned long long *out);
+int parse_real(const char *opt, const char *text, double lo, int lo_open, double hi, int hi_open,
+               const char *needs, double *out);
+/* 0 when the table is written to path as CSV, -1 with *err filled */
+int write_table(const ss_table *t, const char *path, ss_error *err);
+int out_open(const cli_args *a, ss_outset **set);
+int out_reserve(ss_outset *set, const char *dir, const char *const *names, int n,
+                const char **staged);
+int out_commit(ss_outset *set, int rc);
+/* " %13.6g", or "-" right-aligned for NaN: a table cell of the report */
+void print_bound(double v);
+int load_circuit(const cli_args *a, ss_circuit **out);
+
+/* ---- the commands: each returns the program's exit code -------------------------------------- */
+
+int cmd_run(const cli_args *a);               /* run.c */
+int cmd_check(const cli_args *a);             /* check.c */
+int cmd_study(const cli_args *a, int spread); /* study.c: sweep (0) or spread (1) */
+int cmd_sensitivity(const cli_args *a);       /* study.c */
+int cmd_snap(const cli_args *a);              /* study.c */
+int cmd_merge(const cli_args *a);             /* study.c */
+
+#endif

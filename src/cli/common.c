@@ -1,0 +1,266 @@
+/* The stagesim command's shared helpers: option values, errors, the output folder and its
+ * output set, and the circuit with the command line's stage options. The commands are elsewhere. */
+#define _POSIX_C_SOURCE 200809L
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include "cli.h"
+
+static int exit_code_for(ss_status st)
+{
+    switch (st) {
+    case SS_OK: return EXIT_OK;
+    case SS_ERR_NO_CONVERGENCE: return EXIT_NO_CONVERGENCE;
+    default: return EXIT_BAD_INPUT;
+    }
+}
+
+int fail(const ss_error *err)
+{
+    char msg[1400];
+    ss_error_format(err, msg, sizeof msg);
+    fprintf(stderr, "%s\n", msg);
+    return exit_code_for(err->code);
+}
+
+/* ---- option values ------------------------------------------------------------------------ */
+
+/* A whole number written in decimal digits only (no sign, no suffix), at most max. */
+int parse_count(const char *s, unsigned long long max, unsigned long long *out)
+{
+    if (!*s)
+        return -1;
+    for (const char *c = s; *c; c++)
+        if (*c < '0' || *c > '9')
+            return -1;
+    errno = 0;
+    char *end;
+    unsigned long long v = strtoull(s, &end, 10);
+    if (errno || *end || v > max)
+        return -1;
+    *out = v;
+    return 0;
+}
+
+/* A real option value (ss_value_parse: SI suffixes, nothing after) within lo .. hi, each end
+ * open or closed; on failure the message names the option, what it needs and the text. */
+int parse_real(const char *opt, const char *text, double lo, int lo_open, double hi,
+               int hi_open, const char *needs, double *out)
+{
+    ss_error err = {0};
+    double v;
+    if (ss_value_parse(text, &v, &err) != SS_OK)
+        return usage_errorf("%s needs %s: %s", opt, needs, err.message);
+    if (v < lo || (lo_open && v == lo) || v > hi || (hi_open && v == hi))
+        return usage_errorf("%s needs %s, got '%s'", opt, needs, text);
+    *out = v;
+    return EXIT_OK;
+}
+
+/* ---- the output folder -------------------------------------------------------------------- */
+
+/* mkdir -p: creates DIR and any missing parents. */
+static int make_dirs(const char *dir)
+{
+    char path[4096];
+    snprintf(path, sizeof path, "%s", dir);
+    for (char *p = path + 1; *p; p++) {
+        if (*p != '/')
+            continue;
+        *p = '\0';
+        if (mkdir(path, 0777) != 0 && errno != EEXIST)
+            return -1;
+        *p = '/';
+    }
+    return mkdir(path, 0777) != 0 && errno != EEXIST ? -1 : 0;
+}
+
+/* Makes sure DIR exists and is writable before any computation. */
+static int prepare_out_dir(const char *dir)
+{
+    struct stat sb;
+    if (stat(dir, &sb) != 0) {
+        if (errno != ENOENT || make_dirs(dir) != 0) {
+            fprintf(stderr, "stagesim: output folder '%s': %s\n", dir, strerror(errno));
+            return -1;
+        }
+    } else if (!S_ISDIR(sb.st_mode)) {
+        fprintf(stderr, "stagesim: output folder '%s' is not a folder\n", dir);
+        return -1;
+    }
+    if (access(dir, W_OK | X_OK) != 0) {
+        fprintf(stderr, "stagesim: output folder '%s' is not writable: %s\n", dir,
+                strerror(errno));
+        return -1;
+    }
+    return 0;
+}
+
+int write_table(const ss_table *t, const char *path, ss_error *err)
+{
+    return ss_table_write_csv(t, path, err) == SS_OK ? 0 : -1;
+}
+
+/* ---- output sets: the files of one run appear together (docs/cli.md, "Output sets") ------ */
+
+/* Opens the output set in the run's folder (created if missing) and notes what the run is. */
+int out_open(const cli_args *a, ss_outset **set)
+{
+    if (prepare_out_dir(a->out_dir) != 0)
+        return EXIT_BAD_INPUT;
+    ss_error err = {0};
+    if (ss_outset_open(a->out_dir, set, &err) != SS_OK)
+        return fail(&err);
+    char tool[64];
+    snprintf(tool, sizeof tool, "stagesim %s", ss_version());
+    if (ss_outset_note(*set, "tool", tool, &err) != SS_OK ||
+        ss_outset_note(*set, "command", a->cmd, &err) != SS_OK ||
+        ss_outset_note(*set, "arguments", a->cmdline, &err) != SS_OK) {
+        ss_outset_destroy(set);
+        return fail(&err);
+    }
+    return EXIT_OK;
+}
+
+/* Reserves the files names[0 .. n-1] of the run's folder in the set, before any work: where
+ * each is to be written goes into staged[]. */
+int out_reserve(ss_outset *set, const char *dir, const char *const *names, int n,
+                const char **staged)
+{
+    for (int i = 0; i < n; i++) {
+        char path[4096];
+        snprintf(path, sizeof path, "%s/%s", dir, names[i]);
+        ss_error err = {0};
+        if (ss_outset_add(set, path, names[i], &staged[i], &err) != SS_OK)
+            return fail(&err);
+    }
+    return EXIT_OK;
+}
+
+/* Commits the set (the run succeeded); rc passes through unless the commit fails. */
+int out_commit(ss_outset *set, int rc)
+{
+    ss_error err = {0};
+    if (ss_outset_commit(set, &err) != SS_OK)
+        return fail(&err);
+    return rc;
+}
+
+void print_bound(double v)
+{
+    if (isnan(v))
+        printf(" %13s", "-");
+    else
+        printf(" %13.6g", v);
+}
+
+/* ---- the circuit ------------------------------------------------------------------------- */
+
+/* --nodes a,b --nodes c: the nodes whose per-node results run writes. */
+static int select_nodes(ss_circuit *ckt, const cli_args *a)
+{
+    size_t total = 0;
+    for (int i = 0; i < a->n_nodes; i++)
+        total += strlen(a->nodes[i]) + 1;
+    char *buf = malloc(total);
+    const char **names = calloc(total, sizeof *names);
+    if (!buf || !names) {
+        free(buf);
+        free(names);
+        fprintf(stderr, "stagesim: out of memory\n");
+        return EXIT_BAD_INPUT;
+    }
+    int n = 0;
+    char *w = buf;
+    for (int i = 0; i < a->n_nodes; i++) {
+        size_t len = strlen(a->nodes[i]);
+        memcpy(w, a->nodes[i], len + 1);
+        for (char *tok = strtok(w, ","); tok; tok = strtok(NULL, ","))
+            names[n++] = tok;
+        w += len + 1;
+    }
+    ss_error err = {0};
+    int rc = EXIT_OK;
+    if (n == 0)
+        rc = usage_error("%s", "--nodes needs node names separated by commas");
+    else if (ss_circuit_select_nodes(ckt, names, n, &err) != SS_OK) {
+        fprintf(stderr, "stagesim: --nodes: %s\n", err.message);
+        rc = EXIT_BAD_INPUT;
+    }
+    free(buf);
+    free(names);
+    return rc;
+}
+
+/* --load and the large-signal options act on the stage: without one they would be dropped. */
+static int apply_stage_options(ss_circuit *ckt, const cli_args *a)
+{
+    const char *ls_opt = a->ls_freq > 0.0      ? "--ls-freq"
+                         : a->thd_amp > 0.0    ? "--thd-amp"
+                         : a->thd_target > 0.0 ? "--thd-target"
+                                               : NULL;
+    if (!(a->load_ohm > 0.0) && !ls_opt)
+        return EXIT_OK;
+    ss_analysis_flags fl;
+    ss_circuit_analyses(ckt, &fl);
+    ss_error err = {0};
+    if (a->load_ohm > 0.0) {
+        if (!fl.stage) {
+            fprintf(stderr, "stagesim: --load: the circuit has no stage to load (name one with "
+                            ".stage or --in/--out)\n");
+            return EXIT_BAD_INPUT;
+        }
+        if (ss_circuit_set_stage(ckt, NULL, NULL, a->load_ohm, &err) != SS_OK) {
+            fprintf(stderr, "stagesim: --load: %s\n", err.message);
+            return EXIT_BAD_INPUT;
+        }
+    }
+    if (ls_opt) {
+        if (!fl.stage) {
+            fprintf(stderr, "stagesim: %s: the large-signal test needs a stage (name one with "
+                            ".stage or --in/--out)\n",
+                    ls_opt);
+            return EXIT_BAD_INPUT;
+        }
+        if (ss_circuit_set_large_signal(ckt, a->ls_freq, a->thd_amp, a->thd_target, &err) !=
+            SS_OK) {
+            fprintf(stderr, "stagesim: %s: %s\n", ls_opt, err.message);
+            return EXIT_BAD_INPUT;
+        }
+    }
+    return EXIT_OK;
+}
+
+/* Parses the netlist and applies --in/--out/--load/--nodes and the large-signal options. */
+int load_circuit(const cli_args *a, ss_circuit **out)
+{
+    ss_error err = {0};
+    ss_circuit *ckt = NULL;
+    if (ss_circuit_parse_file(a->netlist, a->sets, a->n_sets, &ckt, &err) != SS_OK)
+        return fail(&err);
+    if (a->in_src || a->out_node) {
+        if (!a->in_src || !a->out_node) {
+            fprintf(stderr, "stagesim: --in and --out go together\n");
+            ss_circuit_destroy(&ckt);
+            return EXIT_BAD_INPUT;
+        }
+        if (ss_circuit_set_stage(ckt, a->in_src, a->out_node, a->load_ohm, &err) != SS_OK) {
+            ss_circuit_destroy(&ckt);
+            return fail(&err);
+        }
+    }
+    int rc = apply_stage_options(ckt, a);
+    if (rc == EXIT_OK && a->n_nodes > 0)
+        rc = select_nodes(ckt, a);
+    if (rc != EXIT_OK) {
+        ss_circuit_destroy(&ckt);
+        return rc;
+    }
+    *out = ckt;
+    return EXIT_OK;
+}
