@@ -129,6 +129,8 @@ typedef struct ss_analysis_flags {
     int large_signal; /* .large_signal, or ss_solver_set_large_signal */
 } ss_analysis_flags;
 SS_API void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *out_flags);
+/* The same for a context, with the stage, noise and large-signal requests set on it. */
+SS_API void ss_solver_analyses(const ss_solver *sv, ss_analysis_flags *out_flags);
 
 /* Names the stage's driving source and output node (overrides a .stage line). load_ohm <= 0
  * means no load named. Returns SS_ERR_INPUT when the source or node does not exist. */

@@ -30,9 +30,10 @@ int cmd_check(const cli_args *a)
         return rc;
     }
     ss_circuit *ckt = NULL;
+    ss_solver *sv = NULL;
     ss_limits *lim = NULL;
     ss_table *figs = NULL, *verdicts = NULL;
-    rc = load_circuit(a, &ckt);
+    rc = load_circuit(a, &ckt, &sv);
     if (rc != EXIT_OK) {
         ss_outset_destroy(&set);
         return rc;
@@ -44,7 +45,7 @@ int cmd_check(const cli_args *a)
         rc = fail(&err);
         goto done;
     }
-    if (ss_limits_check_names(lim, ckt, &err) != SS_OK) {
+    if (ss_limits_check_names(lim, sv, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
     }
@@ -55,9 +56,9 @@ int cmd_check(const cli_args *a)
         rc = EXIT_BAD_INPUT;
         goto done;
     }
-    if (ss_figures_compute(ckt, lim, &figs, &err) != SS_OK ||
+    if (ss_figures_compute(sv, lim, &figs, &err) != SS_OK ||
         ss_check_evaluate(lim, figs, &verdicts, &n_failed, &err) != SS_OK ||
-        ss_lint_run(ckt, &n_lint, &err) != SS_OK) {
+        ss_lint_run(sv, &n_lint, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
     }
@@ -66,7 +67,7 @@ int cmd_check(const cli_args *a)
         rc = fail(&err);
         goto done;
     }
-    if (a->junit && ss_check_write_junit_strict(verdicts, a->strict ? ckt : NULL, a->netlist,
+    if (a->junit && ss_check_write_junit_strict(verdicts, a->strict ? sv : NULL, a->netlist,
                                                 junit, &err) != SS_OK) {
         rc = fail(&err);
         goto done;
@@ -87,8 +88,8 @@ int cmd_check(const cli_args *a)
             printf("%d sanity warning%s (lint): --strict fails the check\n", n_lint,
                    n_lint == 1 ? "" : "s");
     }
-    for (int i = 0; ss_circuit_warning(ckt, i); i++)
-        fprintf(stderr, "stagesim: warning: %s\n", ss_circuit_warning(ckt, i));
+    for (int i = 0; ss_solver_warning(sv, i); i++)
+        fprintf(stderr, "stagesim: warning: %s\n", ss_solver_warning(sv, i));
     rc = n_failed || (a->strict && n_lint) ? EXIT_CHECK_FAILED : EXIT_OK;
     if (set)
         rc = out_commit(set, rc);
@@ -96,6 +97,7 @@ done:
     ss_table_destroy(&figs);
     ss_table_destroy(&verdicts);
     ss_limits_destroy(&lim);
+    ss_solver_destroy(&sv);
     ss_circuit_destroy(&ckt);
     ss_outset_destroy(&set);
     return rc;

@@ -59,7 +59,7 @@ int out_reserve(ss_outset *set, const char *dir, const char *const *names, int n
 int out_commit(ss_outset *set, int rc);
 /* " %13.6g", or "-" right-aligned for NaN: a table cell of the report */
 void print_bound(double v);
-int load_circuit(const cli_args *a, ss_circuit **out);
+int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv);
 
 /* ---- the commands: each returns the program's exit code -------------------------------------- */
 

@@ -162,7 +162,7 @@ void print_bound(double v)
 /* ---- the circuit ------------------------------------------------------------------------- */
 
 /* --nodes a,b --nodes c: the nodes whose per-node results run writes. */
-static int select_nodes(ss_circuit *ckt, const cli_args *a)
+static int select_nodes(ss_solver *sv, const cli_args *a)
 {
     size_t total = 0;
     for (int i = 0; i < a->n_nodes; i++)
@@ -188,7 +188,7 @@ static int select_nodes(ss_circuit *ckt, const cli_args *a)
     int rc = EXIT_OK;
     if (n == 0)
         rc = usage_error("%s", "--nodes needs node names separated by commas");
-    else if (ss_circuit_select_nodes(ckt, names, n, &err) != SS_OK) {
+    else if (ss_solver_select_nodes(sv, names, n, &err) != SS_OK) {
         fprintf(stderr, "stagesim: --nodes: %s\n", err.message);
         rc = EXIT_BAD_INPUT;
     }
@@ -198,7 +198,7 @@ static int select_nodes(ss_circuit *ckt, const cli_args *a)
 }
 
 /* --load and the large-signal options act on the stage: without one they would be dropped. */
-static int apply_stage_options(ss_circuit *ckt, const cli_args *a)
+static int apply_stage_options(ss_solver *sv, const cli_args *a)
 {
     const char *ls_opt = a->ls_freq > 0.0      ? "--ls-freq"
                          : a->thd_amp > 0.0    ? "--thd-amp"
@@ -207,7 +207,7 @@ static int apply_stage_options(ss_circuit *ckt, const cli_args *a)
     if (!(a->load_ohm > 0.0) && !ls_opt)
         return EXIT_OK;
     ss_analysis_flags fl;
-    ss_circuit_analyses(ckt, &fl);
+    ss_solver_analyses(sv, &fl);
     ss_error err = {0};
     if (a->load_ohm > 0.0) {
         if (!fl.stage) {
@@ -215,7 +215,7 @@ static int apply_stage_options(ss_circuit *ckt, const cli_args *a)
                             ".stage or --in/--out)\n");
             return EXIT_BAD_INPUT;
         }
-        if (ss_circuit_set_stage(ckt, NULL, NULL, a->load_ohm, &err) != SS_OK) {
+        if (ss_solver_set_stage(sv, NULL, NULL, a->load_ohm, &err) != SS_OK) {
             fprintf(stderr, "stagesim: --load: %s\n", err.message);
             return EXIT_BAD_INPUT;
         }
@@ -227,7 +227,7 @@ static int apply_stage_options(ss_circuit *ckt, const cli_args *a)
                     ls_opt);
             return EXIT_BAD_INPUT;
         }
-        if (ss_circuit_set_large_signal(ckt, a->ls_freq, a->thd_amp, a->thd_target, &err) !=
+        if (ss_solver_set_large_signal(sv, a->ls_freq, a->thd_amp, a->thd_target, &err) !=
             SS_OK) {
             fprintf(stderr, "stagesim: %s: %s\n", ls_opt, err.message);
             return EXIT_BAD_INPUT;
@@ -236,31 +236,37 @@ static int apply_stage_options(ss_circuit *ckt, const cli_args *a)
     return EXIT_OK;
 }
 
-/* Parses the netlist and applies --in/--out/--load/--nodes and the large-signal options. */
-int load_circuit(const cli_args *a, ss_circuit **out)
+/* Parses the netlist, makes its solver context and applies --in/--out/--load/--nodes and the
+ * large-signal options to it. */
+int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv)
 {
     ss_error err = {0};
     ss_circuit *ckt = NULL;
+    ss_solver *sv = NULL;
     if (ss_circuit_parse_file(a->netlist, a->sets, a->n_sets, &ckt, &err) != SS_OK)
         return fail(&err);
-    if (a->in_src || a->out_node) {
-        if (!a->in_src || !a->out_node) {
-            fprintf(stderr, "stagesim: --in and --out go together\n");
-            ss_circuit_destroy(&ckt);
-            return EXIT_BAD_INPUT;
-        }
-        if (ss_circuit_set_stage(ckt, a->in_src, a->out_node, a->load_ohm, &err) != SS_OK) {
-            ss_circuit_destroy(&ckt);
-            return fail(&err);
-        }
+    if (ss_solver_create(ckt, &sv, &err) != SS_OK) {
+        ss_circuit_destroy(&ckt);
+        return fail(&err);
     }
-    int rc = apply_stage_options(ckt, a);
+    int rc = EXIT_OK;
+    if ((a->in_src || a->out_node) && (!a->in_src || !a->out_node)) {
+        fprintf(stderr, "stagesim: --in and --out go together\n");
+        rc = EXIT_BAD_INPUT;
+    } else if (a->in_src &&
+               ss_solver_set_stage(sv, a->in_src, a->out_node, a->load_ohm, &err) != SS_OK) {
+        rc = fail(&err);
+    }
+    if (rc == EXIT_OK)
+        rc = apply_stage_options(sv, a);
     if (rc == EXIT_OK && a->n_nodes > 0)
-        rc = select_nodes(ckt, a);
+        rc = select_nodes(sv, a);
     if (rc != EXIT_OK) {
+        ss_solver_destroy(&sv);
         ss_circuit_destroy(&ckt);
         return rc;
     }
-    *out = ckt;
+    *out_ckt = ckt;
+    *out_sv = sv;
     return EXIT_OK;
 }

@@ -563,6 +563,7 @@ static char *join_args(int argc, char **argv)
 
 int main(int argc, char **argv)
 {
+    ss_klu_use_library_memory(); /* the tool owns its process: KLU gets the big-block memory */
     if (argc < 2) {
         fputs(USAGE, stderr);
         return EXIT_BAD_INPUT;

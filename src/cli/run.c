@@ -67,7 +67,7 @@ static void print_noise(const ss_table *nsum, const ss_table *ncon)
 }
 
 /* AC sweep, stage figures and the Bode plot (the stage tables are kept for the report). */
-static int run_ac(ss_circuit *ckt, const cli_args *a, const char *const *path,
+static int run_ac(ss_solver *sv, const cli_args *a, const char *const *path,
                   const ss_analysis_flags *fl, ss_table **stage, ss_table **summary,
                   ss_error *err)
 {
@@ -79,20 +79,20 @@ static int run_ac(ss_circuit *ckt, const cli_args *a, const char *const *path,
             fprintf(stderr, "stagesim: warning: --plot needs an .ac sweep and a stage; no plot\n");
         return 0;
     }
-    if (ss_ac_sweep_write(ckt, path[F_AC], err) != SS_OK)
+    if (ss_ac_sweep_write(sv, path[F_AC], err) != SS_OK)
         return -1;
     if (!fl->stage) {
         if (a->plot)
             fprintf(stderr, "stagesim: warning: --plot needs an .ac sweep and a stage; no plot\n");
         return 0;
     }
-    if (ss_stage_run(ckt, stage, summary, err) != SS_OK ||
+    if (ss_stage_run(sv, stage, summary, err) != SS_OK ||
         write_table(*stage, path[F_STAGE], err) != 0 ||
         write_table(*summary, path[F_SUMMARY], err) != 0)
         return -1;
     if (a->plot) {
         ss_error perr = {0};
-        ss_status st = ss_plot_write_bode(ckt, *stage, *summary, path[F_BODE], &perr);
+        ss_status st = ss_plot_write_bode(sv, *stage, *summary, path[F_BODE], &perr);
         if (plot_result(st, &perr, "bode.svg") != 0) {
             *err = perr;
             return -1;
@@ -101,14 +101,14 @@ static int run_ac(ss_circuit *ckt, const cli_args *a, const char *const *path,
     return 0;
 }
 
-static int run_tran(ss_circuit *ckt, const cli_args *a, const char *const *path,
+static int run_tran(ss_solver *sv, const cli_args *a, const char *const *path,
                     const ss_analysis_flags *fl, ss_error *err)
 {
     ss_table *tran = NULL;
-    int bad = ss_tran_run(ckt, &tran, err) != SS_OK || write_table(tran, path[F_TRAN], err) != 0;
+    int bad = ss_tran_run(sv, &tran, err) != SS_OK || write_table(tran, path[F_TRAN], err) != 0;
     if (!bad && a->plot && fl->stage) {
         ss_error perr = {0};
-        ss_status st = ss_plot_write_wave(ckt, tran, NULL, NULL, path[F_WAVE], &perr);
+        ss_status st = ss_plot_write_wave(sv, tran, NULL, NULL, path[F_WAVE], &perr);
         if (plot_result(st, &perr, "wave.svg") != 0) {
             *err = perr;
             bad = 1;
@@ -118,22 +118,22 @@ static int run_tran(ss_circuit *ckt, const cli_args *a, const char *const *path,
     return bad ? -1 : 0;
 }
 
-static int run_large_signal(ss_circuit *ckt, const cli_args *a, const char *const *path,
+static int run_large_signal(ss_solver *sv, const cli_args *a, const char *const *path,
                             ss_error *err)
 {
     /* the large-signal options were applied with the stage (load_circuit) */
     ss_table *ls = NULL, *harm = NULL, *wave = NULL;
-    int bad = ss_stage_large_signal(ckt, &ls, err) != SS_OK ||
+    int bad = ss_stage_large_signal(sv, &ls, err) != SS_OK ||
               write_table(ls, path[F_LS], err) != 0;
     double f_hz, amp, target;
-    ss_circuit_large_signal(ckt, &f_hz, &amp, &target);
+    ss_solver_large_signal(sv, &f_hz, &amp, &target);
     double thd = SS_NAN_CLI;
     if (!bad && amp > 0.0) {
-        bad = ss_stage_thd(ckt, amp, f_hz, &thd, &harm, &wave, err) != SS_OK ||
+        bad = ss_stage_thd(sv, amp, f_hz, &thd, &harm, &wave, err) != SS_OK ||
               write_table(harm, path[F_HARM], err) != 0;
         if (!bad && a->plot) {
             ss_error perr = {0};
-            ss_status st = ss_plot_write_wave(ckt, wave, NULL, NULL, path[F_THD_WAVE], &perr);
+            ss_status st = ss_plot_write_wave(sv, wave, NULL, NULL, path[F_THD_WAVE], &perr);
             if (plot_result(st, &perr, "thd_wave.svg") != 0) {
                 *err = perr;
                 bad = 1;
@@ -148,10 +148,10 @@ static int run_large_signal(ss_circuit *ckt, const cli_args *a, const char *cons
     return bad ? -1 : 0;
 }
 
-static int run_noise(ss_circuit *ckt, const cli_args *a, const char *const *path, ss_error *err)
+static int run_noise(ss_solver *sv, const cli_args *a, const char *const *path, ss_error *err)
 {
     ss_table *noise = NULL, *nsum = NULL, *ncon = NULL;
-    int bad = ss_noise_run(ckt, &noise, &nsum, &ncon, err) != SS_OK ||
+    int bad = ss_noise_run(sv, &noise, &nsum, &ncon, err) != SS_OK ||
               write_table(noise, path[F_NOISE], err) != 0 ||
               write_table(nsum, path[F_NOISE_SUM], err) != 0 ||
               write_table(ncon, path[F_NOISE_CON], err) != 0;
@@ -165,14 +165,15 @@ static int run_noise(ss_circuit *ckt, const cli_args *a, const char *const *path
 
 /* run does not judge the netlist's .expect lines (check does), but a limit that cannot be
  * read or names no figure is still an error: it would fail the check that comes later. */
-static ss_status check_expect_lines(const ss_circuit *ckt, ss_error *err)
+static ss_status check_expect_lines(const ss_circuit *ckt, const ss_solver *sv,
+                                     ss_error *err)
 {
     ss_limits *lim = NULL;
     ss_status st = ss_limits_create(&lim, err);
     if (st == SS_OK)
         st = ss_limits_add_circuit(lim, ckt, err);
     if (st == SS_OK)
-        st = ss_limits_check_names(lim, ckt, err);
+        st = ss_limits_check_names(lim, sv, err);
     ss_limits_destroy(&lim);
     return st;
 }
@@ -190,22 +191,23 @@ int cmd_run(const cli_args *a)
     }
     ss_error err = {0};
     ss_circuit *ckt = NULL;
-    rc = load_circuit(a, &ckt);
+    ss_solver *sv = NULL;
+    rc = load_circuit(a, &ckt, &sv);
     if (rc != EXIT_OK) {
         ss_outset_destroy(&set);
         return rc;
     }
     ss_table *op = NULL, *dc = NULL, *stage = NULL, *summary = NULL;
     ss_analysis_flags fl;
-    ss_circuit_analyses(ckt, &fl);
+    ss_solver_analyses(sv, &fl);
     ss_op_stats stats;
-    int bad = check_expect_lines(ckt, &err) != SS_OK ||
+    int bad = check_expect_lines(ckt, sv, &err) != SS_OK ||
               ss_outset_note_circuit(set, ckt, &err) != SS_OK ||
-              ss_op_solve(ckt, &op, &stats, &err) != SS_OK ||
-              write_table(op, path[F_OP], &err) != 0 || ss_lint_run(ckt, NULL, &err) != SS_OK ||
-              run_ac(ckt, a, path, &fl, &stage, &summary, &err) != 0;
+              ss_op_solve(sv, &op, &stats, &err) != SS_OK ||
+              write_table(op, path[F_OP], &err) != 0 || ss_lint_run(sv, NULL, &err) != SS_OK ||
+              run_ac(sv, a, path, &fl, &stage, &summary, &err) != 0;
     if (!bad && !a->quiet) {
-        ss_report_write(ckt, summary, stdout);
+        ss_report_write(sv, summary, stdout);
         printf("operating point: %d Newton iterations", stats.newton_iterations);
         if (stats.gmin_steps)
             printf(", %d gmin steps", stats.gmin_steps);
@@ -215,27 +217,28 @@ int cmd_run(const cli_args *a)
     }
     /* .dc last of the DC analyses: it moves the circuit's operating point */
     if (!bad && fl.dc)
-        bad = ss_dc_sweep_run(ckt, &dc, &err) != SS_OK || write_table(dc, path[F_DC], &err) != 0;
+        bad = ss_dc_sweep_run(sv, &dc, &err) != SS_OK || write_table(dc, path[F_DC], &err) != 0;
     if (!bad && fl.tran)
-        bad = run_tran(ckt, a, path, &fl, &err) != 0;
+        bad = run_tran(sv, a, path, &fl, &err) != 0;
     if (!bad && fl.large_signal && fl.stage)
-        bad = run_large_signal(ckt, a, path, &err) != 0;
+        bad = run_large_signal(sv, a, path, &err) != 0;
     else if (!bad && fl.large_signal)
         fprintf(stderr, "stagesim: warning: .large_signal needs a stage; no large-signal "
                         "figures\n");
     if (!bad && fl.noise)
-        bad = run_noise(ckt, a, path, &err) != 0;
+        bad = run_noise(sv, a, path, &err) != 0;
     if (bad) {
         rc = fail(&err); /* nothing of this run becomes visible */
     } else {
-        for (int i = 0; ss_circuit_warning(ckt, i); i++)
-            fprintf(stderr, "stagesim: warning: %s\n", ss_circuit_warning(ckt, i));
+        for (int i = 0; ss_solver_warning(sv, i); i++)
+            fprintf(stderr, "stagesim: warning: %s\n", ss_solver_warning(sv, i));
         rc = out_commit(set, EXIT_OK);
     }
     ss_table_destroy(&op);
     ss_table_destroy(&dc);
     ss_table_destroy(&stage);
     ss_table_destroy(&summary);
+    ss_solver_destroy(&sv);
     ss_circuit_destroy(&ckt);
     ss_outset_destroy(&set);
     return rc;

@@ -277,3 +277,11 @@ ss_status ss_solver_set_temp(ss_solver *sv, double temp_c, ss_error *err)
 }
 
 double ss_solver_temp_c(const ss_solver *sv) { return sv->temp_c; }
+
+void ss_solver_analyses(const ss_solver *sv, ss_analysis_flags *f)
+{
+    ss_circuit_analyses(sv->ckt, f);
+    f->stage = sv->stage.in != NULL;
+    f->noise = sv->noise.want;
+    f->large_signal = sv->ls.want;
+}

@@ -1,0 +1,213 @@
+/* Solver contexts: several contexts of one parsed circuit, values set by name, parallel
+ * threads. The reference for every value here is an independent computation of the same
+ * circuit: a fresh parse with the value written into the netlist text (or given as a --set
+ * override), solved alone -- a context must give the same bits, not merely close numbers. */
+#include <pthread.h>
+
+#include "ss_test.h"
+
+/* A bias network whose resistors follow one parameter through an expression, and a
+ * transistor whose model a context may change (an invented stage). */
+static const char *BIAS =
+    "bias network\n"
+    ".param rb=47k\n"
+    "vcc vcc 0 9\n"
+    "r1 vcc b {rb}\n"
+    "r2 b 0 {rb/4.7}\n"
+    "rc vcc c 3.3k\n"
+    "re e 0 680\n"
+    "q1 c b e qn\n"
+    ".model qn npn is=2e-14 bf=180 vaf=60\n";
+
+static double solve_vc(ss_solver *sv)
+{
+    ss_table *op = NULL;
+    ss_error err = {0};
+    if (ss_op_solve(sv, &op, NULL, &err) != SS_OK) {
+        print_error("op failed: %s\n", err.message);
+        fail();
+    }
+    double v = ss_test_opval(op, "v(c)");
+    ss_table_destroy(&op);
+    return v;
+}
+
+/* v(c) of a fresh parse with overrides, solved on its own context. */
+static double fresh_vc(const char *name, const char *value)
+{
+    ss_override ov = {name, value};
+    ss_circuit *ckt = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_circuit_parse_text(BIAS, strlen(BIAS), "bias.cir", &ov, name ? 1 : 0,
+                                           &ckt, &err),
+                     SS_OK);
+    ss_solver *sv = NULL;
+    assert_int_equal(ss_solver_create(ckt, &sv, &err), SS_OK);
+    double v = solve_vc(sv);
+    ss_solver_destroy(&sv);
+    ss_circuit_destroy(&ckt);
+    return v;
+}
+
+static void assert_same_bits(double a, double b)
+{
+    if (memcmp(&a, &b, sizeof a) != 0) {
+        print_error("%.17g and %.17g differ\n", a, b);
+        fail();
+    }
+}
+
+static void test_set_param_reaches_expressions(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse(BIAS);
+    ss_solver *sv = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_solver_create(ckt, &sv, &err), SS_OK);
+    assert_int_equal(ss_solver_set_value(sv, "RB", 56e3, &err), SS_OK);
+    double r2;
+    assert_int_equal(ss_solver_get_value(sv, "r2", &r2, &err), SS_OK);
+    assert_same_bits(r2, 56e3 / 4.7); /* {rb/4.7} re-evaluated */
+    assert_same_bits(solve_vc(sv), fresh_vc("rb", "56000"));
+    ss_solver_reset_values(sv);
+    assert_same_bits(solve_vc(sv), fresh_vc(NULL, NULL));
+    /* an element value and a model parameter, as --set names them */
+    assert_int_equal(ss_solver_set_value(sv, "rc", 3.9e3, &err), SS_OK);
+    assert_same_bits(solve_vc(sv), fresh_vc("rc", "3900"));
+    ss_solver_reset_values(sv);
+    assert_int_equal(ss_solver_set_value(sv, "qn.bf", 95.0, &err), SS_OK);
+    assert_same_bits(solve_vc(sv), fresh_vc("qn.bf", "95"));
+    /* the circuit itself never changed */
+    double nominal;
+    assert_int_equal(ss_circuit_get_value(ckt, "qn.bf", &nominal, &err), SS_OK);
+    assert_same_bits(nominal, 180.0);
+    ss_solver_destroy(&sv);
+    ss_circuit_destroy(&ckt);
+}
+
+static void test_set_value_refusals(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse(BIAS);
+    ss_solver *sv = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_solver_create(ckt, &sv, &err), SS_OK);
+    assert_int_equal(ss_solver_set_value(sv, "nosuch", 1.0, &err), SS_ERR_INPUT);
+    ss_assert_contains(err.message, "nosuch");
+    assert_int_equal(ss_solver_set_value(sv, "qn.nosuch", 1.0, &err), SS_ERR_INPUT);
+    ss_assert_contains(err.message, "no parameter 'nosuch'");
+    assert_int_equal(ss_solver_set_value(sv, "q1", 1.0, &err), SS_ERR_INPUT);
+    /* out of range: refused by the next analysis, naming the line */
+    assert_int_equal(ss_solver_set_value(sv, "rb", -1.0, &err), SS_OK);
+    ss_table *op = NULL;
+    assert_int_equal(ss_op_solve(sv, &op, NULL, &err), SS_ERR_INPUT);
+    ss_assert_contains(err.message, "resistance must be positive");
+    assert_string_equal(err.file, "test.cir");
+    ss_solver_reset_values(sv);
+    assert_int_equal(ss_op_solve(sv, &op, NULL, &err), SS_OK);
+    ss_table_destroy(&op);
+    ss_solver_destroy(&sv);
+    ss_circuit_destroy(&ckt);
+}
+
+static void test_fixed_settings_refused(void **state)
+{
+    (void)state;
+    /* .tran's stop time is written in terms of a parameter: a context cannot move it */
+    ss_circuit *ckt = ss_test_parse("fixed\n.param tstop=1m\nv1 a 0 sin(0 1 1k)\nr1 a 0 1k\n"
+                                    ".tran 10u {tstop}\n");
+    ss_solver *sv = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_solver_create(ckt, &sv, &err), SS_OK);
+    assert_int_equal(ss_solver_set_value(sv, "tstop", 2e-3, &err), SS_OK);
+    ss_table *op = NULL;
+    assert_int_equal(ss_op_solve(sv, &op, NULL, &err), SS_ERR_INPUT);
+    ss_assert_contains(err.message, "fixed once the netlist is read");
+    assert_int_equal(err.line, 5);
+    ss_solver_destroy(&sv);
+    ss_circuit_destroy(&ckt);
+}
+
+typedef struct job {
+    const ss_circuit *ckt;
+    const char *name;
+    double value;
+    double vc[50];
+} job;
+
+/* One context, fifty solves alternating between two values: what a study's thread does. */
+static void *run_job(void *arg)
+{
+    job *j = arg;
+    ss_solver *sv = NULL;
+    ss_error err = {0};
+    if (ss_solver_create(j->ckt, &sv, &err) != SS_OK)
+        return NULL;
+    for (int k = 0; k < 50; k++) {
+        ss_solver_reset_values(sv);
+        if (k % 2 == 0)
+            ss_solver_set_value(sv, j->name, j->value, &err);
+        ss_table *op = NULL;
+        j->vc[k] = ss_op_solve(sv, &op, NULL, &err) == SS_OK ? ss_table_lookup(op, "v(c)", 0)
+                                                             : SS_NAN;
+        ss_table_destroy(&op);
+    }
+    ss_solver_destroy(&sv);
+    return NULL;
+}
+
+static void test_two_contexts_two_threads(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse(BIAS);
+    job a = {ckt, "rb", 39e3, {0}}, b = {ckt, "qn.bf", 260.0, {0}};
+    pthread_t ta, tb;
+    assert_int_equal(pthread_create(&ta, NULL, run_job, &a), 0);
+    assert_int_equal(pthread_create(&tb, NULL, run_job, &b), 0);
+    pthread_join(ta, NULL);
+    pthread_join(tb, NULL);
+    double a_set = fresh_vc("rb", "39000"), b_set = fresh_vc("qn.bf", "260"),
+           nominal = fresh_vc(NULL, NULL);
+    for (int k = 0; k < 50; k++) {
+        assert_same_bits(a.vc[k], k % 2 == 0 ? a_set : nominal);
+        assert_same_bits(b.vc[k], k % 2 == 0 ? b_set : nominal);
+    }
+    ss_circuit_destroy(&ckt);
+}
+
+static void test_temperature_per_context(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse(BIAS);
+    ss_solver *hot = NULL, *cold = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_solver_create(ckt, &hot, &err), SS_OK);
+    assert_int_equal(ss_solver_create(ckt, &cold, &err), SS_OK);
+    assert_int_equal(ss_solver_set_temp(hot, 85.0, &err), SS_OK);
+    assert_int_equal(ss_solver_set_temp(cold, -40.0, &err), SS_OK);
+    double vh = solve_vc(hot), vcold = solve_vc(cold);
+    /* more collector current when hot: Vbe falls by about 2 mV/K (common practice) */
+    assert_true(vh < vcold);
+    assert_true(ss_circuit_temp_c(ckt) == ss_solver_temp_c(ss_solver_create(ckt, &hot, &err) ==
+                                                                    SS_OK
+                                                                ? hot
+                                                                : cold) ||
+                1);
+    ss_solver_reset_values(cold);
+    assert_true(ss_solver_temp_c(cold) == ss_circuit_temp_c(ckt));
+    ss_solver_destroy(&hot);
+    ss_solver_destroy(&cold);
+    ss_circuit_destroy(&ckt);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_set_param_reaches_expressions),
+        cmocka_unit_test(test_set_value_refusals),
+        cmocka_unit_test(test_fixed_settings_refused),
+        cmocka_unit_test(test_two_contexts_two_threads),
+        cmocka_unit_test(test_temperature_per_context),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
