@@ -240,9 +240,11 @@ static int split_fields(char *s, char sep, char **f, int max)
     }
 }
 
-ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
+/* Starts s->dims[s->n_dims] for the --vary spec whose '=' is eq: its name, lower case, which
+ * must be new, not --set as well, and a value of the circuit (or temp). */
+static ss_status vary_start(ss_study *s, const char *spec, const char *eq, vary_dim **out,
+                            ss_error *err)
 {
-    const char *eq = strchr(spec, '=');
     if (!eq || eq == spec)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "--vary %s: expected NAME=lin:START:STOP:N, NAME=log:START:STOP:N or "
@@ -270,6 +272,90 @@ ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
     ss_status st = check_name(s, d->name, &nominal, &name_err);
     if (st != SS_OK)
         return err_set(err, st, NULL, 0, "--vary %s: %s", d->name, name_err.message);
+    *out = d;
+    return SS_OK;
+}
+
+/* d's values from the fields after `lin:` or `log:` (kind), START:STOP:N in rest, split in
+ * place; text is the spec after its '=' as given, for the messages. */
+static ss_status vary_fill_range(vary_dim *d, const char *kind, char *rest, const char *text,
+                                 ss_error *err)
+{
+    char *f[3];
+    double v[3];
+    if (split_fields(rest, ':', f, 3) != 3)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--vary %s: expected %s:START:STOP:N, got %s:%s", d->name, kind, kind,
+                       text + strlen(kind) + 1);
+    for (int k = 0; k < 3; k++) {
+        ss_error e2 = {0};
+        if (ss_value_parse(f[k], &v[k], &e2) != SS_OK)
+            return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: %s %s", d->name,
+                           k == 0 ? "START" : k == 1 ? "STOP" : "N", e2.message);
+    }
+    double n = v[2];
+    if (!(n >= 1.0) || n != floor(n) || n > 1e6)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--vary %s: the point count must be a whole number from 1 to 1e6, "
+                       "got %g",
+                       d->name, n);
+    if (kind[1] == 'o' && !(v[0] > 0.0 && v[1] > 0.0))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--vary %s: a log sweep needs positive START and STOP", d->name);
+    d->n = (int)n;
+    d->values = ss_alloc((size_t)d->n * sizeof *d->values);
+    if (!d->values)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    for (int i = 0; i < d->n; i++) {
+        double t = d->n == 1 ? 0.0 : (double)i / (d->n - 1);
+        d->values[i] = kind[1] == 'i' ? v[0] + t * (v[1] - v[0])
+                                      : exp(log(v[0]) + t * (log(v[1]) - log(v[0])));
+    }
+    return SS_OK;
+}
+
+/* d's values from the items after `list:`, V1,V2,... in rest, split in place. */
+static ss_status vary_fill_list(vary_dim *d, char *rest, ss_error *err)
+{
+    if (!*rest)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: empty list", d->name);
+    int cap = 1;
+    for (const char *c = rest; *c; c++)
+        cap += *c == ',';
+    char **f = ss_alloc((size_t)cap * sizeof *f);
+    d->values = ss_alloc((size_t)cap * sizeof *d->values);
+    if (!f || !d->values) {
+        ss_free(f);
+        ss_free(d->values);
+        d->values = NULL;
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    d->n = split_fields(rest, ',', f, cap);
+    ss_status st = SS_OK;
+    for (int i = 0; i < d->n && st == SS_OK; i++) {
+        ss_error e2 = {0};
+        if (!*f[i])
+            st = err_set(err, SS_ERR_INPUT, NULL, 0,
+                         "--vary %s: list item %d of %d is empty", d->name, i + 1, d->n);
+        else if (ss_value_parse(f[i], &d->values[i], &e2) != SS_OK)
+            st = err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: %s", d->name, e2.message);
+    }
+    ss_free(f);
+    if (st != SS_OK) {
+        ss_free(d->values);
+        d->values = NULL;
+        return st;
+    }
+    return SS_OK;
+}
+
+ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
+{
+    const char *eq = strchr(spec, '=');
+    vary_dim *d = NULL;
+    ss_status st = vary_start(s, spec, eq, &d, err);
+    if (st != SS_OK)
+        return st;
     char body[1024];
     if (strlen(eq + 1) >= sizeof body)
         return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: longer than %zu characters",
@@ -281,71 +367,15 @@ ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
                        "--vary %s: expected lin:, log: or list: after '='", d->name);
     *rest++ = '\0';
     int is_temp = strcmp(d->name, "temp") == 0;
-    if (strcmp(kind, "lin") == 0 || strcmp(kind, "log") == 0) {
-        char *f[3];
-        double v[3];
-        if (split_fields(rest, ':', f, 3) != 3)
-            return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "--vary %s: expected %s:START:STOP:N, got %s:%s", d->name, kind, kind,
-                           eq + 1 + strlen(kind) + 1);
-        for (int k = 0; k < 3; k++) {
-            ss_error e2 = {0};
-            if (ss_value_parse(f[k], &v[k], &e2) != SS_OK)
-                return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: %s %s", d->name,
-                               k == 0 ? "START" : k == 1 ? "STOP" : "N", e2.message);
-        }
-        double n = v[2];
-        if (!(n >= 1.0) || n != floor(n) || n > 1e6)
-            return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "--vary %s: the point count must be a whole number from 1 to 1e6, "
-                           "got %g",
-                           d->name, n);
-        if (kind[1] == 'o' && !(v[0] > 0.0 && v[1] > 0.0))
-            return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "--vary %s: a log sweep needs positive START and STOP", d->name);
-        d->n = (int)n;
-        d->values = ss_alloc((size_t)d->n * sizeof *d->values);
-        if (!d->values)
-            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-        for (int i = 0; i < d->n; i++) {
-            double t = d->n == 1 ? 0.0 : (double)i / (d->n - 1);
-            d->values[i] = kind[1] == 'i' ? v[0] + t * (v[1] - v[0])
-                                          : exp(log(v[0]) + t * (log(v[1]) - log(v[0])));
-        }
-    } else if (strcmp(kind, "list") == 0) {
-        if (!*rest)
-            return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: empty list", d->name);
-        int cap = 1;
-        for (const char *c = rest; *c; c++)
-            cap += *c == ',';
-        char **f = ss_alloc((size_t)cap * sizeof *f);
-        d->values = ss_alloc((size_t)cap * sizeof *d->values);
-        if (!f || !d->values) {
-            ss_free(f);
-            ss_free(d->values);
-            d->values = NULL;
-            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-        }
-        d->n = split_fields(rest, ',', f, cap);
-        st = SS_OK;
-        for (int i = 0; i < d->n && st == SS_OK; i++) {
-            ss_error e2 = {0};
-            if (!*f[i])
-                st = err_set(err, SS_ERR_INPUT, NULL, 0,
-                             "--vary %s: list item %d of %d is empty", d->name, i + 1, d->n);
-            else if (ss_value_parse(f[i], &d->values[i], &e2) != SS_OK)
-                st = err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: %s", d->name, e2.message);
-        }
-        ss_free(f);
-        if (st != SS_OK) {
-            ss_free(d->values);
-            d->values = NULL;
-            return st;
-        }
-    } else {
+    if (strcmp(kind, "lin") == 0 || strcmp(kind, "log") == 0)
+        st = vary_fill_range(d, kind, rest, eq + 1, err);
+    else if (strcmp(kind, "list") == 0)
+        st = vary_fill_list(d, rest, err);
+    else
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "--vary %s: unknown kind '%s' (lin, log or list)", d->name, kind);
-    }
+    if (st != SS_OK)
+        return st;
     for (int i = 0; is_temp && i < d->n; i++)
         if (!temp_in_range(d->values[i])) {
             err_set(err, SS_ERR_INPUT, NULL, 0,
