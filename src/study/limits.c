@@ -64,19 +64,16 @@ static int scan_value(const char **p, double *out)
     return 0;
 }
 
-ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, int line,
-                            ss_error *err)
+/* The quantity of a limit line at *pp, lower case, and its `@ FREQ` when given, into lim (base,
+ * at_freq, freq_hz, quantity); on success *pp is past them. */
+static ss_status scan_quantity(const char **pp, limit *lim, const char *file, int line,
+                               ss_error *err)
 {
-    const char *p = text;
-    skip_ws(&p);
-    limit lim;
-    memset(&lim, 0, sizeof lim);
-    lim.lo = -HUGE_VAL;
-    lim.hi = HUGE_VAL;
+    const char *p = *pp;
     /* the quantity: up to whitespace, '@' or a relation sign outside parentheses */
     size_t q = 0;
     int depth = 0;
-    while (*p && q + 1 < sizeof lim.base) {
+    while (*p && q + 1 < sizeof lim->base) {
         char c = *p;
         if (c == '(')
             depth++;
@@ -85,31 +82,40 @@ ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, in
         else if (depth <= 0 && (isspace((unsigned char)c) || c == '@' || c == '<' || c == '>' ||
                                 c == '='))
             break;
-        lim.base[q++] = (char)tolower((unsigned char)c);
+        lim->base[q++] = (char)tolower((unsigned char)c);
         p++;
     }
-    lim.base[q] = '\0';
+    lim->base[q] = '\0';
     if (q == 0)
         return err_set(err, SS_ERR_INPUT, file, line, "limit: missing the quantity");
     skip_ws(&p);
     if (*p == '@') {
         p++;
-        if (scan_value(&p, &lim.freq_hz) != 0 || !(lim.freq_hz > 0.0))
+        if (scan_value(&p, &lim->freq_hz) != 0 || !(lim->freq_hz > 0.0))
             return err_set(err, SS_ERR_INPUT, file, line,
-                           "limit on %s: '@' needs a positive frequency", lim.base);
-        if (!study_is_point_quantity(lim.base))
+                           "limit on %s: '@' needs a positive frequency", lim->base);
+        if (!study_is_point_quantity(lim->base))
             return err_set(err, SS_ERR_INPUT, file, line,
                            "limit on %s: only gain, gain_db, phase_deg, zin_ohm and zout_ohm "
                            "can be taken at a frequency",
-                           lim.base);
-        lim.at_freq = 1;
+                           lim->base);
+        lim->at_freq = 1;
         skip_ws(&p);
     }
-    if (lim.at_freq)
-        snprintf(lim.quantity, sizeof lim.quantity, "%s@%.9g", lim.base, lim.freq_hz);
+    if (lim->at_freq)
+        snprintf(lim->quantity, sizeof lim->quantity, "%s@%.9g", lim->base, lim->freq_hz);
     else
-        snprintf(lim.quantity, sizeof lim.quantity, "%s", lim.base);
+        snprintf(lim->quantity, sizeof lim->quantity, "%s", lim->base);
+    *pp = p;
+    return SS_OK;
+}
 
+/* The relation at *pp into lim->lo and lim->hi: LO .. HI, >= LO, <= HI or = NOMINAL +- TOL[%];
+ * on success *pp is past it. */
+static ss_status scan_bounds(const char **pp, limit *lim, const char *file, int line,
+                             ss_error *err)
+{
+    const char *p = *pp;
     const char *rel = p;
     if (*p == '>' || *p == '<') {
         /* `>= x` and `> x` both mean a lower bound (the netlist tokenizer may have split the
@@ -118,7 +124,7 @@ ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, in
         skip_ws(&p);
         if (*p == '=')
             p++;
-        if (scan_value(&p, sign == '>' ? &lim.lo : &lim.hi) != 0)
+        if (scan_value(&p, sign == '>' ? &lim->lo : &lim->hi) != 0)
             goto bad;
     } else if (*p == '=') {
         p++;
@@ -136,22 +142,45 @@ ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, in
             tol = fabs(nominal) * tol / 100.0;
             p++;
         }
-        lim.lo = nominal - tol;
-        lim.hi = nominal + tol;
+        lim->lo = nominal - tol;
+        lim->hi = nominal + tol;
     } else {
-        if (scan_value(&p, &lim.lo) != 0)
+        if (scan_value(&p, &lim->lo) != 0)
             goto bad;
         skip_ws(&p);
         if (strncmp(p, "..", 2) != 0)
             goto bad;
         p += 2;
-        if (scan_value(&p, &lim.hi) != 0)
+        if (scan_value(&p, &lim->hi) != 0)
             goto bad;
-        if (lim.hi < lim.lo)
+        if (lim->hi < lim->lo)
             return err_set(err, SS_ERR_INPUT, file, line,
                            "limit on %s: the upper bound %g is below the lower bound %g",
-                           lim.quantity, lim.hi, lim.lo);
+                           lim->quantity, lim->hi, lim->lo);
     }
+    *pp = p;
+    return SS_OK;
+bad:
+    return err_set(err, SS_ERR_INPUT, file, line,
+                   "limit on %s: cannot read '%s' (write LO .. HI, >= LO, <= HI or "
+                   "= NOMINAL +- TOL[%%])",
+                   lim->quantity, rel);
+}
+
+ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, int line,
+                            ss_error *err)
+{
+    const char *p = text;
+    skip_ws(&p);
+    limit lim;
+    memset(&lim, 0, sizeof lim);
+    lim.lo = -HUGE_VAL;
+    lim.hi = HUGE_VAL;
+    ss_status st = scan_quantity(&p, &lim, file, line, err);
+    if (st == SS_OK)
+        st = scan_bounds(&p, &lim, file, line, err);
+    if (st != SS_OK)
+        return st;
     skip_ws(&p);
     if (*p)
         return err_set(err, SS_ERR_INPUT, file, line, "limit on %s: unexpected '%s' at the end",
@@ -168,11 +197,6 @@ ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, in
     }
     l->items[l->n++] = lim;
     return SS_OK;
-bad:
-    return err_set(err, SS_ERR_INPUT, file, line,
-                   "limit on %s: cannot read '%s' (write LO .. HI, >= LO, <= HI or "
-                   "= NOMINAL +- TOL[%%])",
-                   lim.quantity, rel);
 }
 
 ss_status ss_limits_add_text(ss_limits *l, const char *text, const char *name, ss_error *err)

@@ -1,6 +1,8 @@
-/* Study runner: grids of swept values and Monte Carlo trials over tolerances, each point a
- * fresh parse with overrides, spread over threads with results placed by point index (so the
- * output never depends on the thread count), sharding, statistics, sensitivities. */
+/* Study runner: the study object and its setup (swept values, tolerances, trials, threads,
+ * shard, limits), and the run: grids of swept values and Monte Carlo trials over tolerances, each
+ * point a fresh parse with overrides, spread over threads with results placed by point index (so
+ * the output never depends on the thread count). Statistics are summary.c's, sensitivities and
+ * corners sensitivity.c's, preferred values snap.c's, merging shards shards.c's. */
 #define _POSIX_C_SOURCE 200809L
 #include <ctype.h>
 #include <math.h>
@@ -13,44 +15,7 @@
 #include "netlist/netlist.h"
 #include "study/study.h"
 
-#define STUDY_MAX_POINTS 100000000L
-#define STUDY_MAX_DIMS 16
 #define STUDY_MAX_THREADS 256
-
-typedef struct vary_dim {
-    const char *name; /* lower case; "temp" for temperature */
-    double *values;
-    int n;
-} vary_dim;
-
-typedef struct tol_spec {
-    const char *name;
-    double nominal;
-    double lo, hi; /* absolute range */
-    int gauss;
-} tol_spec;
-
-struct ss_study {
-    ss_arena arena;
-    const char *netlist;
-    ss_override *sets;
-    int n_sets;
-    const char *stage_in, *stage_out;
-    vary_dim dims[STUDY_MAX_DIMS];
-    int n_dims;
-    tol_spec *tols;
-    int n_tols, cap_tols;
-    long trials;
-    unsigned long long seed;
-    int threads;
-    int shard_k, shard_n;
-    const ss_limits *limits; /* == own_limits: the netlist's .expect lines plus any added */
-    ss_limits *own_limits;
-    ss_progress_fn progress;
-    void *progress_ctx;
-    ss_circuit *nominal;
-    char limits_sha256[65]; /* of the limits added (ss_study_add_limits), "" when none */
-};
 
 static char *lower_dup(ss_arena *a, const char *s, size_t n)
 {
@@ -275,11 +240,11 @@ static int split_fields(char *s, char sep, char **f, int max)
     }
 }
 
-static int temp_in_range(double t) { return t > -SS_ZERO_C_IN_K && t <= 1000.0; }
-
-ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
+/* Starts s->dims[s->n_dims] for the --vary spec whose '=' is eq: its name, lower case, which
+ * must be new, not --set as well, and a value of the circuit (or temp). */
+static ss_status vary_start(ss_study *s, const char *spec, const char *eq, vary_dim **out,
+                            ss_error *err)
 {
-    const char *eq = strchr(spec, '=');
     if (!eq || eq == spec)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "--vary %s: expected NAME=lin:START:STOP:N, NAME=log:START:STOP:N or "
@@ -307,6 +272,90 @@ ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
     ss_status st = check_name(s, d->name, &nominal, &name_err);
     if (st != SS_OK)
         return err_set(err, st, NULL, 0, "--vary %s: %s", d->name, name_err.message);
+    *out = d;
+    return SS_OK;
+}
+
+/* d's values from the fields after `lin:` or `log:` (kind), START:STOP:N in rest, split in
+ * place; text is the spec after its '=' as given, for the messages. */
+static ss_status vary_fill_range(vary_dim *d, const char *kind, char *rest, const char *text,
+                                 ss_error *err)
+{
+    char *f[3];
+    double v[3];
+    if (split_fields(rest, ':', f, 3) != 3)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--vary %s: expected %s:START:STOP:N, got %s:%s", d->name, kind, kind,
+                       text + strlen(kind) + 1);
+    for (int k = 0; k < 3; k++) {
+        ss_error e2 = {0};
+        if (ss_value_parse(f[k], &v[k], &e2) != SS_OK)
+            return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: %s %s", d->name,
+                           k == 0 ? "START" : k == 1 ? "STOP" : "N", e2.message);
+    }
+    double n = v[2];
+    if (!(n >= 1.0) || n != floor(n) || n > 1e6)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--vary %s: the point count must be a whole number from 1 to 1e6, "
+                       "got %g",
+                       d->name, n);
+    if (kind[1] == 'o' && !(v[0] > 0.0 && v[1] > 0.0))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--vary %s: a log sweep needs positive START and STOP", d->name);
+    d->n = (int)n;
+    d->values = ss_alloc((size_t)d->n * sizeof *d->values);
+    if (!d->values)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    for (int i = 0; i < d->n; i++) {
+        double t = d->n == 1 ? 0.0 : (double)i / (d->n - 1);
+        d->values[i] = kind[1] == 'i' ? v[0] + t * (v[1] - v[0])
+                                      : exp(log(v[0]) + t * (log(v[1]) - log(v[0])));
+    }
+    return SS_OK;
+}
+
+/* d's values from the items after `list:`, V1,V2,... in rest, split in place. */
+static ss_status vary_fill_list(vary_dim *d, char *rest, ss_error *err)
+{
+    if (!*rest)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: empty list", d->name);
+    int cap = 1;
+    for (const char *c = rest; *c; c++)
+        cap += *c == ',';
+    char **f = ss_alloc((size_t)cap * sizeof *f);
+    d->values = ss_alloc((size_t)cap * sizeof *d->values);
+    if (!f || !d->values) {
+        ss_free(f);
+        ss_free(d->values);
+        d->values = NULL;
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    d->n = split_fields(rest, ',', f, cap);
+    ss_status st = SS_OK;
+    for (int i = 0; i < d->n && st == SS_OK; i++) {
+        ss_error e2 = {0};
+        if (!*f[i])
+            st = err_set(err, SS_ERR_INPUT, NULL, 0,
+                         "--vary %s: list item %d of %d is empty", d->name, i + 1, d->n);
+        else if (ss_value_parse(f[i], &d->values[i], &e2) != SS_OK)
+            st = err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: %s", d->name, e2.message);
+    }
+    ss_free(f);
+    if (st != SS_OK) {
+        ss_free(d->values);
+        d->values = NULL;
+        return st;
+    }
+    return SS_OK;
+}
+
+ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
+{
+    const char *eq = strchr(spec, '=');
+    vary_dim *d = NULL;
+    ss_status st = vary_start(s, spec, eq, &d, err);
+    if (st != SS_OK)
+        return st;
     char body[1024];
     if (strlen(eq + 1) >= sizeof body)
         return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: longer than %zu characters",
@@ -318,71 +367,15 @@ ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
                        "--vary %s: expected lin:, log: or list: after '='", d->name);
     *rest++ = '\0';
     int is_temp = strcmp(d->name, "temp") == 0;
-    if (strcmp(kind, "lin") == 0 || strcmp(kind, "log") == 0) {
-        char *f[3];
-        double v[3];
-        if (split_fields(rest, ':', f, 3) != 3)
-            return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "--vary %s: expected %s:START:STOP:N, got %s:%s", d->name, kind, kind,
-                           eq + 1 + strlen(kind) + 1);
-        for (int k = 0; k < 3; k++) {
-            ss_error e2 = {0};
-            if (ss_value_parse(f[k], &v[k], &e2) != SS_OK)
-                return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: %s %s", d->name,
-                               k == 0 ? "START" : k == 1 ? "STOP" : "N", e2.message);
-        }
-        double n = v[2];
-        if (!(n >= 1.0) || n != floor(n) || n > 1e6)
-            return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "--vary %s: the point count must be a whole number from 1 to 1e6, "
-                           "got %g",
-                           d->name, n);
-        if (kind[1] == 'o' && !(v[0] > 0.0 && v[1] > 0.0))
-            return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "--vary %s: a log sweep needs positive START and STOP", d->name);
-        d->n = (int)n;
-        d->values = ss_alloc((size_t)d->n * sizeof *d->values);
-        if (!d->values)
-            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-        for (int i = 0; i < d->n; i++) {
-            double t = d->n == 1 ? 0.0 : (double)i / (d->n - 1);
-            d->values[i] = kind[1] == 'i' ? v[0] + t * (v[1] - v[0])
-                                          : exp(log(v[0]) + t * (log(v[1]) - log(v[0])));
-        }
-    } else if (strcmp(kind, "list") == 0) {
-        if (!*rest)
-            return err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: empty list", d->name);
-        int cap = 1;
-        for (const char *c = rest; *c; c++)
-            cap += *c == ',';
-        char **f = ss_alloc((size_t)cap * sizeof *f);
-        d->values = ss_alloc((size_t)cap * sizeof *d->values);
-        if (!f || !d->values) {
-            ss_free(f);
-            ss_free(d->values);
-            d->values = NULL;
-            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-        }
-        d->n = split_fields(rest, ',', f, cap);
-        st = SS_OK;
-        for (int i = 0; i < d->n && st == SS_OK; i++) {
-            ss_error e2 = {0};
-            if (!*f[i])
-                st = err_set(err, SS_ERR_INPUT, NULL, 0,
-                             "--vary %s: list item %d of %d is empty", d->name, i + 1, d->n);
-            else if (ss_value_parse(f[i], &d->values[i], &e2) != SS_OK)
-                st = err_set(err, SS_ERR_INPUT, NULL, 0, "--vary %s: %s", d->name, e2.message);
-        }
-        ss_free(f);
-        if (st != SS_OK) {
-            ss_free(d->values);
-            d->values = NULL;
-            return st;
-        }
-    } else {
+    if (strcmp(kind, "lin") == 0 || strcmp(kind, "log") == 0)
+        st = vary_fill_range(d, kind, rest, eq + 1, err);
+    else if (strcmp(kind, "list") == 0)
+        st = vary_fill_list(d, rest, err);
+    else
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "--vary %s: unknown kind '%s' (lin, log or list)", d->name, kind);
-    }
+    if (st != SS_OK)
+        return st;
     for (int i = 0; is_temp && i < d->n; i++)
         if (!temp_in_range(d->values[i])) {
             err_set(err, SS_ERR_INPUT, NULL, 0,
@@ -570,15 +563,6 @@ static void point_values(const ss_study *s, long p, double *vals)
     }
 }
 
-/* 1 when one of ov[0 .. n-1] names `name` (case-insensitive): that override replaces it. */
-static int shadowed_by(const ss_override *ov, int n, const char *name)
-{
-    for (int j = 0; j < n; j++)
-        if (strcasecmp_ascii_eq(ov[j].name, name))
-            return 1;
-    return 0;
-}
-
 static ss_status solve_point(ss_study *s, const double *vals, int n_vals_tol,
                              ss_table **out_figs, ss_error *err)
 {
@@ -630,6 +614,12 @@ static ss_status solve_point(ss_study *s, const double *vals, int n_vals_tol,
         st = ss_figures_compute(ckt, s->limits, out_figs, err);
     ss_circuit_destroy(&ckt);
     return st;
+}
+
+ss_status study_solve_point(ss_study *s, const double *vals, int n_vals_tol, ss_table **out_figs,
+                            ss_error *err)
+{
+    return solve_point(s, vals, n_vals_tol, out_figs, err);
 }
 
 static int status_class(ss_status st)
@@ -757,367 +747,6 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
         return sh.fatal;
     }
     *out_points = t;
-    return SS_OK;
-}
-
-/* ---- statistics --------------------------------------------------------------------------- */
-
-/* The first figure column of a points table: right after `status`. */
-int study_first_figure_col(const ss_table *pts)
-{
-    for (int j = 0; j < pts->n_cols; j++)
-        if (strcmp(pts->col_names[j], "status") == 0)
-            return j + 1;
-    return -1;
-}
-
-ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table **out_summary,
-                             ss_error *err)
-{
-    int f0 = study_first_figure_col(pts);
-    if (f0 < 0)
-        return err_set(err, SS_ERR_INPUT, NULL, 0, "not a study points table (no status column)");
-    /* a limit on a figure the table does not have would pass every point unseen */
-    for (int k = 0; l && k < l->n; k++) {
-        int found = 0;
-        for (int j = f0; j < pts->n_cols && !found; j++)
-            found = strcmp(pts->col_names[j], l->items[k].quantity) == 0;
-        if (!found)
-            return err_set(err, SS_ERR_INPUT, l->items[k].file, l->items[k].line,
-                           "limit on '%s': the points have no such figure (a typo, or a figure "
-                           "this study did not compute)",
-                           l->items[k].quantity);
-    }
-    static const char *const cols[] = {"n", "min", "max", "mean", "std", "pass_fraction"};
-    ss_table *t = table_create(6, "figure");
-    int bad = !t;
-    for (int j = 0; !bad && j < 6; j++)
-        bad |= table_set_col(t, j, cols[j]) != 0;
-    /* a point passes all limits when it converged and every limited figure is in range */
-    long n_pass_all = 0, n_points = pts->n_rows;
-    unsigned char *fails = ss_alloc((size_t)(n_points ? n_points : 1));
-    bad |= !fails;
-    for (int j = f0; !bad && j < pts->n_cols; j++) {
-        const char *name = pts->col_names[j];
-        const limit *lim = NULL;
-        for (int k = 0; l && k < l->n; k++)
-            if (strcmp(l->items[k].quantity, name) == 0)
-                lim = &l->items[k];
-        /* Welford's running mean and variance (numerically stable) */
-        double n = 0, mean = 0, m2 = 0, mn = HUGE_VAL, mx = -HUGE_VAL;
-        long pass = 0;
-        for (long i = 0; i < n_points; i++) {
-            double v = pts->data[(size_t)i * (size_t)pts->n_cols + (size_t)j];
-            int ok = !isnan(v);
-            if (ok) {
-                n += 1.0;
-                double d = v - mean;
-                mean += d / n;
-                m2 += d * (v - mean);
-                mn = fmin(mn, v);
-                mx = fmax(mx, v);
-            }
-            if (lim) {
-                int in = ok && v >= lim->lo && v <= lim->hi;
-                pass += in;
-                if (!in)
-                    fails[i] = 1;
-            }
-        }
-        double *row = table_add_row(t, name);
-        if (!row) {
-            bad = 1;
-            break;
-        }
-        row[0] = n;
-        row[1] = n > 0 ? mn : SS_NAN;
-        row[2] = n > 0 ? mx : SS_NAN;
-        row[3] = n > 0 ? mean : SS_NAN;
-        row[4] = n > 1 ? sqrt(m2 / (n - 1.0)) : SS_NAN;
-        row[5] = lim && n_points > 0 ? (double)pass / (double)n_points : SS_NAN;
-    }
-    if (!bad && l && l->n > 0) {
-        int status_col = f0 - 1;
-        for (long i = 0; i < n_points; i++)
-            n_pass_all += !fails[i] &&
-                          pts->data[(size_t)i * (size_t)pts->n_cols + (size_t)status_col] == 0.0;
-        double *row = table_add_row(t, "all_limits");
-        if (!row)
-            bad = 1;
-        else {
-            row[0] = (double)n_points;
-            row[5] = n_points > 0 ? (double)n_pass_all / (double)n_points : SS_NAN;
-        }
-    }
-    ss_free(fails);
-    if (bad) {
-        ss_table_destroy(&t);
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
-    *out_summary = t;
-    return SS_OK;
-}
-
-/* ---- sensitivities ------------------------------------------------------------------------ */
-
-ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
-{
-    if (s->n_tols == 0)
-        return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "sensitivities need toleranced values: .tolerance lines or --tol");
-    ss_table *nom = NULL;
-    ss_status st = ss_limits_check_names(s->limits, s->nominal, err);
-    if (st == SS_OK)
-        st = ss_figures_compute(s->nominal, s->limits, &nom, err);
-    if (st != SS_OK)
-        return st;
-    ss_table *t = table_create(s->n_tols, "figure");
-    int bad = !t;
-    for (int j = 0; !bad && j < s->n_tols; j++)
-        bad |= table_set_col(t, j, s->tols[j].name) != 0;
-    for (int f = 0; !bad && f < nom->n_rows; f++)
-        bad |= table_add_row(t, nom->row_labels[f]) == NULL;
-    if (bad) {
-        ss_table_destroy(&t);
-        ss_table_destroy(&nom);
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
-    /* central difference at +-1 % of each nominal value, the others at nominal */
-    int saved_dims = s->n_dims;
-    s->n_dims = 0;
-    double *vals = ss_alloc((size_t)s->n_tols * sizeof *vals);
-    for (int j = 0; vals && j < s->n_tols && st == SS_OK; j++) {
-        double x0 = s->tols[j].nominal;
-        ss_table *fp = NULL, *fm = NULL;
-        for (int k = 0; k < s->n_tols; k++)
-            vals[k] = s->tols[k].nominal;
-        vals[j] = x0 * 1.01;
-        st = solve_point(s, vals, s->n_tols, &fp, err);
-        vals[j] = x0 * 0.99;
-        if (st == SS_OK)
-            st = solve_point(s, vals, s->n_tols, &fm, err);
-        for (int f = 0; st == SS_OK && f < nom->n_rows; f++) {
-            double f0 = nom->data[f];
-            double dp = figures_value(fp, f, nom->row_labels[f]);
-            double dm = figures_value(fm, f, nom->row_labels[f]);
-            const char *name = nom->row_labels[f];
-            size_t ln = strlen(name);
-            int is_db = ln > 3 && strcmp(name + ln - 3, "_db") == 0;
-            double sens;
-            if (is_db) /* of the linear ratio: d(ln G) = d(dB) ln(10) / 20 */
-                sens = (dp - dm) * log(10.0) / 20.0 / 0.02;
-            else
-                sens = f0 != 0.0 ? (dp - dm) / (0.02 * f0) : SS_NAN;
-            t->data[(size_t)f * (size_t)t->n_cols + (size_t)j] = x0 != 0.0 ? sens : SS_NAN;
-        }
-        ss_table_destroy(&fp);
-        ss_table_destroy(&fm);
-    }
-    s->n_dims = saved_dims;
-    if (!vals)
-        st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    ss_free(vals);
-    ss_table_destroy(&nom);
-    if (st != SS_OK) {
-        ss_table_destroy(&t);
-        return st;
-    }
-    *out_sens = t;
-    return SS_OK;
-}
-
-/* ---- preferred values ------------------------------------------------------------------- */
-
-ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **out_values,
-                        ss_table **out_figures, ss_error *err)
-{
-    const int *tab;
-    double scale;
-    if (eseries_table(series, &tab, &scale) == 0)
-        return err_set(err, SS_ERR_INPUT, NULL, 0, "unknown series E%d (use E12, E24 or E96)",
-                       series);
-    const ss_circuit *nom = s->nominal;
-    int n_snap = 0;
-    for (int i = 0; i < nom->n_elem; i++)
-        n_snap += strchr(kinds, nom->elem[i].ops->letter) != NULL && nom->elem[i].value > 0.0;
-    if (n_snap == 0)
-        return err_set(err, SS_ERR_INPUT, nom->file, 0, "no element of kind '%s' to snap", kinds);
-    ss_status lst = ss_limits_check_names(s->limits, nom, err);
-    if (lst != SS_OK)
-        return lst;
-    ss_override *ov = ss_alloc((size_t)(n_snap + s->n_sets) * sizeof *ov);
-    char(*text)[40] = ss_alloc((size_t)n_snap * sizeof *text);
-    ss_table *vals = table_create(3, "element");
-    ss_table *nfig = NULL, *sfig = NULL, *figs = NULL;
-    ss_status st = SS_OK;
-    if (!ov || !text || !vals || table_set_col(vals, 0, "value") != 0 ||
-        table_set_col(vals, 1, "preferred") != 0 || table_set_col(vals, 2, "change_pct") != 0)
-        st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    int k = 0;
-    for (int i = 0; st == SS_OK && i < nom->n_elem; i++) {
-        const element *e = &nom->elem[i];
-        if (!strchr(kinds, e->ops->letter) || !(e->value > 0.0))
-            continue;
-        double p;
-        st = ss_eseries_nearest(series, e->value, &p, err);
-        double *row = st == SS_OK ? table_add_row(vals, e->name) : NULL;
-        if (st == SS_OK && !row)
-            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-        if (st != SS_OK)
-            break;
-        row[0] = e->value;
-        row[1] = p;
-        row[2] = 100.0 * (p / e->value - 1.0);
-        snprintf(text[k], sizeof text[k], "%.17g", p);
-        ov[k].name = e->name;
-        ov[k].value = text[k];
-        k++;
-    }
-    int n_ov = k;
-    if (st == SS_OK) {
-        /* an element given with --set is snapped from its --set value and takes the snapped
-         * one; the other --set values stay */
-        for (int i = 0; i < s->n_sets; i++)
-            if (!shadowed_by(ov, k, s->sets[i].name))
-                ov[n_ov++] = s->sets[i];
-        st = ss_figures_compute(s->nominal, s->limits, &nfig, err);
-    }
-    if (st == SS_OK) {
-        ss_circuit *snapped = NULL;
-        st = ss_circuit_parse_file(s->netlist, ov, n_ov, &snapped, err);
-        if (st == SS_OK && s->stage_in)
-            st = ss_circuit_set_stage(snapped, s->stage_in, s->stage_out, 0.0, err);
-        if (st == SS_OK)
-            st = ss_figures_compute(snapped, s->limits, &sfig, err);
-        ss_circuit_destroy(&snapped);
-    }
-    if (st == SS_OK) {
-        static const char *const cols[] = {"computed", "preferred", "shift", "shift_pct"};
-        figs = table_create(4, "figure");
-        for (int j = 0; figs && j < 4; j++)
-            if (table_set_col(figs, j, cols[j]) != 0)
-                st = SS_ERR_NOMEM;
-        for (int f = 0; figs && st == SS_OK && f < nfig->n_rows; f++) {
-            double a = nfig->data[f], b = figures_value(sfig, f, nfig->row_labels[f]);
-            double *row = table_add_row(figs, nfig->row_labels[f]);
-            if (!row) {
-                st = SS_ERR_NOMEM;
-                break;
-            }
-            row[0] = a;
-            row[1] = b;
-            row[2] = b - a;
-            row[3] = a != 0.0 ? 100.0 * (b - a) / fabs(a) : SS_NAN;
-        }
-        if (!figs || st != SS_OK)
-            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
-    ss_free(ov);
-    ss_free(text);
-    ss_table_destroy(&nfig);
-    ss_table_destroy(&sfig);
-    if (st != SS_OK) {
-        ss_table_destroy(&vals);
-        ss_table_destroy(&figs);
-        return st;
-    }
-    *out_values = vals;
-    *out_figures = figs;
-    return SS_OK;
-}
-
-/* ---- beta and temperature extremes -------------------------------------------------------- */
-
-ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_table **out,
-                           ss_error *err)
-{
-    if (!temp_in_range(temp_lo_c) || !temp_in_range(temp_hi_c) || !(temp_lo_c < temp_hi_c))
-        return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "corner temperatures %g and %g C: need -273.15 < LO < HI <= 1000 C",
-                       temp_lo_c, temp_hi_c);
-    const ss_circuit *nom = s->nominal;
-    /* every BJT model's BF at its toleranced extremes, or halved / doubled (beta spreads 2-3x
-     * within one type: common practice) */
-    int n_models = 0;
-    for (int m = 0; m < nom->n_models; m++)
-        n_models += model_corner_param(nom->models[m]) >= 0;
-    static const char *const cols[] = {"temp_c", "beta_corner", "ic_a", "vce_v", "forward_active"};
-    ss_table *t = table_create(5, "corner");
-    ss_status st = SS_OK;
-    for (int j = 0; t && j < 5; j++)
-        if (table_set_col(t, j, cols[j]) != 0)
-            st = SS_ERR_NOMEM;
-    ss_override *ov = ss_alloc((size_t)(n_models + s->n_sets + 1) * sizeof *ov);
-    char(*text)[40] = ss_alloc((size_t)(n_models + 1) * sizeof *text);
-    char(*names)[160] = ss_alloc((size_t)(n_models + 1) * sizeof *names);
-    if (!t || !ov || !text || !names || st != SS_OK)
-        st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    const double temps[2] = {temp_lo_c, temp_hi_c};
-    for (int bc = 0; st == SS_OK && bc < 2; bc++) {
-        int k = 0;
-        for (int m = 0; m < nom->n_models; m++) {
-            const model *md = nom->models[m];
-            int cp = model_corner_param(md);
-            if (cp < 0)
-                continue;
-            snprintf(names[k], sizeof names[k], "%s.%s", md->name,
-                     md->ops->model_params[cp].name);
-            double bf = md->p[cp];
-            double v = bc == 0 ? bf * 0.5 : bf * 2.0;
-            for (int i = 0; i < s->n_tols; i++)
-                if (strcmp(s->tols[i].name, names[k]) == 0)
-                    v = bc == 0 ? s->tols[i].lo : s->tols[i].hi;
-            snprintf(text[k], sizeof text[k], "%.17g", v);
-            ov[k].name = names[k];
-            ov[k].value = text[k];
-            k++;
-        }
-        /* a --set BF is the nominal the corners were taken from: the corner value replaces it */
-        int n_beta = k;
-        for (int i = 0; i < s->n_sets; i++)
-            if (!shadowed_by(ov, n_beta, s->sets[i].name))
-                ov[k++] = s->sets[i];
-        for (int tc = 0; st == SS_OK && tc < 2; tc++) {
-            ss_circuit *ckt = NULL;
-            ss_error e2 = {0};
-            ss_status pst = ss_circuit_parse_file(s->netlist, ov, k, &ckt, &e2);
-            if (pst == SS_OK)
-                pst = ss_circuit_set_temp(ckt, temps[tc], &e2);
-            if (pst == SS_OK)
-                pst = op_solve_into(ckt, NULL, &e2);
-            for (int i = 0; ckt && i < ckt->n_elem && st == SS_OK; i++) {
-                const element *e = &ckt->elem[i];
-                if (!e->ops->op_point)
-                    continue;
-                char label[300];
-                snprintf(label, sizeof label, "%s beta %s, %g C", e->name, bc ? "high" : "low",
-                         temps[tc]);
-                double *row = table_add_row(t, label);
-                if (!row) {
-                    st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-                    break;
-                }
-                row[0] = temps[tc];
-                row[1] = bc ? 1.0 : -1.0;
-                if (pst == SS_OK) {
-                    dev_op_point op;
-                    e->ops->op_point(e, ckt->x_op, analysis_vt(ckt), ckt->opt.gmin, &op);
-                    row[2] = op.i_a;
-                    row[3] = op.v_v;
-                    row[4] = op.amplifying;
-                }
-            }
-            ss_circuit_destroy(&ckt);
-        }
-    }
-    ss_free(ov);
-    ss_free(text);
-    ss_free(names);
-    if (st != SS_OK) {
-        ss_table_destroy(&t);
-        return st;
-    }
-    *out = t;
     return SS_OK;
 }
 

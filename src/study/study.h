@@ -4,6 +4,7 @@
 #define SS_STUDY_H
 
 #include "analysis/analysis.h"
+#include "netlist/netlist.h"
 
 typedef struct limit {
     char quantity[128]; /* lower case; "gain_db@1000" style when at a frequency */
@@ -21,6 +22,65 @@ struct ss_limits {
     ss_arena arena;
     char sha256[65]; /* over the texts added (file and text limits), chained; "" when none */
 };
+
+/* ---- the study object: set up and run by runner.c; sensitivity.c and snap.c work from it ----- */
+
+#define STUDY_MAX_POINTS 100000000L
+#define STUDY_MAX_DIMS 16
+
+typedef struct vary_dim {
+    const char *name; /* lower case; "temp" for temperature */
+    double *values;
+    int n;
+} vary_dim;
+
+typedef struct tol_spec {
+    const char *name;
+    double nominal;
+    double lo, hi; /* absolute range */
+    int gauss;
+} tol_spec;
+
+struct ss_study {
+    ss_arena arena;
+    const char *netlist;
+    ss_override *sets;
+    int n_sets;
+    const char *stage_in, *stage_out;
+    vary_dim dims[STUDY_MAX_DIMS];
+    int n_dims;
+    tol_spec *tols;
+    int n_tols, cap_tols;
+    long trials;
+    unsigned long long seed;
+    int threads;
+    int shard_k, shard_n;
+    const ss_limits *limits; /* == own_limits: the netlist's .expect lines plus any added */
+    ss_limits *own_limits;
+    ss_progress_fn progress;
+    void *progress_ctx;
+    ss_circuit *nominal;
+    char limits_sha256[65]; /* of the limits added (ss_study_add_limits), "" when none */
+};
+
+/* 1 when one of ov[0 .. n-1] names `name` (case-insensitive): that override replaces it. */
+static inline int shadowed_by(const ss_override *ov, int n, const char *name)
+{
+    for (int j = 0; j < n; j++)
+        if (strcasecmp_ascii_eq(ov[j].name, name))
+            return 1;
+    return 0;
+}
+
+/* A temperature a study may set, in degrees C: above absolute zero, at most 1000 C. */
+static inline int temp_in_range(double t) { return t > -SS_ZERO_C_IN_K && t <= 1000.0; }
+
+/* Solves one point: the netlist parsed again with the study's --set values and, in place of
+ * them where they name the same value, vals[0 .. n_dims-1] for the swept names and
+ * vals[n_dims .. n_dims+n_vals_tol-1] for the first n_vals_tol tolerances; then its figures
+ * (*out_figs, the caller's to destroy). (runner.c; sensitivity.c uses it.) */
+SS_HIDDEN ss_status study_solve_point(ss_study *s, const double *vals, int n_vals_tol,
+                                      ss_table **out_figs, ss_error *err);
 
 /* Per-frequency stage quantities a limit may name with `@ FREQ`. */
 SS_HIDDEN int study_is_point_quantity(const char *base);
