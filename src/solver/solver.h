@@ -28,6 +28,7 @@ struct ss_solver {
     unsigned char *param_state;                      /* replay: 0 todo, 1 busy, 2 done */
     int values_dirty; /* a value was set: replay the tape before the next analysis */
     int n_pins;
+    int fixed_conflict; /* the last replay failed on a value fixed after parsing */
     int recheck_structure; /* values changed: the next prepare checks the internal nodes */
     double temp_c;
 

@@ -122,7 +122,7 @@ static ss_status replay_entry(replay_ctx *rc, const tape_entry *te, ss_error *er
         sv->slot_val[te->field] = v;
         break;
     default: /* an analysis setting, option or waveform value: fixed after parsing */
-        if (memcmp(&v, &te->nominal, sizeof v) != 0)
+        if (memcmp(&v, &te->nominal, sizeof v) != 0 && (sv->fixed_conflict = 1))
             return err_set(err, SS_ERR_INPUT, te->file, te->line,
                            "'%s' is an analysis setting, option or waveform value and is fixed "
                            "once the netlist is read; it changes with the values set (%g, not "
@@ -169,6 +169,7 @@ ss_status solver_sync_values(ss_solver *sv, ss_error *err)
     for (int k = 0; k < ckt->n_params; k++)
         sv->param_state[k] = sv->param_pin[k] ? 2 : 0;
     replay_ctx rc = {sv, -1, 0, -1};
+    sv->fixed_conflict = 0;
     ss_status st = SS_OK;
     for (int k = 0; k < ckt->n_params && st == SS_OK; k++) {
         char msg[512];

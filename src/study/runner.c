@@ -100,6 +100,8 @@ ss_status ss_study_create(const char *netlist_path, const ss_override *sets, int
     s->n_sets = n_sets;
     s->shard_k = s->shard_n = 1;
     ss_status st = ss_circuit_parse_file(netlist_path, sets, n_sets, &s->nominal, err);
+    if (st == SS_OK)
+        st = ss_solver_create(s->nominal, &s->nominal_sv, err);
     if (st != SS_OK) {
         ss_study_destroy(&s);
         return st;
@@ -167,18 +169,19 @@ void ss_study_destroy(ss_study **ps)
         ss_free(s->dims[i].values);
     ss_free(s->tols);
     ss_limits_destroy(&s->own_limits);
+    ss_solver_destroy(&s->nominal_sv);
     ss_circuit_destroy(&s->nominal);
     arena_clear(&s->arena);
     ss_free(s);
     *ps = NULL;
 }
 
-/* Names the stage on the nominal circuit (once; every later use of the nominal has it) and
- * keeps the names for the per-point circuits. */
+/* Names the stage on the nominal context (once; every later use of it has it) and keeps the
+ * names for the per-thread contexts. */
 ss_status ss_study_set_stage(ss_study *s, const char *in_source, const char *out_node,
                              ss_error *err)
 {
-    ss_status st = ss_circuit_set_stage(s->nominal, in_source, out_node, 0.0, err);
+    ss_status st = ss_solver_set_stage(s->nominal_sv, in_source, out_node, 0.0, err);
     if (st != SS_OK)
         return st;
     s->stage_in = arena_strdup(&s->arena, in_source);
@@ -197,7 +200,18 @@ static ss_status check_name(ss_study *s, const char *name, double *nominal, ss_e
     ss_error e2 = {0};
     if (ss_circuit_get_value(s->nominal, name, nominal, &e2) != SS_OK)
         return err_set(err, SS_ERR_INPUT, NULL, 0, "%s", e2.message);
-    return SS_OK;
+    /* a value an analysis setting, option or waveform is written in terms of cannot move
+     * point by point: refused here, once, rather than failing every point */
+    ss_solver *sv = s->nominal_sv;
+    ss_solver_reset_values(sv);
+    double probe = *nominal != 0.0 ? *nominal * 1.5 : 1.0;
+    ss_status st = ss_solver_set_value(sv, name, probe, &e2);
+    if (st == SS_OK && solver_sync_values(sv, &e2) != SS_OK && sv->fixed_conflict)
+        st = err_set(err, SS_ERR_INPUT, e2.file, e2.line, "%s: %s", name, e2.message);
+    else if (st != SS_OK)
+        st = err_set(err, SS_ERR_INPUT, NULL, 0, "%s", e2.message);
+    ss_solver_reset_values(sv);
+    return st;
 }
 
 /* A number of a .tolerance line: a netlist value (unit letters allowed, `1uF`). */
@@ -563,63 +577,42 @@ static void point_values(const ss_study *s, long p, double *vals)
     }
 }
 
-static ss_status solve_point(ss_study *s, const double *vals, int n_vals_tol,
+/* One point on the context sv: every value back to the nominal (the netlist with the study's
+ * --set values), then the swept and sampled values set by name -- a sampled value replaces a
+ * --set one of the same name, as the tolerance spreads around it -- and the figures solved. */
+static ss_status solve_point(ss_study *s, ss_solver *sv, const double *vals, int n_vals_tol,
                              ss_table **out_figs, ss_error *err)
 {
-    int n_ov = s->n_sets + s->n_dims + n_vals_tol;
-    ss_override ov[STUDY_MAX_DIMS + 64];
-    char text[STUDY_MAX_DIMS + 64][40];
-    ss_override *ovp = ov;
-    char(*textp)[40] = text;
-    if (n_ov > (int)(sizeof ov / sizeof ov[0])) {
-        ovp = ss_alloc((size_t)n_ov * sizeof *ovp);
-        textp = ss_alloc((size_t)n_ov * sizeof *textp);
-        if (!ovp || !textp) {
-            ss_free(ovp);
-            ss_free(textp);
-            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-        }
-    }
-    int k = 0;
-    double temp = SS_NAN;
-    for (int i = 0; i < s->n_dims + n_vals_tol; i++) {
+    ss_solver_reset_values(sv);
+    ss_status st = SS_OK;
+    for (int i = 0; i < s->n_dims + n_vals_tol && st == SS_OK; i++) {
         const char *name = i < s->n_dims ? s->dims[i].name : s->tols[i - s->n_dims].name;
-        if (strcmp(name, "temp") == 0) {
-            temp = vals[i];
-            continue;
-        }
-        snprintf(textp[k], sizeof textp[k], "%.17g", vals[i]);
-        ovp[k].name = name;
-        ovp[k].value = textp[k];
-        k++;
+        st = strcmp(name, "temp") == 0 ? ss_solver_set_temp(sv, vals[i], err)
+                                       : ss_solver_set_value(sv, name, vals[i], err);
     }
-    /* the fixed --set values come last, but not where a sampled value replaces them: a
-     * tolerance on a --set name spreads around the --set value (its nominal); a swept name
-     * cannot also be --set (ss_study_add_vary) */
-    int n_sampled = k;
-    for (int i = 0; i < s->n_sets; i++)
-        if (!shadowed_by(ovp, n_sampled, s->sets[i].name))
-            ovp[k++] = s->sets[i];
-    ss_circuit *ckt = NULL;
-    ss_status st = ss_circuit_parse_file(s->netlist, ovp, k, &ckt, err);
-    if (ovp != ov) {
-        ss_free(ovp);
-        ss_free(textp);
-    }
-    if (st == SS_OK && !isnan(temp))
-        st = ss_circuit_set_temp(ckt, temp, err);
-    if (st == SS_OK && s->stage_in)
-        st = ss_circuit_set_stage(ckt, s->stage_in, s->stage_out, 0.0, err);
     if (st == SS_OK)
-        st = ss_figures_compute(ckt, s->limits, out_figs, err);
-    ss_circuit_destroy(&ckt);
+        st = ss_figures_compute(sv, s->limits, out_figs, err);
     return st;
 }
 
-ss_status study_solve_point(ss_study *s, const double *vals, int n_vals_tol, ss_table **out_figs,
-                            ss_error *err)
+ss_status study_solve_point(ss_study *s, ss_solver *sv, const double *vals, int n_vals_tol,
+                            ss_table **out_figs, ss_error *err)
 {
-    return solve_point(s, vals, n_vals_tol, out_figs, err);
+    return solve_point(s, sv, vals, n_vals_tol, out_figs, err);
+}
+
+ss_status study_context(const ss_study *s, ss_solver **out, ss_error *err)
+{
+    ss_solver *sv = NULL;
+    ss_status st = ss_solver_create(s->nominal, &sv, err);
+    if (st == SS_OK && s->stage_in)
+        st = ss_solver_set_stage(sv, s->stage_in, s->stage_out, 0.0, err);
+    if (st != SS_OK) {
+        ss_solver_destroy(&sv);
+        return st;
+    }
+    *out = sv;
+    return SS_OK;
 }
 
 static int status_class(ss_status st)
@@ -635,6 +628,17 @@ static void *worker(void *arg)
     double vals[STUDY_MAX_DIMS + 4096];
     if (n_vals > (int)(sizeof vals / sizeof vals[0]))
         return NULL;
+    ss_solver *sv = NULL; /* this thread's context: values change in place, point by point */
+    ss_error ce = {0};
+    if (study_context(s, &sv, &ce) != SS_OK) {
+        pthread_mutex_lock(&sh->lock);
+        if (sh->fatal == SS_OK) {
+            sh->fatal = ce.code;
+            sh->fatal_err = ce;
+        }
+        pthread_mutex_unlock(&sh->lock);
+        return NULL;
+    }
     for (;;) {
         pthread_mutex_lock(&sh->lock);
         long i = sh->next < sh->count && sh->fatal == SS_OK ? sh->next++ : -1;
@@ -645,7 +649,7 @@ static void *worker(void *arg)
         point_values(s, p, vals);
         ss_table *figs = NULL;
         ss_error e = {0};
-        ss_status st = solve_point(s, vals, s->trials > 0 ? s->n_tols : 0, &figs, &e);
+        ss_status st = solve_point(s, sv, vals, s->trials > 0 ? s->n_tols : 0, &figs, &e);
         double *row = sh->out->data + (size_t)i * (size_t)sh->out->n_cols;
         row[0] = (double)p;
         for (int v = 0; v < n_vals; v++)
@@ -666,6 +670,7 @@ static void *worker(void *arg)
         if (s->progress)
             s->progress(s->progress_ctx, done, sh->count);
     }
+    ss_solver_destroy(&sv);
     return NULL;
 }
 
@@ -685,14 +690,15 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
                                "--vary %s: %s also has a tolerance (--tol or .tolerance); a "
                                "tolerance run cannot both sweep and sample it",
                                s->dims[d].name, s->dims[d].name);
-    ss_status st = ss_limits_check_names(s->limits, s->nominal, err);
+    ss_status st = ss_limits_check_names(s->limits, s->nominal_sv, err);
     if (st != SS_OK)
         return st;
     long first = total * (s->shard_k - 1) / s->shard_n;
     long end = total * s->shard_k / s->shard_n;
     /* the nominal run fixes the figure columns */
     ss_table *nominal_figs = NULL;
-    st = ss_figures_compute(s->nominal, s->limits, &nominal_figs, err);
+    ss_solver_reset_values(s->nominal_sv);
+    st = ss_figures_compute(s->nominal_sv, s->limits, &nominal_figs, err);
     if (st != SS_OK)
         return st;
     int n_vals = s->n_dims + (s->trials > 0 ? s->n_tols : 0);

@@ -1,5 +1,6 @@
 /* Sensitivities of every figure to every toleranced value, by central differences about the
- * nominal, and the BJT operating points at beta and temperature extremes. Solving is runner.c's. */
+ * nominal, and the BJT operating points at beta and temperature extremes, each on a context of
+ * the nominal circuit with its values changed in place. Solving is runner.c's. */
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -12,9 +13,10 @@ ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "sensitivities need toleranced values: .tolerance lines or --tol");
     ss_table *nom = NULL;
-    ss_status st = ss_limits_check_names(s->limits, s->nominal, err);
+    ss_status st = ss_limits_check_names(s->limits, s->nominal_sv, err);
+    ss_solver_reset_values(s->nominal_sv);
     if (st == SS_OK)
-        st = ss_figures_compute(s->nominal, s->limits, &nom, err);
+        st = ss_figures_compute(s->nominal_sv, s->limits, &nom, err);
     if (st != SS_OK)
         return st;
     ss_table *t = table_create(s->n_tols, "figure");
@@ -32,16 +34,19 @@ ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
     int saved_dims = s->n_dims;
     s->n_dims = 0;
     double *vals = ss_alloc((size_t)s->n_tols * sizeof *vals);
-    for (int j = 0; vals && j < s->n_tols && st == SS_OK; j++) {
+    ss_solver *sv = NULL;
+    if (st == SS_OK && vals)
+        st = study_context(s, &sv, err);
+    for (int j = 0; vals && sv && j < s->n_tols && st == SS_OK; j++) {
         double x0 = s->tols[j].nominal;
         ss_table *fp = NULL, *fm = NULL;
         for (int k = 0; k < s->n_tols; k++)
             vals[k] = s->tols[k].nominal;
         vals[j] = x0 * 1.01;
-        st = study_solve_point(s, vals, s->n_tols, &fp, err);
+        st = study_solve_point(s, sv, vals, s->n_tols, &fp, err);
         vals[j] = x0 * 0.99;
         if (st == SS_OK)
-            st = study_solve_point(s, vals, s->n_tols, &fm, err);
+            st = study_solve_point(s, sv, vals, s->n_tols, &fm, err);
         for (int f = 0; st == SS_OK && f < nom->n_rows; f++) {
             double f0 = nom->data[f];
             double dp = figures_value(fp, f, nom->row_labels[f]);
@@ -62,6 +67,7 @@ ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
     s->n_dims = saved_dims;
     if (!vals)
         st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    ss_solver_destroy(&sv);
     ss_free(vals);
     ss_table_destroy(&nom);
     if (st != SS_OK) {
@@ -93,11 +99,13 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
     for (int j = 0; t && j < 5; j++)
         if (table_set_col(t, j, cols[j]) != 0)
             st = SS_ERR_NOMEM;
-    ss_override *ov = ss_alloc((size_t)(n_models + s->n_sets + 1) * sizeof *ov);
-    char(*text)[40] = ss_alloc((size_t)(n_models + 1) * sizeof *text);
     char(*names)[160] = ss_alloc((size_t)(n_models + 1) * sizeof *names);
-    if (!t || !ov || !text || !names || st != SS_OK)
+    double *beta = ss_alloc((size_t)(n_models + 1) * sizeof *beta);
+    ss_solver *sv = NULL;
+    if (!t || !names || !beta || st != SS_OK)
         st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    if (st == SS_OK)
+        st = study_context(s, &sv, err);
     const double temps[2] = {temp_lo_c, temp_hi_c};
     for (int bc = 0; st == SS_OK && bc < 2; bc++) {
         int k = 0;
@@ -108,31 +116,25 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
                 continue;
             snprintf(names[k], sizeof names[k], "%s.%s", md->name,
                      md->ops->model_params[cp].name);
-            double bf = md->p[cp];
+            double bf = md->p[cp]; /* a --set BF is the nominal the corners are taken from */
             double v = bc == 0 ? bf * 0.5 : bf * 2.0;
             for (int i = 0; i < s->n_tols; i++)
                 if (strcmp(s->tols[i].name, names[k]) == 0)
                     v = bc == 0 ? s->tols[i].lo : s->tols[i].hi;
-            snprintf(text[k], sizeof text[k], "%.17g", v);
-            ov[k].name = names[k];
-            ov[k].value = text[k];
-            k++;
+            beta[k++] = v;
         }
-        /* a --set BF is the nominal the corners were taken from: the corner value replaces it */
-        int n_beta = k;
-        for (int i = 0; i < s->n_sets; i++)
-            if (!shadowed_by(ov, n_beta, s->sets[i].name))
-                ov[k++] = s->sets[i];
         for (int tc = 0; st == SS_OK && tc < 2; tc++) {
-            ss_circuit *ckt = NULL;
             ss_error e2 = {0};
-            ss_status pst = ss_circuit_parse_file(s->netlist, ov, k, &ckt, &e2);
+            ss_solver_reset_values(sv);
+            ss_status pst = SS_OK;
+            for (int b = 0; b < k && pst == SS_OK; b++)
+                pst = ss_solver_set_value(sv, names[b], beta[b], &e2);
             if (pst == SS_OK)
-                pst = ss_circuit_set_temp(ckt, temps[tc], &e2);
+                pst = ss_solver_set_temp(sv, temps[tc], &e2);
             if (pst == SS_OK)
-                pst = op_solve_into(ckt, NULL, &e2);
-            for (int i = 0; ckt && i < ckt->n_elem && st == SS_OK; i++) {
-                const element *e = &ckt->elem[i];
+                pst = op_solve_into(sv, NULL, &e2);
+            for (int i = 0; i < sv->n_elem && st == SS_OK; i++) {
+                const element *e = &sv->elem[i];
                 if (!e->ops->op_point)
                     continue;
                 char label[300];
@@ -147,17 +149,16 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
                 row[1] = bc ? 1.0 : -1.0;
                 if (pst == SS_OK) {
                     dev_op_point op;
-                    e->ops->op_point(e, ckt->x_op, analysis_vt(ckt), ckt->opt.gmin, &op);
+                    e->ops->op_point(e, sv->x_op, analysis_vt(sv), sv->ckt->opt.gmin, &op);
                     row[2] = op.i_a;
                     row[3] = op.v_v;
                     row[4] = op.amplifying;
                 }
             }
-            ss_circuit_destroy(&ckt);
         }
     }
-    ss_free(ov);
-    ss_free(text);
+    ss_solver_destroy(&sv);
+    ss_free(beta);
     ss_free(names);
     if (st != SS_OK) {
         ss_table_destroy(&t);

@@ -20,15 +20,15 @@ ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **o
         n_snap += strchr(kinds, nom->elem[i].ops->letter) != NULL && nom->elem[i].value > 0.0;
     if (n_snap == 0)
         return err_set(err, SS_ERR_INPUT, nom->file, 0, "no element of kind '%s' to snap", kinds);
-    ss_status lst = ss_limits_check_names(s->limits, nom, err);
+    ss_status lst = ss_limits_check_names(s->limits, s->nominal_sv, err);
     if (lst != SS_OK)
         return lst;
-    ss_override *ov = ss_alloc((size_t)(n_snap + s->n_sets) * sizeof *ov);
-    char(*text)[40] = ss_alloc((size_t)n_snap * sizeof *text);
+    const char **snap_name = ss_alloc((size_t)n_snap * sizeof *snap_name);
+    double *snap_value = ss_alloc((size_t)n_snap * sizeof *snap_value);
     ss_table *vals = table_create(3, "element");
     ss_table *nfig = NULL, *sfig = NULL, *figs = NULL;
     ss_status st = SS_OK;
-    if (!ov || !text || !vals || table_set_col(vals, 0, "value") != 0 ||
+    if (!snap_name || !snap_value || !vals || table_set_col(vals, 0, "value") != 0 ||
         table_set_col(vals, 1, "preferred") != 0 || table_set_col(vals, 2, "change_pct") != 0)
         st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     int k = 0;
@@ -46,28 +46,24 @@ ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **o
         row[0] = e->value;
         row[1] = p;
         row[2] = 100.0 * (p / e->value - 1.0);
-        snprintf(text[k], sizeof text[k], "%.17g", p);
-        ov[k].name = e->name;
-        ov[k].value = text[k];
+        snap_name[k] = e->name;
+        snap_value[k] = p;
         k++;
     }
-    int n_ov = k;
     if (st == SS_OK) {
-        /* an element given with --set is snapped from its --set value and takes the snapped
-         * one; the other --set values stay */
-        for (int i = 0; i < s->n_sets; i++)
-            if (!shadowed_by(ov, k, s->sets[i].name))
-                ov[n_ov++] = s->sets[i];
-        st = ss_figures_compute(s->nominal, s->limits, &nfig, err);
+        ss_solver_reset_values(s->nominal_sv);
+        st = ss_figures_compute(s->nominal_sv, s->limits, &nfig, err);
     }
     if (st == SS_OK) {
-        ss_circuit *snapped = NULL;
-        st = ss_circuit_parse_file(s->netlist, ov, n_ov, &snapped, err);
-        if (st == SS_OK && s->stage_in)
-            st = ss_circuit_set_stage(snapped, s->stage_in, s->stage_out, 0.0, err);
+        /* an element given with --set is snapped from its --set value and takes the snapped
+         * one; the other --set values stay (the nominal circuit has them) */
+        ss_solver *sv = NULL;
+        st = study_context(s, &sv, err);
+        for (int j = 0; st == SS_OK && j < k; j++)
+            st = ss_solver_set_value(sv, snap_name[j], snap_value[j], err);
         if (st == SS_OK)
-            st = ss_figures_compute(snapped, s->limits, &sfig, err);
-        ss_circuit_destroy(&snapped);
+            st = ss_figures_compute(sv, s->limits, &sfig, err);
+        ss_solver_destroy(&sv);
     }
     if (st == SS_OK) {
         static const char *const cols[] = {"computed", "preferred", "shift", "shift_pct"};
@@ -90,8 +86,8 @@ ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **o
         if (!figs || st != SS_OK)
             st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
-    ss_free(ov);
-    ss_free(text);
+    ss_free(snap_name);
+    ss_free(snap_value);
     ss_table_destroy(&nfig);
     ss_table_destroy(&sfig);
     if (st != SS_OK) {

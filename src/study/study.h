@@ -59,7 +59,8 @@ struct ss_study {
     ss_limits *own_limits;
     ss_progress_fn progress;
     void *progress_ctx;
-    ss_circuit *nominal;
+    ss_circuit *nominal;     /* parsed once, with the --set values */
+    ss_solver *nominal_sv;   /* its context, with the stage: the nominal figures and names */
     char limits_sha256[65]; /* of the limits added (ss_study_add_limits), "" when none */
 };
 
@@ -75,12 +76,14 @@ static inline int shadowed_by(const ss_override *ov, int n, const char *name)
 /* A temperature a study may set, in degrees C: above absolute zero, at most 1000 C. */
 static inline int temp_in_range(double t) { return t > -SS_ZERO_C_IN_K && t <= 1000.0; }
 
-/* Solves one point: the netlist parsed again with the study's --set values and, in place of
- * them where they name the same value, vals[0 .. n_dims-1] for the swept names and
- * vals[n_dims .. n_dims+n_vals_tol-1] for the first n_vals_tol tolerances; then its figures
- * (*out_figs, the caller's to destroy). (runner.c; sensitivity.c uses it.) */
-SS_HIDDEN ss_status study_solve_point(ss_study *s, const double *vals, int n_vals_tol,
-                                      ss_table **out_figs, ss_error *err);
+/* Solves one point on context sv (study_context): the nominal values (the study's --set ones
+ * included) and, in place of them where they name the same value, vals[0 .. n_dims-1] for the
+ * swept names and vals[n_dims .. n_dims+n_vals_tol-1] for the first n_vals_tol tolerances;
+ * then its figures (*out_figs, the caller's to destroy). (runner.c; sensitivity.c uses it.) */
+SS_HIDDEN ss_status study_solve_point(ss_study *s, ss_solver *sv, const double *vals,
+                                      int n_vals_tol, ss_table **out_figs, ss_error *err);
+/* A new context on the study's nominal circuit, with its stage (the caller destroys it). */
+SS_HIDDEN ss_status study_context(const ss_study *s, ss_solver **out, ss_error *err);
 
 /* Per-frequency stage quantities a limit may name with `@ FREQ`. */
 SS_HIDDEN int study_is_point_quantity(const char *base);

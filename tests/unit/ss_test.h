@@ -30,6 +30,47 @@ static inline void ss_assert_close_impl(double actual, double expected, double r
     }
 }
 
+/* The solver context of a test circuit: made on first use, kept beside the circuit and
+ * destroyed with it by ss_test_destroy (the tests solve through one context per circuit, as
+ * the command-line tool does). */
+#define SS_TEST_MAX_CONTEXTS 64
+static struct ss_test_pair {
+    const ss_circuit *ckt;
+    ss_solver *sv;
+} ss_test_pairs[SS_TEST_MAX_CONTEXTS];
+
+static inline ss_solver *ss_test_sv(const ss_circuit *ckt)
+{
+    int free_slot = -1;
+    for (int i = 0; i < SS_TEST_MAX_CONTEXTS; i++) {
+        if (ss_test_pairs[i].ckt == ckt && ckt)
+            return ss_test_pairs[i].sv;
+        if (!ss_test_pairs[i].ckt && free_slot < 0)
+            free_slot = i;
+    }
+    ss_error err;
+    memset(&err, 0, sizeof err);
+    ss_solver *sv = NULL;
+    if (free_slot < 0 || ss_solver_create(ckt, &sv, &err) != SS_OK) {
+        print_error("no context: %s\n", err.message);
+        fail();
+    }
+    ss_test_pairs[free_slot].ckt = ckt;
+    ss_test_pairs[free_slot].sv = sv;
+    return sv;
+}
+
+/* Destroys the circuit and its context (if one was made). */
+static inline void ss_test_destroy(ss_circuit **ckt)
+{
+    for (int i = 0; ckt && *ckt && i < SS_TEST_MAX_CONTEXTS; i++)
+        if (ss_test_pairs[i].ckt == *ckt) {
+            ss_solver_destroy(&ss_test_pairs[i].sv);
+            ss_test_pairs[i].ckt = NULL;
+        }
+    ss_circuit_destroy(ckt);
+}
+
 /* Parses text; fails the test with the formatted error when parsing fails. */
 static inline ss_circuit *ss_test_parse(const char *text)
 {
@@ -68,11 +109,11 @@ static inline ss_table *ss_test_op(const char *text, ss_circuit **out_ckt)
     ss_table *op = NULL;
     ss_error err;
     memset(&err, 0, sizeof err);
-    if (ss_op_solve(ckt, &op, NULL, &err) != SS_OK) {
+    if (ss_op_solve(ss_test_sv(ckt), &op, NULL, &err) != SS_OK) {
         char msg[1400];
         ss_error_format(&err, msg, sizeof msg);
         print_error("op failed: %s\n", msg);
-        ss_circuit_destroy(&ckt);
+        ss_test_destroy(&ckt);
         fail();
     }
     *out_ckt = ckt;
