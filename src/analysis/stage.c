@@ -139,6 +139,145 @@ ss_status stage_at_frequency(ss_circuit *ckt, double freq_hz, double complex *ga
 
 static double phase_deg(double complex z) { return carg(z) * 180.0 / SS_PI; }
 
+/* One stage run's sweep: the stage, the .ac frequencies and the points there, mid-band (the
+ * largest gain, refined between grid points) and the half-power corners. */
+typedef struct stage_sweep {
+    const element *src;
+    int out_node;
+    double *freqs;
+    int nf;
+    stage_pt *pts;
+    int k_mid; /* the grid point of largest gain */
+    double f_mid, g_mid;
+    stage_pt mid;
+    double f_low, f_high; /* NaN: no corner in the sweep */
+} stage_sweep;
+
+/* stage.csv's table (room reserved for nf rows) and stage_summary.csv's, into *out_t and
+ * *out_s (NULL where they could not be made); nonzero when something could not be made. */
+static int stage_tables(int nf, ss_table **out_t, ss_table **out_s)
+{
+    static const char *const cols[] = {"freq_hz",   "gain",    "gain_db",
+                                       "phase_deg", "zin_ohm", "zout_ohm"};
+    ss_table *t = table_create(6, NULL);
+    ss_table *s = table_create(1, "metric");
+    int bad = !t || !s || table_reserve(t, nf) != 0 || table_set_col(s, 0, "value") != 0;
+    for (int j = 0; !bad && j < 6; j++)
+        bad |= table_set_col(t, j, cols[j]);
+    *out_t = t;
+    *out_s = s;
+    return bad;
+}
+
+/* Every grid point, and mid-band: the grid point of largest gain, refined between its
+ * neighbours. g_mid is 0 when a solve failed. */
+static ss_status stage_mid(ss_circuit *ckt, stage_sweep *sw, ss_error *err)
+{
+    ss_status st = SS_OK;
+    int k_mid = 0;
+    for (int k = 0; k < sw->nf && st == SS_OK; k++) {
+        st = stage_point(ckt, sw->src, sw->out_node, sw->freqs[k], &sw->pts[k], err);
+        if (st == SS_OK && cabs(sw->pts[k].gain) > cabs(sw->pts[k_mid].gain))
+            k_mid = k;
+    }
+    sw->k_mid = k_mid;
+    sw->f_mid = sw->freqs[k_mid];
+    sw->mid = sw->pts[k_mid];
+    if (st == SS_OK && k_mid > 0 && k_mid + 1 < sw->nf)
+        st = refine_peak(ckt, sw->src, sw->out_node, sw->freqs[k_mid - 1], sw->freqs[k_mid + 1],
+                         &sw->f_mid, &sw->mid, err);
+    sw->g_mid = st == SS_OK ? cabs(sw->mid.gain) : 0.0;
+    return st;
+}
+
+/* The half-power corners either side of mid-band, pinned between the grid points where the
+ * gain first falls below g_mid / sqrt(2). */
+static ss_status stage_corners(ss_circuit *ckt, stage_sweep *sw, ss_error *err)
+{
+    ss_status st = SS_OK;
+    const stage_pt *pts = sw->pts;
+    const double *freqs = sw->freqs;
+    double target = sw->g_mid * HALF_POWER;
+    for (int k = sw->k_mid; k > 0 && st == SS_OK; k--)
+        if (cabs(pts[k - 1].gain) < target) {
+            st = refine_corner(ckt, sw->src, sw->out_node, freqs[k], freqs[k - 1], target,
+                               &sw->f_low, err);
+            break;
+        }
+    for (int k = sw->k_mid; k + 1 < sw->nf && st == SS_OK; k++)
+        if (cabs(pts[k + 1].gain) < target) {
+            st = refine_corner(ckt, sw->src, sw->out_node, freqs[k], freqs[k + 1], target,
+                               &sw->f_high, err);
+            break;
+        }
+    return st;
+}
+
+/* stage.csv's rows into t (room reserved): the phase unwrapped along the sweep, then shifted
+ * so mid-band lies in (-180, 180]. Returns SS_OK or SS_ERR_NOMEM. */
+static ss_status stage_rows(ss_table *t, const stage_sweep *sw, ss_error *err)
+{
+    const int nf = sw->nf, k_mid = sw->k_mid;
+    const stage_pt *pts = sw->pts;
+    double *ph = ss_alloc((size_t)nf * sizeof *ph);
+    if (!ph)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    for (int k = 0; k < nf; k++) {
+        ph[k] = phase_deg(pts[k].gain);
+        if (k > 0)
+            ph[k] -= 360.0 * round((ph[k] - ph[k - 1]) / 360.0);
+    }
+    double shift = 360.0 * round((ph[k_mid] - phase_deg(pts[k_mid].gain)) / 360.0);
+    for (int k = 0; k < nf; k++) {
+        double *row = table_add_row(t, NULL);
+        double gm = cabs(pts[k].gain);
+        row[0] = sw->freqs[k];
+        row[1] = gm;
+        row[2] = 20.0 * log10(gm);
+        row[3] = ph[k] - shift;
+        row[4] = cabs(pts[k].zin);
+        row[5] = cabs(pts[k].zout);
+    }
+    ss_free(ph);
+    return SS_OK;
+}
+
+/* stage_summary.csv's rows into s. */
+static ss_status stage_summary_rows(ss_circuit *ckt, ss_table *s, const stage_sweep *sw,
+                                    ss_error *err)
+{
+    ss_status st = SS_OK;
+    const double g_mid = sw->g_mid, f_low = sw->f_low, f_high = sw->f_high;
+    /* a low-pass stage (no low corner in range) counts its bandwidth from DC when the
+     * small-signal gain at 0 Hz is itself within 3 dB of mid-band */
+    double bw = SS_NAN;
+    if (!isnan(f_low) && !isnan(f_high)) {
+        bw = f_high - f_low;
+    } else if (isnan(f_low) && !isnan(f_high)) {
+        stage_pt dc = {0, 0, 0};
+        st = stage_point(ckt, sw->src, sw->out_node, 0.0, &dc, err);
+        if (st == SS_OK && cabs(dc.gain) >= g_mid * HALF_POWER)
+            bw = f_high;
+    }
+    const struct {
+        const char *name;
+        double v;
+    } rows[] = {
+        {"gain_mid_db", 20.0 * log10(g_mid)}, {"f_mid_hz", sw->f_mid},
+        {"f_low_hz", f_low},                  {"f_high_hz", f_high},
+        {"bandwidth_hz", bw},                 {"zin_mid_ohm", cabs(sw->mid.zin)},
+        {"zout_mid_ohm", cabs(sw->mid.zout)},
+    };
+    for (size_t i = 0; st == SS_OK && i < sizeof rows / sizeof rows[0]; i++) {
+        double *row = table_add_row(s, rows[i].name);
+        if (!row)
+            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        else
+            row[0] = rows[i].v;
+    }
+    return st;
+}
+
 ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_summary,
                        ss_error *err)
 {
@@ -148,111 +287,32 @@ ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_sum
     ss_status st;
     if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
         return st;
-    const element *src = &ckt->elem[circuit_find_elem(ckt, ckt->stage_in)];
-    int out_node = circuit_find_node(ckt, ckt->stage_out);
-    double *freqs = NULL;
-    int nf = 0;
-    if ((st = ac_frequencies(ckt, &freqs, &nf, err)) != SS_OK)
+    stage_sweep sw;
+    memset(&sw, 0, sizeof sw);
+    sw.src = &ckt->elem[circuit_find_elem(ckt, ckt->stage_in)];
+    sw.out_node = circuit_find_node(ckt, ckt->stage_out);
+    if ((st = ac_frequencies(ckt, &sw.freqs, &sw.nf, err)) != SS_OK)
         return st;
-    static const char *const cols[] = {"freq_hz",   "gain",    "gain_db",
-                                       "phase_deg", "zin_ohm", "zout_ohm"};
-    ss_table *t = table_create(6, NULL);
-    ss_table *s = table_create(1, "metric");
-    int bad = !t || !s || table_reserve(t, nf) != 0 || table_set_col(s, 0, "value") != 0;
-    for (int j = 0; !bad && j < 6; j++)
-        bad |= table_set_col(t, j, cols[j]);
-    stage_pt *pts = ss_alloc((size_t)nf * sizeof *pts);
-    if (bad || !pts) {
-        ss_free(freqs);
-        ss_free(pts);
+    ss_table *t, *s;
+    int bad = stage_tables(sw.nf, &t, &s);
+    sw.pts = ss_alloc((size_t)sw.nf * sizeof *sw.pts);
+    if (bad || !sw.pts) {
+        ss_free(sw.freqs);
+        ss_free(sw.pts);
         ss_table_destroy(&t);
         ss_table_destroy(&s);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
-    int k_mid = 0;
-    for (int k = 0; k < nf && st == SS_OK; k++) {
-        st = stage_point(ckt, src, out_node, freqs[k], &pts[k], err);
-        if (st == SS_OK && cabs(pts[k].gain) > cabs(pts[k_mid].gain))
-            k_mid = k;
-    }
-    double f_mid = freqs[k_mid];
-    stage_pt mid = pts[k_mid];
-    if (st == SS_OK && k_mid > 0 && k_mid + 1 < nf)
-        st = refine_peak(ckt, src, out_node, freqs[k_mid - 1], freqs[k_mid + 1], &f_mid, &mid,
-                         err);
-    double g_mid = st == SS_OK ? cabs(mid.gain) : 0.0;
-    double f_low = SS_NAN, f_high = SS_NAN;
-    if (st == SS_OK && g_mid > 0.0) {
-        double target = g_mid * HALF_POWER;
-        for (int k = k_mid; k > 0 && st == SS_OK; k--)
-            if (cabs(pts[k - 1].gain) < target) {
-                st = refine_corner(ckt, src, out_node, freqs[k], freqs[k - 1], target, &f_low,
-                                   err);
-                break;
-            }
-        for (int k = k_mid; k + 1 < nf && st == SS_OK; k++)
-            if (cabs(pts[k + 1].gain) < target) {
-                st = refine_corner(ckt, src, out_node, freqs[k], freqs[k + 1], target, &f_high,
-                                   err);
-                break;
-            }
-    }
-    if (st == SS_OK) {
-        /* phase unwrapped along the sweep, then shifted so mid-band lies in (-180, 180] */
-        double *ph = ss_alloc((size_t)nf * sizeof *ph);
-        if (!ph) {
-            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-        } else {
-            for (int k = 0; k < nf; k++) {
-                ph[k] = phase_deg(pts[k].gain);
-                if (k > 0)
-                    ph[k] -= 360.0 * round((ph[k] - ph[k - 1]) / 360.0);
-            }
-            double shift = 360.0 * round((ph[k_mid] - phase_deg(pts[k_mid].gain)) / 360.0);
-            for (int k = 0; k < nf; k++) {
-                double *row = table_add_row(t, NULL);
-                double gm = cabs(pts[k].gain);
-                row[0] = freqs[k];
-                row[1] = gm;
-                row[2] = 20.0 * log10(gm);
-                row[3] = ph[k] - shift;
-                row[4] = cabs(pts[k].zin);
-                row[5] = cabs(pts[k].zout);
-            }
-            ss_free(ph);
-        }
-    }
-    if (st == SS_OK) {
-        /* a low-pass stage (no low corner in range) counts its bandwidth from DC when the
-         * small-signal gain at 0 Hz is itself within 3 dB of mid-band */
-        double bw = SS_NAN;
-        if (!isnan(f_low) && !isnan(f_high)) {
-            bw = f_high - f_low;
-        } else if (isnan(f_low) && !isnan(f_high)) {
-            stage_pt dc = {0, 0, 0};
-            st = stage_point(ckt, src, out_node, 0.0, &dc, err);
-            if (st == SS_OK && cabs(dc.gain) >= g_mid * HALF_POWER)
-                bw = f_high;
-        }
-        const struct {
-            const char *name;
-            double v;
-        } rows[] = {
-            {"gain_mid_db", 20.0 * log10(g_mid)}, {"f_mid_hz", f_mid},
-            {"f_low_hz", f_low},                  {"f_high_hz", f_high},
-            {"bandwidth_hz", bw},                 {"zin_mid_ohm", cabs(mid.zin)},
-            {"zout_mid_ohm", cabs(mid.zout)},
-        };
-        for (size_t i = 0; st == SS_OK && i < sizeof rows / sizeof rows[0]; i++) {
-            double *row = table_add_row(s, rows[i].name);
-            if (!row)
-                st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-            else
-                row[0] = rows[i].v;
-        }
-    }
-    ss_free(freqs);
-    ss_free(pts);
+    st = stage_mid(ckt, &sw, err);
+    sw.f_low = sw.f_high = SS_NAN;
+    if (st == SS_OK && sw.g_mid > 0.0)
+        st = stage_corners(ckt, &sw, err);
+    if (st == SS_OK)
+        st = stage_rows(t, &sw, err);
+    if (st == SS_OK)
+        st = stage_summary_rows(ckt, s, &sw, err);
+    ss_free(sw.freqs);
+    ss_free(sw.pts);
     if (st != SS_OK) {
         ss_table_destroy(&t);
         ss_table_destroy(&s);
