@@ -16,13 +16,13 @@ typedef struct stage_pt {
     double complex gain, zin, zout;
 } stage_pt;
 
-static ss_status stage_point(ss_circuit *ckt, const element *src, int out_node, double freq_hz,
+static ss_status stage_point(ss_solver *sv, const element *src, int out_node, double freq_hz,
                              stage_pt *pt, ss_error *err)
 {
-    ss_status st = ac_solve_point(ckt, 2.0 * SS_PI * freq_hz, src, 0, 0, err);
+    ss_status st = ac_solve_point(sv, 2.0 * SS_PI * freq_hz, src, 0, 0, err);
     if (st != SS_OK)
         return st;
-    const double complex *x = ckt->work_zrhs;
+    const double complex *x = sv->work_zrhs;
     pt->gain = x[out_node - 1]; /* the source's own AC value is 1 */
     if (!elem_is(src, DEV_DRIVES_CURRENT)) {
         /* i(V) enters the + node through the source: the current it delivers is -i(V) */
@@ -35,10 +35,10 @@ static ss_status stage_point(ss_circuit *ckt, const element *src, int out_node, 
         pt->zin = vb - va;
     }
     /* same matrix, every source at zero, 1 A into the output node */
-    double complex *b = ckt->work_zx;
-    memset(b, 0, (size_t)ckt->n_unknowns * sizeof *b);
+    double complex *b = sv->work_zx;
+    memset(b, 0, (size_t)sv->n_unknowns * sizeof *b);
     b[out_node - 1] = 1.0;
-    st = mna_solve_complex_again(ckt->mna, b);
+    st = mna_solve_complex_again(sv->mna, b);
     if (st != SS_OK)
         return err_set(err, st, NULL, 0, "AC solve failed");
     pt->zout = b[out_node - 1];
@@ -48,21 +48,21 @@ static ss_status stage_point(ss_circuit *ckt, const element *src, int out_node, 
 /* Pins the frequency between fa and fb where |gain| crosses target, by bisection in log
  * frequency with real solves, then places it inside the final bracket by linear
  * interpolation of |gain| in dB against log frequency (exact to far below the bracket). */
-static ss_status refine_corner(ss_circuit *ckt, const element *src, int out_node, double fa,
+static ss_status refine_corner(ss_solver *sv, const element *src, int out_node, double fa,
                                double fb, double target, double *out_f, ss_error *err)
 {
     stage_pt pt = {0, 0, 0};
-    ss_status st = stage_point(ckt, src, out_node, fa, &pt, err);
+    ss_status st = stage_point(sv, src, out_node, fa, &pt, err);
     if (st != SS_OK)
         return st;
     double ga = cabs(pt.gain);
-    if ((st = stage_point(ckt, src, out_node, fb, &pt, err)) != SS_OK)
+    if ((st = stage_point(sv, src, out_node, fb, &pt, err)) != SS_OK)
         return st;
     double gb = cabs(pt.gain);
     int a_above = ga >= target;
     for (int it = 0; it < 200 && fabs(fb - fa) > CORNER_REL_TOL * 0.5 * fmin(fa, fb); it++) {
         double fm = sqrt(fa * fb);
-        st = stage_point(ckt, src, out_node, fm, &pt, err);
+        st = stage_point(sv, src, out_node, fm, &pt, err);
         if (st != SS_OK)
             return st;
         double gm = cabs(pt.gain);
@@ -85,29 +85,29 @@ static ss_status refine_corner(ss_circuit *ckt, const element *src, int out_node
 
 /* Golden-section search for the maximum of |gain| between fa and fb (log frequency), so a
  * sharp peak between grid points is not underestimated (which would widen the corners). */
-static ss_status refine_peak(ss_circuit *ckt, const element *src, int out_node, double fa,
+static ss_status refine_peak(ss_solver *sv, const element *src, int out_node, double fa,
                              double fb, double *f_peak, stage_pt *peak, ss_error *err)
 {
     const double invphi = 0.61803398874989484820;
     double a = log(fa), b = log(fb);
     double c = b - invphi * (b - a), d = a + invphi * (b - a);
     stage_pt pc = {0, 0, 0}, pd = {0, 0, 0};
-    ss_status st = stage_point(ckt, src, out_node, exp(c), &pc, err);
+    ss_status st = stage_point(sv, src, out_node, exp(c), &pc, err);
     if (st == SS_OK)
-        st = stage_point(ckt, src, out_node, exp(d), &pd, err);
+        st = stage_point(sv, src, out_node, exp(d), &pd, err);
     for (int it = 0; st == SS_OK && it < 100 && b - a > PEAK_REL_TOL; it++) {
         if (cabs(pc.gain) >= cabs(pd.gain)) {
             b = d;
             d = c;
             pd = pc;
             c = b - invphi * (b - a);
-            st = stage_point(ckt, src, out_node, exp(c), &pc, err);
+            st = stage_point(sv, src, out_node, exp(c), &pc, err);
         } else {
             a = c;
             c = d;
             pc = pd;
             d = a + invphi * (b - a);
-            st = stage_point(ckt, src, out_node, exp(d), &pd, err);
+            st = stage_point(sv, src, out_node, exp(d), &pd, err);
         }
     }
     if (st != SS_OK)
@@ -120,15 +120,15 @@ static ss_status refine_peak(ss_circuit *ckt, const element *src, int out_node, 
     return SS_OK;
 }
 
-ss_status stage_at_frequency(ss_circuit *ckt, double freq_hz, double complex *gain,
+ss_status stage_at_frequency(ss_solver *sv, double freq_hz, double complex *gain,
                              double *zin_ohm, double *zout_ohm, ss_error *err)
 {
     ss_status st;
-    if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
+    if (!sv->have_op && (st = op_solve_into(sv, NULL, err)) != SS_OK)
         return st;
-    const element *src = &ckt->elem[circuit_find_elem(ckt, ckt->stage_in)];
+    const element *src = &sv->elem[circuit_find_elem(sv->ckt, sv->stage.in)];
     stage_pt pt = {0, 0, 0};
-    st = stage_point(ckt, src, circuit_find_node(ckt, ckt->stage_out), freq_hz, &pt, err);
+    st = stage_point(sv, src, circuit_find_node(sv->ckt, sv->stage.out), freq_hz, &pt, err);
     if (st != SS_OK)
         return st;
     *gain = pt.gain;
@@ -139,21 +139,24 @@ ss_status stage_at_frequency(ss_circuit *ckt, double freq_hz, double complex *ga
 
 static double phase_deg(double complex z) { return carg(z) * 180.0 / SS_PI; }
 
-ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_summary,
-                       ss_error *err)
+/* One stage run's sweep: the stage, the .ac frequencies and the points there, mid-band (the
+ * largest gain, refined between grid points) and the half-power corners. */
+typedef struct stage_sweep {
+    const element *src;
+    int out_node;
+    double *freqs;
+    int nf;
+    stage_pt *pts;
+    int k_mid; /* the grid point of largest gain */
+    double f_mid, g_mid;
+    stage_pt mid;
+    double f_low, f_high; /* NaN: no corner in the sweep */
+} stage_sweep;
+
+/* stage.csv's table (room reserved for nf rows) and stage_summary.csv's, into *out_t and
+ * *out_s (NULL where they could not be made); nonzero when something could not be made. */
+static int stage_tables(int nf, ss_table **out_t, ss_table **out_s)
 {
-    if (!ckt->stage_in)
-        return err_set(err, SS_ERR_INPUT, ckt->file, 0,
-                       "no stage named: add `.stage in=SOURCE out=NODE` or use --in/--out");
-    ss_status st;
-    if (!ckt->have_op && (st = op_solve_into(ckt, NULL, err)) != SS_OK)
-        return st;
-    const element *src = &ckt->elem[circuit_find_elem(ckt, ckt->stage_in)];
-    int out_node = circuit_find_node(ckt, ckt->stage_out);
-    double *freqs = NULL;
-    int nf = 0;
-    if ((st = ac_frequencies(ckt, &freqs, &nf, err)) != SS_OK)
-        return st;
     static const char *const cols[] = {"freq_hz",   "gain",    "gain_db",
                                        "phase_deg", "zin_ohm", "zout_ohm"};
     ss_table *t = table_create(6, NULL);
@@ -161,98 +164,155 @@ ss_status ss_stage_run(ss_circuit *ckt, ss_table **out_stage, ss_table **out_sum
     int bad = !t || !s || table_reserve(t, nf) != 0 || table_set_col(s, 0, "value") != 0;
     for (int j = 0; !bad && j < 6; j++)
         bad |= table_set_col(t, j, cols[j]);
-    stage_pt *pts = ss_alloc((size_t)nf * sizeof *pts);
-    if (bad || !pts) {
-        ss_free(freqs);
-        ss_free(pts);
+    *out_t = t;
+    *out_s = s;
+    return bad;
+}
+
+/* Every grid point, and mid-band: the grid point of largest gain, refined between its
+ * neighbours. g_mid is 0 when a solve failed. */
+static ss_status stage_mid(ss_solver *sv, stage_sweep *sw, ss_error *err)
+{
+    ss_status st = SS_OK;
+    int k_mid = 0;
+    for (int k = 0; k < sw->nf && st == SS_OK; k++) {
+        st = stage_point(sv, sw->src, sw->out_node, sw->freqs[k], &sw->pts[k], err);
+        if (st == SS_OK && cabs(sw->pts[k].gain) > cabs(sw->pts[k_mid].gain))
+            k_mid = k;
+    }
+    sw->k_mid = k_mid;
+    sw->f_mid = sw->freqs[k_mid];
+    sw->mid = sw->pts[k_mid];
+    if (st == SS_OK && k_mid > 0 && k_mid + 1 < sw->nf)
+        st = refine_peak(sv, sw->src, sw->out_node, sw->freqs[k_mid - 1], sw->freqs[k_mid + 1],
+                         &sw->f_mid, &sw->mid, err);
+    sw->g_mid = st == SS_OK ? cabs(sw->mid.gain) : 0.0;
+    return st;
+}
+
+/* The half-power corners either side of mid-band, pinned between the grid points where the
+ * gain first falls below g_mid / sqrt(2). */
+static ss_status stage_corners(ss_solver *sv, stage_sweep *sw, ss_error *err)
+{
+    ss_status st = SS_OK;
+    const stage_pt *pts = sw->pts;
+    const double *freqs = sw->freqs;
+    double target = sw->g_mid * HALF_POWER;
+    for (int k = sw->k_mid; k > 0 && st == SS_OK; k--)
+        if (cabs(pts[k - 1].gain) < target) {
+            st = refine_corner(sv, sw->src, sw->out_node, freqs[k], freqs[k - 1], target,
+                               &sw->f_low, err);
+            break;
+        }
+    for (int k = sw->k_mid; k + 1 < sw->nf && st == SS_OK; k++)
+        if (cabs(pts[k + 1].gain) < target) {
+            st = refine_corner(sv, sw->src, sw->out_node, freqs[k], freqs[k + 1], target,
+                               &sw->f_high, err);
+            break;
+        }
+    return st;
+}
+
+/* stage.csv's rows into t (room reserved): the phase unwrapped along the sweep, then shifted
+ * so mid-band lies in (-180, 180]. Returns SS_OK or SS_ERR_NOMEM. */
+static ss_status stage_rows(ss_table *t, const stage_sweep *sw, ss_error *err)
+{
+    const int nf = sw->nf, k_mid = sw->k_mid;
+    const stage_pt *pts = sw->pts;
+    double *ph = ss_alloc((size_t)nf * sizeof *ph);
+    if (!ph)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    for (int k = 0; k < nf; k++) {
+        ph[k] = phase_deg(pts[k].gain);
+        if (k > 0)
+            ph[k] -= 360.0 * round((ph[k] - ph[k - 1]) / 360.0);
+    }
+    double shift = 360.0 * round((ph[k_mid] - phase_deg(pts[k_mid].gain)) / 360.0);
+    for (int k = 0; k < nf; k++) {
+        double *row = table_add_row(t, NULL);
+        double gm = cabs(pts[k].gain);
+        row[0] = sw->freqs[k];
+        row[1] = gm;
+        row[2] = 20.0 * log10(gm);
+        row[3] = ph[k] - shift;
+        row[4] = cabs(pts[k].zin);
+        row[5] = cabs(pts[k].zout);
+    }
+    ss_free(ph);
+    return SS_OK;
+}
+
+/* stage_summary.csv's rows into s. */
+static ss_status stage_summary_rows(ss_solver *sv, ss_table *s, const stage_sweep *sw,
+                                    ss_error *err)
+{
+    ss_status st = SS_OK;
+    const double g_mid = sw->g_mid, f_low = sw->f_low, f_high = sw->f_high;
+    /* a low-pass stage (no low corner in range) counts its bandwidth from DC when the
+     * small-signal gain at 0 Hz is itself within 3 dB of mid-band */
+    double bw = SS_NAN;
+    if (!isnan(f_low) && !isnan(f_high)) {
+        bw = f_high - f_low;
+    } else if (isnan(f_low) && !isnan(f_high)) {
+        stage_pt dc = {0, 0, 0};
+        st = stage_point(sv, sw->src, sw->out_node, 0.0, &dc, err);
+        if (st == SS_OK && cabs(dc.gain) >= g_mid * HALF_POWER)
+            bw = f_high;
+    }
+    const struct {
+        const char *name;
+        double v;
+    } rows[] = {
+        {"gain_mid_db", 20.0 * log10(g_mid)}, {"f_mid_hz", sw->f_mid},
+        {"f_low_hz", f_low},                  {"f_high_hz", f_high},
+        {"bandwidth_hz", bw},                 {"zin_mid_ohm", cabs(sw->mid.zin)},
+        {"zout_mid_ohm", cabs(sw->mid.zout)},
+    };
+    for (size_t i = 0; st == SS_OK && i < sizeof rows / sizeof rows[0]; i++) {
+        double *row = table_add_row(s, rows[i].name);
+        if (!row)
+            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        else
+            row[0] = rows[i].v;
+    }
+    return st;
+}
+
+ss_status ss_stage_run(ss_solver *sv, ss_table **out_stage, ss_table **out_summary,
+                       ss_error *err)
+{
+    if (!sv->stage.in)
+        return err_set(err, SS_ERR_INPUT, sv->ckt->file, 0,
+                       "no stage named: add `.stage in=SOURCE out=NODE` or use --in/--out");
+    ss_status st;
+    if (!sv->have_op && (st = op_solve_into(sv, NULL, err)) != SS_OK)
+        return st;
+    stage_sweep sw;
+    memset(&sw, 0, sizeof sw);
+    sw.src = &sv->elem[circuit_find_elem(sv->ckt, sv->stage.in)];
+    sw.out_node = circuit_find_node(sv->ckt, sv->stage.out);
+    if ((st = ac_frequencies(sv, &sw.freqs, &sw.nf, err)) != SS_OK)
+        return st;
+    ss_table *t, *s;
+    int bad = stage_tables(sw.nf, &t, &s);
+    sw.pts = ss_alloc((size_t)sw.nf * sizeof *sw.pts);
+    if (bad || !sw.pts) {
+        ss_free(sw.freqs);
+        ss_free(sw.pts);
         ss_table_destroy(&t);
         ss_table_destroy(&s);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
-    int k_mid = 0;
-    for (int k = 0; k < nf && st == SS_OK; k++) {
-        st = stage_point(ckt, src, out_node, freqs[k], &pts[k], err);
-        if (st == SS_OK && cabs(pts[k].gain) > cabs(pts[k_mid].gain))
-            k_mid = k;
-    }
-    double f_mid = freqs[k_mid];
-    stage_pt mid = pts[k_mid];
-    if (st == SS_OK && k_mid > 0 && k_mid + 1 < nf)
-        st = refine_peak(ckt, src, out_node, freqs[k_mid - 1], freqs[k_mid + 1], &f_mid, &mid,
-                         err);
-    double g_mid = st == SS_OK ? cabs(mid.gain) : 0.0;
-    double f_low = SS_NAN, f_high = SS_NAN;
-    if (st == SS_OK && g_mid > 0.0) {
-        double target = g_mid * HALF_POWER;
-        for (int k = k_mid; k > 0 && st == SS_OK; k--)
-            if (cabs(pts[k - 1].gain) < target) {
-                st = refine_corner(ckt, src, out_node, freqs[k], freqs[k - 1], target, &f_low,
-                                   err);
-                break;
-            }
-        for (int k = k_mid; k + 1 < nf && st == SS_OK; k++)
-            if (cabs(pts[k + 1].gain) < target) {
-                st = refine_corner(ckt, src, out_node, freqs[k], freqs[k + 1], target, &f_high,
-                                   err);
-                break;
-            }
-    }
-    if (st == SS_OK) {
-        /* phase unwrapped along the sweep, then shifted so mid-band lies in (-180, 180] */
-        double *ph = ss_alloc((size_t)nf * sizeof *ph);
-        if (!ph) {
-            st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-        } else {
-            for (int k = 0; k < nf; k++) {
-                ph[k] = phase_deg(pts[k].gain);
-                if (k > 0)
-                    ph[k] -= 360.0 * round((ph[k] - ph[k - 1]) / 360.0);
-            }
-            double shift = 360.0 * round((ph[k_mid] - phase_deg(pts[k_mid].gain)) / 360.0);
-            for (int k = 0; k < nf; k++) {
-                double *row = table_add_row(t, NULL);
-                double gm = cabs(pts[k].gain);
-                row[0] = freqs[k];
-                row[1] = gm;
-                row[2] = 20.0 * log10(gm);
-                row[3] = ph[k] - shift;
-                row[4] = cabs(pts[k].zin);
-                row[5] = cabs(pts[k].zout);
-            }
-            ss_free(ph);
-        }
-    }
-    if (st == SS_OK) {
-        /* a low-pass stage (no low corner in range) counts its bandwidth from DC when the
-         * small-signal gain at 0 Hz is itself within 3 dB of mid-band */
-        double bw = SS_NAN;
-        if (!isnan(f_low) && !isnan(f_high)) {
-            bw = f_high - f_low;
-        } else if (isnan(f_low) && !isnan(f_high)) {
-            stage_pt dc = {0, 0, 0};
-            st = stage_point(ckt, src, out_node, 0.0, &dc, err);
-            if (st == SS_OK && cabs(dc.gain) >= g_mid * HALF_POWER)
-                bw = f_high;
-        }
-        const struct {
-            const char *name;
-            double v;
-        } rows[] = {
-            {"gain_mid_db", 20.0 * log10(g_mid)}, {"f_mid_hz", f_mid},
-            {"f_low_hz", f_low},                  {"f_high_hz", f_high},
-            {"bandwidth_hz", bw},                 {"zin_mid_ohm", cabs(mid.zin)},
-            {"zout_mid_ohm", cabs(mid.zout)},
-        };
-        for (size_t i = 0; st == SS_OK && i < sizeof rows / sizeof rows[0]; i++) {
-            double *row = table_add_row(s, rows[i].name);
-            if (!row)
-                st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-            else
-                row[0] = rows[i].v;
-        }
-    }
-    ss_free(freqs);
-    ss_free(pts);
+    st = stage_mid(sv, &sw, err);
+    sw.f_low = sw.f_high = SS_NAN;
+    if (st == SS_OK && sw.g_mid > 0.0)
+        st = stage_corners(sv, &sw, err);
+    if (st == SS_OK)
+        st = stage_rows(t, &sw, err);
+    if (st == SS_OK)
+        st = stage_summary_rows(sv, s, &sw, err);
+    ss_free(sw.freqs);
+    ss_free(sw.pts);
     if (st != SS_OK) {
         ss_table_destroy(&t);
         ss_table_destroy(&s);

@@ -1,7 +1,8 @@
 /* Transient analysis: charge-based integration of every device's charges (trapezoidal, or
  * gear2 on request), Newton at each step on the pattern analysed once, truncation-error step
- * control, steps landing exactly on the output grid and on source corners; tran.csv rows.
- * The devices' charges are theirs (load_tran); the stage figures built on this are thd.c's. */
+ * control, steps landing exactly on the output grid and on source corners. The devices'
+ * charges are theirs (load_tran); tran.csv is tran_csv.c's, the stage figures built on this
+ * large_signal.c's. */
 #include <float.h>
 #include <math.h>
 #include <stdio.h>
@@ -26,7 +27,6 @@
 #define TRAN_STALL_ERR 0.5
 #define TRAN_STALL_COUNT 2
 #define TRAN_MAX_STEPS 200000000L
-#define TRAN_MAX_CELLS 1e8 /* tran.csv values held in memory (800 MB) */
 
 /* Truncation-error constants C of x(t_n+1) - x_n+1 = C h^3 x'''(t) for constant steps:
  * trapezoidal -1/12, two-step backward difference -2/9 (J. D. Lambert, Numerical Methods for
@@ -79,12 +79,12 @@ static void ws_free(tran_ws *w)
     memset(w, 0, sizeof *w);
 }
 
-static ss_status ws_alloc(const ss_circuit *ckt, tran_ws *w, ss_error *err)
+static ss_status ws_alloc(const ss_solver *sv, tran_ws *w, ss_error *err)
 {
     memset(w, 0, sizeof *w);
-    w->n = ckt->n_unknowns;
-    w->n_volt = ckt->n_nodes - 1;
-    int n_elem = ckt->n_elem;
+    w->n = sv->n_unknowns;
+    w->n_volt = sv->n_nodes - 1;
+    int n_elem = sv->n_elem;
     w->q_off = ss_alloc((size_t)(n_elem ? n_elem : 1) * sizeof *w->q_off);
     w->src = ss_alloc((size_t)(n_elem ? n_elem : 1) * sizeof *w->src);
     w->src_dc = ss_alloc((size_t)(n_elem ? n_elem : 1) * sizeof *w->src_dc);
@@ -93,7 +93,7 @@ static ss_status ws_alloc(const ss_circuit *ckt, tran_ws *w, ss_error *err)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
     for (int i = 0; i < n_elem; i++) {
-        const element *e = &ckt->elem[i];
+        const element *e = &sv->elem[i];
         w->q_off[i] = -1;
         if (e->ops->load_tran && e->ops->n_charge > 0) {
             w->q_off[i] = w->n_q;
@@ -131,27 +131,27 @@ static ss_status ws_alloc(const ss_circuit *ckt, tran_ws *w, ss_error *err)
     return SS_OK;
 }
 
-static void set_sources(ss_circuit *ckt, const tran_ws *w, double t_s, double tstep_s)
+static void set_sources(ss_solver *sv, const tran_ws *w, double t_s, double tstep_s)
 {
     for (int k = 0; k < w->n_src; k++) {
-        element *e = &ckt->elem[w->src[k]];
+        element *e = &sv->elem[w->src[k]];
         e->value = wave_value(e->wave, t_s, tstep_s);
     }
 }
 
-static void restore_sources(ss_circuit *ckt, const tran_ws *w)
+static void restore_sources(ss_solver *sv, const tran_ws *w)
 {
     for (int k = 0; k < w->n_src; k++)
-        ckt->elem[w->src[k]].value = w->src_dc[k];
+        sv->elem[w->src[k]].value = w->src_dc[k];
 }
 
 /* The first source corner strictly after t_s + eps (HUGE_VAL when none). */
-static double next_corner(const ss_circuit *ckt, const tran_ws *w, double t_s, double eps,
+static double next_corner(const ss_solver *sv, const tran_ws *w, double t_s, double eps,
                           double tstep_s)
 {
     double best = HUGE_VAL;
     for (int k = 0; k < w->n_src; k++) {
-        const element *e = &ckt->elem[w->src[k]];
+        const element *e = &sv->elem[w->src[k]];
         double c = wave_next_break(e->wave, t_s + eps, tstep_s);
         if (c < best)
             best = c;
@@ -160,23 +160,23 @@ static double next_corner(const ss_circuit *ckt, const tran_ws *w, double t_s, d
 }
 
 /* The longest step every source's form still allows from t_s on (HUGE_VAL: no limit). */
-static double source_step_cap(const ss_circuit *ckt, const tran_ws *w, double t_s)
+static double source_step_cap(const ss_solver *sv, const tran_ws *w, double t_s)
 {
     double cap = HUGE_VAL;
     for (int k = 0; k < w->n_src; k++)
-        cap = fmin(cap, wave_max_step(ckt->elem[w->src[k]].wave, t_s));
+        cap = fmin(cap, wave_max_step(sv->elem[w->src[k]].wave, t_s));
     return cap;
 }
 
 /* The steps the sources ask for up to tstop at the least, for the source asking most (*which):
  * the span of a SIN over its largest step, two for the start after each corner. */
-static double source_steps_needed(const ss_circuit *ckt, const tran_ws *w, double tstop,
+static double source_steps_needed(const ss_solver *sv, const tran_ws *w, double tstop,
                                   int *which)
 {
     double most = 0.0;
     *which = -1;
     for (int k = 0; k < w->n_src; k++) {
-        const src_wave *f = ckt->elem[w->src[k]].wave;
+        const src_wave *f = sv->elem[w->src[k]].wave;
         double need = 2.0 * wave_corners_until(f, tstop);
         double h = wave_max_step(f, HUGE_VAL);
         if (f->kind == WAVE_SIN && isfinite(h) && f->p[WS_TD] < tstop)
@@ -190,13 +190,13 @@ static double source_steps_needed(const ss_circuit *ckt, const tran_ws *w, doubl
 }
 
 /* The charges of every element at the solution x, into q. */
-static void eval_charges(ss_circuit *ckt, const tran_ws *w, const double *x, double *q)
+static void eval_charges(ss_solver *sv, const tran_ws *w, const double *x, double *q)
 {
-    dev_tran_ctx tc = {.G = NULL, .x = x, .vt_v = analysis_vt(ckt)};
-    for (int i = 0; i < ckt->n_elem; i++) {
+    dev_tran_ctx tc = {.G = NULL, .x = x, .vt_v = analysis_vt(sv)};
+    for (int i = 0; i < sv->n_elem; i++) {
         if (w->q_off[i] < 0)
             continue;
-        element *e = &ckt->elem[i];
+        element *e = &sv->elem[i];
         tc.q = q + w->q_off[i];
         tc.hist = w->hist + w->q_off[i];
         e->ops->load_tran(e, &tc);
@@ -205,22 +205,22 @@ static void eval_charges(ss_circuit *ckt, const tran_ws *w, const double *x, dou
 
 /* Puts every device's Newton state (junction voltages) back to the solution x, after a failed
  * step left it wherever the failed iterations went. */
-static void reset_device_state(ss_circuit *ckt, const double *x)
+static void reset_device_state(ss_solver *sv, const double *x)
 {
-    mna *m = ckt->mna;
+    mna *m = sv->mna;
     double *G = mna_values(m);
     memset(G, 0, (size_t)mna_nnz(m) * sizeof *G);
-    memset(ckt->work_rhs, 0, (size_t)ckt->n_unknowns * sizeof *ckt->work_rhs);
+    memset(sv->work_rhs, 0, (size_t)sv->n_unknowns * sizeof *sv->work_rhs);
     dev_load_ctx lc = {.G = G,
-                       .rhs = ckt->work_rhs,
+                       .rhs = sv->work_rhs,
                        .x = x,
-                       .gmin_s = ckt->opt.gmin,
+                       .gmin_s = sv->ckt->opt.gmin,
                        .src_scale = 1.0,
-                       .vt_v = analysis_vt(ckt),
+                       .vt_v = analysis_vt(sv),
                        .mode = LOAD_FROM_X,
-                       .ckt_elem = ckt->elem};
-    for (int i = 0; i < ckt->n_elem; i++)
-        ckt->elem[i].ops->load_dc(&ckt->elem[i], &lc);
+                       .ckt_elem = sv->elem};
+    for (int i = 0; i < sv->n_elem; i++)
+        sv->elem[i].ops->load_dc(&sv->elem[i], &lc);
 }
 
 /* The rounding bound of a solve's node voltages: eps / rcond times the largest of them, a
@@ -245,15 +245,15 @@ static double rounding_bound(const tran_ws *w, const double *x, double rcond)
  * iteration to the next) and every node voltage's is within its tolerance plus the solve's
  * rounding bound (branch currents are not judged there: at given node voltages they follow
  * from them). w->rcond gets the last solve's pivot ratio. */
-static ss_status step_newton(ss_circuit *ckt, tran_ws *w, double a0, double tol_rel, double tol_v,
+static ss_status step_newton(ss_solver *sv, tran_ws *w, double a0, double tol_rel, double tol_v,
                              double *x, int *iters, int *worst_unknown)
 {
-    mna *m = ckt->mna;
+    mna *m = sv->mna;
     int n = w->n, nnz = mna_nnz(m);
     double *G = mna_values(m);
-    double *rhs = ckt->work_rhs;
-    const ss_options_set *o = &ckt->opt;
-    double vt = analysis_vt(ckt);
+    double *rhs = sv->work_rhs;
+    const ss_options_set *o = &sv->ckt->opt;
+    double vt = analysis_vt(sv);
     double worst_prev = HUGE_VAL;
     *worst_unknown = -1;
     for (int it = 0; it < TRAN_NEWTON_MAX; it++) {
@@ -266,16 +266,16 @@ static ss_status step_newton(ss_circuit *ckt, tran_ws *w, double a0, double tol_
                            .src_scale = 1.0,
                            .vt_v = vt,
                            .mode = LOAD_NORMAL,
-                           .ckt_elem = ckt->elem};
-        for (int i = 0; i < ckt->n_elem; i++)
-            ckt->elem[i].ops->load_dc(&ckt->elem[i], &lc);
+                           .ckt_elem = sv->elem};
+        for (int i = 0; i < sv->n_elem; i++)
+            sv->elem[i].ops->load_dc(&sv->elem[i], &lc);
         dev_tran_ctx tc = {.G = G, .rhs = rhs, .x = x, .vt_v = vt, .a0 = a0};
-        for (int i = 0; i < ckt->n_elem; i++) {
+        for (int i = 0; i < sv->n_elem; i++) {
             if (w->q_off[i] < 0)
                 continue;
             tc.q = w->q_new + w->q_off[i];
             tc.hist = w->hist + w->q_off[i];
-            ckt->elem[i].ops->load_tran(&ckt->elem[i], &tc);
+            sv->elem[i].ops->load_tran(&sv->elem[i], &tc);
         }
         int bad;
         double rcond = 0.0;
@@ -411,12 +411,12 @@ static double set_history(tran_ws *w, enum step_form form, double h, double h_pr
 
 /* Newton for one step to t_new with a0 and w->hist set; x holds the predictor and gets the
  * solution. */
-static ss_status solve_point(ss_circuit *ckt, tran_ws *w, const step_tols *tl, double a0,
+static ss_status solve_point(ss_solver *sv, tran_ws *w, const step_tols *tl, double a0,
                              double t_new, double *x, tran_stats *s, int *worst_u)
 {
-    set_sources(ckt, w, t_new, tl->tstep_s);
+    set_sources(sv, w, t_new, tl->tstep_s);
     int iters = 0;
-    ss_status st = step_newton(ckt, w, a0, tl->n_rel, tl->n_v, x, &iters, worst_u);
+    ss_status st = step_newton(sv, w, a0, tl->n_rel, tl->n_v, x, &iters, worst_u);
     s->newton_iterations += iters;
     return st;
 }
@@ -430,7 +430,7 @@ static ss_status solve_point(ss_circuit *ckt, tran_ws *w, const step_tols *tl, d
  * (errors -b h^2 / 2 and -b h^2 / 8, b of order h x'''), and (R2 - R1) / 3 estimates R2's error.
  * R2 goes to w->x_new and, from the sub-steps that pass it, the midpoint's to w->x_mid; R1 to
  * w->x_full. Seven Newton solves. */
-static ss_status startup_step(ss_circuit *ckt, tran_ws *w, const step_tols *tl, double t,
+static ss_status startup_step(ss_solver *sv, tran_ws *w, const step_tols *tl, double t,
                               double t_new, tran_stats *s, int *worst_u)
 {
     const int n = w->n;
@@ -441,21 +441,21 @@ static ss_status startup_step(ss_circuit *ckt, tran_ws *w, const step_tols *tl, 
     /* one step of h */
     memcpy(x1, w->x_n, (size_t)n * sizeof *x1);
     double a0 = set_history(w, FORM_BE, h, 0.0, w->q_n);
-    ss_status st = solve_point(ckt, w, tl, a0, t_new, x1, s, worst_u);
+    ss_status st = solve_point(sv, w, tl, a0, t_new, x1, s, worst_u);
     /* two of h / 2 */
     if (st == SS_OK) {
         rcond = fmin(rcond, w->rcond);
         for (int u = 0; u < n; u++)
             xa[u] = 0.5 * (w->x_n[u] + x1[u]);
         a0 = set_history(w, FORM_BE, 0.5 * h, 0.0, w->q_n);
-        st = solve_point(ckt, w, tl, a0, t + 0.5 * h, xa, s, worst_u);
+        st = solve_point(sv, w, tl, a0, t + 0.5 * h, xa, s, worst_u);
     }
     if (st == SS_OK) {
         rcond = fmin(rcond, w->rcond);
-        eval_charges(ckt, w, xa, qa);
+        eval_charges(sv, w, xa, qa);
         memcpy(xb, x1, (size_t)n * sizeof *xb);
         a0 = set_history(w, FORM_BE, 0.5 * h, 0.0, qa);
-        st = solve_point(ckt, w, tl, a0, t_new, xb, s, worst_u);
+        st = solve_point(sv, w, tl, a0, t_new, xb, s, worst_u);
     }
     /* four of h / 4, each guessed on the line through the half steps' points */
     for (int k = 1; k <= 4 && st == SS_OK; k++) {
@@ -465,9 +465,9 @@ static ss_status startup_step(ss_circuit *ckt, tran_ws *w, const step_tols *tl, 
         for (int u = 0; u < n; u++)
             xc[u] = lo[u] + f * (hi[u] - lo[u]);
         a0 = set_history(w, FORM_BE, 0.25 * h, 0.0, k == 1 ? w->q_n : qc);
-        st = solve_point(ckt, w, tl, a0, k == 4 ? t_new : t + 0.25 * k * h, xc, s, worst_u);
+        st = solve_point(sv, w, tl, a0, k == 4 ? t_new : t + 0.25 * k * h, xc, s, worst_u);
         if (st == SS_OK)
-            eval_charges(ckt, w, xc, qc);
+            eval_charges(sv, w, xc, qc);
         if (k == 2)
             memcpy(xcm, xc, (size_t)n * sizeof *xcm);
     }
@@ -506,14 +506,14 @@ static void accept_point(tran_ws *w, double *x, double *q, double *t_hist, doubl
     t_hist[0] = t_s;
 }
 
-static ss_status step_floor_error(ss_circuit *ckt, double t_s, double h_s, int worst_unknown,
+static ss_status step_floor_error(ss_solver *sv, double t_s, double h_s, int worst_unknown,
                                   int newton_failed, ss_error *err)
 {
     char what[1200] = "an unknown";
-    if (worst_unknown >= 0 && worst_unknown < ckt->n_unknowns)
-        circuit_unknown_name(ckt, worst_unknown, what, sizeof what);
+    if (worst_unknown >= 0 && worst_unknown < sv->n_unknowns)
+        solver_unknown_name(sv, worst_unknown, what, sizeof what);
     return err_set(
-        err, SS_ERR_NO_CONVERGENCE, ckt->tran_file ? ckt->tran_file : ckt->file, ckt->tran_line,
+        err, SS_ERR_NO_CONVERGENCE, sv->ckt->tran.file ? sv->ckt->tran.file : sv->ckt->file, sv->ckt->tran.line,
         "transient: the time step fell to %.3g s at t = %.9g s (%s at %s); the "
         "circuit may switch faster than the model can follow, or a source has a "
         "jump: give its edges a rise time",
@@ -523,340 +523,368 @@ static ss_status step_floor_error(ss_circuit *ckt, double t_s, double h_s, int w
 
 /* The error estimate at node worst_unknown stays at err_v as the step is cut to h_s: rounding,
  * not truncation, so the tolerances ask for more digits than double precision holds there. */
-static ss_status rounding_error(ss_circuit *ckt, double t_s, double h_s, int worst_unknown,
+static ss_status rounding_error(ss_solver *sv, double t_s, double h_s, int worst_unknown,
                                 double err_v, double tol_rel, double tol_v, ss_error *err)
 {
     char what[1200] = "an unknown";
-    if (worst_unknown >= 0 && worst_unknown < ckt->n_unknowns)
-        circuit_unknown_name(ckt, worst_unknown, what, sizeof what);
-    return err_set(err, SS_ERR_NO_CONVERGENCE, ckt->tran_file ? ckt->tran_file : ckt->file,
-                   ckt->tran_line,
+    if (worst_unknown >= 0 && worst_unknown < sv->n_unknowns)
+        solver_unknown_name(sv, worst_unknown, what, sizeof what);
+    return err_set(err, SS_ERR_NO_CONVERGENCE, sv->ckt->tran.file ? sv->ckt->tran.file : sv->ckt->file,
+                   sv->ckt->tran.line,
                    "transient: tran_tol_rel=%g and tran_tol_v=%g cannot be held at t = %.9g s: "
                    "the error estimate at %s stays at %.2g V as the step is cut to %.3g s, the "
                    "rounding level of double precision there; loosen tran_tol_v or tran_tol_rel",
                    tol_rel, tol_v, t_s, what, err_v, h_s);
 }
 
-ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats, ss_error *err)
-{
-    tran_stats s;
-    memset(&s, 0, sizeof s);
-    if (!(cfg->tstep_s > 0.0) || !(cfg->tstop_s > cfg->tstart_s) || !(cfg->tstart_s >= 0.0))
-        return err_set(err, SS_ERR_INPUT, ckt->file, 0,
-                       "transient: bad time grid (step %g s, start %g s, stop %g s)", cfg->tstep_s,
-                       cfg->tstart_s, cfg->tstop_s);
-    ss_status st = analysis_prepare(ckt, err);
-    if (st != SS_OK)
-        return st;
-    tran_ws w;
-    if ((st = ws_alloc(ckt, &w, err)) != SS_OK)
-        return st;
-    const double tstep = cfg->tstep_s, tstop = cfg->tstop_s, tstart = cfg->tstart_s;
-    const double hmax = cfg->hmax_s > 0.0 ? cfg->hmax_s : tstop / 50.0;
-    const double hmin = TRAN_HMIN_REL * tstop;
+/* The run's constants, from its configuration, and where its stepping has got to: tran_run's,
+ * handed to each of its steps. */
+typedef struct tran_march {
+    double tstep, tstop, tstart, hmax, hmin;
     /* times closer than this are one time (grid points and corners computed by different
      * sums differ by rounding): far above the rounding of t, far below any step */
-    const double eps_t = 64.0 * DBL_EPSILON * tstop;
-    const double tol_rel = cfg->tol_rel > 0.0 ? cfg->tol_rel : TRAN_TOL_REL_DEFAULT;
-    const double tol_v = cfg->tol_v > 0.0 ? cfg->tol_v : TRAN_TOL_V_DEFAULT;
-    const step_tols tols = {
-        .n_rel = cfg->newton_tol_rel > 0.0 ? cfg->newton_tol_rel
-                                           : 0.1 * fmin(ckt->opt.tol_rel, tol_rel),
-        .n_v = cfg->newton_tol_v > 0.0 ? cfg->newton_tol_v : 0.1 * fmin(ckt->opt.tol_v, tol_v),
-        .tstep_s = tstep};
+    double eps_t;
+    double tol_rel, tol_v; /* the truncation error's */
+    step_tols tols;
+    long k_last, k_next; /* the last output point, the next one due */
+    int stop;            /* on_point asked to stop */
+    double t, h_prev;
+    double t_hist[3]; /* t_n, t_n-1, t_n-2 */
+    double next_bp;   /* the next source corner */
+    double h_src;     /* the sources' own limit from here on */
+    double h;         /* the step proposed next */
+    int pts_since_bp; /* accepted points since the last corner, the corner included */
+    double rej_r, rej_h; /* the last error rejection from t: its ratio and step */
+    int stalls;          /* rejections in a row whose estimate did not fall */
+} tran_march;
 
-    /* the initial condition: the operating point with every source at its t = 0 value */
-    int need_op = !ckt->have_op, moved = 0;
-    for (int k = 0; k < w.n_src; k++) {
-        element *e = &ckt->elem[w.src[k]];
+/* One step as tried: where it goes, how, and what its solve and error estimate found. */
+typedef struct step_try {
+    double t_grid;  /* the output time due next */
+    double h_prop;  /* the step proposed before landing on a grid point or corner */
+    double h_try, t_new;
+    int lands;      /* on the grid point or corner: the step was cut to reach it */
+    int startup;    /* the first step from a corner */
+    int worst_u, err_u;
+    double r, err_v, a0, err_gain;
+} step_try;
+
+static void march_init(const ss_solver *sv, const tran_cfg *cfg, tran_march *m)
+{
+    memset(m, 0, sizeof *m);
+    m->tstep = cfg->tstep_s;
+    m->tstop = cfg->tstop_s;
+    m->tstart = cfg->tstart_s;
+    m->hmax = cfg->hmax_s > 0.0 ? cfg->hmax_s : m->tstop / 50.0;
+    m->hmin = TRAN_HMIN_REL * m->tstop;
+    m->eps_t = 64.0 * DBL_EPSILON * m->tstop;
+    m->tol_rel = cfg->tol_rel > 0.0 ? cfg->tol_rel : TRAN_TOL_REL_DEFAULT;
+    m->tol_v = cfg->tol_v > 0.0 ? cfg->tol_v : TRAN_TOL_V_DEFAULT;
+    m->tols.n_rel = cfg->newton_tol_rel > 0.0 ? cfg->newton_tol_rel
+                                               : 0.1 * fmin(sv->ckt->opt.tol_rel, m->tol_rel);
+    m->tols.n_v =
+        cfg->newton_tol_v > 0.0 ? cfg->newton_tol_v : 0.1 * fmin(sv->ckt->opt.tol_v, m->tol_v);
+    m->tols.tstep_s = m->tstep;
+}
+
+/* The initial condition into w->x_n and its charges: the operating point with every source at
+ * its t = 0 value (*moved: that differs from the DC one), or cfg->x_start. Returns SS_OK or
+ * SS_ERR_NO_CONVERGENCE etc. from the operating point, the message saying so. */
+static ss_status initial_point(ss_solver *sv, const tran_cfg *cfg, tran_ws *w, double tstep,
+                               int *moved, ss_error *err)
+{
+    int need_op = !sv->have_op;
+    for (int k = 0; k < w->n_src; k++) {
+        element *e = &sv->elem[w->src[k]];
         double v0 = wave_value(e->wave, 0.0, tstep);
-        moved |= v0 != e->value;
+        *moved |= v0 != e->value;
         e->value = v0;
     }
     if (cfg->x_start) {
-        moved = 0; /* x_op is left as it is */
-    } else if (need_op || moved) {
+        *moved = 0; /* x_op is left as it is */
+    } else if (need_op || *moved) {
         ss_error e2 = {0};
-        st = op_solve_into(ckt, NULL, &e2);
-        if (st != SS_OK) {
-            restore_sources(ckt, &w);
-            ws_free(&w);
+        ss_status st = op_solve_into(sv, NULL, &e2);
+        if (st != SS_OK)
             return err_set(err, st, e2.file, e2.line, "transient: no operating point at t = 0: %s",
                            e2.message);
-        }
     }
-    memcpy(w.x_n, cfg->x_start ? cfg->x_start : ckt->x_op, (size_t)w.n * sizeof *w.x_n);
+    memcpy(w->x_n, cfg->x_start ? cfg->x_start : sv->x_op, (size_t)w->n * sizeof *w->x_n);
     if (cfg->x_start)
-        reset_device_state(ckt, w.x_n);
+        reset_device_state(sv, w->x_n);
     /* at rest: i_n = 0 (ss_alloc zeroed it); from x_start the start after t = 0 needs none */
-    eval_charges(ckt, &w, w.x_n, w.q_n);
+    eval_charges(sv, w, w->x_n, w->q_n);
+    return SS_OK;
+}
+
+/* SS_ERR_LIMIT naming the source when the sources ask for more than TRAN_MAX_STEPS steps up to
+ * tstop; SS_OK otherwise. */
+static ss_status check_source_steps(const ss_solver *sv, const tran_ws *w, double tstop,
+                                    ss_error *err)
+{
     int busiest;
-    double needed = source_steps_needed(ckt, &w, tstop, &busiest);
+    double needed = source_steps_needed(sv, w, tstop, &busiest);
     if (needed > (double)TRAN_MAX_STEPS) {
-        const element *e = &ckt->elem[busiest];
+        const element *e = &sv->elem[busiest];
         char why[64] = "two at each of its corners";
         if (((const src_wave *)e->wave)->kind == WAVE_SIN)
             snprintf(why, sizeof why, "%d a period of its sine", WAVE_SIN_STEPS);
-        st = err_set(err, SS_ERR_LIMIT, ckt->tran_file ? ckt->tran_file : ckt->file,
-                     ckt->tran_line,
-                     "transient: %s needs %.3g steps or more up to %g s (%s), more than the "
-                     "limit of %.3g steps: shorten the run or slow the source",
-                     e->name, needed, tstop, why, (double)TRAN_MAX_STEPS);
-        restore_sources(ckt, &w);
-        ws_free(&w);
-        return st;
+        return err_set(err, SS_ERR_LIMIT, sv->ckt->tran.file ? sv->ckt->tran.file : sv->ckt->file,
+                       sv->ckt->tran.line,
+                       "transient: %s needs %.3g steps or more up to %g s (%s), more than the "
+                       "limit of %.3g steps: shorten the run or slow the source",
+                       e->name, needed, tstop, why, (double)TRAN_MAX_STEPS);
     }
+    return SS_OK;
+}
 
-    long k_last = (long)floor((tstop - tstart) / tstep + 1e-9);
-    long k_next = 0;
-    int stop = 0;
-    if (tstart == 0.0) {
-        s.points++;
-        stop = cfg->on_point(cfg->ctx, 0, 0.0, w.x_n);
-        k_next = 1;
+/* The step from m->t toward the output time a->t_grid: at most the proposed step, landing
+ * exactly on the grid point or the next corner when it is within reach. */
+static void plan_step(const tran_march *m, step_try *a)
+{
+    double target = fmin(a->t_grid, m->next_bp);
+    a->h_prop = fmin(m->h, fmin(m->hmax, m->h_src));
+    double h_try = a->h_prop;
+    a->lands = 0;
+    if (target - m->t <= h_try * (1.0 + 1e-9)) {
+        h_try = target - m->t;
+        a->lands = 1;
+    } else if (target - m->t < 2.0 * h_try) {
+        h_try = 0.5 * (target - m->t); /* two even steps rather than a long and a tiny one */
     }
-    double t = 0.0, h_prev = 0.0;
-    double t_hist[3] = {0.0, 0.0, 0.0}; /* t_n, t_n-1, t_n-2 */
-    double next_bp = next_corner(ckt, &w, 0.0, eps_t, tstep);
-    double h_src = source_step_cap(ckt, &w, 0.0); /* the sources' own limit from here on */
-    double h = TRAN_FIRST_STEP * fmin(fmin(fmin(tstep, hmax), h_src), next_bp);
-    int pts_since_bp = 1; /* accepted points since the last corner, the corner included */
-    double rej_r = 0.0, rej_h = 0.0; /* the last error rejection from t: its ratio and step */
-    int stalls = 0;                  /* rejections in a row whose estimate did not fall */
+    a->t_new = a->lands ? target : m->t + h_try;
+    a->h_try = a->t_new - m->t;
+}
+
+/* Solves the step a plans and estimates its error: a->r over the allowed (with the node
+ * a->err_u, its estimate a->err_v and a->err_gain, what the estimate makes of the solutions'
+ * rounding), a->worst_u the unknown Newton judged worst. Returns the solve's status. */
+static ss_status solve_step(ss_solver *sv, const tran_cfg *cfg, tran_ws *w, const tran_march *m,
+                            tran_stats *s, step_try *a)
+{
+    /* the first step from a corner: extrapolated backward Euler (it needs no derivative
+     * from before the corner); the next two gear2 (nor does it); then the chosen method */
+    a->startup = m->pts_since_bp == 1;
+    enum step_form form = a->startup                                          ? FORM_BE
+                          : m->pts_since_bp < 4 || cfg->method == TRAN_GEAR2 ? FORM_GEAR2
+                                                                              : FORM_TRAP;
+    a->worst_u = -1;
+    a->err_u = -1;
+    a->r = 0.0;
+    a->err_v = 0.0;
+    a->a0 = 0.0;
+    ss_status nst;
+    if (a->startup) {
+        nst = startup_step(sv, w, &m->tols, m->t, a->t_new, s, &a->worst_u);
+        if (nst == SS_OK) { /* (R2 - R1) / 3 */
+            a->r = diff_ratio(w, w->x_full, w->x_new, m->tol_rel, m->tol_v, &a->err_u,
+                              &a->err_v) /
+                   3.0;
+            a->err_v /= 3.0;
+        }
+        /* (R2 - R1) / 3 = (2 x(h/4) - 3 x(h/2) + x(h)) / 3: the solutions' rounding, twice */
+        a->err_gain = 2.0;
+    } else {
+        a->a0 = set_history(w, form, a->h_try, m->h_prev, w->q_n);
+        /* predictor: the line through the last two points */
+        double f = a->h_try / m->h_prev;
+        for (int u = 0; u < w->n; u++)
+            w->x_new[u] = w->x_n[u] + f * (w->x_n[u] - w->x_nm1[u]);
+        nst = solve_point(sv, w, &m->tols, a->a0, a->t_new, w->x_new, s, &a->worst_u);
+        double tt[4] = {a->t_new, m->t_hist[0], m->t_hist[1], m->t_hist[2]};
+        if (nst == SS_OK)
+            a->r = lte_ratio(w, tt, form == FORM_TRAP ? LTE_C_TRAP : LTE_C_GEAR2, a->h_try,
+                             m->tol_rel, m->tol_v, &a->err_u, &a->err_v, &a->err_gain);
+    }
+    return nst;
+}
+
+/* A step whose error estimate a->r exceeds the allowed: the next try is shorter by f (at the
+ * least TRAN_SHRINK_MIN). Returns SS_ERR_NO_CONVERGENCE when the estimate is rounding, not
+ * truncation, or the step fell below its floor; SS_OK to try again. */
+static ss_status reject_step(ss_solver *sv, tran_ws *w, tran_march *m, tran_stats *s,
+                             const step_try *a, double f, ss_error *err)
+{
+    s->rejected_lte++;
+    reset_device_state(sv, w->x_n);
+    /* an estimate within what the solutions' rounding can make of it that does not
+     * fall when the step is at least halved, or that drove the step to its floor, is
+     * rounding, not truncation */
+    int rounding = a->err_v <= a->err_gain * rounding_bound(w, w->x_new, w->rcond);
+    int stalled = rounding && m->rej_r > 0.0 && a->h_try <= 0.5 * m->rej_h &&
+                  a->r > TRAN_STALL_ERR * m->rej_r;
+    m->stalls = stalled ? m->stalls + 1 : 0;
+    m->rej_r = a->r;
+    m->rej_h = a->h_try;
+    m->h = a->h_try * fmax(TRAN_SHRINK_MIN, f);
+    if (m->stalls >= TRAN_STALL_COUNT || (m->h < m->hmin && rounding))
+        return rounding_error(sv, m->t, a->h_try, a->err_u, a->err_v, m->tol_rel, m->tol_v, err);
+    if (m->h < m->hmin)
+        return step_floor_error(sv, m->t, m->h, a->err_u, 0, err);
+    return SS_OK;
+}
+
+/* The start-up step a accepted: its midpoint first, then its end point with the second-order
+ * backward difference's derivative over the corner, the midpoint and the end. Returns the
+ * next step (f: the growth its error estimate allows). */
+static double accept_startup(ss_solver *sv, tran_ws *w, tran_march *m, tran_stats *s,
+                             const step_try *a, double f)
+{
+    double hh = 0.5 * a->h_try;
+    eval_charges(sv, w, w->x_mid, w->q_mid);
+    accept_point(w, w->x_mid, w->q_mid, m->t_hist, m->t + hh);
+    s->steps++;
+    m->pts_since_bp++;
+    m->h_prev = hh;
+    s->h_min_used_s = fmin(s->h_min_used_s, hh);
+    s->h_max_used_s = fmax(s->h_max_used_s, hh);
+    /* the next step, gear2, grows from the half step by at most TRAN_GROW_MAX */
+    double h_next = hh * fmin(TRAN_GROW_MAX, 2.0 * f);
+    eval_charges(sv, w, w->x_new, w->q_new);
+    for (int q = 0; q < w->n_q; q++)
+        w->i_n[q] = (3.0 * w->q_new[q] - 4.0 * w->q_n[q] + w->q_nm1[q]) / a->h_try;
+    accept_point(w, w->x_new, w->q_new, m->t_hist, a->t_new);
+    reset_device_state(sv, w->x_n); /* the extrapolated point, not the last solve */
+    return h_next;
+}
+
+/* The step a accepted: the charges at the solution, the formula's current, the histories; the
+ * output point when it landed on one, and the restart after a corner it landed on. f: the
+ * growth its error estimate allows. */
+static void accept_step(ss_solver *sv, const tran_cfg *cfg, tran_ws *w, tran_march *m,
+                        tran_stats *s, const step_try *a, double f)
+{
+    double h_next;
+    if (a->startup) {
+        h_next = accept_startup(sv, w, m, s, a, f);
+    } else {
+        m->h_prev = a->h_try;
+        s->h_min_used_s = fmin(s->h_min_used_s, a->h_try);
+        s->h_max_used_s = fmax(s->h_max_used_s, a->h_try);
+        h_next = a->h_try * fmin(TRAN_GROW_MAX, f);
+        if (a->h_try < a->h_prop) /* cut short to land: the step asked for still stands */
+            h_next = fmax(h_next, a->h_prop);
+        eval_charges(sv, w, w->x_new, w->q_new);
+        for (int q = 0; q < w->n_q; q++)
+            w->i_n[q] = a->a0 * w->q_new[q] + w->hist[q];
+        accept_point(w, w->x_new, w->q_new, m->t_hist, a->t_new);
+    }
+    m->t = a->t_new;
+    s->steps++;
+    m->pts_since_bp++;
+
+    if (a->lands && fabs(m->t - a->t_grid) <= m->eps_t) {
+        s->points++;
+        m->stop = cfg->on_point(cfg->ctx, m->k_next, a->t_grid, w->x_n);
+        m->k_next++;
+    }
+    if (a->lands && fabs(m->t - m->next_bp) <= m->eps_t) {
+        m->pts_since_bp = 1;
+        m->next_bp = next_corner(sv, w, m->t, m->eps_t, m->tstep);
+        m->h_src = source_step_cap(sv, w, m->t);
+        h_next = TRAN_BP_CUT * fmin(fmin(a->h_prop, m->h_src), m->next_bp - m->t);
+    }
+    m->h = fmin(h_next, m->hmax);
+}
+
+/* Steps from the initial point in w->x_n to the last output point (or until on_point stops
+ * the run), delivering every output point. Returns SS_OK, SS_ERR_LIMIT, SS_ERR_NOMEM or
+ * SS_ERR_NO_CONVERGENCE (the step fell below its floor, or rounding). */
+static ss_status march(ss_solver *sv, const tran_cfg *cfg, tran_ws *w, tran_march *m,
+                       tran_stats *s, ss_error *err)
+{
+    ss_status st = SS_OK;
+    m->k_last = (long)floor((m->tstop - m->tstart) / m->tstep + 1e-9);
+    m->k_next = 0;
+    m->stop = 0;
+    if (m->tstart == 0.0) {
+        s->points++;
+        m->stop = cfg->on_point(cfg->ctx, 0, 0.0, w->x_n);
+        m->k_next = 1;
+    }
+    m->t = 0.0;
+    m->h_prev = 0.0;
+    m->next_bp = next_corner(sv, w, 0.0, m->eps_t, m->tstep);
+    m->h_src = source_step_cap(sv, w, 0.0);
+    m->h = TRAN_FIRST_STEP * fmin(fmin(fmin(m->tstep, m->hmax), m->h_src), m->next_bp);
+    m->pts_since_bp = 1;
     long alloc_mark = ss_alloc_count();
-    s.h_min_used_s = HUGE_VAL;
+    s->h_min_used_s = HUGE_VAL;
 
-    while (!stop && k_next <= k_last && st == SS_OK) {
-        if (s.steps + s.rejected_lte + s.rejected_newton > TRAN_MAX_STEPS) {
-            st = err_set(err, SS_ERR_LIMIT, ckt->tran_file ? ckt->tran_file : ckt->file,
-                         ckt->tran_line, "transient: more than %ld steps at t = %.6g s",
-                         TRAN_MAX_STEPS, t);
+    while (!m->stop && m->k_next <= m->k_last && st == SS_OK) {
+        if (s->steps + s->rejected_lte + s->rejected_newton > TRAN_MAX_STEPS) {
+            st = err_set(err, SS_ERR_LIMIT, sv->ckt->tran.file ? sv->ckt->tran.file : sv->ckt->file,
+                         sv->ckt->tran.line, "transient: more than %ld steps at t = %.6g s",
+                         TRAN_MAX_STEPS, m->t);
             break;
         }
-        double t_grid = tstart + (double)k_next * tstep;
-        if (t_grid - t <= eps_t) { /* an output time on the point just reached */
-            s.points++;
-            stop = cfg->on_point(cfg->ctx, k_next, t_grid, w.x_n);
-            k_next++;
+        step_try a;
+        a.t_grid = m->tstart + (double)m->k_next * m->tstep;
+        if (a.t_grid - m->t <= m->eps_t) { /* an output time on the point just reached */
+            s->points++;
+            m->stop = cfg->on_point(cfg->ctx, m->k_next, a.t_grid, w->x_n);
+            m->k_next++;
             continue;
         }
-        double target = fmin(t_grid, next_bp);
-        double h_prop = fmin(h, fmin(hmax, h_src));
-        double h_try = h_prop;
-        int lands = 0;
-        if (target - t <= h_try * (1.0 + 1e-9)) {
-            h_try = target - t;
-            lands = 1;
-        } else if (target - t < 2.0 * h_try) {
-            h_try = 0.5 * (target - t); /* two even steps rather than a long and a tiny one */
-        }
-        double t_new = lands ? target : t + h_try;
-        h_try = t_new - t;
-
-        /* the first step from a corner: extrapolated backward Euler (it needs no derivative
-         * from before the corner); the next two gear2 (nor does it); then the chosen method */
-        int startup = pts_since_bp == 1;
-        enum step_form form = startup                                          ? FORM_BE
-                              : pts_since_bp < 4 || cfg->method == TRAN_GEAR2 ? FORM_GEAR2
-                                                                               : FORM_TRAP;
-        int worst_u = -1, err_u = -1;
-        double r = 0.0, err_v = 0.0, a0 = 0.0, err_gain;
-        ss_status nst;
-        if (startup) {
-            nst = startup_step(ckt, &w, &tols, t, t_new, &s, &worst_u);
-            if (nst == SS_OK) { /* (R2 - R1) / 3 */
-                r = diff_ratio(&w, w.x_full, w.x_new, tol_rel, tol_v, &err_u, &err_v) / 3.0;
-                err_v /= 3.0;
-            }
-            /* (R2 - R1) / 3 = (2 x(h/4) - 3 x(h/2) + x(h)) / 3: the solutions' rounding, twice */
-            err_gain = 2.0;
-        } else {
-            a0 = set_history(&w, form, h_try, h_prev, w.q_n);
-            /* predictor: the line through the last two points */
-            double f = h_try / h_prev;
-            for (int u = 0; u < w.n; u++)
-                w.x_new[u] = w.x_n[u] + f * (w.x_n[u] - w.x_nm1[u]);
-            nst = solve_point(ckt, &w, &tols, a0, t_new, w.x_new, &s, &worst_u);
-            double tt[4] = {t_new, t_hist[0], t_hist[1], t_hist[2]};
-            if (nst == SS_OK)
-                r = lte_ratio(&w, tt, form == FORM_TRAP ? LTE_C_TRAP : LTE_C_GEAR2, h_try,
-                              tol_rel, tol_v, &err_u, &err_v, &err_gain);
-        }
+        plan_step(m, &a);
+        ss_status nst = solve_step(sv, cfg, w, m, s, &a);
         if (nst == SS_ERR_NOMEM) {
             st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
             break;
         }
         if (nst != SS_OK) {
-            s.rejected_newton++;
-            reset_device_state(ckt, w.x_n);
-            h = h_try * TRAN_NEWTON_CUT;
-            if (h < hmin)
-                st = step_floor_error(ckt, t, h, worst_u, 1, err);
+            s->rejected_newton++;
+            reset_device_state(sv, w->x_n);
+            m->h = a.h_try * TRAN_NEWTON_CUT;
+            if (m->h < m->hmin)
+                st = step_floor_error(sv, m->t, m->h, a.worst_u, 1, err);
             continue;
         }
         /* every error estimate goes as h^3 */
-        double f = r > 0.0 ? TRAN_SAFETY * pow(r, -1.0 / 3.0) : TRAN_GROW_MAX;
-        if (r > 1.0) {
-            s.rejected_lte++;
-            reset_device_state(ckt, w.x_n);
-            /* an estimate within what the solutions' rounding can make of it that does not
-             * fall when the step is at least halved, or that drove the step to its floor, is
-             * rounding, not truncation */
-            int rounding = err_v <= err_gain * rounding_bound(&w, w.x_new, w.rcond);
-            int stalled = rounding && rej_r > 0.0 && h_try <= 0.5 * rej_h &&
-                          r > TRAN_STALL_ERR * rej_r;
-            stalls = stalled ? stalls + 1 : 0;
-            rej_r = r;
-            rej_h = h_try;
-            h = h_try * fmax(TRAN_SHRINK_MIN, f);
-            if (stalls >= TRAN_STALL_COUNT || (h < hmin && rounding))
-                st = rounding_error(ckt, t, h_try, err_u, err_v, tol_rel, tol_v, err);
-            else if (h < hmin)
-                st = step_floor_error(ckt, t, h, err_u, 0, err);
+        double f = a.r > 0.0 ? TRAN_SAFETY * pow(a.r, -1.0 / 3.0) : TRAN_GROW_MAX;
+        if (a.r > 1.0) {
+            st = reject_step(sv, w, m, s, &a, f, err);
             continue;
         }
-        rej_r = rej_h = 0.0;
-        stalls = 0;
-
-        /* accepted: the charges at the solution, the formula's current, the histories */
-        double h_next;
-        if (startup) {
-            double hh = 0.5 * h_try;
-            /* the midpoint first, then the end point with the second-order backward
-             * difference's derivative over the corner, the midpoint and the end */
-            eval_charges(ckt, &w, w.x_mid, w.q_mid);
-            accept_point(&w, w.x_mid, w.q_mid, t_hist, t + hh);
-            s.steps++;
-            pts_since_bp++;
-            h_prev = hh;
-            s.h_min_used_s = fmin(s.h_min_used_s, hh);
-            s.h_max_used_s = fmax(s.h_max_used_s, hh);
-            /* the next step, gear2, grows from the half step by at most TRAN_GROW_MAX */
-            h_next = hh * fmin(TRAN_GROW_MAX, 2.0 * f);
-            eval_charges(ckt, &w, w.x_new, w.q_new);
-            for (int q = 0; q < w.n_q; q++)
-                w.i_n[q] = (3.0 * w.q_new[q] - 4.0 * w.q_n[q] + w.q_nm1[q]) / h_try;
-            accept_point(&w, w.x_new, w.q_new, t_hist, t_new);
-            reset_device_state(ckt, w.x_n); /* the extrapolated point, not the last solve */
-        } else {
-            h_prev = h_try;
-            s.h_min_used_s = fmin(s.h_min_used_s, h_try);
-            s.h_max_used_s = fmax(s.h_max_used_s, h_try);
-            h_next = h_try * fmin(TRAN_GROW_MAX, f);
-            if (h_try < h_prop) /* cut short to land: the step asked for still stands */
-                h_next = fmax(h_next, h_prop);
-            eval_charges(ckt, &w, w.x_new, w.q_new);
-            for (int q = 0; q < w.n_q; q++)
-                w.i_n[q] = a0 * w.q_new[q] + w.hist[q];
-            accept_point(&w, w.x_new, w.q_new, t_hist, t_new);
-        }
-        t = t_new;
-        s.steps++;
-        pts_since_bp++;
-
-        if (lands && fabs(t - t_grid) <= eps_t) {
-            s.points++;
-            stop = cfg->on_point(cfg->ctx, k_next, t_grid, w.x_n);
-            k_next++;
-        }
-        if (lands && fabs(t - next_bp) <= eps_t) {
-            pts_since_bp = 1;
-            next_bp = next_corner(ckt, &w, t, eps_t, tstep);
-            h_src = source_step_cap(ckt, &w, t);
-            h_next = TRAN_BP_CUT * fmin(fmin(h_prop, h_src), next_bp - t);
-        }
-        h = fmin(h_next, hmax);
+        m->rej_r = m->rej_h = 0.0;
+        m->stalls = 0;
+        accept_step(sv, cfg, w, m, s, &a, f);
     }
-    s.allocs_in_loop = ss_alloc_count() - alloc_mark;
-    restore_sources(ckt, &w);
+    s->allocs_in_loop = ss_alloc_count() - alloc_mark;
+    return st;
+}
+
+ss_status tran_run(ss_solver *sv, const tran_cfg *cfg, tran_stats *stats, ss_error *err)
+{
+    tran_stats s;
+    memset(&s, 0, sizeof s);
+    if (!(cfg->tstep_s > 0.0) || !(cfg->tstop_s > cfg->tstart_s) || !(cfg->tstart_s >= 0.0))
+        return err_set(err, SS_ERR_INPUT, sv->ckt->file, 0,
+                       "transient: bad time grid (step %g s, start %g s, stop %g s)", cfg->tstep_s,
+                       cfg->tstart_s, cfg->tstop_s);
+    ss_status st = solver_prepare(sv, err);
+    if (st != SS_OK)
+        return st;
+    tran_ws w;
+    if ((st = ws_alloc(sv, &w, err)) != SS_OK)
+        return st;
+    tran_march m;
+    march_init(sv, cfg, &m);
+    int moved = 0; /* the t = 0 operating point differs from the DC one */
+    st = initial_point(sv, cfg, &w, m.tstep, &moved, err);
+    if (st == SS_OK)
+        st = check_source_steps(sv, &w, m.tstop, err);
+    if (st != SS_OK) {
+        restore_sources(sv, &w);
+        ws_free(&w);
+        return st;
+    }
+    st = march(sv, cfg, &w, &m, &s, err);
+    restore_sources(sv, &w);
     if (moved) /* x_op holds the t = 0 point, not the DC one */
-        ckt->have_op = 0;
+        sv->have_op = 0;
     ws_free(&w);
     if (stats)
         *stats = s;
     return st;
-}
-
-/* ---- the .tran analysis: tran.csv -------------------------------------------------------- */
-
-typedef struct tran_sink {
-    const ss_circuit *ckt;
-    ss_table *t;
-} tran_sink;
-
-static int sink_point(void *vctx, long k, double t_s, const double *x)
-{
-    (void)k;
-    tran_sink *s = vctx;
-    double *row = table_add_row(s->t, NULL); /* reserved: no allocation */
-    if (!row)
-        return 1;
-    int c = 0;
-    row[c++] = t_s;
-    for (int j = 0; j < circuit_n_out_nodes(s->ckt); j++)
-        row[c++] = x[node_unknown(circuit_out_node(s->ckt, j))];
-    return 0;
-}
-
-ss_status ss_tran_run(ss_circuit *ckt, ss_table **out_tran, ss_error *err)
-{
-    if (!ckt->want_tran)
-        return err_set(err, SS_ERR_INPUT, ckt->file, 0, "the netlist has no .tran analysis");
-    ss_status st = analysis_prepare(ckt, err);
-    if (st != SS_OK)
-        return st;
-    int n_user = circuit_n_out_nodes(ckt);
-    ss_table *t = table_create(1 + n_user, NULL);
-    if (!t)
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    static const char *const fmt[] = {"v(%s)"};
-    int bad = table_set_col(t, 0, "time_s") | analysis_node_cols(t, ckt, 1, fmt, 1);
-    long n_rows = (long)floor((ckt->tran_stop_s - ckt->tran_start_s) / ckt->tran_step_s + 1e-9) + 1;
-    if ((double)n_rows * (1.0 + n_user) > TRAN_MAX_CELLS) {
-        ss_table_destroy(&t);
-        return err_set(err, SS_ERR_LIMIT, ckt->tran_file, ckt->tran_line,
-                       ".tran: %ld rows of %d columns exceed the table limit of %.0e values; "
-                       "use a larger step or a later start",
-                       n_rows, 1 + n_user, TRAN_MAX_CELLS);
-    }
-    if (bad || table_reserve(t, (int)n_rows) != 0) {
-        ss_table_destroy(&t);
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
-    /* tran.csv samples every TSTEP: a source repeating faster than every second sample is
-     * aliased there, though the integration follows it */
-    for (int i = 0; i < ckt->n_elem; i++) {
-        const element *e = &ckt->elem[i];
-        if (!elem_is_source(e) || !e->wave)
-            continue;
-        double period = wave_period(e->wave);
-        if (isfinite(period) && ckt->tran_step_s > 0.5 * period)
-            circuit_warn(ckt,
-                         "%s: .tran samples its %s of period %g s every %g s, less than twice a "
-                         "period: tran.csv aliases it (the integration follows it; a step of "
-                         "%g s or less shows it)",
-                         e->name,
-                         ((const src_wave *)e->wave)->kind == WAVE_SIN ? "sine" : "pulse train",
-                         period,
-                         ckt->tran_step_s, 0.5 * period);
-    }
-    tran_sink sink = {ckt, t};
-    tran_cfg cfg = {.tstep_s = ckt->tran_step_s,
-                    .tstop_s = ckt->tran_stop_s,
-                    .tstart_s = ckt->tran_start_s,
-                    .method = ckt->tran_method == 1 ? TRAN_GEAR2 : TRAN_TRAP,
-                    .tol_rel = ckt->tran_tol_rel,
-                    .tol_v = ckt->tran_tol_v,
-                    .on_point = sink_point,
-                    .ctx = &sink};
-    st = tran_run(ckt, &cfg, NULL, err);
-    if (st == SS_OK && ss_table_rows(t) != n_rows)
-        st = err_set(err, SS_ERR_INTERNAL, ckt->file, 0, "transient: %d rows written, %ld expected",
-                     ss_table_rows(t), n_rows);
-    if (st != SS_OK) {
-        ss_table_destroy(&t);
-        return st;
-    }
-    *out_tran = t;
-    return SS_OK;
 }

@@ -47,10 +47,10 @@ typedef struct tran_stats {
  * Inputs: cfg (not modified); the circuit's elements, whose sources' e->wave give their values
  * in time (the caller may point a source's wave at its own form for the run).
  * Outputs: cfg->on_point per output point; stats (optional). Sources' DC values are restored;
- * ckt->x_op keeps the t = 0 operating point.
+ * sv->x_op keeps the t = 0 operating point.
  * Returns SS_OK, SS_ERR_NO_CONVERGENCE (initial point, or the step fell below the floor: the
  * message names the time and the worst unknown), SS_ERR_SINGULAR, SS_ERR_NOMEM. */
-SS_HIDDEN ss_status tran_run(ss_circuit *ckt, const tran_cfg *cfg, tran_stats *stats,
+SS_HIDDEN ss_status tran_run(ss_solver *sv, const tran_cfg *cfg, tran_stats *stats,
                              ss_error *err);
 
 #endif

@@ -149,7 +149,7 @@ static void *run_job(void *arg)
             ss_solver_set_value(sv, j->name, j->value, &err);
         ss_table *op = NULL;
         j->vc[k] = ss_op_solve(sv, &op, NULL, &err) == SS_OK ? ss_table_lookup(op, "v(c)", 0)
-                                                             : SS_NAN;
+                                                             : NAN;
         ss_table_destroy(&op);
     }
     ss_solver_destroy(&sv);
