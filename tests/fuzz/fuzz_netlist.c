@@ -408,12 +408,12 @@ static double dc_points(const dc_sweep_spec *s)
 
 /* 1 when the .ac sweep is short enough to run (its frequency list is computed, as it would be
  * by the sweep, to count it). */
-static int ac_within_limit(ss_circuit *ckt)
+static int ac_within_limit(ss_solver *sv)
 {
     double *freqs = NULL;
     int nf = 0;
     ss_error err = {0};
-    ss_status st = ac_frequencies(ckt, &freqs, &nf, &err);
+    ss_status st = ac_frequencies(sv, &freqs, &nf, &err);
     if (st != SS_OK) {
         check_failure(st, &err);
         note("ac", "frequencies: %s", err.message);
@@ -453,7 +453,7 @@ static char *read_back(const char *path, size_t *len)
 }
 
 /* The library promise of ss_ac_sweep_write: the very bytes of the table written as CSV. */
-static void check_ac_stream(ss_circuit *ckt)
+static void check_ac_stream(ss_solver *sv)
 {
     if (!init_output())
         return;
@@ -461,7 +461,7 @@ static void check_ac_stream(ss_circuit *ckt)
     snprintf(a, sizeof a, "%s/ac.csv", g_dir);
     snprintf(b, sizeof b, "%s/ac_stream.csv", g_dir);
     ss_error err = {0};
-    ss_status st = ss_ac_sweep_write(ckt, b, &err);
+    ss_status st = ss_ac_sweep_write(sv, b, &err);
     if (st != SS_OK) {
         check_failure(st, &err);
         return;
@@ -476,11 +476,11 @@ static void check_ac_stream(ss_circuit *ckt)
 }
 
 /* .ac, then the stage figures and the Bode plot; *summary is kept for the report. */
-static void run_ac_stage(ss_circuit *ckt, const ss_analysis_flags *fl, ss_table **summary)
+static void run_ac_stage(ss_solver *sv, const ss_analysis_flags *fl, ss_table **summary)
 {
     ss_table *ac = NULL, *stage = NULL;
     ss_error err = {0};
-    ss_status st = ss_ac_sweep_run(ckt, &ac, &err);
+    ss_status st = ss_ac_sweep_run(sv, &ac, &err);
     if (st != SS_OK) {
         check_failure(st, &err);
         return;
@@ -489,11 +489,11 @@ static void run_ac_stage(ss_circuit *ckt, const ss_analysis_flags *fl, ss_table 
     note("ac", "ok");
     write_csv(ac, "ac.csv");
     ss_table_destroy(&ac);
-    check_ac_stream(ckt);
+    check_ac_stream(sv);
     if (!fl->stage)
         return;
     memset(&err, 0, sizeof err);
-    st = ss_stage_run(ckt, &stage, summary, &err);
+    st = ss_stage_run(sv, &stage, summary, &err);
     if (st != SS_OK) {
         check_failure(st, &err);
         return;
@@ -509,18 +509,18 @@ static void run_ac_stage(ss_circuit *ckt, const ss_analysis_flags *fl, ss_table 
         char path[512];
         snprintf(path, sizeof path, "%s/bode.svg", g_dir);
         memset(&err, 0, sizeof err);
-        st = ss_plot_write_bode(ckt, stage, *summary, path, &err);
+        st = ss_plot_write_bode(sv, stage, *summary, path, &err);
         if (st != SS_OK)
             check_failure(st, &err);
     }
     ss_table_destroy(&stage);
 }
 
-static void run_noise(ss_circuit *ckt)
+static void run_noise(ss_solver *sv)
 {
     ss_table *noise = NULL, *summary = NULL, *contrib = NULL;
     ss_error err = {0};
-    ss_status st = ss_noise_run(ckt, &noise, &summary, &contrib, &err);
+    ss_status st = ss_noise_run(sv, &noise, &summary, &contrib, &err);
     if (st != SS_OK) {
         check_failure(st, &err);
         return;
@@ -537,17 +537,17 @@ static void run_noise(ss_circuit *ckt)
 }
 
 /* .dc last: it moves the operating point */
-static void run_dc(ss_circuit *ckt)
+static void run_dc(ss_solver *sv)
 {
-    double n = dc_points(&ckt->dc[0]);
-    if (ckt->n_dc == 2)
-        n *= dc_points(&ckt->dc[1]);
+    double n = dc_points(&sv->ckt->dc.sweep[0]);
+    if (sv->ckt->dc.n == 2)
+        n *= dc_points(&sv->ckt->dc.sweep[1]);
     note("dc", "%g points%s", n, n <= FUZZ_MAX_DC_POINTS ? "" : ": skipped");
     if (!(n <= FUZZ_MAX_DC_POINTS))
         return;
     ss_table *dc = NULL;
     ss_error err = {0};
-    ss_status st = ss_dc_sweep_run(ckt, &dc, &err);
+    ss_status st = ss_dc_sweep_run(sv, &dc, &err);
     if (st != SS_OK) {
         check_failure(st, &err);
         return;
@@ -560,22 +560,22 @@ static void run_dc(ss_circuit *ckt)
 
 /* The sanity checks at the operating point: every lint warning names its check at its end and
  * a subject, the count matches, and a second run adds nothing. */
-static void run_lint(ss_circuit *ckt)
+static void run_lint(ss_solver *sv)
 {
     ss_error err = {0};
     int n = -1, n2 = -1;
-    ss_status st = ss_lint_run(ckt, &n, &err);
+    ss_status st = ss_lint_run(sv, &n, &err);
     if (st != SS_OK) {
         check_failure(st, &err);
         return;
     }
     int named = 0, total = 0;
-    for (int i = 0; ss_circuit_warning(ckt, i); i++, total++) {
-        const char *subject = NULL, *check = ss_circuit_warning_lint(ckt, i, &subject);
+    for (int i = 0; ss_solver_warning(sv, i); i++, total++) {
+        const char *subject = NULL, *check = ss_solver_warning_lint(sv, i, &subject);
         if (!check)
             continue;
         named++;
-        const char *w = ss_circuit_warning(ckt, i);
+        const char *w = ss_solver_warning(sv, i);
         size_t lw = strlen(w), lc = strlen(check);
         FUZZ_CHECK(subject && subject[0], "lint warning without a subject");
         FUZZ_CHECK(lw > lc + 2 && w[lw - 1] == ']' && w[lw - lc - 2] == '[' &&
@@ -584,24 +584,24 @@ static void run_lint(ss_circuit *ckt)
     }
     FUZZ_CHECK(named == n, "lint count differs from the warnings it named");
     note("lint", "%d warnings", n);
-    st = ss_lint_run(ckt, &n2, &err);
+    st = ss_lint_run(sv, &n2, &err);
     FUZZ_CHECK(st == SS_OK && n2 == n, "a second lint run changed the count");
     int total2 = 0;
-    for (int i = 0; ss_circuit_warning(ckt, i); i++)
+    for (int i = 0; ss_solver_warning(sv, i); i++)
         total2++;
     FUZZ_CHECK(total2 == total, "a second lint run added warnings");
 }
 
-static void run_analyses(ss_circuit *ckt)
+static void run_analyses(ss_solver *sv)
 {
     ss_table *op = NULL, *summary = NULL;
     ss_error err = {0};
     ss_op_stats stats;
     ss_analysis_flags fl;
-    ss_circuit_analyses(ckt, &fl);
-    (void)ss_circuit_temp_c(ckt);
+    ss_solver_analyses(sv, &fl);
+    (void)ss_solver_temp_c(sv);
 
-    ss_status st = ss_op_solve(ckt, &op, &stats, &err);
+    ss_status st = ss_op_solve(sv, &op, &stats, &err);
     if (st != SS_OK) {
         check_failure(st, &err);
         return;
@@ -610,28 +610,28 @@ static void run_analyses(ss_circuit *ckt)
     note("op", "ok, %d Newton iterations", stats.newton_iterations);
     write_csv(op, "op.csv");
     ss_table_destroy(&op);
-    run_lint(ckt);
+    run_lint(sv);
 
-    int ac_ok = fl.ac && ac_within_limit(ckt);
+    int ac_ok = fl.ac && ac_within_limit(sv);
     if (ac_ok)
-        run_ac_stage(ckt, &fl, &summary);
+        run_ac_stage(sv, &fl, &summary);
     if (init_output() && g_null)
-        ss_report_write(ckt, summary, g_null);
+        ss_report_write(sv, summary, g_null);
     ss_table_destroy(&summary);
     if (ac_ok && fl.noise)
-        run_noise(ckt);
+        run_noise(sv);
     if (fl.dc)
-        run_dc(ckt);
-    for (int i = 0; ss_circuit_warning(ckt, i); i++)
-        FUZZ_CHECK(ss_circuit_warning(ckt, i)[0] != '\0', "empty warning");
+        run_dc(sv);
+    for (int i = 0; ss_solver_warning(sv, i); i++)
+        FUZZ_CHECK(ss_solver_warning(sv, i)[0] != '\0', "empty warning");
 }
 
 /* ---- API calls named in the input ----------------------------------------------------------
  * Comment lines the parser ignores drive the calls a program makes besides parsing:
  *   *@set NAME=VALUE        an override passed to the parser (up to FUZZ_MAX_SETS)
- *   *@stage SRC NODE [LOAD] ss_circuit_set_stage after parsing
+ *   *@stage SRC NODE [LOAD] ss_solver_set_stage after parsing
  *   *@get NAME              ss_circuit_get_value after parsing
- *   *@nodes A [B [C]]        ss_circuit_select_nodes after parsing                           */
+ *   *@nodes A [B [C]]        ss_solver_select_nodes after parsing                           */
 #define FUZZ_MAX_SETS 4
 #define FUZZ_MAX_NODES 3
 
@@ -719,7 +719,7 @@ static void api_clear(fz_api *api)
 }
 
 /* The calls after parsing; 0 to go on with the analyses. */
-static int api_calls(ss_circuit *ckt, const fz_api *api)
+static int api_calls(ss_circuit *ckt, ss_solver *sv, const fz_api *api)
 {
     ss_error err = {0};
     if (api->get_name) {
@@ -732,7 +732,7 @@ static int api_calls(ss_circuit *ckt, const fz_api *api)
     }
     if (api->n_nodes) {
         memset(&err, 0, sizeof err);
-        ss_status st = ss_circuit_select_nodes(ckt, api->nodes, api->n_nodes, &err);
+        ss_status st = ss_solver_select_nodes(sv, api->nodes, api->n_nodes, &err);
         if (st != SS_OK) {
             check_failure(st, &err);
             return -1;
@@ -741,7 +741,7 @@ static int api_calls(ss_circuit *ckt, const fz_api *api)
     if (api->stage_src) {
         double load = api->stage_load ? strtod(api->stage_load, NULL) : 0.0;
         memset(&err, 0, sizeof err);
-        ss_status st = ss_circuit_set_stage(ckt, api->stage_src, api->stage_node, load, &err);
+        ss_status st = ss_solver_set_stage(sv, api->stage_src, api->stage_node, load, &err);
         if (st != SS_OK) {
             check_failure(st, &err);
             return -1;
@@ -777,9 +777,14 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     FUZZ_CHECK(ckt != NULL, "a successful parse without a circuit");
     note("parse", "ok, %d elements, %d nodes (about %ld lines expanded)", ckt->n_elem,
          ckt->n_nodes, lines);
-    if (api_calls(ckt, &api) == 0 && ckt->n_elem <= FUZZ_MAX_ANALYSIS_ELEMENTS &&
+    ss_solver *sv = NULL;
+    FUZZ_CHECK(ss_solver_create(ckt, &sv, &err) == SS_OK || err.code == SS_ERR_NOMEM,
+               "no solver context for a parsed circuit");
+    if (sv && api_calls(ckt, sv, &api) == 0 && ckt->n_elem <= FUZZ_MAX_ANALYSIS_ELEMENTS &&
         ckt->n_nodes <= FUZZ_MAX_ANALYSIS_NODES && ckt->opt.newton_iters <= FUZZ_MAX_NEWTON_ITERS)
-        run_analyses(ckt);
+        run_analyses(sv);
+    ss_solver_destroy(&sv);
+    FUZZ_CHECK(sv == NULL, "destroy did not null the context");
     ss_circuit_destroy(&ckt);
     FUZZ_CHECK(ckt == NULL, "destroy did not null the handle");
     api_clear(&api);

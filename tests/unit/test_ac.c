@@ -16,9 +16,9 @@ static void run_stage(const char *text, ss_table **stage, ss_table **summary,
     ss_circuit *ckt = ss_test_parse(text);
     ss_error err = {0};
     ss_table *op = NULL;
-    assert_int_equal(ss_op_solve(ckt, &op, NULL, &err), SS_OK);
+    assert_int_equal(ss_op_solve(ss_test_sv(ckt), &op, NULL, &err), SS_OK);
     ss_table_destroy(&op);
-    if (ss_stage_run(ckt, stage, summary, &err) != SS_OK) {
+    if (ss_stage_run(ss_test_sv(ckt), stage, summary, &err) != SS_OK) {
         print_error("stage failed: %s\n", err.message);
         fail();
     }
@@ -43,7 +43,7 @@ static void test_rc_lowpass_corner(void **state)
     /* Zin at mid-band (10 Hz) is nearly R + 1/(jwC): dominated by C */
     ss_table_destroy(&st);
     ss_table_destroy(&sum);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_rc_highpass_corner_and_phase(void **state)
@@ -59,7 +59,7 @@ static void test_rc_highpass_corner_and_phase(void **state)
     ss_assert_close(ss_table_get(st, 0, 3), 45.0, 0, 1e-5);
     ss_table_destroy(&st);
     ss_table_destroy(&sum);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     run_stage("rc hp\nvin in 0 ac 1\nc1 in out 1u\nr1 out 0 10k\n"
               ".ac dec 5 1 100k\n.stage in=vin out=out\n",
               &st, &sum, &ckt);
@@ -68,7 +68,7 @@ static void test_rc_highpass_corner_and_phase(void **state)
     assert_true(isnan(ss_table_lookup(sum, "bandwidth_hz", 0)));
     ss_table_destroy(&st);
     ss_table_destroy(&sum);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* Series RLC band-pass across R: f0 = 1/(2 pi sqrt(LC)) = 5032.92121 Hz, Q = 31.6227766,
@@ -91,7 +91,7 @@ static void test_series_rlc_resonance(void **state)
     ss_assert_close(ss_table_lookup(sum, "zin_mid_ohm", 0), 10.0, 5e-3, 0);
     ss_table_destroy(&st);
     ss_table_destroy(&sum);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_ac_table_columns(void **state)
@@ -101,7 +101,7 @@ static void test_ac_table_columns(void **state)
                                     ".ac oct 1 100 400\n");
     ss_table *ac = NULL;
     ss_error err = {0};
-    assert_int_equal(ss_ac_sweep_run(ckt, &ac, &err), SS_OK);
+    assert_int_equal(ss_ac_sweep_run(ss_test_sv(ckt), &ac, &err), SS_OK);
     assert_int_equal(ss_table_rows(ac), 3); /* 100, 200, 400 Hz */
     assert_string_equal(ss_table_col_name(ac, 0), "freq_hz");
     assert_string_equal(ss_table_col_name(ac, 3), "vm(out)");
@@ -110,10 +110,10 @@ static void test_ac_table_columns(void **state)
     ss_assert_close(ss_table_get(ac, 1, 3), 1.0, 1e-14, 0);  /* AC 2 halved */
     ss_assert_close(ss_table_get(ac, 1, 4), 90.0, 1e-12, 0); /* phase carried through */
     ss_table_destroy(&ac);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
-/* Node selection (ss_circuit_select_nodes): the columns follow the names given, in order,
+/* Node selection (ss_solver_select_nodes): the columns follow the names given, in order,
  * duplicates once; NULL goes back to every node; a missing node or ground is refused. The
  * divider's half (Ohm's law) is the value check. */
 static void test_ac_node_selection(void **state)
@@ -123,27 +123,27 @@ static void test_ac_node_selection(void **state)
                                     "r3 out 0 2k\n.ac oct 1 100 200\n");
     ss_error err = {0};
     const char *names[] = {"OUT", "in", "out"};
-    assert_int_equal(ss_circuit_select_nodes(ckt, names, 3, &err), SS_OK);
+    assert_int_equal(ss_solver_select_nodes(ss_test_sv(ckt), names, 3, &err), SS_OK);
     ss_table *ac = NULL;
-    assert_int_equal(ss_ac_sweep_run(ckt, &ac, &err), SS_OK);
+    assert_int_equal(ss_ac_sweep_run(ss_test_sv(ckt), &ac, &err), SS_OK);
     assert_int_equal(ss_table_cols(ac), 5);
     assert_string_equal(ss_table_col_name(ac, 1), "vm(out)");
     assert_string_equal(ss_table_col_name(ac, 3), "vm(in)");
     ss_assert_close(ss_table_get(ac, 0, 1), 1.0, 1e-14, 0);
     ss_assert_close(ss_table_get(ac, 0, 3), 2.0, 1e-14, 0);
     ss_table_destroy(&ac);
-    assert_int_equal(ss_circuit_select_nodes(ckt, NULL, 0, &err), SS_OK);
-    assert_int_equal(ss_ac_sweep_run(ckt, &ac, &err), SS_OK);
+    assert_int_equal(ss_solver_select_nodes(ss_test_sv(ckt), NULL, 0, &err), SS_OK);
+    assert_int_equal(ss_ac_sweep_run(ss_test_sv(ckt), &ac, &err), SS_OK);
     assert_int_equal(ss_table_cols(ac), 7); /* in, mid, out */
     ss_table_destroy(&ac);
     const char *bad[] = {"nowhere"};
-    assert_int_equal(ss_circuit_select_nodes(ckt, bad, 1, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_select_nodes(ss_test_sv(ckt), bad, 1, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "'nowhere' is no node");
     const char *gnd[] = {"0"};
     ss_error err2 = {0};
-    assert_int_equal(ss_circuit_select_nodes(ckt, gnd, 1, &err2), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_select_nodes(ss_test_sv(ckt), gnd, 1, &err2), SS_ERR_INPUT);
     ss_assert_contains(err2.message, "ground");
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static char *slurp(const char *path, size_t *len)
@@ -185,12 +185,12 @@ static void test_ac_stream_matches_table(void **state)
         for (int sel = 0; sel < 2; sel++) {
             const char *names[] = {"n3", "n1"};
             ss_error err = {0};
-            assert_int_equal(ss_circuit_select_nodes(ckt, names, sel ? 2 : 0, &err), SS_OK);
+            assert_int_equal(ss_solver_select_nodes(ss_test_sv(ckt), names, sel ? 2 : 0, &err), SS_OK);
             ss_table *ac = NULL;
-            assert_int_equal(ss_ac_sweep_run(ckt, &ac, &err), SS_OK);
+            assert_int_equal(ss_ac_sweep_run(ss_test_sv(ckt), &ac, &err), SS_OK);
             assert_int_equal(ss_table_write_csv(ac, a, &err), SS_OK);
             ss_table_destroy(&ac);
-            assert_int_equal(ss_ac_sweep_write(ckt, b, &err), SS_OK);
+            assert_int_equal(ss_ac_sweep_write(ss_test_sv(ckt), b, &err), SS_OK);
             size_t la, lb;
             char *ta = slurp(a, &la), *tb = slurp(b, &lb);
             assert_int_equal(la, lb);
@@ -198,7 +198,7 @@ static void test_ac_stream_matches_table(void **state)
             free(ta);
             free(tb);
         }
-        ss_circuit_destroy(&ckt);
+        ss_test_destroy(&ckt);
     }
     unlink(a);
     unlink(b);
@@ -211,10 +211,10 @@ static void test_stage_without_stage_is_error(void **state)
     ss_circuit *ckt = ss_test_parse("nostage\nvin in 0 ac 1\nr1 in 0 1k\n.ac dec 1 1 10\n");
     ss_table *st = NULL, *sum = NULL;
     ss_error err = {0};
-    assert_int_equal(ss_stage_run(ckt, &st, &sum, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_stage_run(ss_test_sv(ckt), &st, &sum, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "no stage named");
-    assert_int_equal(ss_circuit_set_stage(ckt, "vin", "nonode", 0, &err), SS_ERR_INPUT);
-    ss_circuit_destroy(&ckt);
+    assert_int_equal(ss_solver_set_stage(ss_test_sv(ckt), "vin", "nonode", 0, &err), SS_ERR_INPUT);
+    ss_test_destroy(&ckt);
 }
 
 int main(void)

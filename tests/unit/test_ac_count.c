@@ -60,10 +60,10 @@ static void check_case(const ac_case *c)
     assert_int_equal(st, SS_OK);
     double *freqs = NULL;
     int n = 0;
-    assert_int_equal(ac_frequencies(ckt, &freqs, &n, &err), SS_OK);
+    assert_int_equal(ac_frequencies(ss_test_sv(ckt), &freqs, &n, &err), SS_OK);
     assert_int_equal(n, (int)c->expected);
     ss_free(freqs);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_parser_and_sweep_count_alike(void **state)

@@ -94,9 +94,12 @@ static void test_set_value_refusals(void **state)
     assert_int_equal(ss_solver_create(ckt, &sv, &err), SS_OK);
     assert_int_equal(ss_solver_set_value(sv, "nosuch", 1.0, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "nosuch");
+    memset(&err, 0, sizeof err); /* an error keeps its first message */
     assert_int_equal(ss_solver_set_value(sv, "qn.nosuch", 1.0, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "no parameter 'nosuch'");
+    memset(&err, 0, sizeof err);
     assert_int_equal(ss_solver_set_value(sv, "q1", 1.0, &err), SS_ERR_INPUT);
+    memset(&err, 0, sizeof err);
     /* out of range: refused by the next analysis, naming the line */
     assert_int_equal(ss_solver_set_value(sv, "rb", -1.0, &err), SS_OK);
     ss_table *op = NULL;
@@ -104,6 +107,7 @@ static void test_set_value_refusals(void **state)
     ss_assert_contains(err.message, "resistance must be positive");
     assert_string_equal(err.file, "test.cir");
     ss_solver_reset_values(sv);
+    memset(&err, 0, sizeof err);
     assert_int_equal(ss_op_solve(sv, &op, NULL, &err), SS_OK);
     ss_table_destroy(&op);
     ss_solver_destroy(&sv);
@@ -149,7 +153,7 @@ static void *run_job(void *arg)
             ss_solver_set_value(sv, j->name, j->value, &err);
         ss_table *op = NULL;
         j->vc[k] = ss_op_solve(sv, &op, NULL, &err) == SS_OK ? ss_table_lookup(op, "v(c)", 0)
-                                                             : NAN;
+                                                             : (double)NAN;
         ss_table_destroy(&op);
     }
     ss_solver_destroy(&sv);

@@ -69,10 +69,10 @@ static int compare_names(const char *file, const char *limits_text)
     assert_int_equal(ss_limits_create(&lim, &err), SS_OK);
     assert_int_equal(ss_limits_add_text(lim, limits_text, "t.limits", &err), SS_OK);
     name_list want = {0};
-    figures_names(ckt, lim, collect, &want);
-    assert_int_equal(ss_limits_check_names(lim, ckt, &err), SS_OK);
+    figures_names(ss_test_sv(ckt), lim, collect, &want);
+    assert_int_equal(ss_limits_check_names(lim, ss_test_sv(ckt), &err), SS_OK);
     ss_table *figs = NULL;
-    if (ss_figures_compute(ckt, lim, &figs, &err) != SS_OK) {
+    if (ss_figures_compute(ss_test_sv(ckt), lim, &figs, &err) != SS_OK) {
         char msg[1400];
         ss_error_format(&err, msg, sizeof msg);
         print_error("%s: %s\n", file, msg);
@@ -91,7 +91,7 @@ static int compare_names(const char *file, const char *limits_text)
     list_clear(&want);
     ss_table_destroy(&figs);
     ss_limits_destroy(&lim);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     return n;
 }
 
@@ -150,12 +150,12 @@ static void expect_name_error(const char *net, const char *limits, const char *w
     ss_error err = {0};
     assert_int_equal(ss_limits_create(&lim, &err), SS_OK);
     assert_int_equal(ss_limits_add_text(lim, limits, "t.limits", &err), SS_OK);
-    assert_int_equal(ss_limits_check_names(lim, ckt, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_limits_check_names(lim, ss_test_sv(ckt), &err), SS_ERR_INPUT);
     char msg[1400];
     ss_error_format(&err, msg, sizeof msg);
     assert_string_equal(msg, want);
     ss_limits_destroy(&lim);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_check_names_refuses_what_does_not_exist(void **state)
@@ -204,10 +204,10 @@ static void test_check_names_accepts_every_kind(void **state)
                                         "phase_deg @ 2k >= -90\n",
                                         "t.limits", &err),
                      SS_OK);
-    assert_int_equal(ss_limits_check_names(lim, ckt, &err), SS_OK);
-    assert_int_equal(ss_limits_check_names(NULL, ckt, &err), SS_OK);
+    assert_int_equal(ss_limits_check_names(lim, ss_test_sv(ckt), &err), SS_OK);
+    assert_int_equal(ss_limits_check_names(NULL, ss_test_sv(ckt), &err), SS_OK);
     ss_limits_destroy(&lim);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* ---- ss_value_parse: the numbers of option values ---------------------------------------- */
@@ -286,7 +286,7 @@ static void test_set_twice_is_refused(void **state)
     double v;
     assert_int_equal(ss_circuit_get_value(ckt, "r2", &v, &err), SS_OK);
     ss_assert_close(v, 1e3, 0.0, 0.0);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_swept_name_cannot_also_be_set(void **state)

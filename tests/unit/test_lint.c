@@ -33,12 +33,12 @@ static int lint_text(const char *text, char *buf, size_t len)
     ss_table *op = ss_test_op(text, &ckt);
     ss_error err = {0};
     int n = -1;
-    assert_int_equal(ss_lint_run(ckt, &n, &err), SS_OK);
+    assert_int_equal(ss_lint_run(ss_test_sv(ckt), &n, &err), SS_OK);
     buf[0] = '\0';
     int listed = 0;
-    for (int i = 0; ss_circuit_warning(ckt, i); i++) {
+    for (int i = 0; ss_solver_warning(ss_test_sv(ckt), i); i++) {
         const char *subject = NULL;
-        const char *check = ss_circuit_warning_lint(ckt, i, &subject);
+        const char *check = ss_solver_warning_lint(ss_test_sv(ckt), i, &subject);
         if (!check)
             continue;
         snprintf(buf + strlen(buf), len - strlen(buf), "%s%s %s", listed++ ? "," : "", check,
@@ -47,12 +47,12 @@ static int lint_text(const char *text, char *buf, size_t len)
     assert_int_equal(listed, n);
     /* a second run finds the same and adds nothing */
     int n2 = -1;
-    assert_int_equal(ss_lint_run(ckt, &n2, &err), SS_OK);
+    assert_int_equal(ss_lint_run(ss_test_sv(ckt), &n2, &err), SS_OK);
     assert_int_equal(n2, n);
-    assert_null(ss_circuit_warning_lint(ckt, -1, NULL));
-    assert_null(ss_circuit_warning_lint(ckt, 1000, NULL));
+    assert_null(ss_solver_warning_lint(ss_test_sv(ckt), -1, NULL));
+    assert_null(ss_solver_warning_lint(ss_test_sv(ckt), 1000, NULL));
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     return n;
 }
 
@@ -140,10 +140,10 @@ static void test_every_allocation_failure_is_clean(void **state)
         ss_error err = {0};
         int count = -1;
         ss_alloc_fail_at(n);
-        ss_status st = ss_lint_run(ckt, &count, &err);
+        ss_status st = ss_lint_run(ss_test_sv(ckt), &count, &err);
         ss_alloc_fail_at(-1);
         ss_table_destroy(&op);
-        ss_circuit_destroy(&ckt);
+        ss_test_destroy(&ckt);
         if (st == SS_OK) {
             n_ok = count;
             break;

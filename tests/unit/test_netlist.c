@@ -9,6 +9,7 @@
 
 #include "netlist/circuit.h"
 #include "netlist/netlist.h"
+#include "solver/solver.h"
 
 /* ---- values: SI suffixes are the trade's convention (common practice) --------------------- */
 
@@ -154,12 +155,12 @@ static void test_continuation_comments_case(void **state)
                                     "r2 mid 0 {1k}\n"
                                     ".END\n"
                                     "R3 this line is after .end\n");
-    assert_int_equal(ckt->n_elem, 3);
+    assert_int_equal(ss_test_sv(ckt)->n_elem, 3);
     assert_string_equal(ckt->title, "Title line is ignored");
     assert_true(circuit_find_node(ckt, "mid") > 0);
     assert_int_equal(circuit_find_elem(ckt, "r1"), 1);
-    ss_assert_close(ckt->elem[1].value, 1000.0, 0, 0);
-    ss_circuit_destroy(&ckt);
+    ss_assert_close(ss_test_sv(ckt)->elem[1].value, 1000.0, 0, 0);
+    ss_test_destroy(&ckt);
     assert_null(ckt);
 }
 
@@ -172,13 +173,13 @@ static void test_param_order_free_and_override(void **state)
                        "v1 a 0 1\n"
                        "r1 a 0 {rtot}\n";
     ss_circuit *ckt = ss_test_parse(text);
-    ss_assert_close(ckt->elem[1].value, 3000.0, 1e-15, 0);
-    ss_circuit_destroy(&ckt);
+    ss_assert_close(ss_test_sv(ckt)->elem[1].value, 3000.0, 1e-15, 0);
+    ss_test_destroy(&ckt);
     ss_override ov[] = {{"RA", "2k"}};
     ss_error err = {0};
     assert_int_equal(ss_circuit_parse_text(text, strlen(text), "t.cir", ov, 1, &ckt, &err), SS_OK);
-    ss_assert_close(ckt->elem[1].value, 6000.0, 1e-15, 0);
-    ss_circuit_destroy(&ckt);
+    ss_assert_close(ss_test_sv(ckt)->elem[1].value, 6000.0, 1e-15, 0);
+    ss_test_destroy(&ckt);
 }
 
 static void test_override_element_and_model_param(void **state)
@@ -191,9 +192,9 @@ static void test_override_element_and_model_param(void **state)
     ss_circuit *ckt = NULL;
     ss_error err = {0};
     assert_int_equal(ss_circuit_parse_text(text, strlen(text), "t.cir", ov, 2, &ckt, &err), SS_OK);
-    ss_assert_close(ckt->elem[3].value, 2200.0, 1e-15, 0);
-    ss_assert_close(ckt->models[0]->p[1], 250.0, 0, 0);
-    ss_circuit_destroy(&ckt);
+    ss_assert_close(ss_test_sv(ckt)->elem[3].value, 2200.0, 1e-15, 0);
+    ss_assert_close(ss_test_sv(ckt)->models[0]->p[1], 250.0, 0, 0);
+    ss_test_destroy(&ckt);
     ss_override bad[] = {{"nosuch", "1"}};
     assert_int_equal(ss_circuit_parse_text(text, strlen(text), "t.cir", bad, 1, &ckt, &err),
                      SS_ERR_INPUT);
@@ -219,14 +220,14 @@ static void test_subckt_nested_with_params(void **state)
     /* xq.x1.r1 = 2k (val/2), xq.x2.r1 = 1k (default) */
     int e = circuit_find_elem(ckt, "xq.x1.r1");
     assert_true(e >= 0);
-    ss_assert_close(ckt->elem[e].value, 2000.0, 1e-15, 0);
+    ss_assert_close(ss_test_sv(ckt)->elem[e].value, 2000.0, 1e-15, 0);
     e = circuit_find_elem(ckt, "xq.x2.r2");
     assert_true(e >= 0);
-    ss_assert_close(ckt->elem[e].value, 1000.0, 1e-15, 0);
+    ss_assert_close(ss_test_sv(ckt)->elem[e].value, 1000.0, 1e-15, 0);
     assert_true(circuit_find_node(ckt, "xq.mid") > 0);
     assert_true(circuit_find_node(ckt, "xq.x1.m") > 0);
-    assert_int_equal(ckt->n_elem, 5);
-    ss_circuit_destroy(&ckt);
+    assert_int_equal(ss_test_sv(ckt)->n_elem, 5);
+    ss_test_destroy(&ckt);
 }
 
 static void write_file(const char *path, const char *text)
@@ -253,7 +254,7 @@ static void test_include_relative_to_including_file(void **state)
     ss_error err = {0};
     assert_int_equal(ss_circuit_parse_file(p1, NULL, 0, &ckt, &err), SS_OK);
     assert_int_equal(ckt->n_models, 1);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     /* a cycle */
     write_file(p2, ".include ../top.cir\n");
     ss_status st = ss_circuit_parse_file(p1, NULL, 0, &ckt, &err);
@@ -361,8 +362,8 @@ static void test_long_names_are_refused_not_cut(void **state)
     char src[400];
     memset(src, 'v', sizeof src - 1);
     src[sizeof src - 1] = '\0';
-    assert_int_equal(ss_circuit_set_stage(ckt, src, "n", 0, &err), SS_ERR_INPUT);
-    ss_circuit_destroy(&ckt);
+    assert_int_equal(ss_solver_set_stage(ss_test_sv(ckt), src, "n", 0, &err), SS_ERR_INPUT);
+    ss_test_destroy(&ckt);
 }
 
 /* A netlist node may be spelled like the internal node a device makes ("q1#b", the base behind
@@ -376,11 +377,11 @@ static void test_internal_node_does_not_shadow_netlist_node(void **state)
     int before = circuit_find_node(ckt, "q1#b");
     assert_true(before > 0);
     ss_error err = {0};
-    assert_int_equal(ss_op_solve(ckt, NULL, NULL, &err), SS_OK);
-    assert_true(ckt->n_nodes > ckt->n_netlist_nodes); /* the BJT made its internal base */
+    assert_int_equal(ss_op_solve(ss_test_sv(ckt), NULL, NULL, &err), SS_OK);
+    assert_true(ss_test_sv(ckt)->n_nodes > ckt->n_netlist_nodes); /* the BJT made its internal base */
     assert_int_equal(circuit_find_node(ckt, "q1#b"), before);
-    assert_int_equal(ckt->node_internal[before], 0);
-    ss_circuit_destroy(&ckt);
+    assert_int_equal(ss_test_sv(ckt)->node_internal[before], 0);
+    ss_test_destroy(&ckt);
 }
 
 int main(void)

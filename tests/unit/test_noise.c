@@ -23,11 +23,11 @@ static void run_noise(const char *text, noise_run *r)
     r->ckt = ss_test_parse(text);
     ss_error err;
     memset(&err, 0, sizeof err);
-    if (ss_noise_run(r->ckt, &r->noise, &r->summary, &r->contrib, &err) != SS_OK) {
+    if (ss_noise_run(ss_test_sv(r->ckt), &r->noise, &r->summary, &r->contrib, &err) != SS_OK) {
         char msg[1400];
         ss_error_format(&err, msg, sizeof msg);
         print_error("noise failed: %s\n", msg);
-        ss_circuit_destroy(&r->ckt);
+        ss_test_destroy(&r->ckt);
         fail();
     }
 }
@@ -37,7 +37,7 @@ static void noise_run_clear(noise_run *r)
     ss_table_destroy(&r->noise);
     ss_table_destroy(&r->summary);
     ss_table_destroy(&r->contrib);
-    ss_circuit_destroy(&r->ckt);
+    ss_test_destroy(&r->ckt);
 }
 
 static double metric(const noise_run *r, const char *name)
@@ -198,7 +198,7 @@ static void test_ce_input_noise_matches_hybrid_pi(void **state)
     /* the same closed form on the solver's own operating point */
     ss_table *op = NULL;
     ss_error err = {0};
-    assert_int_equal(ss_op_solve(r.ckt, &op, NULL, &err), SS_OK);
+    assert_int_equal(ss_op_solve(ss_test_sv(r.ckt), &op, NULL, &err), SS_OK);
     double ic = ss_test_opval(op, "ic(q1)"), ib = ss_test_opval(op, "ib(q1)");
     double gm = ss_test_opval(op, "gm(q1)");
     double rt = 1100.0, gpi = gm / 100.0, kt4 = 4.0 * K_BOLTZMANN * T_DEFAULT_K;
@@ -257,17 +257,17 @@ static void test_adjoint_equals_direct_per_source(void **state)
     noise_src *src = NULL;
     int ns = 0;
     ss_error err = {0};
-    assert_int_equal(noise_collect_sources(ckt, &src, &ns, &err), SS_OK);
+    assert_int_equal(noise_collect_sources(ss_test_sv(ckt), &src, &ns, &err), SS_OK);
     assert_true(ns >= 12); /* 7 resistors + q1 (6) + d1 (3) */
-    const element *vin = &ckt->elem[circuit_find_elem(ckt, "vin")];
+    const element *vin = &ss_test_sv(ckt)->elem[circuit_find_elem(ckt, "vin")];
     int out = circuit_find_node(ckt, "out");
-    int n = ckt->n_unknowns;
+    int n = ss_test_sv(ckt)->n_unknowns;
     double complex *b = ss_alloc((size_t)n * sizeof *b);
     assert_non_null(b);
     for (int k = 0; k < ss_table_rows(r.noise); k++) {
         double f = ss_table_get(r.noise, k, 0);
-        assert_int_equal(ac_solve_point(ckt, 2.0 * SS_PI * f, vin, 0, 0, &err), SS_OK);
-        double complex gain = ckt->work_zrhs[out - 1];
+        assert_int_equal(ac_solve_point(ss_test_sv(ckt), 2.0 * SS_PI * f, vin, 0, 0, &err), SS_OK);
+        double complex gain = ss_test_sv(ckt)->work_zrhs[out - 1];
         double s = 0.0;
         for (int i = 0; i < ns; i++) {
             const dev_noise_src *d = &src[i].src;
@@ -276,7 +276,7 @@ static void test_adjoint_equals_direct_per_source(void **state)
                 b[d->node_a - 1] += 1.0;
             if (d->node_b > 0)
                 b[d->node_b - 1] -= 1.0;
-            assert_int_equal(mna_solve_complex_again(ckt->mna, b), SS_OK);
+            assert_int_equal(mna_solve_complex_again(ss_test_sv(ckt)->mna, b), SS_OK);
             double z = cabs(b[out - 1]);
             s += z * z * (d->white_a2_per_hz + d->flicker_a2 / f);
         }
@@ -340,7 +340,7 @@ static void test_contributions_ranked_and_add_up(void **state)
     noise_run_clear(&r);
 }
 
-/* rs= names the reference resistor explicitly; ss_circuit_set_noise does the same through the
+/* rs= names the reference resistor explicitly; ss_solver_set_noise does the same through the
  * API (names case-insensitive) and overrides the netlist's line. */
 static void test_rs_names_the_noise_figure_reference(void **state)
 {
@@ -359,15 +359,15 @@ static void test_rs_names_the_noise_figure_reference(void **state)
                     -10.0 * log10(ss_table_get(named.contrib, row, 1) / 100.0), 1e-9, 0);
 
     ss_error err = {0};
-    assert_int_equal(ss_circuit_set_noise(named.ckt, "OUT", "Vin", "RS", &err), SS_OK);
+    assert_int_equal(ss_solver_set_noise(ss_test_sv(named.ckt), "OUT", "Vin", "RS", &err), SS_OK);
     ss_table *s = NULL;
-    assert_int_equal(ss_noise_run(named.ckt, NULL, &s, NULL, &err), SS_OK);
+    assert_int_equal(ss_noise_run(ss_test_sv(named.ckt), NULL, &s, NULL, &err), SS_OK);
     ss_assert_close(ss_table_lookup(s, "noise_figure_db", 0), metric(&auto_r, "noise_figure_db"),
                     1e-12, 0);
     ss_table_destroy(&s);
     /* another output: v(c) */
-    assert_int_equal(ss_circuit_set_noise(named.ckt, "c", "vin", NULL, &err), SS_OK);
-    assert_int_equal(ss_noise_run(named.ckt, NULL, &s, NULL, &err), SS_OK);
+    assert_int_equal(ss_solver_set_noise(ss_test_sv(named.ckt), "c", "vin", NULL, &err), SS_OK);
+    assert_int_equal(ss_noise_run(ss_test_sv(named.ckt), NULL, &s, NULL, &err), SS_OK);
     assert_true(ss_table_lookup(s, "out_noise_rms_v", 0) > 0.0);
     ss_table_destroy(&s);
     noise_run_clear(&auto_r);
@@ -380,15 +380,15 @@ static long noise_allocations(const char *text)
 {
     ss_circuit *ckt = ss_test_parse(text);
     ss_error err = {0};
-    assert_int_equal(ss_op_solve(ckt, NULL, NULL, &err), SS_OK);
+    assert_int_equal(ss_op_solve(ss_test_sv(ckt), NULL, NULL, &err), SS_OK);
     long before = ss_alloc_count();
     ss_table *t = NULL, *s = NULL, *c = NULL;
-    assert_int_equal(ss_noise_run(ckt, &t, &s, &c, &err), SS_OK);
+    assert_int_equal(ss_noise_run(ss_test_sv(ckt), &t, &s, &c, &err), SS_OK);
     long used = ss_alloc_count() - before;
     ss_table_destroy(&t);
     ss_table_destroy(&s);
     ss_table_destroy(&c);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     return used;
 }
 
@@ -412,27 +412,30 @@ static void test_one_extra_solve_per_frequency(void **state)
     (void)state;
     ss_circuit *ckt = ss_test_parse(STAGE);
     ss_error err = {0};
-    assert_int_equal(ss_op_solve(ckt, NULL, NULL, &err), SS_OK);
-    mna_counters before = *mna_get_counters(ckt->mna);
+    assert_int_equal(ss_op_solve(ss_test_sv(ckt), NULL, NULL, &err), SS_OK);
+    mna_counters before = *mna_get_counters(ss_test_sv(ckt)->mna);
     ss_table *t = NULL;
-    assert_int_equal(ss_noise_run(ckt, &t, NULL, NULL, &err), SS_OK);
-    const mna_counters *after = mna_get_counters(ckt->mna);
+    assert_int_equal(ss_noise_run(ss_test_sv(ckt), &t, NULL, NULL, &err), SS_OK);
+    const mna_counters *after = mna_get_counters(ss_test_sv(ckt)->mna);
     long nf = ss_table_rows(t);
     assert_int_equal(nf, 61);
     assert_int_equal(after->complex_solves - before.complex_solves, nf);
     assert_int_equal(after->complex_extra_solves - before.complex_extra_solves, nf);
     ss_table_destroy(&t);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static ss_status alloc_run_once(void)
 {
     ss_circuit *ckt = NULL;
+    ss_solver *sv = NULL;
     ss_table *t = NULL, *s = NULL, *c = NULL;
     ss_error err = {0};
     ss_status st = ss_circuit_parse_text(STAGE, strlen(STAGE), "a.cir", NULL, 0, &ckt, &err);
     if (st == SS_OK)
-        st = ss_noise_run(ckt, &t, &s, &c, &err);
+        st = ss_solver_create(ckt, &sv, &err);
+    if (st == SS_OK)
+        st = ss_noise_run(sv, &t, &s, &c, &err);
     if (st != SS_OK) {
         assert_true(err.code != SS_OK);
         assert_true(err.message[0] != '\0');
@@ -441,6 +444,7 @@ static ss_status alloc_run_once(void)
     ss_table_destroy(&t);
     ss_table_destroy(&s);
     ss_table_destroy(&c);
+    ss_solver_destroy(&sv);
     ss_circuit_destroy(&ckt);
     return st;
 }
@@ -521,31 +525,31 @@ static void test_run_errors(void **state)
     /* no noise analysis named */
     ss_circuit *ckt = ss_test_parse("t\nvin in 0 ac 1\nr1 in out 1k\n.ac dec 1 1 10\n");
     ss_table *t = NULL;
-    assert_int_equal(ss_noise_run(ckt, &t, NULL, NULL, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_noise_run(ss_test_sv(ckt), &t, NULL, NULL, &err), SS_ERR_INPUT);
     assert_null(t);
     ss_error_format(&err, buf, sizeof buf);
     ss_assert_contains(buf, "no noise analysis named");
-    /* ss_circuit_set_noise names what does not exist */
+    /* ss_solver_set_noise names what does not exist */
     memset(&err, 0, sizeof err);
-    assert_int_equal(ss_circuit_set_noise(ckt, "nowhere", "vin", NULL, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_set_noise(ss_test_sv(ckt), "nowhere", "vin", NULL, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "noise output node 'nowhere' does not exist");
     memset(&err, 0, sizeof err);
-    assert_int_equal(ss_circuit_set_noise(ckt, "0", "vin", NULL, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_set_noise(ss_test_sv(ckt), "0", "vin", NULL, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "is ground");
     memset(&err, 0, sizeof err);
-    assert_int_equal(ss_circuit_set_noise(ckt, "out", "r1", NULL, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_set_noise(ss_test_sv(ckt), "out", "r1", NULL, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "noise input 'r1' is not an independent source");
     memset(&err, 0, sizeof err);
-    assert_int_equal(ss_circuit_set_noise(ckt, "out", "vin", "vin", &err), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_set_noise(ss_test_sv(ckt), "out", "vin", "vin", &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "'vin' is not a resistor");
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     /* .noise without .ac: located at the .noise line */
     ckt = ss_test_parse("t\nvin in 0 ac 1\nr1 in out 1k\n.noise v(out) vin\n");
     memset(&err, 0, sizeof err);
-    assert_int_equal(ss_noise_run(ckt, &t, NULL, NULL, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_noise_run(ss_test_sv(ckt), &t, NULL, NULL, &err), SS_ERR_INPUT);
     ss_error_format(&err, buf, sizeof buf);
     ss_assert_contains(buf, "test.cir:4: .noise: the netlist has no .ac sweep");
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 int main(void)

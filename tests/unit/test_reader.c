@@ -1,7 +1,7 @@
 /* Reading whole files (strbuf_read_file): regular files only, refused before any byte is read
  * when they are not (a FIFO must not block, a device must not be read without end), a size cap,
  * and the first failed allocation ends the read. Also the temperature check of
- * ss_circuit_set_temp, the way a study's temperature sweep reaches the models. */
+ * ss_solver_set_temp, the way a study's temperature sweep reaches the models. */
 #define _DEFAULT_SOURCE /* mkdtemp */
 #include "ss_test.h"
 
@@ -145,15 +145,15 @@ static void test_set_temp_checks_the_models(void **state)
     ss_circuit *ckt = ss_test_parse("t\nvcc c 0 5\nvb b 0 0.7\nq1 c b 0 qhot\n"
                                     ".model qhot npn xtb=1e300\n");
     ss_error err = {0};
-    assert_int_equal(ss_circuit_set_temp(ckt, 85.0, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_set_temp(ss_test_sv(ckt), 85.0, &err), SS_ERR_INPUT);
     char msg[1400];
     ss_error_format(&err, msg, sizeof msg);
     assert_string_equal(msg, "test.cir:5: model 'qhot': at 85 C, bf becomes inf (it must stay "
                              "finite and > 0)");
     ss_assert_close(ss_circuit_temp_c(ckt), 27.0, 0, 0);
     memset(&err, 0, sizeof err);
-    assert_int_equal(ss_circuit_set_temp(ckt, 27.0, &err), SS_OK);
-    ss_circuit_destroy(&ckt);
+    assert_int_equal(ss_solver_set_temp(ss_test_sv(ckt), 27.0, &err), SS_OK);
+    ss_test_destroy(&ckt);
 }
 
 int main(void)

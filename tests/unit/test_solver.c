@@ -20,7 +20,7 @@ static void test_divider_closed_form(void **state)
     /* i(V) enters the + node: the source delivers, so it is negative */
     ss_assert_close(ss_test_opval(op, "i(v1)"), -12.0 / 97e3, 1e-12, 0);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_superposition_two_sources(void **state)
@@ -32,7 +32,7 @@ static void test_superposition_two_sources(void **state)
     /* superposition: 5 V * 4/5 + 2 mA * (1k || 4k) = 4 + 1.6 = 5.6 V */
     ss_assert_close(ss_test_opval(op, "v(m)"), 5.6, 1e-12, 0);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_controlled_sources_closed_form(void **state)
@@ -54,7 +54,7 @@ static void test_controlled_sources_closed_form(void **state)
     ss_assert_close(ss_test_opval(op, "v(of)"), 3e-3 * 1e3, 1e-12, 0);
     ss_assert_close(ss_test_opval(op, "v(oh)"), 500.0 * 1e-3, 1e-12, 0);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* Diode with series resistor: Banwell & Jayakumar, Electronics Letters 36(4), 2000, Lambert-W
@@ -68,11 +68,11 @@ static void test_diode_series_r_lambert_w(void **state)
     ss_assert_close(ss_test_opval(op, "id(d1)"), 4.30711216762e-3, 1e-9, 0);
     ss_assert_close(ss_test_opval(op, "v(k)"), 0.692887832, 1e-8, 0);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     op = ss_test_op("diode n2\n.model dx d is=1e-14 n=2\nv1 a 0 5\nr1 a k 1k\nd1 k 0 dx\n", &ckt);
     ss_assert_close(ss_test_opval(op, "id(d1)"), 3.62316938285e-3, 1e-9, 0);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_thermal_voltage_from_codata(void **state)
@@ -86,7 +86,7 @@ static void test_thermal_voltage_from_codata(void **state)
     ss_assert_close(ss_test_opval(op, "v(a)"), thermal_voltage_v(300.15) * log(1e-3 / 1e-14 + 1.0), 1e-12, 0);
     ss_assert_close(thermal_voltage_v(300.15), VT_300_15, 1e-10, 0);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* Saturation current temperature law, check value IS(350.15 K) = 7.28045000e-12 A for
@@ -101,7 +101,7 @@ static void test_is_temperature_law(void **state)
     double vt = thermal_voltage_v(350.15);
     ss_assert_close(ss_test_opval(op, "v(a)"), vt * log(1e-3 / 7.28045000e-12 + 1.0), 1e-8, 0);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* Ebers-Moll transport form (Ebers & Moll 1954) with the Early factor of the Gummel-Poon q1
@@ -126,7 +126,7 @@ static void test_bjt_transport_closed_form(void **state)
     ss_assert_close(ss_test_opval(op, "gm(q1)"), is / vt * exp(vbe / vt) * (1.0 - vbc / 80.0),
                     1e-10, 0);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_pnp_currents_are_negative(void **state)
@@ -143,7 +143,7 @@ static void test_pnp_currents_are_negative(void **state)
     ss_assert_close(ss_test_opval(op, "ib(q1)"), -(i_f / 120.0 + i_r), 1e-10, 0);
     ss_assert_close(ss_test_opval(op, "vbe(q1)"), -0.68, 1e-12, 0);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* A CE stage forced through the fallbacks: three Newton iterations are too few for plain
@@ -159,17 +159,17 @@ static void test_gmin_stepping_reaches_same_answer(void **state)
     ss_table *op = ss_test_op(CE_STAGE, &ckt);
     double vc = ss_test_opval(op, "v(c)");
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     char text[1024];
     snprintf(text, sizeof text, "%s.options newton_iters=4\n", CE_STAGE);
     ckt = ss_test_parse(text);
     ss_op_stats stats;
     ss_error err = {0};
-    assert_int_equal(ss_op_solve(ckt, &op, &stats, &err), SS_OK);
+    assert_int_equal(ss_op_solve(ss_test_sv(ckt), &op, &stats, &err), SS_OK);
     assert_true(stats.gmin_steps > 0 || stats.source_steps > 0);
     ss_assert_close(ss_test_opval(op, "v(c)"), vc, 1e-9, 0);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* A device whose Newton stamps disagree with its own current equation: the converged
@@ -187,15 +187,15 @@ static void test_kcl_verification_catches_inconsistent_stamp(void **state)
     (void)state;
     ss_circuit *ckt = ss_test_parse("kcl\nv1 a 0 1\nr1 a b 1k\nr2 b 0 1k\n");
     static dev_ops broken;
-    broken = *ckt->elem[2].ops;
+    broken = *ss_test_sv(ckt)->elem[2].ops;
     broken.kcl = broken_kcl;
-    ckt->elem[2].ops = &broken;
+    ss_test_sv(ckt)->elem[2].ops = &broken;
     ss_table *op = NULL;
     ss_error err = {0};
-    assert_int_equal(ss_op_solve(ckt, &op, NULL, &err), SS_ERR_NO_CONVERGENCE);
+    assert_int_equal(ss_op_solve(ss_test_sv(ckt), &op, NULL, &err), SS_ERR_NO_CONVERGENCE);
     assert_null(op);
     ss_assert_contains(err.message, "fails Kirchhoff's law at node 'b'");
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void expect_op_error(const char *text, ss_status code, const char *message)
@@ -203,14 +203,14 @@ static void expect_op_error(const char *text, ss_status code, const char *messag
     ss_circuit *ckt = ss_test_parse(text);
     ss_table *op = NULL;
     ss_error err = {0};
-    assert_int_equal(ss_op_solve(ckt, &op, NULL, &err), code);
+    assert_int_equal(ss_op_solve(ss_test_sv(ckt), &op, NULL, &err), code);
     char buf[1400];
     ss_error_format(&err, buf, sizeof buf);
     if (strcmp(buf, message) != 0) {
         print_error("got      '%s'\nexpected '%s'\n", buf, message);
         fail();
     }
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_topology_errors_named(void **state)

@@ -27,11 +27,11 @@ static ss_table *run_tran(const char *text, ss_circuit **out_ckt)
     ss_circuit *ckt = ss_test_parse(text);
     ss_table *t = NULL;
     ss_error err = {0};
-    if (ss_tran_run(ckt, &t, &err) != SS_OK) {
+    if (ss_tran_run(ss_test_sv(ckt), &t, &err) != SS_OK) {
         char msg[1400];
         ss_error_format(&err, msg, sizeof msg);
         print_error("tran failed: %s\n", msg);
-        ss_circuit_destroy(&ckt);
+        ss_test_destroy(&ckt);
         fail();
     }
     *out_ckt = ckt;
@@ -52,8 +52,8 @@ static const src_wave *wave_of(const ss_circuit *ckt, const char *name)
 {
     int i = circuit_find_elem(ckt, name);
     assert_true(i >= 0);
-    assert_non_null(ckt->elem[i].wave);
-    return ckt->elem[i].wave;
+    assert_non_null(ss_test_sv(ckt)->elem[i].wave);
+    return ss_test_sv(ckt)->elem[i].wave;
 }
 
 /* ---- source forms ------------------------------------------------------------------------ */
@@ -66,19 +66,19 @@ static void test_sin_form_values(void **state)
     ss_circuit *ckt = ss_test_parse("t\nv1 a 0 sin(1 2 1k 1m 100 30)\nr1 a 0 1k\n");
     const src_wave *w = wave_of(ckt, "v1");
     ss_assert_close(wave_value(w, 0.0, 0.0), 1.0 + 2.0 * 0.5, 1e-15, 0);
-    ss_assert_close(ckt->elem[0].value, 2.0, 1e-15, 0); /* no DC given: its t = 0 value */
+    ss_assert_close(ss_test_sv(ckt)->elem[0].value, 2.0, 1e-15, 0); /* no DC given: its t = 0 value */
     double t = 1.25e-3; /* a quarter period after TD: phase 90 + 30 degrees */
     ss_assert_close(wave_value(w, t, 0.0), 1.0 + 2.0 * exp(-100.0 * 0.25e-3) * sin(SS_PI * 2 / 3),
                     1e-13, 0);
     ss_assert_close(wave_next_break(w, 0.0, 0.0), 1e-3, 1e-15, 0);
     assert_true(isinf(wave_next_break(w, 1e-3, 0.0)));
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     /* a DC value given as well wins at DC; the one-token and two-token spellings agree */
     ckt = ss_test_parse("t\nv1 a 0 dc 5 sin (0, 1, 1k) ac 1\nr1 a 0 1k\n");
-    ss_assert_close(ckt->elem[0].value, 5.0, 0, 0);
-    ss_assert_close(ckt->elem[0].ac_mag, 1.0, 0, 0);
+    ss_assert_close(ss_test_sv(ckt)->elem[0].value, 5.0, 0, 0);
+    ss_assert_close(ss_test_sv(ckt)->elem[0].ac_mag, 1.0, 0, 0);
     ss_assert_close(wave_value(wave_of(ckt, "v1"), 0.25e-3, 0.0), 1.0, 1e-15, 0);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* PULSE(V1 V2 TD TR TF PW PER): linear edges, periodic; corners as breakpoints. */
@@ -88,7 +88,7 @@ static void test_pulse_form_values_and_corners(void **state)
     ss_circuit *ckt =
         ss_test_parse("t\n.param hi=3\ni1 0 a pulse(-1 {hi} 1u 1u 2u 3u 10u)\nr1 a 0 1k\n");
     const src_wave *w = wave_of(ckt, "i1");
-    ss_assert_close(ckt->elem[0].value, -1.0, 0, 0);
+    ss_assert_close(ss_test_sv(ckt)->elem[0].value, -1.0, 0, 0);
     ss_assert_close(wave_value(w, 0.5e-6, 0.0), -1.0, 0, 0);
     ss_assert_close(wave_value(w, 1.5e-6, 0.0), 1.0, 1e-12, 0); /* mid-rise */
     ss_assert_close(wave_value(w, 4.0e-6, 0.0), 3.0, 0, 0);     /* top */
@@ -101,12 +101,12 @@ static void test_pulse_form_values_and_corners(void **state)
         t = wave_next_break(w, t, 0.0);
         ss_assert_close(t, corners[k], 1e-12, 0);
     }
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     /* left-out and zero edges stand for the output step */
     ckt = ss_test_parse("t\nv1 a 0 pulse(0 1 0 0)\nr1 a 0 1k\n");
     ss_assert_close(wave_value(wave_of(ckt, "v1"), 0.5e-9, 1e-9), 0.5, 1e-12, 0);
     ss_assert_close(wave_value(wave_of(ckt, "v1"), 1.0, 1e-9), 1.0, 0, 0); /* no end */
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_pwl_form_values(void **state)
@@ -121,7 +121,7 @@ static void test_pwl_form_values(void **state)
     ss_assert_close(wave_next_break(w, 1e-3, 0.0), 2e-3, 0, 0);
     ss_assert_close(wave_next_break(w, 0.0, 0.0), 1e-3, 0, 0);
     assert_true(isinf(wave_next_break(w, 4e-3, 0.0)));
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void expect_parse_error(const char *text, const char *message)
@@ -167,10 +167,10 @@ static void test_form_and_tran_errors_are_located(void **state)
     ss_circuit *ckt = ss_test_parse("t\nv1 a 0 1\nr1 a 0 1\n");
     ss_table *t = NULL;
     ss_error err = {0};
-    assert_int_equal(ss_tran_run(ckt, &t, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_tran_run(ss_test_sv(ckt), &t, &err), SS_ERR_INPUT);
     assert_null(t);
     ss_assert_contains(err.message, "no .tran analysis");
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* ---- the transient ----------------------------------------------------------------------- */
@@ -201,7 +201,7 @@ static void check_rc_step(const char *method_line, double rel)
     print_message("    RC step %s: worst |error| %.3g V of 2 V\n", method_line, worst);
     assert_true(worst <= rel * 2.0);
     ss_table_destroy(&t);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_rc_step_response_trapezoidal(void **state)
@@ -264,16 +264,16 @@ static void test_lc_period_and_energy_over_100_periods(void **state)
     p.e_min = HUGE_VAL;
     p.e_max = 0.0;
     ss_error err = {0};
-    assert_int_equal(analysis_prepare(ckt, &err), SS_OK);
+    assert_int_equal(solver_prepare(ss_test_sv(ckt), &err), SS_OK);
     p.v_u = circuit_find_node(ckt, "a") - 1;
-    p.i_u = ckt->elem[circuit_find_elem(ckt, "l1")].branch;
+    p.i_u = ss_test_sv(ckt)->elem[circuit_find_elem(ckt, "l1")].branch;
     tran_cfg cfg = {.tstep_s = period / 200,
                     .tstop_s = 101 * period,
                     .method = TRAN_TRAP,
                     .on_point = lc_point,
                     .ctx = &p};
     tran_stats s;
-    ss_status st = tran_run(ckt, &cfg, &s, &err);
+    ss_status st = tran_run(ss_test_sv(ckt), &cfg, &s, &err);
     if (st != SS_OK)
         print_error("%s\n", err.message);
     assert_int_equal(st, SS_OK);
@@ -287,7 +287,7 @@ static void test_lc_period_and_energy_over_100_periods(void **state)
     ss_assert_close(p.e_min, e0, 1e-4, 0);
     ss_assert_close(p.e_max, e0, 1e-4, 0);
     assert_int_equal(s.allocs_in_loop, 0); /* setup allocates, the stepping loop does not */
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* Tighter truncation-error tolerance, smaller error: the step control converges. */
@@ -316,7 +316,7 @@ static void test_pwl_divider_exact_on_grid(void **state)
         ss_assert_close(ss_table_get(t, k, cb), 0.5 * wave_value(w, time, 0.0), 1e-9, 1e-12);
     }
     ss_table_destroy(&t);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* Depletion charge Q(v) = CJ VJ (1 - (1 - v/VJ)^(1-M)) / (1 - M) (the integral of the
@@ -358,7 +358,7 @@ static void test_charge_returns_after_pulse(void **state)
     ss_assert_close(ss_table_get(t, k_plateau, cm), v_plateau, 1e-7, 0);
     ss_assert_close(ss_table_get(t, k_end, cm), 0.0, 0, 1e-7);
     ss_table_destroy(&t);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* ---- harmonics --------------------------------------------------------------------------- */
@@ -433,7 +433,7 @@ static void check_exponential_harmonics(const char *netlist, double amp_v, doubl
     double thd_pct = 0.0;
     ss_table *h = NULL, *w = NULL;
     ss_error err = {0};
-    ss_status st = ss_stage_thd(ckt, amp_v, 1e3, &thd_pct, &h, &w, &err);
+    ss_status st = ss_stage_thd(ss_test_sv(ckt), amp_v, 1e3, &thd_pct, &h, &w, &err);
     if (st != SS_OK)
         print_error("%s\n", err.message);
     assert_int_equal(st, SS_OK);
@@ -458,7 +458,7 @@ static void check_exponential_harmonics(const char *netlist, double amp_v, doubl
     }
     ss_table_destroy(&h);
     ss_table_destroy(&w);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* A junction driven by V0 + Va sin: i = IS exp((V0 + Va sin)/Vt) - IS, read out exactly by a
@@ -501,10 +501,10 @@ static void test_amplitude_for_one_percent_thd(void **state)
                                     ".stage in=vin out=out\n");
     double a = 0.0;
     ss_error err = {0};
-    assert_int_equal(ss_stage_amplitude_at_thd(ckt, 1.0, 1e3, &a, &err), SS_OK);
+    assert_int_equal(ss_stage_amplitude_at_thd(ss_test_sv(ckt), 1.0, 1e3, &a, &err), SS_OK);
     print_message("    1 %% THD at %.9g V (Bessel: %.9g V)\n", a, a_expect);
     ss_assert_close(a, a_expect, 2e-3, 0);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* ---- clipping ----------------------------------------------------------------------------- */
@@ -520,14 +520,14 @@ static double op_vout(const char *text, const char *src, const char *out, double
     ss_error err = {0};
     assert_int_equal(ss_circuit_parse_text(text, strlen(text), "t.cir", &ov, 1, &ckt, &err), SS_OK);
     ss_table *op = NULL;
-    if (ss_op_solve(ckt, &op, NULL, &err) != SS_OK) {
+    if (ss_op_solve(ss_test_sv(ckt), &op, NULL, &err) != SS_OK) {
         print_error("op at %s = %g: %s\n", src, u, err.message);
         fail();
     }
     snprintf(label, sizeof label, "v(%s)", out);
     double v = ss_test_opval(op, label);
     ss_table_destroy(&op);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     return v;
 }
 
@@ -565,7 +565,7 @@ static ss_table *clipping_of(const char *text, ss_circuit **out_ckt)
     ss_circuit *ckt = ss_test_parse(text);
     ss_table *t = NULL;
     ss_error err = {0};
-    ss_status st = ss_stage_clipping(ckt, &t, &err);
+    ss_status st = ss_stage_clipping(ss_test_sv(ckt), &t, &err);
     if (st != SS_OK)
         print_error("%s\n", err.message);
     assert_int_equal(st, SS_OK);
@@ -585,7 +585,7 @@ static void test_emitter_follower_clipping(void **state)
                        "re e 0 1k\n.model qf npn (is=1e-16 bf=1e9)\n.stage in=vin out=e\n";
     ss_circuit *ckt;
     ss_table *t = clipping_of(text, &ckt);
-    double v0 = ckt->x_op[circuit_find_node(ckt, "e") - 1], re = 1e3, vt = VT_300K15;
+    double v0 = ss_test_sv(ckt)->x_op[circuit_find_node(ckt, "e") - 1], re = 1e3, vt = VT_300K15;
     double ic0 = v0 / re, ic1 = vt / ((re + vt / ic0) / 0.9 - re);
     double neg = ss_table_lookup(t, "swing_neg_v", 0), pos = ss_table_lookup(t, "swing_pos_v", 0);
     double neg_op = -op_onset(text, "vin", "e", 5.0, -1.0, 0.05);
@@ -605,7 +605,7 @@ static void test_emitter_follower_clipping(void **state)
     ss_assert_close(ss_table_lookup(t, "vin_at_swing_neg_v", 0),
                     5.0 - (vout1 + vt * log(vout1 / re / 1e-16)), 1e-4, 0);
     ss_table_destroy(&t);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* Common-emitter stage, DC-coupled: cut-off on the way up, saturation on the way down, both
@@ -631,7 +631,7 @@ static void test_common_emitter_clipping(void **state)
     ss_assert_close(ss_table_lookup(t, "swing_pos_tran_v", 0), pos, 1e-4, 0);
     ss_assert_close(ss_table_lookup(t, "swing_neg_tran_v", 0), neg, 1e-4, 0);
     ss_table_destroy(&t);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* The same CE stage, AC-coupled with a partly bypassed emitter: at 1 kHz the coupling and
@@ -646,7 +646,7 @@ static void test_ac_coupled_stage_clips_like_its_battery_equivalent(void **state
                      ".model qn npn (is=1e-15 bf=150 vaf=80)\n.stage in=vsig out=out\n";
     ss_circuit *ckt;
     ss_table *t = clipping_of(ac, &ckt);
-    const double *x = ckt->x_op;
+    const double *x = ss_test_sv(ckt)->x_op;
     double vb = x[circuit_find_node(ckt, "b") - 1], ve2 = x[circuit_find_node(ckt, "e2") - 1];
     double vc = x[circuit_find_node(ckt, "c") - 1];
     /* vb1, vbe, vb2: voltage sources standing for the held capacitors */
@@ -671,7 +671,7 @@ static void test_ac_coupled_stage_clips_like_its_battery_equivalent(void **state
     ss_assert_close(ss_table_lookup(t, "swing_pos_tran_v", 0), pos, 0.05, 0);
     ss_assert_close(ss_table_lookup(t, "swing_neg_tran_v", 0), neg, 0.05, 0);
     ss_table_destroy(&t);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* Small-signal transient against the AC analysis: a tiny sine through a stage whose junction
@@ -685,10 +685,10 @@ static void check_tran_matches_ac(const char *netlist, double freq_hz, double am
     ss_error err = {0};
     double complex g;
     double zin, zout;
-    assert_int_equal(stage_at_frequency(ckt, freq_hz, &g, &zin, &zout, &err), SS_OK);
+    assert_int_equal(stage_at_frequency(ss_test_sv(ckt), freq_hz, &g, &zin, &zout, &err), SS_OK);
     ss_table *h = NULL;
     double thd;
-    ss_status st = ss_stage_thd(ckt, amp, freq_hz, &thd, &h, NULL, &err);
+    ss_status st = ss_stage_thd(ss_test_sv(ckt), amp, freq_hz, &thd, &h, NULL, &err);
     if (st != SS_OK)
         print_error("%s\n", err.message);
     assert_int_equal(st, SS_OK);
@@ -700,7 +700,7 @@ static void check_tran_matches_ac(const char *netlist, double freq_hz, double am
     double dph = fmod(ph - ph_ac + 540.0, 360.0) - 180.0;
     ss_assert_close(dph, 0.0, 0, 0.01);
     ss_table_destroy(&h);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 static void test_small_signal_transient_matches_ac(void **state)
@@ -753,13 +753,13 @@ static void test_wave_plot_written_and_checked(void **state)
     ss_circuit *ckt = ss_test_parse(DIODE_STAGE);
     ss_table *w = NULL;
     ss_error err = {0};
-    assert_int_equal(ss_stage_thd(ckt, 0.05, 1e3, NULL, NULL, &w, &err), SS_OK);
+    assert_int_equal(ss_stage_thd(ss_test_sv(ckt), 0.05, 1e3, NULL, NULL, &w, &err), SS_OK);
     char path[1024];
     temp_path(path, sizeof path, "stagesim_wave");
     int fd = mkstemp(path);
     assert_true(fd >= 0);
     close(fd);
-    assert_int_equal(ss_plot_write_wave(ckt, w, NULL, NULL, path, &err), SS_OK);
+    assert_int_equal(ss_plot_write_wave(ss_test_sv(ckt), w, NULL, NULL, path, &err), SS_OK);
     const char *svg = slurp(path);
     ss_assert_contains(svg, "<svg xmlns=\"http://www.w3.org/2000/svg\" version=\"1.1\"");
     ss_assert_contains(svg, "clamp &amp; limiter");
@@ -769,19 +769,19 @@ static void test_wave_plot_written_and_checked(void **state)
     assert_non_null(strstr(strstr(svg, "<polyline"), "</svg>"));
     assert_non_null(strstr(strstr(svg, "<polyline") + 1, "<polyline")); /* two traces */
     /* a column that is not there is named */
-    assert_int_equal(ss_plot_write_wave(ckt, w, "v(nowhere)", NULL, path, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_plot_write_wave(ss_test_sv(ckt), w, "v(nowhere)", NULL, path, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "no column 'v(nowhere)'");
     remove(path);
     /* the .tran table plots too, with the source's node standing for the input */
     ss_table *t = NULL;
     memset(&err, 0, sizeof err);
-    assert_int_equal(ss_tran_run(ckt, &t, &err), SS_OK);
-    assert_int_equal(ss_plot_write_wave(ckt, t, NULL, NULL, path, &err), SS_OK);
+    assert_int_equal(ss_tran_run(ss_test_sv(ckt), &t, &err), SS_OK);
+    assert_int_equal(ss_plot_write_wave(ss_test_sv(ckt), t, NULL, NULL, path, &err), SS_OK);
     ss_assert_contains(slurp(path), "v(a) (V)");
     remove(path);
     ss_table_destroy(&t);
     ss_table_destroy(&w);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* A truncation-error tolerance no step can meet -- below the rounding of double precision --
@@ -793,13 +793,13 @@ static void test_step_floor_is_a_located_error(void **state)
                                     ".tran 10u 1m\n.options tran_tol_rel=1e-18 tran_tol_v=1e-30\n");
     ss_table *t = NULL;
     ss_error err = {0};
-    assert_int_equal(ss_tran_run(ckt, &t, &err), SS_ERR_NO_CONVERGENCE);
+    assert_int_equal(ss_tran_run(ss_test_sv(ckt), &t, &err), SS_ERR_NO_CONVERGENCE);
     assert_null(t);
     assert_int_equal(err.line, 5);
     ss_assert_contains(err.message,
                        "transient: tran_tol_rel=1e-18 and tran_tol_v=1e-30 cannot be held at t = ");
     ss_assert_contains(err.message, "the error estimate at node '");
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* The large-signal calls need a stage and sane arguments. */
@@ -809,32 +809,32 @@ static void test_large_signal_argument_errors(void **state)
     ss_circuit *ckt = ss_test_parse("t\nv1 a 0 1\nr1 a 0 1k\n");
     ss_table *t = NULL;
     ss_error err = {0};
-    assert_int_equal(ss_stage_clipping(ckt, &t, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_stage_clipping(ss_test_sv(ckt), &t, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "need a stage");
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     ckt = ss_test_parse(DIODE_STAGE);
     double thd;
     memset(&err, 0, sizeof err);
-    assert_int_equal(ss_stage_thd(ckt, -1.0, 1e3, &thd, NULL, NULL, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_stage_thd(ss_test_sv(ckt), -1.0, 1e3, &thd, NULL, NULL, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "must be positive");
     memset(&err, 0, sizeof err);
-    assert_int_equal(ss_circuit_set_large_signal(ckt, 1e3, 0.01, 150.0, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_set_large_signal(ss_test_sv(ckt), 1e3, 0.01, 150.0, &err), SS_ERR_INPUT);
     double f, a, p;
-    ss_circuit_large_signal(ckt, &f, &a, &p); /* defaults: 1 kHz, no amplitude, 1 % */
+    ss_solver_large_signal(ss_test_sv(ckt), &f, &a, &p); /* defaults: 1 kHz, no amplitude, 1 % */
     ss_assert_close(f, 1e3, 0, 0);
     ss_assert_close(a, 0.0, 0, 0);
     ss_assert_close(p, 1.0, 0, 0);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
     ckt = ss_test_parse("t\nv1 a 0 1\nr1 a 0 1k\n.stage in=v1 out=a\n"
                         ".large_signal freq=2k amp={5m*2} thd_target_pct=3\n");
-    ss_circuit_large_signal(ckt, &f, &a, &p);
+    ss_solver_large_signal(ss_test_sv(ckt), &f, &a, &p);
     ss_assert_close(f, 2e3, 0, 0);
     ss_assert_close(a, 0.01, 1e-15, 0);
     ss_assert_close(p, 3.0, 0, 0);
     ss_analysis_flags fl;
     ss_circuit_analyses(ckt, &fl);
     assert_int_equal(fl.large_signal, 1);
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* Allocation-failure sweep through parse -> .tran -> clipping -> THD -> plot: every failing run
@@ -842,19 +842,22 @@ static void test_large_signal_argument_errors(void **state)
 static ss_status alloc_run_once(const char *path)
 {
     ss_circuit *ckt = NULL;
+    ss_solver *sv = NULL;
     ss_table *t = NULL, *clip = NULL, *h = NULL, *w = NULL;
     ss_error err = {0};
     double thd = 0.0;
     ss_status s =
         ss_circuit_parse_text(DIODE_STAGE, strlen(DIODE_STAGE), "a.cir", NULL, 0, &ckt, &err);
     if (s == SS_OK)
-        s = ss_tran_run(ckt, &t, &err);
+        s = ss_solver_create(ckt, &sv, &err);
     if (s == SS_OK)
-        s = ss_stage_clipping(ckt, &clip, &err);
+        s = ss_tran_run(sv, &t, &err);
     if (s == SS_OK)
-        s = ss_stage_thd(ckt, 0.02, 1e3, &thd, &h, &w, &err);
+        s = ss_stage_clipping(sv, &clip, &err);
     if (s == SS_OK)
-        s = ss_plot_write_wave(ckt, w, NULL, NULL, path, &err);
+        s = ss_stage_thd(sv, 0.02, 1e3, &thd, &h, &w, &err);
+    if (s == SS_OK)
+        s = ss_plot_write_wave(sv, w, NULL, NULL, path, &err);
     if (s != SS_OK) {
         assert_true(err.code != SS_OK);
         assert_true(err.message[0] != '\0');
@@ -863,6 +866,7 @@ static ss_status alloc_run_once(const char *path)
     ss_table_destroy(&clip);
     ss_table_destroy(&h);
     ss_table_destroy(&w);
+    ss_solver_destroy(&sv);
     ss_circuit_destroy(&ckt);
     return s;
 }

@@ -9,7 +9,7 @@
 
 SS_HIDDEN void thd_harmonics(const double *x, int n, int n_harm, double *amp, double *phase_deg);
 SS_HIDDEN double thd_ratio(const double *amp, int n_harm);
-SS_HIDDEN ss_status thd_steady_state(ss_circuit *ckt, double amplitude, double freq_hz,
+SS_HIDDEN ss_status thd_steady_state(ss_solver *sv, double amplitude, double freq_hz,
                                      int for_swing, double *last_period, double *thd,
                                      double *thd_err, double *dist_v, long *periods,
                                      ss_error *err);
@@ -32,11 +32,11 @@ static ss_table *tran_of(const char *text, ss_circuit **out)
     ss_circuit *ckt = ss_test_parse(text);
     ss_table *t = NULL;
     ss_error err = {0};
-    if (ss_tran_run(ckt, &t, &err) != SS_OK) {
+    if (ss_tran_run(ss_test_sv(ckt), &t, &err) != SS_OK) {
         char msg[1400];
         ss_error_format(&err, msg, sizeof msg);
         print_error("tran failed: %s\n", msg);
-        ss_circuit_destroy(&ckt);
+        ss_test_destroy(&ckt);
         fail();
     }
     *out = ckt;
@@ -95,8 +95,8 @@ static void test_answer_after_a_corner_does_not_depend_on_tstep(void **state)
         }
     ss_table_destroy(&coarse);
     ss_table_destroy(&fine);
-    ss_circuit_destroy(&a);
-    ss_circuit_destroy(&b);
+    ss_test_destroy(&a);
+    ss_test_destroy(&b);
 }
 
 /* An AC-coupled common-emitter front-end (our own: a vibration sensor's preamplifier, 1 uF
@@ -146,8 +146,8 @@ static void test_tight_tolerances_converge(void **state)
     assert_true(worst < 1e-3);
     ss_table_destroy(&tight);
     ss_table_destroy(&loose);
-    ss_circuit_destroy(&a);
-    ss_circuit_destroy(&b);
+    ss_test_destroy(&a);
+    ss_test_destroy(&b);
 }
 
 /* With 10 uF at node 'in' (1.8 V across it) a volt at 'in' is resolved to about 1e-8 V at the
@@ -162,7 +162,7 @@ static void test_tolerance_below_rounding_is_named(void **state)
     ss_circuit *ckt = ss_test_parse(text);
     ss_table *t = NULL;
     ss_error err = {0};
-    assert_int_equal(ss_tran_run(ckt, &t, &err), SS_ERR_NO_CONVERGENCE);
+    assert_int_equal(ss_tran_run(ss_test_sv(ckt), &t, &err), SS_ERR_NO_CONVERGENCE);
     assert_null(t);
     print_message("    %s\n", err.message);
     assert_int_equal(err.line, 18);
@@ -171,7 +171,7 @@ static void test_tolerance_below_rounding_is_named(void **state)
     ss_assert_contains(err.message, "the error estimate at node 'in' stays at ");
     ss_assert_contains(err.message, "the rounding level of double precision there; loosen "
                                     "tran_tol_v or tran_tol_rel");
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* The sources' own time scales, by hand from the forms (docs/transient.md sec. 1, 4): a SIN's
@@ -183,10 +183,10 @@ static void test_source_time_scales(void **state)
     ss_circuit *ckt = ss_test_parse("t\nv1 a 0 sin(0 1 1meg 2u)\nv2 b 0 pulse(0 1 1u 1n 1n 48n "
                                     "100n)\nv3 c 0 pwl(0 0 1u 1 2u 0)\nv4 d 0 pulse(0 1)\n"
                                     "r1 a 0 1\nr2 b 0 1\nr3 c 0 1\nr4 d 0 1\n");
-    const src_wave *s1 = ckt->elem[circuit_find_elem(ckt, "v1")].wave;
-    const src_wave *s2 = ckt->elem[circuit_find_elem(ckt, "v2")].wave;
-    const src_wave *s3 = ckt->elem[circuit_find_elem(ckt, "v3")].wave;
-    const src_wave *s4 = ckt->elem[circuit_find_elem(ckt, "v4")].wave;
+    const src_wave *s1 = ss_test_sv(ckt)->elem[circuit_find_elem(ckt, "v1")].wave;
+    const src_wave *s2 = ss_test_sv(ckt)->elem[circuit_find_elem(ckt, "v2")].wave;
+    const src_wave *s3 = ss_test_sv(ckt)->elem[circuit_find_elem(ckt, "v3")].wave;
+    const src_wave *s4 = ss_test_sv(ckt)->elem[circuit_find_elem(ckt, "v4")].wave;
     assert_true(wave_max_step(s1, 1e-6) == HUGE_VAL); /* before the delay: constant */
     ss_assert_close(wave_max_step(s1, 2e-6), 1e-6 / 20.0, 1e-15, 0.0);
     ss_assert_close(wave_period(s1), 1e-6, 1e-15, 0.0);
@@ -201,7 +201,7 @@ static void test_source_time_scales(void **state)
     assert_true(wave_max_step(s3, 0.5e-6) == HUGE_VAL);
     assert_true(wave_corners_until(s3, 1.5e-6) == 2.0);
     assert_true(wave_period(s4) == HUGE_VAL); /* a single pulse */
-    ss_circuit_destroy(&ckt);
+    ss_test_destroy(&ckt);
 }
 
 /* ---- the periodic steady state of the large-signal runs ---------------------------------- */
@@ -252,15 +252,15 @@ static void long_reference(const char *text, double amp, double freq, long perio
 {
     ss_circuit *ckt = ss_test_parse(text);
     ss_error err = {0};
-    assert_int_equal(analysis_prepare(ckt, &err), SS_OK);
+    assert_int_equal(solver_prepare(ss_test_sv(ckt), &err), SS_OK);
     int src = circuit_find_elem(ckt, "vin");
     src_wave sine;
     memset(&sine, 0, sizeof sine);
     sine.kind = WAVE_SIN;
-    sine.p[WS_VO] = ckt->elem[src].value;
+    sine.p[WS_VO] = ss_test_sv(ckt)->elem[src].value;
     sine.p[WS_VA] = amp;
     sine.p[WS_FREQ] = freq;
-    ckt->elem[src].wave = &sine;
+    ss_test_sv(ckt)->elem[src].wave = &sine;
     long_run lr = {.out_u = circuit_find_node(ckt, "out") - 1, .periods = periods};
     double period = 1.0 / freq;
     tran_cfg cfg = {.tstep_s = period / SS_N,
@@ -272,10 +272,10 @@ static void long_reference(const char *text, double amp, double freq, long perio
                     .on_point = long_point,
                     .ctx = &lr};
     tran_stats st;
-    assert_int_equal(tran_run(ckt, &cfg, &st, &err), SS_OK);
+    assert_int_equal(tran_run(ss_test_sv(ckt), &cfg, &st, &err), SS_OK);
     memcpy(last, lr.last, sizeof lr.last);
-    ckt->elem[src].wave = NULL;
-    ss_circuit_destroy(&ckt);
+    ss_test_sv(ckt)->elem[src].wave = NULL;
+    ss_test_destroy(&ckt);
 }
 
 /* A large-signal run stops where it estimates the last period close enough to the periodic
@@ -306,9 +306,9 @@ static void check_follower_steady_state(const char *cin, const char *cout, doubl
         long periods;
         ss_error err = {0};
         assert_int_equal(
-            thd_steady_state(ckt, amp, 1e3, for_swing, w, &thd, &thd_err, &dist, &periods, &err),
+            thd_steady_state(ss_test_sv(ckt), amp, 1e3, for_swing, w, &thd, &thd_err, &dist, &periods, &err),
             SS_OK);
-        ss_circuit_destroy(&ckt);
+        ss_test_destroy(&ckt);
         double true_dist = 0.0;
         for (int j = 0; j < SS_N; j++)
             true_dist = fmax(true_dist, fabs(w[j] - ref[j]));
