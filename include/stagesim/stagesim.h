@@ -126,16 +126,18 @@ typedef struct ss_analysis_flags {
     int stage; /* .stage, or a stage named with ss_solver_set_stage */
     int tran;  /* .tran */
     int noise; /* .noise, or a noise analysis named with ss_solver_set_noise */
-    int large_signal; /* .large_signal, or ss_solver_set_large_signal */
+    int large_signal; /* .large_signal, or a ss_solver_set_test_... call */
 } ss_analysis_flags;
 SS_API void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *out_flags);
 /* The same for a context, with the stage, noise and large-signal requests set on it. */
 SS_API void ss_solver_analyses(const ss_solver *sv, ss_analysis_flags *out_flags);
 
-/* Names the stage's driving source and output node (overrides a .stage line). load_ohm <= 0
- * means no load named. Returns SS_ERR_INPUT when the source or node does not exist. */
-SS_API ss_status ss_solver_set_stage(ss_solver *sv, const char *in_source,
-                                      const char *out_node, double load_ohm, ss_error *err);
+/* Names the stage's driving source and output node on a context (overrides a .stage line).
+ * Returns SS_ERR_INPUT when the source or node does not exist. */
+SS_API ss_status ss_solver_set_stage(ss_solver *sv, const char *in_source, const char *out_node,
+                                     ss_error *err);
+/* The stage's load in ohm (overrides .stage load=): positive and finite, else SS_ERR_INPUT. */
+SS_API ss_status ss_solver_set_load(ss_solver *sv, double load_ohm, ss_error *err);
 
 SS_API double ss_circuit_temp_c(const ss_circuit *ckt);
 
@@ -261,12 +263,14 @@ SS_API ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **ou
  * SS_ERR_SINGULAR, SS_ERR_NOMEM, SS_ERR_LIMIT. */
 SS_API ss_status ss_tran_run(ss_solver *sv, ss_table **out_tran, ss_error *err);
 
-/* Sets the stage's large-signal test (overrides a .large_signal line): the signal frequency
- * (<= 0: keep; default 1 kHz), the input amplitude thd_pct is computed at (V for a voltage
- * source, A for a current source; <= 0: keep; none by default) and the THD in percent whose
- * input amplitude is searched for (<= 0: keep; default 1 %). Returns SS_OK or SS_ERR_INPUT. */
-SS_API ss_status ss_solver_set_large_signal(ss_solver *sv, double freq_hz, double amplitude,
-                                             double thd_target_pct, ss_error *err);
+/* The stage's large-signal test on a context (each overrides its .large_signal setting and
+ * turns the test on): the signal frequency (positive; default 1 kHz), the input amplitude THD is
+ * computed at (V for a voltage source, A for a current source; positive; none by default) and
+ * the THD in percent whose input amplitude is searched for (above 0, below 100; default 1 %).
+ * SS_ERR_INPUT for a value outside its range. */
+SS_API ss_status ss_solver_set_test_frequency(ss_solver *sv, double freq_hz, ss_error *err);
+SS_API ss_status ss_solver_set_test_amplitude(ss_solver *sv, double amplitude, ss_error *err);
+SS_API ss_status ss_solver_set_thd_target(ss_solver *sv, double thd_target_pct, ss_error *err);
 /* The large-signal test in force, defaults applied: frequency (Hz), amplitude (0 when none is
  * named) and THD target (percent). Any output may be NULL. */
 SS_API void ss_solver_large_signal(const ss_solver *sv, double *freq_hz, double *amplitude,
@@ -410,7 +414,11 @@ SS_API ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error 
 /* Monte Carlo: trials > 0 random trials per grid point from seed. */
 SS_API ss_status ss_study_set_trials(ss_study *s, long trials, unsigned long long seed,
                                      ss_error *err);
-SS_API void ss_study_set_threads(ss_study *s, int n_threads); /* <= 0: all cores */
+/* Worker threads for ss_study_run: 1 .. 256 (ss_cpu_count() for every core; the default). The
+ * results do not depend on it. SS_ERR_INPUT outside that range. */
+SS_API ss_status ss_study_set_threads(ss_study *s, int n_threads, ss_error *err);
+/* The processors online (at least 1). */
+SS_API int ss_cpu_count(void);
 /* Runs only the k-th (1-based) of n contiguous slices of the points. */
 SS_API ss_status ss_study_set_shard(ss_study *s, int k, int n, ss_error *err);
 /* Adds limits (copied; file names must outlive the study) to the netlist's own .expect lines;

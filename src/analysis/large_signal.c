@@ -61,21 +61,33 @@ double ls_freq(const ss_solver *sv)
     return sv->ls.freq_hz > 0.0 ? sv->ls.freq_hz : LS_FREQ_DEFAULT_HZ;
 }
 
-ss_status ss_solver_set_large_signal(ss_solver *sv, double freq_hz, double amplitude,
-                                      double thd_target_pct, ss_error *err)
+ss_status ss_solver_set_test_frequency(ss_solver *sv, double freq_hz, ss_error *err)
 {
-    if (!isfinite(freq_hz) || !isfinite(amplitude) || !isfinite(thd_target_pct) ||
-        thd_target_pct >= 100.0)
+    if (!(freq_hz > 0.0) || !isfinite(freq_hz))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "large signal: frequency %g Hz, amplitude %g and THD target %g %% must be "
-                       "finite, the THD target below 100 %%",
-                       freq_hz, amplitude, thd_target_pct);
-    if (freq_hz > 0.0)
-        sv->ls.freq_hz = freq_hz;
-    if (amplitude > 0.0)
-        sv->ls.amp = amplitude;
-    if (thd_target_pct > 0.0)
-        sv->ls.thd_target_pct = thd_target_pct;
+                       "large signal: frequency %g Hz must be positive and finite", freq_hz);
+    sv->ls.freq_hz = freq_hz;
+    sv->ls.want = 1;
+    return SS_OK;
+}
+
+ss_status ss_solver_set_test_amplitude(ss_solver *sv, double amplitude, ss_error *err)
+{
+    if (!(amplitude > 0.0) || !isfinite(amplitude))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "large signal: amplitude %g must be positive and finite", amplitude);
+    sv->ls.amp = amplitude;
+    sv->ls.want = 1;
+    return SS_OK;
+}
+
+ss_status ss_solver_set_thd_target(ss_solver *sv, double thd_target_pct, ss_error *err)
+{
+    if (!(thd_target_pct > 0.0 && thd_target_pct < 100.0))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "large signal: THD target %g %% must be above 0 and below 100 %%",
+                       thd_target_pct);
+    sv->ls.thd_target_pct = thd_target_pct;
     sv->ls.want = 1;
     return SS_OK;
 }

@@ -215,7 +215,7 @@ static int apply_stage_options(ss_solver *sv, const cli_args *a)
                             ".stage or --in/--out)\n");
             return EXIT_BAD_INPUT;
         }
-        if (ss_solver_set_stage(sv, NULL, NULL, a->load_ohm, &err) != SS_OK) {
+        if (ss_solver_set_load(sv, a->load_ohm, &err) != SS_OK) {
             fprintf(stderr, "stagesim: --load: %s\n", err.message);
             return EXIT_BAD_INPUT;
         }
@@ -227,8 +227,9 @@ static int apply_stage_options(ss_solver *sv, const cli_args *a)
                     ls_opt);
             return EXIT_BAD_INPUT;
         }
-        if (ss_solver_set_large_signal(sv, a->ls_freq, a->thd_amp, a->thd_target, &err) !=
-            SS_OK) {
+        if ((a->ls_freq > 0.0 && ss_solver_set_test_frequency(sv, a->ls_freq, &err) != SS_OK) ||
+            (a->thd_amp > 0.0 && ss_solver_set_test_amplitude(sv, a->thd_amp, &err) != SS_OK) ||
+            (a->thd_target > 0.0 && ss_solver_set_thd_target(sv, a->thd_target, &err) != SS_OK)) {
             fprintf(stderr, "stagesim: %s: %s\n", ls_opt, err.message);
             return EXIT_BAD_INPUT;
         }
@@ -253,8 +254,7 @@ int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv)
     if ((a->in_src || a->out_node) && (!a->in_src || !a->out_node)) {
         fprintf(stderr, "stagesim: --in and --out go together\n");
         rc = EXIT_BAD_INPUT;
-    } else if (a->in_src &&
-               ss_solver_set_stage(sv, a->in_src, a->out_node, a->load_ohm, &err) != SS_OK) {
+    } else if (a->in_src && ss_solver_set_stage(sv, a->in_src, a->out_node, &err) != SS_OK) {
         rc = fail(&err);
     }
     if (rc == EXIT_OK)

@@ -55,7 +55,8 @@ static int make_study(const cli_args *a, ss_study **out, ss_limits **lim)
             ss_study_add_limits(s, *lim, &err) != SS_OK)
             goto bad;
     }
-    ss_study_set_threads(s, a->threads);
+    if (ss_study_set_threads(s, a->threads > 0 ? a->threads : ss_cpu_count(), &err) != SS_OK)
+        goto bad;
     if (a->shard_n > 0 && ss_study_set_shard(s, a->shard_k, a->shard_n, &err) != SS_OK)
         goto bad;
     *out = s;

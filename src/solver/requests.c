@@ -1,5 +1,6 @@
 /* What a caller may change on a context besides values: the stage's input and output, the
  * nodes whose results are written. */
+#include <math.h>
 #include <string.h>
 
 #include "devices/device.h"
@@ -52,20 +53,25 @@ ss_status ss_solver_select_nodes(ss_solver *sv, const char *const *names, int n,
 }
 
 ss_status ss_solver_set_stage(ss_solver *sv, const char *in_source, const char *out_node,
-                              double load_ohm, ss_error *err)
+                              ss_error *err)
 {
-    if (!in_source || !out_node) { /* only the load changes */
-        if (load_ohm > 0.0)
-            sv->stage.load_ohm = load_ohm;
-        return SS_OK;
-    }
+    if (!in_source || !out_node)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "a stage needs its input source and output node");
     const char *in, *out;
     ss_status st = circuit_stage_names(sv->ckt, in_source, out_node, &in, &out, err);
     if (st != SS_OK)
         return st;
     sv->stage.in = in;
     sv->stage.out = out;
-    sv->stage.load_ohm = load_ohm > 0.0 ? load_ohm : sv->stage.load_ohm;
     solver_lost_ac(sv);
+    return SS_OK;
+}
+
+ss_status ss_solver_set_load(ss_solver *sv, double load_ohm, ss_error *err)
+{
+    if (!(load_ohm > 0.0) || !isfinite(load_ohm))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "stage load %g ohm: a load is a positive, finite resistance", load_ohm);
+    sv->stage.load_ohm = load_ohm;
     return SS_OK;
 }

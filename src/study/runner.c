@@ -181,7 +181,7 @@ void ss_study_destroy(ss_study **ps)
 ss_status ss_study_set_stage(ss_study *s, const char *in_source, const char *out_node,
                              ss_error *err)
 {
-    ss_status st = ss_solver_set_stage(s->nominal_sv, in_source, out_node, 0.0, err);
+    ss_status st = ss_solver_set_stage(s->nominal_sv, in_source, out_node, err);
     if (st != SS_OK)
         return st;
     s->stage_in = arena_strdup(&s->arena, in_source);
@@ -489,7 +489,20 @@ ss_status ss_study_set_trials(ss_study *s, long trials, unsigned long long seed,
     return SS_OK;
 }
 
-void ss_study_set_threads(ss_study *s, int n) { s->threads = n; }
+ss_status ss_study_set_threads(ss_study *s, int n, ss_error *err)
+{
+    if (n < 1 || n > STUDY_MAX_THREADS)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "threads: %d is not in 1 .. %d", n,
+                       STUDY_MAX_THREADS);
+    s->threads = n;
+    return SS_OK;
+}
+
+int ss_cpu_count(void)
+{
+    long n = sysconf(_SC_NPROCESSORS_ONLN);
+    return n < 1 ? 1 : n > STUDY_MAX_THREADS ? STUDY_MAX_THREADS : (int)n;
+}
 
 ss_status ss_study_set_shard(ss_study *s, int k, int n, ss_error *err)
 {
@@ -606,7 +619,7 @@ ss_status study_context(const ss_study *s, ss_solver **out, ss_error *err)
     ss_solver *sv = NULL;
     ss_status st = ss_solver_create(s->nominal, &sv, err);
     if (st == SS_OK && s->stage_in)
-        st = ss_solver_set_stage(sv, s->stage_in, s->stage_out, 0.0, err);
+        st = ss_solver_set_stage(sv, s->stage_in, s->stage_out, err);
     if (st != SS_OK) {
         ss_solver_destroy(&sv);
         return st;
@@ -728,7 +741,7 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
     sh.count = end - first;
     sh.n_fixed = n_fixed;
     pthread_mutex_init(&sh.lock, NULL);
-    int n_threads = s->threads > 0 ? s->threads : (int)sysconf(_SC_NPROCESSORS_ONLN);
+    int n_threads = s->threads > 0 ? s->threads : ss_cpu_count();
     if (n_threads < 1)
         n_threads = 1;
     if (n_threads > STUDY_MAX_THREADS)

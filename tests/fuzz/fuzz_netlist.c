@@ -629,7 +629,7 @@ static void run_analyses(ss_solver *sv)
 /* ---- API calls named in the input ----------------------------------------------------------
  * Comment lines the parser ignores drive the calls a program makes besides parsing:
  *   *@set NAME=VALUE        an override passed to the parser (up to FUZZ_MAX_SETS)
- *   *@stage SRC NODE [LOAD] ss_solver_set_stage after parsing
+ *   *@stage SRC NODE [LOAD] ss_solver_set_stage (and ss_solver_set_load) after parsing
  *   *@get NAME              ss_circuit_get_value after parsing
  *   *@nodes A [B [C]]        ss_solver_select_nodes after parsing                           */
 #define FUZZ_MAX_SETS 4
@@ -741,7 +741,9 @@ static int api_calls(ss_circuit *ckt, ss_solver *sv, const fz_api *api)
     if (api->stage_src) {
         double load = api->stage_load ? strtod(api->stage_load, NULL) : 0.0;
         memset(&err, 0, sizeof err);
-        ss_status st = ss_solver_set_stage(sv, api->stage_src, api->stage_node, load, &err);
+        ss_status st = ss_solver_set_stage(sv, api->stage_src, api->stage_node, &err);
+        if (st == SS_OK && api->stage_load)
+            st = ss_solver_set_load(sv, load, &err);
         if (st != SS_OK) {
             check_failure(st, &err);
             return -1;

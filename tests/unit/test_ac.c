@@ -213,7 +213,7 @@ static void test_stage_without_stage_is_error(void **state)
     ss_error err = {0};
     assert_int_equal(ss_stage_run(ss_test_sv(ckt), &st, &sum, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "no stage named");
-    assert_int_equal(ss_solver_set_stage(ss_test_sv(ckt), "vin", "nonode", 0, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_set_stage(ss_test_sv(ckt), "vin", "nonode", &err), SS_ERR_INPUT);
     ss_test_destroy(&ckt);
 }
 

@@ -362,7 +362,7 @@ static void test_long_names_are_refused_not_cut(void **state)
     char src[400];
     memset(src, 'v', sizeof src - 1);
     src[sizeof src - 1] = '\0';
-    assert_int_equal(ss_solver_set_stage(ss_test_sv(ckt), src, "n", 0, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_set_stage(ss_test_sv(ckt), src, "n", &err), SS_ERR_INPUT);
     ss_test_destroy(&ckt);
 }
 

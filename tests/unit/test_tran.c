@@ -818,7 +818,7 @@ static void test_large_signal_argument_errors(void **state)
     assert_int_equal(ss_stage_thd(ss_test_sv(ckt), -1.0, 1e3, &thd, NULL, NULL, &err), SS_ERR_INPUT);
     ss_assert_contains(err.message, "must be positive");
     memset(&err, 0, sizeof err);
-    assert_int_equal(ss_solver_set_large_signal(ss_test_sv(ckt), 1e3, 0.01, 150.0, &err), SS_ERR_INPUT);
+    assert_int_equal(ss_solver_set_thd_target(ss_test_sv(ckt), 150.0, &err), SS_ERR_INPUT);
     double f, a, p;
     ss_solver_large_signal(ss_test_sv(ckt), &f, &a, &p); /* defaults: 1 kHz, no amplitude, 1 % */
     ss_assert_close(f, 1e3, 0, 0);
