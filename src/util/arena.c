@@ -10,7 +10,9 @@ struct ss_arena_block {
     _Alignas(16) unsigned char data[];
 };
 
-#define ARENA_BLOCK_MIN 65536u
+/* the first block: small, since many arenas hold little (a result table's labels); one of 64 KiB
+ * per table made every study trial grow and trim the heap (brk), faulting fresh pages in again */
+#define ARENA_BLOCK_MIN 4096u
 /* each new block is twice the last, up to this size: a large netlist gets few, large blocks
  * (huge pages, fewer page faults) while at most one partly used block is wasted */
 #define ARENA_BLOCK_MAX ((size_t)8 << 20)
