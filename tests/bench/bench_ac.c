@@ -27,9 +27,9 @@ static char *rc_ladder(int n, int points)
 
 /* Bare KLU: analyze + factor once, then reps x (refactor + solve) on the circuit's own
  * complex matrix as the last AC point left it. Returns seconds per repetition. */
-static double bare_klu_per_point(ss_circuit *ckt, int reps)
+static double bare_klu_per_point(ss_solver *sv, int reps)
 {
-    mna *m = ckt->mna;
+    mna *m = sv->mna;
     int n = mna_n(m);
     int *Ap = (int *)mna_colptr(m), *Ai = (int *)mna_rowidx(m);
     double *Az = (double *)mna_zvalues(m);
@@ -55,20 +55,23 @@ static double bare_klu_per_point(ss_circuit *ckt, int reps)
 static int bench(const char *label, const char *text)
 {
     ss_circuit *ckt = NULL;
+    ss_solver *sv = NULL;
     ss_error err = {0};
-    if (ss_circuit_parse_text(text, strlen(text), label, NULL, 0, &ckt, &err) != SS_OK) {
+    if (ss_circuit_parse_text(text, strlen(text), label, NULL, 0, &ckt, &err) != SS_OK ||
+        ss_solver_create(ckt, &sv, &err) != SS_OK) {
         fprintf(stderr, "%s: %s\n", label, err.message);
+        ss_circuit_destroy(&ckt);
         return 1;
     }
     ss_table *op = NULL, *ac = NULL;
-    if (ss_op_solve(ckt, &op, NULL, &err) != SS_OK) {
+    if (ss_op_solve(sv, &op, NULL, &err) != SS_OK) {
         fprintf(stderr, "%s: %s\n", label, err.message);
         return 1;
     }
     /* warm up, then time the full sweep (solves + table of every node); sweep and bare KLU
      * are measured alternately three times and the fastest of each kept, so a busy moment on
      * the machine does not land on one side only */
-    ss_ac_sweep_run(ckt, &ac, &err);
+    ss_ac_sweep_run(sv, &ac, &err);
     int points = ss_table_rows(ac);
     ss_table_destroy(&ac);
     int reps = 1;
@@ -76,7 +79,7 @@ static int bench(const char *label, const char *text)
     while (t_sweep < 0.2) {
         double t0 = bench_now_s();
         for (int r = 0; r < reps; r++) {
-            ss_ac_sweep_run(ckt, &ac, &err);
+            ss_ac_sweep_run(sv, &ac, &err);
             ss_table_destroy(&ac);
         }
         t_sweep = bench_now_s() - t0;
@@ -88,17 +91,18 @@ static int bench(const char *label, const char *text)
     for (int round = 0; round < 3; round++) {
         double t0 = bench_now_s();
         for (int r = 0; r < reps; r++) {
-            ss_ac_sweep_run(ckt, &ac, &err);
+            ss_ac_sweep_run(sv, &ac, &err);
             ss_table_destroy(&ac);
         }
         double pp = (bench_now_s() - t0) / reps / points;
         per_point = pp < per_point ? pp : per_point;
-        double b = bare_klu_per_point(ckt, bare_reps);
+        double b = bare_klu_per_point(sv, bare_reps);
         bare = b < bare ? b : bare;
     }
-    printf("%-28s %8d %8d %12.2f %12.2f %8.2f\n", label, ckt->n_unknowns, points, per_point * 1e6,
+    printf("%-28s %8d %8d %12.2f %12.2f %8.2f\n", label, sv->n_unknowns, points, per_point * 1e6,
            bare * 1e6, per_point / bare);
     ss_table_destroy(&op);
+    ss_solver_destroy(&sv);
     ss_circuit_destroy(&ckt);
     return 0;
 }

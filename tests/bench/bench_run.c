@@ -4,9 +4,9 @@
  *
  *   1. the real command line: the stagesim binary run as a child process (wall and CPU time),
  *      once writing every node and once with --nodes naming one;
- *   2. the same steps in this process, one by one: read + parse, operating point (prepare,
- *      Newton, verification), op.csv written, the AC sweep written to ac.csv as it runs;
- *      for comparison the sweep alone and the sweep into a table;
+ *   2. the same steps in this process, one by one: read + parse, solver context + prepare,
+ *      operating point (Newton, verification), op.csv written, the AC sweep written to ac.csv
+ *      as it runs; for comparison the sweep alone and the sweep into a table;
  *   3. bare KLU on the very matrices of that run: klu_analyze, then the operating point's
  *      factor / refactor + solve count, then klu_z_factor + solve for the first frequency and
  *      klu_z_refactor + solve for the other twenty -- the work no design on KLU can skip.
@@ -111,20 +111,21 @@ int main(int argc, char **argv)
     /* 2. the same steps in process */
     ss_error err = {0};
     ss_circuit *ckt = NULL;
+    ss_solver *sv = NULL;
     double t0 = bench_now_s();
     if (ss_circuit_parse_file(net, NULL, 0, &ckt, &err) != SS_OK)
         die(&err);
     double t_parse = bench_now_s() - t0;
     t0 = bench_now_s();
-    if (analysis_prepare(ckt, &err) != SS_OK)
+    if (ss_solver_create(ckt, &sv, &err) != SS_OK || solver_prepare(sv, &err) != SS_OK)
         die(&err);
     double t_prep = bench_now_s() - t0;
     ss_table *op = NULL, *ac = NULL;
     t0 = bench_now_s();
-    if (ss_op_solve(ckt, &op, NULL, &err) != SS_OK)
+    if (ss_op_solve(sv, &op, NULL, &err) != SS_OK)
         die(&err);
     double t_op = bench_now_s() - t0;
-    long op_solves = mna_get_counters(ckt->mna)->real_solves;
+    long op_solves = mna_get_counters(sv->mna)->real_solves;
     char path[4200];
     t0 = bench_now_s();
     snprintf(path, sizeof path, "%s/op.csv", out);
@@ -134,27 +135,27 @@ int main(int argc, char **argv)
     /* the sweep alone, no output (how the stage figures use it) */
     t0 = bench_now_s();
     for (int k = 0; k < AC_POINTS; k++)
-        if (ac_solve_point(ckt, 2.0 * SS_PI * 1e3 * pow(10.0, k / 10.0), NULL, 0, 0, &err) !=
+        if (ac_solve_point(sv, 2.0 * SS_PI * 1e3 * pow(10.0, k / 10.0), NULL, 0, 0, &err) !=
             SS_OK)
             die(&err);
     double t_ac_bare_loop = bench_now_s() - t0;
-    ckt->ac_serial = 0; /* the written sweep starts from scratch, as in run */
-    mna_reset_numeric(ckt->mna);
+    solver_lost_ac(sv); /* the written sweep starts from scratch, as in run */
+    mna_reset_numeric(sv->mna);
     t0 = bench_now_s();
     snprintf(path, sizeof path, "%s/ac.csv", out);
-    if (ss_ac_sweep_write(ckt, path, &err) != SS_OK)
+    if (ss_ac_sweep_write(sv, path, &err) != SS_OK)
         die(&err);
     double t_wac = bench_now_s() - t0;
     /* the table form (library users who keep the numbers) */
     t0 = bench_now_s();
-    if (ss_ac_sweep_run(ckt, &ac, &err) != SS_OK)
+    if (ss_ac_sweep_run(sv, &ac, &err) != SS_OK)
         die(&err);
     double t_ac_table = bench_now_s() - t0;
     long cells = (long)ss_table_rows(ac) * ss_table_cols(ac);
 
     /* 3. bare KLU on the same matrices: the real one as the operating point left it, the
      * complex one as the last frequency left it */
-    mna *m = ckt->mna;
+    mna *m = sv->mna;
     int n = mna_n(m);
     int *Ap = (int *)mna_colptr(m), *Ai = (int *)mna_rowidx(m);
     double *Ax = mna_values(m), *Az = (double *)mna_zvalues(m);
@@ -208,8 +209,8 @@ int main(int argc, char **argv)
     printf("| `stagesim run --nodes %s`: CPU | %.4f | %.2f |\n", last, cpu_one, cpu_one / bare);
     printf("| in process, all steps | %.4f | %.2f |\n", inproc, inproc / bare);
     printf("| · read + parse | %.4f | %.2f |\n", t_parse, t_parse / bare);
-    printf("| · prepare (topology, pattern, klu_analyze) | %.4f | %.2f |\n", t_prep,
-           t_prep / bare);
+    printf("| · solver context + prepare (topology, pattern, klu_analyze) | %.4f | %.2f |\n",
+           t_prep, t_prep / bare);
     printf("| · operating point (Newton, verification, op table) | %.4f | %.2f |\n", t_op,
            t_op / bare);
     printf("| · write op.csv | %.4f | %.2f |\n", t_wop, t_wop / bare);
@@ -221,6 +222,7 @@ int main(int argc, char **argv)
            t_ac_table);
     ss_table_destroy(&op);
     ss_table_destroy(&ac);
+    ss_solver_destroy(&sv);
     ss_circuit_destroy(&ckt);
     return 0;
 }

@@ -1,10 +1,11 @@
 /* Scale benchmark: generated circuits from 10 to 1,000,000 nodes (RC ladders, chains of BJT
  * stages, arrays of amplifier channels on one supply). For each size, measured in the same run
- * in a fresh child process: netlist parse time and rate, operating point time and Newton
- * iterations, AC time per frequency point (a 21-point sweep: its first point builds the AC
- * cache and factors afresh, the others refactor), peak memory of stagesim's own work, and the
- * bare KLU work on the very same matrices (analyze, factor, refactor, solve; real and complex;
- * for the sweep a full complex factorization then refactors) -- the physical limit.
+ * in a fresh child process: netlist parse time and rate, operating point time (from the solver
+ * context's creation) and Newton iterations, AC time per frequency point (a 21-point sweep: its
+ * first point builds the AC cache and factors afresh, the others refactor), peak memory of
+ * stagesim's own work, and the bare KLU work on the very same matrices (analyze, factor,
+ * refactor, solve; real and complex; for the sweep a full complex factorization then
+ * refactors) -- the physical limit.
  * Usage: bench_scale [MAX_NODES] [KIND...]   KIND: ladder chain array (default all).
  * Prints a markdown table. */
 #define _POSIX_C_SOURCE 200809L
@@ -89,10 +90,10 @@ static void gen_array(gen *g, int nodes)
 }
 
 /* Bare KLU on the circuit's own real and complex matrices. */
-static void bare_klu(ss_circuit *ckt, double *t_an, double *t_fac, double *t_ref, double *t_sol,
+static void bare_klu(ss_solver *sv, double *t_an, double *t_fac, double *t_ref, double *t_sol,
                      double *t_zfac, double *t_zref, double *t_zsol)
 {
-    mna *m = ckt->mna;
+    mna *m = sv->mna;
     int n = mna_n(m);
     int *Ap = (int *)mna_colptr(m), *Ai = (int *)mna_rowidx(m);
     klu_common c;
@@ -166,15 +167,23 @@ static int bench_one(const char *kind, int nodes)
     size_t text_len = g.len;
     free(g.t); /* as the command line does: the text is gone once parsed */
     g.t = NULL;
+    /* the operating point's time counts from the solver context's creation (its copies of the
+     * elements and models), as a run makes one after parsing */
     ss_op_stats stats;
+    ss_solver *sv = NULL;
     t0 = bench_now_s();
-    if (analysis_prepare(ckt, &err) != SS_OK) {
+    if (ss_solver_create(ckt, &sv, &err) != SS_OK) {
         fprintf(stderr, "%s %d: %s\n", kind, nodes, err.message);
         return 1;
     }
-    double t_prep = bench_now_s() - t0;
+    double t_ctx = bench_now_s() - t0;
+    if (solver_prepare(sv, &err) != SS_OK) {
+        fprintf(stderr, "%s %d: %s\n", kind, nodes, err.message);
+        return 1;
+    }
+    double t_prep = bench_now_s() - t0 - t_ctx;
     double mib_prep = peak_mib();
-    if (ss_op_solve(ckt, NULL, &stats, &err) != SS_OK) {
+    if (ss_op_solve(sv, NULL, &stats, &err) != SS_OK) {
         fprintf(stderr, "%s %d: %s\n", kind, nodes, err.message);
         return 1;
     }
@@ -185,23 +194,24 @@ static int bench_one(const char *kind, int nodes)
      * nor bookkeeping */
     double t_load = 0.0;
     {
-        mna *m = ckt->mna;
-        double *G = mna_values(m), *rhs = ckt->work_rhs;
+        mna *m = sv->mna;
+        double *G = mna_values(m), *rhs = sv->work_rhs;
         int reps = 3;
         t0 = bench_now_s();
         for (int r = 0; r < reps; r++) {
             memset(G, 0, (size_t)mna_nnz(m) * sizeof *G);
-            memset(rhs, 0, (size_t)ckt->n_unknowns * sizeof *rhs);
-            dev_load_ctx lc = {G, rhs, ckt->x_op, ckt->opt.gmin, 1.0, analysis_vt(ckt),
-                               LOAD_FROM_X, 0, ckt->elem};
-            for (int i = 0; i < ckt->n_elem; i++)
-                ckt->elem[i].ops->load_dc(&ckt->elem[i], &lc);
+            memset(rhs, 0, (size_t)sv->n_unknowns * sizeof *rhs);
+            dev_load_ctx lc = {G, rhs, sv->x_op, ckt->opt.gmin, 1.0, analysis_vt(sv),
+                               LOAD_FROM_X, 0, sv->elem};
+            for (int i = 0; i < sv->n_elem; i++)
+                sv->elem[i].ops->load_dc(&sv->elem[i], &lc);
         }
         t_load = (bench_now_s() - t0) / reps;
     }
     if (getenv("BENCH_PHASES"))
-        fprintf(stderr, "%s %d: prepare %.4f s of op %.4f s\n", kind, nodes, t_prep, t_op);
-    const mna_counters *cnt = mna_get_counters(ckt->mna);
+        fprintf(stderr, "%s %d: context %.4f s, prepare %.4f s of op %.4f s\n", kind, nodes,
+                t_ctx, t_prep, t_op);
+    const mna_counters *cnt = mna_get_counters(sv->mna);
     long op_solves = cnt->real_solves;
     /* AC: the per-point cost without writing every node (stage-style use); the first point
      * (the cache of A0 and A1, a full complex factorization) apart from the others */
@@ -209,7 +219,7 @@ static int bench_one(const char *kind, int nodes)
     double t_first = 0.0;
     t0 = bench_now_s();
     for (int k = 0; k < pts; k++) {
-        if (ac_solve_point(ckt, 2.0 * SS_PI * 1e3 * pow(100.0, (double)k / (pts - 1)), NULL, 0, 0,
+        if (ac_solve_point(sv, 2.0 * SS_PI * 1e3 * pow(100.0, (double)k / (pts - 1)), NULL, 0, 0,
                            &err) != SS_OK) {
             fprintf(stderr, "%s\n", err.message);
             return 1;
@@ -225,7 +235,7 @@ static int bench_one(const char *kind, int nodes)
                 mib_parse, text_len / 1048576.0, mib_prep, mib_op, peak_mib());
     double peak_kib = peak_mib() * 1024.0; /* stagesim's own work, before the bare KLU's */
     double an, fac, ref, sol, zfac, zref, zsol;
-    bare_klu(ckt, &an, &fac, &ref, &sol, &zfac, &zref, &zsol);
+    bare_klu(sv, &an, &fac, &ref, &sol, &zfac, &zref, &zsol);
     /* the same sweep bare: a full complex factorization at the first point, refactors after */
     double ac_bare = (zfac + zsol + (pts - 1) * (zref + zsol)) / pts;
     if (getenv("BENCH_PHASES"))
@@ -241,10 +251,11 @@ static int bench_one(const char *kind, int nodes)
     double op_bare = an + fac + (double)(op_solves - 1) * ref + (double)op_solves * sol;
     printf("| %-6s | %9d | %8d | %9.3f | %7.1f | %9.4f | %3d | %9.4f | %5.2f | %9.3f | %9.3f | "
            "%5.2f | %8.0f | %6.0f |\n",
-           kind, ckt->n_unknowns, ckt->n_elem, t_parse * 1e3, text_len / t_parse / 1e6, t_op,
+           kind, sv->n_unknowns, ckt->n_elem, t_parse * 1e3, text_len / t_parse / 1e6, t_op,
            stats.newton_iterations, op_bare, t_op / op_bare, t_ac * 1e3, ac_bare * 1e3,
-           t_ac / ac_bare, peak_kib / 1024.0, peak_kib * 1024.0 / ckt->n_nodes);
+           t_ac / ac_bare, peak_kib / 1024.0, peak_kib * 1024.0 / sv->n_nodes);
     fflush(stdout);
+    ss_solver_destroy(&sv);
     ss_circuit_destroy(&ckt);
     free(g.t);
     return 0;

@@ -1,14 +1,29 @@
-/* Tolerance-run benchmark: trials per second of a two-transistor stage (operating point +
- * 50-point AC sweep + stage figures with corner searches), single-threaded and on all cores,
- * and the per-trial cost against the bare KLU work the trial's solves need (its real and
- * complex refactor + solve counts times the bare cost per call on the same matrices).
- * Usage: bench_study [TRIALS]   (run from anywhere; the netlist is generated). */
-#define _POSIX_C_SOURCE 200809L
-#include <complex.h>
-#include <math.h>
+/* Tolerance-run benchmark: the per-trial cost of a tolerance run done as `stagesim spread`
+ * does it -- one parse, one solver context, and per trial every value back to nominal
+ * (ss_solver_reset_values), the toleranced values set by name (ss_solver_set_value) and the
+ * figures solved (ss_figures_compute: operating point, AC sweep and stage corners, noise):
+ *
+ *   1. the whole study (ss_study_run, one thread, no files written) at 2 000 and at 20 000
+ *      trials, each run in a fresh child process, and the ratio of their times per trial;
+ *   2. the bare KLU work of one trial: exactly as many klu_refactor / klu_solve and
+ *      klu_z_refactor / klu_z_solve / klu_z_tsolve calls as a trial made (counted by wrapping
+ *      the KLU functions this program links, see klu_wrap), on copies of its matrices, and the
+ *      ratio of the study's time per trial to it;
+ *   3. for comparison, the same trials in this program's own loop.
+ *
+ * CPU time, wall time and page faults per trial, medians of the repetitions (the bare work and
+ * the own loop alternate, so a busy moment of the machine does not land on one side only).
+ * Usage: bench_study [NETLIST] [REPEATS]   (NETLIST "" or none: netlists/vibration_frontend.cir
+ * with tolerances R1 5 % and R2 5 %, as `stagesim spread NETLIST --tol R1=5% --tol R2=5%`;
+ * REPEATS runs of each study size, default 3). */
+#define _GNU_SOURCE /* RTLD_NEXT */
+#include <dlfcn.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/resource.h>
+#include <sys/wait.h>
 #include <time.h>
 #include <unistd.h>
 
@@ -19,143 +34,496 @@
 
 #include "bench_util.h"
 
-static const char *NETLIST =
-    "two-transistor benchmark stage: CE into an emitter follower\n"
-    ".model qa npn is=8e-15 bf=200 vaf=80 ikf=0.1 ise=4e-15 rb=30 re=0.5 rc=1 cje=10p cjc=4p "
-    "tf=0.4n\n"
-    "vcc vcc 0 12\nvin src 0 dc 0 ac 1\nrs src in 600\nc1 in b1 4.7u\n"
-    "r1 vcc b1 68k\nr2 b1 0 12k\nrc1 vcc c1 6.8k\nre1 e1 0 1.5k\nce e1 0 100u\n"
-    "q1 c1 b1 e1 qa\nq2 vcc c1 e2 qa\nre2 e2 0 3.3k\nc2 e2 out 10u\nrl out 0 10k\n"
-    ".ac dec 7 10 100meg\n.stage in=vin out=out\n"
-    ".tolerance r1 5%\n.tolerance r2 5%\n.tolerance rc1 5%\n.tolerance re1 5%\n"
-    ".tolerance qa.bf 100 .. 300\n";
+#define BLOCK_TRIALS 500 /* trials per timed repetition of the per-trial comparison */
 
-static double cpu_s(void)
+static const char *const TOL_NAMES[] = {"r1", "r2"}; /* each +-5 %, uniform */
+#define N_TOLS ((int)(sizeof TOL_NAMES / sizeof TOL_NAMES[0]))
+
+/* ---- klu_wrap: counting the KLU calls stagesim makes --------------------------------------
+ * This program defines the KLU numeric functions itself, so the library's calls land here
+ * (the executable's definitions come before the shared libklu's); each counts and calls
+ * libklu's own, found with dlsym(RTLD_NEXT). The bare timings call libklu's directly. */
+
+typedef klu_numeric *(*factor_fn)(int *, int *, double *, klu_symbolic *, klu_common *);
+typedef int (*refactor_fn)(int *, int *, double *, klu_symbolic *, klu_numeric *,
+                           klu_common *);
+typedef int (*solve_fn)(klu_symbolic *, klu_numeric *, int, int, double *, klu_common *);
+typedef int (*tsolve_fn)(klu_symbolic *, klu_numeric *, int, int, double *, int,
+                         klu_common *);
+
+static struct {
+    factor_fn factor, z_factor;
+    refactor_fn refactor, z_refactor;
+    solve_fn solve, z_solve;
+    tsolve_fn z_tsolve;
+} libklu;
+
+typedef struct klu_counts {
+    long factor, refactor, solve;                 /* real */
+    long z_factor, z_refactor, z_solve, z_tsolve; /* complex */
+} klu_counts;
+static klu_counts g_count;
+
+static void *libklu_sym(const char *name)
+{
+    void *f = dlsym(RTLD_NEXT, name);
+    if (!f) {
+        fprintf(stderr, "bench_study: %s not found in the KLU library\n", name);
+        exit(1);
+    }
+    return f;
+}
+
+static void libklu_bind(void)
+{
+    libklu.factor = (factor_fn)libklu_sym("klu_factor");
+    libklu.z_factor = (factor_fn)libklu_sym("klu_z_factor");
+    libklu.refactor = (refactor_fn)libklu_sym("klu_refactor");
+    libklu.z_refactor = (refactor_fn)libklu_sym("klu_z_refactor");
+    libklu.solve = (solve_fn)libklu_sym("klu_solve");
+    libklu.z_solve = (solve_fn)libklu_sym("klu_z_solve");
+    libklu.z_tsolve = (tsolve_fn)libklu_sym("klu_z_tsolve");
+}
+
+klu_numeric *klu_factor(int *Ap, int *Ai, double *Ax, klu_symbolic *sym, klu_common *c)
+{
+    g_count.factor++;
+    return libklu.factor(Ap, Ai, Ax, sym, c);
+}
+
+klu_numeric *klu_z_factor(int *Ap, int *Ai, double *Ax, klu_symbolic *sym, klu_common *c)
+{
+    g_count.z_factor++;
+    return libklu.z_factor(Ap, Ai, Ax, sym, c);
+}
+
+int klu_refactor(int *Ap, int *Ai, double *Ax, klu_symbolic *sym, klu_numeric *num,
+                 klu_common *c)
+{
+    g_count.refactor++;
+    return libklu.refactor(Ap, Ai, Ax, sym, num, c);
+}
+
+int klu_z_refactor(int *Ap, int *Ai, double *Ax, klu_symbolic *sym, klu_numeric *num,
+                   klu_common *c)
+{
+    g_count.z_refactor++;
+    return libklu.z_refactor(Ap, Ai, Ax, sym, num, c);
+}
+
+int klu_solve(klu_symbolic *sym, klu_numeric *num, int ldim, int nrhs, double *B, klu_common *c)
+{
+    g_count.solve++;
+    return libklu.solve(sym, num, ldim, nrhs, B, c);
+}
+
+int klu_z_solve(klu_symbolic *sym, klu_numeric *num, int ldim, int nrhs, double *B,
+                klu_common *c)
+{
+    g_count.z_solve++;
+    return libklu.z_solve(sym, num, ldim, nrhs, B, c);
+}
+
+int klu_z_tsolve(klu_symbolic *sym, klu_numeric *num, int ldim, int nrhs, double *B,
+                 int conj_solve, klu_common *c)
+{
+    g_count.z_tsolve++;
+    return libklu.z_tsolve(sym, num, ldim, nrhs, B, conj_solve, c);
+}
+
+/* ---- clocks and small helpers ------------------------------------------------------------ */
+
+static double cpu_now_s(void)
 {
     struct timespec ts;
     clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &ts);
     return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
 }
 
-static double g_cpu; /* CPU seconds of the last run_trials */
+/* Page faults of the process so far (fresh memory from the system: 10 us or so each on a
+ * virtual machine, so a few per trial show in its time). */
+static double faults_now(void)
+{
+    struct rusage ru;
+    getrusage(RUSAGE_SELF, &ru);
+    return (double)ru.ru_minflt + (double)ru.ru_majflt;
+}
 
-static double run_trials(const char *path, long trials, int threads)
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return x < y ? -1 : x > y;
+}
+
+static double median(double *v, int n)
+{
+    qsort(v, (size_t)n, sizeof *v, cmp_double);
+    return n % 2 ? v[n / 2] : 0.5 * (v[n / 2 - 1] + v[n / 2]);
+}
+
+/* CPU seconds, wall seconds and page faults of one measured stretch. */
+typedef struct cost {
+    double cpu, wall, faults;
+} cost;
+
+static cost cost_start(void) { return (cost){cpu_now_s(), bench_now_s(), faults_now()}; }
+
+/* Since `start`, per unit of n. */
+static cost cost_per(cost start, double n)
+{
+    return (cost){(cpu_now_s() - start.cpu) / n, (bench_now_s() - start.wall) / n,
+                  (faults_now() - start.faults) / n};
+}
+
+/* Medians of each field of v[0 .. n-1] (reorders a scratch copy). */
+static cost cost_median(const cost *v, int n)
+{
+    double *t = malloc(3 * (size_t)n * sizeof *t);
+    if (!t) {
+        fprintf(stderr, "bench_study: out of memory\n");
+        exit(1);
+    }
+    for (int i = 0; i < n; i++) {
+        t[i] = v[i].cpu;
+        t[n + i] = v[i].wall;
+        t[2 * n + i] = v[i].faults;
+    }
+    cost m = {median(t, n), median(t + n, n), median(t + 2 * n, n)};
+    free(t);
+    return m;
+}
+
+static void die(const char *what, const ss_error *err)
+{
+    fprintf(stderr, "bench_study: %s: %s\n", what, err->message);
+    exit(1);
+}
+
+/* splitmix64 (Steele, Lea, Flood 2014): uniform in [0, 1) */
+static double uniform01(uint64_t *state)
+{
+    uint64_t z = (*state += 0x9E3779B97F4A7C15U);
+    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9U;
+    z = (z ^ (z >> 27)) * 0x94D049BB133111EBU;
+    z ^= z >> 31;
+    return (double)(z >> 11) * 0x1.0p-53;
+}
+
+/* The netlist: the argument, else the example from the current folder, else from the source
+ * tree this program was built from. */
+static const char *netlist_path(int argc, char **argv, char *buf, size_t len)
+{
+    static const char rel[] = "netlists/vibration_frontend.cir";
+    if (argc > 1 && argv[1][0])
+        return argv[1];
+    FILE *f = fopen(rel, "r");
+    if (f) {
+        fclose(f);
+        return rel;
+    }
+    const char *src = __FILE__, *tail = strstr(src, "tests/bench/");
+    if (!tail)
+        return rel;
+    snprintf(buf, len, "%.*s%s", (int)(tail - src), src, rel);
+    return buf;
+}
+
+/* ---- the spread-style trial --------------------------------------------------------------- */
+
+typedef struct trial_ctx {
+    ss_solver *sv;
+    const ss_limits *limits;
+    double nominal[N_TOLS];
+    uint64_t rng;
+    long failed;
+} trial_ctx;
+
+/* One trial as the study runner does it: values back to nominal, the sampled ones set by name,
+ * every figure solved. */
+static void run_trials(trial_ctx *tc, long trials)
+{
+    for (long t = 0; t < trials; t++) {
+        ss_error err = {0};
+        ss_table *figs = NULL;
+        ss_solver_reset_values(tc->sv);
+        ss_status st = SS_OK;
+        for (int k = 0; k < N_TOLS && st == SS_OK; k++) {
+            double v = tc->nominal[k] * (0.95 + 0.1 * uniform01(&tc->rng));
+            st = ss_solver_set_value(tc->sv, TOL_NAMES[k], v, &err);
+        }
+        if (st == SS_OK)
+            st = ss_figures_compute(tc->sv, tc->limits, &figs, &err);
+        tc->failed += st != SS_OK;
+        ss_table_destroy(&figs);
+    }
+}
+
+/* ---- the same trial's KLU calls, bare ----------------------------------------------------- */
+
+typedef struct bare_mats {
+    int n;
+    int *Ap, *Ai;
+    double *Ax, *Az; /* the real and complex values as the last trial left them */
+    double *b, *b0;  /* right-hand side and its start (2 n: room for complex) */
+    klu_common c;
+    klu_symbolic *sym;
+    klu_numeric *num, *znum;
+} bare_mats;
+
+static double *dup_doubles(const double *src, size_t n)
+{
+    double *d = malloc(n * sizeof *d);
+    if (!d) {
+        fprintf(stderr, "bench_study: out of memory\n");
+        exit(1);
+    }
+    memcpy(d, src, n * sizeof *d);
+    return d;
+}
+
+static void bare_open(bare_mats *bm, mna *m)
+{
+    int n = mna_n(m), nnz = mna_nnz(m);
+    bm->n = n;
+    bm->Ap = malloc((size_t)(n + 1) * sizeof *bm->Ap);
+    bm->Ai = malloc((size_t)nnz * sizeof *bm->Ai);
+    if (!bm->Ap || !bm->Ai) {
+        fprintf(stderr, "bench_study: out of memory\n");
+        exit(1);
+    }
+    memcpy(bm->Ap, mna_colptr(m), (size_t)(n + 1) * sizeof *bm->Ap);
+    memcpy(bm->Ai, mna_rowidx(m), (size_t)nnz * sizeof *bm->Ai);
+    bm->Ax = dup_doubles(mna_values(m), (size_t)nnz);
+    bm->Az = dup_doubles((const double *)mna_zvalues(m), 2 * (size_t)nnz);
+    bm->b = malloc(2 * (size_t)n * sizeof *bm->b);
+    bm->b0 = malloc(2 * (size_t)n * sizeof *bm->b0);
+    if (!bm->b || !bm->b0) {
+        fprintf(stderr, "bench_study: out of memory\n");
+        exit(1);
+    }
+    for (int i = 0; i < n; i++) {
+        bm->b0[2 * i] = 1.0;
+        bm->b0[2 * i + 1] = 0.0;
+    }
+    klu_defaults(&bm->c);
+    bm->sym = klu_analyze(n, bm->Ap, bm->Ai, &bm->c);
+    bm->num = bm->sym ? libklu.factor(bm->Ap, bm->Ai, bm->Ax, bm->sym, &bm->c) : NULL;
+    bm->znum = bm->sym ? libklu.z_factor(bm->Ap, bm->Ai, bm->Az, bm->sym, &bm->c) : NULL;
+    if (!bm->num || !bm->znum) {
+        fprintf(stderr, "bench_study: bare KLU could not factor the trial's matrices\n");
+        exit(1);
+    }
+}
+
+static void bare_close(bare_mats *bm)
+{
+    klu_free_numeric(&bm->num, &bm->c);
+    klu_z_free_numeric(&bm->znum, &bm->c);
+    klu_free_symbolic(&bm->sym, &bm->c);
+    free(bm->Ap);
+    free(bm->Ai);
+    free(bm->Ax);
+    free(bm->Az);
+    free(bm->b);
+    free(bm->b0);
+}
+
+/* Trial t's share of total calls over trials: the shares add up to total exactly. */
+static long share(long total, long t, long trials)
+{
+    return total * (t + 1) / trials - total * t / trials;
+}
+
+/* The calls `per` counted over `trials` trials, replayed trial by trial: every factorization
+ * (fresh or not) as a refactor, every solve on a fresh right-hand side. */
+static void bare_trials(bare_mats *bm, const klu_counts *per, long trials)
+{
+    int n = bm->n;
+    size_t rb = (size_t)n * sizeof *bm->b, zb = 2 * rb;
+    for (long t = 0; t < trials; t++) {
+        long ref = share(per->factor + per->refactor, t, trials);
+        long sol = share(per->solve, t, trials);
+        long zref = share(per->z_factor + per->z_refactor, t, trials);
+        long zsol = share(per->z_solve, t, trials);
+        long ztsol = share(per->z_tsolve, t, trials);
+        for (long k = 0; k < ref; k++)
+            libklu.refactor(bm->Ap, bm->Ai, bm->Ax, bm->sym, bm->num, &bm->c);
+        for (long k = 0; k < sol; k++) {
+            memcpy(bm->b, bm->b0, rb);
+            libklu.solve(bm->sym, bm->num, n, 1, bm->b, &bm->c);
+        }
+        for (long k = 0; k < zref; k++)
+            libklu.z_refactor(bm->Ap, bm->Ai, bm->Az, bm->sym, bm->znum, &bm->c);
+        for (long k = 0; k < zsol; k++) {
+            memcpy(bm->b, bm->b0, zb);
+            libklu.z_solve(bm->sym, bm->znum, n, 1, bm->b, &bm->c);
+        }
+        for (long k = 0; k < ztsol; k++) {
+            memcpy(bm->b, bm->b0, zb);
+            libklu.z_tsolve(bm->sym, bm->znum, n, 1, bm->b, 0, &bm->c);
+        }
+    }
+}
+
+/* ---- the whole study, one thread ---------------------------------------------------------- */
+
+/* ss_study_run of `trials` trials on one thread, as `stagesim spread NETLIST --tol R1=5%
+ * --tol R2=5% --threads 1` runs it (without writing the files): per trial. */
+static cost run_study(const char *path, long trials)
 {
     ss_study *s = NULL;
     ss_error err = {0};
     ss_table *pts = NULL;
-    if (ss_study_create(path, NULL, 0, &s, &err) != SS_OK ||
-        ss_study_set_trials(s, trials, 1, &err) != SS_OK) {
-        fprintf(stderr, "%s\n", err.message);
-        exit(1);
+    if (ss_study_create(path, NULL, 0, &s, &err) != SS_OK)
+        die(path, &err);
+    for (int k = 0; k < N_TOLS; k++) {
+        char spec[64];
+        snprintf(spec, sizeof spec, "%s=5%%", TOL_NAMES[k]);
+        if (ss_study_add_tolerance(s, spec, &err) != SS_OK)
+            die(spec, &err);
     }
-    ss_study_set_threads(s, threads);
-    double t0 = bench_now_s(), c0 = cpu_s();
-    if (ss_study_run(s, &pts, &err) != SS_OK) {
-        fprintf(stderr, "%s\n", err.message);
-        exit(1);
-    }
-    double dt = bench_now_s() - t0;
-    g_cpu = cpu_s() - c0;
+    if (ss_study_set_trials(s, trials, 1, &err) != SS_OK)
+        die("trials", &err);
+    ss_study_set_threads(s, 1);
+    cost c0 = cost_start();
+    if (ss_study_run(s, &pts, &err) != SS_OK)
+        die("study", &err);
+    cost c = cost_per(c0, (double)trials);
     ss_table_destroy(&pts);
     ss_study_destroy(&s);
-    return dt;
+    return c;
 }
 
-/* Bare KLU per call on this circuit's matrices: real refactor + solve, complex likewise. */
-static void bare_costs(ss_circuit *ckt, double *real_s, double *complex_s, double *extra_s)
+/* run_study in a child process forked from this one before it solved anything, so every run
+ * starts from the same heap: where the C library's heap top happens to lie decides whether
+ * each trial's freed tables are given back to the system and faulted in again (tens of page
+ * faults a trial, shown in the faults column), and an earlier run in the same process would
+ * move it. */
+static cost run_study_fresh(const char *path, long trials)
 {
-    mna *m = ckt->mna;
-    int n = mna_n(m), reps = 20000;
-    int *Ap = (int *)mna_colptr(m), *Ai = (int *)mna_rowidx(m);
-    klu_common c;
-    klu_defaults(&c);
-    klu_symbolic *sym = klu_analyze(n, Ap, Ai, &c);
-    double *Ax = mna_values(m);
-    double *b = malloc((size_t)n * 2 * sizeof *b);
-    klu_numeric *num = klu_factor(Ap, Ai, Ax, sym, &c);
-    double t0 = bench_now_s();
-    for (int r = 0; r < reps; r++) {
-        for (int i = 0; i < n; i++)
-            b[i] = 1.0;
-        klu_refactor(Ap, Ai, Ax, sym, num, &c);
-        klu_solve(sym, num, n, 1, b, &c);
+    int fd[2];
+    if (pipe(fd) != 0) {
+        perror("bench_study: pipe");
+        exit(1);
     }
-    *real_s = (bench_now_s() - t0) / reps;
-    klu_free_numeric(&num, &c);
-    double *Az = (double *)mna_zvalues(m);
-    num = klu_z_factor(Ap, Ai, Az, sym, &c);
-    t0 = bench_now_s();
-    for (int r = 0; r < reps; r++) {
-        for (int i = 0; i < 2 * n; i++)
-            b[i] = 1.0;
-        klu_z_refactor(Ap, Ai, Az, sym, num, &c);
-        klu_z_solve(sym, num, n, 1, b, &c);
+    fflush(stdout);
+    pid_t pid = fork();
+    if (pid < 0) {
+        perror("bench_study: fork");
+        exit(1);
     }
-    *complex_s = (bench_now_s() - t0) / reps;
-    t0 = bench_now_s();
-    for (int r = 0; r < reps; r++) {
-        for (int i = 0; i < 2 * n; i++)
-            b[i] = 1.0;
-        klu_z_solve(sym, num, n, 1, b, &c);
+    if (pid == 0) {
+        close(fd[0]);
+        cost c = run_study(path, trials);
+        _exit(write(fd[1], &c, sizeof c) == (ssize_t)sizeof c ? 0 : 1);
     }
-    *extra_s = (bench_now_s() - t0) / reps;
-    klu_free_numeric(&num, &c);
-    klu_free_symbolic(&sym, &c);
-    free(b);
+    close(fd[1]);
+    cost c;
+    ssize_t got = read(fd[0], &c, sizeof c);
+    close(fd[0]);
+    int status = 0;
+    waitpid(pid, &status, 0);
+    if (got != (ssize_t)sizeof c || !WIFEXITED(status) || WEXITSTATUS(status) != 0) {
+        fprintf(stderr, "bench_study: the study of %ld trials failed\n", trials);
+        exit(1);
+    }
+    return c;
+}
+
+static void print_cost(const char *what, cost c)
+{
+    printf("%-48s %10.1f %10.1f %8.1f\n", what, c.cpu * 1e6, c.wall * 1e6, c.faults);
 }
 
 int main(int argc, char **argv)
 {
-    long trials = argc > 1 ? atol(argv[1]) : 2000;
-    char path[] = "/tmp/ss_bench_study_XXXXXX";
-    int fd = mkstemp(path);
-    if (fd < 0 || write(fd, NETLIST, strlen(NETLIST)) < 0)
+    libklu_bind();
+    char buf[4096];
+    const char *path = netlist_path(argc, argv, buf, sizeof buf);
+    int reps = argc > 2 ? atoi(argv[2]) : 3;
+    if (reps < 1)
+        reps = 1;
+
+    /* 1. the whole study at two sizes, alternately, each run in a fresh process */
+    cost *s2 = malloc((size_t)reps * sizeof *s2), *s20 = malloc((size_t)reps * sizeof *s20);
+    if (!s2 || !s20)
         return 1;
-    close(fd);
-    /* one trial's solve counts and the bare KLU cost on its matrices */
-    ss_circuit *ckt = NULL;
+    for (int r = 0; r < reps; r++) {
+        s2[r] = run_study_fresh(path, 2000);
+        s20[r] = run_study_fresh(path, 20000);
+    }
+    cost m2 = cost_median(s2, reps), m20 = cost_median(s20, reps);
+
+    /* 2. one trial's KLU calls, counted over a block of trials on one context */
     ss_error err = {0};
-    ss_table *figs = NULL;
+    ss_circuit *ckt = NULL;
+    ss_limits *limits = NULL;
+    trial_ctx tc = {0};
+    tc.rng = 1;
     if (ss_circuit_parse_file(path, NULL, 0, &ckt, &err) != SS_OK ||
-        ss_figures_compute(ckt, NULL, &figs, &err) != SS_OK) {
-        fprintf(stderr, "%s\n", err.message);
+        ss_solver_create(ckt, &tc.sv, &err) != SS_OK || ss_limits_create(&limits, &err) != SS_OK ||
+        ss_limits_add_circuit(limits, ckt, &err) != SS_OK)
+        die(path, &err);
+    tc.limits = limits;
+    for (int k = 0; k < N_TOLS; k++)
+        if (ss_circuit_get_value(ckt, TOL_NAMES[k], &tc.nominal[k], &err) != SS_OK)
+            die(TOL_NAMES[k], &err);
+    run_trials(&tc, 100); /* warm up */
+    memset(&g_count, 0, sizeof g_count);
+    run_trials(&tc, BLOCK_TRIALS);
+    klu_counts per = g_count;
+    if (per.factor + per.refactor == 0 || per.z_factor + per.z_refactor == 0) {
+        fprintf(stderr, "bench_study: no KLU call was counted: the wrappers are not in use\n");
         return 1;
     }
-    const mna_counters *cnt = mna_get_counters(ckt->mna);
-    double t_real, t_cplx, t_extra;
-    bare_costs(ckt, &t_real, &t_cplx, &t_extra);
-    double bare = cnt->real_solves * t_real + cnt->complex_solves * t_cplx +
-                  cnt->complex_extra_solves * t_extra;
-    printf("per trial: %ld real refactor+solve, %ld complex refactor+solve, %ld extra complex "
-           "solves (%d unknowns)\n",
-           cnt->real_solves, cnt->complex_solves, cnt->complex_extra_solves, ckt->n_unknowns);
-    ss_table_destroy(&figs);
+
+    /* 3. those calls bare, alternating with the same trials on this context */
+    bare_mats bm;
+    bare_open(&bm, tc.sv->mna);
+    bare_trials(&bm, &per, BLOCK_TRIALS / 10); /* warm up */
+    int breps = 2 * reps + 1;
+    cost *own = malloc((size_t)breps * sizeof *own), *bare = malloc((size_t)breps * sizeof *bare);
+    if (!own || !bare)
+        return 1;
+    for (int r = 0; r < breps; r++) {
+        cost c0 = cost_start();
+        bare_trials(&bm, &per, BLOCK_TRIALS);
+        bare[r] = cost_per(c0, BLOCK_TRIALS);
+        c0 = cost_start();
+        run_trials(&tc, BLOCK_TRIALS);
+        own[r] = cost_per(c0, BLOCK_TRIALS);
+    }
+    cost mb = cost_median(bare, breps), mo = cost_median(own, breps);
+    bare_close(&bm);
+    int unknowns = tc.sv->n_unknowns;
+    long failed = tc.failed;
+    ss_solver_destroy(&tc.sv);
+    ss_limits_destroy(&limits);
     ss_circuit_destroy(&ckt);
 
-    run_trials(path, trials / 10 + 1, 1); /* warm up */
-    /* alternate 1 and 2 threads three times and keep the best of each, so neither side gets
-     * only the machine's busy moments */
-    double t1 = HUGE_VAL, t2 = HUGE_VAL, cpu1 = HUGE_VAL;
-    for (int round = 0; round < 3; round++) {
-        double a = run_trials(path, trials, 1);
-        if (a < t1) {
-            t1 = a;
-            cpu1 = g_cpu;
-        }
-        double b = run_trials(path, trials, 2);
-        t2 = b < t2 ? b : t2;
-    }
-    long ncpu = sysconf(_SC_NPROCESSORS_ONLN);
-    double per_trial = t1 / trials;
-    printf("%-34s %12s\n", "measure", "value");
-    printf("%-34s %12.0f\n", "trials/s, 1 thread", trials / t1);
-    printf("%-34s %12.0f\n", "trials/s, 2 threads", trials / t2);
-    printf("%-34s %12.2f   (cores online: %ld)\n", "speed-up on 2 threads", t1 / t2, ncpu);
-    printf("%-34s %12.1f\n", "us per trial, 1 thread", per_trial * 1e6);
-    printf("%-34s %12.1f\n", "CPU us per trial, 1 thread", cpu1 / trials * 1e6);
-    printf("%-34s %12.1f\n", "bare KLU us per trial", bare * 1e6);
-    printf("%-34s %12.2f\n", "ratio per trial / bare KLU", per_trial / bare);
-    remove(path);
+    double bt = (double)BLOCK_TRIALS;
+    printf("bench_study: %s, %d unknowns, tolerances r1 5%%, r2 5%%, one thread; medians of "
+           "%d runs, %d x %d bare trials\n",
+           path, unknowns, reps, breps, BLOCK_TRIALS);
+    printf("KLU calls per trial: real %.1f factorizations (%.1f fresh) + %.1f solves; complex "
+           "%.1f factorizations (%.1f fresh) + %.1f solves + %.1f transposed solves\n",
+           (double)(per.factor + per.refactor) / bt, (double)per.factor / bt,
+           (double)per.solve / bt, (double)(per.z_factor + per.z_refactor) / bt,
+           (double)per.z_factor / bt, (double)per.z_solve / bt, (double)per.z_tsolve / bt);
+    printf("%-48s %10s %10s %8s\n", "per trial", "CPU us", "wall us", "faults");
+    print_cost("tolerance run (ss_study_run), 2000 trials", m2);
+    print_cost("tolerance run (ss_study_run), 20000 trials", m20);
+    print_cost("bare KLU, the same calls (factor as refactor)", mb);
+    print_cost("the same trials in this program's own loop", mo);
+    printf("%-48s %10.2f %10.2f\n", "ratio tolerance run (2000) / bare KLU", m2.cpu / mb.cpu,
+           m2.wall / mb.wall);
+    printf("%-48s %10.2f %10.2f\n", "ratio 20000 / 2000 trials per trial (1 = linear)",
+           m20.cpu / m2.cpu, m20.wall / m2.wall);
+    if (failed)
+        printf("(%ld trials did not solve)\n", failed);
+    free(own);
+    free(bare);
+    free(s2);
+    free(s20);
     return 0;
 }

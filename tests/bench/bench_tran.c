@@ -46,9 +46,9 @@ static int on_point(void *ctx, long k, double t_s, const double *x)
 
 /* Bare KLU: analyze + factor once, then reps x (refactor + solve) on the circuit's own real
  * matrix as the last Newton iteration left it. Seconds per repetition. */
-static double bare_klu(ss_circuit *ckt, int reps)
+static double bare_klu(ss_solver *sv, int reps)
 {
-    mna *m = ckt->mna;
+    mna *m = sv->mna;
     int n = mna_n(m);
     int *Ap = (int *)mna_colptr(m), *Ai = (int *)mna_rowidx(m);
     double *Ax = mna_values(m);
@@ -74,43 +74,47 @@ static double bare_klu(ss_circuit *ckt, int reps)
 static int bench(const char *label, const char *text)
 {
     ss_circuit *ckt = NULL;
+    ss_solver *sv = NULL;
     ss_error err = {0};
-    if (ss_circuit_parse_text(text, strlen(text), label, NULL, 0, &ckt, &err) != SS_OK) {
+    if (ss_circuit_parse_text(text, strlen(text), label, NULL, 0, &ckt, &err) != SS_OK ||
+        ss_solver_create(ckt, &sv, &err) != SS_OK) {
         fprintf(stderr, "%s: %s\n", label, err.message);
+        ss_circuit_destroy(&ckt);
         return 1;
     }
-    tran_cfg cfg = {.tstep_s = ckt->tran_step_s,
-                    .tstop_s = ckt->tran_stop_s,
-                    .tstart_s = ckt->tran_start_s,
-                    .method = ckt->tran_method == 1 ? TRAN_GEAR2 : TRAN_TRAP,
-                    .tol_rel = ckt->tran_tol_rel,
-                    .tol_v = ckt->tran_tol_v,
+    tran_cfg cfg = {.tstep_s = ckt->tran.step_s,
+                    .tstop_s = ckt->tran.stop_s,
+                    .tstart_s = ckt->tran.start_s,
+                    .method = ckt->tran.method == 1 ? TRAN_GEAR2 : TRAN_TRAP,
+                    .tol_rel = ckt->tran.tol_rel,
+                    .tol_v = ckt->tran.tol_v,
                     .on_point = on_point};
     tran_stats s;
     /* warm-up (solves the operating point), then the best of three timed runs, each followed
      * by the bare KLU timing so a busy moment on the machine does not land on one side only */
-    if (tran_run(ckt, &cfg, &s, &err) != SS_OK) {
+    if (tran_run(sv, &cfg, &s, &err) != SS_OK) {
         fprintf(stderr, "%s: %s\n", label, err.message);
         return 1;
     }
     double t_run = HUGE_VAL, bare = HUGE_VAL;
     for (int round = 0; round < 3; round++) {
         double t0 = bench_now_s();
-        if (tran_run(ckt, &cfg, &s, &err) != SS_OK) {
+        if (tran_run(sv, &cfg, &s, &err) != SS_OK) {
             fprintf(stderr, "%s: %s\n", label, err.message);
             return 1;
         }
         double dt = bench_now_s() - t0;
         t_run = dt < t_run ? dt : t_run;
         int reps = (int)(0.3 * (double)s.newton_iterations / (dt + 1e-9) * 0.2) + 10;
-        double b = bare_klu(ckt, reps);
+        double b = bare_klu(sv, reps);
         bare = b < bare ? b : bare;
     }
     double per_step = t_run / (double)s.steps, per_iter = t_run / (double)s.newton_iterations;
-    printf("%-30s %8d %8ld %10.0f %10.2f %7.2f %10.2f %10.2f %7.2f %6ld\n", label, ckt->n_unknowns,
+    printf("%-30s %8d %8ld %10.0f %10.2f %7.2f %10.2f %10.2f %7.2f %6ld\n", label, sv->n_unknowns,
            s.steps, (double)s.steps / t_run, per_step * 1e6,
            (double)s.newton_iterations / (double)s.steps, per_iter * 1e6, bare * 1e6,
            per_iter / bare, s.allocs_in_loop);
+    ss_solver_destroy(&sv);
     ss_circuit_destroy(&ckt);
     return 0;
 }
