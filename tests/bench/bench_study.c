@@ -384,7 +384,8 @@ static cost run_study(const char *path, long trials)
     }
     if (ss_study_set_trials(s, trials, 1, &err) != SS_OK)
         die("trials", &err);
-    ss_study_set_threads(s, 1);
+    if (ss_study_set_threads(s, 1, &err) != SS_OK)
+        die("threads", &err);
     cost c0 = cost_start();
     if (ss_study_run(s, &pts, &err) != SS_OK)
         die("study", &err);
