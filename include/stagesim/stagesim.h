@@ -390,9 +390,10 @@ SS_API ss_status ss_check_write_junit_strict(const ss_table *verdicts, const ss_
 /* ---- studies: sweeps and tolerance (Monte Carlo) runs ------------------------------------ */
 
 /* A study re-solves one netlist at many points: a grid of swept values (--vary) and/or random
- * trials over declared tolerances. Every point is a fresh parse with overrides, so parameters
- * and expressions follow; results depend only on the seed and the point index, never on the
- * number of threads or on sharding. */
+ * trials over declared tolerances. The netlist is parsed once; each worker thread sets every
+ * point's values by name on its own solver context (as --set names them), so parameters and
+ * expressions follow; results depend only on the seed and the point index, never on the number
+ * of threads or on sharding. */
 typedef struct ss_study ss_study;
 typedef void (*ss_progress_fn)(void *ctx, long done, long total);
 

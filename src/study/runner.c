@@ -1,7 +1,7 @@
 /* Study runner: the study object and its setup (swept values, tolerances, trials, threads,
- * shard, limits), and the run: grids of swept values and Monte Carlo trials over tolerances, each
- * point a fresh parse with overrides, spread over threads with results placed by point index (so
- * the output never depends on the thread count). Statistics are summary.c's, sensitivities and
+ * shard, limits), and the run: grids of swept values and Monte Carlo trials over tolerances, one
+ * parse per study and one solver context per thread, each point's values set by name on it,
+ * with results placed by point index (so the output never depends on the thread count). Statistics are summary.c's, sensitivities and
  * corners sensitivity.c's, preferred values snap.c's, merging shards shards.c's. */
 #define _POSIX_C_SOURCE 200809L
 #include <ctype.h>
