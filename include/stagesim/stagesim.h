@@ -172,8 +172,9 @@ SS_API ss_status ss_table_write_csv(const ss_table *t, const char *path, ss_erro
 /* ---- sinks: where an analysis's rows go ---------------------------------------------------- */
 
 /* A sink takes an analysis's rows as it makes them: into a table (ss_sink_table), into a CSV
- * file written while the analysis runs (ss_sink_csv), or to the caller's functions
- * (ss_sink_create). One sink serves one analysis run at a time. */
+ * file written while the analysis runs (ss_sink_csv), to the caller's functions
+ * (ss_sink_create) or to two sinks at once (ss_sink_tee). One sink serves one analysis run at a
+ * time. Some tables label their rows (op.csv's quantity column, a metric,value summary). */
 typedef struct ss_sink ss_sink;
 typedef struct ss_sink_callbacks {
     /* once: the column names (valid during the call) and how many rows come (0 unknown) */
@@ -182,6 +183,9 @@ typedef struct ss_sink_callbacks {
     int (*row)(void *ctx, const double *values, int n_cols);
     /* once at the end: ok 1 when the analysis succeeded (else it stopped with an error) */
     int (*end)(void *ctx, int ok);
+    /* labelled tables only, just before each row: the label column's header ("quantity") and
+     * the row's label ("v(out)"), both valid during the call */
+    int (*label)(void *ctx, const char *label_col, const char *label);
 } ss_sink_callbacks; /* each may be NULL; a nonzero return stops the analysis (SS_ERR_IO) */
 SS_API ss_status ss_sink_create(const ss_sink_callbacks *cb, void *ctx, ss_sink **out,
                                 ss_error *err);
@@ -192,6 +196,10 @@ SS_API ss_table *ss_sink_take_table(ss_sink *sink);
 /* The CSV file `path`, written row by row as the analysis runs (a second thread formats the
  * text of large sweeps), replaced atomically when the analysis succeeds, left alone otherwise. */
 SS_API ss_status ss_sink_csv(const char *path, ss_sink **out, ss_error *err);
+/* Every row to a, then to b (neither owned: destroy them after the tee); both are ended, the
+ * second told of the first's failure, and the first error is returned. A table sink beside a
+ * CSV sink keeps in memory the rows a file gets. */
+SS_API ss_status ss_sink_tee(ss_sink *a, ss_sink *b, ss_sink **out, ss_error *err);
 SS_API void ss_sink_destroy(ss_sink **sink);
 
 typedef struct ss_op_stats {
