@@ -213,25 +213,33 @@ typedef struct ss_op_stats {
  * Returns SS_OK, SS_ERR_SINGULAR, SS_ERR_NO_CONVERGENCE, SS_ERR_NOMEM. */
 SS_API ss_status ss_op_solve(ss_solver *sv, ss_table **out_op, ss_op_stats *stats,
                              ss_error *err);
+/* The same, the quantity,value rows into a sink (labelled rows) once the point is solved. */
+SS_API ss_status ss_op_emit(ss_solver *sv, ss_sink *sink, ss_op_stats *stats, ss_error *err);
 
 /* Runs the netlist's .dc sweep (each point starts from the previous solution). Output table:
  * the swept source(s), then v(NODE) per node. Leaves the circuit at its unswept values. */
 SS_API ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err);
+/* The same sweep, each point's row into a sink as it is solved. */
+SS_API ss_status ss_dc_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
 
 /* Runs the .ac sweep at the present operating point (solves it first if needed).
  * Output: freq_hz, vm(NODE), vp(NODE) per node. */
 SS_API ss_status ss_ac_sweep_run(ss_solver *sv, ss_table **out_ac, ss_error *err);
+/* The AC sweep's rows (freq_hz, then vm(NODE), vp(NODE) per written node) into a sink. */
+SS_API ss_status ss_ac_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
 /* The same sweep written straight to a CSV file (the very text ss_table_write_csv writes of
  * ss_ac_sweep_run's table), formatted on a second thread while the next frequency is solved
  * and never held whole in memory: what a board of many nodes needs. */
-/* The AC sweep's rows (freq_hz, then vm(NODE), vp(NODE) per written node) into a sink. */
-SS_API ss_status ss_ac_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
 SS_API ss_status ss_ac_sweep_write(ss_solver *sv, const char *path, ss_error *err);
 
 /* Stage figures over the .ac frequencies: out_stage (freq_hz, gain, gain_db, phase_deg,
  * zin_ohm, zout_ohm) and out_summary (metric,value). Corners are refined by extra solves. */
 SS_API ss_status ss_stage_run(ss_solver *sv, ss_table **out_stage, ss_table **out_summary,
                               ss_error *err);
+/* The same, the stage rows into a sink (sent once every figure is found) and the summary, when
+ * out_summary is not NULL, into *out_summary (the caller's; written on success only). */
+SS_API ss_status ss_stage_emit(ss_solver *sv, ss_sink *sink, ss_table **out_summary,
+                               ss_error *err);
 
 /* Names the noise analysis's output node and input source (overrides a .noise line) and,
  * optionally, the resistor whose thermal noise is the noise figure's reference (rs_resistor
@@ -255,6 +263,10 @@ SS_API ss_status ss_solver_set_noise(ss_solver *sv, const char *out_node,
  * SS_ERR_NO_CONVERGENCE, SS_ERR_NOMEM, SS_ERR_LIMIT. */
 SS_API ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **out_summary,
                               ss_table **out_contrib, ss_error *err);
+/* The same, the noise.csv rows into a sink frequency by frequency; summary and contributions
+ * as above (each may be NULL). */
+SS_API ss_status ss_noise_emit(ss_solver *sv, ss_sink *sink, ss_table **out_summary,
+                               ss_table **out_contrib, ss_error *err);
 
 /* ---- transient and the stage's large-signal figures (docs/transient.md) ------------------ */
 
@@ -268,6 +280,8 @@ SS_API ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **ou
  * point at t = 0, or the step fell below its floor: the message names the time and the node),
  * SS_ERR_SINGULAR, SS_ERR_NOMEM, SS_ERR_LIMIT. */
 SS_API ss_status ss_tran_run(ss_solver *sv, ss_table **out_tran, ss_error *err);
+/* The same, each output point's row into a sink as it is reached. */
+SS_API ss_status ss_tran_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
 
 /* Sets the stage's large-signal test (overrides a .large_signal line): the signal frequency
  * (<= 0: keep; default 1 kHz), the input amplitude thd_pct is computed at (V for a voltage
@@ -319,6 +333,8 @@ SS_API ss_status ss_stage_clipping(ss_solver *sv, ss_table **out_summary, ss_err
  * thd_target_pct and vin_at_thd_v (iin_at_thd_a for a current source). Returns as
  * ss_stage_thd. */
 SS_API ss_status ss_stage_large_signal(ss_solver *sv, ss_table **out_summary, ss_error *err);
+/* The same table's labelled rows into a sink, once every figure is found. */
+SS_API ss_status ss_stage_large_signal_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
 
 /* Writes a waveform plot (input above, output below, over a shared time axis) from a table
  * whose first column is time_s: in_col and out_col name its columns (NULL: "in(SOURCE)" or
