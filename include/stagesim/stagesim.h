@@ -155,6 +155,9 @@ typedef struct ss_table ss_table;
 SS_API int ss_table_rows(const ss_table *t);
 SS_API int ss_table_cols(const ss_table *t);
 SS_API const char *ss_table_col_name(const ss_table *t, int col);
+/* The index of the column called name (the first, should two share it); -1 when there is
+ * none. Read results by name: columns may be added to a table, never renamed. */
+SS_API int ss_table_col_index(const ss_table *t, const char *name);
 /* NULL when the table has no row labels. */
 SS_API const char *ss_table_row_label(const ss_table *t, int row);
 SS_API double ss_table_get(const ss_table *t, int row, int col);

@@ -40,9 +40,10 @@ static void print_large_signal(const ss_table *ls, double f_hz)
                              {"thd_pct", "THD at the test amplitude (%)"},
                              {"vin_at_thd_v", "input amplitude for the THD target"},
                              {"iin_at_thd_a", "input amplitude for the THD target"}};
+    int col = ss_table_col_index(ls, "value");
     for (size_t k = 0; k < sizeof rows / sizeof rows[0]; k++) {
-        double v = ss_table_lookup(ls, rows[k][0], 0);
-        double e = strcmp(rows[k][0], "thd_pct") == 0 ? ss_table_lookup(ls, "thd_err_pct", 0)
+        double v = ss_table_lookup(ls, rows[k][0], col);
+        double e = strcmp(rows[k][0], "thd_pct") == 0 ? ss_table_lookup(ls, "thd_err_pct", col)
                                                       : SS_NAN_CLI;
         if (!isnan(v) && !isnan(e))
             printf("  %-40s %.5g (estimated error %.2g)\n", rows[k][1], v, e);
@@ -53,17 +54,21 @@ static void print_large_signal(const ss_table *ls, double f_hz)
 
 static void print_noise(const ss_table *nsum, const ss_table *ncon)
 {
+    int col = ss_table_col_index(nsum, "value");
     printf("\nNoise over the .ac band (%.4g Hz .. %.4g Hz)\n",
-           ss_table_lookup(nsum, "f_start_hz", 0), ss_table_lookup(nsum, "f_stop_hz", 0));
-    printf("  output noise    %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "out_noise_rms_v", 0));
-    printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", 0));
-    double nf = ss_table_lookup(nsum, "noise_figure_db", 0);
+           ss_table_lookup(nsum, "f_start_hz", col), ss_table_lookup(nsum, "f_stop_hz", col));
+    printf("  output noise    %.4g uV rms\n",
+           1e6 * ss_table_lookup(nsum, "out_noise_rms_v", col));
+    printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", col));
+    double nf = ss_table_lookup(nsum, "noise_figure_db", col);
     if (!isnan(nf))
         printf("  noise figure    %.3f dB\n", nf);
     printf("  largest contributions:\n");
+    int rms_col = ss_table_col_index(ncon, "out_noise_rms_v");
+    int share_col = ss_table_col_index(ncon, "share_pct");
     for (int i = 0; i < ss_table_rows(ncon) && i < 5; i++)
         printf("    %-28s %10.4g uV rms  %6.2f %%\n", ss_table_row_label(ncon, i),
-               1e6 * ss_table_get(ncon, i, 0), ss_table_get(ncon, i, 1));
+               1e6 * ss_table_get(ncon, i, rms_col), ss_table_get(ncon, i, share_col));
 }
 
 /* AC sweep, stage figures and the Bode plot (the stage tables are kept for the report). */
