@@ -363,6 +363,24 @@ SS_API void ss_report_write(const ss_solver *sv, const ss_table *summary, FILE *
 SS_API ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *out_value,
                                       ss_error *err);
 
+/* ---- the analyses by name ---------------------------------------------------------------- */
+
+/* Every analysis in one table, in the order `stagesim run` runs them ("op", "ac", "stage",
+ * "dc", "tran", "large_signal", "noise"): i from 0 to ss_analysis_count() - 1. Name,
+ * directive (".dc") and main output file ("dc.csv") are NULL for i out of range. */
+SS_API int ss_analysis_count(void);
+SS_API const char *ss_analysis_name(int i);
+SS_API const char *ss_analysis_directive(int i);
+SS_API const char *ss_analysis_output(int i);
+/* 1 when the context asks for analysis i (its netlist's directives and the requests set on it:
+ * ss_solver_analyses), as run decides: the operating point always, the stage only with an .ac
+ * sweep, the large-signal figures only with a stage. 0 otherwise or out of range. */
+SS_API int ss_analysis_wanted(const ss_solver *sv, int i);
+/* Runs analysis i, its main table's rows into sink (the rows of its own emit function:
+ * ss_op_emit, ss_ac_sweep_emit, ...; its summaries are not made). Returns as that function, or
+ * SS_ERR_INPUT for i out of range. */
+SS_API ss_status ss_analysis_emit(ss_solver *sv, int i, ss_sink *sink, ss_error *err);
+
 /* ---- limits and checks ------------------------------------------------------------------- */
 
 /* A set of limits on figures: `QUANTITY [@ FREQ] RELATION` per line, see docs/checks.md. */
