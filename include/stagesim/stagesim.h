@@ -157,6 +157,9 @@ typedef struct ss_table ss_table;
 SS_API int ss_table_rows(const ss_table *t);
 SS_API int ss_table_cols(const ss_table *t);
 SS_API const char *ss_table_col_name(const ss_table *t, int col);
+/* The index of the column called name (the first, should two share it); -1 when there is
+ * none. Read results by name: columns may be added to a table, never renamed. */
+SS_API int ss_table_col_index(const ss_table *t, const char *name);
 /* NULL when the table has no row labels. */
 SS_API const char *ss_table_row_label(const ss_table *t, int row);
 SS_API double ss_table_get(const ss_table *t, int row, int col);
@@ -174,8 +177,9 @@ SS_API ss_status ss_table_write_csv(const ss_table *t, const char *path, ss_erro
 /* ---- sinks: where an analysis's rows go ---------------------------------------------------- */
 
 /* A sink takes an analysis's rows as it makes them: into a table (ss_sink_table), into a CSV
- * file written while the analysis runs (ss_sink_csv), or to the caller's functions
- * (ss_sink_create). One sink serves one analysis run at a time. */
+ * file written while the analysis runs (ss_sink_csv), to the caller's functions
+ * (ss_sink_create) or to two sinks at once (ss_sink_tee). One sink serves one analysis run at a
+ * time. Some tables label their rows (op.csv's quantity column, a metric,value summary). */
 typedef struct ss_sink ss_sink;
 typedef struct ss_sink_callbacks {
     /* once: the column names (valid during the call) and how many rows come (0 unknown) */
@@ -184,6 +188,9 @@ typedef struct ss_sink_callbacks {
     int (*row)(void *ctx, const double *values, int n_cols);
     /* once at the end: ok 1 when the analysis succeeded (else it stopped with an error) */
     int (*end)(void *ctx, int ok);
+    /* labelled tables only, just before each row: the label column's header ("quantity") and
+     * the row's label ("v(out)"), both valid during the call */
+    int (*label)(void *ctx, const char *label_col, const char *label);
 } ss_sink_callbacks; /* each may be NULL; a nonzero return stops the analysis (SS_ERR_IO) */
 SS_API ss_status ss_sink_create(const ss_sink_callbacks *cb, void *ctx, ss_sink **out,
                                 ss_error *err);
@@ -194,6 +201,10 @@ SS_API ss_table *ss_sink_take_table(ss_sink *sink);
 /* The CSV file `path`, written row by row as the analysis runs (a second thread formats the
  * text of large sweeps), replaced atomically when the analysis succeeds, left alone otherwise. */
 SS_API ss_status ss_sink_csv(const char *path, ss_sink **out, ss_error *err);
+/* Every row to a, then to b (neither owned: destroy them after the tee); both are ended, the
+ * second told of the first's failure, and the first error is returned. A table sink beside a
+ * CSV sink keeps in memory the rows a file gets. */
+SS_API ss_status ss_sink_tee(ss_sink *a, ss_sink *b, ss_sink **out, ss_error *err);
 SS_API void ss_sink_destroy(ss_sink **sink);
 
 typedef struct ss_op_stats {
@@ -207,25 +218,33 @@ typedef struct ss_op_stats {
  * Returns SS_OK, SS_ERR_SINGULAR, SS_ERR_NO_CONVERGENCE, SS_ERR_NOMEM. */
 SS_API ss_status ss_op_solve(ss_solver *sv, ss_table **out_op, ss_op_stats *stats,
                              ss_error *err);
+/* The same, the quantity,value rows into a sink (labelled rows) once the point is solved. */
+SS_API ss_status ss_op_emit(ss_solver *sv, ss_sink *sink, ss_op_stats *stats, ss_error *err);
 
 /* Runs the netlist's .dc sweep (each point starts from the previous solution). Output table:
  * the swept source(s), then v(NODE) per node. Leaves the circuit at its unswept values. */
 SS_API ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err);
+/* The same sweep, each point's row into a sink as it is solved. */
+SS_API ss_status ss_dc_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
 
 /* Runs the .ac sweep at the present operating point (solves it first if needed).
  * Output: freq_hz, vm(NODE), vp(NODE) per node. */
 SS_API ss_status ss_ac_sweep_run(ss_solver *sv, ss_table **out_ac, ss_error *err);
+/* The AC sweep's rows (freq_hz, then vm(NODE), vp(NODE) per written node) into a sink. */
+SS_API ss_status ss_ac_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
 /* The same sweep written straight to a CSV file (the very text ss_table_write_csv writes of
  * ss_ac_sweep_run's table), formatted on a second thread while the next frequency is solved
  * and never held whole in memory: what a board of many nodes needs. */
-/* The AC sweep's rows (freq_hz, then vm(NODE), vp(NODE) per written node) into a sink. */
-SS_API ss_status ss_ac_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
 SS_API ss_status ss_ac_sweep_write(ss_solver *sv, const char *path, ss_error *err);
 
 /* Stage figures over the .ac frequencies: out_stage (freq_hz, gain, gain_db, phase_deg,
  * zin_ohm, zout_ohm) and out_summary (metric,value). Corners are refined by extra solves. */
 SS_API ss_status ss_stage_run(ss_solver *sv, ss_table **out_stage, ss_table **out_summary,
                               ss_error *err);
+/* The same, the stage rows into a sink (sent once every figure is found) and the summary, when
+ * out_summary is not NULL, into *out_summary (the caller's; written on success only). */
+SS_API ss_status ss_stage_emit(ss_solver *sv, ss_sink *sink, ss_table **out_summary,
+                               ss_error *err);
 
 /* Names the noise analysis's output node and input source (overrides a .noise line) and,
  * optionally, the resistor whose thermal noise is the noise figure's reference (rs_resistor
@@ -249,6 +268,10 @@ SS_API ss_status ss_solver_set_noise(ss_solver *sv, const char *out_node,
  * SS_ERR_NO_CONVERGENCE, SS_ERR_NOMEM, SS_ERR_LIMIT. */
 SS_API ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **out_summary,
                               ss_table **out_contrib, ss_error *err);
+/* The same, the noise.csv rows into a sink frequency by frequency; summary and contributions
+ * as above (each may be NULL). */
+SS_API ss_status ss_noise_emit(ss_solver *sv, ss_sink *sink, ss_table **out_summary,
+                               ss_table **out_contrib, ss_error *err);
 
 /* ---- transient and the stage's large-signal figures (docs/transient.md) ------------------ */
 
@@ -262,6 +285,8 @@ SS_API ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **ou
  * point at t = 0, or the step fell below its floor: the message names the time and the node),
  * SS_ERR_SINGULAR, SS_ERR_NOMEM, SS_ERR_LIMIT. */
 SS_API ss_status ss_tran_run(ss_solver *sv, ss_table **out_tran, ss_error *err);
+/* The same, each output point's row into a sink as it is reached. */
+SS_API ss_status ss_tran_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
 
 /* The stage's large-signal test on a context (each overrides its .large_signal setting and
  * turns the test on): the signal frequency (positive; default 1 kHz), the input amplitude THD is
@@ -315,6 +340,8 @@ SS_API ss_status ss_stage_clipping(ss_solver *sv, ss_table **out_summary, ss_err
  * thd_target_pct and vin_at_thd_v (iin_at_thd_a for a current source). Returns as
  * ss_stage_thd. */
 SS_API ss_status ss_stage_large_signal(ss_solver *sv, ss_table **out_summary, ss_error *err);
+/* The same table's labelled rows into a sink, once every figure is found. */
+SS_API ss_status ss_stage_large_signal_emit(ss_solver *sv, ss_sink *sink, ss_error *err);
 
 /* Writes a waveform plot (input above, output below, over a shared time axis) from a table
  * whose first column is time_s: in_col and out_col name its columns (NULL: "in(SOURCE)" or
@@ -339,6 +366,24 @@ SS_API void ss_report_write(const ss_solver *sv, const ss_table *summary, FILE *
  * as --set understands it: a .param, an element's main value or MODEL.PARAM. Returns SS_ERR_INPUT naming NAME when there is no such thing. */
 SS_API ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *out_value,
                                       ss_error *err);
+
+/* ---- the analyses by name ---------------------------------------------------------------- */
+
+/* Every analysis in one table, in the order `stagesim run` runs them ("op", "ac", "stage",
+ * "dc", "tran", "large_signal", "noise"): i from 0 to ss_analysis_count() - 1. Name,
+ * directive (".dc") and main output file ("dc.csv") are NULL for i out of range. */
+SS_API int ss_analysis_count(void);
+SS_API const char *ss_analysis_name(int i);
+SS_API const char *ss_analysis_directive(int i);
+SS_API const char *ss_analysis_output(int i);
+/* 1 when the context asks for analysis i (its netlist's directives and the requests set on it:
+ * ss_solver_analyses), as run decides: the operating point always, the stage only with an .ac
+ * sweep, the large-signal figures only with a stage. 0 otherwise or out of range. */
+SS_API int ss_analysis_wanted(const ss_solver *sv, int i);
+/* Runs analysis i, its main table's rows into sink (the rows of its own emit function:
+ * ss_op_emit, ss_ac_sweep_emit, ...; its summaries are not made). Returns as that function, or
+ * SS_ERR_INPUT for i out of range. */
+SS_API ss_status ss_analysis_emit(ss_solver *sv, int i, ss_sink *sink, ss_error *err);
 
 /* ---- limits and checks ------------------------------------------------------------------- */
 

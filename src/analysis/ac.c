@@ -189,29 +189,6 @@ static ss_status ac_sweep_begin(ss_solver *sv, double **freqs, int *nf, ss_error
     return ac_frequencies(sv, freqs, nf, err);
 }
 
-/* The sweep's column names: freq_hz, then vm(NODE) and vp(NODE) per written node. */
-static const char **ac_col_names(ss_solver *sv, int *n_cols)
-{
-    int n_out = solver_n_out_nodes(sv);
-    *n_cols = 1 + 2 * n_out;
-    const char **names = arena_alloc(&sv->arena, (size_t)*n_cols * sizeof *names);
-    if (!names)
-        return NULL;
-    names[0] = "freq_hz";
-    for (int j = 0; j < n_out; j++) {
-        const char *node = sv->node_name[solver_out_node(sv, j)];
-        size_t len = strlen(node) + 5;
-        char *vm = arena_alloc(&sv->arena, len), *vp = arena_alloc(&sv->arena, len);
-        if (!vm || !vp)
-            return NULL;
-        snprintf(vm, len, "vm(%s)", node);
-        snprintf(vp, len, "vp(%s)", node);
-        names[1 + 2 * j] = vm;
-        names[2 + 2 * j] = vp;
-    }
-    return names;
-}
-
 ss_status ss_ac_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
 {
     double *freqs = NULL;
@@ -219,7 +196,9 @@ ss_status ss_ac_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
     ss_status st = ac_sweep_begin(sv, &freqs, &nf, err);
     if (st != SS_OK)
         return st;
-    const char **names = ac_col_names(sv, &n_cols);
+    static const char *const lead[] = {"freq_hz"};
+    static const char *const fmts[] = {"vm(%s)", "vp(%s)"};
+    const char **names = analysis_col_names(sv, lead, 1, fmts, 2, &n_cols);
     double *row = ss_alloc((size_t)n_cols * sizeof *row);
     if (!names || !row)
         st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
@@ -238,6 +217,7 @@ ss_status ss_ac_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
         }
         st = sink_end(sink, st, err);
     }
+    ss_free(names);
     ss_free(row);
     ss_free(freqs);
     return st;

@@ -16,10 +16,12 @@ SS_HIDDEN ss_status solver_prepare(ss_solver *sv, ss_error *err);
  * whose scaled parameters leave their range. */
 SS_HIDDEN ss_status analysis_apply_temp(ss_solver *sv, ss_error *err);
 SS_HIDDEN double analysis_vt(const ss_solver *sv);
-/* Netlist (not internal) nodes: their count, and one column per node and format ("v(%s)")
- * from first_col on, the formats of a node side by side. 0 ok, -1 no memory. */
-SS_HIDDEN int analysis_node_cols(ss_table *t, const ss_solver *sv, int first_col,
-                                 const char *const *fmts, int n_fmts);
+/* The column names of a per-node table (columns.c): lead[0..n_lead-1], then one per written
+ * node and format ("v(%s)"), the formats of a node side by side. Output: the names in one
+ * block the caller frees with ss_free (NULL: out of memory), *n_cols their count. */
+SS_HIDDEN const char **analysis_col_names(const ss_solver *sv, const char *const *lead,
+                                          int n_lead, const char *const *fmts, int n_fmts,
+                                          int *n_cols);
 
 /* Newton solve from x (in/out) at the given source scale; first_mode says how the first
  * iteration treats junction voltages. */

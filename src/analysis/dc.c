@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "analysis/analysis.h"
+#include "output/sink.h"
 
 static int sweep_points(const dc_sweep_spec *s)
 {
@@ -22,7 +23,7 @@ static element *sweep_source(ss_solver *sv, const dc_sweep_spec *s, ss_error *er
     return &sv->elem[idx];
 }
 
-ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
+ss_status ss_dc_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
 {
     if (sv->ckt->dc.n == 0)
         return err_set(err, SS_ERR_INPUT, sv->ckt->file, 0, "the netlist has no .dc sweep");
@@ -35,20 +36,19 @@ ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
     if ((double)n_inner * n_outer > 1e7)
         return err_set(err, SS_ERR_LIMIT, sv->ckt->dc.sweep[0].file, sv->ckt->dc.sweep[0].line,
                        ".dc: more than 1e7 points in all");
-    ss_table *t = table_create(sv->ckt->dc.n + solver_n_out_nodes(sv), NULL);
-    if (!t)
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    int col = 0, bad = 0;
-    for (int k = 0; k < sv->ckt->dc.n; k++)
-        bad |= table_set_col(t, col++, src[k]->name);
+    const char *lead[2] = {src[0]->name, src[1] ? src[1]->name : NULL};
     static const char *const fmt[] = {"v(%s)"};
-    bad |= analysis_node_cols(t, sv, col, fmt, 1);
-    if (bad || table_reserve(t, n_inner * n_outer) != 0) {
-        ss_table_destroy(&t);
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    int n_cols = 0;
+    const char **names = analysis_col_names(sv, lead, sv->ckt->dc.n, fmt, 1, &n_cols);
+    double *row = names ? ss_alloc((size_t)n_cols * sizeof *row) : NULL;
+    ss_status st = row ? sink_begin(sink, n_cols, names, (long)n_inner * n_outer, err)
+                       : err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    if (st != SS_OK) {
+        ss_free(names);
+        ss_free(row);
+        return st;
     }
     double saved[2] = {src[0]->value, src[1] ? src[1]->value : 0.0};
-    ss_status st = SS_OK;
     double *x = NULL;
     for (int jo = 0; jo < n_outer && st == SS_OK; jo++) {
         if (src[1])
@@ -72,13 +72,13 @@ ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
                 }
                 x = sv->x_op;
             }
-            double *row = table_add_row(t, NULL);
             int c = 0;
             row[c++] = src[0]->value;
             if (src[1])
                 row[c++] = src[1]->value;
             for (int j = 0; j < solver_n_out_nodes(sv); j++)
                 row[c++] = x[node_unknown(solver_out_node(sv, j))];
+            st = sink_row(sink, row, err);
         }
     }
     src[0]->value = saved[0];
@@ -86,10 +86,20 @@ ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
         src[1]->value = saved[1];
     sv->have_op = 0; /* x_op now holds the last sweep point */
     sv->op_serial++;
-    if (st != SS_OK) {
-        ss_table_destroy(&t);
-        return st;
-    }
-    *out_dc = t;
-    return SS_OK;
+    st = sink_end(sink, st, err);
+    ss_free(names);
+    ss_free(row);
+    return st;
+}
+
+ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
+{
+    ss_sink *sink = NULL;
+    ss_status st = ss_sink_table(&sink, err);
+    if (st == SS_OK)
+        st = ss_dc_sweep_emit(sv, sink, err);
+    if (st == SS_OK)
+        *out_dc = ss_sink_take_table(sink);
+    ss_sink_destroy(&sink);
+    return st;
 }

@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "analysis/analysis.h"
+#include "output/sink.h"
 
 ss_status noise_collect_sources(const ss_solver *sv, noise_src **out_src, int *out_n,
                                 ss_error *err)
@@ -130,7 +131,7 @@ typedef struct noise_work {
     double *pow;       /* per source, output power integrated so far, V^2 */
     double *elem_pow;  /* per element, V^2 */
     int *order;        /* ranking of the sources */
-    ss_table *noise, *summary, *contrib;
+    ss_table *summary, *contrib;
 } noise_work;
 
 static void noise_work_clear(noise_work *w)
@@ -141,12 +142,11 @@ static void noise_work_clear(noise_work *w)
     ss_free(w->pow);
     ss_free(w->elem_pow);
     ss_free(w->order);
-    ss_table_destroy(&w->noise);
     ss_table_destroy(&w->summary);
     ss_table_destroy(&w->contrib);
 }
 
-static ss_status noise_work_init(ss_solver *sv, int nf, noise_work *w, ss_error *err)
+static ss_status noise_work_init(ss_solver *sv, noise_work *w, ss_error *err)
 {
     ss_status st = noise_collect_sources(sv, &w->src, &w->n_src, err);
     if (st != SS_OK)
@@ -157,18 +157,15 @@ static ss_status noise_work_init(ss_solver *sv, int nf, noise_work *w, ss_error 
     w->pow = ss_alloc(ns * sizeof *w->pow);
     w->elem_pow = ss_alloc((size_t)sv->n_elem * sizeof *w->elem_pow);
     w->order = ss_alloc(ns * sizeof *w->order);
-    w->noise = table_create(3, NULL);
     w->summary = table_create(1, "metric");
     w->contrib = table_create(3, "source");
-    int bad = !w->y || !w->psd_prev || !w->pow || !w->elem_pow || !w->order || !w->noise ||
-              !w->summary || !w->contrib;
-    static const char *const noise_cols[3] = {"freq_hz", "out_noise_v_rthz", "in_noise_v_rthz"};
+    int bad = !w->y || !w->psd_prev || !w->pow || !w->elem_pow || !w->order || !w->summary ||
+              !w->contrib;
     static const char *const contrib_cols[3] = {"out_noise_rms_v", "share_pct",
                                                 "element_share_pct"};
     for (int j = 0; !bad && j < 3; j++)
-        bad |= table_set_col(w->noise, j, noise_cols[j]) |
-               table_set_col(w->contrib, j, contrib_cols[j]);
-    bad = bad || table_set_col(w->summary, 0, "value") != 0 || table_reserve(w->noise, nf) != 0;
+        bad |= table_set_col(w->contrib, j, contrib_cols[j]);
+    bad = bad || table_set_col(w->summary, 0, "value") != 0;
     return bad ? err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory") : SS_OK;
 }
 
@@ -179,9 +176,11 @@ static double abs2(double complex z) { return creal(z) * creal(z) + cimag(z) * c
  * it) and one adjoint solve A^T y = e_out on the same factorization. A noise current i between
  * nodes a and b then gives v(out) = (y_a - y_b) i, so every source costs a subtraction, not a
  * solve (the adjoint network; docs/noise.md). Integration is the trapezoid rule in f on the
- * power spectral densities. No allocation inside. */
+ * power spectral densities. No allocation inside. Each frequency's row goes to the sink (begun
+ * by the caller) as it is solved. */
 static ss_status noise_sweep(ss_solver *sv, const element *src, int out_node, const double *freqs,
-                             int nf, noise_work *w, double *pow_out, double *pow_in, ss_error *err)
+                             int nf, noise_work *w, ss_sink *sink, double *pow_out, double *pow_in,
+                             ss_error *err)
 {
     int n = sv->n_unknowns;
     double prev_f = 0.0, prev_out = 0.0, prev_in = 0.0;
@@ -226,10 +225,9 @@ static ss_status noise_sweep(ss_solver *sv, const element *src, int out_node, co
         prev_f = f;
         prev_out = s_out;
         prev_in = s_in;
-        double *row = table_add_row(w->noise, NULL);
-        row[0] = f;
-        row[1] = sqrt(s_out);
-        row[2] = sqrt(s_in);
+        const double row[3] = {f, sqrt(s_out), sqrt(s_in)};
+        if ((st = sink_row(sink, row, err)) != SS_OK)
+            return st;
     }
     return SS_OK;
 }
@@ -299,8 +297,8 @@ static ss_status noise_tables(const ss_solver *sv, const double *freqs, int nf, 
     return SS_OK;
 }
 
-ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **out_summary,
-                       ss_table **out_contrib, ss_error *err)
+ss_status ss_noise_emit(ss_solver *sv, ss_sink *sink, ss_table **out_summary,
+                        ss_table **out_contrib, ss_error *err)
 {
     if (!sv->noise.out || !sv->noise.src)
         return err_set(err, SS_ERR_INPUT, sv->ckt->file, 0,
@@ -324,17 +322,18 @@ ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **out_summa
     noise_work w;
     memset(&w, 0, sizeof w);
     double pow_out = 0.0, pow_in = 0.0;
-    st = noise_work_init(sv, nf, &w, err);
+    static const char *const cols[3] = {"freq_hz", "out_noise_v_rthz", "in_noise_v_rthz"};
+    st = noise_work_init(sv, &w, err);
     if (st == SS_OK)
-        st = noise_sweep(sv, src, out_node, freqs, nf, &w, &pow_out, &pow_in, err);
-    if (st == SS_OK)
-        st = noise_tables(sv, freqs, nf, rs_elem, pow_out, pow_in, &w, err);
+        st = sink_begin(sink, 3, cols, nf, err);
+    if (st == SS_OK) {
+        st = noise_sweep(sv, src, out_node, freqs, nf, &w, sink, &pow_out, &pow_in, err);
+        if (st == SS_OK)
+            st = noise_tables(sv, freqs, nf, rs_elem, pow_out, pow_in, &w, err);
+        st = sink_end(sink, st, err);
+    }
     ss_free(freqs);
     if (st == SS_OK) {
-        if (out_noise) {
-            *out_noise = w.noise;
-            w.noise = NULL;
-        }
         if (out_summary) {
             *out_summary = w.summary;
             w.summary = NULL;
@@ -345,5 +344,18 @@ ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **out_summa
         }
     }
     noise_work_clear(&w);
+    return st;
+}
+
+ss_status ss_noise_run(ss_solver *sv, ss_table **out_noise, ss_table **out_summary,
+                       ss_table **out_contrib, ss_error *err)
+{
+    ss_sink *sink = NULL;
+    ss_status st = ss_sink_table(&sink, err);
+    if (st == SS_OK)
+        st = ss_noise_emit(sv, sink, out_summary, out_contrib, err);
+    if (st == SS_OK && out_noise)
+        *out_noise = ss_sink_take_table(sink);
+    ss_sink_destroy(&sink);
     return st;
 }

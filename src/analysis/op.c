@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "analysis/analysis.h"
+#include "output/sink.h"
 
 /* KCL verification of a converged answer: allowed node residual KCL_ABS_A + KCL_REL times
  * the largest branch or source current; allowed branch-equation residual KCL_ABS_V + KCL_REL
@@ -442,21 +443,20 @@ ss_status op_solve_into(ss_solver *sv, ss_op_stats *stats, ss_error *err)
 
 /* ---- op.csv rows ----------------------------------------------------------------------- */
 
-typedef struct op_sink {
-    ss_table *t;
-    int failed;
-} op_sink;
+typedef struct op_emit_ctx {
+    ss_sink *sink;
+    ss_status st; /* the first refusal of the sink */
+    ss_error *err;
+} op_emit_ctx;
 
-static void sink_row(void *vs, const char *quantity, const char *elem_name, double value)
+static void op_row_to_sink(void *vc, const char *quantity, const char *elem_name, double value)
 {
-    op_sink *s = vs;
+    op_emit_ctx *c = vc;
+    if (c->st != SS_OK)
+        return;
     char label[1200];
     snprintf(label, sizeof label, "%s(%s)", quantity, elem_name);
-    double *row = table_add_row(s->t, label);
-    if (!row)
-        s->failed = 1;
-    else
-        row[0] = value;
+    c->st = sink_row_labelled(c->sink, label, &value, c->err);
 }
 
 void op_rows(const ss_solver *sv, const double *x, dev_report_fn fn, void *sink)
@@ -477,27 +477,30 @@ void op_rows(const ss_solver *sv, const double *x, dev_report_fn fn, void *sink)
     }
 }
 
-static ss_status op_table(ss_solver *sv, ss_table **out, ss_error *err)
+ss_status ss_op_emit(ss_solver *sv, ss_sink *sink, ss_op_stats *stats, ss_error *err)
 {
-    ss_table *t = table_create(1, "quantity");
-    if (!t || table_set_col(t, 0, "value") != 0) {
-        ss_table_destroy(&t);
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
-    op_sink s = {t, 0};
-    op_rows(sv, sv->x_op, sink_row, &s);
-    if (s.failed) {
-        ss_table_destroy(&t);
-        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    }
-    *out = t;
-    return SS_OK;
+    ss_status st = op_solve_into(sv, stats, err);
+    if (st != SS_OK)
+        return st;
+    static const char *const cols[] = {"value"};
+    st = sink_begin_labelled(sink, "quantity", 1, cols, 0, err);
+    if (st != SS_OK)
+        return st;
+    op_emit_ctx c = {sink, SS_OK, err};
+    op_rows(sv, sv->x_op, op_row_to_sink, &c);
+    return sink_end(sink, c.st, err);
 }
 
 ss_status ss_op_solve(ss_solver *sv, ss_table **out_op, ss_op_stats *stats, ss_error *err)
 {
-    ss_status st = op_solve_into(sv, stats, err);
-    if (st != SS_OK || !out_op)
-        return st;
-    return op_table(sv, out_op, err);
+    if (!out_op)
+        return op_solve_into(sv, stats, err);
+    ss_sink *sink = NULL;
+    ss_status st = ss_sink_table(&sink, err);
+    if (st == SS_OK)
+        st = ss_op_emit(sv, sink, stats, err);
+    if (st == SS_OK)
+        *out_op = ss_sink_take_table(sink);
+    ss_sink_destroy(&sink);
+    return st;
 }

@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "analysis/analysis.h"
+#include "output/sink.h"
 
 /* relative width to which a corner is bracketed (0.01 %, well inside the 0.1 % promised) */
 #define CORNER_REL_TOL 1e-4
@@ -153,20 +154,13 @@ typedef struct stage_sweep {
     double f_low, f_high; /* NaN: no corner in the sweep */
 } stage_sweep;
 
-/* stage.csv's table (room reserved for nf rows) and stage_summary.csv's, into *out_t and
- * *out_s (NULL where they could not be made); nonzero when something could not be made. */
-static int stage_tables(int nf, ss_table **out_t, ss_table **out_s)
+/* stage_summary.csv's table, NULL when out of memory. */
+static ss_table *stage_summary_table(void)
 {
-    static const char *const cols[] = {"freq_hz",   "gain",    "gain_db",
-                                       "phase_deg", "zin_ohm", "zout_ohm"};
-    ss_table *t = table_create(6, NULL);
     ss_table *s = table_create(1, "metric");
-    int bad = !t || !s || table_reserve(t, nf) != 0 || table_set_col(s, 0, "value") != 0;
-    for (int j = 0; !bad && j < 6; j++)
-        bad |= table_set_col(t, j, cols[j]);
-    *out_t = t;
-    *out_s = s;
-    return bad;
+    if (s && table_set_col(s, 0, "value") != 0)
+        ss_table_destroy(&s);
+    return s;
 }
 
 /* Every grid point, and mid-band: the grid point of largest gain, refined between its
@@ -213,10 +207,12 @@ static ss_status stage_corners(ss_solver *sv, stage_sweep *sw, ss_error *err)
     return st;
 }
 
-/* stage.csv's rows into t (room reserved): the phase unwrapped along the sweep, then shifted
- * so mid-band lies in (-180, 180]. Returns SS_OK or SS_ERR_NOMEM. */
-static ss_status stage_rows(ss_table *t, const stage_sweep *sw, ss_error *err)
+/* stage.csv's rows into the sink, begin to end: the phase unwrapped along the sweep, then
+ * shifted so mid-band lies in (-180, 180]. Returns SS_OK, SS_ERR_NOMEM or the sink's error. */
+static ss_status stage_rows(ss_sink *sink, const stage_sweep *sw, ss_error *err)
 {
+    static const char *const cols[] = {"freq_hz",   "gain",    "gain_db",
+                                       "phase_deg", "zin_ohm", "zout_ohm"};
     const int nf = sw->nf, k_mid = sw->k_mid;
     const stage_pt *pts = sw->pts;
     double *ph = ss_alloc((size_t)nf * sizeof *ph);
@@ -228,18 +224,19 @@ static ss_status stage_rows(ss_table *t, const stage_sweep *sw, ss_error *err)
             ph[k] -= 360.0 * round((ph[k] - ph[k - 1]) / 360.0);
     }
     double shift = 360.0 * round((ph[k_mid] - phase_deg(pts[k_mid].gain)) / 360.0);
-    for (int k = 0; k < nf; k++) {
-        double *row = table_add_row(t, NULL);
+    ss_status st = sink_begin(sink, 6, cols, nf, err);
+    if (st != SS_OK) {
+        ss_free(ph);
+        return st;
+    }
+    for (int k = 0; k < nf && st == SS_OK; k++) {
         double gm = cabs(pts[k].gain);
-        row[0] = sw->freqs[k];
-        row[1] = gm;
-        row[2] = 20.0 * log10(gm);
-        row[3] = ph[k] - shift;
-        row[4] = cabs(pts[k].zin);
-        row[5] = cabs(pts[k].zout);
+        const double row[6] = {sw->freqs[k],     gm, 20.0 * log10(gm), ph[k] - shift,
+                               cabs(pts[k].zin), cabs(pts[k].zout)};
+        st = sink_row(sink, row, err);
     }
     ss_free(ph);
-    return SS_OK;
+    return sink_end(sink, st, err);
 }
 
 /* stage_summary.csv's rows into s. */
@@ -278,8 +275,9 @@ static ss_status stage_summary_rows(ss_solver *sv, ss_table *s, const stage_swee
     return st;
 }
 
-ss_status ss_stage_run(ss_solver *sv, ss_table **out_stage, ss_table **out_summary,
-                       ss_error *err)
+/* The summary is made before the rows are sent, so a sink sees the rows of a run that
+ * succeeded only. */
+ss_status ss_stage_emit(ss_solver *sv, ss_sink *sink, ss_table **out_summary, ss_error *err)
 {
     if (!sv->stage.in)
         return err_set(err, SS_ERR_INPUT, sv->ckt->file, 0,
@@ -293,13 +291,11 @@ ss_status ss_stage_run(ss_solver *sv, ss_table **out_stage, ss_table **out_summa
     sw.out_node = circuit_find_node(sv->ckt, sv->stage.out);
     if ((st = ac_frequencies(sv, &sw.freqs, &sw.nf, err)) != SS_OK)
         return st;
-    ss_table *t, *s;
-    int bad = stage_tables(sw.nf, &t, &s);
+    ss_table *s = stage_summary_table();
     sw.pts = ss_alloc((size_t)sw.nf * sizeof *sw.pts);
-    if (bad || !sw.pts) {
+    if (!s || !sw.pts) {
         ss_free(sw.freqs);
         ss_free(sw.pts);
-        ss_table_destroy(&t);
         ss_table_destroy(&s);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
@@ -308,17 +304,30 @@ ss_status ss_stage_run(ss_solver *sv, ss_table **out_stage, ss_table **out_summa
     if (st == SS_OK && sw.g_mid > 0.0)
         st = stage_corners(sv, &sw, err);
     if (st == SS_OK)
-        st = stage_rows(t, &sw, err);
-    if (st == SS_OK)
         st = stage_summary_rows(sv, s, &sw, err);
+    if (st == SS_OK)
+        st = stage_rows(sink, &sw, err);
     ss_free(sw.freqs);
     ss_free(sw.pts);
-    if (st != SS_OK) {
-        ss_table_destroy(&t);
+    if (st == SS_OK && out_summary)
+        *out_summary = s;
+    else
         ss_table_destroy(&s);
-        return st;
+    return st;
+}
+
+ss_status ss_stage_run(ss_solver *sv, ss_table **out_stage, ss_table **out_summary,
+                       ss_error *err)
+{
+    ss_sink *sink = NULL;
+    ss_table *summary = NULL;
+    ss_status st = ss_sink_table(&sink, err);
+    if (st == SS_OK)
+        st = ss_stage_emit(sv, sink, &summary, err);
+    if (st == SS_OK) {
+        *out_stage = ss_sink_take_table(sink);
+        *out_summary = summary;
     }
-    *out_stage = t;
-    *out_summary = s;
-    return SS_OK;
+    ss_sink_destroy(&sink);
+    return st;
 }

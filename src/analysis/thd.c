@@ -8,6 +8,7 @@
 #include <string.h>
 
 #include "analysis/large_signal.h"
+#include "output/sink.h"
 
 #define THD_TARGET_REL 1e-3 /* vin_at_thd: |THD / target - 1| */
 #define THD_SEARCH_MAX 40
@@ -297,7 +298,8 @@ ss_status ss_stage_amplitude_at_thd(ss_solver *sv, double thd_target_pct, double
     return st;
 }
 
-ss_status ss_stage_large_signal(ss_solver *sv, ss_table **out_summary, ss_error *err)
+/* The large-signal summary: clip.c's rows, then the THD's. */
+static ss_status large_signal_table(ss_solver *sv, ss_table **out_summary, ss_error *err)
 {
     stage_ref sr;
     clip_result res;
@@ -366,4 +368,27 @@ ss_status ss_stage_large_signal(ss_solver *sv, ss_table **out_summary, ss_error 
     }
     *out_summary = t;
     return SS_OK;
+}
+
+/* The summary is a handful of figures, each a search of its own: made whole, then sent. */
+ss_status ss_stage_large_signal_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
+{
+    ss_table *t = NULL;
+    ss_status st = large_signal_table(sv, &t, err);
+    if (st == SS_OK)
+        st = sink_send_table(sink, t, err);
+    ss_table_destroy(&t);
+    return st;
+}
+
+ss_status ss_stage_large_signal(ss_solver *sv, ss_table **out_summary, ss_error *err)
+{
+    ss_sink *sink = NULL;
+    ss_status st = ss_sink_table(&sink, err);
+    if (st == SS_OK)
+        st = ss_stage_large_signal_emit(sv, sink, err);
+    if (st == SS_OK)
+        *out_summary = ss_sink_take_table(sink);
+    ss_sink_destroy(&sink);
+    return st;
 }

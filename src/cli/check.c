@@ -77,11 +77,13 @@ int cmd_check(const cli_args *a)
         printf("check %s: %d limit%s\n\n", a->netlist, n, n == 1 ? "" : "s");
         printf("  %-24s %13s %13s %13s %13s  %s\n", "quantity", "measured", "lower", "upper",
                "margin", "verdict");
+        static const char *const bounds[] = {"measured", "lower", "upper", "margin"};
+        int pass_col = ss_table_col_index(verdicts, "pass");
         for (int i = 0; i < n; i++) {
             printf("  %-24s", ss_table_row_label(verdicts, i));
             for (int j = 0; j < 4; j++)
-                print_bound(ss_table_get(verdicts, i, j));
-            printf("  %s\n", ss_table_get(verdicts, i, 4) != 0.0 ? "pass" : "FAIL");
+                print_bound(ss_table_get(verdicts, i, ss_table_col_index(verdicts, bounds[j])));
+            printf("  %s\n", ss_table_get(verdicts, i, pass_col) != 0.0 ? "pass" : "FAIL");
         }
         printf("\n%d passed, %d failed\n", n - n_failed, n_failed);
         if (a->strict && n_lint)

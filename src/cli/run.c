@@ -1,5 +1,7 @@
 /* stagesim run: the operating point and every analysis the netlist asks for, their files and
- * the report. Parsing the options and the output set are main.c's and common.c's. */
+ * the report. Which analyses there are, their order and their main files are the library's
+ * table (ss_analysis_*); here is what run does around each beyond its rows. Parsing the options
+ * and the output set are main.c's and common.c's. */
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -7,18 +9,33 @@
 #include "cli.h"
 
 #define SS_NAN_CLI ((double)NAN)
+#define RUN_MAX_FILES 64
 
 /* ---- run -------------------------------------------------------------------------------- */
 
-enum {
-    F_OP, F_AC, F_STAGE, F_SUMMARY, F_BODE, F_DC, F_TRAN, F_WAVE, F_LS, F_HARM, F_THD_WAVE,
-    F_NOISE, F_NOISE_SUM, F_NOISE_CON, F_RUN_COUNT
-};
-/* every file run may write: reserved before the netlist is read; those written are the set */
-static const char *const RUN_FILES[F_RUN_COUNT] = {
-    "op.csv",          "ac.csv",          "stage.csv",    "stage_summary.csv", "bode.svg",
-    "dc.csv",          "tran.csv",        "wave.svg",     "large_signal.csv",  "harmonics.csv",
-    "thd_wave.svg",    "noise.csv",       "noise_summary.csv", "noise_contrib.csv"};
+/* One run: its options, context and files, and what an analysis leaves for a later step. */
+typedef struct run_ctx {
+    const cli_args *a;
+    ss_solver *sv;
+    ss_analysis_flags fl;
+    /* every file run may write (each analysis's main file, then its extras' files), reserved
+     * before the netlist is read; those written are the set */
+    const char *names[RUN_MAX_FILES];
+    const char *path[RUN_MAX_FILES]; /* where each is staged */
+    int n_files;
+    ss_op_stats stats;  /* of the operating point, for the report */
+    ss_table *summary;  /* the stage summary, for the report (NULL without a stage) */
+    ss_table *rows;     /* the analysis's rows, while its after step runs, when it keeps them */
+    ss_table *nsum, *ncon; /* the noise summary and contributions */
+} run_ctx;
+
+static const char *run_path(const run_ctx *c, const char *name)
+{
+    for (int i = 0; i < c->n_files; i++)
+        if (strcmp(c->names[i], name) == 0)
+            return c->path[i];
+    return NULL; /* every name asked for is reserved: not reached */
+}
 
 /* A plot that cannot be drawn (a gain that is infinite somewhere, fewer than two points) costs
  * the plot, not the run: warn and go on without the file. */
@@ -40,9 +57,10 @@ static void print_large_signal(const ss_table *ls, double f_hz)
                              {"thd_pct", "THD at the test amplitude (%)"},
                              {"vin_at_thd_v", "input amplitude for the THD target"},
                              {"iin_at_thd_a", "input amplitude for the THD target"}};
+    int col = ss_table_col_index(ls, "value");
     for (size_t k = 0; k < sizeof rows / sizeof rows[0]; k++) {
-        double v = ss_table_lookup(ls, rows[k][0], 0);
-        double e = strcmp(rows[k][0], "thd_pct") == 0 ? ss_table_lookup(ls, "thd_err_pct", 0)
+        double v = ss_table_lookup(ls, rows[k][0], col);
+        double e = strcmp(rows[k][0], "thd_pct") == 0 ? ss_table_lookup(ls, "thd_err_pct", col)
                                                       : SS_NAN_CLI;
         if (!isnan(v) && !isnan(e))
             printf("  %-40s %.5g (estimated error %.2g)\n", rows[k][1], v, e);
@@ -53,114 +71,21 @@ static void print_large_signal(const ss_table *ls, double f_hz)
 
 static void print_noise(const ss_table *nsum, const ss_table *ncon)
 {
+    int col = ss_table_col_index(nsum, "value");
     printf("\nNoise over the .ac band (%.4g Hz .. %.4g Hz)\n",
-           ss_table_lookup(nsum, "f_start_hz", 0), ss_table_lookup(nsum, "f_stop_hz", 0));
-    printf("  output noise    %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "out_noise_rms_v", 0));
-    printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", 0));
-    double nf = ss_table_lookup(nsum, "noise_figure_db", 0);
+           ss_table_lookup(nsum, "f_start_hz", col), ss_table_lookup(nsum, "f_stop_hz", col));
+    printf("  output noise    %.4g uV rms\n",
+           1e6 * ss_table_lookup(nsum, "out_noise_rms_v", col));
+    printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", col));
+    double nf = ss_table_lookup(nsum, "noise_figure_db", col);
     if (!isnan(nf))
         printf("  noise figure    %.3f dB\n", nf);
     printf("  largest contributions:\n");
+    int rms_col = ss_table_col_index(ncon, "out_noise_rms_v");
+    int share_col = ss_table_col_index(ncon, "share_pct");
     for (int i = 0; i < ss_table_rows(ncon) && i < 5; i++)
         printf("    %-28s %10.4g uV rms  %6.2f %%\n", ss_table_row_label(ncon, i),
-               1e6 * ss_table_get(ncon, i, 0), ss_table_get(ncon, i, 1));
-}
-
-/* AC sweep, stage figures and the Bode plot (the stage tables are kept for the report). */
-static int run_ac(ss_solver *sv, const cli_args *a, const char *const *path,
-                  const ss_analysis_flags *fl, ss_table **stage, ss_table **summary,
-                  ss_error *err)
-{
-    if (!fl->ac) {
-        if (fl->stage)
-            fprintf(stderr, "stagesim: warning: a stage is named but the netlist has no .ac "
-                            "sweep; no stage figures computed\n");
-        if (a->plot)
-            fprintf(stderr, "stagesim: warning: --plot needs an .ac sweep and a stage; no plot\n");
-        return 0;
-    }
-    if (ss_ac_sweep_write(sv, path[F_AC], err) != SS_OK)
-        return -1;
-    if (!fl->stage) {
-        if (a->plot)
-            fprintf(stderr, "stagesim: warning: --plot needs an .ac sweep and a stage; no plot\n");
-        return 0;
-    }
-    if (ss_stage_run(sv, stage, summary, err) != SS_OK ||
-        write_table(*stage, path[F_STAGE], err) != 0 ||
-        write_table(*summary, path[F_SUMMARY], err) != 0)
-        return -1;
-    if (a->plot) {
-        ss_error perr = {0};
-        ss_status st = ss_plot_write_bode(sv, *stage, *summary, path[F_BODE], &perr);
-        if (plot_result(st, &perr, "bode.svg") != 0) {
-            *err = perr;
-            return -1;
-        }
-    }
-    return 0;
-}
-
-static int run_tran(ss_solver *sv, const cli_args *a, const char *const *path,
-                    const ss_analysis_flags *fl, ss_error *err)
-{
-    ss_table *tran = NULL;
-    int bad = ss_tran_run(sv, &tran, err) != SS_OK || write_table(tran, path[F_TRAN], err) != 0;
-    if (!bad && a->plot && fl->stage) {
-        ss_error perr = {0};
-        ss_status st = ss_plot_write_wave(sv, tran, NULL, NULL, path[F_WAVE], &perr);
-        if (plot_result(st, &perr, "wave.svg") != 0) {
-            *err = perr;
-            bad = 1;
-        }
-    }
-    ss_table_destroy(&tran);
-    return bad ? -1 : 0;
-}
-
-static int run_large_signal(ss_solver *sv, const cli_args *a, const char *const *path,
-                            ss_error *err)
-{
-    /* the large-signal options were applied with the stage (load_circuit) */
-    ss_table *ls = NULL, *harm = NULL, *wave = NULL;
-    int bad = ss_stage_large_signal(sv, &ls, err) != SS_OK ||
-              write_table(ls, path[F_LS], err) != 0;
-    double f_hz, amp, target;
-    ss_solver_large_signal(sv, &f_hz, &amp, &target);
-    double thd = SS_NAN_CLI;
-    if (!bad && amp > 0.0) {
-        bad = ss_stage_thd(sv, amp, f_hz, &thd, &harm, &wave, err) != SS_OK ||
-              write_table(harm, path[F_HARM], err) != 0;
-        if (!bad && a->plot) {
-            ss_error perr = {0};
-            ss_status st = ss_plot_write_wave(sv, wave, NULL, NULL, path[F_THD_WAVE], &perr);
-            if (plot_result(st, &perr, "thd_wave.svg") != 0) {
-                *err = perr;
-                bad = 1;
-            }
-        }
-    }
-    if (!bad && !a->quiet)
-        print_large_signal(ls, f_hz);
-    ss_table_destroy(&ls);
-    ss_table_destroy(&harm);
-    ss_table_destroy(&wave);
-    return bad ? -1 : 0;
-}
-
-static int run_noise(ss_solver *sv, const cli_args *a, const char *const *path, ss_error *err)
-{
-    ss_table *noise = NULL, *nsum = NULL, *ncon = NULL;
-    int bad = ss_noise_run(sv, &noise, &nsum, &ncon, err) != SS_OK ||
-              write_table(noise, path[F_NOISE], err) != 0 ||
-              write_table(nsum, path[F_NOISE_SUM], err) != 0 ||
-              write_table(ncon, path[F_NOISE_CON], err) != 0;
-    if (!bad && !a->quiet)
-        print_noise(nsum, ncon);
-    ss_table_destroy(&noise);
-    ss_table_destroy(&nsum);
-    ss_table_destroy(&ncon);
-    return bad ? -1 : 0;
+               1e6 * ss_table_get(ncon, i, rms_col), ss_table_get(ncon, i, share_col));
 }
 
 /* run does not judge the netlist's .expect lines (check does), but a limit that cannot be
@@ -178,67 +103,247 @@ static ss_status check_expect_lines(const ss_circuit *ckt, const ss_solver *sv,
     return st;
 }
 
+/* ---- what run does around each analysis -------------------------------------------------- */
+
+static ss_status emit_op(run_ctx *c, ss_sink *sink, ss_error *err)
+{
+    return ss_op_emit(c->sv, sink, &c->stats, err);
+}
+
+static int after_op(run_ctx *c, int ran, ss_error *err)
+{
+    return ran && ss_lint_run(c->sv, NULL, err) != SS_OK ? -1 : 0;
+}
+
+static int after_ac(run_ctx *c, int ran, ss_error *err)
+{
+    (void)err;
+    if (!ran && c->fl.stage)
+        fprintf(stderr, "stagesim: warning: a stage is named but the netlist has no .ac "
+                        "sweep; no stage figures computed\n");
+    return 0;
+}
+
+static int keep_stage(const run_ctx *c) { return c->a->plot; }
+
+static ss_status emit_stage(run_ctx *c, ss_sink *sink, ss_error *err)
+{
+    return ss_stage_emit(c->sv, sink, &c->summary, err);
+}
+
+/* The report closes the analyses at the operating point: it shows the stage summary (when
+ * there is one) and every warning so far, before .dc moves the operating point. */
+static void print_report(const run_ctx *c)
+{
+    if (c->a->quiet)
+        return;
+    ss_report_write(c->sv, c->summary, stdout);
+    printf("operating point: %d Newton iterations", c->stats.newton_iterations);
+    if (c->stats.gmin_steps)
+        printf(", %d gmin steps", c->stats.gmin_steps);
+    if (c->stats.source_steps)
+        printf(", %d source steps", c->stats.source_steps);
+    printf("\n");
+}
+
+/* stage_summary.csv and the Bode plot, then the report. */
+static int after_stage(run_ctx *c, int ran, ss_error *err)
+{
+    if (!ran && c->a->plot)
+        fprintf(stderr, "stagesim: warning: --plot needs an .ac sweep and a stage; no plot\n");
+    if (ran && write_table(c->summary, run_path(c, "stage_summary.csv"), err) != 0)
+        return -1;
+    if (ran && c->a->plot) {
+        ss_error perr = {0};
+        ss_status st = ss_plot_write_bode(c->sv, c->rows, c->summary,
+                                          run_path(c, "bode.svg"), &perr);
+        if (plot_result(st, &perr, "bode.svg") != 0) {
+            *err = perr;
+            return -1;
+        }
+    }
+    print_report(c);
+    return 0;
+}
+
+static int keep_tran(const run_ctx *c) { return c->a->plot && c->fl.stage; }
+
+static int after_tran(run_ctx *c, int ran, ss_error *err)
+{
+    if (!ran || !keep_tran(c))
+        return 0;
+    ss_error perr = {0};
+    ss_status st = ss_plot_write_wave(c->sv, c->rows, NULL, NULL, run_path(c, "wave.svg"), &perr);
+    if (plot_result(st, &perr, "wave.svg") != 0) {
+        *err = perr;
+        return -1;
+    }
+    return 0;
+}
+
+static int keep_always(const run_ctx *c)
+{
+    (void)c;
+    return 1;
+}
+
+/* The THD at the test amplitude (harmonics.csv, its waveform plot), then the figures. The
+ * large-signal options were applied with the stage (load_circuit). */
+static int after_large_signal(run_ctx *c, int ran, ss_error *err)
+{
+    if (!ran) {
+        if (c->fl.large_signal)
+            fprintf(stderr, "stagesim: warning: .large_signal needs a stage; no large-signal "
+                            "figures\n");
+        return 0;
+    }
+    ss_table *harm = NULL, *wave = NULL;
+    double f_hz, amp, target;
+    ss_solver_large_signal(c->sv, &f_hz, &amp, &target);
+    double thd = SS_NAN_CLI;
+    int bad = 0;
+    if (amp > 0.0) {
+        bad = ss_stage_thd(c->sv, amp, f_hz, &thd, &harm, &wave, err) != SS_OK ||
+              write_table(harm, run_path(c, "harmonics.csv"), err) != 0;
+        if (!bad && c->a->plot) {
+            ss_error perr = {0};
+            ss_status st =
+                ss_plot_write_wave(c->sv, wave, NULL, NULL, run_path(c, "thd_wave.svg"), &perr);
+            if (plot_result(st, &perr, "thd_wave.svg") != 0) {
+                *err = perr;
+                bad = 1;
+            }
+        }
+    }
+    if (!bad && !c->a->quiet)
+        print_large_signal(c->rows, f_hz);
+    ss_table_destroy(&harm);
+    ss_table_destroy(&wave);
+    return bad ? -1 : 0;
+}
+
+static ss_status emit_noise(run_ctx *c, ss_sink *sink, ss_error *err)
+{
+    return ss_noise_emit(c->sv, sink, &c->nsum, &c->ncon, err);
+}
+
+static int after_noise(run_ctx *c, int ran, ss_error *err)
+{
+    if (!ran)
+        return 0;
+    if (write_table(c->nsum, run_path(c, "noise_summary.csv"), err) != 0 ||
+        write_table(c->ncon, run_path(c, "noise_contrib.csv"), err) != 0)
+        return -1;
+    if (!c->a->quiet)
+        print_noise(c->nsum, c->ncon);
+    return 0;
+}
+
+/* What is not a row stream, per analysis name: its other files, whether its after step needs
+ * its rows, its own emit when it gives more than rows (the op statistics, the summaries), and
+ * the step after it -- or in its place, with ran 0, when it is not wanted. An analysis without
+ * an entry just has its rows written. */
+typedef struct run_extra {
+    const char *analysis;
+    const char *files[3]; /* NULL-terminated */
+    int (*keep_rows)(const run_ctx *c);
+    ss_status (*emit)(run_ctx *c, ss_sink *sink, ss_error *err);
+    int (*after)(run_ctx *c, int ran, ss_error *err); /* 0 ok, -1 with *err filled */
+} run_extra;
+
+static const run_extra EXTRAS[] = {
+    {"op", {NULL}, NULL, emit_op, after_op},
+    {"ac", {NULL}, NULL, NULL, after_ac},
+    {"stage", {"stage_summary.csv", "bode.svg", NULL}, keep_stage, emit_stage, after_stage},
+    {"tran", {"wave.svg", NULL}, keep_tran, NULL, after_tran},
+    {"large_signal", {"harmonics.csv", "thd_wave.svg", NULL}, keep_always, NULL,
+     after_large_signal},
+    {"noise", {"noise_summary.csv", "noise_contrib.csv", NULL}, NULL, emit_noise, after_noise},
+};
+
+static const run_extra *extra_of(const char *analysis)
+{
+    for (size_t k = 0; k < sizeof EXTRAS / sizeof EXTRAS[0]; k++)
+        if (strcmp(EXTRAS[k].analysis, analysis) == 0)
+            return &EXTRAS[k];
+    return NULL;
+}
+
+/* Every file run may write, in the analyses' order: each main file, then its extras'. */
+static void run_files(run_ctx *c)
+{
+    for (int i = 0; i < ss_analysis_count() && c->n_files < RUN_MAX_FILES; i++) {
+        c->names[c->n_files++] = ss_analysis_output(i);
+        const run_extra *ex = extra_of(ss_analysis_name(i));
+        for (int k = 0; ex && ex->files[k] && c->n_files < RUN_MAX_FILES; k++)
+            c->names[c->n_files++] = ex->files[k];
+    }
+}
+
+/* Analysis i: its rows into its CSV file (and a table beside it when its after step reads
+ * them), then its after step; only the after step when it is not wanted. */
+static int run_analysis(run_ctx *c, int i, ss_error *err)
+{
+    const run_extra *ex = extra_of(ss_analysis_name(i));
+    if (!ss_analysis_wanted(c->sv, i))
+        return ex && ex->after ? ex->after(c, 0, err) : 0;
+    ss_sink *csv = NULL, *kept = NULL, *tee = NULL;
+    ss_status st = ss_sink_csv(run_path(c, ss_analysis_output(i)), &csv, err);
+    if (st == SS_OK && ex && ex->keep_rows && ex->keep_rows(c)) {
+        st = ss_sink_table(&kept, err);
+        if (st == SS_OK)
+            st = ss_sink_tee(csv, kept, &tee, err);
+    }
+    ss_sink *sink = tee ? tee : csv;
+    if (st == SS_OK)
+        st = ex && ex->emit ? ex->emit(c, sink, err) : ss_analysis_emit(c->sv, i, sink, err);
+    if (st == SS_OK && kept)
+        c->rows = ss_sink_take_table(kept);
+    ss_sink_destroy(&tee);
+    ss_sink_destroy(&kept);
+    ss_sink_destroy(&csv);
+    int bad = st != SS_OK || (ex && ex->after && ex->after(c, 1, err) != 0);
+    ss_table_destroy(&c->rows);
+    return bad ? -1 : 0;
+}
+
 int cmd_run(const cli_args *a)
 {
     ss_outset *set = NULL;
-    const char *path[F_RUN_COUNT];
+    run_ctx c;
+    memset(&c, 0, sizeof c);
+    c.a = a;
+    run_files(&c);
     int rc = out_open(a, &set);
     if (rc == EXIT_OK)
-        rc = out_reserve(set, a->out_dir, RUN_FILES, F_RUN_COUNT, path);
+        rc = out_reserve(set, a->out_dir, c.names, c.n_files, c.path);
     if (rc != EXIT_OK) {
         ss_outset_destroy(&set);
         return rc;
     }
     ss_error err = {0};
     ss_circuit *ckt = NULL;
-    ss_solver *sv = NULL;
-    rc = load_circuit(a, &ckt, &sv);
+    rc = load_circuit(a, &ckt, &c.sv);
     if (rc != EXIT_OK) {
         ss_outset_destroy(&set);
         return rc;
     }
-    ss_table *op = NULL, *dc = NULL, *stage = NULL, *summary = NULL;
-    ss_analysis_flags fl;
-    ss_solver_analyses(sv, &fl);
-    ss_op_stats stats;
-    int bad = check_expect_lines(ckt, sv, &err) != SS_OK ||
-              ss_outset_note_circuit(set, ckt, &err) != SS_OK ||
-              ss_op_solve(sv, &op, &stats, &err) != SS_OK ||
-              write_table(op, path[F_OP], &err) != 0 || ss_lint_run(sv, NULL, &err) != SS_OK ||
-              run_ac(sv, a, path, &fl, &stage, &summary, &err) != 0;
-    if (!bad && !a->quiet) {
-        ss_report_write(sv, summary, stdout);
-        printf("operating point: %d Newton iterations", stats.newton_iterations);
-        if (stats.gmin_steps)
-            printf(", %d gmin steps", stats.gmin_steps);
-        if (stats.source_steps)
-            printf(", %d source steps", stats.source_steps);
-        printf("\n");
-    }
-    /* .dc last of the DC analyses: it moves the circuit's operating point */
-    if (!bad && fl.dc)
-        bad = ss_dc_sweep_run(sv, &dc, &err) != SS_OK || write_table(dc, path[F_DC], &err) != 0;
-    if (!bad && fl.tran)
-        bad = run_tran(sv, a, path, &fl, &err) != 0;
-    if (!bad && fl.large_signal && fl.stage)
-        bad = run_large_signal(sv, a, path, &err) != 0;
-    else if (!bad && fl.large_signal)
-        fprintf(stderr, "stagesim: warning: .large_signal needs a stage; no large-signal "
-                        "figures\n");
-    if (!bad && fl.noise)
-        bad = run_noise(sv, a, path, &err) != 0;
+    ss_solver_analyses(c.sv, &c.fl);
+    int bad = check_expect_lines(ckt, c.sv, &err) != SS_OK ||
+              ss_outset_note_circuit(set, ckt, &err) != SS_OK;
+    for (int i = 0; !bad && i < ss_analysis_count(); i++)
+        bad = run_analysis(&c, i, &err) != 0;
     if (bad) {
         rc = fail(&err); /* nothing of this run becomes visible */
     } else {
-        for (int i = 0; ss_solver_warning(sv, i); i++)
-            fprintf(stderr, "stagesim: warning: %s\n", ss_solver_warning(sv, i));
+        for (int i = 0; ss_solver_warning(c.sv, i); i++)
+            fprintf(stderr, "stagesim: warning: %s\n", ss_solver_warning(c.sv, i));
         rc = out_commit(set, EXIT_OK);
     }
-    ss_table_destroy(&op);
-    ss_table_destroy(&dc);
-    ss_table_destroy(&stage);
-    ss_table_destroy(&summary);
-    ss_solver_destroy(&sv);
+    ss_table_destroy(&c.summary);
+    ss_table_destroy(&c.nsum);
+    ss_table_destroy(&c.ncon);
+    ss_solver_destroy(&c.sv);
     ss_circuit_destroy(&ckt);
     ss_outset_destroy(&set);
     return rc;

@@ -68,7 +68,8 @@ bad:
 
 static int print_yield(const ss_table *summary, double min_yield, int quiet)
 {
-    double yield = ss_table_lookup(summary, "all_limits", 5);
+    double yield =
+        ss_table_lookup(summary, "all_limits", ss_table_col_index(summary, "pass_fraction"));
     if (isnan(yield))
         return EXIT_OK;
     if (!quiet)
@@ -85,14 +86,17 @@ static void print_summary(const ss_table *summary)
 {
     printf("  %-24s %8s %13s %13s %13s %13s %8s\n", "figure", "n", "min", "max", "mean", "std",
            "pass");
+    static const char *const stats[] = {"min", "max", "mean", "std"};
+    int n_col = ss_table_col_index(summary, "n");
+    int pf_col = ss_table_col_index(summary, "pass_fraction");
     for (int i = 0; i < ss_table_rows(summary); i++) {
         const char *name = ss_table_row_label(summary, i);
         if (strcmp(name, "all_limits") == 0)
             continue;
-        printf("  %-24s %8.0f", name, ss_table_get(summary, i, 0));
-        for (int j = 1; j <= 4; j++)
-            print_bound(ss_table_get(summary, i, j));
-        double pf = ss_table_get(summary, i, 5);
+        printf("  %-24s %8.0f", name, ss_table_get(summary, i, n_col));
+        for (int j = 0; j < 4; j++)
+            print_bound(ss_table_get(summary, i, ss_table_col_index(summary, stats[j])));
+        double pf = ss_table_get(summary, i, pf_col);
         if (isnan(pf))
             printf(" %8s\n", "-");
         else
@@ -139,10 +143,7 @@ int cmd_study(const cli_args *a, int spread)
         goto done;
     }
     int n_bad = 0, n = ss_table_rows(pts);
-    int status_col = -1;
-    for (int j = 0; j < ss_table_cols(pts); j++)
-        if (strcmp(ss_table_col_name(pts, j), "status") == 0)
-            status_col = j;
+    int status_col = ss_table_col_index(pts, "status");
     for (int i = 0; i < n; i++)
         n_bad += ss_table_get(pts, i, status_col) != 0.0;
     if (!a->quiet) {
@@ -227,12 +228,15 @@ int cmd_sensitivity(const cli_args *a)
         printf("  %-36s %12s %12s  %s\n", "transistor and corner", "Ic", "Vce", "region");
     }
     int n_out = 0;
+    int ic_col = ss_table_col_index(corners, "ic_a");
+    int vce_col = ss_table_col_index(corners, "vce_v");
+    int fa_col = ss_table_col_index(corners, "forward_active");
     for (int i = 0; i < ss_table_rows(corners); i++) {
-        double fa = ss_table_get(corners, i, 4);
+        double fa = ss_table_get(corners, i, fa_col);
         n_out += fa != 1.0;
         if (!a->quiet)
             printf("  %-36s %12.4g %12.4g  %s\n", ss_table_row_label(corners, i),
-                   ss_table_get(corners, i, 2), ss_table_get(corners, i, 3),
+                   ss_table_get(corners, i, ic_col), ss_table_get(corners, i, vce_col),
                    isnan(fa) ? "NO OPERATING POINT" : fa == 1.0 ? "forward active"
                                                                 : "LEAVES FORWARD ACTIVE");
     }
@@ -326,17 +330,25 @@ int cmd_snap(const cli_args *a)
     if (!a->quiet) {
         printf("resistors snapped to E%d\n  %-16s %13s %13s %9s\n", a->series, "element",
                "value", "E value", "change");
+        int v_col = ss_table_col_index(vals, "value");
+        int e_col = ss_table_col_index(vals, "preferred");
+        int c_col = ss_table_col_index(vals, "change_pct");
         for (int i = 0; i < ss_table_rows(vals); i++)
             printf("  %-16s %13.6g %13.6g %8.2f%%\n", ss_table_row_label(vals, i),
-                   ss_table_get(vals, i, 0), ss_table_get(vals, i, 1), ss_table_get(vals, i, 2));
+                   ss_table_get(vals, i, v_col), ss_table_get(vals, i, e_col),
+                   ss_table_get(vals, i, c_col));
         printf("\nfigures that move\n  %-24s %13s %13s %13s %9s\n", "figure", "computed",
                "preferred", "shift", "shift");
+        int fc_col = ss_table_col_index(figs, "computed");
+        int fp_col = ss_table_col_index(figs, "preferred");
+        int sh_col = ss_table_col_index(figs, "shift");
+        int pct_col = ss_table_col_index(figs, "shift_pct");
         for (int i = 0; i < ss_table_rows(figs); i++) {
-            double shift = ss_table_get(figs, i, 2), pct = ss_table_get(figs, i, 3);
+            double shift = ss_table_get(figs, i, sh_col), pct = ss_table_get(figs, i, pct_col);
             if (shift == 0.0 || isnan(shift))
                 continue;
             printf("  %-24s %13.6g %13.6g %13.4g", ss_table_row_label(figs, i),
-                   ss_table_get(figs, i, 0), ss_table_get(figs, i, 1), shift);
+                   ss_table_get(figs, i, fc_col), ss_table_get(figs, i, fp_col), shift);
             if (isnan(pct))
                 printf(" %9s\n", "-");
             else

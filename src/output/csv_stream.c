@@ -1,7 +1,8 @@
 /* The CSV sink: rows written to a file as an analysis produces them, atomically (a failed run
  * leaves the old file or none). Rows go from the solving thread to a writing thread through
  * CSV_RING slots, so the text of one row is made while the next is solved. Below
- * CSV_THREAD_MIN values in all the thread is not worth its start and one thread does both. */
+ * CSV_THREAD_MIN values in all the thread is not worth its start and one thread does both.
+ * The bytes are those ss_table_write_csv writes of the same rows. */
 #include <pthread.h>
 #include <string.h>
 
@@ -80,30 +81,40 @@ static void stop_writer(csv_sink *s)
     s->threaded = 0;
 }
 
-static ss_status cv_begin(ss_sink *b, int n_cols, const char *const *names, long n_rows,
-                          ss_error *err)
+/* A labelled table (op.csv, a metric,value summary) is written by this thread: it is short,
+ * and the ring carries numbers only. */
+static ss_status cv_begin(ss_sink *b, const char *label_col, int n_cols,
+                          const char *const *names, long n_rows, ss_error *err)
 {
     csv_sink *s = (csv_sink *)b;
     ss_status st = csv_open(&s->o, s->path, err);
     if (st != SS_OK)
         return st;
     s->open = 1;
+    if (label_col) {
+        csv_field(&s->o, label_col);
+        csv_char(&s->o, ',');
+    }
     for (int c = 0; c < n_cols; c++) {
         if (c > 0)
             csv_char(&s->o, ',');
         csv_field(&s->o, names[c]);
     }
     csv_char(&s->o, '\n');
-    if ((double)n_rows * n_cols >= CSV_THREAD_MIN)
+    if (!label_col && (double)n_rows * n_cols >= CSV_THREAD_MIN)
         return start_writer(s, err);
     return SS_OK;
 }
 
-static ss_status cv_row(ss_sink *b, const double *v, ss_error *err)
+static ss_status cv_row(ss_sink *b, const char *label, const double *v, ss_error *err)
 {
     (void)err;
     csv_sink *s = (csv_sink *)b;
     if (!s->threaded) {
+        if (b->label_col) {
+            csv_field(&s->o, label ? label : "");
+            csv_char(&s->o, ',');
+        }
         write_row(&s->o, v, b->n_cols);
         return SS_OK;
     }
@@ -153,7 +164,7 @@ ss_status ss_sink_csv(const char *path, ss_sink **out, ss_error *err)
         return path ? err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory")
                     : err_set(err, SS_ERR_INPUT, NULL, 0, "ss_sink_csv: no path");
     }
-    s->base = (ss_sink){cv_begin, cv_row, cv_end, cv_destroy, 0};
+    s->base = (ss_sink){cv_begin, cv_row, cv_end, cv_destroy, 0, NULL};
     s->path = p;
     *out = &s->base;
     return SS_OK;

@@ -281,18 +281,3 @@ ss_status report_singular(ss_solver *sv, int bad_unknown, const char *during, ss
                    "loop of voltage sources or a controlled source that cancels itself",
                    what, during);
 }
-
-int analysis_node_cols(ss_table *t, const ss_solver *sv, int first_col,
-                       const char *const *fmts, int n_fmts)
-{
-    int col = first_col, bad = 0;
-    for (int j = 0; j < solver_n_out_nodes(sv); j++) {
-        int node = solver_out_node(sv, j);
-        for (int k = 0; k < n_fmts; k++) {
-            char name[1200];
-            snprintf(name, sizeof name, fmts[k], sv->node_name[node]);
-            bad |= table_set_col(t, col++, name);
-        }
-    }
-    return bad ? -1 : 0;
-}

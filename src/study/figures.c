@@ -7,6 +7,9 @@
 
 #include "study/study.h"
 
+/* The value column of a labelled result table (op.csv, the summaries, the figures). */
+static int value_col(const ss_table *t) { return ss_table_col_index(t, "value"); }
+
 static int add_row(ss_table *t, const char *label, double v)
 {
     double *row = table_add_row(t, label);
@@ -20,9 +23,10 @@ double figures_value(const ss_table *figs, int row_hint, const char *label)
 {
     /* the same netlist gives the same figures in the same order at every point, so the row
      * at the hint is almost always the one: no search over every figure of a large circuit */
+    int col = value_col(figs);
     if (row_hint >= 0 && row_hint < figs->n_rows && strcmp(figs->row_labels[row_hint], label) == 0)
-        return figs->data[row_hint];
-    return ss_table_lookup(figs, label, 0);
+        return ss_table_get(figs, row_hint, col);
+    return ss_table_lookup(figs, label, col);
 }
 
 /* The figures beyond op.csv, by name, in the order ss_figures_compute lists them; the unit
@@ -187,7 +191,7 @@ ss_status ss_figures_compute(ss_solver *sv, const ss_limits *limits, ss_table **
     ss_table *t = table_create(1, "metric");
     int bad = !t || table_set_col(t, 0, "value") != 0;
     for (int i = 0; !bad && i < op->n_rows; i++)
-        bad |= add_row(t, op->row_labels[i], op->data[i]) != 0;
+        bad |= add_row(t, op->row_labels[i], ss_table_get(op, i, value_col(op))) != 0;
     ss_table_destroy(&op);
     if (!bad && sv->ckt->ac.want && sv->stage.in) {
         st = ss_stage_run(sv, &stage, &summary, err);
@@ -196,7 +200,8 @@ ss_status ss_figures_compute(ss_solver *sv, const ss_limits *limits, ss_table **
             return st;
         }
         for (int i = 0; !bad && i < summary->n_rows; i++)
-            bad |= add_row(t, summary->row_labels[i], summary->data[i]) != 0;
+            bad |= add_row(t, summary->row_labels[i],
+                           ss_table_get(summary, i, value_col(summary))) != 0;
         ss_table_destroy(&stage);
         ss_table_destroy(&summary);
     }
@@ -208,7 +213,8 @@ ss_status ss_figures_compute(ss_solver *sv, const ss_limits *limits, ss_table **
             return st;
         }
         for (size_t k = 0; !bad && k < N_OF(NOISE_FIGURES); k++)
-            bad |= add_row(t, NOISE_FIGURES[k], ss_table_lookup(nsum, NOISE_FIGURES[k], 0)) != 0;
+            bad |= add_row(t, NOISE_FIGURES[k],
+                           ss_table_lookup(nsum, NOISE_FIGURES[k], value_col(nsum))) != 0;
         ss_table_destroy(&nsum);
     }
     int want_ls = limits_want_large_signal(limits);
@@ -220,7 +226,7 @@ ss_status ss_figures_compute(ss_solver *sv, const ss_limits *limits, ss_table **
             return st;
         }
         for (int i = 0; !bad && i < ls->n_rows; i++)
-            bad |= add_row(t, ls->row_labels[i], ls->data[i]) != 0;
+            bad |= add_row(t, ls->row_labels[i], ss_table_get(ls, i, value_col(ls))) != 0;
         ss_table_destroy(&ls);
     }
     for (int i = 0; !bad && limits && i < limits->n; i++) {
@@ -270,7 +276,7 @@ ss_status ss_check_evaluate(const ss_limits *l, const ss_table *figures, ss_tabl
     int failed = 0;
     for (int i = 0; i < l->n; i++) {
         const limit *lim = &l->items[i];
-        double v = ss_table_lookup(figures, lim->quantity, 0);
+        double v = ss_table_lookup(figures, lim->quantity, value_col(figures));
         int found = 0;
         for (int r = 0; r < figures->n_rows && !found; r++)
             found = strcmp(figures->row_labels[r], lim->quantity) == 0;

@@ -48,7 +48,7 @@ ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
         if (st == SS_OK)
             st = study_solve_point(s, sv, vals, s->n_tols, &fm, err);
         for (int f = 0; st == SS_OK && f < nom->n_rows; f++) {
-            double f0 = nom->data[f];
+            double f0 = figures_value(nom, f, nom->row_labels[f]);
             double dp = figures_value(fp, f, nom->row_labels[f]);
             double dm = figures_value(fm, f, nom->row_labels[f]);
             const char *name = nom->row_labels[f];

@@ -72,7 +72,8 @@ ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **o
             if (table_set_col(figs, j, cols[j]) != 0)
                 st = SS_ERR_NOMEM;
         for (int f = 0; figs && st == SS_OK && f < nfig->n_rows; f++) {
-            double a = nfig->data[f], b = figures_value(sfig, f, nfig->row_labels[f]);
+            double a = figures_value(nfig, f, nfig->row_labels[f]);
+            double b = figures_value(sfig, f, nfig->row_labels[f]);
             double *row = table_add_row(figs, nfig->row_labels[f]);
             if (!row) {
                 st = SS_ERR_NOMEM;

@@ -8,10 +8,8 @@
 /* The first figure column of a points table: right after `status`. */
 int study_first_figure_col(const ss_table *pts)
 {
-    for (int j = 0; j < pts->n_cols; j++)
-        if (strcmp(pts->col_names[j], "status") == 0)
-            return j + 1;
-    return -1;
+    int status_col = ss_table_col_index(pts, "status");
+    return status_col < 0 ? -1 : status_col + 1;
 }
 
 ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table **out_summary,

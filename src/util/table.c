@@ -72,6 +72,14 @@ const char *ss_table_col_name(const ss_table *t, int col)
     return (t && col >= 0 && col < t->n_cols) ? t->col_names[col] : NULL;
 }
 
+int ss_table_col_index(const ss_table *t, const char *name)
+{
+    for (int j = 0; t && name && j < t->n_cols; j++)
+        if (strcmp(t->col_names[j], name) == 0)
+            return j;
+    return -1;
+}
+
 const char *ss_table_row_label(const ss_table *t, int row)
 {
     return (t && t->has_labels && row >= 0 && row < t->n_rows) ? t->row_labels[row] : NULL;
