@@ -127,7 +127,7 @@ int main(int argc, char **argv)
 
     /* 4. the AC sweep into a sink of our own */
     peak pk = {0, 0, 0.0};
-    ss_sink_callbacks cb = {peak_begin, peak_row, NULL};
+    ss_sink_callbacks cb = {peak_begin, peak_row, NULL, NULL};
     ss_sink *sink = NULL;
     st = ss_sink_create(&cb, &pk, &sink, &err);
     if (st == SS_OK)
