@@ -55,7 +55,8 @@ ss_status newton_solve(ss_solver *sv, double *x, const newton_params *np, newton
                            analysis_vt(sv),
                            it == 0 ? np->first_mode : LOAD_NORMAL,
                            0,
-                           sv->elem};
+                           sv->elem,
+                           NULL};
         load_all_dc(sv, &lc);
         if (np->gmin_extra_s > 0.0)
             for (int u = 0; u < n_node_unknowns; u++)
@@ -117,7 +118,7 @@ double op_kcl_residual(ss_solver *sv, const double *x, int *worst)
     double *r = sv->work_x;
     memset(r, 0, (size_t)n * sizeof *r);
     dev_load_ctx lc = {NULL, NULL, x, sv->ckt->opt.gmin, 1.0, analysis_vt(sv), LOAD_FROM_X, 0,
-                       sv->elem};
+                       sv->elem, NULL};
     for (int i = 0; i < sv->n_elem; i++) {
         const element *e = &sv->elem[i];
         if (e->ops->kcl)
