@@ -57,10 +57,11 @@ ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
             src[0]->value = sv->ckt->dc.sweep[0].start + ji * sv->ckt->dc.sweep[0].step;
             int need_full = (ji == 0 && jo == 0) || !x;
             if (!need_full) {
-                newton_params np = {0.0, 1.0, LOAD_FROM_X, sv->ckt->opt.newton_iters, NULL, NULL, 0.0};
+                newton_cfg cfg = newton_cfg_op(sv, LOAD_FROM_X, NULL);
                 newton_result r;
-                if (newton_solve(sv, x, &np, &r) != SS_OK)
+                if (newton_solve(sv, x, &cfg, &r) != SS_OK)
                     need_full = 1;
+                sv->last_rcond = r.rcond;
             }
             if (need_full) {
                 ss_error e2 = {0};
