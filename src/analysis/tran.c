@@ -236,84 +236,80 @@ static double rounding_bound(const tran_ws *w, const double *x, double rcond)
     return rcond > 0.0 ? DBL_EPSILON / rcond * big : HUGE_VAL;
 }
 
-/* Newton at one time point: every device's DC companion, then its charges' companion with
- * the step's coefficient a0 and history terms. x: the predictor in, the solution out.
+/* Newton at one time point (the loop of solver/newton.c): every device's DC companion, then its
+ * charges' companion with the step's coefficient a0 and history terms (tran_load_charges).
  * Converged when an update is within the tolerances, nothing was limited, and at least two
  * iterations were made (the first one is measured from the predictor) -- or, when the
  * tolerances lie below what double precision resolves in this step's system, at the rounding
- * floor: the updates have stopped shrinking (by less than TRAN_STALL_SHRINK from one
- * iteration to the next) and every node voltage's is within its tolerance plus the solve's
- * rounding bound (branch currents are not judged there: at given node voltages they follow
- * from them). w->rcond gets the last solve's pivot ratio. */
+ * floor (tran_at_floor). No polishing. */
+typedef struct tran_newton_ctx {
+    ss_solver *sv;
+    tran_ws *w;
+    double a0;             /* 1/s: the new charge's weight in i = a0 q + hist */
+    double vt_v;           /* thermal voltage */
+    double tol_rel, tol_v; /* Newton's tolerances */
+} tran_newton_ctx;
+
+/* newton_cfg.load_extra: every charge's companion at x, its charges into w->q_new. */
+static void tran_load_charges(void *vctx, double *G, double *rhs, const double *x)
+{
+    const tran_newton_ctx *c = vctx;
+    ss_solver *sv = c->sv;
+    tran_ws *w = c->w;
+    dev_tran_ctx tc = {.G = G, .rhs = rhs, .x = x, .vt_v = c->vt_v, .a0 = c->a0};
+    for (int i = 0; i < sv->n_elem; i++) {
+        if (w->q_off[i] < 0)
+            continue;
+        tc.q = w->q_new + w->q_off[i];
+        tc.hist = w->hist + w->q_off[i];
+        sv->elem[i].ops->load_tran(&sv->elem[i], &tc);
+    }
+}
+
+/* newton_cfg.at_floor: from the third iteration on, the updates have stopped shrinking (by less
+ * than TRAN_STALL_SHRINK from one iteration to the next) and every node voltage's is within its
+ * tolerance plus the solve's rounding bound (branch currents are not judged there: at given
+ * node voltages they follow from them). */
+static int tran_at_floor(void *vctx, int it, double worst, double worst_prev,
+                         const double *x_new, const double *x_old, double rcond)
+{
+    const tran_newton_ctx *c = vctx;
+    if (!(it >= 2 && worst > TRAN_STALL_SHRINK * worst_prev))
+        return 0;
+    double bound = rounding_bound(c->w, x_new, rcond);
+    int at_floor = 1;
+    for (int u = 0; u < c->w->n_volt && at_floor; u++)
+        at_floor = fabs(x_new[u] - x_old[u]) <=
+                   c->tol_rel * fmax(fabs(x_new[u]), fabs(x_old[u])) + c->tol_v + bound;
+    return at_floor;
+}
+
+/* Newton at one time point. x: the predictor in, the solution out; *iters counts the
+ * iterations, *worst_unknown gets the unknown judged worst (the singular pivot when a solve
+ * failed), w->rcond the last solve's pivot ratio. */
 static ss_status step_newton(ss_solver *sv, tran_ws *w, double a0, double tol_rel, double tol_v,
                              double *x, int *iters, int *worst_unknown)
 {
-    mna *m = sv->mna;
-    int n = w->n, nnz = mna_nnz(m);
-    double *G = mna_values(m);
-    double *rhs = sv->work_rhs;
-    const ss_options_set *o = &sv->ckt->opt;
-    double vt = analysis_vt(sv);
-    double worst_prev = HUGE_VAL;
-    *worst_unknown = -1;
-    for (int it = 0; it < TRAN_NEWTON_MAX; it++) {
-        memset(G, 0, (size_t)nnz * sizeof *G);
-        memset(rhs, 0, (size_t)n * sizeof *rhs);
-        dev_load_ctx lc = {.G = G,
-                           .rhs = rhs,
-                           .x = x,
-                           .gmin_s = o->gmin,
-                           .src_scale = 1.0,
-                           .vt_v = vt,
-                           .mode = LOAD_NORMAL,
-                           .ckt_elem = sv->elem};
-        for (int i = 0; i < sv->n_elem; i++)
-            sv->elem[i].ops->load_dc(&sv->elem[i], &lc);
-        dev_tran_ctx tc = {.G = G, .rhs = rhs, .x = x, .vt_v = vt, .a0 = a0};
-        for (int i = 0; i < sv->n_elem; i++) {
-            if (w->q_off[i] < 0)
-                continue;
-            tc.q = w->q_new + w->q_off[i];
-            tc.hist = w->hist + w->q_off[i];
-            sv->elem[i].ops->load_tran(&sv->elem[i], &tc);
-        }
-        int bad;
-        double rcond = 0.0;
-        ss_status st = mna_solve_real(m, rhs, &bad, &rcond);
-        (*iters)++;
-        w->rcond = rcond;
-        if (st != SS_OK) {
-            *worst_unknown = bad;
-            return st;
-        }
-        double worst = 0.0;
-        for (int u = 0; u < n; u++) {
-            double xn = rhs[u], xo = x[u];
-            if (!isfinite(xn)) {
-                *worst_unknown = u;
-                return SS_ERR_NO_CONVERGENCE;
-            }
-            double tol = tol_rel * fmax(fabs(xn), fabs(xo)) + (u < w->n_volt ? tol_v : o->tol_i);
-            double d = fabs(xn - xo);
-            if (d > worst * tol) {
-                worst = d / tol;
-                *worst_unknown = u;
-            }
-        }
-        int at_floor = 0;
-        if (worst > 1.0 && it >= 2 && worst > TRAN_STALL_SHRINK * worst_prev) {
-            double bound = rounding_bound(w, rhs, rcond);
-            at_floor = 1;
-            for (int u = 0; u < w->n_volt && at_floor; u++)
-                at_floor = fabs(rhs[u] - x[u]) <=
-                           tol_rel * fmax(fabs(rhs[u]), fabs(x[u])) + tol_v + bound;
-        }
-        memcpy(x, rhs, (size_t)n * sizeof *x);
-        if (!lc.limited && it > 0 && (worst <= 1.0 || at_floor))
-            return SS_OK;
-        worst_prev = worst;
-    }
-    return SS_ERR_NO_CONVERGENCE;
+    tran_newton_ctx c = {sv, w, a0, analysis_vt(sv), tol_rel, tol_v};
+    newton_cfg cfg = {.tol_rel = tol_rel,
+                      .tol_v = tol_v,
+                      .tol_i = sv->ckt->opt.tol_i,
+                      .max_iter = TRAN_NEWTON_MAX,
+                      .polish_max = 0,
+                      .first_mode = LOAD_NORMAL,
+                      .first_may_converge = 0,
+                      .worst_rule = NEWTON_WORST_SCALED,
+                      .src_scale = 1.0,
+                      .drive = NULL,
+                      .ctx = &c,
+                      .load_extra = tran_load_charges,
+                      .at_floor = tran_at_floor};
+    newton_result r;
+    ss_status st = newton_solve(sv, x, &cfg, &r);
+    *iters += r.iterations;
+    w->rcond = r.rcond;
+    *worst_unknown = r.solve_failed ? r.bad_unknown : r.worst_unknown;
+    return st;
 }
 
 /* Estimated local truncation error of the step to t0 over the allowed error, the worst node
