@@ -31,7 +31,9 @@ typedef struct qs_ctx {
     double *x;         /* the present point's solution */
     double u0;         /* the source's DC value */
     double vout0;
-    newton_cfg ncfg;   /* the transfer's Newton (qs_newton_cfg) */
+    dev_src_value u;      /* the source's present value: it reaches the source through the */
+    dev_src_drive drive;  /* load context (drive), the element's own value stays the DC one */
+    newton_cfg ncfg;      /* the transfer's Newton (qs_newton_cfg) */
 } qs_ctx;
 
 static double stage_gain_at(ss_solver *sv, const stage_ref *sr, double omega, ss_error *err,
@@ -43,7 +45,10 @@ static double stage_gain_at(ss_solver *sv, const stage_ref *sr, double omega, ss
 }
 
 /* Decides, per capacitor and inductor, whether the signal frequency sees it as a short or an
- * open, from the stage's AC gain with the element scaled far up and far down. */
+ * open, from the stage's AC gain with the element scaled far up and far down. The scaled value
+ * is written into the element itself -- this context's own copy (sv->elem), never the
+ * circuit's -- and put back before the next element: the AC load context has no per-element
+ * override for it, and nothing but these AC solves runs in between. */
 static ss_status qs_classify(qs_ctx *c, double freq_hz, double *gain_ac, ss_error *err)
 {
     ss_solver *sv = c->sv;
@@ -123,7 +128,7 @@ static void qs_newton_cfg(qs_ctx *c)
                       .first_may_converge = 0,
                       .worst_rule = NEWTON_WORST_RATIO,
                       .src_scale = 1.0,
-                      .drive = NULL,
+                      .drive = &c->drive,
                       .ctx = c,
                       .load_extra = qs_load_held};
     c->ncfg = cfg;
@@ -165,7 +170,7 @@ static ss_status qs_slope(qs_ctx *c, double *slope)
 /* Solves the transfer at u (from c->x as it is): output voltage and slope. */
 static ss_status qs_point(qs_ctx *c, double u, double *vout, double *slope)
 {
-    c->sr.src->value = u;
+    c->u.value = u;
     ss_status st = qs_newton(c);
     if (st == SS_OK)
         st = qs_slope(c, slope);
@@ -309,7 +314,7 @@ static ss_status clip_onsets(qs_ctx *c, clip_result *res, double g0, double v_sc
             res->in_neg = fabs(side.du);
         }
     }
-    c->sr.src->value = c->u0;
+    c->u.value = c->u0;
     if (st != SS_OK)
         return err_set(err, st, NULL, 0, "large signal: %s while following the transfer",
                        ss_status_name(st));
@@ -364,6 +369,10 @@ static ss_status clipping_compute(ss_solver *sv, const stage_ref *sr, clip_resul
     c.sr = *sr;
     c.u0 = sr->src->value;
     c.vout0 = sv->x_op[sr->out_node - 1];
+    c.u.elem = sr->src;
+    c.u.value = c.u0;
+    c.drive.set = &c.u;
+    c.drive.n_set = 1;
     qs_newton_cfg(&c);
     c.a0 = ss_alloc((size_t)(sv->n_elem ? sv->n_elem : 1) * sizeof *c.a0);
     c.hist = ss_alloc((size_t)(sv->n_elem ? sv->n_elem : 1) * sizeof *c.hist);
@@ -378,7 +387,6 @@ static ss_status clipping_compute(ss_solver *sv, const stage_ref *sr, clip_resul
         st = clip_onsets(&c, res, g0, v_scale, work, err);
     if (st == SS_OK)
         st = clip_confirm(sv, sr, c.vout0, res, err);
-    sr->src->value = c.u0;
     ss_free(c.a0);
     ss_free(c.hist);
     ss_free(c.x);

@@ -22,6 +22,13 @@ static element *sweep_source(ss_solver *sv, const dc_sweep_spec *s, ss_error *er
     return &sv->elem[idx];
 }
 
+/* The present value of swept source e at a point: the drive's entry (the inner sweep's first). */
+static double swept_value(const dev_src_drive *drive, const element *e)
+{
+    dev_load_ctx lc = {.drive = drive};
+    return source_value(e, &lc);
+}
+
 ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
 {
     if (sv->ckt->dc.n == 0)
@@ -47,17 +54,20 @@ ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
         ss_table_destroy(&t);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
-    double saved[2] = {src[0]->value, src[1] ? src[1]->value : 0.0};
+    /* the swept values reach the sources through the load context: set[0] the inner sweep's,
+     * set[1] the outer one's */
+    dev_src_value set[2] = {{src[0], 0.0}, {src[1], 0.0}};
+    dev_src_drive drive = {set, sv->ckt->dc.n};
     ss_status st = SS_OK;
     double *x = NULL;
     for (int jo = 0; jo < n_outer && st == SS_OK; jo++) {
         if (src[1])
-            src[1]->value = sv->ckt->dc.sweep[1].start + jo * sv->ckt->dc.sweep[1].step;
+            set[1].value = sv->ckt->dc.sweep[1].start + jo * sv->ckt->dc.sweep[1].step;
         for (int ji = 0; ji < n_inner && st == SS_OK; ji++) {
-            src[0]->value = sv->ckt->dc.sweep[0].start + ji * sv->ckt->dc.sweep[0].step;
+            set[0].value = sv->ckt->dc.sweep[0].start + ji * sv->ckt->dc.sweep[0].step;
             int need_full = (ji == 0 && jo == 0) || !x;
             if (!need_full) {
-                newton_cfg cfg = newton_cfg_op(sv, LOAD_FROM_X, NULL);
+                newton_cfg cfg = newton_cfg_op(sv, LOAD_FROM_X, &drive);
                 newton_result r;
                 if (newton_solve(sv, x, &cfg, &r) != SS_OK)
                     need_full = 1;
@@ -65,26 +75,24 @@ ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
             }
             if (need_full) {
                 ss_error e2 = {0};
-                st = op_solve_into(sv, NULL, &e2);
+                st = op_solve_driven(sv, &drive, NULL, &e2);
                 if (st != SS_OK) {
                     err_set(err, st, e2.file, e2.line, ".dc at %s = %g%s: %s", src[0]->name,
-                            src[0]->value, src[1] ? " (outer sweep point)" : "", e2.message);
+                            swept_value(&drive, src[0]), src[1] ? " (outer sweep point)" : "",
+                            e2.message);
                     break;
                 }
                 x = sv->x_op;
             }
             double *row = table_add_row(t, NULL);
             int c = 0;
-            row[c++] = src[0]->value;
+            row[c++] = swept_value(&drive, src[0]);
             if (src[1])
-                row[c++] = src[1]->value;
+                row[c++] = swept_value(&drive, src[1]);
             for (int j = 0; j < solver_n_out_nodes(sv); j++)
                 row[c++] = x[node_unknown(solver_out_node(sv, j))];
         }
     }
-    src[0]->value = saved[0];
-    if (src[1])
-        src[1]->value = saved[1];
     sv->have_op = 0; /* x_op now holds the last sweep point */
     sv->op_serial++;
     if (st != SS_OK) {
