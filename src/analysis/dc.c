@@ -1,5 +1,6 @@
-/* DC sweep of one source (optionally nested in a second): each point starts from the last
- * solution; a point that fails falls back to a full operating-point solve. */
+/* DC sweep of one source (optionally nested in a second): the swept values reach the sources
+ * through the load context; each point starts from the last solution, a point that fails
+ * falls back to a full operating-point solve, and every point passes the Kirchhoff check. */
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -27,6 +28,31 @@ static double swept_value(const dev_src_drive *drive, const element *e)
 {
     dev_load_ctx lc = {.drive = drive};
     return source_value(e, &lc);
+}
+
+/* One sweep point with the sources at drive: Newton from the last point's solution *x when
+ * there is one (the operating point's settings), else -- or when that fails -- the full
+ * operating point, *x then pointing at sv->x_op. Either answer passes the same Kirchhoff check
+ * (newton_kcl_residual; op_solve_driven's own). Returns SS_OK, or the error in e2. */
+static ss_status solve_point(ss_solver *sv, const dev_src_drive *drive, double **x,
+                             ss_error *e2)
+{
+    if (*x) {
+        newton_cfg cfg = newton_cfg_op(sv, LOAD_FROM_X, drive);
+        newton_result r;
+        ss_status st = newton_solve(sv, *x, &cfg, &r);
+        sv->last_rcond = r.rcond;
+        if (st == SS_OK) {
+            int worst;
+            if (newton_kcl_residual(sv, *x, drive, &worst) > 1.0)
+                return newton_kcl_error(sv, worst, e2);
+            return SS_OK;
+        }
+    }
+    ss_status st = op_solve_driven(sv, drive, NULL, e2);
+    if (st == SS_OK)
+        *x = sv->x_op;
+    return st;
 }
 
 ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
@@ -65,24 +91,13 @@ ss_status ss_dc_sweep_run(ss_solver *sv, ss_table **out_dc, ss_error *err)
             set[1].value = sv->ckt->dc.sweep[1].start + jo * sv->ckt->dc.sweep[1].step;
         for (int ji = 0; ji < n_inner && st == SS_OK; ji++) {
             set[0].value = sv->ckt->dc.sweep[0].start + ji * sv->ckt->dc.sweep[0].step;
-            int need_full = (ji == 0 && jo == 0) || !x;
-            if (!need_full) {
-                newton_cfg cfg = newton_cfg_op(sv, LOAD_FROM_X, &drive);
-                newton_result r;
-                if (newton_solve(sv, x, &cfg, &r) != SS_OK)
-                    need_full = 1;
-                sv->last_rcond = r.rcond;
-            }
-            if (need_full) {
-                ss_error e2 = {0};
-                st = op_solve_driven(sv, &drive, NULL, &e2);
-                if (st != SS_OK) {
-                    err_set(err, st, e2.file, e2.line, ".dc at %s = %g%s: %s", src[0]->name,
-                            swept_value(&drive, src[0]), src[1] ? " (outer sweep point)" : "",
-                            e2.message);
-                    break;
-                }
-                x = sv->x_op;
+            ss_error e2 = {0};
+            st = solve_point(sv, &drive, &x, &e2);
+            if (st != SS_OK) {
+                err_set(err, st, e2.file, e2.line, ".dc at %s = %g%s: %s", src[0]->name,
+                        swept_value(&drive, src[0]), src[1] ? " (outer sweep point)" : "",
+                        e2.message);
+                break;
             }
             double *row = table_add_row(t, NULL);
             int c = 0;
