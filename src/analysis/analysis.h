@@ -6,6 +6,7 @@
 #include "devices/device.h"
 #include "mna/mna.h"
 #include "netlist/circuit.h"
+#include "solver/newton.h"
 #include "solver/solver.h"
 #include "util/table.h"
 
@@ -23,31 +24,12 @@ SS_HIDDEN const char **analysis_col_names(const ss_solver *sv, const char *const
                                           int n_lead, const char *const *fmts, int n_fmts,
                                           int *n_cols);
 
-/* Newton solve from x (in/out) at the given source scale; first_mode says how the first
- * iteration treats junction voltages. */
-typedef struct newton_params {
-    double gmin_extra_s; /* added from every node to ground (gmin stepping) */
-    double src_scale;
-    enum load_mode first_mode;
-    int max_iter;
-    /* pseudo-transient anchor: when set, a conductance anchor_scale * anchor_g[u] from every
-     * node u to the voltage anchor[u] (a backward-Euler step with node capacitances) */
-    const double *anchor;
-    const double *anchor_g;
-    double anchor_scale;
-} newton_params;
-
-typedef struct newton_result {
-    int iterations;
-    int worst_unknown;
-    double worst_delta;
-    int bad_unknown; /* singular pivot */
-} newton_result;
-
-SS_HIDDEN ss_status newton_solve(ss_solver *sv, double *x, const newton_params *np,
-                                 newton_result *res);
 /* Full operating point with fallbacks into sv->x_op; stats optional. */
 SS_HIDDEN ss_status op_solve_into(ss_solver *sv, ss_op_stats *stats, ss_error *err);
+/* The same with the sources at drive (a .dc sweep point, a transient's t = 0; NULL: their DC
+ * values); the Kirchhoff check judges the answer with those values. */
+SS_HIDDEN ss_status op_solve_driven(ss_solver *sv, const dev_src_drive *drive,
+                                    ss_op_stats *stats, ss_error *err);
 /* The rows of op.csv through fn(sink, quantity, name, value), in op.csv's order: v(NODE) per
  * written node, then each V source's, BJT's and diode's report rows. x is the solution; NULL
  * names the same rows with NaN values before anything is solved. */
@@ -55,9 +37,6 @@ SS_HIDDEN void op_rows(const ss_solver *sv, const double *x, dev_report_fn fn, v
 /* Formats a singular-matrix error naming the unknown. */
 SS_HIDDEN ss_status report_singular(ss_solver *sv, int bad_unknown, const char *during,
                                     ss_error *err);
-/* Largest KCL residual of x (terminal currents from each device's own equations, not its
- * Newton stamps) as a multiple of the allowed residual; *worst gets the unknown. */
-SS_HIDDEN double op_kcl_residual(ss_solver *sv, const double *x, int *worst);
 
 /* AC: one complex solve at omega with the given source selection; result in sv->work_zrhs. */
 SS_HIDDEN ss_status ac_solve_point(ss_solver *sv, double omega, const element *only_src,

@@ -31,6 +31,9 @@ typedef struct qs_ctx {
     double *x;         /* the present point's solution */
     double u0;         /* the source's DC value */
     double vout0;
+    dev_src_value u;      /* the source's present value: it reaches the source through the */
+    dev_src_drive drive;  /* load context (drive), the element's own value stays the DC one */
+    newton_cfg ncfg;      /* the transfer's Newton (qs_newton_cfg) */
 } qs_ctx;
 
 static double stage_gain_at(ss_solver *sv, const stage_ref *sr, double omega, ss_error *err,
@@ -42,7 +45,10 @@ static double stage_gain_at(ss_solver *sv, const stage_ref *sr, double omega, ss
 }
 
 /* Decides, per capacitor and inductor, whether the signal frequency sees it as a short or an
- * open, from the stage's AC gain with the element scaled far up and far down. */
+ * open, from the stage's AC gain with the element scaled far up and far down. The scaled value
+ * is written into the element itself -- this context's own copy (sv->elem), never the
+ * circuit's -- and put back before the next element: the AC load context has no per-element
+ * override for it, and nothing but these AC solves runs in between. */
 static ss_status qs_classify(qs_ctx *c, double freq_hz, double *gain_ac, ss_error *err)
 {
     ss_solver *sv = c->sv;
@@ -88,27 +94,13 @@ static ss_status qs_classify(qs_ctx *c, double freq_hz, double *gain_ac, ss_erro
     return st;
 }
 
-/* Loads the quasi-static system at x: every DC companion plus the held elements. */
-static void qs_load(qs_ctx *c, const double *x, enum load_mode mode, int *limited)
+/* newton_cfg.load_extra: the held elements' companions at x (every DC companion is the loop's). */
+static void qs_load_held(void *vctx, double *G, double *rhs, const double *x)
 {
+    const qs_ctx *c = vctx;
     ss_solver *sv = c->sv;
-    mna *m = sv->mna;
-    double *G = mna_values(m);
-    memset(G, 0, (size_t)mna_nnz(m) * sizeof *G);
-    memset(sv->work_rhs, 0, (size_t)sv->n_unknowns * sizeof *sv->work_rhs);
-    double vt = analysis_vt(sv);
-    dev_load_ctx lc = {.G = G,
-                       .rhs = sv->work_rhs,
-                       .x = x,
-                       .gmin_s = sv->ckt->opt.gmin,
-                       .src_scale = 1.0,
-                       .vt_v = vt,
-                       .mode = mode,
-                       .ckt_elem = sv->elem};
-    for (int i = 0; i < sv->n_elem; i++)
-        sv->elem[i].ops->load_dc(&sv->elem[i], &lc);
     double q[2];
-    dev_tran_ctx tc = {.G = G, .rhs = sv->work_rhs, .x = x, .vt_v = vt, .q = q};
+    dev_tran_ctx tc = {.G = G, .rhs = rhs, .x = x, .vt_v = analysis_vt(sv), .q = q};
     for (int i = 0; i < sv->n_elem; i++) {
         if (c->a0[i] == 0.0)
             continue;
@@ -116,37 +108,37 @@ static void qs_load(qs_ctx *c, const double *x, enum load_mode mode, int *limite
         tc.hist = &c->hist[i];
         sv->elem[i].ops->load_tran(&sv->elem[i], &tc);
     }
-    *limited = lc.limited;
+}
+
+/* The transfer's Newton (the loop of solver/newton.c) into c->ncfg: tolerances a thousandth of
+ * the operating point's (volts and relative; tol_i as it is), newton_iters + 2 iterations, two
+ * polish iterations after the tolerances are met (within them), no early acceptance of the
+ * first iteration; the held elements as its extra stamps. */
+static void qs_newton_cfg(qs_ctx *c)
+{
+    const ss_options_set *o = &c->sv->ckt->opt;
+    newton_cfg cfg = {.tol_rel = o->tol_rel * 1e-3,
+                      .tol_v = o->tol_v * 1e-3,
+                      .tol_i = o->tol_i,
+                      .max_iter = o->newton_iters + 2,
+                      .polish_max = 2,
+                      .polish_stop = 0.0,
+                      .polish_past_max = 0,
+                      .first_mode = LOAD_NORMAL,
+                      .first_may_converge = 0,
+                      .worst_rule = NEWTON_WORST_RATIO,
+                      .src_scale = 1.0,
+                      .drive = &c->drive,
+                      .ctx = c,
+                      .load_extra = qs_load_held};
+    c->ncfg = cfg;
 }
 
 /* Newton for the quasi-static system at the source's present value, from c->x. */
 static ss_status qs_newton(qs_ctx *c)
 {
-    ss_solver *sv = c->sv;
-    int n = sv->n_unknowns, n_volt = sv->n_nodes - 1;
-    const ss_options_set *o = &sv->ckt->opt;
-    double *x = c->x, *rhs = sv->work_rhs;
-    int polish = 2; /* a couple of extra iterations after the tolerances are met */
-    for (int it = 0; it < o->newton_iters + 2; it++) {
-        int limited;
-        qs_load(c, x, LOAD_NORMAL, &limited);
-        int bad;
-        ss_status st = mna_solve_real(sv->mna, rhs, &bad, NULL);
-        if (st != SS_OK)
-            return st;
-        double worst = 0.0;
-        for (int u = 0; u < n; u++) {
-            if (!isfinite(rhs[u]))
-                return SS_ERR_NO_CONVERGENCE;
-            double tol = o->tol_rel * 1e-3 * fmax(fabs(rhs[u]), fabs(x[u])) +
-                         (u < n_volt ? o->tol_v * 1e-3 : o->tol_i);
-            worst = fmax(worst, fabs(rhs[u] - x[u]) / tol);
-        }
-        memcpy(x, rhs, (size_t)n * sizeof *x);
-        if (worst <= 1.0 && !limited && it > 0 && --polish <= 0)
-            return SS_OK;
-    }
-    return SS_ERR_NO_CONVERGENCE;
+    newton_result r;
+    return newton_solve(c->sv, c->x, &c->ncfg, &r);
 }
 
 /* dV(out)/du at the solution c->x: one solve of the system linearised there with the source's
@@ -155,7 +147,7 @@ static ss_status qs_slope(qs_ctx *c, double *slope)
 {
     ss_solver *sv = c->sv;
     int limited;
-    qs_load(c, c->x, LOAD_FROM_X, &limited);
+    newton_load(sv, &c->ncfg, c->x, LOAD_FROM_X, &limited);
     double *b = sv->work_rhs;
     memset(b, 0, (size_t)sv->n_unknowns * sizeof *b);
     const element *e = c->sr.src;
@@ -178,7 +170,7 @@ static ss_status qs_slope(qs_ctx *c, double *slope)
 /* Solves the transfer at u (from c->x as it is): output voltage and slope. */
 static ss_status qs_point(qs_ctx *c, double u, double *vout, double *slope)
 {
-    c->sr.src->value = u;
+    c->u.value = u;
     ss_status st = qs_newton(c);
     if (st == SS_OK)
         st = qs_slope(c, slope);
@@ -322,7 +314,7 @@ static ss_status clip_onsets(qs_ctx *c, clip_result *res, double g0, double v_sc
             res->in_neg = fabs(side.du);
         }
     }
-    c->sr.src->value = c->u0;
+    c->u.value = c->u0;
     if (st != SS_OK)
         return err_set(err, st, NULL, 0, "large signal: %s while following the transfer",
                        ss_status_name(st));
@@ -377,6 +369,11 @@ static ss_status clipping_compute(ss_solver *sv, const stage_ref *sr, clip_resul
     c.sr = *sr;
     c.u0 = sr->src->value;
     c.vout0 = sv->x_op[sr->out_node - 1];
+    c.u.elem = sr->src;
+    c.u.value = c.u0;
+    c.drive.set = &c.u;
+    c.drive.n_set = 1;
+    qs_newton_cfg(&c);
     c.a0 = ss_alloc((size_t)(sv->n_elem ? sv->n_elem : 1) * sizeof *c.a0);
     c.hist = ss_alloc((size_t)(sv->n_elem ? sv->n_elem : 1) * sizeof *c.hist);
     c.x = ss_alloc((size_t)n * sizeof *c.x);
@@ -390,7 +387,6 @@ static ss_status clipping_compute(ss_solver *sv, const stage_ref *sr, clip_resul
         st = clip_onsets(&c, res, g0, v_scale, work, err);
     if (st == SS_OK)
         st = clip_confirm(sv, sr, c.vout0, res, err);
-    sr->src->value = c.u0;
     ss_free(c.a0);
     ss_free(c.hist);
     ss_free(c.x);

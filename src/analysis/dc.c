@@ -1,5 +1,6 @@
-/* DC sweep of one source (optionally nested in a second): each point starts from the last
- * solution; a point that fails falls back to a full operating-point solve. */
+/* DC sweep of one source (optionally nested in a second): the swept values reach the sources
+ * through the load context; each point starts from the last solution, a point that fails
+ * falls back to a full operating-point solve, and every point passes the Kirchhoff check. */
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -21,6 +22,38 @@ static element *sweep_source(ss_solver *sv, const dc_sweep_spec *s, ss_error *er
         return NULL;
     }
     return &sv->elem[idx];
+}
+
+/* The present value of swept source e at a point: the drive's entry (the inner sweep's first). */
+static double swept_value(const dev_src_drive *drive, const element *e)
+{
+    dev_load_ctx lc = {.drive = drive};
+    return source_value(e, &lc);
+}
+
+/* One sweep point with the sources at drive: Newton from the last point's solution *x when
+ * there is one (the operating point's settings), else -- or when that fails -- the full
+ * operating point, *x then pointing at sv->x_op. Either answer passes the same Kirchhoff check
+ * (newton_kcl_residual; op_solve_driven's own). Returns SS_OK, or the error in e2. */
+static ss_status solve_point(ss_solver *sv, const dev_src_drive *drive, double **x,
+                             ss_error *e2)
+{
+    if (*x) {
+        newton_cfg cfg = newton_cfg_op(sv, LOAD_FROM_X, drive);
+        newton_result r;
+        ss_status st = newton_solve(sv, *x, &cfg, &r);
+        sv->last_rcond = r.rcond;
+        if (st == SS_OK) {
+            int worst;
+            if (newton_kcl_residual(sv, *x, drive, &worst) > 1.0)
+                return newton_kcl_error(sv, worst, e2);
+            return SS_OK;
+        }
+    }
+    ss_status st = op_solve_driven(sv, drive, NULL, e2);
+    if (st == SS_OK)
+        *x = sv->x_op;
+    return st;
 }
 
 ss_status ss_dc_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
@@ -48,42 +81,33 @@ ss_status ss_dc_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
         ss_free(row);
         return st;
     }
-    double saved[2] = {src[0]->value, src[1] ? src[1]->value : 0.0};
+    /* the swept values reach the sources through the load context: set[0] the inner sweep's,
+     * set[1] the outer one's */
+    dev_src_value set[2] = {{src[0], 0.0}, {src[1], 0.0}};
+    dev_src_drive drive = {set, sv->ckt->dc.n};
     double *x = NULL;
     for (int jo = 0; jo < n_outer && st == SS_OK; jo++) {
         if (src[1])
-            src[1]->value = sv->ckt->dc.sweep[1].start + jo * sv->ckt->dc.sweep[1].step;
+            set[1].value = sv->ckt->dc.sweep[1].start + jo * sv->ckt->dc.sweep[1].step;
         for (int ji = 0; ji < n_inner && st == SS_OK; ji++) {
-            src[0]->value = sv->ckt->dc.sweep[0].start + ji * sv->ckt->dc.sweep[0].step;
-            int need_full = (ji == 0 && jo == 0) || !x;
-            if (!need_full) {
-                newton_params np = {0.0, 1.0, LOAD_FROM_X, sv->ckt->opt.newton_iters, NULL, NULL, 0.0};
-                newton_result r;
-                if (newton_solve(sv, x, &np, &r) != SS_OK)
-                    need_full = 1;
-            }
-            if (need_full) {
-                ss_error e2 = {0};
-                st = op_solve_into(sv, NULL, &e2);
-                if (st != SS_OK) {
-                    err_set(err, st, e2.file, e2.line, ".dc at %s = %g%s: %s", src[0]->name,
-                            src[0]->value, src[1] ? " (outer sweep point)" : "", e2.message);
-                    break;
-                }
-                x = sv->x_op;
+            set[0].value = sv->ckt->dc.sweep[0].start + ji * sv->ckt->dc.sweep[0].step;
+            ss_error e2 = {0};
+            st = solve_point(sv, &drive, &x, &e2);
+            if (st != SS_OK) {
+                err_set(err, st, e2.file, e2.line, ".dc at %s = %g%s: %s", src[0]->name,
+                        swept_value(&drive, src[0]), src[1] ? " (outer sweep point)" : "",
+                        e2.message);
+                break;
             }
             int c = 0;
-            row[c++] = src[0]->value;
+            row[c++] = swept_value(&drive, src[0]);
             if (src[1])
-                row[c++] = src[1]->value;
+                row[c++] = swept_value(&drive, src[1]);
             for (int j = 0; j < solver_n_out_nodes(sv); j++)
                 row[c++] = x[node_unknown(solver_out_node(sv, j))];
             st = sink_row(sink, row, err);
         }
     }
-    src[0]->value = saved[0];
-    if (src[1])
-        src[1]->value = saved[1];
     sv->have_op = 0; /* x_op now holds the last sweep point */
     sv->op_serial++;
     st = sink_end(sink, st, err);

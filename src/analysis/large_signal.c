@@ -1,6 +1,6 @@
 /* The machinery the stage's large-signal figures share: the stage lookup, the large-signal
  * settings, and the periodic steady-state run (the stage source driven by a sine, every other
- * source's form set aside, run until the output's period no longer changes, its harmonics).
+ * source at its DC value, run until the output's period no longer changes, its harmonics).
  * The figures are clip.c's and thd.c's; integration is tran.c's; docs/transient.md. */
 #include <math.h>
 #include <string.h>
@@ -339,10 +339,9 @@ static int thd_point(void *vctx, long k, double t_s, const double *x)
 
 /* The sink of one run of r: its samples' buffer (s->per starts it: the periods, the tail and
  * the angle table), the waveform ring (s->ring_t, when want_wave) and the period starts
- * (s->start, when r keeps a state); *saved_wave gets room for every element's time-varying
- * form. Returns SS_OK or SS_ERR_NOMEM. */
+ * (s->start, when r keeps a state). Returns SS_OK or SS_ERR_NOMEM. */
 static ss_status thd_sink_init(ss_solver *sv, const stage_ref *sr, const thd_run *r,
-                               int want_wave, thd_sink *s, void ***saved_wave_out, ss_error *err)
+                               int want_wave, thd_sink *s, ss_error *err)
 {
     const int n = THD_STEPS_PER_PERIOD;
     memset(s, 0, sizeof *s);
@@ -350,11 +349,9 @@ static ss_status thd_sink_init(ss_solver *sv, const stage_ref *sr, const thd_run
     s->out_u = sr->out_node - 1;
     double *buf = ss_alloc((size_t)((THD_RING + 4) * n) * sizeof *buf);
     double *ring = want_wave ? ss_alloc((size_t)(2 * THD_WAVE_PERIODS * n) * sizeof *ring) : NULL;
-    void **saved_wave = ss_alloc((size_t)(sv->n_elem ? sv->n_elem : 1) * sizeof *saved_wave);
-    if (!buf || (want_wave && !ring) || !saved_wave) {
+    if (!buf || (want_wave && !ring)) {
         ss_free(buf);
         ss_free(ring);
-        ss_free(saved_wave);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
     s->per = buf;
@@ -382,47 +379,25 @@ static ss_status thd_sink_init(ss_solver *sv, const stage_ref *sr, const thd_run
         s->ring_t = ring;
         s->ring_out = ring + THD_WAVE_PERIODS * n;
     }
-    *saved_wave_out = saved_wave;
     return SS_OK;
 }
 
-/* Sets every source's time-varying form aside into saved_wave (one slot per element): the
- * source then rests at its DC value. */
-static void waves_set_aside(ss_solver *sv, void **saved_wave)
-{
-    for (int i = 0; i < sv->n_elem; i++) {
-        element *e = &sv->elem[i];
-        saved_wave[i] = elem_is_source(e) ? e->wave : NULL;
-        if (elem_is_source(e))
-            e->wave = NULL;
-    }
-}
-
-/* Gives every source back the form waves_set_aside took. */
-static void waves_restore(ss_solver *sv, void *const *saved_wave)
-{
-    for (int i = 0; i < sv->n_elem; i++)
-        if (elem_is_source(&sv->elem[i]))
-            sv->elem[i].wave = saved_wave[i];
-}
-
 /* The transient of one run: the stage source driven by r->amp sin(2 pi f t) around its DC
- * value, every other source's form set aside for it (into saved_wave, given back after), until
- * the sink s finds the output settled or THD_MAX_PERIODS have passed. Returns as tran_run. */
+ * value, every other source resting at its DC value (tran_cfg.only_src: no element's form or
+ * value is touched), until the sink s finds the output settled or THD_MAX_PERIODS have passed.
+ * Returns as tran_run. */
 static ss_status thd_drive(ss_solver *sv, const stage_ref *sr, const thd_run *r, thd_sink *s,
-                           void **saved_wave, ss_error *err)
+                           ss_error *err)
 {
     const int n = THD_STEPS_PER_PERIOD;
     double period = 1.0 / r->freq_hz;
     /* the test signal replaces the stage source's own form; other forms rest */
-    waves_set_aside(sv, saved_wave);
     src_wave sine;
     memset(&sine, 0, sizeof sine);
     sine.kind = WAVE_SIN;
     sine.p[WS_VO] = sr->src->value;
     sine.p[WS_VA] = r->amp;
     sine.p[WS_FREQ] = r->freq_hz;
-    sr->src->wave = &sine;
     tran_cfg cfg = {.tstep_s = period / n,
                     .tstop_s = THD_MAX_PERIODS * period,
                     .tstart_s = 0.0,
@@ -434,10 +409,10 @@ static ss_status thd_drive(ss_solver *sv, const stage_ref *sr, const thd_run *r,
                     .newton_tol_v = THD_NEWTON_TOL_V,
                     .on_point = thd_point,
                     .ctx = s,
-                    .x_start = r->state && r->have_state ? r->state : NULL};
-    ss_status st = tran_run(sv, &cfg, NULL, err);
-    waves_restore(sv, saved_wave);
-    return st;
+                    .x_start = r->state && r->have_state ? r->state : NULL,
+                    .only_src = sr->src,
+                    .only_wave = &sine};
+    return tran_run(sv, &cfg, NULL, err);
 }
 
 /* After a run that ended in st: r->state (when kept) for the next run, and r->have_state. */
@@ -517,14 +492,12 @@ ss_status thd_measure(ss_solver *sv, const stage_ref *sr, thd_run *r, int want_w
                       ss_error *err)
 {
     thd_sink s;
-    void **saved_wave = NULL;
-    ss_status st = thd_sink_init(sv, sr, r, want_wave, &s, &saved_wave, err);
+    ss_status st = thd_sink_init(sv, sr, r, want_wave, &s, err);
     if (st != SS_OK)
         return st;
-    st = thd_drive(sv, sr, r, &s, saved_wave, err);
+    st = thd_drive(sv, sr, r, &s, err);
     thd_next_state(&s, r, st);
     ss_free(s.start);
-    ss_free(saved_wave);
     if (st == SS_OK && s.periods < 1)
         st = err_set(err, SS_ERR_INTERNAL, sv->ckt->file, 0, "THD: no complete period");
     if (st == SS_OK)

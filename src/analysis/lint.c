@@ -351,8 +351,12 @@ static int lint_stage(ss_solver *sv, lint_survey *svy)
 static int lint_currents(ss_solver *sv, double *r)
 {
     const double *x = sv->x_op;
-    dev_load_ctx lc = {NULL, NULL, x, sv->ckt->opt.gmin, 1.0, analysis_vt(sv), LOAD_FROM_X, 0,
-                       sv->elem};
+    dev_load_ctx lc = {.x = x,
+                       .gmin_s = sv->ckt->opt.gmin,
+                       .src_scale = 1.0,
+                       .vt_v = analysis_vt(sv),
+                       .mode = LOAD_FROM_X,
+                       .ckt_elem = sv->elem};
     for (int i = 0; i < sv->n_elem; i++) {
         const element *e = &sv->elem[i];
         if (!e->ops->kcl)

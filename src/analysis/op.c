@@ -1,5 +1,6 @@
-/* DC operating point: Newton-Raphson on the MNA system with junction limiting, then gmin
- * stepping and source stepping as fallbacks; KCL verification of the answer; op.csv rows. */
+/* DC operating point: Newton-Raphson (the loop of solver/newton.c) with junction limiting, then
+ * gmin stepping and source stepping as fallbacks; KCL verification (newton.c) and refinement of
+ * the answer; op.csv rows. */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -8,149 +9,58 @@
 #include "analysis/analysis.h"
 #include "output/sink.h"
 
-/* KCL verification of a converged answer: allowed node residual KCL_ABS_A + KCL_REL times
- * the largest branch or source current; allowed branch-equation residual KCL_ABS_V + KCL_REL
- * times the largest node voltage */
-#define KCL_ABS_A 1e-9
-#define KCL_REL 1e-6
-#define KCL_ABS_V 1e-9
+/* One Newton solve of the operating point's fallbacks: the extra conductance from every node to
+ * ground (gmin stepping), the source scale (source stepping), and the pseudo-transient anchor,
+ * when set a conductance anchor_scale * anchor_g[u] from every node u to the voltage anchor[u]
+ * (a backward-Euler step with node capacitances). */
+typedef struct op_step {
+    double gmin_extra_s;
+    double src_scale;
+    enum load_mode first_mode;
+    const double *anchor;
+    const double *anchor_g;
+    double anchor_scale;
+} op_step;
 
-/* after convergence, polish until the update is this fraction of the tolerance, at most
- * NEWTON_POLISH_MAX extra iterations */
-#define NEWTON_POLISH_RATIO 1e-6
-#define NEWTON_POLISH_MAX 4
+typedef struct op_extra_ctx {
+    const ss_solver *sv;
+    const op_step *np;
+} op_extra_ctx;
 
-static void load_all_dc(ss_solver *sv, dev_load_ctx *lc)
+/* newton_cfg.load_extra: the step's gmin and anchor conductances on the node diagonals. */
+static void op_load_extra(void *vctx, double *G, double *rhs, const double *x)
 {
-    for (int i = 0; i < sv->n_elem; i++) {
-        element *e = &sv->elem[i];
-        e->ops->load_dc(e, lc);
-    }
+    (void)x;
+    const op_extra_ctx *c = vctx;
+    const op_step *np = c->np;
+    mna *m = c->sv->mna;
+    int n_node_unknowns = c->sv->n_nodes - 1;
+    if (np->gmin_extra_s > 0.0)
+        for (int u = 0; u < n_node_unknowns; u++)
+            G[mna_diag_slot(m, u)] += np->gmin_extra_s;
+    if (np->anchor)
+        for (int u = 0; u < n_node_unknowns; u++) {
+            double g = np->anchor_scale * np->anchor_g[u];
+            G[mna_diag_slot(m, u)] += g;
+            rhs[u] += g * np->anchor[u];
+        }
 }
 
-ss_status newton_solve(ss_solver *sv, double *x, const newton_params *np, newton_result *res)
+/* Newton from x (in/out) for the step np with the sources at drive: the operating point's
+ * settings (newton_cfg_op) plus the step's extras. sv->last_rcond gets the last solve's pivot
+ * ratio. Returns as newton_solve. */
+static ss_status op_newton(ss_solver *sv, double *x, const op_step *np,
+                           const dev_src_drive *drive, newton_result *res)
 {
-    mna *m = sv->mna;
-    int n = sv->n_unknowns, nnz = mna_nnz(m);
-    int n_node_unknowns = sv->n_nodes - 1;
-    double *G = mna_values(m);
-    double *rhs = sv->work_rhs;
-    const ss_options_set *o = &sv->ckt->opt;
-    memset(res, 0, sizeof *res);
-    res->worst_unknown = -1;
-    res->bad_unknown = -1;
-    int polish = NEWTON_POLISH_MAX;
-    /* the polish iterations come on top of max_iter, never instead of it; at most
-     * NEWTON_POLISH_MAX of them, since an update that leaves the tolerance again while
-     * polishing (a limited junction, an oscillation) must not keep the loop going for ever */
-    for (int it = 0; it < np->max_iter || (polish < NEWTON_POLISH_MAX && polish > 0 &&
-                                           it < np->max_iter + NEWTON_POLISH_MAX);
-         it++) {
-        memset(G, 0, (size_t)nnz * sizeof *G);
-        memset(rhs, 0, (size_t)n * sizeof *rhs);
-        dev_load_ctx lc = {G,
-                           rhs,
-                           x,
-                           o->gmin,
-                           np->src_scale,
-                           analysis_vt(sv),
-                           it == 0 ? np->first_mode : LOAD_NORMAL,
-                           0,
-                           sv->elem};
-        load_all_dc(sv, &lc);
-        if (np->gmin_extra_s > 0.0)
-            for (int u = 0; u < n_node_unknowns; u++)
-                G[mna_diag_slot(m, u)] += np->gmin_extra_s;
-        if (np->anchor)
-            for (int u = 0; u < n_node_unknowns; u++) {
-                double g = np->anchor_scale * np->anchor_g[u];
-                G[mna_diag_slot(m, u)] += g;
-                rhs[u] += g * np->anchor[u];
-            }
-        int bad;
-        double rcond;
-        ss_status st = mna_solve_real(m, rhs, &bad, &rcond);
-        res->iterations = it + 1;
-        sv->last_rcond = rcond;
-        if (st != SS_OK) {
-            res->bad_unknown = bad;
-            return st;
-        }
-        /* convergence: every unknown moved less than tol_rel of its size plus the absolute
-         * tolerance of its kind (volts for nodes, amperes for branch currents) */
-        double worst = 0.0;
-        int worst_u = -1, finite = 1;
-        for (int u = 0; u < n; u++) {
-            double xn = rhs[u], xo = x[u];
-            if (!isfinite(xn)) {
-                finite = 0;
-                worst_u = u;
-                break;
-            }
-            double tol = o->tol_rel * fmax(fabs(xn), fabs(xo)) +
-                         (u < n_node_unknowns ? o->tol_v : o->tol_i);
-            double ratio = fabs(xn - xo) / tol;
-            if (ratio > worst) {
-                worst = ratio;
-                worst_u = u;
-            }
-        }
-        res->worst_unknown = worst_u;
-        res->worst_delta = finite && worst_u >= 0 ? fabs(rhs[worst_u] - x[worst_u]) : HUGE_VAL;
-        if (!finite)
-            return SS_ERR_NO_CONVERGENCE;
-        memcpy(x, rhs, (size_t)n * sizeof *x);
-        int within = worst <= 1.0 && !lc.limited && (it > 0 || np->first_mode == LOAD_FROM_X);
-        if (within && (polish == 0 || worst <= NEWTON_POLISH_RATIO))
-            return SS_OK;
-        /* Met the tolerances: a few more iterations cost little (quadratic convergence) and
-         * take the answer from "within tolerance" to machine precision, so an exponential
-         * device current read off the solution is as accurate as the node voltages. */
-        if (within && --polish == 0)
-            return SS_OK;
-    }
-    return SS_ERR_NO_CONVERGENCE;
-}
-
-double op_kcl_residual(ss_solver *sv, const double *x, int *worst)
-{
-    int n = sv->n_unknowns, n_node_unknowns = sv->n_nodes - 1;
-    double *r = sv->work_x;
-    memset(r, 0, (size_t)n * sizeof *r);
-    dev_load_ctx lc = {NULL, NULL, x, sv->ckt->opt.gmin, 1.0, analysis_vt(sv), LOAD_FROM_X, 0,
-                       sv->elem};
-    for (int i = 0; i < sv->n_elem; i++) {
-        const element *e = &sv->elem[i];
-        if (e->ops->kcl)
-            e->ops->kcl(e, x, &lc, r);
-    }
-    /* the current scale of the circuit: its largest branch or source current */
-    double i_scale = 0.0;
-    for (int u = n_node_unknowns; u < n; u++)
-        i_scale = fmax(i_scale, fabs(x[u]));
-    for (int i = 0; i < sv->n_elem; i++)
-        if (elem_is(&sv->elem[i], DEV_SOURCE) && elem_is(&sv->elem[i], DEV_DRIVES_CURRENT))
-            i_scale = fmax(i_scale, fabs(sv->elem[i].value));
-    /* residuals as multiples of what is allowed: node rows in amperes, branch rows (the
-     * voltage equations of sources) in volts */
-    double v_scale = 0.0;
-    for (int u = 0; u < n_node_unknowns; u++)
-        v_scale = fmax(v_scale, fabs(x[u]));
-    double allowed_a = KCL_ABS_A + KCL_REL * i_scale;
-    double allowed_v = KCL_ABS_V + KCL_REL * v_scale;
-    double max = 0.0;
-    *worst = -1;
-    for (int u = 0; u < n; u++) {
-        double v = fabs(r[u]) / (u < n_node_unknowns ? allowed_a : allowed_v);
-        if (!isfinite(v))
-            v = HUGE_VAL;
-        if (v > max) {
-            max = v;
-            *worst = u;
-        }
-    }
-    sv->last_kcl_residual = *worst >= 0 ? r[*worst] : 0.0;
-    return max;
+    op_extra_ctx xc = {sv, np};
+    newton_cfg cfg = newton_cfg_op(sv, np->first_mode, drive);
+    cfg.src_scale = np->src_scale;
+    cfg.ctx = &xc;
+    cfg.load_extra = op_load_extra;
+    ss_status st = newton_solve(sv, x, &cfg, res);
+    if (res->iterations > 0)
+        sv->last_rcond = res->rcond;
+    return st;
 }
 
 static ss_status nonconvergence_error(ss_solver *sv, const newton_result *r, int total_iters,
@@ -178,17 +88,17 @@ static ss_status nonconvergence_error(ss_solver *sv, const newton_result *r, int
 
 /* Gmin stepping: a conductance from every node to ground, started large and cut tenfold per
  * step down to nothing, each solve starting from the last (docs/models.md). */
-static ss_status gmin_stepping(ss_solver *sv, double *x, int *iters, int *steps,
-                               newton_result *last)
+static ss_status gmin_stepping(ss_solver *sv, const dev_src_drive *drive, double *x, int *iters,
+                               int *steps, newton_result *last)
 {
     int n = sv->n_unknowns;
     memset(x, 0, (size_t)n * sizeof *x);
-    newton_params np = {1e-2, 1.0, LOAD_INIT_JUNCTION, sv->ckt->opt.newton_iters, NULL, NULL, 0.0};
+    op_step np = {1e-2, 1.0, LOAD_INIT_JUNCTION, NULL, NULL, 0.0};
     double factor = 10.0;
     double *saved = sv->work_x;
     for (;;) {
         memcpy(saved, x, (size_t)n * sizeof *x);
-        ss_status st = newton_solve(sv, x, &np, last);
+        ss_status st = op_newton(sv, x, &np, drive, last);
         *iters += last->iterations;
         (*steps)++;
         if (st == SS_ERR_SINGULAR || st == SS_ERR_NOMEM)
@@ -216,14 +126,14 @@ static ss_status gmin_stepping(ss_solver *sv, double *x, int *iters, int *steps,
 
 /* Source stepping: every independent source scaled by lambda from 0 to 1, the step grown on
  * success and cut on failure (docs/models.md). */
-static ss_status source_stepping(ss_solver *sv, double *x, int *iters, int *steps,
-                                 newton_result *last)
+static ss_status source_stepping(ss_solver *sv, const dev_src_drive *drive, double *x,
+                                 int *iters, int *steps, newton_result *last)
 {
     int n = sv->n_unknowns;
     memset(x, 0, (size_t)n * sizeof *x);
     /* at lambda = 0 every source is off and x = 0 is the answer: start there as it is */
-    newton_params np = {0.0, 0.0, LOAD_FROM_X, sv->ckt->opt.newton_iters, NULL, NULL, 0.0};
-    ss_status st = newton_solve(sv, x, &np, last);
+    op_step np = {0.0, 0.0, LOAD_FROM_X, NULL, NULL, 0.0};
+    ss_status st = op_newton(sv, x, &np, drive, last);
     *iters += last->iterations;
     if (st != SS_OK)
         return st;
@@ -234,7 +144,7 @@ static ss_status source_stepping(ss_solver *sv, double *x, int *iters, int *step
         memcpy(saved, x, (size_t)n * sizeof *x);
         np.src_scale = next;
         np.first_mode = LOAD_FROM_X;
-        st = newton_solve(sv, x, &np, last);
+        st = op_newton(sv, x, &np, drive, last);
         *iters += last->iterations;
         (*steps)++;
         if (st == SS_ERR_SINGULAR || st == SS_ERR_NOMEM)
@@ -250,19 +160,6 @@ static ss_status source_stepping(ss_solver *sv, double *x, int *iters, int *step
         }
     }
     return SS_OK;
-}
-
-/* The refusal of an answer that fails Kirchhoff's law (no silent wrong number); ratio and
- * worst come from op_kcl_residual. */
-static ss_status kcl_error(ss_solver *sv, int worst, ss_error *err)
-{
-    char what[1200] = "a node";
-    if (worst >= 0)
-        solver_unknown_name(sv, worst, what, sizeof what);
-    return err_set(err, SS_ERR_NO_CONVERGENCE, sv->ckt->file, 0,
-                   "the operating point fails Kirchhoff's law at %s by %.3g %s (device equations "
-                   "and their Newton stamps disagree); refusing to report it",
-                   what, sv->last_kcl_residual, worst < sv->n_nodes - 1 ? "A" : "V");
 }
 
 /* Is x a stable equilibrium? For the MNA Jacobian a stable DC solution has
@@ -282,7 +179,7 @@ static int looks_unstable(ss_solver *sv)
  * pseudo-transient continuation after Kelley & Keyes, SIAM J. Numer. Anal. 35(2), 1998 --
  * from memory) until the state settles, then solve exactly from there. Returns 1 when it
  * reached a different operating point (in x), 0 when it came back or failed (x unchanged). */
-static int escape_unstable(ss_solver *sv, double *x, int *iters)
+static int escape_unstable(ss_solver *sv, const dev_src_drive *drive, double *x, int *iters)
 {
     int n = sv->n_unknowns, nn = sv->n_nodes - 1;
     double *G = mna_values(sv->mna);
@@ -301,12 +198,12 @@ static int escape_unstable(ss_solver *sv, double *x, int *iters)
     memcpy(prev, x, (size_t)n * sizeof *x);
     for (int u = 0; u < nn; u++)
         prev[u] += 1e-3 * ((u * 2654435761u) % 7 - 3.0) / 3.0 + 1e-4;
-    newton_params np = {0.0, 1.0, LOAD_FROM_X, sv->ckt->opt.newton_iters, prev, g, 10.0};
+    op_step np = {0.0, 1.0, LOAD_FROM_X, prev, g, 10.0};
     newton_result r;
     memcpy(x, prev, (size_t)n * sizeof *x);
     int ok = 1, retries = 0;
     for (int step = 0; step < 300 && np.anchor_scale > 1e-9; step++) {
-        ss_status est = newton_solve(sv, x, &np, &r);
+        ss_status est = op_newton(sv, x, &np, drive, &r);
         *iters += r.iterations;
         if (est != SS_OK) {
             /* too long a pseudo-time step: back to the last state, a shorter step */
@@ -322,8 +219,8 @@ static int escape_unstable(ss_solver *sv, double *x, int *iters)
         np.anchor_scale *= 0.7;
     }
     if (ok) {
-        newton_params fin = {0.0, 1.0, LOAD_FROM_X, sv->ckt->opt.newton_iters, NULL, NULL, 0.0};
-        ok = newton_solve(sv, x, &fin, &r) == SS_OK;
+        op_step fin = {0.0, 1.0, LOAD_FROM_X, NULL, NULL, 0.0};
+        ok = op_newton(sv, x, &fin, drive, &r) == SS_OK;
         *iters += r.iterations;
     }
     double moved = 0.0;
@@ -334,7 +231,7 @@ static int escape_unstable(ss_solver *sv, double *x, int *iters)
     /* second try: ramp every source up from zero, the way a circuit powers up; a latch then
      * settles in the state its power-up favours */
     int steps = 0;
-    ok = source_stepping(sv, x, iters, &steps, &r) == SS_OK;
+    ok = source_stepping(sv, drive, x, iters, &steps, &r) == SS_OK;
     moved = 0.0;
     for (int u = 0; ok && u < nn; u++)
         moved = fmax(moved, fabs(x[u] - orig[u]) / (1e-3 + 1e-3 * fabs(orig[u])));
@@ -348,7 +245,8 @@ static int escape_unstable(ss_solver *sv, double *x, int *iters)
  * matrix for x, so a conductance lost to rounding on a much larger diagonal (1e-12 S beside
  * 1e3 S) stays lost; solving J dx = -f(x) with f from each device's own equations recovers
  * it. Kept only when it lowers the residual. */
-static double refine_solution(ss_solver *sv, double *x, double before, int *worst)
+static double refine_solution(ss_solver *sv, const dev_src_drive *drive, double *x,
+                              double before, int *worst)
 {
     /* sv->work_x holds f(x) from the verification just before */
     int n = sv->n_unknowns, worst_after;
@@ -360,7 +258,7 @@ static double refine_solution(ss_solver *sv, double *x, double before, int *wors
     memcpy(saved, x, (size_t)n * sizeof *x);
     for (int u = 0; u < n; u++)
         x[u] += dx[u];
-    double after = op_kcl_residual(sv, x, &worst_after);
+    double after = newton_kcl_residual(sv, x, drive, &worst_after);
     if (!(after < before)) {
         memcpy(x, saved, (size_t)n * sizeof *x);
         return before;
@@ -369,7 +267,8 @@ static double refine_solution(ss_solver *sv, double *x, double before, int *wors
     return after;
 }
 
-ss_status op_solve_into(ss_solver *sv, ss_op_stats *stats, ss_error *err)
+ss_status op_solve_driven(ss_solver *sv, const dev_src_drive *drive, ss_op_stats *stats,
+                          ss_error *err)
 {
     ss_status st = solver_prepare(sv, err);
     if (st != SS_OK)
@@ -382,17 +281,17 @@ ss_status op_solve_into(ss_solver *sv, ss_op_stats *stats, ss_error *err)
     ss_op_stats s = {0, 0, 0};
     newton_result r;
     memset(x, 0, (size_t)n * sizeof *x);
-    newton_params np = {0.0, 1.0, LOAD_INIT_JUNCTION, sv->ckt->opt.newton_iters, NULL, NULL, 0.0};
-    st = newton_solve(sv, x, &np, &r);
+    op_step np = {0.0, 1.0, LOAD_INIT_JUNCTION, NULL, NULL, 0.0};
+    st = op_newton(sv, x, &np, drive, &r);
     s.newton_iterations += r.iterations;
     /* the topology was checked in prepare, so a singular matrix here is numerical (a junction
      * that stopped conducting): the fallbacks may well get past it */
     int singular_seen = st == SS_ERR_SINGULAR;
     int bad_unknown = r.bad_unknown;
     if (st == SS_ERR_NO_CONVERGENCE || st == SS_ERR_SINGULAR)
-        st = gmin_stepping(sv, x, &s.newton_iterations, &s.gmin_steps, &r);
+        st = gmin_stepping(sv, drive, x, &s.newton_iterations, &s.gmin_steps, &r);
     if (st == SS_ERR_NO_CONVERGENCE || st == SS_ERR_SINGULAR)
-        st = source_stepping(sv, x, &s.newton_iterations, &s.source_steps, &r);
+        st = source_stepping(sv, drive, x, &s.newton_iterations, &s.source_steps, &r);
     sv->have_op = 0;
     if (st == SS_ERR_SINGULAR || (st == SS_ERR_NO_CONVERGENCE && singular_seen)) {
         if (r.bad_unknown < 0)
@@ -408,7 +307,7 @@ ss_status op_solve_into(ss_solver *sv, ss_op_stats *stats, ss_error *err)
     /* an unstable equilibrium (the balanced point of a latch) is not an operating point a
      * circuit can sit at: move to a stable one, and say so */
     if (looks_unstable(sv)) {
-        if (escape_unstable(sv, x, &s.newton_iterations))
+        if (escape_unstable(sv, drive, x, &s.newton_iterations))
             solver_warn(sv, "operating point: Newton first found an unstable equilibrium "
                               "(e.g. the balanced point of a latch); reporting the stable state "
                               "reached from it. A circuit with several stable states settles "
@@ -422,12 +321,12 @@ ss_status op_solve_into(ss_solver *sv, ss_op_stats *stats, ss_error *err)
      * a stamp that disagrees with its device equation; then refine (reusing that residual) and
      * judge the refined answer by its own residual */
     int worst;
-    double ratio = op_kcl_residual(sv, x, &worst);
+    double ratio = newton_kcl_residual(sv, x, drive, &worst);
     if (ratio > 1.0)
-        return kcl_error(sv, worst, err);
-    ratio = refine_solution(sv, x, ratio, &worst);
+        return newton_kcl_error(sv, worst, err);
+    ratio = refine_solution(sv, drive, x, ratio, &worst);
     if (ratio > 1.0)
-        return kcl_error(sv, worst, err);
+        return newton_kcl_error(sv, worst, err);
     if (sv->last_rcond < MNA_RCOND_WARN)
         solver_warn(sv,
                      "operating point: the matrix is nearly singular (reciprocal condition "
@@ -439,6 +338,11 @@ ss_status op_solve_into(ss_solver *sv, ss_op_stats *stats, ss_error *err)
     if (stats)
         *stats = s;
     return SS_OK;
+}
+
+ss_status op_solve_into(ss_solver *sv, ss_op_stats *stats, ss_error *err)
+{
+    return op_solve_driven(sv, NULL, stats, err);
 }
 
 /* ---- op.csv rows ----------------------------------------------------------------------- */

@@ -50,9 +50,13 @@ typedef struct tran_ws {
     double *x_mid, *q_mid, *x_full;
     double *xs[4], *qs[2];
     double rcond;                   /* the last solve's reciprocal pivot ratio (KLU) */
-    int *src;                       /* elements with a time-varying form */
-    double *src_dc;                 /* their DC values, restored at the end */
+    /* the sources that follow a time-varying form in this run: their elements, forms, and
+     * present values, which reach the devices through the load context as drive */
+    int *src;
+    const src_wave **wave;
+    dev_src_value *src_val;
     int n_src;
+    dev_src_drive drive;
 } tran_ws;
 
 static void ws_free(tran_ws *w)
@@ -75,11 +79,14 @@ static void ws_free(tran_ws *w)
     for (int k = 0; k < 2; k++)
         ss_free(w->qs[k]);
     ss_free(w->src);
-    ss_free(w->src_dc);
+    ss_free(w->wave);
+    ss_free(w->src_val);
     memset(w, 0, sizeof *w);
 }
 
-static ss_status ws_alloc(const ss_solver *sv, tran_ws *w, ss_error *err)
+/* The run's work space and its sources: every source with a form of its own, or only
+ * cfg->only_src following cfg->only_wave. */
+static ss_status ws_alloc(const ss_solver *sv, const tran_cfg *cfg, tran_ws *w, ss_error *err)
 {
     memset(w, 0, sizeof *w);
     w->n = sv->n_unknowns;
@@ -87,8 +94,9 @@ static ss_status ws_alloc(const ss_solver *sv, tran_ws *w, ss_error *err)
     int n_elem = sv->n_elem;
     w->q_off = ss_alloc((size_t)(n_elem ? n_elem : 1) * sizeof *w->q_off);
     w->src = ss_alloc((size_t)(n_elem ? n_elem : 1) * sizeof *w->src);
-    w->src_dc = ss_alloc((size_t)(n_elem ? n_elem : 1) * sizeof *w->src_dc);
-    if (!w->q_off || !w->src || !w->src_dc) {
+    w->wave = ss_alloc((size_t)(n_elem ? n_elem : 1) * sizeof *w->wave);
+    w->src_val = ss_alloc((size_t)(n_elem ? n_elem : 1) * sizeof *w->src_val);
+    if (!w->q_off || !w->src || !w->wave || !w->src_val) {
         ws_free(w);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
@@ -99,12 +107,21 @@ static ss_status ws_alloc(const ss_solver *sv, tran_ws *w, ss_error *err)
             w->q_off[i] = w->n_q;
             w->n_q += e->ops->n_charge;
         }
-        if (elem_is_source(e) && e->wave) {
+        const src_wave *f = NULL;
+        if (cfg->only_src)
+            f = e == cfg->only_src ? cfg->only_wave : NULL;
+        else if (elem_is_source(e))
+            f = e->wave;
+        if (f) {
             w->src[w->n_src] = i;
-            w->src_dc[w->n_src] = e->value;
+            w->wave[w->n_src] = f;
+            w->src_val[w->n_src].elem = e;
+            w->src_val[w->n_src].value = e->value;
             w->n_src++;
         }
     }
+    w->drive.set = w->src_val;
+    w->drive.n_set = w->n_src;
     size_t nq = (size_t)(w->n_q ? w->n_q : 1), nx = (size_t)w->n;
     w->q_new = ss_alloc(nq * sizeof(double));
     w->q_n = ss_alloc(nq * sizeof(double));
@@ -131,28 +148,19 @@ static ss_status ws_alloc(const ss_solver *sv, tran_ws *w, ss_error *err)
     return SS_OK;
 }
 
-static void set_sources(ss_solver *sv, const tran_ws *w, double t_s, double tstep_s)
-{
-    for (int k = 0; k < w->n_src; k++) {
-        element *e = &sv->elem[w->src[k]];
-        e->value = wave_value(e->wave, t_s, tstep_s);
-    }
-}
-
-static void restore_sources(ss_solver *sv, const tran_ws *w)
+/* Every time-varying source's value at t_s into the run's drive. */
+static void set_sources(tran_ws *w, double t_s, double tstep_s)
 {
     for (int k = 0; k < w->n_src; k++)
-        sv->elem[w->src[k]].value = w->src_dc[k];
+        w->src_val[k].value = wave_value(w->wave[k], t_s, tstep_s);
 }
 
 /* The first source corner strictly after t_s + eps (HUGE_VAL when none). */
-static double next_corner(const ss_solver *sv, const tran_ws *w, double t_s, double eps,
-                          double tstep_s)
+static double next_corner(const tran_ws *w, double t_s, double eps, double tstep_s)
 {
     double best = HUGE_VAL;
     for (int k = 0; k < w->n_src; k++) {
-        const element *e = &sv->elem[w->src[k]];
-        double c = wave_next_break(e->wave, t_s + eps, tstep_s);
+        double c = wave_next_break(w->wave[k], t_s + eps, tstep_s);
         if (c < best)
             best = c;
     }
@@ -160,30 +168,30 @@ static double next_corner(const ss_solver *sv, const tran_ws *w, double t_s, dou
 }
 
 /* The longest step every source's form still allows from t_s on (HUGE_VAL: no limit). */
-static double source_step_cap(const ss_solver *sv, const tran_ws *w, double t_s)
+static double source_step_cap(const tran_ws *w, double t_s)
 {
     double cap = HUGE_VAL;
     for (int k = 0; k < w->n_src; k++)
-        cap = fmin(cap, wave_max_step(sv->elem[w->src[k]].wave, t_s));
+        cap = fmin(cap, wave_max_step(w->wave[k], t_s));
     return cap;
 }
 
-/* The steps the sources ask for up to tstop at the least, for the source asking most (*which):
- * the span of a SIN over its largest step, two for the start after each corner. */
-static double source_steps_needed(const ss_solver *sv, const tran_ws *w, double tstop,
-                                  int *which)
+/* The steps the sources ask for up to tstop at the least, for the source asking most (*which,
+ * its place in w->src): the span of a SIN over its largest step, two for the start after each
+ * corner. */
+static double source_steps_needed(const tran_ws *w, double tstop, int *which)
 {
     double most = 0.0;
     *which = -1;
     for (int k = 0; k < w->n_src; k++) {
-        const src_wave *f = sv->elem[w->src[k]].wave;
+        const src_wave *f = w->wave[k];
         double need = 2.0 * wave_corners_until(f, tstop);
         double h = wave_max_step(f, HUGE_VAL);
         if (f->kind == WAVE_SIN && isfinite(h) && f->p[WS_TD] < tstop)
             need += (tstop - f->p[WS_TD]) / h;
         if (need > most) {
             most = need;
-            *which = w->src[k];
+            *which = k;
         }
     }
     return most;
@@ -205,7 +213,7 @@ static void eval_charges(ss_solver *sv, const tran_ws *w, const double *x, doubl
 
 /* Puts every device's Newton state (junction voltages) back to the solution x, after a failed
  * step left it wherever the failed iterations went. */
-static void reset_device_state(ss_solver *sv, const double *x)
+static void reset_device_state(ss_solver *sv, const tran_ws *w, const double *x)
 {
     mna *m = sv->mna;
     double *G = mna_values(m);
@@ -218,7 +226,8 @@ static void reset_device_state(ss_solver *sv, const double *x)
                        .src_scale = 1.0,
                        .vt_v = analysis_vt(sv),
                        .mode = LOAD_FROM_X,
-                       .ckt_elem = sv->elem};
+                       .ckt_elem = sv->elem,
+                       .drive = &w->drive};
     for (int i = 0; i < sv->n_elem; i++)
         sv->elem[i].ops->load_dc(&sv->elem[i], &lc);
 }
@@ -236,84 +245,80 @@ static double rounding_bound(const tran_ws *w, const double *x, double rcond)
     return rcond > 0.0 ? DBL_EPSILON / rcond * big : HUGE_VAL;
 }
 
-/* Newton at one time point: every device's DC companion, then its charges' companion with
- * the step's coefficient a0 and history terms. x: the predictor in, the solution out.
+/* Newton at one time point (the loop of solver/newton.c): every device's DC companion, then its
+ * charges' companion with the step's coefficient a0 and history terms (tran_load_charges).
  * Converged when an update is within the tolerances, nothing was limited, and at least two
  * iterations were made (the first one is measured from the predictor) -- or, when the
  * tolerances lie below what double precision resolves in this step's system, at the rounding
- * floor: the updates have stopped shrinking (by less than TRAN_STALL_SHRINK from one
- * iteration to the next) and every node voltage's is within its tolerance plus the solve's
- * rounding bound (branch currents are not judged there: at given node voltages they follow
- * from them). w->rcond gets the last solve's pivot ratio. */
+ * floor (tran_at_floor). No polishing. */
+typedef struct tran_newton_ctx {
+    ss_solver *sv;
+    tran_ws *w;
+    double a0;             /* 1/s: the new charge's weight in i = a0 q + hist */
+    double vt_v;           /* thermal voltage */
+    double tol_rel, tol_v; /* Newton's tolerances */
+} tran_newton_ctx;
+
+/* newton_cfg.load_extra: every charge's companion at x, its charges into w->q_new. */
+static void tran_load_charges(void *vctx, double *G, double *rhs, const double *x)
+{
+    const tran_newton_ctx *c = vctx;
+    ss_solver *sv = c->sv;
+    tran_ws *w = c->w;
+    dev_tran_ctx tc = {.G = G, .rhs = rhs, .x = x, .vt_v = c->vt_v, .a0 = c->a0};
+    for (int i = 0; i < sv->n_elem; i++) {
+        if (w->q_off[i] < 0)
+            continue;
+        tc.q = w->q_new + w->q_off[i];
+        tc.hist = w->hist + w->q_off[i];
+        sv->elem[i].ops->load_tran(&sv->elem[i], &tc);
+    }
+}
+
+/* newton_cfg.at_floor: from the third iteration on, the updates have stopped shrinking (by less
+ * than TRAN_STALL_SHRINK from one iteration to the next) and every node voltage's is within its
+ * tolerance plus the solve's rounding bound (branch currents are not judged there: at given
+ * node voltages they follow from them). */
+static int tran_at_floor(void *vctx, int it, double worst, double worst_prev,
+                         const double *x_new, const double *x_old, double rcond)
+{
+    const tran_newton_ctx *c = vctx;
+    if (!(it >= 2 && worst > TRAN_STALL_SHRINK * worst_prev))
+        return 0;
+    double bound = rounding_bound(c->w, x_new, rcond);
+    int at_floor = 1;
+    for (int u = 0; u < c->w->n_volt && at_floor; u++)
+        at_floor = fabs(x_new[u] - x_old[u]) <=
+                   c->tol_rel * fmax(fabs(x_new[u]), fabs(x_old[u])) + c->tol_v + bound;
+    return at_floor;
+}
+
+/* Newton at one time point. x: the predictor in, the solution out; *iters counts the
+ * iterations, *worst_unknown gets the unknown judged worst (the singular pivot when a solve
+ * failed), w->rcond the last solve's pivot ratio. */
 static ss_status step_newton(ss_solver *sv, tran_ws *w, double a0, double tol_rel, double tol_v,
                              double *x, int *iters, int *worst_unknown)
 {
-    mna *m = sv->mna;
-    int n = w->n, nnz = mna_nnz(m);
-    double *G = mna_values(m);
-    double *rhs = sv->work_rhs;
-    const ss_options_set *o = &sv->ckt->opt;
-    double vt = analysis_vt(sv);
-    double worst_prev = HUGE_VAL;
-    *worst_unknown = -1;
-    for (int it = 0; it < TRAN_NEWTON_MAX; it++) {
-        memset(G, 0, (size_t)nnz * sizeof *G);
-        memset(rhs, 0, (size_t)n * sizeof *rhs);
-        dev_load_ctx lc = {.G = G,
-                           .rhs = rhs,
-                           .x = x,
-                           .gmin_s = o->gmin,
-                           .src_scale = 1.0,
-                           .vt_v = vt,
-                           .mode = LOAD_NORMAL,
-                           .ckt_elem = sv->elem};
-        for (int i = 0; i < sv->n_elem; i++)
-            sv->elem[i].ops->load_dc(&sv->elem[i], &lc);
-        dev_tran_ctx tc = {.G = G, .rhs = rhs, .x = x, .vt_v = vt, .a0 = a0};
-        for (int i = 0; i < sv->n_elem; i++) {
-            if (w->q_off[i] < 0)
-                continue;
-            tc.q = w->q_new + w->q_off[i];
-            tc.hist = w->hist + w->q_off[i];
-            sv->elem[i].ops->load_tran(&sv->elem[i], &tc);
-        }
-        int bad;
-        double rcond = 0.0;
-        ss_status st = mna_solve_real(m, rhs, &bad, &rcond);
-        (*iters)++;
-        w->rcond = rcond;
-        if (st != SS_OK) {
-            *worst_unknown = bad;
-            return st;
-        }
-        double worst = 0.0;
-        for (int u = 0; u < n; u++) {
-            double xn = rhs[u], xo = x[u];
-            if (!isfinite(xn)) {
-                *worst_unknown = u;
-                return SS_ERR_NO_CONVERGENCE;
-            }
-            double tol = tol_rel * fmax(fabs(xn), fabs(xo)) + (u < w->n_volt ? tol_v : o->tol_i);
-            double d = fabs(xn - xo);
-            if (d > worst * tol) {
-                worst = d / tol;
-                *worst_unknown = u;
-            }
-        }
-        int at_floor = 0;
-        if (worst > 1.0 && it >= 2 && worst > TRAN_STALL_SHRINK * worst_prev) {
-            double bound = rounding_bound(w, rhs, rcond);
-            at_floor = 1;
-            for (int u = 0; u < w->n_volt && at_floor; u++)
-                at_floor = fabs(rhs[u] - x[u]) <=
-                           tol_rel * fmax(fabs(rhs[u]), fabs(x[u])) + tol_v + bound;
-        }
-        memcpy(x, rhs, (size_t)n * sizeof *x);
-        if (!lc.limited && it > 0 && (worst <= 1.0 || at_floor))
-            return SS_OK;
-        worst_prev = worst;
-    }
-    return SS_ERR_NO_CONVERGENCE;
+    tran_newton_ctx c = {sv, w, a0, analysis_vt(sv), tol_rel, tol_v};
+    newton_cfg cfg = {.tol_rel = tol_rel,
+                      .tol_v = tol_v,
+                      .tol_i = sv->ckt->opt.tol_i,
+                      .max_iter = TRAN_NEWTON_MAX,
+                      .polish_max = 0,
+                      .first_mode = LOAD_NORMAL,
+                      .first_may_converge = 0,
+                      .worst_rule = NEWTON_WORST_SCALED,
+                      .src_scale = 1.0,
+                      .drive = &w->drive,
+                      .ctx = &c,
+                      .load_extra = tran_load_charges,
+                      .at_floor = tran_at_floor};
+    newton_result r;
+    ss_status st = newton_solve(sv, x, &cfg, &r);
+    *iters += r.iterations;
+    w->rcond = r.rcond;
+    *worst_unknown = r.solve_failed ? r.bad_unknown : r.worst_unknown;
+    return st;
 }
 
 /* Estimated local truncation error of the step to t0 over the allowed error, the worst node
@@ -414,7 +419,7 @@ static double set_history(tran_ws *w, enum step_form form, double h, double h_pr
 static ss_status solve_point(ss_solver *sv, tran_ws *w, const step_tols *tl, double a0,
                              double t_new, double *x, tran_stats *s, int *worst_u)
 {
-    set_sources(sv, w, t_new, tl->tstep_s);
+    set_sources(w, t_new, tl->tstep_s);
     int iters = 0;
     ss_status st = step_newton(sv, w, a0, tl->n_rel, tl->n_v, x, &iters, worst_u);
     s->newton_iterations += iters;
@@ -595,23 +600,22 @@ static ss_status initial_point(ss_solver *sv, const tran_cfg *cfg, tran_ws *w, d
 {
     int need_op = !sv->have_op;
     for (int k = 0; k < w->n_src; k++) {
-        element *e = &sv->elem[w->src[k]];
-        double v0 = wave_value(e->wave, 0.0, tstep);
-        *moved |= v0 != e->value;
-        e->value = v0;
+        double v0 = wave_value(w->wave[k], 0.0, tstep);
+        *moved |= v0 != w->src_val[k].elem->value;
+        w->src_val[k].value = v0;
     }
     if (cfg->x_start) {
         *moved = 0; /* x_op is left as it is */
     } else if (need_op || *moved) {
         ss_error e2 = {0};
-        ss_status st = op_solve_into(sv, NULL, &e2);
+        ss_status st = op_solve_driven(sv, &w->drive, NULL, &e2);
         if (st != SS_OK)
             return err_set(err, st, e2.file, e2.line, "transient: no operating point at t = 0: %s",
                            e2.message);
     }
     memcpy(w->x_n, cfg->x_start ? cfg->x_start : sv->x_op, (size_t)w->n * sizeof *w->x_n);
     if (cfg->x_start)
-        reset_device_state(sv, w->x_n);
+        reset_device_state(sv, w, w->x_n);
     /* at rest: i_n = 0 (ss_alloc zeroed it); from x_start the start after t = 0 needs none */
     eval_charges(sv, w, w->x_n, w->q_n);
     return SS_OK;
@@ -623,11 +627,11 @@ static ss_status check_source_steps(const ss_solver *sv, const tran_ws *w, doubl
                                     ss_error *err)
 {
     int busiest;
-    double needed = source_steps_needed(sv, w, tstop, &busiest);
+    double needed = source_steps_needed(w, tstop, &busiest);
     if (needed > (double)TRAN_MAX_STEPS) {
-        const element *e = &sv->elem[busiest];
+        const element *e = &sv->elem[w->src[busiest]];
         char why[64] = "two at each of its corners";
-        if (((const src_wave *)e->wave)->kind == WAVE_SIN)
+        if (w->wave[busiest]->kind == WAVE_SIN)
             snprintf(why, sizeof why, "%d a period of its sine", WAVE_SIN_STEPS);
         return err_set(err, SS_ERR_LIMIT, sv->ckt->tran.file ? sv->ckt->tran.file : sv->ckt->file,
                        sv->ckt->tran.line,
@@ -706,7 +710,7 @@ static ss_status reject_step(ss_solver *sv, tran_ws *w, tran_march *m, tran_stat
                              const step_try *a, double f, ss_error *err)
 {
     s->rejected_lte++;
-    reset_device_state(sv, w->x_n);
+    reset_device_state(sv, w, w->x_n);
     /* an estimate within what the solutions' rounding can make of it that does not
      * fall when the step is at least halved, or that drove the step to its floor, is
      * rounding, not truncation */
@@ -744,7 +748,7 @@ static double accept_startup(ss_solver *sv, tran_ws *w, tran_march *m, tran_stat
     for (int q = 0; q < w->n_q; q++)
         w->i_n[q] = (3.0 * w->q_new[q] - 4.0 * w->q_n[q] + w->q_nm1[q]) / a->h_try;
     accept_point(w, w->x_new, w->q_new, m->t_hist, a->t_new);
-    reset_device_state(sv, w->x_n); /* the extrapolated point, not the last solve */
+    reset_device_state(sv, w, w->x_n); /* the extrapolated point, not the last solve */
     return h_next;
 }
 
@@ -780,8 +784,8 @@ static void accept_step(ss_solver *sv, const tran_cfg *cfg, tran_ws *w, tran_mar
     }
     if (a->lands && fabs(m->t - m->next_bp) <= m->eps_t) {
         m->pts_since_bp = 1;
-        m->next_bp = next_corner(sv, w, m->t, m->eps_t, m->tstep);
-        m->h_src = source_step_cap(sv, w, m->t);
+        m->next_bp = next_corner(w, m->t, m->eps_t, m->tstep);
+        m->h_src = source_step_cap(w, m->t);
         h_next = TRAN_BP_CUT * fmin(fmin(a->h_prop, m->h_src), m->next_bp - m->t);
     }
     m->h = fmin(h_next, m->hmax);
@@ -804,8 +808,8 @@ static ss_status march(ss_solver *sv, const tran_cfg *cfg, tran_ws *w, tran_marc
     }
     m->t = 0.0;
     m->h_prev = 0.0;
-    m->next_bp = next_corner(sv, w, 0.0, m->eps_t, m->tstep);
-    m->h_src = source_step_cap(sv, w, 0.0);
+    m->next_bp = next_corner(w, 0.0, m->eps_t, m->tstep);
+    m->h_src = source_step_cap(w, 0.0);
     m->h = TRAN_FIRST_STEP * fmin(fmin(fmin(m->tstep, m->hmax), m->h_src), m->next_bp);
     m->pts_since_bp = 1;
     long alloc_mark = ss_alloc_count();
@@ -834,7 +838,7 @@ static ss_status march(ss_solver *sv, const tran_cfg *cfg, tran_ws *w, tran_marc
         }
         if (nst != SS_OK) {
             s->rejected_newton++;
-            reset_device_state(sv, w->x_n);
+            reset_device_state(sv, w, w->x_n);
             m->h = a.h_try * TRAN_NEWTON_CUT;
             if (m->h < m->hmin)
                 st = step_floor_error(sv, m->t, m->h, a.worst_u, 1, err);
@@ -866,7 +870,7 @@ ss_status tran_run(ss_solver *sv, const tran_cfg *cfg, tran_stats *stats, ss_err
     if (st != SS_OK)
         return st;
     tran_ws w;
-    if ((st = ws_alloc(sv, &w, err)) != SS_OK)
+    if ((st = ws_alloc(sv, cfg, &w, err)) != SS_OK)
         return st;
     tran_march m;
     march_init(sv, cfg, &m);
@@ -875,12 +879,10 @@ ss_status tran_run(ss_solver *sv, const tran_cfg *cfg, tran_stats *stats, ss_err
     if (st == SS_OK)
         st = check_source_steps(sv, &w, m.tstop, err);
     if (st != SS_OK) {
-        restore_sources(sv, &w);
         ws_free(&w);
         return st;
     }
     st = march(sv, cfg, &w, &m, &s, err);
-    restore_sources(sv, &w);
     if (moved) /* x_op holds the t = 0 point, not the DC one */
         sv->have_op = 0;
     ws_free(&w);

@@ -29,6 +29,11 @@ typedef struct tran_cfg {
     /* the state at t = 0, every unknown (NULL: the operating point with every source at its
      * t = 0 value): a periodic run continued from where a similar one ended */
     const double *x_start;
+    /* when set, the run's only time-varying source: only_src follows only_wave and every
+     * other source rests at its DC value (the large-signal drive); NULL: every source with a
+     * form of its own (e->wave) follows it */
+    const element *only_src;
+    const struct src_wave *only_wave;
 } tran_cfg;
 
 typedef struct tran_stats {
@@ -44,10 +49,10 @@ typedef struct tran_stats {
 /* Runs a transient from the DC operating point with every time-varying source at its t = 0
  * value (solved here, or reused when the circuit already holds it), or from cfg->x_start, to
  * the last output point.
- * Inputs: cfg (not modified); the circuit's elements, whose sources' e->wave give their values
- * in time (the caller may point a source's wave at its own form for the run).
- * Outputs: cfg->on_point per output point; stats (optional). Sources' DC values are restored;
- * sv->x_op keeps the t = 0 operating point.
+ * Inputs: cfg (not modified); the sources' forms (e->wave, or cfg->only_wave), whose values in
+ * time reach the devices through the load context: no element value is written.
+ * Outputs: cfg->on_point per output point; stats (optional); sv->x_op keeps the t = 0
+ * operating point.
  * Returns SS_OK, SS_ERR_NO_CONVERGENCE (initial point, or the step fell below the floor: the
  * message names the time and the worst unknown), SS_ERR_SINGULAR, SS_ERR_NOMEM. */
 SS_HIDDEN ss_status tran_run(ss_solver *sv, const tran_cfg *cfg, tran_stats *stats,

@@ -27,6 +27,21 @@ enum load_mode {
     LOAD_FROM_X          /* first iteration of a continuation: take voltages from x as they are */
 };
 
+/* One independent source's value in a solve, instead of its DC value: a .dc sweep point, a
+ * transient time point, the quasi-static transfer's input. */
+typedef struct dev_src_value {
+    const element *elem;
+    double value; /* V or A */
+} dev_src_value;
+
+/* Where the independent sources stand in a solve: each at its DC value (e->value) except the
+ * n_set listed in set (the first entry for an element wins). The element values themselves
+ * are never written for a solve, so a sweep or a transient leaves nothing to restore. */
+typedef struct dev_src_drive {
+    const dev_src_value *set;
+    int n_set;
+} dev_src_drive;
+
 typedef struct dev_load_ctx {
     double *G;          /* real matrix values, indexed by slot */
     double *rhs;        /* right-hand side, indexed by unknown */
@@ -37,7 +52,20 @@ typedef struct dev_load_ctx {
     enum load_mode mode;
     int limited;        /* set when a device limited a junction voltage */
     const element *ckt_elem; /* the circuit's element array (controlled sources' controls) */
+    const dev_src_drive *drive; /* the sources' present values; NULL: every one at its DC value */
 } dev_load_ctx;
+
+/* The present value of independent source e in the solve lc describes (before src_scale): its
+ * entry in lc->drive, else its DC value. The V and I sources read their value only through
+ * this, as they read their AC phasor through source_ac_phasor. */
+static inline double source_value(const element *e, const dev_load_ctx *lc)
+{
+    const dev_src_drive *d = lc->drive;
+    for (int k = 0; d && k < d->n_set; k++)
+        if (d->set[k].elem == e)
+            return d->set[k].value;
+    return e->value;
+}
 
 typedef struct dev_ac_ctx {
     double complex *G;   /* complex matrix values, indexed by slot */

@@ -13,7 +13,7 @@ static void isrc_claim(element *e, const element *elems, dev_setup_ctx *sc)
 
 static void isrc_load_dc(element *e, dev_load_ctx *lc)
 {
-    double i_a = e->value * lc->src_scale;
+    double i_a = source_value(e, lc) * lc->src_scale;
     rhs_add(lc->rhs, e->node[0], -i_a);
     rhs_add(lc->rhs, e->node[1], i_a);
 }
@@ -28,7 +28,7 @@ static void isrc_load_ac(const element *e, dev_ac_ctx *ac)
 static void isrc_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
 {
     (void)x;
-    double i_a = e->value * lc->src_scale;
+    double i_a = source_value(e, lc) * lc->src_scale;
     rhs_add(resid, e->node[0], i_a);
     rhs_add(resid, e->node[1], -i_a);
 }

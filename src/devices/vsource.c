@@ -1,5 +1,6 @@
 /* Independent voltage source: a branch current unknown; i(V) is the current entering the +
- * node through the source. DC value scaled for source stepping; AC phasor in sweeps. */
+ * node through the source. Its present value (source_value: DC, or a sweep's or a transient's)
+ * scaled for source stepping; AC phasor in sweeps. */
 #include "devices/passive.h"
 
 static int vsrc_parse(pctx *p, element *e) { return parse_source_spec(p, e); }
@@ -24,7 +25,7 @@ static void vsrc_load_dc(element *e, dev_load_ctx *lc)
     stamp_add(lc->G, e->slot[1], -1.0);
     stamp_add(lc->G, e->slot[2], 1.0);
     stamp_add(lc->G, e->slot[3], -1.0);
-    lc->rhs[e->branch] += e->value * lc->src_scale;
+    lc->rhs[e->branch] += source_value(e, lc) * lc->src_scale;
 }
 
 static void vsrc_load_ac(const element *e, dev_ac_ctx *ac)
@@ -48,7 +49,7 @@ static void vsrc_kcl(const element *e, const double *x, const dev_load_ctx *lc, 
 {
     rhs_add(resid, e->node[0], x[e->branch]);
     rhs_add(resid, e->node[1], -x[e->branch]);
-    resid[e->branch] += xv(x, e->node[0]) - xv(x, e->node[1]) - e->value * lc->src_scale;
+    resid[e->branch] += xv(x, e->node[0]) - xv(x, e->node[1]) - source_value(e, lc) * lc->src_scale;
 }
 
 const dev_ops vsource_ops = {

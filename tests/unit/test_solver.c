@@ -198,6 +198,38 @@ static void test_kcl_verification_catches_inconsistent_stamp(void **state)
     ss_test_destroy(&ckt);
 }
 
+/* A resistor whose own current equation is right up to 0.75 V across it and twice too large
+ * above: a sweep that starts below passes the operating point's check, then moves past it. */
+static void kcl_wrong_above(const element *e, const double *x, const dev_load_ctx *lc, double *r)
+{
+    (void)lc;
+    double v = xv(x, e->node[0]) - xv(x, e->node[1]);
+    double i_a = (fabs(v) > 0.75 ? 2.0 : 1.0) * v / e->value;
+    rhs_add(r, e->node[0], i_a);
+    rhs_add(r, e->node[1], -i_a);
+}
+
+/* Every .dc point, not only the first (a full operating point), passes the Kirchhoff check;
+ * the refusal names the sweep value and the node. The swept source's own value is untouched. */
+static void test_dc_sweep_points_are_kcl_verified(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse("kcl sweep\nv1 a 0 1\nr1 a b 1k\nr2 b 0 1k\n.dc v1 1 3 1\n");
+    ss_solver *sv = ss_test_sv(ckt);
+    static dev_ops broken;
+    broken = *sv->elem[2].ops;
+    broken.kcl = kcl_wrong_above;
+    sv->elem[2].ops = &broken;
+    ss_table *dc = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_dc_sweep_run(sv, &dc, &err), SS_ERR_NO_CONVERGENCE);
+    assert_null(dc);
+    ss_assert_contains(err.message, ".dc at v1 = 2: ");
+    ss_assert_contains(err.message, "fails Kirchhoff's law at node 'b'");
+    ss_assert_close(sv->elem[0].value, 1.0, 0, 0);
+    ss_test_destroy(&ckt);
+}
+
 static void expect_op_error(const char *text, ss_status code, const char *message)
 {
     ss_circuit *ckt = ss_test_parse(text);
@@ -240,6 +272,7 @@ int main(void)
         cmocka_unit_test(test_pnp_currents_are_negative),
         cmocka_unit_test(test_gmin_stepping_reaches_same_answer),
         cmocka_unit_test(test_kcl_verification_catches_inconsistent_stamp),
+        cmocka_unit_test(test_dc_sweep_points_are_kcl_verified),
         cmocka_unit_test(test_topology_errors_named),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
