@@ -39,7 +39,7 @@ typedef struct qs_ctx {
 static double stage_gain_at(ss_solver *sv, const stage_ref *sr, double omega, ss_error *err,
                             ss_status *st)
 {
-    sv->ac_serial = 0; /* element values may have changed: rebuild the AC cache */
+    solver_lost_ac(sv); /* element values may have changed: rebuild the AC cache */
     *st = ac_solve_point(sv, omega, sr->src, 0, 0, err);
     return *st == SS_OK ? cabs(sv->work_zrhs[sr->out_node - 1]) : SS_NAN;
 }
@@ -90,7 +90,7 @@ static ss_status qs_classify(qs_ctx *c, double freq_hz, double *gain_ac, ss_erro
         c->a0[i] = (is_c ? FROZEN_G_S : FROZEN_R_OHM) / v0;
         c->hist[i] = -c->a0[i] * q[0];
     }
-    sv->ac_serial = 0;
+    solver_lost_ac(sv);
     return st;
 }
 

@@ -108,7 +108,7 @@ ss_status ss_dc_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
             st = sink_row(sink, row, err);
         }
     }
-    sv->have_op = 0; /* x_op now holds the last sweep point */
+    solver_lost_op(sv); /* x_op now holds the last sweep point */
     sv->op_serial++;
     st = sink_end(sink, st, err);
     ss_free(names);

@@ -292,7 +292,7 @@ ss_status op_solve_driven(ss_solver *sv, const dev_src_drive *drive, ss_op_stats
         st = gmin_stepping(sv, drive, x, &s.newton_iterations, &s.gmin_steps, &r);
     if (st == SS_ERR_NO_CONVERGENCE || st == SS_ERR_SINGULAR)
         st = source_stepping(sv, drive, x, &s.newton_iterations, &s.source_steps, &r);
-    sv->have_op = 0;
+    solver_lost_op(sv);
     if (st == SS_ERR_SINGULAR || (st == SS_ERR_NO_CONVERGENCE && singular_seen)) {
         if (r.bad_unknown < 0)
             r.bad_unknown = bad_unknown;

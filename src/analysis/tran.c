@@ -884,7 +884,7 @@ ss_status tran_run(ss_solver *sv, const tran_cfg *cfg, tran_stats *stats, ss_err
     }
     st = march(sv, cfg, &w, &m, &s, err);
     if (moved) /* x_op holds the t = 0 point, not the DC one */
-        sv->have_op = 0;
+        solver_lost_op(sv);
     ws_free(&w);
     if (stats)
         *stats = s;
