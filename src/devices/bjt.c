@@ -108,7 +108,7 @@ static int bjt_parse(pctx *p, element *e)
             return -1;
     }
     e->n_node = 3; /* a substrate node is accepted and not modelled in this version */
-    e->mod = pctx_model(p, pctx_tok(p, model_tok), &bjt_ops);
+    e->mod = pctx_model(p, pctx_tok(p, model_tok), e->ops);
     if (!e->mod)
         return -1;
     e->area = 1.0;

@@ -261,9 +261,6 @@ SS_HIDDEN void device_param_table_md(const dev_ops *ops, ss_strbuf *out);
 /* The parameter of the model that the beta/temperature corners spread (DMP_CORNER), -1 none. */
 SS_HIDDEN int model_corner_param(const model *m);
 
-extern const dev_ops resistor_ops, capacitor_ops, inductor_ops, vsource_ops, isource_ops,
-    vcvs_ops, vccs_ops, cccs_ops, ccvs_ops, diode_ops, bjt_ops;
-
 
 /* ---- stamping helpers -------------------------------------------------------------------- */
 /* Which overlaid part of an element (circuit.h) its kind uses. */

@@ -53,7 +53,7 @@ static int diode_parse(pctx *p, element *e)
         return -1;
     if (pctx_ntok(p) < 4)
         return pctx_error(p, "missing model name");
-    e->mod = pctx_model(p, pctx_tok(p, 3), &diode_ops);
+    e->mod = pctx_model(p, pctx_tok(p, 3), e->ops);
     if (!e->mod)
         return -1;
     e->area = 1.0;
