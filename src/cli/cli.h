@@ -56,6 +56,8 @@ int write_table(const ss_table *t, const char *path, ss_error *err);
 int out_open(const cli_args *a, ss_outset **set);
 int out_reserve(ss_outset *set, const char *dir, const char *const *names, int n,
                 const char **staged);
+int out_start(const cli_args *a, const char *const *names, int n, const char **staged,
+              ss_outset **set);
 int out_commit(ss_outset *set, int rc);
 /* " %13.6g", or "-" right-aligned for NaN: a table cell of the report */
 void print_bound(double v);

@@ -142,6 +142,19 @@ int out_reserve(ss_outset *set, const char *dir, const char *const *names, int n
     return EXIT_OK;
 }
 
+/* out_open, then out_reserve of names[0 .. n-1]: the set of a command's files, reserved
+ * before any work (*set NULL on failure). */
+int out_start(const cli_args *a, const char *const *names, int n, const char **staged,
+              ss_outset **set)
+{
+    int rc = out_open(a, set);
+    if (rc == EXIT_OK)
+        rc = out_reserve(*set, a->out_dir, names, n, staged);
+    if (rc != EXIT_OK)
+        ss_outset_destroy(set);
+    return rc;
+}
+
 /* Commits the set (the run succeeded); rc passes through unless the commit fails. */
 int out_commit(ss_outset *set, int rc)
 {

@@ -314,13 +314,9 @@ int cmd_run(const cli_args *a)
     memset(&c, 0, sizeof c);
     c.a = a;
     run_files(&c);
-    int rc = out_open(a, &set);
-    if (rc == EXIT_OK)
-        rc = out_reserve(set, a->out_dir, c.names, c.n_files, c.path);
-    if (rc != EXIT_OK) {
-        ss_outset_destroy(&set);
+    int rc = out_start(a, c.names, c.n_files, c.path, &set);
+    if (rc != EXIT_OK)
         return rc;
-    }
     ss_error err = {0};
     ss_circuit *ckt = NULL;
     rc = load_circuit(a, &ckt, &c.sv);

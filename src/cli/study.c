@@ -109,13 +109,9 @@ int cmd_study(const cli_args *a, int spread)
     static const char *const names[2] = {"study.csv", "study_summary.csv"};
     const char *path[2];
     ss_outset *set = NULL;
-    int rc = out_open(a, &set);
-    if (rc == EXIT_OK)
-        rc = out_reserve(set, a->out_dir, names, 2, path);
-    if (rc != EXIT_OK) {
-        ss_outset_destroy(&set);
+    int rc = out_start(a, names, 2, path, &set);
+    if (rc != EXIT_OK)
         return rc;
-    }
     ss_study *s = NULL;
     ss_limits *lim = NULL;
     rc = make_study(a, &s, &lim);
@@ -171,13 +167,9 @@ int cmd_sensitivity(const cli_args *a)
     static const char *const names[2] = {"sensitivity.csv", "corners.csv"};
     const char *path[2];
     ss_outset *set = NULL;
-    int rc = out_open(a, &set);
-    if (rc == EXIT_OK)
-        rc = out_reserve(set, a->out_dir, names, 2, path);
-    if (rc != EXIT_OK) {
-        ss_outset_destroy(&set);
+    int rc = out_start(a, names, 2, path, &set);
+    if (rc != EXIT_OK)
         return rc;
-    }
     ss_study *s = NULL;
     ss_limits *lim = NULL;
     rc = make_study(a, &s, &lim);
@@ -263,13 +255,9 @@ int cmd_merge(const cli_args *a)
     static const char *const names[2] = {"study.csv", "study_summary.csv"};
     const char *path[2];
     ss_outset *set = NULL;
-    int rc = out_open(a, &set);
-    if (rc == EXIT_OK)
-        rc = out_reserve(set, a->out_dir, names, 2, path);
-    if (rc != EXIT_OK) {
-        ss_outset_destroy(&set);
+    int rc = out_start(a, names, 2, path, &set);
+    if (rc != EXIT_OK)
         return rc;
-    }
     ss_error err = {0};
     ss_table *merged = NULL, *summary = NULL;
     ss_limits *lim = NULL;
@@ -305,13 +293,9 @@ int cmd_snap(const cli_args *a)
     static const char *const names[2] = {"snap_values.csv", "snap_figures.csv"};
     const char *path[2];
     ss_outset *set = NULL;
-    int rc = out_open(a, &set);
-    if (rc == EXIT_OK)
-        rc = out_reserve(set, a->out_dir, names, 2, path);
-    if (rc != EXIT_OK) {
-        ss_outset_destroy(&set);
+    int rc = out_start(a, names, 2, path, &set);
+    if (rc != EXIT_OK)
         return rc;
-    }
     ss_study *s = NULL;
     ss_limits *lim = NULL;
     rc = make_study(a, &s, &lim);

@@ -88,8 +88,13 @@ const char *ss_circuit_input(const ss_circuit *ckt, int index, const char **out_
 
 ss_status circuit_check_temp(const struct ss_circuit *ckt, double temp_c, ss_error *err)
 {
-    for (int m = 0; m < ckt->n_models; m++) {
-        const model *md = ckt->models[m];
+    return models_check_temp(ckt->models, ckt->n_models, temp_c, err);
+}
+
+ss_status models_check_temp(model *const *models, int n_models, double temp_c, ss_error *err)
+{
+    for (int m = 0; m < n_models; m++) {
+        const model *md = models[m];
         element probe; /* what the temperature law reads: the model and an area of 1 */
         memset(&probe, 0, sizeof probe);
         probe.ops = md->ops;

@@ -249,6 +249,9 @@ static inline int node_unknown(int node_idx) { return node_idx - 1; }
 /* Model m's parameters inside the ranges its kind's table states: 0, or -1 with the message
  * ("model 'qn': bf must be positive, got 0") in msg. */
 SS_HIDDEN int model_range_check(const model *m, char *msg, size_t msg_len);
+/* The same for models[0 .. n_models-1] (a solver context's copies). */
+SS_HIDDEN ss_status models_check_temp(model *const *models, int n_models, double temp_c,
+                                      ss_error *err);
 SS_HIDDEN ss_status circuit_check_temp(const struct ss_circuit *ckt, double temp_c,
                                        ss_error *err);
 /* The stage's input source and output node checked and found: their names as the circuit

@@ -222,3 +222,21 @@ int expr_eval(const char *text, expr_lookup_fn lookup, void *ctx, double *out, c
     int depth = 0;
     return expr_eval_nested(text, &depth, lookup, ctx, out, msg, msg_len);
 }
+
+int expr_eval_value(const char *text, int *depth, expr_lookup_fn lookup, void *ctx, double *out,
+                    char *msg, size_t msg_len)
+{
+    size_t n = strlen(text);
+    char buf[4096];
+    const char *t = text;
+    if (n >= 2 && text[0] == '{' && text[n - 1] == '}') {
+        if (n - 2 >= sizeof buf) {
+            snprintf(msg, msg_len, "expression too long");
+            return -1;
+        }
+        memcpy(buf, text + 1, n - 2);
+        buf[n - 2] = '\0';
+        t = buf;
+    }
+    return expr_eval_nested(t, depth, lookup, ctx, out, msg, msg_len);
+}

@@ -61,6 +61,9 @@ SS_HIDDEN int expr_eval(const char *text, expr_lookup_fn lookup, void *ctx, doub
  * EXPR_MAX_DEPTH budget and cannot exhaust the stack. *depth is as it was on return. */
 SS_HIDDEN int expr_eval_nested(const char *text, int *depth, expr_lookup_fn lookup, void *ctx,
                                double *out, char *msg, size_t msg_len);
+/* expr_eval_nested of a value as written: an expression with or without its {braces}. */
+SS_HIDDEN int expr_eval_value(const char *text, int *depth, expr_lookup_fn lookup, void *ctx,
+                              double *out, char *msg, size_t msg_len);
 
 /* ---- device-facing parse API ------------------------------------------------------------- */
 typedef struct pctx pctx; /* the parser's state for one element line */

@@ -42,22 +42,10 @@ static int scope_lookup(void *vctx, const char *name, double *out, char *msg, si
 
 /* Evaluates an expression text in a scope: {braces} optional. */
 int eval_text(parser *ps, const scope *sc, const char *text, double *out, char *msg,
-                     size_t msg_len)
+              size_t msg_len)
 {
-    size_t n = strlen(text);
-    char buf[4096];
-    const char *t = text;
-    if (n >= 2 && text[0] == '{' && text[n - 1] == '}') {
-        if (n - 2 >= sizeof buf) {
-            snprintf(msg, msg_len, "expression too long");
-            return -1;
-        }
-        memcpy(buf, text + 1, n - 2);
-        buf[n - 2] = '\0';
-        t = buf;
-    }
     lookup_ctx lc = {ps, sc};
-    return expr_eval_nested(t, &ps->expr_depth, scope_lookup, &lc, out, msg, msg_len);
+    return expr_eval_value(text, &ps->expr_depth, scope_lookup, &lc, out, msg, msg_len);
 }
 
 int eval_global_param(parser *ps, int idx, char *msg, size_t msg_len)

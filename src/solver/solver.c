@@ -237,30 +237,9 @@ ss_status solver_temp_error(const ss_solver *sv, const element *e, const char *w
                    e->mod->name, sv->temp_c, why);
 }
 
-/* Every model of the context scaled to temp_c (area 1): SS_ERR_INPUT at the first whose scaled
- * parameters leave their range. */
-static ss_status check_temp(const ss_solver *sv, double temp_c, ss_error *err)
-{
-    for (int m = 0; m < sv->ckt->n_models; m++) {
-        const model *md = sv->models[m];
-        element probe; /* what the temperature law reads: the model and an area of 1 */
-        memset(&probe, 0, sizeof probe);
-        probe.ops = md->ops;
-        probe.mod = md;
-        probe.area = 1.0;
-        double tp[MODEL_MAX_PARAMS];
-        char why[200];
-        if (probe.ops->temp &&
-            probe.ops->temp(&probe, temp_c + SS_ZERO_C_IN_K, tp, why, sizeof why) != 0)
-            return err_set(err, SS_ERR_INPUT, md->file, md->line, "model '%s': at %g C, %s",
-                           md->name, temp_c, why);
-    }
-    return SS_OK;
-}
-
 ss_status solver_check_temp(const ss_solver *sv, ss_error *err)
 {
-    return check_temp(sv, sv->temp_c, err);
+    return models_check_temp(sv->models, sv->ckt->n_models, sv->temp_c, err);
 }
 
 ss_status ss_solver_set_temp(ss_solver *sv, double temp_c, ss_error *err)
@@ -268,7 +247,7 @@ ss_status ss_solver_set_temp(ss_solver *sv, double temp_c, ss_error *err)
     if (!(temp_c > -SS_ZERO_C_IN_K && temp_c <= 1000.0))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "temperature %g C is outside -273.15 .. 1000 C", temp_c);
-    ss_status st = check_temp(sv, temp_c, err);
+    ss_status st = models_check_temp(sv->models, sv->ckt->n_models, temp_c, err);
     if (st != SS_OK)
         return st;
     sv->temp_c = temp_c;

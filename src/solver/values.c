@@ -49,21 +49,9 @@ static int replay_lookup(void *vctx, const char *name, double *out, char *msg, s
 static int eval_in(replay_ctx *rc, int scope, const char *text, double *out, char *msg,
                    size_t msg_len)
 {
-    size_t n = strlen(text);
-    char buf[4096];
-    const char *t = text;
-    if (n >= 2 && text[0] == '{' && text[n - 1] == '}') {
-        if (n - 2 >= sizeof buf) {
-            snprintf(msg, msg_len, "expression too long");
-            return -1;
-        }
-        memcpy(buf, text + 1, n - 2);
-        buf[n - 2] = '\0';
-        t = buf;
-    }
     int saved = rc->scope;
     rc->scope = scope;
-    int r = expr_eval_nested(t, &rc->depth, replay_lookup, rc, out, msg, msg_len);
+    int r = expr_eval_value(text, &rc->depth, replay_lookup, rc, out, msg, msg_len);
     rc->scope = saved;
     return r;
 }
