@@ -2,7 +2,7 @@
 # Installs the Debian packages stagesim needs to build and test (Debian 12 names).
 # Skips apt entirely when everything is already there; uses sudo when not run as root.
 set -euo pipefail
-PKGS=(build-essential cmake libsuitesparse-dev libcmocka-dev python3 python3-numpy python3-scipy)
+PKGS=(build-essential cmake pkg-config libsuitesparse-dev libcmocka-dev python3 python3-numpy python3-scipy)
 # the test suite also runs the examples under valgrind and shards a run with GNU parallel
 [ "${1:-}" = "--with-tools" ] && PKGS+=(valgrind parallel)
 missing=()

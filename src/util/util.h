@@ -19,8 +19,8 @@ SS_HIDDEN void *ss_realloc(void *p, size_t size);  /* NULL on failure, p untouch
 SS_HIDDEN void ss_free(void *p);
 SS_HIDDEN char *ss_strdup(const char *s);
 /* Test hooks: make the allocation with 0-based ordinal n fail (-1 disables); count calls. */
-SS_API void ss_alloc_fail_at(long n);
-SS_API long ss_alloc_count(void);
+SS_HIDDEN void ss_alloc_fail_at(long n);
+SS_HIDDEN long ss_alloc_count(void);
 
 /* ---- arena: many small allocations freed at once ------------------------------------------ */
 typedef struct ss_arena_block ss_arena_block;
