@@ -618,12 +618,13 @@ def main(argv):
         print("not an executable: %s" % argv[1], file=sys.stderr)
         return 2
     usage = usage_text(binary)
-    passed = failed = 0
+    passed = failed = skipped = 0
     for c in CASES:
         if only and c.name not in only:
             continue
         if c.skip:
             print("skip  %s (%s)" % (c.name, c.skip))
+            skipped += 1
             continue
         problems, err = run_case(binary, c, usage)
         if problems:
@@ -637,7 +638,7 @@ def main(argv):
         if verbose:
             for line in err.splitlines():
                 print("      | " + line)
-    print("%d passed, %d failed" % (passed, failed))
+    print("%d passed, %d failed, %d skipped" % (passed, failed, skipped))
     return 1 if failed else 0
 
 

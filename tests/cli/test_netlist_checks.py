@@ -9,7 +9,7 @@ limit and checks the exit code (0 ok, 2 bad input) and the exact stderr text, wi
 temporary folder's path written as <TMP>; that no signal ended the process and that it did not
 hang. A few cases check what was written instead (op.csv). Every refusal names the file and
 line (or the file alone when the whole file is at fault) and the element, model, node or
-subcircuit at fault. Prints one line per case and a final `N passed, M failed`.
+subcircuit at fault. Prints one line per case and a final `N passed, M failed, K skipped`.
 """
 import csv
 import math
@@ -449,13 +449,14 @@ def main(argv):
     verbose = "-v" in argv[2:]
     only = [a for a in argv[2:] if a != "-v"]
     asan = built_with_asan(binary)
-    passed = failed = 0
+    passed = failed = skipped = 0
     for c in CASES:
         if only and c.name not in only:
             continue
         problems, err = run_case(binary, c, asan)
         if problems is None:
             print("skip  %s: %s" % (c.name, err))
+            skipped += 1
             continue
         if problems:
             failed += 1
@@ -468,7 +469,7 @@ def main(argv):
         if verbose:
             for line in err.splitlines():
                 print("      | " + line)
-    print("%d passed, %d failed" % (passed, failed))
+    print("%d passed, %d failed, %d skipped" % (passed, failed, skipped))
     return 1 if failed else 0
 
 
