@@ -51,6 +51,29 @@ try:
     check("libstagesim.so with a versioned soname", len(sonames) == 1, str(os.listdir(libdir)))
     check("libstagesim.a installed", os.path.exists(os.path.join(libdir, "libstagesim.a")))
     env = dict(os.environ, LD_LIBRARY_PATH=libdir)
+    # the manual pages: one per command, the netlist language, the library; every option a
+    # command's --help lists is in its page; groff renders them without a warning
+    mandir = os.path.join(prefix, "share", "man")
+    pages = ["man1/stagesim.1", "man5/stagesim-netlist.5", "man3/stagesim.3"] + \
+        ["man1/stagesim-%s.1" % c for c in ("run", "check", "sweep", "spread", "sensitivity",
+                                            "snap", "merge")]
+    for page in pages:
+        path = os.path.join(mandir, page)
+        if not os.path.exists(path):
+            check(page + " installed", False)
+            continue
+        g = run(["groff", "-man", "-Tutf8", "-ww", "-z", path]) if shutil.which("groff") else None
+        check(page + " installed and renders without a warning",
+              g is None or (g.returncode == 0 and not g.stderr.strip()), g.stderr if g else "")
+        m = re.match(r"man1/stagesim-(\w+)\.1", page)
+        if m:
+            helptext = run([os.path.join(prefix, "bin", "stagesim"), m.group(1), "--help"],
+                           env=env).stdout
+            text = open(path, encoding="utf-8").read().replace("\\-", "-")
+            opts = set(re.findall(r"(?<![\w-])(--?[a-z][a-z-]*)", helptext.split("example:")[0]))
+            missing = sorted(o for o in opts if o not in text)
+            check("every option of %s --help in its page" % m.group(1), not missing,
+                  str(missing))
 
     # the reference: the tour from the build tree
     ref = run([os.path.join(build, "tests", "api_tour"), netlist])
