@@ -4,7 +4,14 @@
 set -euo pipefail
 PKGS=(build-essential cmake pkg-config libsuitesparse-dev libcmocka-dev python3 python3-numpy python3-scipy)
 # the test suite also runs the examples under valgrind and shards a run with GNU parallel
-[ "${1:-}" = "--with-tools" ] && PKGS+=(valgrind parallel)
+# (--with-slurm: also a one-node Slurm cluster for the cluster test, tests/cluster/)
+for opt in "$@"; do
+    case "$opt" in
+        --with-tools) PKGS+=(valgrind parallel) ;;
+        --with-slurm) PKGS+=(slurm-wlm munge) ;;
+        *) echo "install_deps.sh: unknown option '$opt' (--with-tools, --with-slurm)" >&2; exit 2 ;;
+    esac
+done
 missing=()
 for p in "${PKGS[@]}"; do
     dpkg -s "$p" >/dev/null 2>&1 || missing+=("$p")
