@@ -102,6 +102,7 @@ enum tape_target {
     TAPE_ELEM = 1, /* a double inside element `index`, at byte offset `field` */
     TAPE_MODEL,    /* parameter `field` of model `index` */
     TAPE_SCOPE,    /* subcircuit-instance parameter slot `field` (expr_tape.slot_name) */
+    TAPE_STAGE_LOAD, /* the stage's load (.stage load=): a context's own request */
     TAPE_FIXED     /* an analysis setting, option or waveform value: fixed after parsing */
 };
 typedef struct tape_entry {

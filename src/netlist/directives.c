@@ -112,7 +112,10 @@ static int set_stage(parser *ps, const logline *ll, void *vctx, const char *name
         ckt->stage.out = text;
     else if (strcmp(name, "load") == 0) {
         double v;
-        if (line_value(ps, ll, NULL, text, ".stage", "load", &v) != 0)
+        ps->tape_model = TAPE_HINT_STAGE_LOAD; /* a context may change it: not fixed */
+        int rc = line_value(ps, ll, NULL, text, ".stage", "load", &v);
+        ps->tape_model = -1;
+        if (rc != 0)
             return -1;
         if (!(v > 0.0))
             return line_error(ps, ll, ".stage: load must be a positive resistance, got %g", v),

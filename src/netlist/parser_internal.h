@@ -107,7 +107,8 @@ typedef struct parser {
     int n_opt;
     int nomem;
     int expr_depth; /* expression nesting, shared by the parameters an expression refers to */
-    /* the model and parameter a value being read belongs to (models.c), -1 when none */
+    /* the model and parameter a value being read belongs to (models.c), -1 when none;
+     * TAPE_HINT_STAGE_LOAD while .stage load= is read */
     int tape_model, tape_param;
 } parser;
 
@@ -173,6 +174,7 @@ SS_HIDDEN ss_status apply_late_overrides(parser *ps);
 
 /* ---- tape.c: the expression tape (circuit.h) --------------------------------------------- */
 
+#define TAPE_HINT_STAGE_LOAD (-2)
 /* A new scope on the tape; its id, or -1 out of memory (set). */
 SS_HIDDEN int tape_new_scope(parser *ps);
 /* Appends te; 0 ok, -1 out of memory (set). */

@@ -68,7 +68,9 @@ int tape_value(parser *ps, const logline *ll, const scope *sc, const char *text,
     tape_entry te = {text, ll->file, ll->line, sc ? sc->tape_id : -1, TAPE_FIXED, 0, 0, *out};
     char *at = (char *)out;
     char *cur = (char *)&ckt->elem[ckt->n_elem];
-    if (ps->tape_model >= 0) { /* a model card's parameter (models.c says which) */
+    if (ps->tape_model == TAPE_HINT_STAGE_LOAD) {
+        te.target = TAPE_STAGE_LOAD;
+    } else if (ps->tape_model >= 0) { /* a model card's parameter (models.c says which) */
         te.target = TAPE_MODEL;
         te.index = ps->tape_model;
         te.field = ps->tape_param;

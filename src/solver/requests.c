@@ -73,5 +73,6 @@ ss_status ss_solver_set_load(ss_solver *sv, double load_ohm, ss_error *err)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "stage load %g ohm: a load is a positive, finite resistance", load_ohm);
     sv->stage.load_ohm = load_ohm;
+    sv->load_set = 1;
     return SS_OK;
 }

@@ -30,6 +30,7 @@ struct ss_solver {
     int n_pins;
     int fixed_conflict; /* the last replay failed on a value fixed after parsing */
     int recheck_structure; /* values changed: the next prepare checks the internal nodes */
+    int load_set;          /* the stage's load was named on the context (ss_solver_set_load) */
     double temp_c;
 
     /* requests a caller may change per context */

@@ -109,6 +109,13 @@ static ss_status replay_entry(replay_ctx *rc, const tape_entry *te, ss_error *er
     case TAPE_SCOPE:
         sv->slot_val[te->field] = v;
         break;
+    case TAPE_STAGE_LOAD:
+        if (!(v > 0.0))
+            return err_set(err, SS_ERR_INPUT, te->file, te->line,
+                           ".stage: load must be a positive resistance, got %g", v);
+        if (!sv->load_set) /* a load named on the context wins */
+            sv->stage.load_ohm = v;
+        break;
     default: /* an analysis setting, option or waveform value: fixed after parsing */
         if (memcmp(&v, &te->nominal, sizeof v) != 0 && (sv->fixed_conflict = 1))
             return err_set(err, SS_ERR_INPUT, te->file, te->line,

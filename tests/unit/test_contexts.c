@@ -132,6 +132,28 @@ static void test_fixed_settings_refused(void **state)
     ss_circuit_destroy(&ckt);
 }
 
+static void test_stage_load_follows_its_param(void **state)
+{
+    (void)state;
+    /* .stage load= written in terms of a .param is the context's to change (the report's Zout
+     * check uses it); a load named on the context wins over it */
+    ss_circuit *ckt = ss_test_parse("load\n.param rl=47k\nv1 a 0 ac 1\nr1 a out 1k\n"
+                                    "rl out 0 {rl}\n.ac dec 1 1 10\n"
+                                    ".stage in=v1 out=out load={rl}\n");
+    ss_solver *sv = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_solver_create(ckt, &sv, &err), SS_OK);
+    assert_int_equal(ss_solver_set_value(sv, "rl", 10e3, &err), SS_OK);
+    ss_table *op = NULL;
+    assert_int_equal(ss_op_solve(sv, &op, NULL, &err), SS_OK);
+    ss_table_destroy(&op);
+    double r;
+    assert_int_equal(ss_solver_get_value(sv, "rl", &r, &err), SS_OK);
+    assert_same_bits(r, 10e3);
+    ss_solver_destroy(&sv);
+    ss_circuit_destroy(&ckt);
+}
+
 typedef struct job {
     const ss_circuit *ckt;
     const char *name;
@@ -208,6 +230,7 @@ int main(void)
         cmocka_unit_test(test_set_param_reaches_expressions),
         cmocka_unit_test(test_set_value_refusals),
         cmocka_unit_test(test_fixed_settings_refused),
+        cmocka_unit_test(test_stage_load_follows_its_param),
         cmocka_unit_test(test_two_contexts_two_threads),
         cmocka_unit_test(test_temperature_per_context),
     };
