@@ -1,9 +1,10 @@
 #!/usr/bin/env python3
 """Runs every example netlist in netlists/ and checks it works end to end: exit code 0, the
-output files the design promises, every transistor in forward-active operation, the stage
+output files the design promises, every transistor in its amplifying region, the stage
 figures present, and each example's operating point and gain within a few per cent of the hand
-estimate written in its own header (hand analysis with Vbe = 0.65 V: an engineer's sanity check,
-not a precision reference -- the precision checks live in tests/reference/)."""
+estimate written in its own header (hand analysis with Vbe = 0.65 V, or the square law for a
+JFET: an engineer's sanity check, not a precision reference -- the precision checks live in
+tests/reference/)."""
 import csv
 import glob
 import os
@@ -39,7 +40,31 @@ HAND = {
     "hydrophone_buffer.cir": [("v(e)", 4.10, 0.03), ("gain_mid_db", -0.1, None)],
     "photodiode_amp.cir": [("v(c1)", 3.09, 0.03)],
     "line_driver.cir": [("v(o)", 6.0, 0.03)],
+    "piezo_preamp.cir": [("v(s)", 0.849, 0.03), ("v(d)", 6.23, 0.03),
+                         ("gain_mid_db", 24.4, 0.03)],
 }
+
+# the region an amplifying stage works in, per transistor table of the report
+AMPLIFYING = {"Transistors": "forward active", "JFETs": "saturation"}
+
+
+def report_regions(stdout):
+    """(table, element, region) of every line of the report's transistor tables: the region
+    is the text after the last column, a table ends at a blank line."""
+    out, table = [], None
+    for line in stdout.splitlines():
+        s = line.strip()
+        if s in AMPLIFYING:
+            table = s
+        elif not s:
+            table = None
+        elif table and not s.startswith("name "):
+            words = s.split()
+            reg = next((r for r in ("forward active", "reverse active", "saturation",
+                                    "cut-off", "linear") if s.endswith(r)), None)
+            out.append((table, words[0], reg))
+    return out
+
 
 examples = sorted(glob.glob(os.path.join(ROOT, "netlists", "*.cir")))
 check("at least three example netlists", len(examples) >= 3, str(len(examples)))
@@ -58,9 +83,10 @@ for path in examples:
         check(f"{name}: no temporary files left", not leftovers, str(leftovers))
         op = read_kv(os.path.join(out, "op.csv"))
         summary = read_kv(os.path.join(out, "stage_summary.csv"))
-        check(f"{name}: every BJT forward active",
-              "saturation" not in r.stdout and "cut-off" not in r.stdout
-              and "reverse active" not in r.stdout)
+        regions = report_regions(r.stdout)
+        check(f"{name}: every BJT forward active, every JFET in saturation",
+              regions and all(reg == AMPLIFYING[table] for table, _, reg in regions),
+              str(regions))
         check(f"{name}: mid-band gain and Zin present",
               summary.get("gain_mid_db") is not None and summary.get("zin_mid_ohm") is not None)
         values = dict(op)

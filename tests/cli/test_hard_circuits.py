@@ -30,8 +30,15 @@ published sources; the Gummel-Poon and temperature forms there are marked "from 
                    + GMIN (Vbe + Vbc);
               RB, RE, RC as resistors to internal nodes; area multiplies IS IKF IKR ISE ISC and
               divides RB RE RC; PNP reverses every junction voltage and terminal current.
+  JFET        Shichman & Hodges 1968, parameterised after Antognetti & Massobrio 1993 (JFET
+              chapter): Vgst = Vgs - VTO; Ids = 0 for Vgst <= 0, BETA (1 + LAMBDA Vds) Vds
+              (2 Vgst - Vds) for Vds < Vgst, BETA (1 + LAMBDA Vds) Vgst^2 above; Vds < 0:
+              Ids = -f(Vgd, -Vds); gate junctions IS (exp(V/(N Vt)) - 1) + GMIN V at Vgs, Vgd;
+              RD, RS as resistors to internal nodes; area multiplies BETA IS and divides RD RS;
+              PJF reverses every voltage and current.
   temperature r = T/TNOM: IS r^XTI exp((r-1) EG/Vt); BF, BR times r^XTB;
-              ISE r^-XTB (IS(T)/IS)^(1/NE), ISC likewise with NC; diode IS r^(XTI/N) exp((r-1) EG/(N Vt))
+              ISE r^-XTB (IS(T)/IS)^(1/NE), ISC likewise with NC; diode IS r^(XTI/N) exp((r-1) EG/(N Vt));
+              JFET IS likewise with XTI 3, EG 1.11, TNOM 27 C (held)
   constants   k = 1.380649e-23 J/K, q = 1.602176634e-19 C (exact, SI 2019); 0 degC = 273.15 K
 The exponential is exact here (stagesim continues it linearly above an argument of 200; here
 the cap is at 300, only to keep a wild trial point finite).
@@ -162,6 +169,8 @@ BJT_DEFAULTS = dict(is_=1e-16, bf=100.0, nf=1.0, vaf=0.0, ikf=0.0, ise=0.0, ne=1
                     nr=1.0, var=0.0, ikr=0.0, isc=0.0, nc=2.0, rb=0.0, re=0.0, rc=0.0, xtb=0.0,
                     xti=3.0, eg=1.11, tnom=27.0)
 DIODE_DEFAULTS = dict(is_=1e-14, n=1.0, rs=0.0, xti=3.0, eg=1.11, tnom=27.0)
+JFET_DEFAULTS = {"vto": -2.0, "beta": 1e-4, "lambda": 0.0, "rd": 0.0, "rs": 0.0, "is_": 1e-14,
+                 "n": 1.0}
 
 
 def card_params(card, defaults):
@@ -225,6 +234,18 @@ class Circuit:
                 intl = [self.node(name + "#" + s) if p[r] > 0 else n
                         for s, r, n in zip("cbe", ("rc", "rb", "re"), ext)]
                 self.devs.append(("q", name, ext, intl, p))
+            elif kind == "j":
+                card = ckt["models"][tok[4]]
+                area = value(tok[5].split("=")[-1], ckt["params"]) if len(tok) > 5 else 1.0
+                p = self.jfet_temp(card_params(card, JFET_DEFAULTS), area)
+                p["pol"] = -1.0 if card["type"] == "pjf" else 1.0
+                ext = [self.node(t) for t in tok[1:4]]
+                intl = [ext[0], ext[1], ext[2]]
+                if p["rd"] > 0:
+                    intl[0] = self.node(name + "#d")
+                if p["rs"] > 0:
+                    intl[2] = self.node(name + "#s")
+                self.devs.append(("j", name, ext, intl, p))
             else:
                 raise ValueError(f"element {name}: not in this script's subset")
         self.n_nodes = len(self.nodes)
@@ -262,6 +283,31 @@ class Circuit:
             math.exp((r - 1.0) * p["eg"] / (p["n"] * self.vt)) * area
         q["rs"] = p["rs"] / area
         return q
+
+    def jfet_temp(self, p, area):
+        r = self.temp_k / (27.0 + ZERO_C_K)
+        q = dict(p)
+        q["is_"] = p["is_"] * r ** (3.0 / p["n"]) * \
+            math.exp((r - 1.0) * 1.11 / (p["n"] * self.vt)) * area
+        q["beta"] = p["beta"] * area
+        q["rd"], q["rs"] = p["rd"] / area, p["rs"] / area
+        return q
+
+    def jfet_currents(self, p, vgs, vgd):
+        """Shichman-Hodges channel current and the gate junctions (N sense): ids, igs, igd."""
+        def f(vg_, vd_):
+            vgst = vg_ - p["vto"]
+            if vgst.real <= 0.0:
+                return 0.0 * vg_
+            if vd_.real < vgst.real:
+                return p["beta"] * (1.0 + p["lambda"] * vd_) * vd_ * (2.0 * vgst - vd_)
+            return p["beta"] * (1.0 + p["lambda"] * vd_) * vgst * vgst
+        vds = vgs - vgd
+        ids = f(vgs, vds) if vds.real >= 0.0 else -f(vgd, -vds)
+        nvt = p["n"] * self.vt
+        igs = p["is_"] * self.ex1(vgs / nvt) + self.gmin * vgs
+        igd = p["is_"] * self.ex1(vgd / nvt) + self.gmin * vgd
+        return ids, igs, igd
 
     @staticmethod
     def v(x, k):
@@ -333,6 +379,20 @@ class Circuit:
                 into(intl[1], pol * ib)
                 into(intl[2], -pol * (ic + ib))
                 for t, r in zip(range(3), ("rc", "rb", "re")):
+                    if intl[t] != ext[t]:
+                        i = (v(x, ext[t]) - v(x, intl[t])) / p[r]
+                        into(ext[t], i)
+                        into(intl[t], -i)
+            elif kind == "j":
+                _, _, ext, intl, p = d
+                pol = p["pol"]
+                vg = v(x, intl[1])
+                ids, igs, igd = self.jfet_currents(p, pol * (vg - v(x, intl[2])),
+                                                   pol * (vg - v(x, intl[0])))
+                into(intl[0], pol * (ids - igd))
+                into(intl[1], pol * (igs + igd))
+                into(intl[2], -pol * (ids + igs))
+                for t, r in ((0, "rd"), (2, "rs")):
                     if intl[t] != ext[t]:
                         i = (v(x, ext[t]) - v(x, intl[t])) / p[r]
                         into(ext[t], i)
@@ -437,6 +497,15 @@ class Circuit:
                 out[f"ib({name})"] = float((pol * ib).real)
                 out[f"vbe({name})"] = float(v(x, ext[1]) - v(x, ext[2]))
                 out[f"vce({name})"] = float(v(x, ext[0]) - v(x, ext[2]))
+            elif d[0] == "j":
+                _, name, ext, intl, p = d
+                pol = p["pol"]
+                vg = v(x, intl[1])
+                ids, igs, igd = self.jfet_currents(p, complex(pol * (vg - v(x, intl[2]))),
+                                                   complex(pol * (vg - v(x, intl[0]))))
+                out[f"id({name})"] = float((pol * (ids - igd)).real)
+                out[f"vgs({name})"] = float(v(x, ext[1]) - v(x, ext[2]))
+                out[f"vds({name})"] = float(v(x, ext[0]) - v(x, ext[2]))
         return out
 
     def x_from_op(self, op):
@@ -465,9 +534,10 @@ class Circuit:
         dev, term = inner.split("#")
         for d in self.devs:
             if d[1] == dev:
-                if d[0] == "q":
+                if d[0] in ("q", "j"):
+                    terms = "cbe" if d[0] == "q" else "dgs"
                     for nm, k in self.nodes.items():
-                        if k == d[2]["cbe".index(term)]:
+                        if k == d[2][terms.index(term)]:
                             return nm
                 if d[0] == "d":
                     for nm, k in self.nodes.items():
@@ -545,20 +615,36 @@ def region(vbe, vce, pol):
 
 
 def regions_from_report(stdout):
-    """{transistor: region label} from the report's transistor table."""
+    """{transistor: region label} from the report's transistor and JFET tables."""
     out = {}
     for ln in stdout.splitlines():
-        m = re.match(r"^\s+(\S+)\s+(npn|pnp)\s.*?(forward active|saturation|cut-off|reverse active)\s*$", ln)
+        m = re.match(r"^\s+(\S+)\s+(npn|pnp|njf|pjf)\s.*?"
+                     r"(forward active|saturation|cut-off|reverse active|linear)\s*$", ln)
         if m:
             out[m.group(1)] = m.group(3)
     return out
 
 
-def ref_regions(c, ref):
+def jfet_region(c, d, x):
+    """Shichman-Hodges region at the internal nodes (docs/models.md section 10)."""
+    _, _, ext, intl, p = d
+    pol = p["pol"]
+    vgs = pol * (c.v(x, intl[1]) - c.v(x, intl[2]))
+    vgd = pol * (c.v(x, intl[1]) - c.v(x, intl[0]))
+    vds = vgs - vgd
+    vgst = (vgs if vds >= 0 else vgd) - p["vto"]
+    if vgst <= 0:
+        return "cut-off"
+    return "linear" if abs(vds) < vgst else "saturation"
+
+
+def ref_regions(c, ref, x=None):
     out = {}
     for d in c.devs:
         if d[0] == "q":
             out[d[1]] = region(ref[f"vbe({d[1]})"], ref[f"vce({d[1]})"], d[4]["pol"])
+        elif d[0] == "j" and x is not None:
+            out[d[1]] = jfet_region(c, d, x)
     return out
 
 
@@ -589,7 +675,7 @@ def verify_scipy(label, rc, so, se, op, out, path, sets, extra=None):
         return None
     ref = c.quantities(x)
     compare_op(label, op, ref, rel=1e-6, abs_v=1e-9, abs_i=1e-15)
-    want = ref_regions(c, ref)
+    want = ref_regions(c, ref, x)
     if want:
         got = regions_from_report(so)
         check(f"{label}: regions {', '.join(f'{k} {v}' for k, v in want.items())}",
@@ -916,6 +1002,18 @@ def scipy_with(extra):
     return verify
 
 
+def jfet_current_source(label, c, x, ref, op, out):
+    """Both currents against the closed form of the netlist header (Shichman & Hodges 1968
+    in saturation, LAMBDA 0: I = BETA (VTO + I RSET)^2 solved for I; the gate currents,
+    about 2e-11 A, are left out, hence rel 1e-7)."""
+    b = 4.0 + 1.0 / (1e-3 * 470.0)
+    i = (b - math.sqrt(b * b - 16.0)) / 2.0 / 470.0
+    check(f"{label}: id(j1) {op.get('id(j1)')!r} = closed form {i:.9g} A (rel 1e-7)",
+          close(op.get("id(j1)"), i, 1e-7, 0.0))
+    check(f"{label}: id(j2) {op.get('id(j2)')!r} = -closed form (rel 1e-7)",
+          close(op.get("id(j2)"), -i, 1e-7, 0.0))
+
+
 def plain(label, rc, so, se, op, out, path, sets):
     check(f"{label}: exit 0", rc == 0, se.strip())
     verify_scipy(label, rc, so, se, op, out, path, sets)
@@ -959,6 +1057,8 @@ CASES = [
     ("reverse_midpoint gmin=0", "reverse_midpoint.cir", {"g": 0}, expect_exit3("m"), False),
     ("forced_reverse", "forced_reverse.cir", None, forced_reverse, False),
     ("forced_reverse gmin=0", "forced_reverse.cir", {"g": 0}, expect_exit3("a"), False),
+    ("jfet_current_source", "jfet_current_source.cir", None, scipy_with(jfet_current_source),
+     True),
 ]
 
 TIMEOUT_S = 30

@@ -140,11 +140,21 @@ static void test_card_ranges_come_from_the_tables(void **state)
                  "test.cir:2: model 'dd': tnom -300 C is outside -273.15 .. 1000 C");
     /* the types and kinds named from the tables */
     expect_error("t\n.model x njx\n", "test.cir:2: model 'x': unknown type 'njx' (expected "
-                                      "npn, pnp or d)");
+                                      "npn, pnp, njf, pjf or d)");
     expect_error("t\n.model p pnp\nd1 a 0 p\nv1 a 0 1\n",
                  "test.cir:3: d1: model 'p' is a pnp model; a diode needs a model of type d");
     expect_error("t\n.model q npn\nd1 a 0 q\nv1 a 0 1\n",
                  "test.cir:3: d1: model 'q' is an npn model; a diode needs a model of type d");
+    /* the JFET's ranges and types come from its table too */
+    expect_error("t\n.model j njf beta=0\nj1 d g 0 j\nv1 d 0 1\nv2 g 0 0\n",
+                 "test.cir:2: model 'j': beta must be positive, got 0");
+    expect_error("t\n.model j pjf fc=1\nj1 d g 0 j\nv1 d 0 1\nv2 g 0 0\n",
+                 "test.cir:2: model 'j': fc must be in [0, 1), got 1");
+    expect_error("t\n.model j njf lambda=-0.01\nj1 d g 0 j\nv1 d 0 1\nv2 g 0 0\n",
+                 "test.cir:2: model 'j': lambda must not be negative, got -0.01");
+    expect_error("t\n.model q npn\nj1 d g 0 q\nv1 d 0 1\nv2 g 0 0\n",
+                 "test.cir:3: j1: model 'q' is an npn model; a JFET needs a model of type njf "
+                 "or pjf");
 }
 
 int main(void)
