@@ -75,6 +75,7 @@ class Solver:
     def __init__(self, circuit):
         self.circuit = circuit  # outlives the context
         self._h = ctypes.c_void_p()
+        self._labels = {}  # row labels of the op and figures tables, by kind and row count
         call(lib.ss_solver_create, circuit._h, ctypes.byref(self._h))
 
     # ---- lifetime ----
@@ -131,15 +132,19 @@ class Solver:
         """The nodes whose results are written (None: every node)."""
         names = list(names or [])
         arr = (ctypes.c_char_p * max(len(names), 1))(*[n.encode() for n in names])
+        self._labels.clear()
         call(lib.ss_solver_select_nodes, self._handle(), arr, len(names))
 
     def set_stage(self, in_source, out_node):
+        self._labels.clear()
         call(lib.ss_solver_set_stage, self._handle(), _name(in_source), _name(out_node))
 
     def set_load(self, load_ohm):
+        self._labels.clear()
         call(lib.ss_solver_set_load, self._handle(), float(load_ohm))
 
     def set_noise(self, out_node, in_source, rs_resistor=None):
+        self._labels.clear()
         call(lib.ss_solver_set_noise, self._handle(), _name(out_node), _name(in_source),
              _name(rs_resistor) if rs_resistor else None)
 
@@ -149,9 +154,21 @@ class Solver:
         t = ctypes.c_void_p()
         call(lib.ss_op_solve, self._handle(), ctypes.byref(t), None)
         try:
-            return _tables.table_mapping(t)
+            return self._mapping("op", t)
         finally:
             _tables.take(t)
+
+    def _mapping(self, kind, t):
+        """A labelled metric,value table as {label: value}. The labels of a context's op and
+        figures tables change only with its requests (nodes, stage, noise): read them once per
+        request state and row count (the last one compared each time, as a guard)."""
+        rows = lib.ss_table_rows(t)
+        labels = self._labels.get((kind, rows))
+        if labels is None or (rows and labels[-1].encode() != lib.ss_table_row_label(t, rows - 1)):
+            labels = _tables.table_labels(t)
+            self._labels[(kind, rows)] = labels
+        get = lib.ss_table_get
+        return {lab: get(t, r, 0) for r, lab in enumerate(labels)}
 
     def _emit(self, fn, *extra):
         with _tables.Collector() as c:
@@ -217,7 +234,7 @@ class Solver:
         try:
             call(lib.ss_figures_compute, self._handle(), lim._h if lim else None,
                  ctypes.byref(t))
-            return _tables.table_mapping(t)
+            return self._mapping("figures", t) if lim is None else _tables.table_mapping(t)
         finally:
             _tables.take(t)
             if lim:
