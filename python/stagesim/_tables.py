@@ -44,6 +44,7 @@ class Collector:
 
     def close(self):
         lib.ss_sink_destroy(ctypes.byref(self.sink))
+        self._cb = None  # the callbacks hold bound methods of self: no cycle left behind
 
     def __enter__(self):
         return self

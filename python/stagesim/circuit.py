@@ -19,6 +19,7 @@ class Circuit:
 
     def __init__(self, handle, name):
         self._h = handle  # c_void_p
+        self._destroy = lib.ss_circuit_destroy  # kept: module globals may be gone at exit
         self.name = name
 
     @classmethod
@@ -57,7 +58,7 @@ class Circuit:
     def close(self):
         """Frees the circuit now (solvers made of it keep it alive until they go)."""
         if getattr(self, "_h", None) and self._h.value:
-            lib.ss_circuit_destroy(ctypes.byref(self._h))
+            self._destroy(ctypes.byref(self._h))
 
     def __del__(self):
         self.close()
@@ -75,13 +76,14 @@ class Solver:
     def __init__(self, circuit):
         self.circuit = circuit  # outlives the context
         self._h = ctypes.c_void_p()
+        self._destroy = lib.ss_solver_destroy  # kept: module globals may be gone at exit
         self._labels = {}  # row labels of the op and figures tables, by kind and row count
         call(lib.ss_solver_create, circuit._h, ctypes.byref(self._h))
 
     # ---- lifetime ----
     def close(self):
         if getattr(self, "_h", None) and self._h.value:
-            lib.ss_solver_destroy(ctypes.byref(self._h))
+            self._destroy(ctypes.byref(self._h))
 
     def __del__(self):
         self.close()

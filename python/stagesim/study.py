@@ -13,11 +13,12 @@ class Study:
     def __init__(self, netlist_path, sets=None):
         arr, n = _lib.overrides(sets)
         self._h = ctypes.c_void_p()
+        self._destroy = lib.ss_study_destroy  # kept: module globals may be gone at exit
         call(lib.ss_study_create, os.fsencode(netlist_path), arr, n, ctypes.byref(self._h))
 
     def close(self):
         if getattr(self, "_h", None) and self._h.value:
-            lib.ss_study_destroy(ctypes.byref(self._h))
+            self._destroy(ctypes.byref(self._h))
 
     def __del__(self):
         self.close()
