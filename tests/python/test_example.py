@@ -1,0 +1,82 @@
+#!/usr/bin/env python3
+"""The Python page (docs/python.md) is true: the example script runs, prints what the page
+quotes and writes a well-formed SVG plot; the package installed by `cmake --install` finds the
+installed library from its own place, with no STAGESIM_LIB.
+
+Usage: test_example.py LIBSTAGESIM STAGESIM (from the repository root). One line per check,
+then "N passed, M failed"; exit 1 on a failure."""
+import os
+import re
+import subprocess
+import sys
+import tempfile
+import xml.etree.ElementTree as ET
+
+LIB = os.path.abspath(sys.argv[1])
+ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+if "--sanitized" in sys.argv[3:]:
+    # a sanitizer build's library needs its runtime loaded first, which python3 does not do
+    print("skipped: the Python binding does not load a sanitizer build's library")
+    sys.exit(77)
+PY = sys.executable
+
+passed = failed = 0
+
+
+def check(name, ok, detail=""):
+    global passed, failed
+    passed += bool(ok)
+    failed += not ok
+    print(("ok   " if ok else "FAIL ") + name + ("" if ok or not detail else ": " + detail))
+
+
+with open(os.path.join(ROOT, "docs", "python.md"), encoding="utf-8") as f:
+    page = f.read()
+quoted = re.search(r"It prints\n\n```text\n(.*?)```", page, re.S).group(1)
+
+with tempfile.TemporaryDirectory() as tmp:
+    svg = os.path.join(tmp, "bias_sweep.svg")
+    env = dict(os.environ, STAGESIM_LIB=LIB, PYTHONPATH=os.path.join(ROOT, "python"),
+               PYTHONDONTWRITEBYTECODE="1")
+    r = subprocess.run([PY, os.path.join("examples", "python_bias_sweep.py"), svg], cwd=ROOT,
+                       env=env, capture_output=True, text=True)
+    check("examples/python_bias_sweep.py exits 0", r.returncode == 0, r.stderr[-500:])
+    check("it prints what docs/python.md quotes",
+          r.stdout == quoted.replace("out/bias_sweep.svg", svg), r.stdout)
+    try:
+        root = ET.parse(svg).getroot()
+        lines = [e for e in root.iter() if e.tag.endswith("polyline")]
+        pts = [[tuple(map(float, p.split(","))) for p in e.get("points").split()]
+               for e in lines]
+        w, h = float(root.get("width")), float(root.get("height"))
+        inside = all(0 <= x <= w and 0 <= y <= h for trace in pts for x, y in trace)
+        check("the SVG is well-formed: two traces of 44 points inside the picture",
+              len(pts) == 2 and all(len(t) == 44 for t in pts) and inside)
+    except (ET.ParseError, OSError) as e:
+        check("the SVG is well-formed", False, str(e))
+
+    # the installed package, away from the source tree
+    build = os.path.dirname(LIB)
+    prefix = os.path.join(tmp, "prefix")
+    r = subprocess.run(["cmake", "--install", build, "--prefix", prefix],
+                       capture_output=True, text=True)
+    check("cmake --install into a temporary prefix", r.returncode == 0, r.stderr[-500:])
+    pkg = os.path.join(prefix, "lib", "python3", "dist-packages")
+    check("the package is installed under lib/python3/dist-packages",
+          os.path.isfile(os.path.join(pkg, "stagesim", "__init__.py")))
+    env = {k: v for k, v in os.environ.items() if k not in ("STAGESIM_LIB", "PYTHONPATH")}
+    env.update(PYTHONPATH=pkg, PYTHONDONTWRITEBYTECODE="1")
+    code = ("import stagesim; print(stagesim.lib_path); "
+            f"c = stagesim.Circuit.from_file({os.path.join(ROOT, 'netlists', 'vibration_frontend.cir')!r}); "
+            "print(repr(c.solver().op()['v(c)']))")
+    r = subprocess.run([PY, "-c", code], cwd=tmp, env=env, capture_output=True, text=True)
+    out = r.stdout.split("\n")
+    want = os.path.join(prefix, "lib", "libstagesim.so.0")
+    check("installed: the package loads PREFIX/lib/libstagesim.so.0 by itself",
+          r.returncode == 0 and os.path.realpath(out[0]) == os.path.realpath(want),
+          r.stdout + r.stderr[-500:])
+    check("installed: an operating point solves", r.returncode == 0 and
+          abs(float(out[1]) - 6.839) < 1e-3, r.stdout)
+
+print(f"{passed} passed, {failed} failed")
+sys.exit(1 if failed else 0)
