@@ -159,6 +159,9 @@ SS_API const char *ss_table_row_label(const ss_table *t, int row);
 SS_API double ss_table_get(const ss_table *t, int row, int col);
 /* The value of the row labelled `label` in column `col`; NaN when absent. */
 SS_API double ss_table_lookup(const ss_table *t, const char *label, int col);
+/* Every value of the table, row by row (rows x cols), copied into out (room for n): the count
+ * copied, or -1 when n is too small (nothing copied). An empty cell is NaN. */
+SS_API long ss_table_values(const ss_table *t, double *out, long n);
 SS_API void ss_table_destroy(ss_table **t);
 
 /* Writes the table as CSV (RFC 4180 quoting, LF line ends, each number in the fewest

@@ -109,6 +109,7 @@ _PROTOS = {
     "ss_table_col_name": (c_char_p, [P, c_int]),
     "ss_table_row_label": (c_char_p, [P, c_int]),
     "ss_table_get": (c_double, [P, c_int, c_int]),
+    "ss_table_values": (ctypes.c_long, [P, ctypes.POINTER(c_double), ctypes.c_long]),
     "ss_table_destroy": (None, [PP]),
     "ss_sink_create": (S, [POINTER(SinkCallbacks), c_void_p, PP, E]),
     "ss_sink_destroy": (None, [PP]),

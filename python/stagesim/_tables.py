@@ -116,12 +116,13 @@ def table_names(t):
 
 
 def table_matrix(t):
-    """The values of an ss_table as an (rows, cols) float64 array. The public API reads one
-    cell per call (ss_table_get): there is no call giving a column at once."""
+    """The values of an ss_table as an (rows, cols) float64 array: one copy (ss_table_values)."""
     rows, cols = lib.ss_table_rows(t), lib.ss_table_cols(t)
-    get = lib.ss_table_get
-    flat = np.fromiter((get(t, r, c) for r in range(rows) for c in range(cols)),
-                       dtype=np.float64, count=rows * cols)
+    flat = np.empty(rows * cols, dtype=np.float64)
+    got = lib.ss_table_values(t, flat.ctypes.data_as(ctypes.POINTER(ctypes.c_double)),
+                              rows * cols)
+    if got != rows * cols:
+        raise RuntimeError("ss_table_values copied %d of %d values" % (got, rows * cols))
     return flat.reshape(rows, cols)
 
 

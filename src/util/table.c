@@ -92,6 +92,18 @@ double ss_table_get(const ss_table *t, int row, int col)
     return t->data[(size_t)row * (size_t)t->n_cols + (size_t)col];
 }
 
+long ss_table_values(const ss_table *t, double *out, long n)
+{
+    if (!t || !out)
+        return -1;
+    long all = (long)t->n_rows * t->n_cols;
+    if (n < all)
+        return -1;
+    if (all > 0)
+        memcpy(out, t->data, (size_t)all * sizeof *out);
+    return all;
+}
+
 double ss_table_lookup(const ss_table *t, const char *label, int col)
 {
     if (!t || !t->has_labels)

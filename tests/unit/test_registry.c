@@ -387,9 +387,33 @@ static void test_col_index_by_name(void **state)
     ss_test_destroy(&ckt);
 }
 
+static void test_table_values_one_copy(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse("rc\nv1 in 0 ac 1\nr1 in out 1k\nc1 out 0 1u\n"
+                                    ".ac dec 5 10 10k\n");
+    ss_table *ac = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_ac_sweep_run(ss_test_sv(ckt), &ac, &err), SS_OK);
+    long n = (long)ss_table_rows(ac) * ss_table_cols(ac);
+    double *v = calloc((size_t)n, sizeof *v);
+    assert_non_null(v);
+    assert_int_equal(ss_table_values(ac, v, n - 1), -1); /* no room: nothing copied */
+    assert_int_equal(ss_table_values(ac, v, n), n);
+    for (int r = 0; r < ss_table_rows(ac); r++)
+        for (int c = 0; c < ss_table_cols(ac); c++) {
+            double a = v[(long)r * ss_table_cols(ac) + c], b = ss_table_get(ac, r, c);
+            assert_memory_equal(&a, &b, sizeof a);
+        }
+    free(v);
+    ss_table_destroy(&ac);
+    ss_test_destroy(&ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_table_values_one_copy),
         cmocka_unit_test(test_every_entry_is_complete),
         cmocka_unit_test(test_every_emit_gives_its_rows),
         cmocka_unit_test(test_wanted_follows_the_requests),
