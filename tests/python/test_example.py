@@ -78,5 +78,17 @@ with tempfile.TemporaryDirectory() as tmp:
     check("installed: an operating point solves", r.returncode == 0 and
           abs(float(out[1]) - 6.839) < 1e-3, r.stdout)
 
+# the three lines README.md and docs/python.md show run as written, from the repository root
+for page in ("README.md", os.path.join("docs", "python.md")):
+    with open(os.path.join(ROOT, page), encoding="utf-8") as f:
+        block = re.search(r"```python\n(.*?)```", f.read(), re.S).group(1)
+    r = subprocess.run([PY, "-c", block], cwd=ROOT, capture_output=True, text=True, timeout=120,
+                       env=dict(os.environ, STAGESIM_LIB=LIB,
+                                PYTHONPATH=os.path.join(ROOT, "python"),
+                                PYTHONDONTWRITEBYTECODE="1"))
+    nums = r.stdout.split()
+    check("%s's Python example runs and prints v(c) and the mid-band gain" % page,
+          r.returncode == 0 and len(nums) == 2 and 1.0 < float(nums[0]) < 12.0
+          and 15.0 < float(nums[1]) < 25.0, r.stdout + r.stderr)
 print(f"{passed} passed, {failed} failed")
 sys.exit(1 if failed else 0)
