@@ -15,7 +15,7 @@ ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__)
 passed = failed = skipped = 0
 
 if not shutil.which("valgrind"):
-    print("skip all: valgrind is not installed")
+    print("skip all: valgrind is not installed (Debian package valgrind: bash tests/install_deps.sh --with-tools)")
     print("0 passed, 0 failed, 1 skipped")
     sys.exit(77)  # ctest: SKIP_RETURN_CODE
 with open(STAGESIM, "rb") as f:
