@@ -16,25 +16,14 @@ import tempfile
 
 import numpy as np
 
-LIB, STAGESIM = os.path.abspath(sys.argv[1]), os.path.abspath(sys.argv[2])
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-if "--sanitized" in sys.argv[3:]:
-    # a sanitizer build's library needs its runtime loaded first, which python3 does not do
-    print("skipped: the Python binding does not load a sanitizer build's library")
-    sys.exit(77)
-os.environ["STAGESIM_LIB"] = LIB
-sys.dont_write_bytecode = True  # nothing written into the source tree
-sys.path.insert(0, os.path.join(ROOT, "python"))
+sys.dont_write_bytecode = True
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from harness import ROOT, Checks, setup  # noqa: E402
+
+LIB, STAGESIM = setup(sys.argv)
 import stagesim  # noqa: E402
 
-passed = failed = 0
-
-
-def check(name, ok, detail=""):
-    global passed, failed
-    passed += bool(ok)
-    failed += not ok
-    print(("ok   " if ok else "FAIL ") + name + ("" if ok or not detail else ": " + detail))
+check = Checks()
 
 
 def raises(fn, status=None):
@@ -243,5 +232,4 @@ check("a bad --vary spec raises", e is not None and e.code == 1, repr(e))
 e = raises(lambda: stagesim.Study(VIB).set_threads(0))
 check("threads out of range raises", e is not None and e.code == 1, repr(e))
 
-print(f"{passed} passed, {failed} failed")
-sys.exit(1 if failed else 0)
+check.done()

@@ -12,22 +12,14 @@ import sys
 import tempfile
 import xml.etree.ElementTree as ET
 
-LIB = os.path.abspath(sys.argv[1])
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-if "--sanitized" in sys.argv[3:]:
-    # a sanitizer build's library needs its runtime loaded first, which python3 does not do
-    print("skipped: the Python binding does not load a sanitizer build's library")
-    sys.exit(77)
+sys.dont_write_bytecode = True
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from harness import ROOT, Checks, setup  # noqa: E402
+
+LIB, _ = setup(sys.argv)
 PY = sys.executable
 
-passed = failed = 0
-
-
-def check(name, ok, detail=""):
-    global passed, failed
-    passed += bool(ok)
-    failed += not ok
-    print(("ok   " if ok else "FAIL ") + name + ("" if ok or not detail else ": " + detail))
+check = Checks()
 
 
 with open(os.path.join(ROOT, "docs", "python.md"), encoding="utf-8") as f:
@@ -90,5 +82,4 @@ for page in ("README.md", os.path.join("docs", "python.md")):
     check("%s's Python example runs and prints v(c) and the mid-band gain" % page,
           r.returncode == 0 and len(nums) == 2 and 1.0 < float(nums[0]) < 12.0
           and 15.0 < float(nums[1]) < 25.0, r.stdout + r.stderr)
-print(f"{passed} passed, {failed} failed")
-sys.exit(1 if failed else 0)
+check.done()

@@ -9,29 +9,18 @@ import gc
 import os
 import sys
 
-LIB = os.path.abspath(sys.argv[1])
-ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-if "--sanitized" in sys.argv[3:]:
-    # a sanitizer build's library needs its runtime loaded first, which python3 does not do
-    print("skipped: the Python binding does not load a sanitizer build's library")
-    sys.exit(77)
-os.environ["STAGESIM_LIB"] = LIB
-sys.dont_write_bytecode = True  # nothing written into the source tree
-sys.path.insert(0, os.path.join(ROOT, "python"))
+sys.dont_write_bytecode = True
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from harness import ROOT, Checks, setup  # noqa: E402
+
+LIB, _ = setup(sys.argv)
 import stagesim  # noqa: E402
 
 N = 100000
 WARMUP = 5000
 TOLERANCE_KB = 512  # a context of this circuit is a few kB: a leak of one per 100 shows
 
-passed = failed = 0
-
-
-def check(name, ok, detail=""):
-    global passed, failed
-    passed += bool(ok)
-    failed += not ok
-    print(("ok   " if ok else "FAIL ") + name + ("" if ok or not detail else ": " + detail))
+check = Checks()
 
 
 def rss_kb():
@@ -82,5 +71,4 @@ print(f"resident with an op per context: {start} kB, then {end} kB after 5000")
 check("5000 contexts each solving an op: resident memory within the tolerance",
       end - start <= TOLERANCE_KB, f"grew {end - start} kB")
 
-print(f"{passed} passed, {failed} failed")
-sys.exit(1 if failed else 0)
+check.done()
