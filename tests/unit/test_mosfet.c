@@ -1,0 +1,179 @@
+/* The level-1 MOSFET against closed forms: the Shichman-Hodges drain current in saturation
+ * and in the linear region for NMOS and PMOS (H. Shichman and D. A. Hodges, IEEE JSSC SC-3,
+ * 285, 1968, with the body-effect threshold as P. Antognetti and G. Massobrio, Semiconductor
+ * Device Modeling with SPICE, 2nd ed., 1993, ch. 4, write it), gm = sqrt(2 beta Id) in
+ * saturation (the derivative of the square law), the AC conductances against finite
+ * differences of the DC solution, and the card checks. Bias: beta = KP W/L = 2e-5 * 10 =
+ * 2e-4 A/V^2 throughout. The bulk junctions' leakage and gmin (1e-12 S, docs/models.md
+ * section 7) add up to ~1e-11 A at these biases: the tolerances allow 1e-7 relative. */
+#include "ss_test.h"
+
+static double op_of(const char *text, const char *row)
+{
+    ss_circuit *ckt = NULL;
+    ss_table *op = ss_test_op(text, &ckt);
+    double v = ss_test_opval(op, row);
+    ss_table_destroy(&op);
+    ss_test_destroy(&ckt);
+    return v;
+}
+
+#define NMOS_CARD ".model nm nmos (vto=1 kp=2e-5)\n"
+#define PMOS_CARD ".model pm pmos (vto=-1 kp=2e-5)\n"
+
+/* Saturation: Id = beta/2 (Vgs - VTO)^2 = 1e-4 * 2^2 = 4e-4 A at Vgs = 3 V, Vds = 5 V;
+ * linear: Id = beta (Vgs - VTO - Vds/2) Vds = 2e-4 * 1.5 * 1 = 3e-4 A at Vds = 1 V. */
+static void test_nmos_saturation_and_linear(void **state)
+{
+    (void)state;
+    const char *sat = "t\n" NMOS_CARD "vd d 0 5\nvg g 0 3\nm1 d g 0 0 nm w=100u l=10u\n";
+    const char *lin = "t\n" NMOS_CARD "vd d 0 1\nvg g 0 3\nm1 d g 0 0 nm w=100u l=10u\n";
+    ss_assert_close(op_of(sat, "id(m1)"), 4e-4, 1e-7, 0);
+    ss_assert_close(op_of(sat, "region(m1)"), 2.0, 0, 0);
+    ss_assert_close(op_of(lin, "id(m1)"), 3e-4, 1e-7, 0);
+    ss_assert_close(op_of(lin, "region(m1)"), 1.0, 0, 0);
+    /* below threshold: cut-off, only the junction leakage and gmin */
+    const char *off = "t\n" NMOS_CARD "vd d 0 5\nvg g 0 0.9\nm1 d g 0 0 nm w=100u l=10u\n";
+    ss_assert_close(op_of(off, "id(m1)"), 0.0, 0, 1e-10);
+    ss_assert_close(op_of(off, "region(m1)"), 0.0, 0, 0);
+}
+
+/* PMOS: the same magnitudes with every voltage and current negated (VTO = -1 V as the book
+ * writes an enhancement PMOS): source and bulk at 5 V, gate at 2 V (Vgs = -3 V); drain at 0
+ * (saturation, Id = -4e-4 A into the drain) or at 4 V (Vds = -1 V, Id = -3e-4 A). */
+static void test_pmos_saturation_and_linear(void **state)
+{
+    (void)state;
+    const char *sat = "t\n" PMOS_CARD "vs s 0 5\nvg g 0 2\nm1 0 g s s pm w=100u l=10u\n";
+    const char *lin = "t\n" PMOS_CARD "vs s 0 5\nvg g 0 2\nvd d 0 4\nm1 d g s s pm w=100u "
+                      "l=10u\n";
+    ss_assert_close(op_of(sat, "id(m1)"), -4e-4, 1e-7, 0);
+    ss_assert_close(op_of(sat, "vth(m1)"), -1.0, 1e-15, 0);
+    ss_assert_close(op_of(lin, "id(m1)"), -3e-4, 1e-7, 0);
+    ss_assert_close(op_of(lin, "region(m1)"), 1.0, 0, 0);
+}
+
+/* Body effect: Vth = VTO + GAMMA (sqrt(PHI - Vbs) - sqrt(PHI)) = 1 + 0.5 (sqrt(2.6) -
+ * sqrt(0.6)) = 1.4189262... V at Vbs = -2 V; Id = beta/2 (3 - Vth)^2. gmb/gm =
+ * GAMMA / (2 sqrt(PHI - Vbs)). */
+static void test_body_effect(void **state)
+{
+    (void)state;
+    const char *t = "t\n.model nm nmos (vto=1 kp=2e-5 gamma=0.5 phi=0.6)\nvd d 0 5\nvg g 0 3\n"
+                    "vb b 0 -2\nm1 d g 0 b nm w=100u l=10u\n";
+    double vth = 1.0 + 0.5 * (sqrt(2.6) - sqrt(0.6));
+    ss_assert_close(op_of(t, "vth(m1)"), vth, 1e-14, 0);
+    ss_assert_close(op_of(t, "id(m1)"), 1e-4 * (3.0 - vth) * (3.0 - vth), 1e-7, 0);
+    ss_assert_close(op_of(t, "gmb(m1)") / op_of(t, "gm(m1)"), 0.5 / (2.0 * sqrt(2.6)), 1e-12, 0);
+}
+
+/* gm = sqrt(2 beta Id) in saturation with LAMBDA = 0 (d/dVgs of the square law). */
+static void test_gm_square_law(void **state)
+{
+    (void)state;
+    const char *t = "t\n" NMOS_CARD "vd d 0 5\nvg g 0 2.5\nm1 d g 0 0 nm w=100u l=10u\n";
+    double id = op_of(t, "id(m1)");
+    ss_assert_close(op_of(t, "gm(m1)"), sqrt(2.0 * 2e-4 * id), 1e-7, 0);
+    ss_assert_close(op_of(t, "gm(m1)"), 2e-4 * 1.5, 1e-12, 0);
+}
+
+/* A common-source stage with a 10 kohm drain load and a bulk source: the AC gain at 1 Hz (no
+ * capacitances) from the gate, the bulk and the supply must be the derivative of the DC
+ * solution v(d) with respect to each source's value, taken by central differences (h = 1 mV;
+ * the O(h^2) error of the quadratic law is far below the tolerance). */
+static double dc_vd(ss_solver *sv, const char *src, double value)
+{
+    ss_error err = {0};
+    assert_int_equal(ss_solver_set_value(sv, src, value, &err), SS_OK);
+    ss_table *op = NULL;
+    assert_int_equal(ss_op_solve(sv, &op, NULL, &err), SS_OK);
+    double v = ss_test_opval(op, "v(d)");
+    ss_table_destroy(&op);
+    return v;
+}
+
+static double ac_vd(const char *text, const char *ac_src)
+{
+    char buf[600];
+    /* the three %s of text: vdd, vg, vb */
+    snprintf(buf, sizeof buf, text, strcmp(ac_src, "vdd") == 0 ? "ac 1" : "",
+             strcmp(ac_src, "vg") == 0 ? "ac 1" : "", strcmp(ac_src, "vb") == 0 ? "ac 1" : "");
+    ss_circuit *ckt = ss_test_parse(buf);
+    ss_error err = {0};
+    const char *names[] = {"d"};
+    assert_int_equal(ss_solver_select_nodes(ss_test_sv(ckt), names, 1, &err), SS_OK);
+    ss_table *ac = NULL;
+    assert_int_equal(ss_ac_sweep_run(ss_test_sv(ckt), &ac, &err), SS_OK);
+    double mag = ss_table_get(ac, 0, 1), ph = ss_table_get(ac, 0, 2);
+    ss_table_destroy(&ac);
+    ss_test_destroy(&ckt);
+    return mag * cos(ph * 3.14159265358979323846 / 180.0);
+}
+
+static void test_ac_against_dc_differences(void **state)
+{
+    (void)state;
+    static const char *const regions[2] = {"3", "6"}; /* saturation, then linear (Vgs = 6) */
+    for (int r = 0; r < 2; r++) {
+        char text[600];
+        snprintf(text, sizeof text,
+                 "t\n.model nm nmos (vto=1 kp=2e-5 gamma=0.5 phi=0.6 lambda=0.02)\n"
+                 "vdd vdd 0 10 %%s\nvg g 0 %s %%s\nvb b 0 -1 %%s\nrd vdd d 10k\n"
+                 "m1 d g 0 b nm w=100u l=10u\n.ac dec 1 1 1\n",
+                 regions[r]);
+        char plain[600];
+        snprintf(plain, sizeof plain, text, "", "", "");
+        ss_circuit *ckt = ss_test_parse(plain);
+        ss_solver *sv = ss_test_sv(ckt);
+        static const char *const src[3] = {"vg", "vb", "vdd"};
+        const double v0[3] = {r == 0 ? 3.0 : 6.0, -1.0, 10.0};
+        const double h = 1e-3;
+        for (int k = 0; k < 3; k++) {
+            double up = dc_vd(sv, src[k], v0[k] + h), dn = dc_vd(sv, src[k], v0[k] - h);
+            ss_solver_reset_values(sv);
+            double fd = (up - dn) / (2.0 * h);
+            ss_assert_close(ac_vd(text, src[k]), fd, 1e-5, 1e-9);
+        }
+        ss_test_destroy(&ckt);
+    }
+}
+
+static void expect_error(const char *text, const char *want)
+{
+    char msg[1400];
+    ss_test_parse_error(text, msg, sizeof msg);
+    if (strcmp(msg, want) != 0) {
+        print_error("got  %s\nwant %s\n", msg, want);
+        fail();
+    }
+}
+
+/* Only the square law is built in; KP and PHI must be positive (the equations scale by KP and
+ * take the square root of PHI - Vbs); W and L must be positive. */
+static void test_card_checks(void **state)
+{
+    (void)state;
+    expect_error("t\n.model nm nmos level=2\nm1 d g 0 0 nm\nvd d 0 1\n",
+                 "test.cir:2: model 'nm': level must be in [1, 1], got 2");
+    expect_error("t\n.model nm nmos kp=0\nm1 d g 0 0 nm\nvd d 0 1\n",
+                 "test.cir:2: model 'nm': kp must be positive, got 0");
+    expect_error("t\n.model nm nmos phi=-0.6\nm1 d g 0 0 nm\nvd d 0 1\n",
+                 "test.cir:2: model 'nm': phi must be positive, got -0.6");
+    expect_error("t\n.model nm nmos\nm1 d g 0 0 nm w=0\nvd d 0 1\n",
+                 "test.cir:3: m1: W must be positive, got 0");
+    expect_error("t\n.model nm nmos\nm1 d g 0 0 nm q=1\nvd d 0 1\n",
+                 "test.cir:3: m1: unexpected 'q=' (expected w= and l=, once each)");
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_nmos_saturation_and_linear),
+        cmocka_unit_test(test_pmos_saturation_and_linear),
+        cmocka_unit_test(test_body_effect),
+        cmocka_unit_test(test_gm_square_law),
+        cmocka_unit_test(test_ac_against_dc_differences),
+        cmocka_unit_test(test_card_checks),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
