@@ -7,6 +7,7 @@ not a precision reference -- the precision checks live in tests/reference/)."""
 import csv
 import glob
 import os
+import re
 import subprocess
 import sys
 import tempfile
@@ -39,6 +40,8 @@ HAND = {
     "hydrophone_buffer.cir": [("v(e)", 4.10, 0.03), ("gain_mid_db", -0.1, None)],
     "photodiode_amp.cir": [("v(c1)", 3.09, 0.03)],
     "line_driver.cir": [("v(o)", 6.0, 0.03)],
+    "hydrophone_mos_buffer.cir": [("v(s)", 3.84, 0.03), ("gain_mid_db", -1.4, None),
+                                  ("zout_mid_ohm", 168.0, 0.05)],
 }
 
 examples = sorted(glob.glob(os.path.join(ROOT, "netlists", "*.cir")))
@@ -58,9 +61,12 @@ for path in examples:
         check(f"{name}: no temporary files left", not leftovers, str(leftovers))
         op = read_kv(os.path.join(out, "op.csv"))
         summary = read_kv(os.path.join(out, "stage_summary.csv"))
-        check(f"{name}: every BJT forward active",
-              "saturation" not in r.stdout and "cut-off" not in r.stdout
-              and "reverse active" not in r.stdout)
+        # the amplifying region: a BJT's is "forward active", a MOSFET's "saturation"
+        rows = [ln.split() for ln in r.stdout.splitlines()
+                if re.match(r"^\s+\S+\s+(npn|pnp|nmos|pmos)\s", ln)]
+        check(f"{name}: every transistor in its amplifying region",
+              all(" ".join(w[-2:]) == "forward active" if w[1] in ("npn", "pnp")
+                  else w[-1] == "saturation" for w in rows), str(rows))
         check(f"{name}: mid-band gain and Zin present",
               summary.get("gain_mid_db") is not None and summary.get("zin_mid_ohm") is not None)
         values = dict(op)
