@@ -3,7 +3,8 @@
  * 285, 1968, with the body-effect threshold as P. Antognetti and G. Massobrio, Semiconductor
  * Device Modeling with SPICE, 2nd ed., 1993, ch. 4, write it), gm = sqrt(2 beta Id) in
  * saturation (the derivative of the square law), the AC conductances against finite
- * differences of the DC solution, and the card checks. Bias: beta = KP W/L = 2e-5 * 10 =
+ * differences of the DC solution, the noise at a drain, the transient of the overlap
+ * capacitances, and the card checks. Bias: beta = KP W/L = 2e-5 * 10 =
  * 2e-4 A/V^2 throughout. The bulk junctions' leakage and gmin (1e-12 S, docs/models.md
  * section 7) add up to ~1e-11 A at these biases: the tolerances allow 1e-7 relative. */
 #include "ss_test.h"
@@ -138,6 +139,72 @@ static void test_ac_against_dc_differences(void **state)
     }
 }
 
+/* Output noise of a common-source stage at its drain (docs/noise.md): the current PSDs at d
+ * are the channel's (8/3) k T gm (van der Ziel 1986, from memory), RD's 4 k T / RD (Johnson
+ * 1928; Nyquist 1928), the bulk-drain junction's shot noise 2 q |IS (exp(Vbd/Vt) - 1)|
+ * (Schottky 1918; Vbd = -Vd, so 2 q IS) and the flicker KF Id^AF / (f COX L^2) with
+ * COX = 3.9 eps0 / TOX (the classic normalisation); the drain sees RD || 1/(gds + gmin). The
+ * gate is held by an ideal source and the junction capacitances are absent, so the density is
+ * sqrt(PSD) times that resistance at every frequency. k exact (SI 2019), 27 C = 300.15 K. */
+static void test_noise_at_the_drain(void **state)
+{
+    (void)state;
+    const char *t = "t\n.model nm nmos (vto=1 kp=2e-5 lambda=0.02 kf=1e-28 af=1.2 tox=50n)\n"
+                    "vdd vdd 0 10\nvg g 0 3 ac 1\nrd vdd d 10k\nm1 d g 0 0 nm w=100u l=10u\n"
+                    ".ac dec 1 10 1meg\n.noise v(d) vg\n";
+    ss_circuit *ckt = NULL;
+    ss_table *op = ss_test_op(t, &ckt);
+    double gm = ss_test_opval(op, "gm(m1)"), gds = ss_test_opval(op, "gds(m1)");
+    double vd = ss_test_opval(op, "v(d)"), id = (10.0 - vd) / 10e3;
+    ss_table_destroy(&op);
+    ss_table *noise = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_noise_run(ss_test_sv(ckt), &noise, NULL, NULL, &err), SS_OK);
+    const double k_t = 1.380649e-23 * 300.15, q = 1.602176634e-19;
+    const double cox = 3.9 * 8.854187817e-12 / 50e-9;
+    double z = 1.0 / (1.0 / 10e3 + gds + 1e-12);
+    /* flicker dominates at 10 Hz (1.4e-20 A^2/Hz against 6.5e-24), thermal at 1 MHz */
+    for (int row = 0; row < 6; row++) {
+        double f = pow(10.0, row + 1);
+        double psd = 8.0 / 3.0 * k_t * gm + 4.0 * k_t / 10e3 + 2.0 * q * 1e-14 +
+                     1e-28 * pow(id, 1.2) / (f * cox * 10e-6 * 10e-6);
+        ss_assert_close(ss_table_get(noise, row, 0), f, 1e-12, 0);
+        ss_assert_close(ss_table_get(noise, row, 1), sqrt(psd) * z, 1e-7, 0);
+    }
+    ss_table_destroy(&noise);
+    ss_test_destroy(&ckt);
+}
+
+/* Transient: with the channel off (gate below VTO) and drain, source and bulk grounded, the
+ * gate is the overlap capacitance CGSO W + CGDO W + CGBO L = 0.5 + 0.3 + 0.2 = 1 pF; driven
+ * through 1 Mohm by a 1 ns ramp to 0.5 V it is the first-order RC of test_tran.c:
+ * v(t) = V (1 - (tau/tr) (exp(tr/tau) - 1) exp(-t/tau)), tau = 1 us (standard circuit
+ * theory, from memory). */
+static void test_tran_overlap_rc(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse("t\n.model nm nmos (vto=1 cgso=5n cgdo=3n cgbo=20n)\n"
+                                    "v1 in 0 pulse(0 0.5 0 1n)\nr1 in g 1meg\n"
+                                    "m1 0 g 0 0 nm w=100u l=10u\n.tran 0.1u 5u\n");
+    ss_table *t = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_tran_run(ss_test_sv(ckt), &t, &err), SS_OK);
+    int col = -1;
+    for (int c = 0; c < ss_table_cols(t); c++)
+        if (strcmp(ss_table_col_name(t, c), "v(g)") == 0)
+            col = c;
+    assert_true(col > 0);
+    double tau = 1e-6, tr = 1e-9, worst = 0.0;
+    for (int k = 1; k < ss_table_rows(t); k++) {
+        double time = ss_table_get(t, k, 0);
+        double expect = 0.5 * (1.0 - tau / tr * expm1(tr / tau) * exp(-time / tau));
+        worst = fmax(worst, fabs(ss_table_get(t, k, col) - expect));
+    }
+    assert_true(worst <= 5e-4 * 0.5);
+    ss_table_destroy(&t);
+    ss_test_destroy(&ckt);
+}
+
 static void expect_error(const char *text, const char *want)
 {
     char msg[1400];
@@ -173,6 +240,8 @@ int main(void)
         cmocka_unit_test(test_body_effect),
         cmocka_unit_test(test_gm_square_law),
         cmocka_unit_test(test_ac_against_dc_differences),
+        cmocka_unit_test(test_noise_at_the_drain),
+        cmocka_unit_test(test_tran_overlap_rc),
         cmocka_unit_test(test_card_checks),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
