@@ -34,7 +34,8 @@ enum {
 #define ANY -HUGE_VAL, HUGE_VAL, 0
 /* ORDER MOS_PARAM */
 static const dev_model_param mos_params[MP_COUNT] = {
-    {"level", 1.0, 1.0, 1.0, 0, "", DMP_USE_DC, "model level (only the square law, 1, is built in)"},
+    {"level", 1.0, 1.0, 1.0, 0, "", DMP_USE_DC,
+     "model level (only the square law, 1, is built in)"},
     {"vto", 0.0, ANY, "V", ALL, "zero-bias threshold voltage (gate-source, < 0 for an "
                                 "enhancement PMOS)"},
     {"kp", 2e-5, POS, "A/V^2", ALL, "transconductance parameter (mobility times Cox)"},

@@ -3,7 +3,7 @@
  * 285, 1968, with the body-effect threshold as P. Antognetti and G. Massobrio, Semiconductor
  * Device Modeling with SPICE, 2nd ed., 1993, ch. 4, write it), gm = sqrt(2 beta Id) in
  * saturation (the derivative of the square law), the AC conductances against finite
- * differences of the DC solution, the noise at a drain, the transient of the overlap
+ * differences of the DC solution, RD and RS, the noise at a drain, the transient of the overlap
  * capacitances, and the card checks. Bias: beta = KP W/L = 2e-5 * 10 =
  * 2e-4 A/V^2 throughout. The bulk junctions' leakage and gmin (1e-12 S, docs/models.md
  * section 7) add up to ~1e-11 A at these biases: the tolerances allow 1e-7 relative. */
@@ -205,6 +205,21 @@ static void test_tran_overlap_rc(void **state)
     ss_test_destroy(&ckt);
 }
 
+/* RD and RS as internal nodes: with RS = 1 kOhm the saturation law reads
+ * Id = beta/2 (Vg - Id RS - VTO)^2, i.e. 0.1 u^2 + u - 2 = 0 for u = 2 - 1000 Id, so
+ * u = (sqrt(1.8) - 1)/0.2 and Id = (2 - u)/1000 = 2.9179607e-4 A; RD = 500 ohm leaves the
+ * device in saturation (Vds' = 5 - 1500 Id > u). */
+static void test_series_resistances(void **state)
+{
+    (void)state;
+    const char *t = "t\n.model nm nmos (vto=1 kp=2e-5 rd=500 rs=1k)\nvd d 0 5\nvg g 0 3\n"
+                    "m1 d g 0 0 nm w=100u l=10u\n";
+    double u = (sqrt(1.8) - 1.0) / 0.2;
+    ss_assert_close(op_of(t, "id(m1)"), (2.0 - u) / 1000.0, 1e-7, 0);
+    ss_assert_close(op_of(t, "vds(m1)"), 5.0, 1e-15, 0); /* at the terminals */
+    ss_assert_close(op_of(t, "region(m1)"), 2.0, 0, 0);
+}
+
 static void expect_error(const char *text, const char *want)
 {
     char msg[1400];
@@ -242,6 +257,7 @@ int main(void)
         cmocka_unit_test(test_ac_against_dc_differences),
         cmocka_unit_test(test_noise_at_the_drain),
         cmocka_unit_test(test_tran_overlap_rc),
+        cmocka_unit_test(test_series_resistances),
         cmocka_unit_test(test_card_checks),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
