@@ -44,7 +44,7 @@ typedef struct element {
     /* power of ten of the SI suffix written on the main value's token (-3 for `m`, -15 for
      * `f`, 6 for `meg`; 0 for none, `mil` or an {expression}): the lint's suffix checks */
     signed char value_si_exp;
-    /* what only some kinds have, overlaid (120 bytes per element in all): read these only
+    /* what only some kinds have, overlaid (128 bytes per element in all): read these only
      * through the kind they belong to (elem_is_source / elem_has_model / the F and H files) */
     union {
         struct { /* V, I */
