@@ -9,13 +9,15 @@
 
 /* Each kind's file defines its table; this list is the only place that names them all. */
 extern const dev_ops resistor_ops, capacitor_ops, inductor_ops, vsource_ops, isource_ops,
-    vcvs_ops, vccs_ops, cccs_ops, ccvs_ops, bjt_ops, jfet_ops, diode_ops;
+    vcvs_ops, vccs_ops, cccs_ops, ccvs_ops, bjt_ops, jfet_ops, mosfet_ops,
+    diode_ops;
 
 /* The order is that of op.csv's element rows and the report's tables: V sources, then
  * transistors, then diodes (kinds without rows anywhere in between). */
 static const dev_ops *const DEVICES[] = {
     &resistor_ops, &capacitor_ops, &inductor_ops, &vsource_ops, &isource_ops, &vcvs_ops,
-    &vccs_ops,     &cccs_ops,      &ccvs_ops,     &bjt_ops,     &jfet_ops,    &diode_ops,
+    &vccs_ops,     &cccs_ops,      &ccvs_ops,     &bjt_ops,     &jfet_ops,    &mosfet_ops,
+    &diode_ops,
 };
 
 int device_count(void) { return (int)(sizeof DEVICES / sizeof DEVICES[0]); }

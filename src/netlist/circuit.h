@@ -32,7 +32,8 @@ typedef struct element {
     double *tp;    /* model parameters adjusted for area and temperature; model devices only */
     double value;  /* R ohm, C farad, L henry, source DC value, controlled-source gain */
     int node[ELEM_MAX_NODES]; /* circuit node indices, 0 is ground */
-    int inode[3]; /* internal nodes made by setup (BJT c' b' e', diode anode'); 0 = none */
+    int inode[3]; /* internal nodes made by setup (BJT c' b' e', diode anode', MOSFET d' g s');
+                   0 = none */
     int branch;   /* unknown index of the element's own branch current; -1 none */
     /* names and where the element was written */
     const char *name; /* lower case; hierarchical inside subcircuits: x1.q2 */
@@ -43,7 +44,7 @@ typedef struct element {
     /* power of ten of the SI suffix written on the main value's token (-3 for `m`, -15 for
      * `f`, 6 for `meg`; 0 for none, `mil` or an {expression}): the lint's suffix checks */
     signed char value_si_exp;
-    /* what only some kinds have, overlaid (120 bytes per element in all): read these only
+    /* what only some kinds have, overlaid (128 bytes per element in all): read these only
      * through the kind they belong to (elem_is_source / elem_has_model / the F and H files) */
     union {
         struct { /* V, I */
@@ -54,9 +55,10 @@ typedef struct element {
             const char *ctrl_name; /* the controlling voltage source */
             int ctrl_elem;         /* its element index, resolved after parsing */
         };
-        struct { /* D, Q */
+        struct { /* D, Q, M */
             const model *mod;
             double area;
+            double w_m, l_m; /* M: channel width and length */
         };
     };
     /* tp and state live in the circuit's arena, sized once in analysis_prepare (tp:

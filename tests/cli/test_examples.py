@@ -8,6 +8,7 @@ tests/reference/)."""
 import csv
 import glob
 import os
+import re
 import subprocess
 import sys
 import tempfile
@@ -42,10 +43,12 @@ HAND = {
     "line_driver.cir": [("v(o)", 6.0, 0.03)],
     "piezo_preamp.cir": [("v(s)", 0.849, 0.03), ("v(d)", 6.23, 0.03),
                          ("gain_mid_db", 24.4, 0.03)],
+    "hydrophone_mos_buffer.cir": [("v(s)", 3.84, 0.03), ("gain_mid_db", -1.4, None),
+                                  ("zout_mid_ohm", 168.0, 0.05)],
 }
 
 # the region an amplifying stage works in, per transistor table of the report
-AMPLIFYING = {"Transistors": "forward active", "JFETs": "saturation"}
+AMPLIFYING = {"Transistors": "forward active", "JFETs": "saturation", "MOSFETs": "saturation"}
 
 
 def report_regions(stdout):
@@ -84,7 +87,7 @@ for path in examples:
         op = read_kv(os.path.join(out, "op.csv"))
         summary = read_kv(os.path.join(out, "stage_summary.csv"))
         regions = report_regions(r.stdout)
-        check(f"{name}: every BJT forward active, every JFET in saturation",
+        check(f"{name}: every BJT forward active, every JFET and MOSFET in saturation",
               regions and all(reg == AMPLIFYING[table] for table, _, reg in regions),
               str(regions))
         check(f"{name}: mid-band gain and Zin present",

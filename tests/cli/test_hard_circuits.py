@@ -36,6 +36,12 @@ published sources; the Gummel-Poon and temperature forms there are marked "from 
               Ids = -f(Vgd, -Vds); gate junctions IS (exp(V/(N Vt)) - 1) + GMIN V at Vgs, Vgd;
               RD, RS as resistors to internal nodes; area multiplies BETA IS and divides RD RS;
               PJF reverses every voltage and current.
+  MOSFET      level 1, Shichman & Hodges 1968 with the body effect and LAMBDA as Antognetti &
+              Massobrio 1993 ch. 4 write them (N sense; PMOS negates every voltage, current
+              and VTO): Vth = VTO + GAMMA (sqrt(PHI - Vbs) - sqrt(PHI)), Id = 0 below Vth,
+              KP W/L (1 + LAMBDA Vds)(Vgs - Vth - Vds/2) Vds below Vds = Vgs - Vth, else
+              KP/2 W/L (1 + LAMBDA Vds)(Vgs - Vth)^2; drain and source exchange for Vds < 0;
+              bulk diodes IS (exp(V/Vt) - 1) + GMIN V to drain and source (no RD/RS here)
   temperature r = T/TNOM: IS r^XTI exp((r-1) EG/Vt); BF, BR times r^XTB;
               ISE r^-XTB (IS(T)/IS)^(1/NE), ISC likewise with NC; diode IS r^(XTI/N) exp((r-1) EG/(N Vt));
               JFET IS likewise with XTI 3, EG 1.11, TNOM 27 C (held)
@@ -165,6 +171,9 @@ def read_netlist(path, sets=None):
     return ckt
 
 
+MOS_DEFAULTS = {"vto": 0.0, "kp": 2e-5, "gamma": 0.0, "phi": 0.6, "lambda": 0.0, "is_": 1e-14,
+                "rd": 0.0, "rs": 0.0}
+
 BJT_DEFAULTS = dict(is_=1e-16, bf=100.0, nf=1.0, vaf=0.0, ikf=0.0, ise=0.0, ne=1.5, br=1.0,
                     nr=1.0, var=0.0, ikr=0.0, isc=0.0, nc=2.0, rb=0.0, re=0.0, rc=0.0, xtb=0.0,
                     xti=3.0, eg=1.11, tnom=27.0)
@@ -246,6 +255,20 @@ class Circuit:
                 if p["rs"] > 0:
                     intl[2] = self.node(name + "#s")
                 self.devs.append(("j", name, ext, intl, p))
+            elif kind == "m":
+                card = ckt["models"][tok[5]]
+                p = card_params(card, MOS_DEFAULTS)
+                if p["rd"] or p["rs"]:
+                    raise ValueError(f"element {name}: RD/RS not in this script's subset")
+                p["is_"] = self.diode_temp(dict(is_=p["is_"], n=1.0, rs=0.0, xti=3.0, eg=1.11,
+                                                tnom=27.0), 1.0)["is_"]
+                p["pol"] = -1.0 if card["type"] == "pmos" else 1.0
+                wl = dict(w=1e-4, l=1e-4)
+                for t in tok[6:]:
+                    k, val = t.split("=")
+                    wl[k] = value(val, ckt["params"])
+                p["beta"] = p["kp"] * wl["w"] / wl["l"]
+                self.devs.append(("m", name, [self.node(t) for t in tok[1:5]], p))
             else:
                 raise ValueError(f"element {name}: not in this script's subset")
         self.n_nodes = len(self.nodes)
@@ -334,6 +357,31 @@ class Circuit:
         ib = i_f / p["bf"] + ibe2 + i_r / p["br"] + ibc2 + self.gmin * (vbe + vbc)
         return ic, ib
 
+    def mos_currents(self, p, x, nodes):
+        """Drain-terminal channel current (N sense, drain to source), the bulk-drain and
+        bulk-source diode currents, at N-sense voltages; complex-safe."""
+        v = self.v
+        pol = p["pol"]
+        vd, vg, vs, vb = (pol * v(x, k) for k in nodes)
+        rev = (vd - vs).real < 0
+        if rev:
+            vd, vs = vs, vd
+        vgs, vds, vbs = vg - vs, vd - vs, vb - vs
+        vth = pol * p["vto"] + p["gamma"] * (cmath.sqrt(p["phi"] - vbs) - math.sqrt(p["phi"]))
+        vgst = vgs - vth
+        cl = 1.0 + p["lambda"] * vds
+        if vgst.real <= 0:
+            i = 0.0 * vgs
+        elif vds.real >= vgst.real:
+            i = p["beta"] / 2 * vgst * vgst * cl
+        else:
+            i = p["beta"] * (vgst - vds / 2) * vds * cl
+        if rev:
+            i, vd, vs = -i, vs, vd
+        ibd = p["is_"] * self.ex1((vb - vd) / self.vt) + self.gmin * (vb - vd)
+        ibs = p["is_"] * self.ex1((vb - vs) / self.vt) + self.gmin * (vb - vs)
+        return i, ibd, ibs
+
     def residual(self, x, lam=1.0, src_over=None):
         """KCL at every node (sum of currents leaving the node into the elements) and the
         voltage equation of every V source, the sources scaled by lam."""
@@ -397,6 +445,13 @@ class Circuit:
                         i = (v(x, ext[t]) - v(x, intl[t])) / p[r]
                         into(ext[t], i)
                         into(intl[t], -i)
+            elif kind == "m":
+                _, _, nodes, p = d
+                pol = p["pol"]
+                i, ibd, ibs = self.mos_currents(p, x, nodes)
+                into(nodes[0], pol * (i - ibd))
+                into(nodes[2], pol * (-i - ibs))
+                into(nodes[3], pol * (ibd + ibs))
         return f
 
     def jacobian(self, x, lam=1.0, src_over=None):
@@ -506,6 +561,10 @@ class Circuit:
                 out[f"id({name})"] = float((pol * (ids - igd)).real)
                 out[f"vgs({name})"] = float(v(x, ext[1]) - v(x, ext[2]))
                 out[f"vds({name})"] = float(v(x, ext[0]) - v(x, ext[2]))
+            elif d[0] == "m":
+                _, name, nodes, p = d
+                i, ibd, _ = self.mos_currents(p, x.astype(complex), nodes)
+                out[f"id({name})"] = float((p["pol"] * (i - ibd)).real)
         return out
 
     def x_from_op(self, op):
@@ -1048,6 +1107,7 @@ CASES = [
     ("mirror_helper", "mirror_helper.cir", None, scipy_with(mirror_ratio), True),
     ("vbe_multiplier", "vbe_multiplier.cir", None, plain, True),
     ("diode_chain20", "diode_chain20.cir", None, diode_chain, True),
+    ("cascode_mirror", "cascode_mirror.cir", None, plain, True),
     ("tiny_is_extreme", "tiny_is_extreme.cir", None, tiny_is_extreme, False),
     ("reverse_midpoint", "reverse_midpoint.cir", None, reverse_midpoint, False),
     # With GMIN 0 the node m floats: every iterate moves it by about Vt, and gmin stepping

@@ -140,7 +140,7 @@ static void test_card_ranges_come_from_the_tables(void **state)
                  "test.cir:2: model 'dd': tnom -300 C is outside -273.15 .. 1000 C");
     /* the types and kinds named from the tables */
     expect_error("t\n.model x njx\n", "test.cir:2: model 'x': unknown type 'njx' (expected "
-                                      "npn, pnp, njf, pjf or d)");
+                                      "npn, pnp, njf, pjf, nmos, pmos or d)");
     expect_error("t\n.model p pnp\nd1 a 0 p\nv1 a 0 1\n",
                  "test.cir:3: d1: model 'p' is a pnp model; a diode needs a model of type d");
     expect_error("t\n.model q npn\nd1 a 0 q\nv1 a 0 1\n",
