@@ -325,7 +325,8 @@ static int lint_stage(ss_solver *sv, lint_survey *svy)
                                     e->file, e->line, e->name, e->value, sv->node_name[n]);
     }
 
-    /* every transistor the signal network reaches, in forward-active operation */
+    /* every transistor the signal network reaches, in its amplifying region (a BJT's forward
+     * active, a FET's saturation: the kind names it) */
     double vt = analysis_vt(sv);
     for (int k = 0; k < svy->n_q && !bad && want_q; k++) {
         const element *e = &sv->elem[g.q[k]];
@@ -337,8 +338,11 @@ static int lint_stage(ss_solver *sv, lint_survey *svy)
             continue;
         bad = solver_warn_lint(sv, LINT_STAGE_NOT_ACTIVE, e->name,
                                 "%s:%d: %s: stage transistor in %s at the operating point, not "
-                                "forward active (%s) [stage_not_active]",
-                                e->file, e->line, e->name, op.region, op.detail);
+                                "%s (%s) [stage_not_active]",
+                                e->file, e->line, e->name, op.region,
+                                e->ops->amplifying_region ? e->ops->amplifying_region
+                                                          : "amplifying",
+                                op.detail);
     }
     ss_free(mem);
     return bad;

@@ -537,6 +537,7 @@ const dev_ops bjt_ops = {
     .n_dc_pairs = 2,
     .op_point = bjt_op_point,
     .bypass_terminal = 2,
+    .amplifying_region = "forward active",
     .report_heading = BJT_REPORT_HEADING,
     .report_line = bjt_report_line,
     .parse = bjt_parse,

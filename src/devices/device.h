@@ -236,6 +236,9 @@ typedef struct dev_ops {
                      dev_op_point *out);
     /* the terminal a bypass capacitor decouples to AC ground (a BJT's emitter); -1 none */
     int bypass_terminal;
+    /* the name of the region an amplifying stage works in ("forward active", "saturation"):
+     * what the sanity check says a stage transistor should be in; NULL for other kinds */
+    const char *amplifying_region;
     /* this kind's table in the text report (src/output/report.c): heading lines, then one line
      * per element at the operating point x written into buf; NULL when none */
     const char *report_heading;

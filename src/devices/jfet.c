@@ -484,6 +484,7 @@ const dev_ops jfet_ops = {
     .n_dc_pairs = 2,
     .op_point = jfet_op_point,
     .bypass_terminal = 2,
+    .amplifying_region = "saturation",
     .report_heading = JFET_REPORT_HEADING,
     .report_line = jfet_report_line,
     .parse = jfet_parse,

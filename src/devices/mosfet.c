@@ -708,6 +708,7 @@ const dev_ops mosfet_ops = {
     .n_dc_pairs = 3,
     .op_point = mos_op_point,
     .bypass_terminal = 2,
+    .amplifying_region = "saturation",
     .report_heading = MOS_REPORT_HEADING,
     .report_line = mos_report_line,
     .parse = mos_parse,

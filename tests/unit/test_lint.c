@@ -124,6 +124,29 @@ static void test_transistor_paths(void **state)
                 "stage_not_active q9");
 }
 
+static void test_fet_amplifying_region(void **state)
+{
+    (void)state;
+    /* a JFET whose drain resistor is far too large for its current (Idss = BETA VTO^2 = 4 mA
+     * would drop 40 V across 10 kohm): it sits in the linear region, and the warning names the
+     * region a FET amplifies in, saturation (Shichman-Hodges regions, docs/models.md) */
+    ss_circuit *ckt = ss_test_parse("t\n.model jn njf vto=-2 beta=1e-3\nvdd vdd 0 12\n"
+                                    "vin in 0 dc 0 ac 1\nrg in g 1k\nj1 d g 0 jn\n"
+                                    "rd vdd d 10k\nc2 d out 1u\nrl out 0 100k\n"
+                                    ".stage in=vin out=out\n");
+    ss_solver *sv = ss_test_sv(ckt);
+    int n = 0;
+    ss_error err = {0};
+    assert_int_equal(ss_lint_run(sv, &n, &err), SS_OK);
+    assert_int_equal(n, 1);
+    const char *subject = NULL;
+    assert_string_equal(ss_solver_warning_lint(sv, 0, &subject), "stage_not_active");
+    assert_string_equal(subject, "j1");
+    ss_assert_contains(ss_solver_warning(sv, 0), "stage transistor in linear at the operating "
+                                                 "point, not saturation");
+    ss_test_destroy(&ckt);
+}
+
 static void test_every_allocation_failure_is_clean(void **state)
 {
     (void)state;
@@ -166,6 +189,7 @@ int main(void)
         cmocka_unit_test(test_series_capacitor),
         cmocka_unit_test(test_supply_is_no_signal_path),
         cmocka_unit_test(test_transistor_paths),
+        cmocka_unit_test(test_fet_amplifying_region),
         cmocka_unit_test(test_every_allocation_failure_is_clean),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
