@@ -83,6 +83,24 @@ int parse_two_node_value(pctx *p, element *e, const char *what, int allow_zero)
     return 0;
 }
 
+int parse_optional_area(pctx *p, element *e, int first)
+{
+    e->area = 1.0;
+    int n = pctx_ntok(p);
+    if (n <= first)
+        return 0;
+    const char *t = pctx_tok(p, first);
+    if (strcmp(t, "area") == 0 && n == first + 3 && strcmp(pctx_tok(p, first + 1), "=") == 0)
+        t = pctx_tok(p, first + 2);
+    else if (n > first + 1)
+        return pctx_error(p, "unexpected '%s' after the area", pctx_tok(p, first + 1));
+    if (pctx_value(p, t, "area", &e->area) != 0)
+        return -1;
+    if (!(e->area > 0.0))
+        return pctx_error(p, "area must be positive, got %g", e->area);
+    return 0;
+}
+
 int parse_source_spec(pctx *p, element *e)
 {
     /* Xname n+ n- [DC] value [AC mag [phase_deg]] [SIN(...) | PULSE(...) | PWL(...)] */

@@ -56,19 +56,7 @@ static int diode_parse(pctx *p, element *e)
     e->mod = pctx_model(p, pctx_tok(p, 3), e->ops);
     if (!e->mod)
         return -1;
-    e->area = 1.0;
-    if (pctx_ntok(p) > 4) {
-        const char *t = pctx_tok(p, 4);
-        if (strcmp(t, "area") == 0 && pctx_ntok(p) == 7 && strcmp(pctx_tok(p, 5), "=") == 0)
-            t = pctx_tok(p, 6);
-        else if (pctx_ntok(p) > 5)
-            return pctx_error(p, "unexpected '%s' after the area", pctx_tok(p, 5));
-        if (pctx_value(p, t, "area", &e->area) != 0)
-            return -1;
-        if (!(e->area > 0.0))
-            return pctx_error(p, "area must be positive, got %g", e->area);
-    }
-    return 0;
+    return parse_optional_area(p, e, 4);
 }
 
 static void diode_setup(element *e, dev_setup_ctx *sc)

@@ -75,20 +75,7 @@ static int jfet_parse(pctx *p, element *e)
     e->mod = pctx_model(p, pctx_tok(p, 4), e->ops);
     if (!e->mod)
         return -1;
-    e->area = 1.0;
-    int n = pctx_ntok(p);
-    if (n > 5) {
-        const char *t = pctx_tok(p, 5);
-        if (strcmp(t, "area") == 0 && n == 8 && strcmp(pctx_tok(p, 6), "=") == 0)
-            t = pctx_tok(p, 7);
-        else if (n > 6)
-            return pctx_error(p, "unexpected '%s' after the area", pctx_tok(p, 6));
-        if (pctx_value(p, t, "area", &e->area) != 0)
-            return -1;
-        if (!(e->area > 0.0))
-            return pctx_error(p, "area must be positive, got %g", e->area);
-    }
-    return 0;
+    return parse_optional_area(p, e, 5);
 }
 
 static void jfet_setup(element *e, dev_setup_ctx *sc)
