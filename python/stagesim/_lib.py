@@ -176,3 +176,22 @@ def overrides(sets):
         arr[i].name = str(name).encode()
         arr[i].value = text.encode()
     return arr, len(sets)
+
+
+class Owned:
+    """An owner of one C handle (self._h, a c_void_p) freed by its destroy call
+    (self._destroy, kept on the object: module globals may be gone at exit): close() frees it
+    now, a `with` block at its end, garbage collection at the latest."""
+
+    def close(self):
+        if getattr(self, "_h", None) and self._h.value:
+            self._destroy(ctypes.byref(self._h))
+
+    def __del__(self):
+        self.close()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()

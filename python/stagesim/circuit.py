@@ -14,7 +14,7 @@ measured value, the bounds (NaN when open), the margin to the nearest bound (neg
 failing) and passed (bool)."""
 
 
-class Circuit:
+class Circuit(_lib.Owned):
     """A parsed netlist: read-only; make solver contexts of it with solver()."""
 
     def __init__(self, handle, name):
@@ -57,18 +57,14 @@ class Circuit:
 
     def close(self):
         """Frees the circuit now (solvers made of it keep it alive until they go)."""
-        if getattr(self, "_h", None) and self._h.value:
-            self._destroy(ctypes.byref(self._h))
-
-    def __del__(self):
-        self.close()
+        super().close()
 
 
 def _name(text):
     return text.encode()
 
 
-class Solver:
+class Solver(_lib.Owned):
     """A solver context: values by name, temperature, requests and the analyses. Use it as a
     context manager (freed on exit) or let garbage collection free it; it keeps its Circuit
     alive."""
@@ -80,20 +76,7 @@ class Solver:
         self._labels = {}  # row labels of the op and figures tables, by kind and row count
         call(lib.ss_solver_create, circuit._h, ctypes.byref(self._h))
 
-    # ---- lifetime ----
-    def close(self):
-        if getattr(self, "_h", None) and self._h.value:
-            self._destroy(ctypes.byref(self._h))
-
-    def __del__(self):
-        self.close()
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, *exc):
-        self.close()
-
+    # ---- lifetime: close(), `with`, garbage collection (_lib.Owned) ----
     def _handle(self):
         if not self._h.value:
             raise ValueError("stagesim: the solver context is closed")

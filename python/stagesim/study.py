@@ -6,7 +6,7 @@ from . import _lib, _tables
 from ._lib import lib, call
 
 
-class Study:
+class Study(_lib.Owned):
     """A sweep (add_vary) and/or tolerance run (add_tolerance, trials) of a netlist file:
     run() gives one row per point (point, swept and sampled values, status, every figure)."""
 
@@ -15,19 +15,6 @@ class Study:
         self._h = ctypes.c_void_p()
         self._destroy = lib.ss_study_destroy  # kept: module globals may be gone at exit
         call(lib.ss_study_create, os.fsencode(netlist_path), arr, n, ctypes.byref(self._h))
-
-    def close(self):
-        if getattr(self, "_h", None) and self._h.value:
-            self._destroy(ctypes.byref(self._h))
-
-    def __del__(self):
-        self.close()
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, *exc):
-        self.close()
 
     def set_stage(self, in_source, out_node):
         call(lib.ss_study_set_stage, self._h, in_source.encode(), out_node.encode())
