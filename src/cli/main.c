@@ -19,7 +19,7 @@ static const char USAGE[] =
     "       stagesim spread NETLIST [--trials N] [--seed S] [--tol NAME=SPEC]... [options]\n"
     "                                                tolerance (Monte Carlo) run\n"
     "       stagesim sensitivity NETLIST [--tol NAME=SPEC]... [options]\n"
-    "       stagesim snap NETLIST --series E12|E24|E96 [options]\n"
+    "       stagesim snap NETLIST --series E6|E12|E24|E48|E96|E192 [options]\n"
     "       stagesim merge [-o DIR] [--limits FILE] SHARD.csv...\n"
     "       stagesim --help | --version\n"
     "\n"
@@ -49,7 +49,7 @@ static const char USAGE[] =
     "                    depend on it\n"
     "  --shard K/N       (sweep, spread) run the K-th of N slices of the points\n"
     "  --temps LO,HI     (sensitivity) temperature extremes, default -40,85\n"
-    "  --series E12|E24|E96   (snap) the preferred-value series\n"
+    "  --series E6|E12|E24|E48|E96|E192   (snap) the preferred-value series\n"
     "Real numbers take the netlist's SI suffixes (10k, 4.7meg, 100n; m is milli, a lone M\n"
     "is refused); counts are plain digits.\n"
     "\n"
@@ -108,7 +108,7 @@ static const cli_command COMMANDS[] = {
      "extremes (sensitivity.csv, corners.csv).",
      "stagesim sensitivity netlists/vibration_frontend.cir --tol R1=5% --tol R2=5% \\\n"
      "      --temps -40,85 -o out/sens"},
-    {"snap", C_SNAP, "stagesim snap NETLIST --series E12|E24|E96 [options]",
+    {"snap", C_SNAP, "stagesim snap NETLIST --series E6|E12|E24|E48|E96|E192 [options]",
      "Snaps every resistor to the nearest value of the series (IEC 60063) and shows how\n"
      "every figure shifts (snap_values.csv, snap_figures.csv).",
      "stagesim snap netlists/vibration_frontend.cir --series E24 -o out/snap"},
@@ -172,7 +172,7 @@ static const cli_option OPTIONS[] = {
      "run only the K-th of N slices of the points (merge joins them)"},
     {"--temps", NULL, "LO,HI", C_SENS,
      "corner temperatures in C, -273.15 < LO < HI <= 1000 (default -40,85)"},
-    {"--series", NULL, "E12|E24|E96", C_SNAP, "the preferred-value series (required)"},
+    {"--series", NULL, "E6|E12|E24|E48|E96|E192", C_SNAP, "the preferred-value series (required)"},
     {"--quiet", "-q", NULL, C_ALL, "no report on standard output"},
     {"--help", "-h", NULL, C_ALL, "print this help and exit"},
 };
@@ -447,11 +447,16 @@ static int parse_study_option(const char *n, const char *o, const char *next, cl
         rc = parse_real(o, next, 0.0, 0, 1.0, 0, "a fraction from 0 to 1", &a->min_yield);
     } else if (strcmp(n, "--series") == 0) {
         const char *v = (next[0] == 'E' || next[0] == 'e') ? next + 1 : next;
-        a->series = strcmp(v, "12") == 0 ? 12 : strcmp(v, "24") == 0 ? 24
-                    : strcmp(v, "96") == 0                          ? 96
-                                                                    : 0;
+        static const int known[] = {6, 12, 24, 48, 96, 192};
+        a->series = 0;
+        for (size_t i = 0; i < sizeof known / sizeof known[0]; i++) {
+            char txt[8];
+            snprintf(txt, sizeof txt, "%d", known[i]);
+            if (strcmp(v, txt) == 0)
+                a->series = known[i];
+        }
         if (!a->series)
-            return usage_error("--series needs E12, E24 or E96, got '%s'", next);
+            return usage_error("--series needs E6, E12, E24, E48, E96 or E192, got '%s'", next);
     } else if (strcmp(n, "--temps") == 0) {
         static const char needs[] = "LO,HI in degrees C with -273.15 < LO < HI <= 1000";
         char buf[256];

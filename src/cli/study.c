@@ -289,7 +289,7 @@ int cmd_merge(const cli_args *a)
 int cmd_snap(const cli_args *a)
 {
     if (a->series == 0)
-        return usage_error("%s", "snap needs --series E12, E24 or E96");
+        return usage_error("%s", "snap needs --series E6, E12, E24, E48, E96 or E192");
     static const char *const names[2] = {"snap_values.csv", "snap_figures.csv"};
     const char *path[2];
     ss_outset *set = NULL;

@@ -12,8 +12,8 @@ ss_status ss_study_snap(ss_study *s, int series, const char *kinds, ss_table **o
     const int *tab;
     double scale;
     if (eseries_table(series, &tab, &scale) == 0)
-        return err_set(err, SS_ERR_INPUT, NULL, 0, "unknown series E%d (use E12, E24 or E96)",
-                       series);
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "unknown series E%d (use E6, E12, E24, E48, E96 or E192)", series);
     const ss_circuit *nom = s->nominal;
     int n_snap = 0;
     for (int i = 0; i < nom->n_elem; i++)

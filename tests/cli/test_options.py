@@ -177,10 +177,11 @@ case("--load 1M (milli or mega?)", 2,
      LOAD + ": '1M': M is milli here as in the netlist; write 1m for milli or 1meg for mega",
      run_s("--load", "1M"), usage=True)
 case("--load 0", 2, LOAD + ", got '0'", run_s("--load", "0"), usage=True)
-case("--series E12junk", 2, "stagesim: --series needs E12, E24 or E96, got 'E12junk'",
+case("--series E12junk", 2,
+     "stagesim: --series needs E6, E12, E24, E48, E96 or E192, got 'E12junk'",
      ["snap", "{T}/s.cir", "--series", "E12junk"], usage=True)
-case("--series E48", 2, "stagesim: --series needs E12, E24 or E96, got 'E48'",
-     ["snap", "{T}/s.cir", "--series", "E48"], usage=True)
+case("--series E36", 2, "stagesim: --series needs E6, E12, E24, E48, E96 or E192, got 'E36'",
+     ["snap", "{T}/s.cir", "--series", "E36"], usage=True)
 SHARD = "stagesim: --shard needs K/N, whole numbers with 1 <= K <= N <= 100000000, got '%s'"
 SPREAD = ["spread", "{T}/s.cir", "-o", "{T}/out"]
 for v in ("1/99999999999", "1/2x", "1/", "0/3", "4/3", "+1/2", "1/2/3", "1 /2"):
