@@ -8,10 +8,12 @@
  *           the analysis table, sanity warnings
  *   stage.h stage figures and the large-signal test
  *   study.h limits, checks, sweeps, tolerance runs, sensitivities, preferred values, shards
- *   plot.h  plots, the report, output sets */
+ *   plot.h  plots, the report, output sets
+ *   refine.h the preferred-value lattice, refine (a design search over free values) */
 #include "stagesim/core.h"
 #include "stagesim/plot.h"
 #include "stagesim/stage.h"
 #include "stagesim/study.h"
+#include "stagesim/refine.h"
 
 #endif

@@ -33,6 +33,11 @@ typedef struct cli_args {
     double ls_freq, thd_amp, thd_target;
     const char **nodes; /* --nodes lists, each comma-separated */
     int n_nodes;
+    int temps_given;               /* --temps was given (refine's temperature corners) */
+    const char *beta_range;        /* refine --beta-range LO,HI */
+    const char **supply_tols;      /* refine --supply-tol NAME=PCT% */
+    int n_supply_tols;
+    long max_candidates;           /* refine --max-candidates; 0 the default */
     char *cmdline; /* the arguments after the program name, for the run's manifest */
 } cli_args;
 
@@ -71,5 +76,8 @@ int cmd_study(const cli_args *a, int spread); /* study.c: sweep (0) or spread (1
 int cmd_sensitivity(const cli_args *a);       /* study.c */
 int cmd_snap(const cli_args *a);              /* study.c */
 int cmd_merge(const cli_args *a);             /* study.c */
+int cmd_refine(const cli_args *a);            /* refine.c */
+/* refine's own options (refine.c): EXIT_OK, EXIT_BAD_INPUT, or -1 for another option */
+int parse_refine_option(const char *n, const char *next, cli_args *a);
 
 #endif

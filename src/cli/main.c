@@ -21,6 +21,8 @@ static const char USAGE[] =
     "       stagesim sensitivity NETLIST [--tol NAME=SPEC]... [options]\n"
     "       stagesim snap NETLIST --series E6|E12|E24|E48|E96|E192 [options]\n"
     "       stagesim merge [-o DIR] [--limits FILE] SHARD.csv...\n"
+    "       stagesim refine NETLIST [--limits FILE] [corners] [options]\n"
+    "                                                preferred values for the .choose values\n"
     "       stagesim --help | --version\n"
     "\n"
     "Each command's options, with an example: stagesim COMMAND --help (or stagesim help\n"
@@ -50,6 +52,8 @@ static const char USAGE[] =
     "  --shard K/N       (sweep, spread) run the K-th of N slices of the points\n"
     "  --temps LO,HI     (sensitivity) temperature extremes, default -40,85\n"
     "  --series E6|E12|E24|E48|E96|E192   (snap) the preferred-value series\n"
+    "  --beta-range LO,HI --supply-tol NAME=PCT% --max-candidates N   (refine) corners and\n"
+    "                    the search's budget; refine also takes --temps and --threads\n"
     "Real numbers take the netlist's SI suffixes (10k, 4.7meg, 100n; m is milli, a lone M\n"
     "is refused); counts are plain digits.\n"
     "\n"
@@ -65,7 +69,8 @@ enum {
     C_SENS = 1 << 4,
     C_SNAP = 1 << 5,
     C_MERGE = 1 << 6,
-    C_ALL = (1 << 7) - 1,
+    C_REFINE = 1 << 7,
+    C_ALL = (1 << 8) - 1,
     C_NETLIST = C_ALL & ~C_MERGE, /* the commands that read a netlist */
 };
 
@@ -117,6 +122,15 @@ static const cli_command COMMANDS[] = {
      "exactly once) and writes study.csv and study_summary.csv.",
      "stagesim merge -o out/all --limits netlists/vibration_frontend.limits \\\n"
      "      out/s1/study.csv out/s2/study.csv"},
+    {"refine", C_REFINE, "stagesim refine NETLIST [--limits FILE] [options]",
+     "Chooses preferred values (IEC 60063) for the netlist's .choose values so that every\n"
+     "limit (.expect lines, --limits) holds with the largest normalised margin at the nominal\n"
+     "point and at every corner named (--beta-range, --temps, --supply-tol); writes\n"
+     "refined.cir (the netlist with the chosen values), design.csv, design_margins.csv and\n"
+     "refine_path.csv (docs/refine.md). Exit 0 every limit met at every corner, 1 not (the\n"
+     "failing limits named), 2 bad input, 3 no operating point for any candidate.",
+     "stagesim refine netlists/geophone_preamp.cir --beta-range 0.5x,2x --temps -20,70 \\\n"
+     "      --supply-tol vcc=10% -o out/refine"},
 };
 #define N_COMMANDS (sizeof COMMANDS / sizeof COMMANDS[0])
 
@@ -173,6 +187,16 @@ static const cli_option OPTIONS[] = {
     {"--temps", NULL, "LO,HI", C_SENS,
      "corner temperatures in C, -273.15 < LO < HI <= 1000 (default -40,85)"},
     {"--series", NULL, "E6|E12|E24|E48|E96|E192", C_SNAP, "the preferred-value series (required)"},
+    {"--limits", NULL, "FILE", C_REFINE, "limits to meet (with the .expect lines)"},
+    {"--beta-range", NULL, "LO,HI", C_REFINE,
+     "beta corners: factors of each BF (0.5x,2x) or BF values (50,400)"},
+    {"--temps", NULL, "LO,HI", C_REFINE, "temperature corners in C, -273.15 < LO < HI <= 1000"},
+    {"--supply-tol", NULL, "NAME=PCT%", C_REFINE,
+     "supply corners: NAME (a source or .param) at -PCT and +PCT; repeatable"},
+    {"--threads", NULL, "N", C_REFINE,
+     "1 .. 256 worker threads (default: all cores); results do not depend on it"},
+    {"--max-candidates", NULL, "N", C_REFINE,
+     "the most candidate designs solved, 10 .. 10000000 (default 20000)"},
     {"--quiet", "-q", NULL, C_ALL, "no report on standard output"},
     {"--help", "-h", NULL, C_ALL, "print this help and exit"},
 };
@@ -288,7 +312,8 @@ static int parse_args_init(int argc, char **argv, cli_args *a)
     a->tols = calloc((size_t)argc, sizeof *a->tols);
     a->shards = calloc((size_t)argc, sizeof *a->shards);
     a->nodes = calloc((size_t)argc, sizeof *a->nodes);
-    if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes)
+    a->supply_tols = calloc((size_t)argc, sizeof *a->supply_tols);
+    if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes || !a->supply_tols)
         return EXIT_BAD_INPUT;
     return EXIT_OK;
 }
@@ -311,7 +336,7 @@ static int check_option(const char *o, const char *next, const cli_command *cmd,
     /* a value given twice would drop the first; only these options add up */
     if (opt && opt->arg && strcmp(opt->name, "--set") != 0 && strcmp(opt->name, "--vary") != 0 &&
         strcmp(opt->name, "--tol") != 0 && strcmp(opt->name, "--nodes") != 0 &&
-        strcmp(opt->name, "--limits") != 0) {
+        strcmp(opt->name, "--limits") != 0 && strcmp(opt->name, "--supply-tol") != 0) {
         if (seen[opt - OPTIONS])
             return usage_errorf("%s given twice", o);
         seen[opt - OPTIONS] = 1;
@@ -470,6 +495,7 @@ static int parse_study_option(const char *n, const char *o, const char *next, cl
             return usage_errorf("--temps needs %s: %s", needs, err.message);
         if (!(a->temp_lo > -273.15 && a->temp_lo < a->temp_hi && a->temp_hi <= 1000.0))
             return usage_errorf("--temps needs %s, got '%s'", needs, next);
+        a->temps_given = 1;
     } else {
         return OPT_OTHER;
     }
@@ -485,6 +511,8 @@ static int parse_option(const cli_option *opt, const char *o, const char *next, 
         rc = parse_run_option(n, o, next, a);
     if (rc == OPT_OTHER)
         rc = parse_study_option(n, o, next, a);
+    if (rc == OPT_OTHER)
+        rc = parse_refine_option(n, next, a);
     return rc == OPT_OTHER ? EXIT_OK : rc; /* --help: main answered it before parsing */
 }
 
@@ -620,6 +648,8 @@ int main(int argc, char **argv)
             rc = cmd_sensitivity(&a);
         else if (strcmp(a.cmd, "snap") == 0)
             rc = cmd_snap(&a);
+        else if (strcmp(a.cmd, "refine") == 0)
+            rc = cmd_refine(&a);
         else
             rc = cmd_merge(&a);
     }
@@ -628,6 +658,7 @@ int main(int argc, char **argv)
     free(a.tols);
     free(a.shards);
     free(a.nodes);
+    free(a.supply_tols);
     free(a.cmdline);
     return rc;
 }

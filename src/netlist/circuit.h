@@ -219,12 +219,14 @@ struct ss_circuit {
     stage_spec stage;
     noise_spec noise;
     large_signal_spec ls;
-    /* study directives kept as text for src/study: .expect (limits), .tolerance */
+    /* study directives kept as text for src/study and src/design: .expect (limits),
+     * .tolerance, .choose (a free value for refine) */
     struct study_line {
         const char *file;
         int line;
         const char *text; /* the line after the directive word, lower case */
         int is_tolerance;
+        int is_choice;
     } *study_lines;
     int n_study_lines;
     /* global .param definitions and values as evaluated (after --set) */

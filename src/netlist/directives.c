@@ -285,11 +285,14 @@ static ss_status dir_ac(parser *ps, const logline *ll)
     return SS_OK;
 }
 
-/* .expect and .tolerance: limits and tolerances, kept as text, parsed and checked by src/study */
+/* .expect, .tolerance and .choose: limits, tolerances and free values, kept as text, parsed and
+ * checked by src/study and src/design */
 static ss_status dir_study_line(parser *ps, const logline *ll)
 {
     ss_circuit *ckt = ps->ckt;
     const char *d = ll->tok[0];
+    if (d[1] == 'c' && ll->n_tok < 4)
+        return line_error(ps, ll, ".choose needs NAME SERIES LO..HI (e.g. .choose R1 E24 1k..100k)");
     if (ll->n_tok < 2)
         return line_error(ps, ll, "%s needs a quantity and its %s", d,
                           d[1] == 'e' ? "limits" : "tolerance");
@@ -303,6 +306,7 @@ static ss_status dir_study_line(parser *ps, const logline *ll)
     nl[ckt->n_study_lines].line = ll->line;
     nl[ckt->n_study_lines].text = text;
     nl[ckt->n_study_lines].is_tolerance = d[1] == 't';
+    nl[ckt->n_study_lines].is_choice = d[1] == 'c';
     ckt->n_study_lines++;
     return SS_OK;
 }
@@ -403,6 +407,7 @@ static const directive_def DIRECTIVES[] = {
     {".ac", dir_ac, DIRECTIVE_ONCE},
     {".expect", dir_study_line, 0},
     {".tolerance", dir_study_line, 0},
+    {".choose", dir_study_line, 0},
     {".tran", dir_tran, DIRECTIVE_ONCE},
     {".large_signal", dir_large_signal, DIRECTIVE_ONCE},
     {".noise", dir_noise, DIRECTIVE_ONCE},

@@ -80,3 +80,79 @@ ss_status ss_eseries_nearest(int series, double value, double *out_value, ss_err
     *out_value = round(best / mag) * mag;
     return SS_OK;
 }
+
+/* ---- the series as a lattice: index k <-> value ------------------------------------------ */
+
+/* Index k of a series of n values per decade stands for significand tab[k mod n] in decade
+ * floor(k / n): k = 0 is 1 (one ohm, one farad), k = n is 10, k = -1 is the decade below's
+ * largest member. Stepping k by one is the next preferred value up or down. */
+
+static long floor_div(long a, long b) { return a >= 0 ? a / b : -((-a + b - 1) / b); }
+
+double eseries_lattice_value(int series, long k)
+{
+    const int *tab;
+    double scale;
+    int n = eseries_table(series, &tab, &scale);
+    if (n == 0)
+        return SS_NAN;
+    long d = floor_div(k, n);
+    long i = k - d * n;
+    /* the significand times an exact power of ten: 4.7 * 1e3 as 47 * 1e2, then rounded to
+     * the table's digits so that every index gives one and the same double */
+    double v = tab[i] * pow(10.0, (double)d) / scale;
+    double mag = pow(10.0, floor(log10(v)) - 3.0);
+    return round(v / mag) * mag;
+}
+
+int eseries_lattice_index(int series, double value, long *out_k)
+{
+    const int *tab;
+    double scale;
+    int n = eseries_table(series, &tab, &scale);
+    if (n == 0 || !(value > 0.0) || !isfinite(value))
+        return -1;
+    /* a first guess from the geometric spacing, then the nearest (smallest ratio) among its
+     * neighbours: the tables differ from 10^(i/n) by far less than one step */
+    long k0 = (long)floor(log10(value) * n + 0.5);
+    long best = k0;
+    double best_err = HUGE_VAL;
+    for (long k = k0 - 2; k <= k0 + 2; k++) {
+        double e = fabs(log(eseries_lattice_value(series, k) / value));
+        if (e < best_err) {
+            best_err = e;
+            best = k;
+        }
+    }
+    *out_k = best;
+    return 0;
+}
+
+ss_status ss_eseries_index(int series, double value, long *out_index, ss_error *err)
+{
+    const int *tab;
+    double scale;
+    if (eseries_table(series, &tab, &scale) == 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "unknown series E%d (use E6, E12, E24, E48, E96 or E192)", series);
+    if (eseries_lattice_index(series, value, out_index) != 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "%g has no preferred value", value);
+    return SS_OK;
+}
+
+ss_status ss_eseries_value(int series, long index, double *out_value, ss_error *err)
+{
+    const int *tab;
+    double scale;
+    int n = eseries_table(series, &tab, &scale);
+    if (n == 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "unknown series E%d (use E6, E12, E24, E48, E96 or E192)", series);
+    /* 1e-30 .. 1e30 covers every component value a netlist can mean */
+    if (index < -30L * n || index > 30L * n)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "preferred-value index %ld of E%d is outside 1e-30 .. 1e30", index,
+                       series);
+    *out_value = eseries_lattice_value(series, index);
+    return SS_OK;
+}

@@ -283,7 +283,7 @@ ss_status ss_limits_add_circuit(ss_limits *l, const ss_circuit *ckt, ss_error *e
 {
     for (int i = 0; i < ckt->n_study_lines; i++) {
         const struct study_line *sl = &ckt->study_lines[i];
-        if (sl->is_tolerance)
+        if (sl->is_tolerance || sl->is_choice)
             continue;
         ss_status st = limits_parse_line(l, sl->text, sl->file, sl->line, err);
         if (st != SS_OK)

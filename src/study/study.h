@@ -111,5 +111,10 @@ SS_HIDDEN void study_shard(const ss_study *s, int *k, int *n, unsigned long long
 
 /* The significands of series E12/E24/E96 (times *scale); returns the count, 0 if unknown. */
 SS_HIDDEN int eseries_table(int series, const int **values, double *scale);
+/* The series as a lattice (eseries.c): value of index k (k = 0 is 1, k = n is 10, k - 1 the
+ * next lower preferred value; NaN for an unknown series) and the index nearest value (> 0) on
+ * a logarithmic scale (0, or -1 for an unknown series or a value not positive and finite). */
+SS_HIDDEN double eseries_lattice_value(int series, long k);
+SS_HIDDEN int eseries_lattice_index(int series, double value, long *out_k);
 
 #endif
