@@ -1,0 +1,336 @@
+/* Refine benchmark: the cost of one candidate design in `stagesim refine` -- six free values
+ * of the two-transistor geophone preamp (netlists/geophone_preamp.cir), each candidate solved
+ * at the nominal point and six corners (beta 0.5x and 2x, -20 and 70 C, supply +-10 %) -- and
+ * its ratio to the bare KLU work of one candidate measured in the same run:
+ *
+ *   1. ss_refine_run on one thread and on every core (no files written): candidates and
+ *      circuits (candidate x corner operating points) per second, and per thread;
+ *   2. the bare KLU work of one candidate: exactly as many klu_refactor / klu_solve and
+ *      klu_z_refactor / klu_z_solve / klu_z_tsolve calls as the one-thread search made per
+ *      candidate (counted by wrapping the KLU functions this program links), replayed on
+ *      copies of the circuit's matrices, and the ratio of the search's time per candidate to
+ *      it.
+ * Medians of REPEATS runs (default 3). Usage: bench_refine [NETLIST] [REPEATS]; run it from the
+ * repository's top folder (the netlist's .include is relative to it). */
+#define _GNU_SOURCE /* RTLD_NEXT */
+#include <complex.h>
+#include <dlfcn.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+#include <suitesparse/klu.h>
+
+#include "analysis/analysis.h"
+#include "stagesim/stagesim.h"
+
+#include "bench_util.h"
+
+/* ---- klu_wrap: counting the KLU calls stagesim makes (as bench_study.c) ------------------ */
+
+typedef klu_numeric *(*factor_fn)(int *, int *, double *, klu_symbolic *, klu_common *);
+typedef int (*refactor_fn)(int *, int *, double *, klu_symbolic *, klu_numeric *,
+                           klu_common *);
+typedef int (*solve_fn)(klu_symbolic *, klu_numeric *, int, int, double *, klu_common *);
+typedef int (*tsolve_fn)(klu_symbolic *, klu_numeric *, int, int, double *, int,
+                         klu_common *);
+
+static struct {
+    factor_fn factor, z_factor;
+    refactor_fn refactor, z_refactor;
+    solve_fn solve, z_solve;
+    tsolve_fn z_tsolve;
+} libklu;
+
+typedef struct klu_counts {
+    long factor, refactor, solve;                 /* real */
+    long z_factor, z_refactor, z_solve, z_tsolve; /* complex */
+} klu_counts;
+static klu_counts g_count;
+
+static void *libklu_sym(const char *name)
+{
+    void *f = dlsym(RTLD_NEXT, name);
+    if (!f) {
+        fprintf(stderr, "bench_refine: %s not found in the KLU library\n", name);
+        exit(1);
+    }
+    return f;
+}
+
+static void libklu_bind(void)
+{
+    libklu.factor = (factor_fn)libklu_sym("klu_factor");
+    libklu.z_factor = (factor_fn)libklu_sym("klu_z_factor");
+    libklu.refactor = (refactor_fn)libklu_sym("klu_refactor");
+    libklu.z_refactor = (refactor_fn)libklu_sym("klu_z_refactor");
+    libklu.solve = (solve_fn)libklu_sym("klu_solve");
+    libklu.z_solve = (solve_fn)libklu_sym("klu_z_solve");
+    libklu.z_tsolve = (tsolve_fn)libklu_sym("klu_z_tsolve");
+}
+
+klu_numeric *klu_factor(int *Ap, int *Ai, double *Ax, klu_symbolic *sym, klu_common *c)
+{
+    g_count.factor++;
+    return libklu.factor(Ap, Ai, Ax, sym, c);
+}
+
+klu_numeric *klu_z_factor(int *Ap, int *Ai, double *Ax, klu_symbolic *sym, klu_common *c)
+{
+    g_count.z_factor++;
+    return libklu.z_factor(Ap, Ai, Ax, sym, c);
+}
+
+int klu_refactor(int *Ap, int *Ai, double *Ax, klu_symbolic *sym, klu_numeric *num,
+                 klu_common *c)
+{
+    g_count.refactor++;
+    return libklu.refactor(Ap, Ai, Ax, sym, num, c);
+}
+
+int klu_z_refactor(int *Ap, int *Ai, double *Ax, klu_symbolic *sym, klu_numeric *num,
+                   klu_common *c)
+{
+    g_count.z_refactor++;
+    return libklu.z_refactor(Ap, Ai, Ax, sym, num, c);
+}
+
+int klu_solve(klu_symbolic *sym, klu_numeric *num, int ldim, int nrhs, double *B, klu_common *c)
+{
+    g_count.solve++;
+    return libklu.solve(sym, num, ldim, nrhs, B, c);
+}
+
+int klu_z_solve(klu_symbolic *sym, klu_numeric *num, int ldim, int nrhs, double *B,
+                klu_common *c)
+{
+    g_count.z_solve++;
+    return libklu.z_solve(sym, num, ldim, nrhs, B, c);
+}
+
+int klu_z_tsolve(klu_symbolic *sym, klu_numeric *num, int ldim, int nrhs, double *B,
+                 int conj_solve, klu_common *c)
+{
+    g_count.z_tsolve++;
+    return libklu.z_tsolve(sym, num, ldim, nrhs, B, conj_solve, c);
+}
+
+typedef struct bare_mats {
+    int n;
+    int *Ap, *Ai;
+    double *Ax, *Az; /* the real and complex values as the last candidate left them */
+    double *b, *b0;  /* right-hand side and its start (2 n: room for complex) */
+    klu_common c;
+    klu_symbolic *sym;
+    klu_numeric *num, *znum;
+} bare_mats;
+
+static double *dup_doubles(const double *src, size_t n)
+{
+    double *d = malloc(n * sizeof *d);
+    if (!d) {
+        fprintf(stderr, "bench_refine: out of memory\n");
+        exit(1);
+    }
+    memcpy(d, src, n * sizeof *d);
+    return d;
+}
+
+static void bare_open(bare_mats *bm, mna *m)
+{
+    int n = mna_n(m), nnz = mna_nnz(m);
+    bm->n = n;
+    bm->Ap = malloc((size_t)(n + 1) * sizeof *bm->Ap);
+    bm->Ai = malloc((size_t)nnz * sizeof *bm->Ai);
+    if (!bm->Ap || !bm->Ai) {
+        fprintf(stderr, "bench_refine: out of memory\n");
+        exit(1);
+    }
+    memcpy(bm->Ap, mna_colptr(m), (size_t)(n + 1) * sizeof *bm->Ap);
+    memcpy(bm->Ai, mna_rowidx(m), (size_t)nnz * sizeof *bm->Ai);
+    bm->Ax = dup_doubles(mna_values(m), (size_t)nnz);
+    bm->Az = dup_doubles((const double *)mna_zvalues(m), 2 * (size_t)nnz);
+    bm->b = malloc(2 * (size_t)n * sizeof *bm->b);
+    bm->b0 = malloc(2 * (size_t)n * sizeof *bm->b0);
+    if (!bm->b || !bm->b0) {
+        fprintf(stderr, "bench_refine: out of memory\n");
+        exit(1);
+    }
+    for (int i = 0; i < n; i++) {
+        bm->b0[2 * i] = 1.0;
+        bm->b0[2 * i + 1] = 0.0;
+    }
+    klu_defaults(&bm->c);
+    bm->sym = klu_analyze(n, bm->Ap, bm->Ai, &bm->c);
+    bm->num = bm->sym ? libklu.factor(bm->Ap, bm->Ai, bm->Ax, bm->sym, &bm->c) : NULL;
+    bm->znum = bm->sym ? libklu.z_factor(bm->Ap, bm->Ai, bm->Az, bm->sym, &bm->c) : NULL;
+    if (!bm->num || !bm->znum) {
+        fprintf(stderr, "bench_refine: bare KLU could not factor the candidate's matrices\n");
+        exit(1);
+    }
+}
+
+static void bare_close(bare_mats *bm)
+{
+    klu_free_numeric(&bm->num, &bm->c);
+    klu_z_free_numeric(&bm->znum, &bm->c);
+    klu_free_symbolic(&bm->sym, &bm->c);
+    free(bm->Ap);
+    free(bm->Ai);
+    free(bm->Ax);
+    free(bm->Az);
+    free(bm->b);
+    free(bm->b0);
+}
+
+/* Trial t's share of total calls over candidates: the shares add up to total exactly. */
+static long share(long total, long t, long candidates)
+{
+    return total * (t + 1) / candidates - total * t / candidates;
+}
+
+/* The calls `per` counted over `candidates` candidates, replayed candidate by candidate: every factorization
+ * (fresh or not) as a refactor, every solve on a fresh right-hand side. */
+static void bare_candidates(bare_mats *bm, const klu_counts *per, long candidates, long of)
+{
+    int n = bm->n;
+    size_t rb = (size_t)n * sizeof *bm->b, zb = 2 * rb;
+    for (long t = 0; t < candidates; t++) {
+        long ref = share(per->factor + per->refactor, t % of, of);
+        long sol = share(per->solve, t % of, of);
+        long zref = share(per->z_factor + per->z_refactor, t % of, of);
+        long zsol = share(per->z_solve, t % of, of);
+        long ztsol = share(per->z_tsolve, t % of, of);
+        for (long k = 0; k < ref; k++)
+            libklu.refactor(bm->Ap, bm->Ai, bm->Ax, bm->sym, bm->num, &bm->c);
+        for (long k = 0; k < sol; k++) {
+            memcpy(bm->b, bm->b0, rb);
+            libklu.solve(bm->sym, bm->num, n, 1, bm->b, &bm->c);
+        }
+        for (long k = 0; k < zref; k++)
+            libklu.z_refactor(bm->Ap, bm->Ai, bm->Az, bm->sym, bm->znum, &bm->c);
+        for (long k = 0; k < zsol; k++) {
+            memcpy(bm->b, bm->b0, zb);
+            libklu.z_solve(bm->sym, bm->znum, n, 1, bm->b, &bm->c);
+        }
+        for (long k = 0; k < ztsol; k++) {
+            memcpy(bm->b, bm->b0, zb);
+            libklu.z_tsolve(bm->sym, bm->znum, n, 1, bm->b, 0, &bm->c);
+        }
+    }
+}
+
+
+/* ---- the search ---------------------------------------------------------------------------- */
+
+static void die(const char *what, const ss_error *err)
+{
+    fprintf(stderr, "bench_refine: %s: %s\n", what, err->message);
+    exit(1);
+}
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return x < y ? -1 : x > y;
+}
+
+static double median(double *v, int n)
+{
+    qsort(v, (size_t)n, sizeof *v, cmp_double);
+    return n % 2 ? v[n / 2] : 0.5 * (v[n / 2 - 1] + v[n / 2]);
+}
+
+static ss_refine_stats run_refine(const char *path, int threads)
+{
+    ss_refine *r = NULL;
+    ss_error err = {0};
+    if (ss_refine_create(path, NULL, 0, &r, &err) != SS_OK ||
+        ss_refine_set_beta_range(r, 0.5, 2.0, 1, &err) != SS_OK ||
+        ss_refine_set_temps(r, -20.0, 70.0, &err) != SS_OK ||
+        ss_refine_add_supply_tol(r, "vcc=10%", &err) != SS_OK ||
+        ss_refine_set_threads(r, threads, &err) != SS_OK || ss_refine_run(r, &err) != SS_OK)
+        die(path, &err);
+    ss_refine_stats s;
+    ss_refine_get_stats(r, &s);
+    ss_refine_destroy(&r);
+    return s;
+}
+
+int main(int argc, char **argv)
+{
+    const char *path = argc > 1 && argv[1][0] ? argv[1] : "netlists/geophone_preamp.cir";
+    int reps = argc > 2 ? atoi(argv[2]) : 3;
+    if (reps < 1)
+        reps = 1;
+    libklu_bind();
+    int cores = ss_cpu_count();
+    double t1[64], tn[64];
+    ss_refine_stats s1 = {0}, sn = {0};
+    klu_counts total = {0};
+    for (int k = 0; k < reps && k < 64; k++) {
+        klu_counts before = g_count;
+        s1 = run_refine(path, 1);
+        if (k == 0) {
+            total.factor = g_count.factor - before.factor;
+            total.refactor = g_count.refactor - before.refactor;
+            total.solve = g_count.solve - before.solve;
+            total.z_factor = g_count.z_factor - before.z_factor;
+            total.z_refactor = g_count.z_refactor - before.z_refactor;
+            total.z_solve = g_count.z_solve - before.z_solve;
+            total.z_tsolve = g_count.z_tsolve - before.z_tsolve;
+        }
+        t1[k] = s1.seconds / (double)s1.candidates;
+        sn = run_refine(path, cores);
+        tn[k] = sn.seconds / (double)sn.candidates;
+    }
+    double per1 = median(t1, reps < 64 ? reps : 64), pern = median(tn, reps < 64 ? reps : 64);
+
+    /* the bare KLU work: the circuit's matrices at its nominal operating point and at the
+     * stage's frequency */
+    ss_circuit *ckt = NULL;
+    ss_solver *sv = NULL;
+    ss_error err = {0};
+    if (ss_circuit_parse_file(path, NULL, 0, &ckt, &err) != SS_OK ||
+        ss_solver_create(ckt, &sv, &err) != SS_OK || op_solve_into(sv, NULL, &err) != SS_OK)
+        die(path, &err);
+    double _Complex g;
+    double zin, zout;
+    if (stage_at_frequency(sv, 100.0, &g, &zin, &zout, &err) != SS_OK)
+        die(path, &err);
+    bare_mats bm;
+    bare_open(&bm, sv->mna);
+    long cands = s1.candidates;
+    bare_candidates(&bm, &total, cands / 10 + 1, cands); /* warm up */
+    double bt[64];
+    for (int k = 0; k < reps && k < 64; k++) {
+        double t0 = bench_now_s();
+        bare_candidates(&bm, &total, cands, cands);
+        bt[k] = (bench_now_s() - t0) / (double)cands;
+    }
+    double bare = median(bt, reps < 64 ? reps : 64);
+    bare_close(&bm);
+    ss_solver_destroy(&sv);
+    ss_circuit_destroy(&ckt);
+
+    printf("refine of %s: %d free values, %d corners, %d limits; %ld candidates (%ld circuits)\n",
+           path, s1.n_free, s1.n_corners, s1.n_limits, s1.candidates, s1.circuits);
+    printf("KLU calls per candidate: %.1f real factor/refactor, %.1f real solves, %.1f complex "
+           "factor/refactor, %.1f complex solves\n",
+           (double)(total.factor + total.refactor) / cands, (double)total.solve / cands,
+           (double)(total.z_factor + total.z_refactor) / cands,
+           (double)(total.z_solve + total.z_tsolve) / cands);
+    printf("%-44s %12s %12s %14s\n", "", "us/candidate", "candidates/s", "circuits/s/thr");
+    printf("%-44s %12.1f %12.0f %14.0f\n", "search, 1 thread", per1 * 1e6, 1.0 / per1,
+           s1.n_corners / per1);
+    char label[64];
+    snprintf(label, sizeof label, "search, %d threads", cores);
+    printf("%-44s %12.1f %12.0f %14.0f\n", label, pern * 1e6, 1.0 / pern,
+           sn.n_corners / pern / cores);
+    printf("%-44s %12.1f\n", "bare KLU, the same calls per candidate", bare * 1e6);
+    printf("%-44s %12.2f\n", "ratio search (1 thread) / bare KLU", per1 / bare);
+    printf("(medians of %d runs; wall-clock time of ss_refine_run, no files written)\n", reps);
+    return 0;
+}
