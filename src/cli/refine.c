@@ -168,16 +168,16 @@ static void print_report(const ss_refine *r, const ss_table *design, const ss_ta
     printf("\nnormalised margins of the chosen design (docs/refine.md)\n  %-24s", "limit");
     int nc = (ss_table_cols(margins) - 4) / 2;
     for (int k = 0; k < nc; k++)
-        printf(" %12.12s", ss_table_col_name(margins, 3 + 2 * k) + 7);
+        printf(" %16s", ss_table_col_name(margins, 3 + 2 * k) + 7);
     printf("\n");
     for (int i = 0; i < ss_table_rows(margins); i++) {
         printf("  %-24s", ss_table_row_label(margins, i));
         for (int k = 0; k < nc; k++) {
             double m = ss_table_get(margins, i, 3 + 2 * k);
             if (isnan(m))
-                printf(" %12s", "-");
+                printf(" %16s", "-");
             else
-                printf(" %12.4g", m);
+                printf(" %16.4g", m);
         }
         printf("\n");
     }

@@ -46,7 +46,7 @@ ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__)
 os.chdir(ROOT)
 PAGES = ["README.md"] + sorted(os.path.join("docs", f) for f in os.listdir("docs")
                                if f.endswith(".md"))
-COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge"]
+COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge", "refine"]
 TIMEOUT_S = 600
 
 passed = failed = 0
@@ -459,7 +459,8 @@ VALUES = {"DIR": "out/probe", "NAME=VALUE": "r1=1k", "SRC": "vsens", "NODE": "ou
           "OHMS": "1k", "A,B,...": "out", "HZ": "1k", "AMP": "0.1", "PCT": "1",
           "FILE": "out/probe.txt", "F": "0.5", "N": "2", "S": "1", "K/N": "1/2",
           "LO,HI": "-40,85", "E12\\|E24\\|E96": "E12"}
-SPEC = {"--vary": "r1=list:1k", "--tol": "r1=5%"}
+SPEC = {"--vary": "r1=list:1k", "--tol": "r1=5%", "--supply-tol": "vcc=10%",
+        "--beta-range": "0.5x,2x"}
 
 
 def check_option_table(cwd, env):
