@@ -192,7 +192,7 @@ static const cli_option OPTIONS[] = {
      "beta corners: factors of each BF (0.5x,2x) or BF values (50,400)"},
     {"--temps", NULL, "LO,HI", C_REFINE, "temperature corners in C, -273.15 < LO < HI <= 1000"},
     {"--supply-tol", NULL, "NAME=PCT%", C_REFINE,
-     "supply corners: NAME (a source or .param) at -PCT and +PCT; repeatable"},
+     "supply corners: NAME (a source or .param) PCT % below and above; repeatable"},
     {"--threads", NULL, "N", C_REFINE,
      "1 .. 256 worker threads (default: all cores); results do not depend on it"},
     {"--max-candidates", NULL, "N", C_REFINE,

@@ -65,11 +65,30 @@ E1 b 0 c 0 1000
 .expect vce(q1) >= 1
 """
 
+# A common-emitter stage with two free values, for refine (our own scenario: a sensor
+# preamp's first stage).
+REFINE = """refine probe: common-emitter stage
+vsup vcc 0 dc 5
+v1 in 0 dc 0 ac 1
+rin in b 1k
+r1 vcc b 100k
+r2 b 0 22k
+q1 mid b e qn
+rc vcc mid 4.7k
+re e 0 1k
+.model qn npn bf=100
+.choose r1 E12 10k..1meg
+.choose re E12 100..10k
+.ac dec 5 10 1meg
+.stage in=v1 out=mid
+.expect vce(q1) >= 0.5
+"""
+
 S = TMP + "/s.cir"
 D = TMP + "/d.cir"
 N = TMP + "/n.cir"
 L = TMP + "/l.limits"
-FILES = {"s.cir": STAGE, "d.cir": DIV, "n.cir": NOSTAGE}
+FILES = {"s.cir": STAGE, "d.cir": DIV, "n.cir": NOSTAGE, "r.cir": REFINE}
 NUMBER = "(decimal digits and an optional SI suffix: t g meg k m u n p f)"
 
 
@@ -368,7 +387,7 @@ def check_help(cmd):
     return check
 
 
-COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge"]
+COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge", "refine"]
 for c in COMMANDS:
     case("%s --help" % c, 0, "", [c, "--help"], check=check_help(c))
     case("%s -h after other options" % c, 0, "", [c, "{T}/s.cir", "--frobnicate", "-h"],
@@ -452,14 +471,16 @@ SAMPLE = {"-o": ["{T}/o2"], "--out-dir": ["{T}/o3"], "--set": ["r2=12k"],
           "--thd-target": ["2"], "--junit": ["{T}/j.xml"], "--limits": ["{T}/l.limits"],
           "--min-yield": ["0.5"], "--vary": ["r1=list:5k,10k"], "--tol": ["r1=5%"],
           "--trials": ["4"], "--seed": ["7"], "--threads": ["2"], "--shard": ["1/2"],
-          "--temps": ["-20,70"], "--series": ["E24"]}
+          "--temps": ["-20,70"], "--series": ["E24"], "--beta-range": ["0.5x,2x"],
+          "--supply-tol": ["vsup=10%"], "--max-candidates": ["50"]}
 BASE = {"run": ["run", "{T}/s.cir", "-o", "{T}/out"],
         "check": ["check", "{T}/s.cir"],
         "sweep": ["sweep", "{T}/s.cir", "-o", "{T}/out", "--vary", "rtop=list:1k,2k"],
         "spread": ["spread", "{T}/s.cir", "-o", "{T}/out", "--trials", "3"],
         "sensitivity": ["sensitivity", "{T}/s.cir", "-o", "{T}/out"],
         "snap": ["snap", "{T}/s.cir", "-o", "{T}/out", "--series", "E12"],
-        "merge": ["merge", "-o", "{T}/out", "{T}/shard/study.csv"]}
+        "merge": ["merge", "-o", "{T}/out", "{T}/shard/study.csv"],
+        "refine": ["refine", "{T}/r.cir", "-o", "{T}/out", "--max-candidates", "200"]}
 
 
 def option_checks(binary, report):
