@@ -69,6 +69,7 @@ typedef struct worker {
     int op_count;
     pthread_t th;
     int started;
+    int nomem; /* a solve ran out of memory: the batch fails, not the candidate */
 } worker;
 
 typedef struct path_row {
@@ -774,6 +775,8 @@ static void eval_unit(worker *w, long unit)
         }
     }
     ss_table_destroy(&figs);
+    if (st == SS_ERR_NOMEM)
+        w->nomem = 1;
     r->batch_ok[unit] = st == SS_OK;
     if (st != SS_OK)
         for (int i = 0; i < nl; i++) {
@@ -819,8 +822,9 @@ static void *worker_main(void *arg)
     }
 }
 
-/* Solves the batch's n_batch candidates at every corner (the calling thread works too). */
-static void run_batch(ss_refine *r)
+/* Solves the batch's n_batch candidates at every corner (the calling thread works too).
+ * SS_ERR_NOMEM when a solve ran out of memory (the batch's results are then not to be used). */
+static ss_status run_batch(ss_refine *r, ss_error *err)
 {
     pthread_mutex_lock(&r->mu);
     r->n_units = (long)r->n_batch * r->n_corners;
@@ -838,6 +842,10 @@ static void run_batch(ss_refine *r)
     r->circuits += r->n_units;
     for (long u = 0; u < r->n_units; u++)
         r->failed += !r->batch_ok[u];
+    int short_of_memory = 0;
+    for (int t = 0; t < r->n_workers; t++)
+        short_of_memory |= r->workers[t].nomem;
+    return short_of_memory ? nomem(err) : SS_OK;
 }
 
 static ss_status batch_reserve(ss_refine *r, int n, ss_error *err)
@@ -993,7 +1001,8 @@ static ss_status eval_logs(ss_refine *r, const double *pts, int m, double *f, in
         for (int i = 0; i < n; i++)
             r->batch_vals[c * n + i] = exp(pts[c * n + i]);
     r->n_batch = m;
-    run_batch(r);
+    if ((st = run_batch(r, err)) != SS_OK)
+        return st;
     for (int c = 0; c < m; c++) {
         f[c] = objective(r, c, NULL, NULL);
         if (consider(r, c) && (st = path_add(r, phase, c, err)) != SS_OK)
@@ -1142,7 +1151,8 @@ static ss_status eval_lattice(ss_refine *r, const long *idx, int m, double *f, i
         for (int i = 0; i < n; i++)
             r->batch_vals[c * n + i] = eseries_lattice_value(r->fv[i].series, idx[c * n + i]);
     r->n_batch = m;
-    run_batch(r);
+    if ((st = run_batch(r, err)) != SS_OK)
+        return st;
     for (int c = 0; c < m; c++)
         f[c] = objective(r, c, NULL, NULL);
     report_progress(r);
@@ -1389,7 +1399,9 @@ ss_status ss_refine_run(ss_refine *r, ss_error *err)
             for (int i = 0; i < n; i++)
                 r->batch_vals[i] = exp(start[i]);
             r->n_batch = 1;
-            run_batch(r);
+            st = run_batch(r, err);
+        }
+        if (st == SS_OK) {
             f0 = objective(r, 0, NULL, NULL);
             r->best_vals = bv;
             memcpy(r->best_vals, r->batch_vals, (size_t)n * sizeof *bv);

@@ -10,6 +10,7 @@
 #include <unistd.h>
 
 #include "ss_test.h"
+#include "util/util.h"
 
 static char g_dir[64];
 
@@ -182,6 +183,59 @@ static void test_choose_errors(void **state)
     assert_non_null(strstr(err.message, "no free value"));
 }
 
+/* Allocation N failing, N = 0, 1, 2, ... until the whole refine succeeds: every failing run
+ * ends in a clean error (the sanitizer build checks for leaks). One thread, a small budget. */
+static ss_status alloc_run_once(const char *path, const char *out)
+{
+    ss_refine *r = NULL;
+    ss_error err = {0};
+    ss_table *d = NULL, *m = NULL, *p = NULL;
+    ss_status st = ss_refine_create(path, NULL, 0, &r, &err);
+    if (st == SS_OK)
+        st = ss_refine_set_threads(r, 1, &err);
+    if (st == SS_OK)
+        st = ss_refine_set_budget(r, 40, &err);
+    if (st == SS_OK)
+        st = ss_refine_set_temps(r, -20.0, 70.0, &err);
+    if (st == SS_OK)
+        st = ss_refine_run(r, &err);
+    if (st == SS_OK)
+        st = ss_refine_tables(r, &d, &m, &p, &err);
+    if (st == SS_OK)
+        st = ss_refine_write_netlist(r, out, &err);
+    if (st != SS_OK) {
+        assert_true(err.code != SS_OK);
+        assert_true(err.message[0] != '\0');
+    }
+    ss_table_destroy(&d);
+    ss_table_destroy(&m);
+    ss_table_destroy(&p);
+    ss_refine_destroy(&r);
+    return st;
+}
+
+static void test_allocation_failures(void **state)
+{
+    (void)state;
+    char path[128], out[160];
+    snprintf(path, sizeof path, "%s/alloc.cir", g_dir);
+    snprintf(out, sizeof out, "%s/alloc_out.cir", g_dir);
+    write_file(path, DIVIDER);
+    long n;
+    int nomem_seen = 0;
+    for (n = 0; n < 100000; n++) {
+        ss_alloc_fail_at(n);
+        ss_status s = alloc_run_once(path, out);
+        if (s == SS_OK)
+            break;
+        nomem_seen += s == SS_ERR_NOMEM;
+    }
+    ss_alloc_fail_at(-1);
+    assert_true(n > 10);
+    assert_true(nomem_seen > 0);
+    print_message("refine allocation sweep: %ld failure points, all clean\n", n);
+}
+
 int main(void)
 {
     snprintf(g_dir, sizeof g_dir, "/tmp/ss_refine_XXXXXX");
@@ -190,6 +244,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_divider),
         cmocka_unit_test(test_choose_errors),
+        cmocka_unit_test(test_allocation_failures),
     };
     int rc = cmocka_run_group_tests(tests, NULL, NULL);
     char cmd[128];
