@@ -586,6 +586,7 @@ const dev_ops bjt_ops = {
     .load_dc = bjt_load_dc,
     .kcl = bjt_kcl,
     .load_ac = bjt_load_ac,
+    .ac_not_affine = bjt_ac_not_affine,
     .report = bjt_report,
     .noise = bjt_noise,
     .load_tran = bjt_load_tran,

@@ -82,6 +82,7 @@ SS_HIDDEN void bjt_base_resistance(const double *tp, const bjt_eval_out *o, doub
 /* bjt_charge.c */
 SS_HIDDEN void bjt_load_ac(const element *e, dev_ac_ctx *ac);
 SS_HIDDEN void bjt_load_tran(element *e, dev_tran_ctx *tc);
+SS_HIDDEN int bjt_ac_not_affine(const element *e);
 /* the number of charges load_tran keeps: b'-e', b'-c', b-c' (external CJC part), c'-s */
 #define BJT_N_CHARGE 4
 

@@ -60,6 +60,9 @@ static void outer_voltages(const element *e, const double *x, double *vbx, doubl
     *vsc = p * (xv(x, bjt_substrate(e)) - vci);
 }
 
+/* the excess phase makes the admittance exp(-jw td): not of the form G + jwC */
+int bjt_ac_not_affine(const element *e) { return e->tp[BP_PTF] > 0.0 && e->tp[BP_TF] > 0.0; }
+
 void bjt_load_ac(const element *e, dev_ac_ctx *ac)
 {
     const double *tp = e->tp;

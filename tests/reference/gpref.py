@@ -51,6 +51,11 @@ DEFAULTS = dict(IS=1e-16, BF=100.0, NF=1.0, VAF=INF, IKF=INF, ISE=0.0, NE=1.5, B
                 VTF=INF, ITF=0.0, PTF=0.0, XCJC=1.0, CJS=0.0, VJS=0.75, MJS=0.0)
 
 
+def expm1(x):
+    """expm1, continued as a straight line above 80 so the root finder may explore."""
+    return math.expm1(x) if x < 80.0 else math.exp(80.0) * (1.0 + x - 80.0) - 1.0
+
+
 def vt(temp_k):
     return K * temp_k / Q
 
@@ -94,8 +99,8 @@ class Gp:
     # --- DC -------------------------------------------------------------------------------
     def _parts(self, vbe, vbc):
         p, v = self.p, self.vt
-        i_f = p["IS"] * math.expm1(vbe / (p["NF"] * v))
-        i_r = p["IS"] * math.expm1(vbc / (p["NR"] * v))
+        i_f = p["IS"] * expm1(vbe / (p["NF"] * v))
+        i_r = p["IS"] * expm1(vbc / (p["NR"] * v))
         q1 = 1.0 / (1.0 - vbc / p["VAF"] - vbe / p["VAR"])
         qb = 0.5 * q1 * (1.0 + math.sqrt(1.0 + 4.0 * (i_f / p["IKF"] + i_r / p["IKR"])))
         return i_f, i_r, qb
@@ -104,8 +109,8 @@ class Gp:
         """(ic, ib) into c', b' for NPN-sense internal junction voltages."""
         p, v = self.p, self.vt
         i_f, i_r, qb = self._parts(vbe, vbc)
-        ibe2 = p["ISE"] * math.expm1(vbe / (p["NE"] * v)) if p["ISE"] else 0.0
-        ibc2 = p["ISC"] * math.expm1(vbc / (p["NC"] * v)) if p["ISC"] else 0.0
+        ibe2 = p["ISE"] * expm1(vbe / (p["NE"] * v)) if p["ISE"] else 0.0
+        ibc2 = p["ISC"] * expm1(vbc / (p["NC"] * v)) if p["ISC"] else 0.0
         ic = (i_f - i_r) / qb - i_r / p["BR"] - ibc2 - gmin * vbc
         ib = i_f / p["BF"] + ibe2 + i_r / p["BR"] + ibc2 + gmin * (vbe + vbc)
         return ic, ib
