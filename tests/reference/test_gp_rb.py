@@ -23,6 +23,7 @@ relative, output noise density 1e-6 relative.
 """
 
 import math
+import os
 import shutil
 import sys
 
@@ -182,6 +183,43 @@ def run_pnp(binary, keep):
     compare_op("pnp", net, x, gpref.read_op(out), [("q2", net.bjts[0])])
 
 
+SI = {"f": 1e-15, "p": 1e-12, "n": 1e-9, "u": 1e-6, "m": 1e-3, "k": 1e3}
+
+
+def library_card(path):
+    """The parameters of the one .model card in a models/ library file."""
+    text = " ".join(l[1:] if l.startswith("+") else l for l in open(path).read().splitlines()
+                    if l.strip() and not l.startswith("*"))
+    body = text[text.index("(") + 1:text.rindex(")")]
+    card = {}
+    for item in body.split():
+        k, v = item.split("=")
+        card[k.upper()] = float(v[:-1]) * SI[v[-1]] if v[-1] in SI else float(v)
+    return card
+
+
+def run_library_card(binary, keep):
+    """models/npn_rf.lib (an invented card using every new parameter) in a CE stage whose
+    substrate is written as node 0: operating point, AC and noise against the reference."""
+    path = os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "..", "models",
+                        "npn_rf.lib")
+    card = library_card(path)
+    text, dev, net = ce_case("npn_rf.lib", card)
+    text = text.replace(card_text("qx", "NPN", card), ".include %s" % path).replace(
+        "Q1 c b e qx", "Q1 c b e 0 ss_npn_rf")
+    keep_text = text
+    out = gpref.run(binary, "rf_card", keep_text, keep)
+    x = net.op(initial(net, {"b": 0.8, "q1.b": 0.78, "c": 4.0, "q1.c": 4.0, "e": 0.07,
+                             "q1.e": 0.07}))
+    compare_op("npn_rf.lib", net, x, gpref.read_op(out), [("q1", net.bjts[0])])
+    ac = gpref.read_csv(out + "/ac.csv")
+    ref = net.ac(x, ac["freq_hz"])
+    got = ac["vm(c)"] * np.exp(1j * np.radians(ac["vp(c)"]))
+    worst = np.max(np.abs(got - ref["c"]) / np.abs(ref["c"]))
+    check("npn_rf.lib ac v(c) over %d points, worst" % len(got), 1.0 + worst, 1.0, 1e-6, 0.0,
+          SRC_RB + ", AC with every charge parameter")
+
+
 def main():
     if len(sys.argv) < 2:
         print("usage: test_gp_rb.py STAGESIM")
@@ -195,6 +233,7 @@ def main():
         qb_card["IKF"] = 0.02
         run_ce(binary, keep, "qb form", qb_card)
         run_pnp(binary, keep)
+        run_library_card(binary, keep)
     finally:
         for d in keep:
             shutil.rmtree(d, ignore_errors=True)
