@@ -180,7 +180,13 @@ static int bjt_temp(const element *e, double temp_k, double *tp, char *why, size
     double tnom_k = mp[BP_TNOM] + SS_ZERO_C_IN_K;
     double vt = thermal_voltage_v(temp_k);
     double r = temp_k / tnom_k;
-    /* temperature laws: docs/models.md (Getreu 1976 as tabulated by Antognetti & Massobrio) */
+    /* temperature laws: docs/models.md section 4 (Getreu 1976 as tabulated by Antognetti &
+     * Massobrio), r = T/TNOM, Vt at T:
+     *   IS(T) = IS r^XTI exp((r - 1) EG/Vt)
+     *   BF(T) = BF r^XTB, BR(T) = BR r^XTB
+     *   ISE(T) = ISE r^-XTB (IS(T)/IS)^(1/NE), ISC(T) = ISC r^-XTB (IS(T)/IS)^(1/NC)
+     *   VJ(T) = VJ r - 3 Vt ln r - EG(TNOM) r + EG(T), CJ(T) = CJ (1 + M (4e-4 (T - TNOM) -
+     *   VJ(T)/VJ + 1)) for (VJE CJE MJE), (VJC CJC MJC), (VJS CJS MJS): junction_temp_vj_cj */
     double is_ratio = pow(r, mp[BP_XTI]) * exp((r - 1.0) * mp[BP_EG] / vt);
     double beta_f = pow(r, mp[BP_XTB]);
     tp[BP_IS] = mp[BP_IS] * is_ratio;
@@ -531,7 +537,7 @@ static void bjt_kcl(const element *e, const double *x, const dev_load_ctx *lc, d
 
 /* Noise (docs/noise.md; hybrid-pi noise model after Gray & Meyer, ch. 11 -- from memory):
  * collector shot 2q|Ic| between c' and e', base shot 2q|Ib| and flicker KF |Ib|^AF / f between
- * b' and e', thermal noise of RB, RE and RC. Ic and Ib are the model's currents at the
+ * b' and e', thermal noise of RB (4kT/rbb at the operating point when it varies), RE and RC. Ic and Ib are the model's currents at the
  * operating point without the (noiseless) junction gmin. */
 static int bjt_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src *out)
 {

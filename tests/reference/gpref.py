@@ -328,8 +328,9 @@ class Net:
             cols[n] = deriv(g, self.fixed[n][0], h)
         return cols
 
-    def ac(self, x, freqs):
-        """Node phasors (dict node -> array over freqs) for the fixed nodes' AC values."""
+    def ac(self, x, freqs, inject=None):
+        """Node phasors (dict node -> array over freqs) for the fixed nodes' AC values; with
+        inject, for 1 A into that node with every source's AC value 0 instead."""
         g = self.jac(self.current, x)
         cm = self.jac(self.charge, x, h=1e-4)
         gf = self.fixed_jac(self.current, x)
@@ -340,15 +341,18 @@ class Net:
             w = 2 * math.pi * f
             y = g + 1j * w * cm
             rhs = np.zeros(len(self.nodes), complex)
-            for n, col in gf.items():
-                rhs -= (col + 1j * w * cf[n]) * self.fixed[n][1]
-            self._excess_phase(y, rhs, x, w, idx)
+            if inject is None:
+                for n, col in gf.items():
+                    rhs -= (col + 1j * w * cf[n]) * self.fixed[n][1]
+            else:
+                rhs[idx[inject]] = 1.0
+            self._excess_phase(y, rhs, x, w, idx, inject is None)
             sol = np.linalg.solve(y, rhs)
             for n, i in idx.items():
                 res[n][k] = sol[i]
         return res
 
-    def _excess_phase(self, y, rhs, x, w, idx):
+    def _excess_phase(self, y, rhs, x, w, idx, driven=True):
         """Delays the transport transconductance d((IF - IR)/qb)/dVbe by PTF (pi/180) TF."""
         v = self.volts(x)
         for bj in self.bjts:
@@ -365,7 +369,7 @@ class Net:
                 for col, sc in ((bi, 1.0), (ei, -1.0)):
                     if row in idx and col in idx:
                         y[idx[row], idx[col]] += sr * sc * dgm
-                    elif row in idx and col in self.fixed:
+                    elif row in idx and col in self.fixed and driven:
                         rhs[idx[row]] -= sr * sc * dgm * self.fixed[col][1]
 
     def tran(self, x0, tstop, h):

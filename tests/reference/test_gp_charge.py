@@ -2,8 +2,8 @@
 """Reference check: the charge parameters of the Gummel-Poon model - the bias-dependent
 transit time (XTF VTF ITF), excess phase (PTF), the split of CJC (XCJC), the
 collector-substrate capacitance on the fourth node (CJS VJS MJS), the reverse transit time
-(TR) and the temperature laws of VJS/CJS - in the AC response, the stage figures' source
-(ac.csv) and the transient, solved independently (gpref.py).
+(TR) and the temperature laws of VJS/CJS - in the AC response (ac.csv), the stage figures
+(stage.csv: gain, |Zin|, |Zout|) and the transient, solved independently (gpref.py).
 
 Usage: test_gp_charge.py PATH_TO_STAGESIM
 
@@ -21,8 +21,8 @@ trapezoidal rule.
 
 Circuits (own scenarios, invented cards): the first stage of a 433 MHz receiver front end
 (NPN with every charge parameter, the substrate at -2 V), the same transistor driven into
-saturation (TR matters), and the front end at .temp 85 and -20.
-Tolerances: AC node phasors 1e-6 relative; transient: stagesim at tran_tol_rel 1e-9 against
+saturation (TR matters), and the front end at .temp 85 and -20; the transient also with RBM and IRB added.
+Tolerances: AC node phasors and stage figures 1e-6 relative; transient: stagesim at tran_tol_rel 1e-9 against
 a trapezoidal reference at 2 ps steps, |error| <= 1e-5 x the output swing + 1e-7 V at every
 output time (both integrators' errors are far below that; measured values are printed).
 """
@@ -81,7 +81,7 @@ def x0(net, vin_dc, vc=3.0):
 
 
 def ac_case(binary, keep, tag, vin_dc, rl, temp_c=27.0):
-    extra = [".ac dec 4 1meg 20g"]
+    extra = [".ac dec 4 1meg 20g", ".stage in=VIN out=c"]
     if temp_c != 27.0:
         extra.append(".temp %g" % temp_c)
     out = gpref.run(binary, tag, netlist("433 MHz front end, " + tag, vin_dc, rl, extra), keep)
@@ -97,16 +97,28 @@ def ac_case(binary, keep, tag, vin_dc, rl, temp_c=27.0):
         worst = float(np.max(np.abs(got - ref[node]) / np.abs(ref[node])))
         check("%s ac v(%s), %d points 1 MHz-20 GHz" % (tag, node, len(got)), worst <= 1e-6,
               "worst relative error %.3g (tol 1e-6)" % worst)
+    # the stage figures: gain = v(c)/EMF, Zin = EMF / the current the source delivers
+    # through RS, Zout = v(c) per 1 A injected into c with the sources' AC values 0
+    st = gpref.read_csv(out + "/stage.csv")
+    zout = net.ac(x, st["freq_hz"], inject="c")["c"]
+    ref_st = net.ac(x, st["freq_hz"])
+    gain = st["gain"] * np.exp(1j * np.radians(st["phase_deg"]))
+    zin = 1.0 / ((1.0 - ref_st["b"]) / 50.0)
+    for what, got, want in (("gain", gain, ref_st["c"]), ("|zin|", st["zin_ohm"], np.abs(zin)),
+                            ("|zout|", st["zout_ohm"], np.abs(zout))):
+        worst = float(np.max(np.abs(got - want) / np.abs(want)))
+        check("%s stage %s, %d points" % (tag, what, len(got)), worst <= 1e-6,
+              "worst relative error %.3g (tol 1e-6)" % worst)
     return net, x
 
 
-def tran_case(binary, keep):
+def tran_case(binary, keep, tag="tran"):
     vin_dc, rl, amp, f = 0.86, 470.0, 0.01, 200e6
     extra = [".tran 0.1n 10n", ".options tran_tol_rel=1e-9 tran_tol_v=1e-11"]
     text = netlist("433 MHz front end, transient", vin_dc, rl, extra)
     text = text.replace("VIN in 0 DC %.17g AC 1" % vin_dc,
                         "VIN in 0 DC %.17g AC 1 SIN(%.17g %g %g)" % (vin_dc, vin_dc, amp, f))
-    out = gpref.run(binary, "tran", text, keep)
+    out = gpref.run(binary, tag, text, keep)
     wave = lambda t: vin_dc + amp * math.sin(2 * math.pi * f * t)
     net = reference(vin_dc, rl, wave=wave)
     x = net.op(x0(net, vin_dc))
@@ -117,7 +129,7 @@ def tran_case(binary, keep):
     swing = float(np.max(ref_c) - np.min(ref_c))
     err = float(np.max(np.abs(tr["v(c)"] - ref_c)))
     tol = 1e-5 * swing + 1e-7
-    check("tran v(c), %d output times" % len(ref_c), err <= tol,
+    check("%s v(c), %d output times" % (tag, len(ref_c)), err <= tol,
           "largest error %.3g V, swing %.4g V (tol %.3g V)" % (err, swing, tol),
           SRC + ", trapezoidal reference at 2 ps")
 
@@ -142,6 +154,8 @@ def main():
         ac_case(binary, keep, "hot", 0.80, 470.0, temp_c=85.0)
         ac_case(binary, keep, "cold", 0.92, 470.0, temp_c=-20.0)
         tran_case(binary, keep)
+        CARD.update(RBM=12.0, IRB=2e-4)  # the falling base resistance in the transient too
+        tran_case(binary, keep, "tran with irb")
     finally:
         for d in keep:
             shutil.rmtree(d, ignore_errors=True)
