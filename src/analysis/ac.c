@@ -73,6 +73,9 @@ static ss_status ac_cache_build(ss_solver *sv, const element *only_src, int all_
     const double w_test = 2.0 * SS_PI * 12345.678;
     load_ac_all(sv, w_test, only_src, all_src_off);
     int affine = 1, n_w = 0;
+    for (int i = 0; i < sv->n_elem && affine; i++) /* one the test may not see (a delay) */
+        if (sv->elem[i].ops->ac_not_affine && sv->elem[i].ops->ac_not_affine(&sv->elem[i]))
+            affine = 0;
     for (int k = 0; k < nnz && affine; k++) { /* |difference| <= 1e-12 |value|, in L1 norms */
         double d_re = creal(y1[k]) - creal(G[k]), d_im = w_test * cimag(y1[k]) - cimag(G[k]);
         double scale = fabs(creal(G[k])) + fabs(cimag(G[k])) + 1e-300;

@@ -1,17 +1,13 @@
-/* Bipolar transistor (NPN/PNP): Gummel-Poon DC model with ohmic RB/RE/RC as internal nodes,
- * temperature and area scaling, and its hybrid-pi linearisation. Matrix storage is src/mna's. */
+/* Bipolar transistor (NPN/PNP): the Gummel-Poon model card, the element line (with an optional
+ * substrate node), the DC equations with ohmic RE/RC and the bias-dependent base resistance
+ * (IRB, RBM) on internal nodes, temperature and area scaling, noise and the report. The stored
+ * charges (AC capacitances, excess phase, transient) are bjt_charge.c's. Matrix storage is
+ * src/mna's. */
 #include <math.h>
 #include <string.h>
 
-#include "devices/device.h"
+#include "devices/bjt.h"
 #include "devices/junction.h"
-
-/* Parameter order of the model card: ORDER BJT_PARAM (keep bjt_params[] in step). */
-enum {
-    BP_IS, BP_BF, BP_NF, BP_VAF, BP_IKF, BP_ISE, BP_NE, BP_BR, BP_NR, BP_VAR, BP_IKR, BP_ISC,
-    BP_NC, BP_RB, BP_RE, BP_RC, BP_CJE, BP_VJE, BP_MJE, BP_CJC, BP_VJC, BP_MJC, BP_FC, BP_TF,
-    BP_TR, BP_XTB, BP_XTI, BP_EG, BP_TNOM, BP_KF, BP_AF, BP_COUNT
-};
 
 /* Published names and defaults (Nagel 1975; Getreu 1976), the ranges the equations need, and
  * where each is used: docs/models.md prints this table (and a test compares the two). A card
@@ -57,6 +53,23 @@ static const dev_model_param bjt_params[BP_COUNT] = {
      DMP_USE_TEMP, "temperature the parameters were measured at"},
     {"kf", 0.0, NONNEG, "", DMP_USE_NOISE, "flicker noise coefficient"},
     {"af", 1.0, POS, "", DMP_USE_NOISE, "flicker noise exponent"},
+    {"irb", HUGE_VAL, NONNEG | DMP_ZERO_INF, "A", ALL,
+     "base current where the base resistance has fallen halfway to RBM (absent: RBM + (RB - "
+     "RBM)/qb)"},
+    {"rbm", HUGE_VAL, NONNEG, "ohm", ALL,
+     "minimum base resistance at high current (the default \u221e stands for RB: a constant "
+     "base resistance)"},
+    {"xtf", 0.0, NONNEG, "", CAP, "coefficient of the bias dependence of TF"},
+    {"vtf", HUGE_VAL, NONNEG | DMP_ZERO_INF, "V", CAP,
+     "base-collector voltage scale of the TF dependence"},
+    {"itf", 0.0, NONNEG, "A", CAP, "forward current scale of the TF dependence"},
+    {"ptf", 0.0, NONNEG, "deg", DMP_USE_AC | DMP_USE_NOISE,
+     "excess phase of the forward transport current at 1/(2 pi TF) (AC only)"},
+    {"xcjc", 1.0, 0.0, 1.0, 0, "", CAP,
+     "fraction of CJC at the internal base node (the rest from the external base)"},
+    {"cjs", 0.0, NONNEG, "F", CAP | DMP_USE_TEMP, "collector-substrate zero-bias capacitance"},
+    {"vjs", 0.75, POS, "V", CAP | DMP_USE_TEMP, "collector-substrate built-in potential"},
+    {"mjs", 0.0, GRADING, "", CAP | DMP_USE_TEMP, "collector-substrate grading coefficient"},
 };
 #undef ALL
 #undef CAP
@@ -65,21 +78,12 @@ static const dev_model_param bjt_params[BP_COUNT] = {
 #undef ANY
 #undef GRADING
 
-/* Slot layout: three resistor pairs, then the 3x3 core on (c', b', e'). */
-enum { SL_RC = 0, SL_RB = 4, SL_RE = 8, SL_CORE = 12, SL_COUNT = 21 };
-enum { TC = 0, TB = 1, TE = 2 };
 /* per terminal (c, b, e): the slots of its ohmic resistor's pair and that resistor's
  * parameter; the resistor exists when the terminal has an internal node */
 static const int pair_of[3] = {SL_RC, SL_RB, SL_RE};
 static const int r_of[3] = {BP_RC, BP_RB, BP_RE};
-/* state[] */
-enum { ST_VBE = 0, ST_VBC = 1 };
-
-/* model types: the index is the polarity (0 NPN, 1 PNP) */
-enum { BJT_NPN = 0, BJT_PNP = 1 };
+_Static_assert(BP_COUNT <= MODEL_MAX_PARAMS, "the BJT card must fit a model record");
 static const char *const BJT_TYPES[] = {"npn", "pnp", NULL};
-
-static double polarity(const element *e) { return e->mod->type == BJT_PNP ? -1.0 : 1.0; }
 
 static int bjt_parse(pctx *p, element *e)
 {
@@ -102,12 +106,14 @@ static int bjt_parse(pctx *p, element *e)
                           "too many nodes before model '%s' (expected collector, base, emitter "
                           "and an optional substrate)",
                           pctx_tok(p, model_tok));
-    for (int i = 1; i <= 3; i++) {
+    /* the fourth node token is the model when it names one, else the substrate node (with
+     * the model after it); without a substrate node the substrate is ground */
+    for (int i = 1; i < model_tok; i++) {
         e->node[i - 1] = pctx_node(p, pctx_tok(p, i));
         if (e->node[i - 1] < 0)
             return -1;
     }
-    e->n_node = 3; /* a substrate node is accepted and not modelled in this version */
+    e->n_node = (unsigned char)(model_tok - 1);
     e->mod = pctx_model(p, pctx_tok(p, model_tok), e->ops);
     if (!e->mod)
         return -1;
@@ -142,6 +148,7 @@ static void bjt_setup(element *e, dev_setup_ctx *sc)
 static void bjt_claim(element *e, const element *elems, dev_setup_ctx *sc)
 {
     (void)elems;
+    const double *mp = e->mod->p;
     for (int i = 0; i < SL_COUNT; i++)
         e->slot[i] = -1;
     for (int t = 0; t < 3; t++) {
@@ -152,6 +159,16 @@ static void bjt_claim(element *e, const element *elems, dev_setup_ctx *sc)
         for (int c = 0; c < 3; c++)
             e->slot[SL_CORE + 3 * r + c] =
                 sc->claim(sc->owner, node_unknown(e->inode[r]), node_unknown(e->inode[c]));
+    int b = node_unknown(e->node[TB]), ci = node_unknown(e->inode[TC]);
+    int vary = bjt_rb_varies(e), bx = bjt_has_bx(e);
+    if (vary || bx)
+        e->slot[SL_B_CI] = sc->claim(sc->owner, b, ci);
+    if (vary)
+        e->slot[SL_B_EI] = sc->claim(sc->owner, b, node_unknown(e->inode[TE]));
+    if (bx)
+        e->slot[SL_CI_B] = sc->claim(sc->owner, ci, b);
+    if (mp[BP_CJS] > 0.0)
+        claim_pair(e, sc, SL_CS, e->inode[TC], bjt_substrate(e));
 }
 
 static double inf_if_zero(double v) { return v == 0.0 ? HUGE_VAL : v; }
@@ -163,7 +180,13 @@ static int bjt_temp(const element *e, double temp_k, double *tp, char *why, size
     double tnom_k = mp[BP_TNOM] + SS_ZERO_C_IN_K;
     double vt = thermal_voltage_v(temp_k);
     double r = temp_k / tnom_k;
-    /* temperature laws: docs/models.md (Getreu 1976 as tabulated by Antognetti & Massobrio) */
+    /* temperature laws: docs/models.md section 4 (Getreu 1976 as tabulated by Antognetti &
+     * Massobrio), r = T/TNOM, Vt at T:
+     *   IS(T) = IS r^XTI exp((r - 1) EG/Vt)
+     *   BF(T) = BF r^XTB, BR(T) = BR r^XTB
+     *   ISE(T) = ISE r^-XTB (IS(T)/IS)^(1/NE), ISC(T) = ISC r^-XTB (IS(T)/IS)^(1/NC)
+     *   VJ(T) = VJ r - 3 Vt ln r - EG(TNOM) r + EG(T), CJ(T) = CJ (1 + M (4e-4 (T - TNOM) -
+     *   VJ(T)/VJ + 1)) for (VJE CJE MJE), (VJC CJC MJC), (VJS CJS MJS): junction_temp_vj_cj */
     double is_ratio = pow(r, mp[BP_XTI]) * exp((r - 1.0) * mp[BP_EG] / vt);
     double beta_f = pow(r, mp[BP_XTB]);
     tp[BP_IS] = mp[BP_IS] * is_ratio;
@@ -175,6 +198,8 @@ static int bjt_temp(const element *e, double temp_k, double *tp, char *why, size
                         &tp[BP_CJE]);
     junction_temp_vj_cj(mp[BP_VJC], mp[BP_CJC], mp[BP_MJC], temp_k, tnom_k, vt, &tp[BP_VJC],
                         &tp[BP_CJC]);
+    junction_temp_vj_cj(mp[BP_VJS], mp[BP_CJS], mp[BP_MJS], temp_k, tnom_k, vt, &tp[BP_VJS],
+                        &tp[BP_CJS]);
     /* area scaling (docs/models.md) */
     double a = e->area;
     tp[BP_IS] *= a;
@@ -187,6 +212,12 @@ static int bjt_temp(const element *e, double temp_k, double *tp, char *why, size
     tp[BP_RB] = mp[BP_RB] / a;
     tp[BP_RE] = mp[BP_RE] / a;
     tp[BP_RC] = mp[BP_RC] / a;
+    /* RBM absent (infinite): the base resistance is RB throughout */
+    tp[BP_RBM] = (isfinite(mp[BP_RBM]) ? mp[BP_RBM] : mp[BP_RB]) / a;
+    tp[BP_IRB] = inf_if_zero(mp[BP_IRB]) * a;
+    tp[BP_ITF] = mp[BP_ITF] * a;
+    tp[BP_CJS] *= a;
+    tp[BP_VTF] = inf_if_zero(mp[BP_VTF]);
     tp[BP_VAF] = inf_if_zero(mp[BP_VAF]);
     tp[BP_VAR] = inf_if_zero(mp[BP_VAR]);
     /* what the equations divide by or take logarithms of must survive the scaling (an extreme
@@ -195,31 +226,23 @@ static int bjt_temp(const element *e, double temp_k, double *tp, char *why, size
     static const struct {
         int idx, positive;
     } checks[] = {{BP_IS, 1},  {BP_BF, 1},  {BP_BR, 1},  {BP_ISE, 0}, {BP_ISC, 0},
-                  {BP_CJE, 0}, {BP_CJC, 0}, {BP_RB, 0},  {BP_RE, 0},  {BP_RC, 0}};
+                  {BP_CJE, 0}, {BP_CJC, 0}, {BP_RB, 0},  {BP_RE, 0},  {BP_RC, 0},
+                  {BP_RBM, 0}, {BP_CJS, 0}};
     for (size_t k = 0; k < sizeof checks / sizeof checks[0]; k++)
         if (temp_param_check(bjt_params[checks[k].idx].name, tp[checks[k].idx],
                              checks[k].positive, why, why_len) != 0)
             return -1;
     if (temp_param_check("vje", tp[BP_VJE], tp[BP_CJE] > 0.0, why, why_len) != 0 ||
-        temp_param_check("vjc", tp[BP_VJC], tp[BP_CJC] > 0.0, why, why_len) != 0)
+        temp_param_check("vjc", tp[BP_VJC], tp[BP_CJC] > 0.0, why, why_len) != 0 ||
+        temp_param_check("vjs", tp[BP_VJS], tp[BP_CJS] > 0.0, why, why_len) != 0)
         return -1;
     return 0;
 }
 
-/* Model currents (NPN sense) and their derivatives at internal junction voltages. */
-typedef struct bjt_eval_out {
-    double ic, ib;       /* into collector and base */
-    double gce, gcc;     /* dic/dvbe, dic/dvbc */
-    double gbe, gbc;     /* dib/dvbe, dib/dvbc */
-    double if_a, qb;     /* forward diffusion current and base charge (for diffusion cap) */
-    double dqb_dvbe, dqb_dvbc;
-    double gif;
-} bjt_eval_out;
-
 /* Gummel-Poon DC equations: docs/models.md sec. BJT, after Gummel & Poon 1970 and the
  * parameterisation of Nagel 1975 / Getreu 1976. gmin sits across each internal junction. */
-static void bjt_eval(const double *tp, double vt, double gmin, double vbe, double vbc,
-                     bjt_eval_out *o)
+void bjt_eval(const double *tp, double vt, double gmin, double vbe, double vbc,
+              bjt_eval_out *o)
 {
     double gif, gir, gbe2 = 0.0, gbc2 = 0.0, ibe2 = 0.0, ibc2 = 0.0;
     double i_f = junction_current(tp[BP_IS], vbe, tp[BP_NF] * vt, &gif);
@@ -263,20 +286,117 @@ static void bjt_eval(const double *tp, double vt, double gmin, double vbe, doubl
     o->gif = gif;
 }
 
-static void junction_voltages(const element *e, const double *x, double *vbe, double *vbc)
+/* f(z) = 3 (tan z - z) / (z tan^2 z) and df/du with u = z^2: how the base resistance falls
+ * with the base current (below). f(0) = 1; f falls to 0 as z nears pi/2. For small z the
+ * quotient of the two Taylor series (tan z = z + z^3/3 + 2 z^5/15 + 17 z^7/315 + 62 z^9/2835),
+ * f = (1 + 2u/5 + 17u^2/105 + 62u^3/945) / (1 + 2u/3 + 17u^2/45 + 62u^3/315), which the
+ * direct form would lose to cancellation in tan z - z. */
+static double rbb_shape(double z, double *df_du)
 {
-    double p = polarity(e);
+    double u = z * z;
+    if (z < 0.02) { /* truncation O(u^4) < 1e-15 */
+        double n = 1.0 + u * (2.0 / 5.0 + u * (17.0 / 105.0 + u * 62.0 / 945.0));
+        double d = 1.0 + u * (2.0 / 3.0 + u * (17.0 / 45.0 + u * 62.0 / 315.0));
+        double dn = 2.0 / 5.0 + u * (34.0 / 105.0 + u * 62.0 / 315.0);
+        double dd = 2.0 / 3.0 + u * (34.0 / 45.0 + u * 62.0 / 105.0);
+        *df_du = (dn * d - n * dd) / (d * d);
+        return n / d;
+    }
+    double t = tan(z), num = t - z, den = z * t * t;
+    double dnum = t * t, dden = t * t + 2.0 * z * t * (1.0 + t * t);
+    *df_du = 3.0 * (dnum * den - num * dden) / (den * den) / (2.0 * z);
+    return 3.0 * num / den;
+}
+
+/* The base resistance between b and b' (Getreu 1976; Antognetti & Massobrio 1993, ch. 2):
+ *   with IRB:    rbb = RBM + 3 (RB - RBM) (tan z - z) / (z tan^2 z),
+ *                z = (-1 + sqrt(1 + 144 ib/(pi^2 IRB))) / ((24/pi^2) sqrt(ib/IRB)),
+ *                computed as z = 6 sqrt(x) / (1 + sqrt(1 + 144 x/pi^2)), x = ib/IRB (the same
+ *                number without the cancellation at small x; x <= 0 counts as 0: rbb = RB);
+ *   without IRB: rbb = RBM + (RB - RBM)/qb.
+ * ib is the intrinsic base current without the (numerical) junction gmin. The Newton
+ * Jacobian gets d(1/rbb)/dvbe and d(1/rbb)/dvbc through ib and qb. */
+void bjt_base_resistance(const double *tp, const bjt_eval_out *o, double gmin, double vbe,
+                         double vbc, bjt_rbb *out)
+{
+    double rb = tp[BP_RB], rbm = tp[BP_RBM];
+    out->varies = rbm != rb;
+    out->dg_dvbe = out->dg_dvbc = 0.0;
+    if (!out->varies) {
+        out->g = 1.0 / rb;
+        return;
+    }
+    double rbb, dr_dvbe, dr_dvbc;
+    if (isfinite(tp[BP_IRB])) {
+        double ib = o->ib - gmin * (vbe + vbc);
+        double x = ib / tp[BP_IRB], du_dx = 0.0, df_du;
+        double z = 0.0;
+        if (x > 0.0) {
+            double w = sqrt(1.0 + 144.0 * x / (SS_PI * SS_PI));
+            z = 6.0 * sqrt(x) / (1.0 + w);
+            /* u = z^2 = 36 x / (1 + w)^2: du/dx = 36 ((1 + w) - 144 x / (pi^2 w)) / (1 + w)^3 */
+            du_dx = 36.0 * ((1.0 + w) - 144.0 * x / (SS_PI * SS_PI * w)) /
+                    ((1.0 + w) * (1.0 + w) * (1.0 + w));
+        }
+        double f = rbb_shape(z, &df_du);
+        rbb = rbm + (rb - rbm) * f;
+        double dr_dib = (rb - rbm) * df_du * du_dx / tp[BP_IRB];
+        dr_dvbe = dr_dib * (o->gbe - gmin);
+        dr_dvbc = dr_dib * (o->gbc - gmin);
+    } else {
+        rbb = rbm + (rb - rbm) / o->qb;
+        double dr_dqb = -(rb - rbm) / (o->qb * o->qb);
+        dr_dvbe = dr_dqb * o->dqb_dvbe;
+        dr_dvbc = dr_dqb * o->dqb_dvbc;
+    }
+    out->g = 1.0 / rbb;
+    out->dg_dvbe = -out->g * out->g * dr_dvbe;
+    out->dg_dvbc = -out->g * out->g * dr_dvbc;
+}
+
+void bjt_junction_voltages(const element *e, const double *x, double *vbe, double *vbc)
+{
+    double p = bjt_polarity(e);
     double vb = xv(x, e->inode[TB]);
     *vbe = p * (vb - xv(x, e->inode[TE]));
     *vbc = p * (vb - xv(x, e->inode[TC]));
 }
 
+/* The varying base resistance's Newton companion: i = g(vbe, vbc) (vb - vb') from b to b',
+ * linearised in (vb - vb', vbe, vbc) about the present point; vbe and vbc are the (limited)
+ * junction voltages the core was stamped at, vb - vb' is x's. The polarity squares away in
+ * the conductances: vbe = p (vb' - ve'), vbc = p (vb' - vc'), and g is even in p. */
+static void stamp_base_resistance(const element *e, double *G, double *rhs, const double *x,
+                                  const bjt_eval_out *o, double gmin, double vbe, double vbc)
+{
+    bjt_rbb r;
+    bjt_base_resistance(e->tp, o, gmin, vbe, vbc, &r);
+    double p = bjt_polarity(e);
+    double vrb = xv(x, e->node[TB]) - xv(x, e->inode[TB]);
+    double kbe = vrb * r.dg_dvbe * p, kbc = vrb * r.dg_dvbc * p; /* d i / d(vb' - ve'), ... */
+    /* di/dvb = g; di/dvb' = -g + kbe + kbc; di/dvc' = -kbc; di/dve' = -kbe */
+    stamp_pair(G, &e->slot[SL_RB], r.g);
+    const int *core = &e->slot[SL_CORE];
+    /* row b (current into b from the node): columns b', c', e' */
+    stamp_add(G, e->slot[SL_RB + 2], kbe + kbc);
+    stamp_add(G, e->slot[SL_B_CI], -kbc);
+    stamp_add(G, e->slot[SL_B_EI], -kbe);
+    /* row b' gets the negative */
+    stamp_add(G, core[3 * TB + TB], -(kbe + kbc));
+    stamp_add(G, core[3 * TB + TC], kbc);
+    stamp_add(G, core[3 * TB + TE], kbe);
+    /* i = g vrb + kbe' (vbe - vbe0) + kbc' (vbc - vbc0), kbe' = vrb0 dg/dvbe: the constant */
+    double ieq = -vrb * (r.dg_dvbe * vbe + r.dg_dvbc * vbc);
+    rhs_add(rhs, e->node[TB], -ieq);
+    rhs_add(rhs, e->inode[TB], ieq);
+}
+
 static void bjt_load_dc(element *e, dev_load_ctx *lc)
 {
     const double *tp = e->tp;
-    double p = polarity(e), vt = lc->vt_v;
+    double p = bjt_polarity(e), vt = lc->vt_v;
     double vbe, vbc;
-    junction_voltages(e, lc->x, &vbe, &vbc);
+    bjt_junction_voltages(e, lc->x, &vbe, &vbc);
     double vcrit_be = junction_vcrit(tp[BP_NF] * vt, tp[BP_IS]);
     double vcrit_bc = junction_vcrit(tp[BP_NR] * vt, tp[BP_IS]);
     if (lc->mode == LOAD_INIT_JUNCTION) {
@@ -309,48 +429,10 @@ static void bjt_load_dc(element *e, dev_load_ctx *lc)
     rhs_add(lc->rhs, e->inode[TE], ieq_c + ieq_b);
 
     for (int t = 0; t < 3; t++)
-        if (e->inode[t] != e->node[t])
+        if (e->inode[t] != e->node[t] && !(t == TB && bjt_rb_varies(e)))
             stamp_pair(lc->G, &e->slot[pair_of[t]], 1.0 / tp[r_of[t]]);
-}
-
-static void bjt_load_ac(const element *e, dev_ac_ctx *ac)
-{
-    const double *tp = e->tp;
-    double vbe, vbc;
-    junction_voltages(e, ac->x_op, &vbe, &vbc);
-    bjt_eval_out o;
-    bjt_eval(tp, ac->vt_v, ac->gmin_s, vbe, vbc, &o);
-
-    /* capacitances: depletion with the FC extension, diffusion TF d(IF/qb)/dVbe and
-     * TR dIR/dVbc (docs/models.md, hybrid-pi section) */
-    double cbe = junction_depletion_cap(vbe, tp[BP_CJE], tp[BP_VJE], tp[BP_MJE], tp[BP_FC]);
-    double cbc = junction_depletion_cap(vbc, tp[BP_CJC], tp[BP_VJC], tp[BP_MJC], tp[BP_FC]);
-    if (tp[BP_TF] > 0.0)
-        cbe += tp[BP_TF] * (o.gif / o.qb - o.if_a / (o.qb * o.qb) * o.dqb_dvbe);
-    if (tp[BP_TR] > 0.0) {
-        double gir;
-        junction_current(tp[BP_IS], vbc, tp[BP_NR] * ac->vt_v, &gir);
-        cbc += tp[BP_TR] * gir;
-    }
-    /* local 3x3 admittance on (c', b', e'): the DC Jacobian, then the two capacitors */
-    double complex y[3][3] = {{-o.gcc, o.gce + o.gcc, -o.gce}, {-o.gbc, o.gbe + o.gbc, -o.gbe}};
-    for (int c = 0; c < 3; c++)
-        y[TE][c] = -(y[TC][c] + y[TB][c]);
-    double complex ybe = SS_J * ac->omega * cbe, ybc = SS_J * ac->omega * cbc;
-    y[TB][TB] += ybe + ybc;
-    y[TE][TE] += ybe;
-    y[TB][TE] -= ybe;
-    y[TE][TB] -= ybe;
-    y[TC][TC] += ybc;
-    y[TB][TC] -= ybc;
-    y[TC][TB] -= ybc;
-    const int *core = &e->slot[SL_CORE];
-    for (int r = 0; r < 3; r++)
-        for (int c = 0; c < 3; c++)
-            zstamp_add(ac->G, core[3 * r + c], y[r][c]);
-    for (int t = 0; t < 3; t++)
-        if (e->inode[t] != e->node[t])
-            zstamp_pair(ac->G, &e->slot[pair_of[t]], 1.0 / tp[r_of[t]]);
+    if (e->inode[TB] != e->node[TB] && bjt_rb_varies(e))
+        stamp_base_resistance(e, lc->G, lc->rhs, lc->x, &o, lc->gmin_s, vbe, vbc);
 }
 
 /* Operating-point details for the report and op.csv (currents into the terminals). */
@@ -363,10 +445,10 @@ static void bjt_op_details(const element *e, const double *x, double vt_v, doubl
                            bjt_op_info *out)
 {
     double vbe_i, vbc_i;
-    junction_voltages(e, x, &vbe_i, &vbc_i);
+    bjt_junction_voltages(e, x, &vbe_i, &vbc_i);
     bjt_eval_out o;
     bjt_eval(e->tp, vt_v, gmin_s, vbe_i, vbc_i, &o);
-    double p = polarity(e);
+    double p = bjt_polarity(e);
     out->ic_a = p * o.ic;
     out->ib_a = p * o.ib;
     out->ie_a = -(out->ic_a + out->ib_a);
@@ -430,17 +512,24 @@ static void bjt_report(const element *e, const double *x, double vt_v, double gm
 static void bjt_kcl(const element *e, const double *x, const dev_load_ctx *lc, double *resid)
 {
     double vbe, vbc;
-    junction_voltages(e, x, &vbe, &vbc);
+    bjt_junction_voltages(e, x, &vbe, &vbc);
     bjt_eval_out o;
     bjt_eval(e->tp, lc->vt_v, lc->gmin_s, vbe, vbc, &o);
-    double p = polarity(e);
+    double p = bjt_polarity(e);
     rhs_add(resid, e->inode[TC], p * o.ic);
     rhs_add(resid, e->inode[TB], p * o.ib);
     rhs_add(resid, e->inode[TE], -p * (o.ic + o.ib));
     for (int t = 0; t < 3; t++) {
         if (e->inode[t] == e->node[t])
             continue;
-        double i_r = (xv(x, e->node[t]) - xv(x, e->inode[t])) / e->tp[r_of[t]];
+        double v_r = xv(x, e->node[t]) - xv(x, e->inode[t]), i_r;
+        if (t == TB && bjt_rb_varies(e)) {
+            bjt_rbb r;
+            bjt_base_resistance(e->tp, &o, lc->gmin_s, vbe, vbc, &r);
+            i_r = v_r * r.g;
+        } else {
+            i_r = v_r / e->tp[r_of[t]];
+        }
         rhs_add(resid, e->node[t], i_r);
         rhs_add(resid, e->inode[t], -i_r);
     }
@@ -448,13 +537,13 @@ static void bjt_kcl(const element *e, const double *x, const dev_load_ctx *lc, d
 
 /* Noise (docs/noise.md; hybrid-pi noise model after Gray & Meyer, ch. 11 -- from memory):
  * collector shot 2q|Ic| between c' and e', base shot 2q|Ib| and flicker KF |Ib|^AF / f between
- * b' and e', thermal noise of RB, RE and RC. Ic and Ib are the model's currents at the
+ * b' and e', thermal noise of RB (4kT/rbb at the operating point when it varies), RE and RC. Ic and Ib are the model's currents at the
  * operating point without the (noiseless) junction gmin. */
 static int bjt_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src *out)
 {
     const double *tp = e->tp;
     double vbe, vbc;
-    junction_voltages(e, nc->x_op, &vbe, &vbc);
+    bjt_junction_voltages(e, nc->x_op, &vbe, &vbc);
     bjt_eval_out o;
     bjt_eval(tp, nc->vt_v, 0.0, vbe, vbc, &o);
     int n = 0;
@@ -466,65 +555,20 @@ static int bjt_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src *o
         out[n++] = (dev_noise_src){e->inode[TB], e->inode[TE], 0.0,
                                    noise_flicker_a2(tp[BP_KF], tp[BP_AF], o.ib), "flicker"};
     static const char *const label[3] = {"rc thermal", "rb thermal", "re thermal"};
-    for (int t = 0; t < 3; t++)
-        if (e->inode[t] != e->node[t])
-            out[n++] = (dev_noise_src){e->node[t], e->inode[t],
-                                       noise_thermal_a2_per_hz(nc->temp_k, tp[r_of[t]]), 0.0,
-                                       label[t]};
+    for (int t = 0; t < 3; t++) {
+        if (e->inode[t] == e->node[t])
+            continue;
+        double r_ohm = tp[r_of[t]];
+        if (t == TB && bjt_rb_varies(e)) {
+            /* the varying base resistance: 4 k T / rbb at its operating-point value */
+            bjt_rbb r;
+            bjt_base_resistance(tp, &o, 0.0, vbe, vbc, &r);
+            r_ohm = 1.0 / r.g;
+        }
+        out[n++] = (dev_noise_src){e->node[t], e->inode[t],
+                                   noise_thermal_a2_per_hz(nc->temp_k, r_ohm), 0.0, label[t]};
+    }
     return n;
-}
-
-/* Transient charges (docs/transient.md), NPN sense: q_be = the CJE depletion charge + TF IF/qb
- * between b' and e', q_bc = the CJC depletion charge + TR IR between b' and c'. Depletion
- * charges are the integrals of the FC-extended capacitances (junction_depletion_charge); the
- * forward diffusion charge depends on vbc through qb, so q_be has a vbc derivative too. */
-static void bjt_load_tran(element *e, dev_tran_ctx *tc)
-{
-    const double *tp = e->tp;
-    double p = polarity(e), vbe, vbc;
-    if (tc->G) {
-        vbe = e->state[ST_VBE];
-        vbc = e->state[ST_VBC];
-    } else {
-        junction_voltages(e, tc->x, &vbe, &vbc);
-    }
-    double c11, c12 = 0.0, c22; /* dq_be/dvbe, dq_be/dvbc, dq_bc/dvbc */
-    double q_be = junction_depletion_charge(vbe, tp[BP_CJE], tp[BP_VJE], tp[BP_MJE], tp[BP_FC],
-                                            &c11);
-    double q_bc = junction_depletion_charge(vbc, tp[BP_CJC], tp[BP_VJC], tp[BP_MJC], tp[BP_FC],
-                                            &c22);
-    if (tp[BP_TF] > 0.0) {
-        bjt_eval_out o;
-        bjt_eval(tp, tc->vt_v, 0.0, vbe, vbc, &o);
-        q_be += tp[BP_TF] * o.if_a / o.qb;
-        c11 += tp[BP_TF] * (o.gif / o.qb - o.if_a / (o.qb * o.qb) * o.dqb_dvbe);
-        c12 = -tp[BP_TF] * o.if_a / (o.qb * o.qb) * o.dqb_dvbc;
-    }
-    if (tp[BP_TR] > 0.0) {
-        double gir;
-        q_bc += tp[BP_TR] * junction_current(tp[BP_IS], vbc, tp[BP_NR] * tc->vt_v, &gir);
-        c22 += tp[BP_TR] * gir;
-    }
-    tc->q[0] = q_be;
-    tc->q[1] = q_bc;
-    if (!tc->G)
-        return;
-    /* linearised about (vbe, vbc); the polarity squares away in the conductances */
-    double a0 = tc->a0;
-    double ieq_be = p * (a0 * q_be + tc->hist[0] - a0 * c11 * vbe - a0 * c12 * vbc);
-    double ieq_bc = p * (a0 * q_bc + tc->hist[1] - a0 * c22 * vbc);
-    const int *core = &e->slot[SL_CORE];
-    /* i_be: into b', out of e'; depends on vb - ve (c11) and vb - vc (c12) */
-    double jbe[3] = {-a0 * c12, a0 * (c11 + c12), -a0 * c11}; /* columns c', b', e' */
-    double jbc[3] = {-a0 * c22, a0 * c22, 0.0};
-    for (int c = 0; c < 3; c++) {
-        stamp_add(tc->G, core[3 * TB + c], jbe[c] + jbc[c]);
-        stamp_add(tc->G, core[3 * TE + c], -jbe[c]);
-        stamp_add(tc->G, core[3 * TC + c], -jbc[c]);
-    }
-    rhs_add(tc->rhs, e->inode[TB], -(ieq_be + ieq_bc));
-    rhs_add(tc->rhs, e->inode[TE], ieq_be);
-    rhs_add(tc->rhs, e->inode[TC], ieq_bc);
 }
 
 /* collector-base and collector-emitter: every terminal is on one DC path */
@@ -548,10 +592,11 @@ const dev_ops bjt_ops = {
     .load_dc = bjt_load_dc,
     .kcl = bjt_kcl,
     .load_ac = bjt_load_ac,
+    .ac_not_affine = bjt_ac_not_affine,
     .report = bjt_report,
     .noise = bjt_noise,
     .load_tran = bjt_load_tran,
-    .n_charge = 2,
+    .n_charge = BJT_N_CHARGE,
     .value_name = NULL,
     .model_types = BJT_TYPES,
     .model_kind = "BJT",

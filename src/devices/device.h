@@ -209,6 +209,9 @@ typedef struct dev_ops {
      * resid[branch]: the independent check of a converged answer */
     void (*kcl)(const element *e, const double *x, const dev_load_ctx *lc, double *resid);
     void (*load_ac)(const element *e, dev_ac_ctx *ac);
+    /* 1 when this element's admittance is not G + jwC (a BJT's excess phase, exp(-jw td)),
+     * so the AC analysis must load it at every frequency; NULL: always G + jwC */
+    int (*ac_not_affine)(const element *e);
     /* op.csv rows at the solution x; NULL when none. With x NULL (no solution yet) it names
      * the same rows with NaN values and reads nothing else: the figures a limit may name */
     void (*report)(const element *e, const double *x, double vt_v, double gmin_s,

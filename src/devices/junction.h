@@ -102,7 +102,10 @@ static inline double junction_eg_ev(double temp_k)
     return 1.16 - 7.02e-4 * temp_k * temp_k / (temp_k + 1108.0);
 }
 
-/* Temperature of a junction potential and its zero-bias capacitance (docs/models.md). */
+/* Temperature of a junction potential and its zero-bias capacitance (docs/models.md section 4;
+ * Getreu 1976, EG(T) of Varshni 1967), r = T/TNOM:
+ *   VJ(T) = VJ r - 3 Vt ln r - EG(TNOM) r + EG(T)
+ *   CJ(T) = CJ (1 + M (4e-4 (T - TNOM) - VJ(T)/VJ + 1)) */
 static inline void junction_temp_vj_cj(double vj, double cj, double m, double temp_k,
                                        double tnom_k, double vt_v, double *vj_t, double *cj_t)
 {

@@ -8,7 +8,7 @@
 struct dev_ops;
 struct mna;
 
-#define MODEL_MAX_PARAMS 40
+#define MODEL_MAX_PARAMS 48
 
 typedef struct model {
     const char *name;

@@ -330,6 +330,58 @@ static void test_errors_name_line_and_element(void **state)
                  "gmin, newton_iters, tran_method, tran_tol_rel, tran_tol_v, lint_off)");
 }
 
+/* The BJT's optional substrate node: the fourth token is the model when it names one, else
+ * the substrate node with the model after it; absent, the substrate is ground. A substrate
+ * node tied to nothing else has no DC path (it connects only through CJS). */
+static void test_bjt_substrate_node(void **state)
+{
+    (void)state;
+    ss_circuit *ckt = ss_test_parse("four-node form\n"
+                                    ".model qn npn cjs=1p\n"
+                                    "vs sub 0 -2\nvc c 0 5\nvb b 0 0.7\n"
+                                    "q1 c b 0 sub qn\n"
+                                    "q2 c b 0 qn 2\n"
+                                    "q3 c b 0 sub qn area=3\n");
+    const ss_solver *sv = ss_test_sv(ckt);
+    const element *q1 = &sv->elem[3], *q2 = &sv->elem[4], *q3 = &sv->elem[5];
+    assert_int_equal(q1->n_node, 4);
+    assert_int_equal(q1->node[3], sv->elem[0].node[0]); /* the node vs drives */
+    assert_int_equal(q2->n_node, 3);
+    ss_assert_close(q2->area, 2.0, 0, 0);
+    assert_int_equal(q3->n_node, 4);
+    ss_assert_close(q3->area, 3.0, 0, 0);
+    ss_table *op = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_op_solve(ss_test_sv(ckt), &op, NULL, &err), SS_OK);
+    ss_table_destroy(&op);
+    ss_test_destroy(&ckt);
+
+    expect_error("t\n.model qn npn\nv1 c 0 1\nq1 c b e s t qn\n",
+                 "test.cir:4: q1: too many nodes before model 'qn' (expected collector, base, "
+                 "emitter and an optional substrate)");
+    expect_error("t\n.model qn npn\nv1 c 0 1\nq1 c b e s nomodel\n",
+                 "test.cir:4: q1: unknown model 'nomodel'");
+    expect_error("t\n.model qn npn\nv1 c 0 1\nq1 c b e s qn 2 9\n",
+                 "test.cir:4: q1: unexpected '9' after the area value");
+    expect_error("t\n.model qn npn\n.model dd d\nv1 c 0 1\nq1 c b e dd qn\n",
+                 "test.cir:5: q1: model 'dd' is a d model; a BJT needs a model of type npn or "
+                 "pnp");
+
+    /* a floating substrate: refused when the context is made */
+    const char *text = "t\n.model qn npn cjs=1p\nvc c 0 5\nvb b 0 0.7\nq1 c b 0 sub qn\n";
+    ckt = ss_test_parse(text);
+    ss_solver *sv2 = NULL;
+    ss_status st = ss_solver_create(ckt, &sv2, &err);
+    if (st == SS_OK) { /* the check may run when the context prepares */
+        st = ss_op_solve(sv2, &op, NULL, &err);
+        ss_table_destroy(&op);
+    }
+    assert_int_equal(st, SS_ERR_SINGULAR);
+    assert_non_null(strstr(err.message, "node 'sub' has no DC path to ground"));
+    ss_solver_destroy(&sv2);
+    ss_circuit_destroy(&ckt);
+}
+
 static void test_binary_garbage_rejected(void **state)
 {
     (void)state;
@@ -400,6 +452,7 @@ int main(void)
         cmocka_unit_test(test_subckt_nested_with_params),
         cmocka_unit_test(test_include_relative_to_including_file),
         cmocka_unit_test(test_errors_name_line_and_element),
+        cmocka_unit_test(test_bjt_substrate_node),
         cmocka_unit_test(test_binary_garbage_rejected),
         cmocka_unit_test(test_long_names_are_refused_not_cut),
         cmocka_unit_test(test_internal_node_does_not_shadow_netlist_node),
