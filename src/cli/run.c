@@ -69,23 +69,59 @@ static void print_large_signal(const ss_table *ls, double f_hz)
     }
 }
 
+/* The noise block of the report: the band, the integrated figures and the largest single
+ * sources, ranked by their own share (noise_contrib.csv keeps each element's rows together;
+ * ranking rows there would let an element of many small sources push a larger single one off
+ * the list), each with its element's total beside it. */
 static void print_noise(const ss_table *nsum, const ss_table *ncon)
 {
     int col = ss_table_col_index(nsum, "value");
-    printf("\nNoise over the .ac band (%.4g Hz .. %.4g Hz)\n",
-           ss_table_lookup(nsum, "f_start_hz", col), ss_table_lookup(nsum, "f_stop_hz", col));
+    double points = ss_table_lookup(nsum, "band_points", col);
+    if (isnan(points))
+        printf("\nNoise over the .ac band (%.4g Hz .. %.4g Hz)\n",
+               ss_table_lookup(nsum, "f_start_hz", col), ss_table_lookup(nsum, "f_stop_hz", col));
+    else
+        printf("\nNoise over its own band (%.4g Hz .. %.4g Hz, %.0f points)\n",
+               ss_table_lookup(nsum, "f_start_hz", col), ss_table_lookup(nsum, "f_stop_hz", col),
+               points);
     printf("  output noise    %.4g uV rms\n",
            1e6 * ss_table_lookup(nsum, "out_noise_rms_v", col));
     printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", col));
+    double a_out = ss_table_lookup(nsum, "out_noise_a_rms_v", col);
+    if (!isnan(a_out)) {
+        printf("  A-weighted output noise    %.4g uV rms\n", 1e6 * a_out);
+        printf("  A-weighted input-referred  %.4g uV rms\n",
+               1e6 * ss_table_lookup(nsum, "in_noise_a_rms_v", col));
+    }
     double nf = ss_table_lookup(nsum, "noise_figure_db", col);
     if (!isnan(nf))
         printf("  noise figure    %.3f dB\n", nf);
-    printf("  largest contributions:\n");
     int rms_col = ss_table_col_index(ncon, "out_noise_rms_v");
     int share_col = ss_table_col_index(ncon, "share_pct");
-    for (int i = 0; i < ss_table_rows(ncon) && i < 5; i++)
-        printf("    %-28s %10.4g uV rms  %6.2f %%\n", ss_table_row_label(ncon, i),
-               1e6 * ss_table_get(ncon, i, rms_col), ss_table_get(ncon, i, share_col));
+    int elem_col = ss_table_col_index(ncon, "element_share_pct");
+    enum { SHOWN = 5 };
+    int top[SHOWN], n_top = 0;
+    /* the SHOWN largest shares, largest first; equal shares keep the file's order */
+    for (int i = 0; i < ss_table_rows(ncon); i++) {
+        double v = ss_table_get(ncon, i, share_col);
+        int j = n_top < SHOWN ? n_top++ : SHOWN;
+        while (j > 0 && (v > ss_table_get(ncon, top[j - 1], share_col) ||
+                         isnan(ss_table_get(ncon, top[j - 1], share_col)))) {
+            if (j < SHOWN)
+                top[j] = top[j - 1];
+            j--;
+        }
+        if (j < SHOWN)
+            top[j] = i;
+    }
+    printf("  largest single sources (element total beside):\n");
+    for (int k = 0; k < n_top; k++) {
+        const char *label = ss_table_row_label(ncon, top[k]);
+        size_t elem_len = strcspn(label, " ");
+        printf("    %-28s %10.4g uV rms  %6.2f %%   %.*s %.2f %%\n", label,
+               1e6 * ss_table_get(ncon, top[k], rms_col), ss_table_get(ncon, top[k], share_col),
+               (int)elem_len, label, ss_table_get(ncon, top[k], elem_col));
+    }
 }
 
 /* run does not judge the netlist's .expect lines (check does), but a limit that cannot be

@@ -500,7 +500,27 @@ static void test_noise_line_errors_name_line_and_fault(void **state)
     expect_parse_error(".noise v(out) vin rs=c1",
                        "test.cir:6: .noise: rs=c1 is not a resistor of the circuit");
     expect_parse_error(".noise v(out) vin gain=2",
-                       "test.cir:6: .noise: unknown field 'gain' (known: rs)");
+                       "test.cir:6: .noise: unknown field 'gain' (known: rs, band, "
+                       "per_decade, weight)");
+    expect_parse_error(".noise v(out) vin band=1k",
+                       "test.cir:6: .noise: band= needs F1..F2 (two frequencies in Hz), got '1k'");
+    expect_parse_error(".noise v(out) vin band=1k..1",
+                       "test.cir:6: .noise: band=1k..1 needs 0 < F1 < F2");
+    expect_parse_error(".noise v(out) vin band=0..1",
+                       "test.cir:6: .noise: band=0..1 needs 0 < F1 < F2");
+    expect_parse_error(".noise v(out) vin band=1..x",
+                       "test.cir:6: .noise: band= needs F1..F2 (two frequencies in Hz), got "
+                       "'1..x'");
+    expect_parse_error(".noise v(out) vin band=1..1 band=1..2", "test.cir:6: .noise: band=1..1");
+    expect_parse_error(".noise v(out) vin band=1..2 band=1..3",
+                       "test.cir:6: .noise: 'band' given twice");
+    expect_parse_error(".noise v(out) vin per_decade=1",
+                       "test.cir:6: .noise: per_decade needs a whole number from 2 to 10000, got "
+                       "'1'");
+    expect_parse_error(".noise v(out) vin per_decade=10.5",
+                       "test.cir:6: .noise: per_decade needs a whole number");
+    expect_parse_error(".noise v(out) vin weight=c",
+                       "test.cir:6: .noise: weight needs 'a' (A-weighting), got 'c'");
 }
 
 static void test_noise_line_sets_flag_and_accepts_spaces(void **state)
