@@ -263,6 +263,9 @@ static ss_status emit_noise(run_ctx *c, ss_sink *sink, ss_error *err)
     return ss_noise_emit(c->sv, sink, &c->nsum, &c->ncon, err);
 }
 
+static int keep_noise(const run_ctx *c) { return c->a->plot; }
+
+/* noise_summary.csv, noise_contrib.csv and, with --plot, noise.svg; then the noise report. */
 static int after_noise(run_ctx *c, int ran, ss_error *err)
 {
     if (!ran)
@@ -270,6 +273,14 @@ static int after_noise(run_ctx *c, int ran, ss_error *err)
     if (write_table(c->nsum, run_path(c, "noise_summary.csv"), err) != 0 ||
         write_table(c->ncon, run_path(c, "noise_contrib.csv"), err) != 0)
         return -1;
+    if (c->a->plot) {
+        ss_error perr = {0};
+        ss_status st = ss_plot_write_noise(c->sv, c->rows, run_path(c, "noise.svg"), &perr);
+        if (plot_result(st, &perr, "noise.svg") != 0) {
+            *err = perr;
+            return -1;
+        }
+    }
     if (!c->a->quiet)
         print_noise(c->nsum, c->ncon);
     return 0;
@@ -281,7 +292,7 @@ static int after_noise(run_ctx *c, int ran, ss_error *err)
  * an entry just has its rows written. */
 typedef struct run_extra {
     const char *analysis;
-    const char *files[3]; /* NULL-terminated */
+    const char *files[4]; /* NULL-terminated */
     int (*keep_rows)(const run_ctx *c);
     ss_status (*emit)(run_ctx *c, ss_sink *sink, ss_error *err);
     int (*after)(run_ctx *c, int ran, ss_error *err); /* 0 ok, -1 with *err filled */
@@ -294,7 +305,8 @@ static const run_extra EXTRAS[] = {
     {"tran", {"wave.svg", NULL}, keep_tran, NULL, after_tran},
     {"large_signal", {"harmonics.csv", "thd_wave.svg", NULL}, keep_always, NULL,
      after_large_signal},
-    {"noise", {"noise_summary.csv", "noise_contrib.csv", NULL}, NULL, emit_noise, after_noise},
+    {"noise", {"noise_summary.csv", "noise_contrib.csv", "noise.svg", NULL}, keep_noise, emit_noise,
+     after_noise},
 };
 
 static const run_extra *extra_of(const char *analysis)
