@@ -425,13 +425,13 @@ static void test_one_extra_solve_per_frequency(void **state)
     ss_test_destroy(&ckt);
 }
 
-static ss_status alloc_run_once(void)
+static ss_status alloc_run_once(const char *text)
 {
     ss_circuit *ckt = NULL;
     ss_solver *sv = NULL;
     ss_table *t = NULL, *s = NULL, *c = NULL;
     ss_error err = {0};
-    ss_status st = ss_circuit_parse_text(STAGE, strlen(STAGE), "a.cir", NULL, 0, &ckt, &err);
+    ss_status st = ss_circuit_parse_text(text, strlen(text), "a.cir", NULL, 0, &ckt, &err);
     if (st == SS_OK)
         st = ss_solver_create(ckt, &sv, &err);
     if (st == SS_OK)
@@ -454,18 +454,25 @@ static ss_status alloc_run_once(void)
 static void test_every_allocation_failure_is_clean(void **state)
 {
     (void)state;
-    long n;
-    int nomem_seen = 0;
-    for (n = 0; n < 100000; n++) {
-        ss_alloc_fail_at(n);
-        ss_status st = alloc_run_once();
-        if (st == SS_OK)
-            break;
-        nomem_seen += st == SS_ERR_NOMEM;
+    /* the .ac path, and a band of its own with the A-weighting (its grid and weights) */
+    char banded[2048];
+    snprintf(banded, sizeof banded, "%.*s band=10..10k per_decade=4 weight=a\n",
+             (int)strlen(STAGE) - 1, STAGE);
+    const char *texts[2] = {STAGE, banded};
+    for (int t = 0; t < 2; t++) {
+        long n;
+        int nomem_seen = 0;
+        for (n = 0; n < 100000; n++) {
+            ss_alloc_fail_at(n);
+            ss_status st = alloc_run_once(texts[t]);
+            if (st == SS_OK)
+                break;
+            nomem_seen += st == SS_ERR_NOMEM;
+        }
+        ss_alloc_fail_at(-1);
+        assert_true(n > 10);
+        assert_true(nomem_seen > 0);
     }
-    ss_alloc_fail_at(-1);
-    assert_true(n > 10);
-    assert_true(nomem_seen > 0);
 }
 
 /* ---- errors -------------------------------------------------------------------------------- */
