@@ -242,7 +242,20 @@ SS_API ss_status ss_solver_set_noise(ss_solver *sv, const char *out_node,
                                       const char *in_source, const char *rs_resistor,
                                       ss_error *err);
 
-/* Noise analysis over the .ac frequencies at the operating point (solved first if needed),
+/* Gives the noise analysis a band of its own, independent of .ac (overrides .noise band= and
+ * per_decade=): the sweep then runs from lo_hz to hi_hz on a log grid of per_decade points a
+ * decade (0: the .noise line's, else 100), integrated with Simpson's rule in ln f, and the
+ * summary gains out_noise_band_rms_v, in_noise_band_rms_v and band_points (docs/noise.md).
+ * lo_hz = hi_hz = 0 removes the band (the .ac frequencies again). Returns SS_ERR_INPUT for
+ * 0 < lo < hi not holding, more than 15 decades or per_decade outside 2 .. 10000. */
+SS_API ss_status ss_solver_set_noise_band(ss_solver *sv, double lo_hz, double hi_hz,
+                                          int per_decade, ss_error *err);
+/* The noise weighting (overrides .noise weight=): "a" the A-weighting of IEC 61672-1:2013,
+ * "none" none. With "a" the summary gains out_noise_a_rms_v and in_noise_a_rms_v. Returns
+ * SS_ERR_INPUT for another name. */
+SS_API ss_status ss_solver_set_noise_weight(ss_solver *sv, const char *weight, ss_error *err);
+
+/* Noise analysis over the .ac frequencies (or its own band) at the operating point (solved first if needed),
  * for the output node and input source of .noise (or ss_solver_set_noise); docs/noise.md.
  * Outputs (owned by the caller, written on success only; each may be NULL if not wanted):
  *   out_noise   freq_hz, out_noise_v_rthz, in_noise_v_rthz per frequency (noise.csv); the

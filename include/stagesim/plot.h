@@ -23,6 +23,15 @@ SS_API ss_status ss_plot_write_wave(const ss_solver *sv, const ss_table *wave,
 SS_API ss_status ss_plot_write_bode(const ss_solver *sv, const ss_table *stage,
                                     const ss_table *summary, const char *path, ss_error *err);
 
+/* Writes noise.svg: the output and input-referred noise densities of a noise table (the rows
+ * of ss_noise_run: freq_hz, out_noise_v_rthz, in_noise_v_rthz) over a log frequency axis and a
+ * log density axis (V/rtHz; A/rtHz input-referred for a current-source input), decade grid
+ * lines labelled, the polylines with ids out_noise and in_noise; empty and zero densities are
+ * left out (docs/noise.md). Atomic. Returns SS_OK, SS_ERR_INPUT (no such columns, fewer than
+ * 2 points, frequencies not ascending, nothing above zero), SS_ERR_IO, SS_ERR_NOMEM. */
+SS_API ss_status ss_plot_write_noise(const ss_solver *sv, const ss_table *noise, const char *path,
+                                     ss_error *err);
+
 /* Writes the human-readable report to f: title, temperature, node voltages, per-BJT and
  * per-diode tables, the stage block (summary may be NULL) and the circuit's warnings
  * (docs/cli.md). */

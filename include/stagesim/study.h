@@ -73,6 +73,11 @@ SS_API ss_status ss_study_create(const char *netlist_path, const ss_override *se
                                  ss_study **out, ss_error *err);
 SS_API ss_status ss_study_set_stage(ss_study *s, const char *in_source, const char *out_node,
                                     ss_error *err);
+/* The noise analysis's own band and weighting at every point (ss_solver_set_noise_band and
+ * ss_solver_set_noise_weight on each context; part of the study's identity). */
+SS_API ss_status ss_study_set_noise_band(ss_study *s, double lo_hz, double hi_hz, int per_decade,
+                                         ss_error *err);
+SS_API ss_status ss_study_set_noise_weight(ss_study *s, const char *weight, ss_error *err);
 /* `NAME=lin:START:STOP:N`, `NAME=log:START:STOP:N` or `NAME=list:V1,V2,...`, every field
  * present and read whole by ss_value_parse; NAME as for --set, or `temp` (degrees C, each value
  * within -273.15 .. 1000). Several combine as a grid (the first varies slowest). A NAME the

@@ -54,6 +54,12 @@ typedef struct noise_src {
 } noise_src;
 SS_HIDDEN ss_status noise_collect_sources(const ss_solver *sv, noise_src **out_src, int *out_n,
                                           ss_error *err);
+/* The A-weighting of IEC 61672-1:2013 as an amplitude ratio, 1 at 1 kHz (noise.c) */
+SS_HIDDEN double noise_a_weight(double f_hz);
+/* The noise has a band of its own (.noise band=, ss_solver_set_noise_band) */
+SS_HIDDEN int noise_has_band(const ss_solver *sv);
+/* A noise analysis is named and has frequencies to run over (.ac or a band of its own) */
+SS_HIDDEN int noise_runs(const ss_solver *sv);
 
 /* Stage figures at one frequency: complex gain, |Zin|, |Zout| (solves the op if needed). */
 SS_HIDDEN ss_status stage_at_frequency(ss_solver *sv, double freq_hz, double _Complex *gain,

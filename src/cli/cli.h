@@ -31,6 +31,8 @@ typedef struct cli_args {
     int series;
     double temp_lo, temp_hi;
     double ls_freq, thd_amp, thd_target;
+    double noise_lo_hz, noise_hi_hz; /* --noise-band; 0 when not given */
+    const char *noise_weight;        /* --noise-weight; NULL when not given */
     const char **nodes; /* --nodes lists, each comma-separated */
     int n_nodes;
     int temps_given;               /* --temps was given (refine's temperature corners) */

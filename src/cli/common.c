@@ -250,6 +250,35 @@ static int apply_stage_options(ss_solver *sv, const cli_args *a)
     return EXIT_OK;
 }
 
+/* --noise-band and --noise-weight act on the noise analysis: without one they would be
+ * dropped. */
+static int apply_noise_options(ss_solver *sv, const cli_args *a)
+{
+    const char *opt = a->noise_lo_hz > 0.0 ? "--noise-band" : a->noise_weight ? "--noise-weight"
+                                                                                : NULL;
+    if (!opt)
+        return EXIT_OK;
+    ss_analysis_flags fl;
+    ss_solver_analyses(sv, &fl);
+    if (!fl.noise) {
+        fprintf(stderr, "stagesim: %s: the netlist has no noise analysis (add `.noise v(OUT) "
+                        "SRC`)\n",
+                opt);
+        return EXIT_BAD_INPUT;
+    }
+    ss_error err = {0};
+    if (a->noise_lo_hz > 0.0 &&
+        ss_solver_set_noise_band(sv, a->noise_lo_hz, a->noise_hi_hz, 0, &err) != SS_OK) {
+        fprintf(stderr, "stagesim: --noise-band: %s\n", err.message);
+        return EXIT_BAD_INPUT;
+    }
+    if (a->noise_weight && ss_solver_set_noise_weight(sv, a->noise_weight, &err) != SS_OK) {
+        fprintf(stderr, "stagesim: --noise-weight: %s\n", err.message);
+        return EXIT_BAD_INPUT;
+    }
+    return EXIT_OK;
+}
+
 /* Parses the netlist, makes its solver context and applies --in/--out/--load/--nodes and the
  * large-signal options to it. */
 int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv)
@@ -272,6 +301,8 @@ int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv)
     }
     if (rc == EXIT_OK)
         rc = apply_stage_options(sv, a);
+    if (rc == EXIT_OK)
+        rc = apply_noise_options(sv, a);
     if (rc == EXIT_OK && a->n_nodes > 0)
         rc = select_nodes(sv, a);
     if (rc != EXIT_OK) {

@@ -38,6 +38,9 @@ static const char USAGE[] =
     "  --nodes A,B,...   (run) write only these nodes' voltages (op, dc, ac, tran tables and\n"
     "                    the report); default every node\n"
     "  --ls-freq F --thd-amp A --thd-target PCT   (run) the large-signal test\n"
+    "  --noise-band F1..F2   the noise analysis's own band (overrides .noise band=; not\n"
+    "                    merge)\n"
+    "  --noise-weight a|none   A-weighting (IEC 61672-1) of the noise figures (not merge)\n"
     "  --junit FILE      (check) the verdicts as JUnit-style XML\n"
     "  --quiet           no report on stdout\n"
     "  --strict          (check) fail (exit 1) on any sanity (lint) warning\n"
@@ -151,6 +154,10 @@ static const cli_option OPTIONS[] = {
      "set a .param, element value (R1=10k) or MODEL.PARAM; repeatable, each NAME once"},
     {"--in", NULL, "SRC", C_NETLIST, "the stage's driving source (with --out; overrides .stage)"},
     {"--out", NULL, "NODE", C_NETLIST, "the stage's output node (with --in)"},
+    {"--noise-band", NULL, "F1..F2", C_NETLIST,
+     "the noise analysis's own band in Hz (overrides .noise band=; needs .noise)"},
+    {"--noise-weight", NULL, "a|none", C_NETLIST,
+     "weight the noise: a = A-weighting of IEC 61672-1 (overrides .noise weight=)"},
     {"--load", NULL, "OHMS", C_RUN,
      "the load on the stage output, for the report's Zout warning (as .stage load=)"},
     {"--nodes", NULL, "A,B,...", C_RUN,
@@ -373,8 +380,8 @@ static int take_positional(const char *o, const cli_command *cmd, cli_args *a)
     return EXIT_OK;
 }
 
-/* The options several commands share: -o, --set, --in, --out, --junit, --limits, --strict,
- * --quiet. n is the option's name, next its value. */
+/* The options several commands share: -o, --set, --in, --out, --noise-band, --noise-weight,
+ * --junit, --limits, --strict, --quiet. n is the option's name, next its value. */
 static int parse_shared_option(const char *n, const char *next, cli_args *a)
 {
     if (strcmp(n, "-o") == 0) {
@@ -392,6 +399,23 @@ static int parse_shared_option(const char *n, const char *next, cli_args *a)
         a->in_src = next;
     } else if (strcmp(n, "--out") == 0) {
         a->out_node = next;
+    } else if (strcmp(n, "--noise-band") == 0) {
+        static const char needs[] = "F1..F2, two frequencies in Hz with 0 < F1 < F2";
+        char buf[256];
+        char *dots = strlen(next) < sizeof buf ? strstr(strcpy(buf, next), "..") : NULL;
+        ss_error err = {0};
+        if (!dots)
+            return usage_errorf("--noise-band needs %s, got '%s'", needs, next);
+        *dots = '\0';
+        if (ss_value_parse(buf, &a->noise_lo_hz, &err) != SS_OK ||
+            ss_value_parse(dots + 2, &a->noise_hi_hz, &err) != SS_OK)
+            return usage_errorf("--noise-band needs %s: %s", needs, err.message);
+        if (!(a->noise_lo_hz > 0.0 && a->noise_hi_hz > a->noise_lo_hz))
+            return usage_errorf("--noise-band needs %s, got '%s'", needs, next);
+    } else if (strcmp(n, "--noise-weight") == 0) {
+        if (strcmp(next, "a") != 0 && strcmp(next, "A") != 0 && strcmp(next, "none") != 0)
+            return usage_error("--noise-weight needs a (A-weighting) or none, got '%s'", next);
+        a->noise_weight = next;
     } else if (strcmp(n, "--junit") == 0) {
         a->junit = next;
     } else if (strcmp(n, "--limits") == 0) {

@@ -69,23 +69,59 @@ static void print_large_signal(const ss_table *ls, double f_hz)
     }
 }
 
+/* The noise block of the report: the band, the integrated figures and the largest single
+ * sources, ranked by their own share (noise_contrib.csv keeps each element's rows together;
+ * ranking rows there would let an element of many small sources push a larger single one off
+ * the list), each with its element's total beside it. */
 static void print_noise(const ss_table *nsum, const ss_table *ncon)
 {
     int col = ss_table_col_index(nsum, "value");
-    printf("\nNoise over the .ac band (%.4g Hz .. %.4g Hz)\n",
-           ss_table_lookup(nsum, "f_start_hz", col), ss_table_lookup(nsum, "f_stop_hz", col));
+    double points = ss_table_lookup(nsum, "band_points", col);
+    if (isnan(points))
+        printf("\nNoise over the .ac band (%.4g Hz .. %.4g Hz)\n",
+               ss_table_lookup(nsum, "f_start_hz", col), ss_table_lookup(nsum, "f_stop_hz", col));
+    else
+        printf("\nNoise over its own band (%.4g Hz .. %.4g Hz, %.0f points)\n",
+               ss_table_lookup(nsum, "f_start_hz", col), ss_table_lookup(nsum, "f_stop_hz", col),
+               points);
     printf("  output noise    %.4g uV rms\n",
            1e6 * ss_table_lookup(nsum, "out_noise_rms_v", col));
     printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", col));
+    double a_out = ss_table_lookup(nsum, "out_noise_a_rms_v", col);
+    if (!isnan(a_out)) {
+        printf("  A-weighted output noise    %.4g uV rms\n", 1e6 * a_out);
+        printf("  A-weighted input-referred  %.4g uV rms\n",
+               1e6 * ss_table_lookup(nsum, "in_noise_a_rms_v", col));
+    }
     double nf = ss_table_lookup(nsum, "noise_figure_db", col);
     if (!isnan(nf))
         printf("  noise figure    %.3f dB\n", nf);
-    printf("  largest contributions:\n");
     int rms_col = ss_table_col_index(ncon, "out_noise_rms_v");
     int share_col = ss_table_col_index(ncon, "share_pct");
-    for (int i = 0; i < ss_table_rows(ncon) && i < 5; i++)
-        printf("    %-28s %10.4g uV rms  %6.2f %%\n", ss_table_row_label(ncon, i),
-               1e6 * ss_table_get(ncon, i, rms_col), ss_table_get(ncon, i, share_col));
+    int elem_col = ss_table_col_index(ncon, "element_share_pct");
+    enum { SHOWN = 5 };
+    int top[SHOWN], n_top = 0;
+    /* the SHOWN largest shares, largest first; equal shares keep the file's order */
+    for (int i = 0; i < ss_table_rows(ncon); i++) {
+        double v = ss_table_get(ncon, i, share_col);
+        int j = n_top < SHOWN ? n_top++ : SHOWN;
+        while (j > 0 && (v > ss_table_get(ncon, top[j - 1], share_col) ||
+                         isnan(ss_table_get(ncon, top[j - 1], share_col)))) {
+            if (j < SHOWN)
+                top[j] = top[j - 1];
+            j--;
+        }
+        if (j < SHOWN)
+            top[j] = i;
+    }
+    printf("  largest single sources (element total beside):\n");
+    for (int k = 0; k < n_top; k++) {
+        const char *label = ss_table_row_label(ncon, top[k]);
+        size_t elem_len = strcspn(label, " ");
+        printf("    %-28s %10.4g uV rms  %6.2f %%   %.*s %.2f %%\n", label,
+               1e6 * ss_table_get(ncon, top[k], rms_col), ss_table_get(ncon, top[k], share_col),
+               (int)elem_len, label, ss_table_get(ncon, top[k], elem_col));
+    }
 }
 
 /* run does not judge the netlist's .expect lines (check does), but a limit that cannot be
@@ -227,6 +263,9 @@ static ss_status emit_noise(run_ctx *c, ss_sink *sink, ss_error *err)
     return ss_noise_emit(c->sv, sink, &c->nsum, &c->ncon, err);
 }
 
+static int keep_noise(const run_ctx *c) { return c->a->plot; }
+
+/* noise_summary.csv, noise_contrib.csv and, with --plot, noise.svg; then the noise report. */
 static int after_noise(run_ctx *c, int ran, ss_error *err)
 {
     if (!ran)
@@ -234,6 +273,14 @@ static int after_noise(run_ctx *c, int ran, ss_error *err)
     if (write_table(c->nsum, run_path(c, "noise_summary.csv"), err) != 0 ||
         write_table(c->ncon, run_path(c, "noise_contrib.csv"), err) != 0)
         return -1;
+    if (c->a->plot) {
+        ss_error perr = {0};
+        ss_status st = ss_plot_write_noise(c->sv, c->rows, run_path(c, "noise.svg"), &perr);
+        if (plot_result(st, &perr, "noise.svg") != 0) {
+            *err = perr;
+            return -1;
+        }
+    }
     if (!c->a->quiet)
         print_noise(c->nsum, c->ncon);
     return 0;
@@ -245,7 +292,7 @@ static int after_noise(run_ctx *c, int ran, ss_error *err)
  * an entry just has its rows written. */
 typedef struct run_extra {
     const char *analysis;
-    const char *files[3]; /* NULL-terminated */
+    const char *files[4]; /* NULL-terminated */
     int (*keep_rows)(const run_ctx *c);
     ss_status (*emit)(run_ctx *c, ss_sink *sink, ss_error *err);
     int (*after)(run_ctx *c, int ran, ss_error *err); /* 0 ok, -1 with *err filled */
@@ -258,7 +305,8 @@ static const run_extra EXTRAS[] = {
     {"tran", {"wave.svg", NULL}, keep_tran, NULL, after_tran},
     {"large_signal", {"harmonics.csv", "thd_wave.svg", NULL}, keep_always, NULL,
      after_large_signal},
-    {"noise", {"noise_summary.csv", "noise_contrib.csv", NULL}, NULL, emit_noise, after_noise},
+    {"noise", {"noise_summary.csv", "noise_contrib.csv", "noise.svg", NULL}, keep_noise, emit_noise,
+     after_noise},
 };
 
 static const run_extra *extra_of(const char *analysis)

@@ -43,6 +43,11 @@ static int make_study(const cli_args *a, ss_study **out, ss_limits **lim)
         if (ss_study_set_stage(s, a->in_src, a->out_node, &err) != SS_OK)
             goto bad;
     }
+    if (a->noise_lo_hz > 0.0 &&
+        ss_study_set_noise_band(s, a->noise_lo_hz, a->noise_hi_hz, 0, &err) != SS_OK)
+        goto bad;
+    if (a->noise_weight && ss_study_set_noise_weight(s, a->noise_weight, &err) != SS_OK)
+        goto bad;
     for (int i = 0; i < a->n_varies; i++)
         if (ss_study_add_vary(s, a->varies[i], &err) != SS_OK)
             goto bad;

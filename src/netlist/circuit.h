@@ -169,12 +169,22 @@ typedef struct stage_spec {
     int line;
 } stage_spec;
 
-/* .noise v(OUT) SRC [rs=RNAME]: the output node, the input source and the resistor whose
- * thermal noise is the noise figure's reference (NULL: the one found in series with SRC, if
- * any); checked after parsing */
+/* .noise v(OUT) SRC [rs=RNAME] [band=F1..F2] [per_decade=N] [weight=a]: the output node, the
+ * input source and the resistor whose thermal noise is the noise figure's reference (NULL: the
+ * one found in series with SRC, if any); checked after parsing. band_lo_hz 0: no band of its
+ * own (the noise runs over the .ac frequencies); per_decade 0: the default (docs/noise.md);
+ * weight NOISE_WEIGHT_NONE or NOISE_WEIGHT_A. */
+enum { NOISE_WEIGHT_NONE = 0, NOISE_WEIGHT_A = 1 };
+#define NOISE_BAND_MAX_RATIO 1e15 /* a band spans at most 15 decades */
+#define NOISE_MAX_PER_DECADE 10000
+#define NOISE_DEFAULT_PER_DECADE 100
+#define NOISE_BAND_MAX_POINTS 1000000
 typedef struct noise_spec {
     int want;
     const char *out, *src, *rs;
+    double band_lo_hz, band_hi_hz;
+    int per_decade;
+    int weight;
     const char *file;
     int line;
 } noise_spec;

@@ -159,15 +159,69 @@ static int set_large_signal(parser *ps, const logline *ll, void *vctx, const cha
     return 0;
 }
 
+/* F1..F2: two positive frequencies, F1 < F2, with the SI suffixes of values (0 or -1 with the
+ * error set) */
+static int noise_band_value(parser *ps, const logline *ll, const char *text, double *lo,
+                            double *hi)
+{
+    const char *dots = strstr(text, "..");
+    char first[256];
+    size_t n = dots ? (size_t)(dots - text) : 0;
+    if (!dots || n == 0 || n >= sizeof first || !dots[2])
+        return line_error(ps, ll, ".noise: band= needs F1..F2 (two frequencies in Hz), got '%s'",
+                          text),
+               -1;
+    memcpy(first, text, n);
+    first[n] = '\0';
+    if (value_parse(first, lo) != 0 || value_parse(dots + 2, hi) != 0)
+        return line_error(ps, ll, ".noise: band= needs F1..F2 (two frequencies in Hz), got '%s'",
+                          text),
+               -1;
+    if (!(*lo > 0.0 && *hi > *lo && isfinite(*hi)))
+        return line_error(ps, ll, ".noise: band=%s needs 0 < F1 < F2", text), -1;
+    if (*hi / *lo > NOISE_BAND_MAX_RATIO)
+        return line_error(ps, ll, ".noise: band=%s spans more than %g decades", text,
+                          log10(NOISE_BAND_MAX_RATIO)),
+               -1;
+    return 0;
+}
+
 static int set_noise(parser *ps, const logline *ll, void *vctx, const char *name,
                      const char *text)
 {
     (void)vctx;
-    if (strcmp(name, "rs") != 0)
-        return line_error(ps, ll, ".noise: unknown field '%s' (known: rs)", name), -1;
-    if (ps->ckt->noise.rs)
-        return line_error(ps, ll, ".noise: 'rs' given twice"), -1;
-    ps->ckt->noise.rs = text;
+    noise_spec *ns = &ps->ckt->noise;
+    int given = strcmp(name, "rs") == 0           ? ns->rs != NULL
+                : strcmp(name, "band") == 0       ? ns->band_lo_hz > 0.0
+                : strcmp(name, "per_decade") == 0 ? ns->per_decade > 0
+                : strcmp(name, "weight") == 0     ? ns->weight != NOISE_WEIGHT_NONE
+                                                  : -1;
+    if (given < 0)
+        return line_error(ps, ll,
+                          ".noise: unknown field '%s' (known: rs, band, per_decade, weight)",
+                          name),
+               -1;
+    if (given)
+        return line_error(ps, ll, ".noise: '%s' given twice", name), -1;
+    if (strcmp(name, "rs") == 0) {
+        ns->rs = text;
+    } else if (strcmp(name, "band") == 0) {
+        return noise_band_value(ps, ll, text, &ns->band_lo_hz, &ns->band_hi_hz);
+    } else if (strcmp(name, "per_decade") == 0) {
+        double v;
+        if (value_parse(text, &v) != 0 || !(v >= 2.0 && v <= NOISE_MAX_PER_DECADE) ||
+            v != floor(v))
+            return line_error(ps, ll,
+                              ".noise: per_decade needs a whole number from 2 to %d, got '%s'",
+                              NOISE_MAX_PER_DECADE, text),
+                   -1;
+        ns->per_decade = (int)v;
+    } else {
+        if (strcmp(text, "a") != 0)
+            return line_error(ps, ll, ".noise: weight needs 'a' (A-weighting), got '%s'", text),
+                   -1;
+        ns->weight = NOISE_WEIGHT_A;
+    }
     return 0;
 }
 
@@ -349,12 +403,14 @@ static ss_status dir_large_signal(parser *ps, const logline *ll)
     return parse_assignments(ps, ll, 1, set_large_signal, NULL) == 0 ? SS_OK : ps->err->code;
 }
 
-/* .noise v(OUT) SRC [rs=RNAME]: names checked after parsing (check_noise) */
+/* .noise v(OUT) SRC [rs=RNAME] [band=F1..F2] [per_decade=N] [weight=a]: names checked after
+ * parsing (check_noise) */
 static ss_status dir_noise(parser *ps, const logline *ll)
 {
     ss_circuit *ckt = ps->ckt;
     if (ll->n_tok < 3)
-        return line_error(ps, ll, ".noise expects v(OUT) SRC [rs=RESISTOR]");
+        return line_error(ps, ll, ".noise expects v(OUT) SRC [rs=RESISTOR] [band=F1..F2] "
+                                  "[per_decade=N] [weight=a]");
     const char *o = ll->tok[1];
     size_t len = strlen(o);
     if (len < 4 || strncmp(o, "v(", 2) != 0 || o[len - 1] != ')')
@@ -377,6 +433,9 @@ static ss_status dir_noise(parser *ps, const logline *ll)
     ckt->noise.out = node;
     ckt->noise.src = ll->tok[2];
     ckt->noise.rs = NULL;
+    ckt->noise.band_lo_hz = ckt->noise.band_hi_hz = 0.0;
+    ckt->noise.per_decade = 0;
+    ckt->noise.weight = NOISE_WEIGHT_NONE;
     ckt->noise.file = ll->file;
     ckt->noise.line = ll->line;
     ckt->noise.want = 1;

@@ -33,6 +33,9 @@ double figures_value(const ss_table *figs, int row_hint, const char *label)
  * tests check these names against the tables the analyses produce. */
 static const char *const NOISE_FIGURES[] = {"out_noise_rms_v", "in_noise_rms_v",
                                             "noise_figure_db"};
+/* only with a band of its own (.noise band=, --noise-band), only with a weighting */
+static const char *const NOISE_BAND_FIGURES[] = {"out_noise_band_rms_v", "in_noise_band_rms_v"};
+static const char *const NOISE_A_FIGURES[] = {"out_noise_a_rms_v", "in_noise_a_rms_v"};
 static const char *const STAGE_FIGURES[] = {"gain_mid_db", "f_mid_hz",     "f_low_hz",
                                             "f_high_hz",   "bandwidth_hz", "zin_mid_ohm",
                                             "zout_mid_ohm"};
@@ -98,9 +101,14 @@ void figures_names(const ss_solver *sv, const ss_limits *limits, dev_report_fn f
     if (sv->ckt->ac.want && sv->stage.in)
         for (size_t k = 0; k < N_OF(STAGE_FIGURES); k++)
             fn(sink, STAGE_FIGURES[k], NULL, SS_NAN);
-    if (sv->noise.want && sv->ckt->ac.want)
+    if (noise_runs(sv)) {
         for (size_t k = 0; k < N_OF(NOISE_FIGURES); k++)
             fn(sink, NOISE_FIGURES[k], NULL, SS_NAN);
+        for (size_t k = 0; noise_has_band(sv) && k < N_OF(NOISE_BAND_FIGURES); k++)
+            fn(sink, NOISE_BAND_FIGURES[k], NULL, SS_NAN);
+        for (size_t k = 0; sv->noise.weight == NOISE_WEIGHT_A && k < N_OF(NOISE_A_FIGURES); k++)
+            fn(sink, NOISE_A_FIGURES[k], NULL, SS_NAN);
+    }
     if (limits_want_large_signal(limits) && sv->stage.in) {
         size_t n;
         const char *const *names = large_signal_names(sv, &n);
@@ -146,7 +154,12 @@ static const char *missing_because(const ss_solver *sv, const char *q)
                                                     "and a stage (.stage or --in/--out)")
                                : "a stage summary metric needs a stage (.stage or --in/--out)";
     if (in_list(q, NOISE_FIGURES, N_OF(NOISE_FIGURES)))
-        return "a noise figure needs .noise and an .ac sweep";
+        return "a noise figure needs .noise and an .ac sweep or a noise band (band=F1..F2)";
+    if (in_list(q, NOISE_BAND_FIGURES, N_OF(NOISE_BAND_FIGURES)))
+        return "a band noise figure needs .noise with a band of its own (.noise ... "
+               "band=F1..F2, or --noise-band F1..F2)";
+    if (in_list(q, NOISE_A_FIGURES, N_OF(NOISE_A_FIGURES)))
+        return "an A-weighted noise figure needs .noise with weight=a (or --noise-weight a)";
     if (in_list(q, LS_FIGURES_V, N_OF(LS_FIGURES_V)) ||
         in_list(q, LS_FIGURES_I, N_OF(LS_FIGURES_I)))
         return !sv->stage.in ? "a large-signal figure needs a stage (.stage or --in/--out)"
@@ -205,7 +218,7 @@ ss_status ss_figures_compute(ss_solver *sv, const ss_limits *limits, ss_table **
         ss_table_destroy(&stage);
         ss_table_destroy(&summary);
     }
-    if (!bad && sv->noise.want && sv->ckt->ac.want) {
+    if (!bad && noise_runs(sv)) {
         ss_table *nsum = NULL;
         st = ss_noise_run(sv, NULL, &nsum, NULL, err);
         if (st != SS_OK) {
@@ -215,6 +228,13 @@ ss_status ss_figures_compute(ss_solver *sv, const ss_limits *limits, ss_table **
         for (size_t k = 0; !bad && k < N_OF(NOISE_FIGURES); k++)
             bad |= add_row(t, NOISE_FIGURES[k],
                            ss_table_lookup(nsum, NOISE_FIGURES[k], value_col(nsum))) != 0;
+        for (size_t k = 0; !bad && noise_has_band(sv) && k < N_OF(NOISE_BAND_FIGURES); k++)
+            bad |= add_row(t, NOISE_BAND_FIGURES[k],
+                           ss_table_lookup(nsum, NOISE_BAND_FIGURES[k], value_col(nsum))) != 0;
+        for (size_t k = 0; !bad && sv->noise.weight == NOISE_WEIGHT_A && k < N_OF(NOISE_A_FIGURES);
+             k++)
+            bad |= add_row(t, NOISE_A_FIGURES[k],
+                           ss_table_lookup(nsum, NOISE_A_FIGURES[k], value_col(nsum))) != 0;
         ss_table_destroy(&nsum);
     }
     int want_ls = limits_want_large_signal(limits);

@@ -190,6 +190,46 @@ ss_status ss_study_set_stage(ss_study *s, const char *in_source, const char *out
                                        : err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
 }
 
+/* The noise band and weighting: checked on the nominal context, kept for the others. A study
+ * cannot name a noise analysis of its own: without .noise they would be dropped. */
+static ss_status study_needs_noise(const ss_study *s, const char *what, ss_error *err)
+{
+    return s->nominal_sv->noise.want
+               ? SS_OK
+               : err_set(err, SS_ERR_INPUT, s->nominal->file, 0,
+                         "noise %s: the netlist has no noise analysis (add `.noise v(OUT) SRC`)",
+                         what);
+}
+
+ss_status ss_study_set_noise_band(ss_study *s, double lo_hz, double hi_hz, int per_decade,
+                                  ss_error *err)
+{
+    ss_status st = study_needs_noise(s, "band", err);
+    if (st != SS_OK)
+        return st;
+    st = ss_solver_set_noise_band(s->nominal_sv, lo_hz, hi_hz, per_decade, err);
+    if (st != SS_OK)
+        return st;
+    s->noise_band_set = 1;
+    s->noise_lo_hz = lo_hz;
+    s->noise_hi_hz = hi_hz;
+    s->noise_per_decade = per_decade;
+    return SS_OK;
+}
+
+ss_status ss_study_set_noise_weight(ss_study *s, const char *weight, ss_error *err)
+{
+    ss_status st = study_needs_noise(s, "weighting", err);
+    if (st != SS_OK)
+        return st;
+    st = ss_solver_set_noise_weight(s->nominal_sv, weight, err);
+    if (st != SS_OK)
+        return st;
+    s->noise_weight = arena_strdup(&s->arena, weight);
+    s->noise_weight_set = s->noise_weight != NULL;
+    return s->noise_weight ? SS_OK : err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+}
+
 /* Checks NAME against the nominal circuit; temp is always known. */
 static ss_status check_name(ss_study *s, const char *name, double *nominal, ss_error *err)
 {
@@ -620,6 +660,11 @@ ss_status study_context(const ss_study *s, ss_solver **out, ss_error *err)
     ss_status st = ss_solver_create(s->nominal, &sv, err);
     if (st == SS_OK && s->stage_in)
         st = ss_solver_set_stage(sv, s->stage_in, s->stage_out, err);
+    if (st == SS_OK && s->noise_band_set)
+        st = ss_solver_set_noise_band(sv, s->noise_lo_hz, s->noise_hi_hz, s->noise_per_decade,
+                                      err);
+    if (st == SS_OK && s->noise_weight_set)
+        st = ss_solver_set_noise_weight(sv, s->noise_weight, err);
     if (st != SS_OK) {
         ss_solver_destroy(&sv);
         return st;
@@ -792,6 +837,11 @@ ss_status study_identity(const ss_study *s, ss_strbuf *text, long *first, long *
         strbuf_printf(text, "set %s=%s\n", s->sets[i].name, s->sets[i].value);
     if (s->stage_in)
         strbuf_printf(text, "stage %s %s\n", s->stage_in, s->stage_out);
+    if (s->noise_band_set)
+        strbuf_printf(text, "noise_band %.17g %.17g %d\n", s->noise_lo_hz, s->noise_hi_hz,
+                      s->noise_per_decade);
+    if (s->noise_weight_set)
+        strbuf_printf(text, "noise_weight %s\n", s->noise_weight);
     for (int d = 0; d < s->n_dims; d++) {
         strbuf_printf(text, "vary %s", s->dims[d].name);
         for (int k = 0; k < s->dims[d].n; k++)

@@ -47,6 +47,12 @@ struct ss_study {
     ss_override *sets;
     int n_sets;
     const char *stage_in, *stage_out;
+    /* the noise band and weighting given to the study (ss_study_set_noise_band/_weight):
+     * noise_set 0 when not, else applied to every context */
+    int noise_band_set, noise_weight_set;
+    double noise_lo_hz, noise_hi_hz;
+    int noise_per_decade;
+    const char *noise_weight;
     vary_dim dims[STUDY_MAX_DIMS];
     int n_dims;
     tol_spec *tols;

@@ -459,7 +459,7 @@ VALUES = {"DIR": "out/probe", "NAME=VALUE": "r1=1k", "SRC": "vsens", "NODE": "ou
           "OHMS": "1k", "A,B,...": "out", "HZ": "1k", "AMP": "0.1", "PCT": "1",
           "FILE": "out/probe.txt", "F": "0.5", "N": "2", "S": "1", "K/N": "1/2",
           "LO,HI": "-40,85", "E12\\|E24\\|E96": "E12",
-          "E6\\|E12\\|E24\\|E48\\|E96\\|E192": "E12"}
+          "E6\\|E12\\|E24\\|E48\\|E96\\|E192": "E12", "F1..F2": "1..1k", "a\\|none": "a"}
 SPEC = {"--vary": "r1=list:1k", "--tol": "r1=5%", "--supply-tol": "vcc=10%",
         "--beta-range": "0.5x,2x"}
 

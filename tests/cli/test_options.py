@@ -42,6 +42,7 @@ d1 mid 0 dx
 .model dx d is=1e-14
 .ac dec 5 10 1meg
 .stage in=v1 out=mid
+.noise v(mid) v1
 .expect v(mid) >= -1
 .tolerance r2 5%
 """
@@ -185,6 +186,25 @@ case("--temps 25,25 (LO equal to HI)", 2, TEMPS + ", got '25,25'", SENS + ["25,2
 case("--temps with one value", 2, TEMPS + ", got '25'", SENS + ["25"], usage=True)
 case("--temps with three values", 2, TEMPS + ": '2,3' is not a number " + NUMBER,
      SENS + ["1,2,3"], usage=True)
+NBAND = "stagesim: --noise-band needs F1..F2, two frequencies in Hz with 0 < F1 < F2"
+case("--noise-band 1k..1 (F1 above F2)", 2, NBAND + ", got '1k..1'", run_s("--noise-band", "1k..1"),
+     usage=True)
+case("--noise-band 0..1k", 2, NBAND + ", got '0..1k'", run_s("--noise-band", "0..1k"), usage=True)
+case("--noise-band with one value", 2, NBAND + ", got '1k'", run_s("--noise-band", "1k"),
+     usage=True)
+case("--noise-band 1..x", 2, NBAND + ": 'x' is not a number " + NUMBER,
+     run_s("--noise-band", "1..x"), usage=True)
+case("--noise-band over 15 decades", 2,
+     "stagesim: --noise-band: noise band 0.001 .. 1e+15 Hz spans more than 15 decades",
+     run_s("--noise-band", "1m..1000t"))
+case("--noise-weight c", 2, "stagesim: --noise-weight needs a (A-weighting) or none, got 'c'",
+     run_s("--noise-weight", "c"), usage=True)
+case("--noise-band without .noise (run)", 2,
+     "stagesim: --noise-band: the netlist has no noise analysis (add `.noise v(OUT) SRC`)",
+     ["run", "{T}/n.cir", "-o", "{T}/out", "--noise-band", "1..1k"])
+case("--noise-weight without .noise (sweep)", 2,
+     TMP + "/n.cir: noise weighting: the netlist has no noise analysis (add `.noise v(OUT) SRC`)",
+     ["sweep", "{T}/n.cir", "-o", "{T}/out", "--vary", "rtop=list:1k,2k", "--noise-weight", "a"])
 LOAD = "stagesim: --load needs a resistance in ohms above 0"
 case("--load inf", 2, LOAD + ": 'inf' is not a number " + NUMBER, run_s("--load", "inf"),
      usage=True)
@@ -472,7 +492,8 @@ SAMPLE = {"-o": ["{T}/o2"], "--out-dir": ["{T}/o3"], "--set": ["r2=12k"],
           "--min-yield": ["0.5"], "--vary": ["r1=list:5k,10k"], "--tol": ["r1=5%"],
           "--trials": ["4"], "--seed": ["7"], "--threads": ["2"], "--shard": ["1/2"],
           "--temps": ["-20,70"], "--series": ["E24"], "--beta-range": ["0.5x,2x"],
-          "--supply-tol": ["vsup=10%"], "--max-candidates": ["50"]}
+          "--supply-tol": ["vsup=10%"], "--max-candidates": ["50"], "--noise-band": ["1..1k"],
+          "--noise-weight": ["a"]}
 BASE = {"run": ["run", "{T}/s.cir", "-o", "{T}/out"],
         "check": ["check", "{T}/s.cir"],
         "sweep": ["sweep", "{T}/s.cir", "-o", "{T}/out", "--vary", "rtop=list:1k,2k"],

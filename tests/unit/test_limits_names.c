@@ -177,7 +177,7 @@ static void test_check_names_refuses_what_does_not_exist(void **state)
                       "needs a stage (.stage or --in/--out))");
     expect_name_error(STAGE_NET, "noise_figure_db <= 3\n",
                       "t.limits:1: limit on 'noise_figure_db': no such figure (a noise figure "
-                      "needs .noise and an .ac sweep)");
+                      "needs .noise and an .ac sweep or a noise band (band=F1..F2))");
     expect_name_error(STAGE_NET, "gain_db @ 1k >= 1\n",
                       "t.limits:1: limit on gain_db@1000 needs a stage: add `.stage in=SOURCE "
                       "out=NODE`");
