@@ -8,8 +8,10 @@
  *           the analysis table, sanity warnings
  *   stage.h stage figures and the large-signal test
  *   study.h limits, checks, sweeps, tolerance runs, sensitivities, preferred values, shards
- *   plot.h  plots, the report, output sets */
+ *   plot.h  plots, the report, output sets
+ *   draft.h a first design of a stage from its kind and requirements (docs/design.md) */
 #include "stagesim/core.h"
+#include "stagesim/draft.h"
 #include "stagesim/plot.h"
 #include "stagesim/stage.h"
 #include "stagesim/study.h"
