@@ -77,10 +77,11 @@ SS_API ss_status ss_draft_write(const ss_draft *d, const char *path, ss_error *e
 SS_API int ss_draft_warning_count(const ss_draft *d);
 SS_API const char *ss_draft_warning(const ss_draft *d, int k);
 /* The parts chosen (resistors and capacitors, in netlist order): name, value (ohm or F, on
- * the series) and what it is for. 0 when k is in range, -1 otherwise. */
+ * the series), the value as the netlist writes it (4.7k) and what it is for; any output may
+ * be NULL. 0 when k is in range, -1 otherwise. */
 SS_API int ss_draft_part_count(const ss_draft *d);
 SS_API int ss_draft_part(const ss_draft *d, int k, const char **name, double *value,
-                         const char **what);
+                         const char **written, const char **what);
 
 #ifdef __cplusplus
 }

@@ -106,10 +106,9 @@ int cmd_draft(const cli_args *a)
     if (rc == EXIT_OK && !a->quiet) {
         printf("draft %s: %s/draft.cir\n\n", ss_draft_kind_name(kind), a->out_dir);
         for (int k = 0; k < ss_draft_part_count(d); k++) {
-            const char *name, *what;
-            double v;
-            ss_draft_part(d, k, &name, &v, &what);
-            printf("  %-5s %12.4g  %s\n", name, v, what);
+            const char *name, *text, *what;
+            ss_draft_part(d, k, &name, NULL, &text, &what);
+            printf("  %-5s %-8s %s\n", name, text, what);
         }
         printf("\n%d warning%s; judge it with: stagesim check %s/draft.cir\n",
                ss_draft_warning_count(d), ss_draft_warning_count(d) == 1 ? "" : "s", a->out_dir);

@@ -90,14 +90,27 @@ static double load_eff(const draft_ctx *c)
     return isnan(c->rq.load_ohm) ? BLEED_OHM : c->rq.load_ohm;
 }
 
+/* A value as given, in the netlist's SI form when that form is exact, else in full
+ * (a fresh buffer per use in one statement). */
+#define exact_value(v) exact_text((char[40]){0}, 40, (v))
+static const char *exact_text(char *buf, size_t len, double v)
+{
+    draft_fmt_value(buf, len, v);
+    double back = NAN;
+    ss_error e = {0};
+    if (ss_value_parse(buf, &back, &e) != SS_OK || back != v)
+        snprintf(buf, len, "%.10g", v);
+    return buf;
+}
+
 /* The supply, the source (its EMF Vsrc, AC 1, and its resistance) and the input node "in". */
 static void supply_and_source(draft_ctx *c)
 {
-    draft_line(c, "VCC    vcc   0     DC %.10g  ; supply", c->rq.supply_v);
+    draft_line(c, "VCC    vcc   0     DC %-5s ; supply", exact_value(c->rq.supply_v));
     if (c->rq.source_ohm > 0.0) {
         draft_line(c, "Vsrc   src   0     DC 0 AC 1 ; the source's EMF (the stage source)");
-        draft_line(c, "RSRC   src   in    %-8.10g ; the source's own resistance (as given)",
-                   c->rq.source_ohm);
+        draft_line(c, "RSRC   src   in    %-8s ; the source's own resistance (as given)",
+                   exact_value(c->rq.source_ohm));
     } else {
         draft_line(c, "Vsrc   in    0     DC 0 AC 1 ; the source's EMF (the stage source)");
     }
@@ -109,7 +122,8 @@ static void output_load(draft_ctx *c)
     if (isnan(c->rq.load_ohm))
         draft_line(c, "RBL    out   0     1meg     ; no load given: holds the output at 0 V DC");
     else
-        draft_line(c, "RL     out   0     %-8.10g ; the load (as given)", c->rq.load_ohm);
+        draft_line(c, "RL     out   0     %-8s ; the load (as given)",
+                   exact_value(c->rq.load_ohm));
 }
 
 /* Quiescent current for a peak swing vpk into rl, when the current's resistor drops vr at
@@ -328,7 +342,7 @@ static ss_status draft_follower(draft_ctx *c, ss_error *err)
              boot ? " (bootstrapped)" : "", vcc, ENG(ie, "A"));
     char lf[48] = "";
     if (!isnan(r->load_ohm))
-        snprintf(lf, sizeof lf, " load=%.10g", r->load_ohm);
+        snprintf(lf, sizeof lf, " load=%s", exact_value(r->load_ohm));
     return draft_assemble(c, title, NPN_CARD, r->f_low_hz / 100.0, r->f_high_hz * 10.0, lf,
                           NPN_RATING, err);
 }
@@ -473,7 +487,7 @@ static ss_status draft_ce(draft_ctx *c, int split, ss_error *err)
              split ? "split emitter" : "bypassed emitter", vcc, ENG(ie, "A"));
     char lf[48] = "";
     if (!isnan(r->load_ohm))
-        snprintf(lf, sizeof lf, " load=%.10g", r->load_ohm);
+        snprintf(lf, sizeof lf, " load=%s", exact_value(r->load_ohm));
     return draft_assemble(c, title, NPN_CARD, r->f_low_hz / 100.0, r->f_high_hz * 10.0, lf,
                           NPN_RATING, err);
 }
@@ -611,7 +625,7 @@ static ss_status draft_ce_follower(draft_ctx *c, ss_error *err)
              vcc, ENG(ie1, "A"), ENG(ie2, "A"));
     char lf[48] = "";
     if (!isnan(r->load_ohm))
-        snprintf(lf, sizeof lf, " load=%.10g", r->load_ohm);
+        snprintf(lf, sizeof lf, " load=%s", exact_value(r->load_ohm));
     return draft_assemble(c, title, NPN_CARD, r->f_low_hz / 100.0, r->f_high_hz * 10.0, lf,
                           NPN2_RATING, err);
 }
@@ -753,7 +767,7 @@ static ss_status draft_jfet(draft_ctx *c, ss_error *err)
              ENG(id, "A"));
     char lf[48] = "";
     if (!isnan(r->load_ohm))
-        snprintf(lf, sizeof lf, " load=%.10g", r->load_ohm);
+        snprintf(lf, sizeof lf, " load=%s", exact_value(r->load_ohm));
     return draft_assemble(c, title, NJF_CARD, r->f_low_hz / 100.0, r->f_high_hz * 10.0, lf,
                           NJF_RATING, err);
 }
@@ -954,7 +968,8 @@ int ss_draft_part_count(const ss_draft *d)
     return d ? d->n_parts : 0;
 }
 
-int ss_draft_part(const ss_draft *d, int k, const char **name, double *value, const char **what)
+int ss_draft_part(const ss_draft *d, int k, const char **name, double *value,
+                  const char **written, const char **what)
 {
     if (!d || k < 0 || k >= d->n_parts)
         return -1;
@@ -962,6 +977,8 @@ int ss_draft_part(const ss_draft *d, int k, const char **name, double *value, co
         *name = d->parts[k].name;
     if (value)
         *value = d->parts[k].value;
+    if (written)
+        *written = d->parts[k].text;
     if (what)
         *what = d->parts[k].what;
     return 0;

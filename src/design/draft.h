@@ -11,6 +11,7 @@ enum { DRAFT_MAX_PARTS = 32, DRAFT_MAX_WARNINGS = 24 };
 typedef struct draft_part {
     char name[16];
     double value;
+    char text[32]; /* as the netlist writes it */
     char what[96];
 } draft_part;
 

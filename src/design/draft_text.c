@@ -107,6 +107,7 @@ void draft_elem(draft_ctx *c, const char *name, const char *n1, const char *n2, 
         draft_part *p = &c->d->parts[c->d->n_parts++];
         snprintf(p->name, sizeof p->name, "%s", name);
         p->value = value;
+        snprintf(p->text, sizeof p->text, "%s", v);
         snprintf(p->what, sizeof p->what, "%s", what);
     }
 }
@@ -158,12 +159,15 @@ ss_status draft_assemble(draft_ctx *c, const char *title, const char *card, doub
     req_line(&t, "supply", r->supply_v, "V", "");
     req_line(&t, "current", r->current_a, "A", "(not given: chosen below)");
     req_line(&t, "swing", r->swing_v, "V", "(not given)");
-    req_line(&t, "gain", r->gain, "", "(not given)");
+    if (isnan(r->gain))
+        strbuf_printf(&t, "*   %-11s (not given)\n", "gain");
+    else
+        strbuf_printf(&t, "*   %-11s %.6g V/V (%.2f dB)\n", "gain", r->gain, 20.0 * log10(r->gain));
     req_line(&t, "zin", r->zin_ohm, "ohm", "(not given)");
     req_line(&t, "load", r->load_ohm, "ohm", "(none)");
     req_line(&t, "source", r->source_ohm, "ohm", "");
-    req_line(&t, "band", r->f_low_hz, "Hz", "");
-    strbuf_printf(&t, "*   %-11s %s\n", "", fmt_eng(hi, sizeof hi, r->f_high_hz, "Hz"));
+    strbuf_printf(&t, "*   %-11s %s .. %s\n", "band", fmt_eng(lo, sizeof lo, r->f_low_hz, "Hz"),
+                  fmt_eng(hi, sizeof hi, r->f_high_hz, "Hz"));
     strbuf_printf(&t, "*   %-11s resistors E%d, capacitors E%d (IEC 60063)\n", "series",
                   r->series, r->cap_series);
     strbuf_printf(&t, "*\n* Reasoning, step by step (each rule is common practice, "
