@@ -78,6 +78,13 @@ static double pole_cap(double r, double f)
     return 1.0 / (2.0 * SS_PI * f * r);
 }
 
+/* v to 3 significant digits */
+static double round_sig3(double v)
+{
+    double mag = pow(10.0, floor(log10(v)) - 2.0);
+    return round(v / mag) * mag;
+}
+
 static double db(double g)
 {
     return 20.0 * log10(g);
@@ -224,6 +231,21 @@ static void fhigh_check(draft_ctx *c, double f_est)
                    ENG(f_est, "Hz"), ENG(c->rq.f_high_hz, "Hz"));
 }
 
+/* The band's geometric centre as a netlist number: where the mid-band impedances are judged
+ * (a low-frequency bump of a few hundredths of a dB must not move them to a corner). */
+static const char *band_centre(char *buf, size_t len, const ss_draft_req *r)
+{
+    return draft_fmt_value(buf, len, round_sig3(sqrt(r->f_low_hz * r->f_high_hz)));
+}
+
+/* The output impedance at mid-band, RL included, a tenth of the load (the 10:1 rule). */
+static void zout_limit(draft_ctx *c)
+{
+    char f[32];
+    draft_expect(c, "zout_ohm @ %s <= %.4g   ; mid-band: a tenth of the load (10:1), RL included",
+                 band_centre(f, sizeof f, &c->rq), c->rq.load_ohm / IMP_RATIO);
+}
+
 /* The limits every kind writes: the gain window, zin, the band edges. g_lo_db: the gain's
  * lower bound (dB); g_hi_db NaN for none. */
 static void band_limits(draft_ctx *c, double g_lo_db, double g_hi_db)
@@ -234,8 +256,9 @@ static void band_limits(draft_ctx *c, double g_lo_db, double g_hi_db)
     else
         draft_expect(c, "gain_mid_db %.2f .. %.2f", g_lo_db, g_hi_db);
     if (!isnan(c->rq.zin_ohm))
-        draft_expect(c, "zin_mid_ohm >= %.6g   ; the zin asked plus the source's %.6g in series",
-                     c->rq.zin_ohm + c->rq.source_ohm, c->rq.source_ohm);
+        draft_expect(c, "zin_ohm @ %s >= %.6g   ; mid-band: the zin asked plus the source's %.6g",
+                     band_centre(f, sizeof f, &c->rq), c->rq.zin_ohm + c->rq.source_ohm,
+                     c->rq.source_ohm);
     draft_expect(c, "f_low_hz <= %s", draft_fmt_value(f, sizeof f, c->rq.f_low_hz));
     draft_expect(c, "gain_db @ %s >= %.2f   ; the band's top edge within 3 dB",
                  draft_fmt_value(f, sizeof f, c->rq.f_high_hz), g_lo_db - 3.0);
@@ -309,11 +332,17 @@ static ss_status draft_follower(draft_ctx *c, ss_error *err)
         draft_warn(c, "gain: the estimate %.3f is below the %.3f asked", gain, r->gain);
     swing_check(c, fmin(ie * rle, vcc - ie * re_r - VSAT_MARGIN_V),
                 "Ie * (RE || RL) down, the collector-emitter headroom up");
-    double c1 = draft_snap_c_up(c, pole_cap(rs + zin, r->f_low_hz / COUPLE_DIV));
+    /* a bootstrap fades at low frequency: C1 is sized for the input without it, else C1 and
+     * the bootstrap peak the response near f-low */
+    double c1 = draft_snap_c_up(c, pole_cap(rs + zin_plain, r->f_low_hz / COUPLE_DIV));
     double c2 = draft_snap_c_up(c, pole_cap(zo + rl, r->f_low_hz / COUPLE_DIV));
     draft_step(c, "Coupling capacitors: each one's pole a decade below f-low (reactance at "
                   "f-low a tenth of the resistance it works into):");
-    draft_why(c, "C1 with Rs + Zin -> %s; C2 with Zout + RL -> %s.", VAL(c1), VAL(c2));
+    draft_why(c, "C1 with Rs + Zin%s -> %s; C2 with Zout + RL -> %s.",
+              boot ? " without the bootstrap (which fades at low frequency: sized with the "
+                     "bootstrapped Zin, C1 and CB peak the response)"
+                   : "",
+              VAL(c1), VAL(c2));
     big_cap_check(c, "C2", c2);
     fhigh_check(c, 1.0 / (2.0 * SS_PI * fmax(par(rs, zin), 30.0) * NPN_CMU_F));
 
@@ -335,8 +364,7 @@ static ss_status draft_follower(draft_ctx *c, ss_error *err)
     double lo = isnan(r->gain) ? db(gain) - 1.0 : db(r->gain);
     band_limits(c, lo, SS_NAN);
     if (!isnan(r->load_ohm))
-        draft_expect(c, "zout_mid_ohm <= %.4g   ; a tenth of the load (10:1), RL included",
-                     r->load_ohm / IMP_RATIO);
+        zout_limit(c);
     char title[160];
     snprintf(title, sizeof title, "Draft: emitter follower%s, %.4g V, Ic %s",
              boot ? " (bootstrapped)" : "", vcc, ENG(ie, "A"));
@@ -618,8 +646,7 @@ static ss_status draft_ce_follower(draft_ctx *c, ss_error *err)
     draft_expect(c, "vce(q2) >= %.3g", isnan(r->swing_v) ? 1.0 : r->swing_v + VSAT_MARGIN_V);
     band_limits(c, db(r->gain) - 1.0, db(r->gain) + 1.0);
     if (!isnan(r->load_ohm))
-        draft_expect(c, "zout_mid_ohm <= %.4g   ; a tenth of the load (10:1), RL included",
-                     r->load_ohm / IMP_RATIO);
+        zout_limit(c);
     char title[160];
     snprintf(title, sizeof title, "Draft: common emitter + emitter follower, %.4g V, Ic %s + %s",
              vcc, ENG(ie1, "A"), ENG(ie2, "A"));
@@ -638,6 +665,14 @@ static double jfet_self_bias_id(double rs)
     double k = NJF_BETA * rs, vp = -NJF_VTO_V;
     double u = (-1.0 + sqrt(1.0 + 4.0 * k * vp)) / (2.0 * k); /* Vgs - VTO */
     return NJF_BETA * u * u;
+}
+
+/* gm (RD || RL) at a drain current id, RD for the drain at half the remaining headroom: the
+ * most gain the self-biased stage gives with its source fully bypassed. */
+static double jfet_most_gain(double id, double vcc, double rl)
+{
+    double u = sqrt(id / NJF_BETA), vs = -(NJF_VTO_V + u);
+    return 2.0 * NJF_BETA * u * par((vcc - vs) / (2.0 * id), rl);
 }
 
 static ss_status draft_jfet(draft_ctx *c, ss_error *err)
@@ -659,12 +694,12 @@ static ss_status draft_jfet(draft_ctx *c, ss_error *err)
         draft_step(c, "Id = IDSS/4 = %s (Vgs = VTO/2: gm half its peak, room either side).",
                    ENG(id, "A"));
         if (!isnan(r->gain)) {
-            /* gm (RD || RL) at most falls as 1/sqrt(Id): lower Id until the gain asked is
-             * two thirds of the most the stage gives, or Id is IDSS/400 */
+            /* unloaded, gm * RD grows as 1/sqrt(Id): lower Id until the gain asked is two
+             * thirds of the most the stage gives, while lowering it still helps (a heavy load
+             * caps RD || RL), and not below IDSS/400 */
             for (int k = 0; k < 40 && id > idss / 400.0; k++) {
-                double u = sqrt(id / NJF_BETA), vs = -(NJF_VTO_V + u);
-                double gmax = 2.0 * NJF_BETA * u * par((vcc - vs) / (2.0 * id), rl);
-                if (gmax * frac >= 1.5 * r->gain)
+                double gmax = jfet_most_gain(id, vcc, rl) * frac;
+                if (gmax >= 1.5 * r->gain || jfet_most_gain(0.8 * id, vcc, rl) * frac <= gmax)
                     break;
                 id *= 0.8;
             }
@@ -689,25 +724,29 @@ static ss_status draft_jfet(draft_ctx *c, ss_error *err)
                VAL(rs_tot), ENG(id, "A"), ENG(vs, "V"), ENG(rd_raw, "ohm"), VAL(rd),
                ENG(gm, "S"));
     double vds = vcc - id * rd - vs;
-    if (vds < u + VSAT_MARGIN_V)
-        draft_warn(c, "the JFET is near its linear region (Vds %s, Vgs - VTO %s): a higher "
-                      "supply or a smaller RD keeps it saturated",
-                   ENG(vds, "V"), ENG(u, "V"));
-    power_check(c, "J1", vds, id);
     double rs1 = 0.0, rs2 = rs_tot;
     if (!isnan(r->gain)) {
-        double raw = rload / (r->gain / frac) - 1.0 / gm;
-        draft_step(c, "Gain = RG/(RG+Rs) * (RD||RL) / (1/gm + RS1): RS1 (unbypassed) = %s.",
-                   ENG(raw, "ohm"));
+        double g_stage = r->gain / frac;
+        double raw = rload / g_stage - 1.0 / gm - NJF_RS_OHM;
+        draft_step(c, "Gain = RG/(RG+Rs) * (RD||RL) / (1/gm + RS1 + the card's RS): RS1 "
+                      "(unbypassed) = %s.", ENG(raw, "ohm"));
         if (raw <= 1.0) {
             draft_warn(c, "gain: %.4g (%.1f dB) is more than this stage gives at %s and %s: "
                           "gm * (RD || RL) = %.4g with the source fully bypassed; a lower Id, "
                           "more supply or a lighter load gives more",
                        r->gain, db(r->gain), ENG(id, "A"), ENG(vcc, "V"), gm * rload * frac);
         } else if (raw >= 0.95 * rs_tot) {
+            /* the self-bias resistor is all the degeneration there is: the drain resistor
+             * comes down instead (the drain sits above mid-way) */
             rs1 = rs_tot;
             rs2 = 0.0;
-            draft_why(c, "RS1 takes the whole source resistor: no bypassed part.");
+            double x = g_stage * (1.0 / gm + rs1 + NJF_RS_OHM);
+            double rd_raw2 = x < 0.999 * rl ? 1.0 / (1.0 / x - 1.0 / rl) : rd;
+            rd = draft_snap_r(c, rd_raw2);
+            rload = par(rd, rl);
+            draft_why(c, "More than the self-bias RS: RS1 = RS unbypassed, and RD comes down to "
+                         "%s -> %s for the gain (the drain sits above mid-way, Vd = %s).",
+                      ENG(rd_raw2, "ohm"), VAL(rd), ENG(vcc - id * rd, "V"));
         } else {
             rs1 = draft_snap_r(c, raw);
             rs2 = draft_snap_r(c, rs_tot - rs1);
@@ -716,7 +755,13 @@ static ss_status draft_jfet(draft_ctx *c, ss_error *err)
     } else {
         draft_step(c, "No gain asked: the source resistor fully bypassed, gain = gm (RD||RL).");
     }
-    double gain = frac * rload / (1.0 / gm + rs1);
+    vds = vcc - id * rd - vs;
+    if (vds < u + VSAT_MARGIN_V)
+        draft_warn(c, "the JFET is near its linear region (Vds %s, Vgs - VTO %s): a higher "
+                      "supply or a smaller RD keeps it saturated",
+                   ENG(vds, "V"), ENG(u, "V"));
+    power_check(c, "J1", vds, id);
+    double gain = frac * rload / (1.0 / gm + rs1 + NJF_RS_OHM);
     draft_step(c, "Gain = %.4g (%.2f dB), inverting; Zin = RG = %s; Zout = RD = %s.", gain,
                db(gain), VAL(rg), VAL(rd));
     source_ratio_check(c, rg);
