@@ -213,12 +213,21 @@ static void source_ratio_check(draft_ctx *c, double zin)
                    ENG(zin, "ohm"), ENG(rs, "ohm"), -db(zin / (zin + rs)));
 }
 
-static void load_ratio_check(draft_ctx *c, double zo)
+/* The 10:1 rule at the output: a warning for a stage whose task is to drive the load (the
+ * followers); a note for an amplifier, whose gain above is already worked out with the load. */
+static void load_ratio_check(draft_ctx *c, double zo, int drives)
 {
-    if (!isnan(c->rq.load_ohm) && zo > c->rq.load_ohm / IMP_RATIO)
+    if (isnan(c->rq.load_ohm) || zo <= c->rq.load_ohm / IMP_RATIO)
+        return;
+    if (drives)
         draft_warn(c, "load: the output impedance %s is more than a tenth of the %s load "
                       "(the 10:1 rule): the load costs gain and its spread moves it",
                    ENG(zo, "ohm"), ENG(c->rq.load_ohm, "ohm"));
+    else
+        draft_why(c, "Note: Zout %s is more than a tenth of the %s load (the 10:1 rule); the "
+                     "gain above counts the load, but its spread moves the gain: a follower "
+                     "after the stage (ce-follower) isolates it.",
+                  ENG(zo, "ohm"), ENG(c->rq.load_ohm, "ohm"));
 }
 
 static void fhigh_check(draft_ctx *c, double f_est)
@@ -327,7 +336,7 @@ static ss_status draft_follower(draft_ctx *c, ss_error *err)
     double zo = par(re_r, re_d + (boot ? rs : par(rs, b.rth)) / (BETA + 1.0));
     draft_step(c, "Gain = Zin/(Zin + Rs) * (RE||RL)/(re + RE||RL) = %.4f (%.2f dB); "
                   "Zout = re + Rs'/(beta+1) = %s.", gain, db(gain), ENG(zo, "ohm"));
-    load_ratio_check(c, zo);
+    load_ratio_check(c, zo, 1);
     if (!isnan(r->gain) && gain < r->gain)
         draft_warn(c, "gain: the estimate %.3f is below the %.3f asked", gain, r->gain);
     swing_check(c, fmin(ie * rle, vcc - ie * re_r - VSAT_MARGIN_V),
@@ -458,7 +467,7 @@ static ss_status draft_ce(draft_ctx *c, int split, ss_error *err)
     draft_step(c, "Zin = Rth || (beta+1)(re + RE1) = %s; gain = %.4g (%.2f dB), inverting; "
                   "Zout = RC = %s.", ENG(zin, "ohm"), gain, db(gain), VAL(rc));
     source_ratio_check(c, zin);
-    load_ratio_check(c, rc);
+    load_ratio_check(c, rc, 0);
     if (!split && !isnan(r->gain) && gain < r->gain)
         draft_warn(c, "gain: the estimate %.4g is below the %.4g asked: the bypassed stage "
                       "gives gm * (RC || RL); more supply or a lighter load gives more",
@@ -596,7 +605,7 @@ static ss_status draft_ce_follower(draft_ctx *c, ss_error *err)
     draft_step(c, "Zin = %s; gain = %.4g (%.2f dB), inverting; Zout = re2 + RC/(beta+1) = %s.",
                ENG(zin, "ohm"), gain, db(gain), ENG(zo, "ohm"));
     source_ratio_check(c, zin);
-    load_ratio_check(c, zo);
+    load_ratio_check(c, zo, 1);
     swing_check(c, fmin(ie2 * rle, vcc - ie2 * re3 - VSAT_MARGIN_V),
                 "Ie2 * (RE3 || RL) down, Q2's headroom up");
     double c1 = draft_snap_c_up(c, pole_cap(rs + zin, r->f_low_hz / COUPLE_DIV));
@@ -765,7 +774,7 @@ static ss_status draft_jfet(draft_ctx *c, ss_error *err)
     draft_step(c, "Gain = %.4g (%.2f dB), inverting; Zin = RG = %s; Zout = RD = %s.", gain,
                db(gain), VAL(rg), VAL(rd));
     source_ratio_check(c, rg);
-    load_ratio_check(c, rd);
+    load_ratio_check(c, rd, 0);
     swing_check(c, fmin(id * rload, vds - u - VSAT_MARGIN_V),
                 "Id * (RD || RL) up, Vds less Vgs - VTO down");
     double c1 = draft_snap_c_up(c, pole_cap(rs + rg, r->f_low_hz / COUPLE_DIV));

@@ -368,7 +368,7 @@ def check_help(cmd):
     return check
 
 
-COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge"]
+COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge", "draft"]
 for c in COMMANDS:
     case("%s --help" % c, 0, "", [c, "--help"], check=check_help(c))
     case("%s -h after other options" % c, 0, "", [c, "{T}/s.cir", "--frobnicate", "-h"],
@@ -452,14 +452,17 @@ SAMPLE = {"-o": ["{T}/o2"], "--out-dir": ["{T}/o3"], "--set": ["r2=12k"],
           "--thd-target": ["2"], "--junit": ["{T}/j.xml"], "--limits": ["{T}/l.limits"],
           "--min-yield": ["0.5"], "--vary": ["r1=list:5k,10k"], "--tol": ["r1=5%"],
           "--trials": ["4"], "--seed": ["7"], "--threads": ["2"], "--shard": ["1/2"],
-          "--temps": ["-20,70"], "--series": ["E24"]}
+          "--temps": ["-20,70"], "--series": ["E24"], "--supply": ["9"], "--current": ["2m"],
+          "--swing": ["1"], "--gain": ["5"], "--zin": ["10k"], "--source": ["600"],
+          "--f-low": ["10"], "--f-high": ["50k"], "--cap-series": ["E6"]}
 BASE = {"run": ["run", "{T}/s.cir", "-o", "{T}/out"],
         "check": ["check", "{T}/s.cir"],
         "sweep": ["sweep", "{T}/s.cir", "-o", "{T}/out", "--vary", "rtop=list:1k,2k"],
         "spread": ["spread", "{T}/s.cir", "-o", "{T}/out", "--trials", "3"],
         "sensitivity": ["sensitivity", "{T}/s.cir", "-o", "{T}/out"],
         "snap": ["snap", "{T}/s.cir", "-o", "{T}/out", "--series", "E12"],
-        "merge": ["merge", "-o", "{T}/out", "{T}/shard/study.csv"]}
+        "merge": ["merge", "-o", "{T}/out", "{T}/shard/study.csv"],
+        "draft": ["draft", "ce-split", "-o", "{T}/out", "--gain", "10"]}
 
 
 def option_checks(binary, report):
