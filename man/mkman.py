@@ -7,7 +7,7 @@ import re
 import subprocess
 import sys
 
-COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge", "refine"]
+COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge", "draft", "refine"]
 SUMMARY = {
     "run": "solve a netlist's operating point and every analysis it asks for",
     "check": "judge a stage's figures against limits, with an exit code",
@@ -16,6 +16,7 @@ SUMMARY = {
     "sensitivity": "sensitivities of every figure to each tolerance, and transistor corners",
     "snap": "snap values to a preferred-value series and show what shifts",
     "merge": "join the shards of a study into the unsharded result",
+    "draft": "write a first design of a stage from its requirements, by rules of thumb",
     "refine": "choose preferred values meeting every limit with the largest margin at corners",
 }
 SAFETY = ("Simulation does not replace bench verification. Mains and high-voltage work follows "

@@ -9,11 +9,13 @@
  *   stage.h stage figures and the large-signal test
  *   study.h limits, checks, sweeps, tolerance runs, sensitivities, preferred values, shards
  *   plot.h  plots, the report, output sets
+ *   draft.h a first design of a stage from its kind and requirements (docs/design.md)
  *   refine.h the preferred-value lattice, refine (a design search over free values) */
 #include "stagesim/core.h"
+#include "stagesim/draft.h"
 #include "stagesim/plot.h"
+#include "stagesim/refine.h"
 #include "stagesim/stage.h"
 #include "stagesim/study.h"
-#include "stagesim/refine.h"
 
 #endif

@@ -33,6 +33,7 @@ typedef struct cli_args {
     double ls_freq, thd_amp, thd_target;
     double noise_lo_hz, noise_hi_hz; /* --noise-band; 0 when not given */
     const char *noise_weight;        /* --noise-weight; NULL when not given */
+    ss_draft_req draft; /* draft's requirements (draft.c); load and series are a's own */
     const char **nodes; /* --nodes lists, each comma-separated */
     int n_nodes;
     int temps_given;               /* --temps was given (refine's temperature corners) */
@@ -81,5 +82,26 @@ int cmd_merge(const cli_args *a);             /* study.c */
 int cmd_refine(const cli_args *a);            /* refine.c */
 /* refine's own options (refine.c): EXIT_OK, EXIT_BAD_INPUT, or -1 for another option */
 int parse_refine_option(const char *n, const char *next, cli_args *a);
+int cmd_draft(const cli_args *a);             /* draft.c */
+
+/* ---- draft.c: its options ------------------------------------------------------------------ */
+
+/* The option-table lines of draft's own options, for the commands cmds (main.c's OPTIONS). */
+#define DRAFT_OPTIONS(cmds)                                                                      \
+    {"--supply", NULL, "VOLTS", cmds, "supply voltage, 3 .. 1000 V (default 12)"},                 \
+    {"--current", NULL, "AMPS", cmds, "quiescent current of the output device, 0 < A <= 10"},    \
+    {"--swing", NULL, "VOLTS", cmds, "peak output swing wanted at the load, 0 < V < supply/2"},  \
+    {"--gain", NULL, "GAIN", cmds, "|voltage gain| from the source EMF to the output, V/V"},     \
+    {"--zin", NULL, "OHMS", cmds, "least input impedance of the stage (source not included)"},  \
+    {"--load", NULL, "OHMS", cmds, "the load's resistance (default none: a 1 Mohm bleed)"},      \
+    {"--source", NULL, "OHMS", cmds, "the source's resistance, >= 0 (default 0)"},              \
+    {"--f-low", NULL, "HZ", cmds, "lowest frequency of the band (default 20)"},                  \
+    {"--f-high", NULL, "HZ", cmds, "highest frequency of the band, above f-low (default 20k)"},  \
+    {"--series", NULL, "E6|E12|E24|E48|E96|E192", cmds, "the resistors' series (default E24)"},  \
+    {"--cap-series", NULL, "E6|E12|E24|E48|E96|E192", cmds,                                      \
+     "the capacitors' series (default E12)"}
+/* Reads draft's option n (o as given, next its value) into a->draft; -1 when n is not one of
+ * draft's own (--load and --series are read with run's and snap's). */
+int parse_draft_option(const char *n, const char *o, const char *next, cli_args *a);
 
 #endif

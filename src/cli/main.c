@@ -23,6 +23,7 @@ static const char USAGE[] =
     "       stagesim merge [-o DIR] [--limits FILE] SHARD.csv...\n"
     "       stagesim refine NETLIST [--limits FILE] [corners] [options]\n"
     "                                                preferred values for the .choose values\n"
+    "       stagesim draft KIND [requirements] [-o DIR]   a first design (docs/design.md)\n"
     "       stagesim --help | --version\n"
     "\n"
     "Each command's options, with an example: stagesim COMMAND --help (or stagesim help\n"
@@ -57,6 +58,9 @@ static const char USAGE[] =
     "  --series E6|E12|E24|E48|E96|E192   (snap) the preferred-value series\n"
     "  --beta-range LO,HI --supply-tol NAME=PCT% --max-candidates N   (refine) corners and\n"
     "                    the search's budget; refine also takes --temps and --threads\n"
+    "  --series E6|E12|E24|E48|E96|E192   (snap, draft) the preferred-value series\n"
+    "  --supply, --current, --swing, --gain, --zin, --load, --source, --f-low, --f-high,\n"
+    "  --cap-series   (draft) the stage's requirements: stagesim draft --help\n"
     "Real numbers take the netlist's SI suffixes (10k, 4.7meg, 100n; m is milli, a lone M\n"
     "is refused); counts are plain digits.\n"
     "\n"
@@ -73,8 +77,9 @@ enum {
     C_SNAP = 1 << 5,
     C_MERGE = 1 << 6,
     C_REFINE = 1 << 7,
-    C_ALL = (1 << 8) - 1,
-    C_NETLIST = C_ALL & ~C_MERGE, /* the commands that read a netlist */
+    C_DRAFT = 1 << 8,
+    C_ALL = (1 << 9) - 1,
+    C_NETLIST = C_ALL & ~C_MERGE & ~C_DRAFT, /* the commands that read a netlist */
 };
 
 typedef struct cli_command {
@@ -134,6 +139,14 @@ static const cli_command COMMANDS[] = {
      "failing limits named), 2 bad input, 3 no operating point for any candidate.",
      "stagesim refine netlists/geophone_preamp.cir --beta-range 0.5x,2x --temps -20,70 \\\n"
      "      --supply-tol vcc=10% -o out/refine"},
+    {"draft", C_DRAFT, "stagesim draft KIND [requirements] [options]",
+     "Writes a first design of a stage of KIND (follower, ce, ce-split, ce-follower,\n"
+     "jfet-cs) for the requirements, by rules of thumb: draft.cir in the output folder, a\n"
+     "commented netlist with its values on the E-series, the reasoning step by step and\n"
+     ".expect limits from the requirements, ready for stagesim check. A starting point for\n"
+     "the bench, not a verified product: ratings are not checked (docs/design.md).",
+     "stagesim draft ce-split --supply 12 --gain 20 --source 600 --load 10k \\\n"
+     "      --f-low 20 --f-high 20k -o out/mic"},
 };
 #define N_COMMANDS (sizeof COMMANDS / sizeof COMMANDS[0])
 
@@ -204,6 +217,7 @@ static const cli_option OPTIONS[] = {
      "1 .. 256 worker threads (default: all cores); results do not depend on it"},
     {"--max-candidates", NULL, "N", C_REFINE,
      "the most candidate designs solved, 10 .. 10000000 (default 20000)"},
+    DRAFT_OPTIONS(C_DRAFT),
     {"--quiet", "-q", NULL, C_ALL, "no report on standard output"},
     {"--help", "-h", NULL, C_ALL, "print this help and exit"},
 };
@@ -314,6 +328,7 @@ static int parse_args_init(int argc, char **argv, cli_args *a)
     a->min_yield = -1.0;
     a->temp_lo = -40.0;
     a->temp_hi = 85.0;
+    ss_draft_req_init(&a->draft, SS_DRAFT_FOLLOWER);
     a->sets = calloc((size_t)argc, sizeof *a->sets);
     a->varies = calloc((size_t)argc, sizeof *a->varies);
     a->tols = calloc((size_t)argc, sizeof *a->tols);
@@ -375,6 +390,8 @@ static int take_positional(const char *o, const cli_command *cmd, cli_args *a)
         a->limits_path = o;
     else if (cmd->bit == C_CHECK)
         return usage_error("check takes one limits file, got a second ('%s')", o);
+    else if (cmd->bit == C_DRAFT)
+        return usage_error("draft takes one KIND, got a second ('%s')", o);
     else
         return usage_error("more than one netlist given ('%s')", o);
     return EXIT_OK;
@@ -537,6 +554,8 @@ static int parse_option(const cli_option *opt, const char *o, const char *next, 
         rc = parse_study_option(n, o, next, a);
     if (rc == OPT_OTHER)
         rc = parse_refine_option(n, next, a);
+    if (rc == OPT_OTHER)
+        rc = parse_draft_option(n, o, next, a);
     return rc == OPT_OTHER ? EXIT_OK : rc; /* --help: main answered it before parsing */
 }
 
@@ -560,6 +579,9 @@ static int parse_args(int argc, char **argv, cli_args *a)
         if (opt && opt->arg)
             i++;
     }
+    if (cmd->bit == C_DRAFT && !a->netlist)
+        return usage_error("draft needs a KIND (%s)", "follower, ce, ce-split, ce-follower or "
+                                                      "jfet-cs");
     if (!is_merge && !a->netlist)
         return usage_error("%s needs a NETLIST", a->cmd);
     return EXIT_OK;
@@ -674,6 +696,8 @@ int main(int argc, char **argv)
             rc = cmd_snap(&a);
         else if (strcmp(a.cmd, "refine") == 0)
             rc = cmd_refine(&a);
+        else if (strcmp(a.cmd, "draft") == 0)
+            rc = cmd_draft(&a);
         else
             rc = cmd_merge(&a);
     }

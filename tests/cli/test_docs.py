@@ -46,7 +46,7 @@ ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__)
 os.chdir(ROOT)
 PAGES = ["README.md"] + sorted(os.path.join("docs", f) for f in os.listdir("docs")
                                if f.endswith(".md"))
-COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge", "refine"]
+COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge", "draft", "refine"]
 TIMEOUT_S = 600
 
 passed = failed = 0
@@ -447,7 +447,7 @@ def inline_commands(page):
     text = re.sub(r"```.*?```", "", text, flags=re.S)
     found = []
     for span in re.findall(r"`([^`\n]+)`", text):
-        if re.match(r"(\./build/)?stagesim (run|check|sweep|spread|sensitivity|snap|merge) "
+        if re.match(r"(\./build/)?stagesim (run|check|sweep|spread|sensitivity|snap|merge|draft) "
                     r"\S+\.cir\b", span):
             found.append(span)
     return found
@@ -459,7 +459,8 @@ VALUES = {"DIR": "out/probe", "NAME=VALUE": "r1=1k", "SRC": "vsens", "NODE": "ou
           "OHMS": "1k", "A,B,...": "out", "HZ": "1k", "AMP": "0.1", "PCT": "1",
           "FILE": "out/probe.txt", "F": "0.5", "N": "2", "S": "1", "K/N": "1/2",
           "LO,HI": "-40,85", "E12\\|E24\\|E96": "E12",
-          "E6\\|E12\\|E24\\|E48\\|E96\\|E192": "E12", "F1..F2": "1..1k", "a\\|none": "a"}
+          "E6\\|E12\\|E24\\|E48\\|E96\\|E192": "E12", "F1..F2": "1..1k", "a\\|none": "a",
+          "VOLTS": "12", "AMPS": "1m", "GAIN": "10"}
 SPEC = {"--vary": "r1=list:1k", "--tol": "r1=5%", "--supply-tol": "vcc=10%",
         "--beta-range": "0.5x,2x"}
 

@@ -407,7 +407,7 @@ def check_help(cmd):
     return check
 
 
-COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge", "refine"]
+COMMANDS = ["run", "check", "sweep", "spread", "sensitivity", "snap", "merge", "draft", "refine"]
 for c in COMMANDS:
     case("%s --help" % c, 0, "", [c, "--help"], check=check_help(c))
     case("%s -h after other options" % c, 0, "", [c, "{T}/s.cir", "--frobnicate", "-h"],
@@ -493,7 +493,9 @@ SAMPLE = {"-o": ["{T}/o2"], "--out-dir": ["{T}/o3"], "--set": ["r2=12k"],
           "--trials": ["4"], "--seed": ["7"], "--threads": ["2"], "--shard": ["1/2"],
           "--temps": ["-20,70"], "--series": ["E24"], "--beta-range": ["0.5x,2x"],
           "--supply-tol": ["vsup=10%"], "--max-candidates": ["50"], "--noise-band": ["1..1k"],
-          "--noise-weight": ["a"]}
+          "--noise-weight": ["a"], "--supply": ["9"], "--current": ["2m"],
+          "--swing": ["1"], "--gain": ["5"], "--zin": ["10k"], "--source": ["600"],
+          "--f-low": ["10"], "--f-high": ["50k"], "--cap-series": ["E6"]}
 BASE = {"run": ["run", "{T}/s.cir", "-o", "{T}/out"],
         "check": ["check", "{T}/s.cir"],
         "sweep": ["sweep", "{T}/s.cir", "-o", "{T}/out", "--vary", "rtop=list:1k,2k"],
@@ -501,7 +503,8 @@ BASE = {"run": ["run", "{T}/s.cir", "-o", "{T}/out"],
         "sensitivity": ["sensitivity", "{T}/s.cir", "-o", "{T}/out"],
         "snap": ["snap", "{T}/s.cir", "-o", "{T}/out", "--series", "E12"],
         "merge": ["merge", "-o", "{T}/out", "{T}/shard/study.csv"],
-        "refine": ["refine", "{T}/r.cir", "-o", "{T}/out", "--max-candidates", "200"]}
+        "refine": ["refine", "{T}/r.cir", "-o", "{T}/out", "--max-candidates", "200"],
+        "draft": ["draft", "ce-split", "-o", "{T}/out", "--gain", "10"]}
 
 
 def option_checks(binary, report):

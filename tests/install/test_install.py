@@ -56,7 +56,7 @@ try:
     mandir = os.path.join(prefix, "share", "man")
     pages = ["man1/stagesim.1", "man5/stagesim-netlist.5", "man3/stagesim.3"] + \
         ["man1/stagesim-%s.1" % c for c in ("run", "check", "sweep", "spread", "sensitivity",
-                                            "snap", "merge", "refine")]
+                                            "snap", "merge", "draft", "refine")]
     for page in pages:
         path = os.path.join(mandir, page)
         if not os.path.exists(path):
