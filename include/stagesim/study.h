@@ -100,14 +100,21 @@ SS_API const ss_limits *ss_study_limits(const ss_study *s);
 SS_API void ss_study_set_progress(ss_study *s, ss_progress_fn fn, void *ctx);
 SS_API long ss_study_points(const ss_study *s);
 /* Output: one row per point of this shard: point, swept and sampled values, status (0 ok, else
- * the exit-code class of the failure), then every figure of the nominal run. Before any point
+ * the exit-code class of the failure), then every figure of the nominal run. With limits (the
+ * netlist's .expect lines or ss_study_add_limits) each point is judged: a column `pass` (1/0)
+ * after status, and the first limit the point fails (its quantity; "unsolved"; "" when it
+ * passes) as the row's label (ss_table_row_label), a text column `failed_limit` written
+ * before the figures. Before any point
  * is solved: SS_ERR_INPUT for a limit naming no figure (ss_limits_check_names) and, with
  * trials, for a name both swept and toleranced. */
 SS_API ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err);
 SS_API void ss_study_destroy(ss_study **s);
 
 /* Statistics of a points table: per figure n, min, max, mean, std (sample), and, for figures
- * with limits, the fraction of points passing; a row `all_limits` holds the yield. */
+ * with limits, the fraction of points passing; a row `all_limits` holds the yield. With limits
+ * also, per limited figure, its worst point (smallest distance to its limits' bounds):
+ * worst_point, worst_value, worst_margin (negative when failing) and worst_NAME for every swept
+ * and sampled column of the points. */
 SS_API ss_status ss_study_summarize(const ss_table *points, const ss_limits *limits,
                                     ss_table **out_summary, ss_error *err);
 
@@ -131,7 +138,8 @@ SS_API ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_
 SS_API ss_status ss_study_snap(ss_study *s, int series, const char *kinds,
                                ss_table **out_values, ss_table **out_figures, ss_error *err);
 
-/* Reads a CSV written by ss_table_write_csv back (for merging shards). */
+/* Reads a CSV written by ss_table_write_csv back (for merging shards); a study's text column
+ * `failed_limit` becomes the row labels. */
 SS_API ss_status ss_table_read_csv(const char *path, ss_table **out, ss_error *err);
 /* Concatenates study shards and sorts them by point; the header must match and every point
  * appear once. The result written with ss_table_write_csv equals the unsharded run's file. */

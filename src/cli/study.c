@@ -104,6 +104,36 @@ static void print_summary(const ss_table *summary)
     }
 }
 
+/* For every limited figure some point fails: its worst point and the swept and sampled values
+ * there (study_summary.csv's worst_* columns), so a failing run says which combination failed. */
+static void print_worst(const ss_table *summary)
+{
+    int wp = ss_table_col_index(summary, "worst_point");
+    if (wp < 0)
+        return;
+    int pf = ss_table_col_index(summary, "pass_fraction");
+    int wv = ss_table_col_index(summary, "worst_value");
+    int header = 0;
+    for (int i = 0; i < ss_table_rows(summary); i++) {
+        const char *name = ss_table_row_label(summary, i);
+        double frac = ss_table_get(summary, i, pf);
+        if (strcmp(name, "all_limits") == 0 || isnan(frac) || frac >= 1.0)
+            continue;
+        if (!header++)
+            printf("\nworst point of each failing figure\n");
+        double v = ss_table_get(summary, i, wv);
+        printf("  %-24s point %.0f: ", name, ss_table_get(summary, i, wp));
+        if (isnan(v))
+            printf("unsolved");
+        else
+            printf("%.6g", v);
+        for (int j = wp + 3; j < ss_table_cols(summary); j++)
+            printf("%s %s=%.6g", j == wp + 3 ? " at" : ",", ss_table_col_name(summary, j) + 6,
+                   ss_table_get(summary, i, j));
+        printf("\n");
+    }
+}
+
 int cmd_study(const cli_args *a, int spread)
 {
     static const char *const names[2] = {"study.csv", "study_summary.csv"};
@@ -147,6 +177,7 @@ int cmd_study(const cli_args *a, int spread)
                spread ? "spread" : "sweep", a->netlist, n, a->shard_n > 1 ? " (this shard)" : "",
                n_bad);
         print_summary(summary);
+        print_worst(summary);
     }
     if (n_bad)
         fprintf(stderr, "stagesim: warning: %d point%s did not solve (status column; figures "

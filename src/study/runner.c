@@ -13,6 +13,7 @@
 #include <unistd.h>
 
 #include "netlist/netlist.h"
+#include "output/output.h"
 #include "study/study.h"
 
 #define STUDY_MAX_THREADS 256
@@ -560,6 +561,8 @@ typedef struct run_shared {
     ss_table *out;
     long first, count; /* this shard's point range */
     int n_fixed;       /* columns before the figures */
+    const int *lim_fig; /* per limit, its figure's index among the figures; NULL: no limits */
+    int *fail_idx;      /* per point of the shard: the first limit it fails, -1 none, -2 unsolved */
     pthread_mutex_t lock;
     long next, done;
     ss_status fatal;
@@ -672,6 +675,18 @@ static void *worker(void *arg)
         for (int f = 0; f < nf->n_rows; f++)
             row[sh->n_fixed + f] = st == SS_OK ? figures_value(figs, f, nf->row_labels[f])
                                                : SS_NAN;
+        if (sh->lim_fig) {
+            /* judged here, in the limits' order: the first one failing is named */
+            int fail = st == SS_OK ? -1 : -2;
+            for (int k = 0; fail == -1 && k < s->limits->n; k++) {
+                const limit *lim = &s->limits->items[k];
+                double v = sh->lim_fig[k] < 0 ? SS_NAN : row[sh->n_fixed + sh->lim_fig[k]];
+                if (!(v >= lim->lo && v <= lim->hi))
+                    fail = k;
+            }
+            sh->fail_idx[i] = fail;
+            row[sh->n_fixed - 1] = fail == -1 ? 1.0 : 0.0;
+        }
         ss_table_destroy(&figs);
         pthread_mutex_lock(&sh->lock);
         if (st == SS_ERR_NOMEM && sh->fatal == SS_OK) {
@@ -685,6 +700,24 @@ static void *worker(void *arg)
     }
     ss_solver_destroy(&sv);
     return NULL;
+}
+
+/* Names in each row's text the first limit it fails (fail_idx, as the workers judged): the
+ * limit's quantity, "unsolved" for a point without figures, "" for a point that passes. One
+ * copy of each name, shared by the rows. 0 ok, -1 no memory. */
+static int label_failures(ss_table *t, const ss_limits *l, const int *fail_idx)
+{
+    const char **names = ss_alloc((size_t)l->n * sizeof *names);
+    const char *unsolved = arena_strdup(&t->arena, "unsolved");
+    const char *none = arena_strdup(&t->arena, "");
+    int bad = !names || !unsolved || !none;
+    for (int k = 0; !bad && k < l->n; k++)
+        bad |= !(names[k] = arena_strdup(&t->arena, l->items[k].quantity));
+    for (int i = 0; !bad && i < t->n_rows; i++)
+        t->row_labels[i] = fail_idx[i] >= 0 ? names[fail_idx[i]] : fail_idx[i] == -2 ? unsolved
+                                                                                   : none;
+    ss_free(names);
+    return bad ? -1 : 0;
 }
 
 ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
@@ -715,9 +748,16 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
     if (st != SS_OK)
         return st;
     int n_vals = s->n_dims + (s->trials > 0 ? s->n_tols : 0);
-    int n_fixed = 2 + n_vals;
-    ss_table *t = table_create(n_fixed + nominal_figs->n_rows, NULL);
+    /* with limits, each point is judged: a `pass` column after `status` and the first limit
+     * it fails as text (failed_limit) before the figures */
+    int judged = s->limits && s->limits->n > 0;
+    int n_fixed = 2 + n_vals + judged;
+    ss_table *t = table_create(n_fixed + nominal_figs->n_rows, judged ? TABLE_TEXT_COL : NULL);
     int bad = !t || table_set_col(t, 0, "point") != 0;
+    if (!bad && judged) {
+        t->label_at = n_fixed;
+        bad |= table_set_col(t, n_fixed - 1, "pass") != 0;
+    }
     for (int d = 0; !bad && d < s->n_dims; d++)
         bad |= table_set_col(t, 1 + d, s->dims[d].name) != 0;
     for (int v = s->n_dims; !bad && v < n_vals; v++)
@@ -732,8 +772,28 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
     }
     for (long i = first; i < end; i++)
         table_add_row(t, NULL);
+    int *lim_fig = NULL, *fail_idx = NULL;
+    if (judged) {
+        lim_fig = ss_alloc((size_t)s->limits->n * sizeof *lim_fig);
+        fail_idx = ss_alloc((size_t)(end - first > 0 ? end - first : 1) * sizeof *fail_idx);
+        if (!lim_fig || !fail_idx) {
+            ss_free(lim_fig);
+            ss_free(fail_idx);
+            ss_table_destroy(&t);
+            ss_table_destroy(&nominal_figs);
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        }
+        for (int k = 0; k < s->limits->n; k++) {
+            lim_fig[k] = -1;
+            for (int f = 0; f < nominal_figs->n_rows && lim_fig[k] < 0; f++)
+                if (strcmp(nominal_figs->row_labels[f], s->limits->items[k].quantity) == 0)
+                    lim_fig[k] = f;
+        }
+    }
     run_shared sh;
     memset(&sh, 0, sizeof sh);
+    sh.lim_fig = lim_fig;
+    sh.fail_idx = fail_idx;
     sh.s = s;
     sh.nominal_figs = nominal_figs;
     sh.out = t;
@@ -760,6 +820,12 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
         pthread_join(tid[i], NULL);
     pthread_mutex_destroy(&sh.lock);
     ss_table_destroy(&nominal_figs);
+    if (sh.fatal == SS_OK && judged && label_failures(t, s->limits, fail_idx) != 0) {
+        sh.fatal = SS_ERR_NOMEM;
+        err_set(&sh.fatal_err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    ss_free(lim_fig);
+    ss_free(fail_idx);
     if (sh.fatal != SS_OK) {
         ss_table_destroy(&t);
         *err = sh.fatal_err;
