@@ -83,6 +83,12 @@ SS_API ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
  * ss_value_parse reads them. The nominal is the value after the study's --set overrides, so
  * a tolerance on a --set name spreads around the --set value. */
 SS_API ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err);
+/* `NAME,NAME[,...]=RHO`: the tolerances named (added before, each in one group at most) are
+ * drawn correlated, every pair with correlation RHO (0 .. 1) of their standard normal draws:
+ * z_i = sqrt(RHO) c + sqrt(1 - RHO) e_i, c common to the group and e_i each one's own; a
+ * gaussian tolerance takes mean + sigma z_i, a uniform one lo + (hi - lo) Phi(z_i) (a gaussian
+ * copula). docs/studies.md. */
+SS_API ss_status ss_study_add_match(ss_study *s, const char *spec, ss_error *err);
 /* Monte Carlo: trials > 0 random trials per grid point from seed. */
 SS_API ss_status ss_study_set_trials(ss_study *s, long trials, unsigned long long seed,
                                      ss_error *err);

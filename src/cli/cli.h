@@ -21,8 +21,8 @@ typedef struct cli_args {
     int plot, quiet;
     int strict; /* check --strict: a lint warning fails the check */
     const char *junit;
-    const char **varies, **tols, **shards;
-    int n_varies, n_tols, n_shards;
+    const char **varies, **tols, **shards, **matches;
+    int n_varies, n_tols, n_shards, n_matches;
     long trials;
     unsigned long long seed;
     int threads;

@@ -43,7 +43,9 @@ static const char USAGE[] =
     "  --min-yield F     (sweep, spread, merge) exit 1 when the yield is below F (0..1)\n"
     "  --vary NAME=lin:START:STOP:N | log:START:STOP:N | list:V1,V2,...  (sweep, spread;\n"
     "                    NAME may be temp)\n"
-    "  --tol NAME=PCT%[:gauss] | NAME=LO..HI[:gauss]   (spread, sensitivity)\n"
+    "  --tol NAME=PCT%[:gauss] | NAME=LO..HI[:gauss] | NAME=NOM+-D[:gauss]\n"
+    "                    (spread, sensitivity; NAME may be INSTANCE.PARAM or temp)\n"
+    "  --match A,B,...=RHO   (spread) draw these toleranced values correlated (0..1)\n"
     "  --trials N --seed S   (spread) tolerance trials (default 1000, seed 1)\n"
     "  --threads N       (sweep, spread) worker threads (default: all cores); results never\n"
     "                    depend on it\n"
@@ -163,7 +165,10 @@ static const cli_option OPTIONS[] = {
      "lin:START:STOP:N, log:START:STOP:N or list:V1,...; NAME as --set or temp"},
     {"--vary", NULL, "NAME=SPEC", C_SPREAD, "a grid of swept values (as sweep), trials at each"},
     {"--tol", NULL, "NAME=SPEC", C_SPREAD | C_SENS,
-     "PCT%[:gauss] or LO..HI[:gauss], added to the .tolerance lines; repeatable"},
+     "PCT%[:gauss], LO..HI[:gauss] or NOM+-D[:gauss], added to the .tolerance lines; NAME "
+     "as --set, q1.bf (that transistor's own) or temp; repeatable"},
+    {"--match", NULL, "A,B,...=RHO", C_SPREAD,
+     "draw these toleranced values correlated (RHO 0 .. 1, e.g. q1.bf,q2.bf=0.95); repeatable"},
     {"--trials", NULL, "N", C_SPREAD, "number of trials, 1 .. 100000000 (default 1000)"},
     {"--seed", NULL, "S", C_SPREAD, "random seed, 0 .. 18446744073709551615 (default 1)"},
     {"--threads", NULL, "N", C_SWEEP | C_SPREAD,
@@ -286,9 +291,10 @@ static int parse_args_init(int argc, char **argv, cli_args *a)
     a->sets = calloc((size_t)argc, sizeof *a->sets);
     a->varies = calloc((size_t)argc, sizeof *a->varies);
     a->tols = calloc((size_t)argc, sizeof *a->tols);
+    a->matches = calloc((size_t)argc, sizeof *a->matches);
     a->shards = calloc((size_t)argc, sizeof *a->shards);
     a->nodes = calloc((size_t)argc, sizeof *a->nodes);
-    if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes)
+    if (!a->sets || !a->varies || !a->tols || !a->matches || !a->shards || !a->nodes)
         return EXIT_BAD_INPUT;
     return EXIT_OK;
 }
@@ -311,6 +317,7 @@ static int check_option(const char *o, const char *next, const cli_command *cmd,
     /* a value given twice would drop the first; only these options add up */
     if (opt && opt->arg && strcmp(opt->name, "--set") != 0 && strcmp(opt->name, "--vary") != 0 &&
         strcmp(opt->name, "--tol") != 0 && strcmp(opt->name, "--nodes") != 0 &&
+        strcmp(opt->name, "--match") != 0 &&
         strcmp(opt->name, "--limits") != 0) {
         if (seen[opt - OPTIONS])
             return usage_errorf("%s given twice", o);
@@ -415,6 +422,8 @@ static int parse_study_option(const char *n, const char *o, const char *next, cl
         a->varies[a->n_varies++] = next;
     } else if (strcmp(n, "--tol") == 0) {
         a->tols[a->n_tols++] = next;
+    } else if (strcmp(n, "--match") == 0) {
+        a->matches[a->n_matches++] = next;
     } else if (strcmp(n, "--trials") == 0) {
         unsigned long long v;
         if (parse_count(next, 100000000ull, &v) != 0 || v < 1)
@@ -626,6 +635,7 @@ int main(int argc, char **argv)
     free(a.sets);
     free(a.varies);
     free(a.tols);
+    free(a.matches);
     free(a.shards);
     free(a.nodes);
     free(a.cmdline);

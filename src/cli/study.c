@@ -49,6 +49,9 @@ static int make_study(const cli_args *a, ss_study **out, ss_limits **lim)
     for (int i = 0; i < a->n_tols; i++)
         if (ss_study_add_tolerance(s, a->tols[i], &err) != SS_OK)
             goto bad;
+    for (int i = 0; i < a->n_matches; i++)
+        if (ss_study_add_match(s, a->matches[i], &err) != SS_OK)
+            goto bad;
     if (a->limits_path) {
         if (ss_limits_create(lim, &err) != SS_OK ||
             ss_limits_add_file(*lim, a->limits_path, &err) != SS_OK ||

@@ -12,6 +12,7 @@
 #include <string.h>
 #include <unistd.h>
 
+#include "devices/device.h"
 #include "netlist/netlist.h"
 #include "output/output.h"
 #include "study/study.h"
@@ -414,9 +415,7 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
     char *name = lower_dup(&s->arena, spec, (size_t)(eq - spec));
     if (!name)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    if (strcmp(name, "temp") == 0)
-        return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "tolerance on temp: sweep the temperature with --vary temp=... instead");
+    int is_temp = strcmp(name, "temp") == 0;
     double nominal;
     ss_status st = check_name(s, name, &nominal, err);
     if (st != SS_OK)
@@ -429,7 +428,7 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
         return err_set(err, SS_ERR_INPUT, NULL, 0, "tolerance on %s: longer than %zu characters",
                        name, sizeof body - 1);
     snprintf(body, sizeof body, "%s", eq + 1);
-    tol_spec t = {name, nominal, 0, 0, 0};
+    tol_spec t = {name, nominal, 0, 0, 0, -1, -1};
     char *colon = strchr(body, ':');
     if (colon) {
         *colon = '\0';
@@ -442,7 +441,25 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
     }
     size_t len = strlen(body);
     char *dots = strstr(body, "..");
-    if (len > 0 && body[len - 1] == '%') {
+    /* NOM+-D (or NOM±D): LO..HI = NOM-D .. NOM+D */
+    char *pm = strstr(body, "+-");
+    char *pm_utf8 = strstr(body, "\xc2\xb1");
+    if (!pm)
+        pm = pm_utf8;
+    if (is_temp && len > 0 && body[len - 1] == '%')
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "tolerance on temp: a percentage of degrees C means nothing; give "
+                       "LO..HI or NOM+-D in C (temp=-40..85, temp=25+-10:gauss)");
+    if (pm && !dots) {
+        *pm = '\0';
+        double nom, d;
+        if (spec_number(body, netlist_rules, &nom) != 0 ||
+            spec_number(pm + 2, netlist_rules, &d) != 0 || !(d >= 0.0))
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "tolerance on %s: expected NOM+-D with D >= 0", name);
+        t.lo = nom - d;
+        t.hi = nom + d;
+    } else if (len > 0 && body[len - 1] == '%') {
         body[len - 1] = '\0';
         double pct;
         if (spec_number(body, netlist_rules, &pct) != 0 || !(pct >= 0.0 && pct < 100.0))
@@ -458,8 +475,14 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
                            "tolerance on %s: expected LO..HI with LO <= HI", name);
     } else {
         return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "tolerance on %s: expected PCT%% or LO..HI, got '%s'", name, body);
+                       "tolerance on %s: expected PCT%%, LO..HI or NOM+-D, got '%s'", name,
+                       body);
     }
+    if (is_temp && !(temp_in_range(t.lo) && temp_in_range(t.hi)))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "tolerance on temp: %g .. %g C leaves -273.15 .. 1000 C", t.lo, t.hi);
+    if (is_temp)
+        t.nominal = 0.5 * (t.lo + t.hi); /* the centre: no card holds a nominal temperature */
     if (s->n_tols == s->cap_tols) {
         int ncap = s->cap_tols ? s->cap_tols * 2 : 8;
         tol_spec *nt = ss_realloc(s->tols, (size_t)ncap * sizeof *nt);
@@ -475,6 +498,105 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
 ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err)
 {
     return add_tolerance(s, spec, 0, err);
+}
+
+ss_status ss_study_add_match(ss_study *s, const char *spec, ss_error *err)
+{
+    char body[1024];
+    const char *eq = strrchr(spec, '=');
+    if (!eq || eq == spec || strlen(spec) >= sizeof body)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--match '%s': expected NAME,NAME[,...]=RHO with 0 <= RHO <= 1", spec);
+    if (s->n_groups >= STUDY_MAX_GROUPS)
+        return err_set(err, SS_ERR_LIMIT, NULL, 0, "--match: more than %d groups",
+                       STUDY_MAX_GROUPS);
+    ss_error e2 = {0};
+    double rho;
+    if (ss_value_parse(eq + 1, &rho, &e2) != SS_OK || !(rho >= 0.0 && rho <= 1.0))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--match %.*s: the correlation must be a number from 0 to 1, got '%s'",
+                       (int)(eq - spec), spec, eq + 1);
+    snprintf(body, sizeof body, "%.*s", (int)(eq - spec), spec);
+    char *f[STUDY_MAX_DIMS * 16];
+    int n = split_fields(body, ',', f, (int)(sizeof f / sizeof f[0]));
+    if (n < 2 || n > (int)(sizeof f / sizeof f[0]))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--match %s: name from 2 to %d toleranced values, apart by commas",
+                       body, (int)(sizeof f / sizeof f[0]));
+    int g = s->n_groups, idx[sizeof f / sizeof f[0]];
+    for (int i = 0; i < n; i++) {
+        for (char *c = f[i]; *c; c++)
+            *c = (char)tolower((unsigned char)*c);
+        idx[i] = -1;
+        for (int t = 0; t < s->n_tols && idx[i] < 0; t++)
+            if (strcmp(s->tols[t].name, f[i]) == 0)
+                idx[i] = t;
+        if (idx[i] < 0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "--match: '%s' has no tolerance (give it one with --tol or "
+                           ".tolerance first)",
+                           f[i]);
+        if (s->tols[idx[i]].group >= 0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "--match: '%s' is matched twice (a tolerance belongs to one group)",
+                           f[i]);
+        for (int j = 0; j < i; j++)
+            if (idx[j] == idx[i])
+                return err_set(err, SS_ERR_INPUT, NULL, 0, "--match: '%s' named twice", f[i]);
+    }
+    for (int i = 0; i < n; i++)
+        s->tols[idx[i]].group = g;
+    s->groups[g].rho = rho;
+    s->groups[g].n = n;
+    s->n_groups++;
+    return SS_OK;
+}
+
+/* (model, parameter) of a tolerance's name: a card's parameter (`qn.bf`, is_inst 0) or an
+ * element's own (`q1.bf`, is_inst 1, the element's card); 0 when it is neither. */
+static int tol_model_param(const ss_circuit *ckt, const char *name, const model **md, int *pi,
+                           int *is_inst)
+{
+    char low[1024];
+    const char *dot = strrchr(name, '.');
+    if (!dot || strlen(name) >= sizeof low)
+        return 0;
+    snprintf(low, sizeof low, "%.*s", (int)(dot - name), name);
+    for (int k = 0; k < ckt->n_params; k++)
+        if (strcmp(ckt->params[k].name, name) == 0)
+            return 0;
+    if (circuit_find_elem(ckt, name) >= 0)
+        return 0;
+    int mi;
+    if (strmap_get(&ckt->model_map, low, &mi)) {
+        *md = ckt->models[mi];
+        *is_inst = 0;
+    } else {
+        int ei = circuit_find_elem(ckt, low);
+        if (ei < 0 || !elem_has_model(&ckt->elem[ei]))
+            return 0;
+        *md = ckt->elem[ei].mod;
+        *is_inst = 1;
+    }
+    *pi = model_param_index((*md)->ops, dot + 1);
+    return *pi >= 0;
+}
+
+/* Links each instance tolerance (`q1.bf`) to a tolerance on its card's parameter (`qn.bf`):
+ * then the instance spreads around the card's sampled value (a common and an own part). */
+static void link_instance_tols(ss_study *s)
+{
+    for (int t = 0; t < s->n_tols; t++) {
+        const model *md, *md2;
+        int pi, pi2, inst, inst2;
+        s->tols[t].scale_by = -1;
+        if (!tol_model_param(s->nominal, s->tols[t].name, &md, &pi, &inst) || !inst)
+            continue;
+        for (int u = 0; u < s->n_tols; u++)
+            if (u != t && tol_model_param(s->nominal, s->tols[u].name, &md2, &pi2, &inst2) &&
+                !inst2 && md2 == md && pi2 == pi && s->tols[u].nominal != 0.0)
+                s->tols[t].scale_by = u;
+    }
 }
 
 ss_status ss_study_set_trials(ss_study *s, long trials, unsigned long long seed, ss_error *err)
@@ -583,12 +705,37 @@ static void point_values(const ss_study *s, long p, double *vals)
          * shard that computes it */
         rng r;
         rng_seed(&r, s->seed, (uint64_t)trial);
+        double common[STUDY_MAX_GROUPS];
+        unsigned char drawn[STUDY_MAX_GROUPS] = {0};
         for (int t = 0; t < s->n_tols; t++) {
             const tol_spec *ts = &s->tols[t];
             double mid = 0.5 * (ts->lo + ts->hi), half = 0.5 * (ts->hi - ts->lo);
-            double v = ts->gauss ? mid + half / 3.0 * rng_gauss(&r)
-                                 : ts->lo + (ts->hi - ts->lo) * rng_uniform(&r);
+            double v;
+            if (ts->group < 0) {
+                v = ts->gauss ? mid + half / 3.0 * rng_gauss(&r)
+                              : ts->lo + (ts->hi - ts->lo) * rng_uniform(&r);
+            } else {
+                /* a matched value: the group's common draw (made at its first member's turn)
+                 * and its own, z = sqrt(rho) c + sqrt(1 - rho) e, corr(z_i, z_j) = rho */
+                int g = ts->group;
+                if (!drawn[g]) {
+                    common[g] = rng_gauss(&r);
+                    drawn[g] = 1;
+                }
+                double rho = s->groups[g].rho;
+                double z = sqrt(rho) * common[g] + sqrt(1.0 - rho) * rng_gauss(&r);
+                v = ts->gauss ? mid + half / 3.0 * z
+                              : ts->lo + (ts->hi - ts->lo) * 0.5 * erfc(-z / sqrt(2.0));
+            }
             vals[s->n_dims + t] = v;
+        }
+        /* an instance's own parameter around its card's sampled value: drawn value times the
+         * card's sample over the card's nominal (the card's tolerance is drawn in this trial
+         * already, whatever the order) */
+        for (int t = 0; t < s->n_tols; t++) {
+            int u = s->tols[t].scale_by;
+            if (u >= 0)
+                vals[s->n_dims + t] *= vals[s->n_dims + u] / s->tols[u].nominal;
         }
     }
 }
@@ -739,6 +886,7 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
     ss_status st = ss_limits_check_names(s->limits, s->nominal_sv, err);
     if (st != SS_OK)
         return st;
+    link_instance_tols(s);
     long first = total * (s->shard_k - 1) / s->shard_n;
     long end = total * s->shard_k / s->shard_n;
     /* the nominal run fixes the figure columns */
@@ -867,6 +1015,13 @@ ss_status study_identity(const ss_study *s, ss_strbuf *text, long *first, long *
     for (int t = 0; t < s->n_tols; t++)
         strbuf_printf(text, "tol %s %.17g %.17g %s\n", s->tols[t].name, s->tols[t].lo,
                       s->tols[t].hi, s->tols[t].gauss ? "gauss" : "uniform");
+    for (int g = 0; g < s->n_groups; g++) {
+        strbuf_printf(text, "match %.17g", s->groups[g].rho);
+        for (int t = 0; t < s->n_tols; t++)
+            if (s->tols[t].group == g)
+                strbuf_printf(text, " %s", s->tols[t].name);
+        strbuf_printf(text, "\n");
+    }
     strbuf_printf(text, "trials %ld\nseed %llu\nlimits %s\n", s->trials, s->seed,
                   s->limits_sha256[0] ? s->limits_sha256 : "-");
     return text->failed ? err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory") : SS_OK;
