@@ -124,6 +124,16 @@ SS_API void ss_study_destroy(ss_study **s);
 SS_API ss_status ss_study_summarize(const ss_table *points, const ss_limits *limits,
                                     ss_table **out_summary, ss_error *err);
 
+/* Writes an SVG of a points table (study.csv's): one panel per figure with limits (without
+ * limits: per figure that varies; at most 40) -- histogram 1: a histogram of its values with
+ * the limits as vertical lines (tolerance runs); 0: its values over the first swept value, one
+ * curve per combination of the other swept values, the limit band shaded and failing points
+ * marked (sweeps). title may be NULL. Atomic. SS_ERR_INPUT: no point, no figure to plot, no
+ * swept value (histogram 0). */
+SS_API ss_status ss_study_write_plot(const ss_table *points, const ss_limits *limits,
+                                     int histogram, const char *title, const char *path,
+                                     ss_error *err);
+
 /* Normalised sensitivities (dF/F)/(dx/x) of every figure to every toleranced or listed value,
  * by central differences of +-1 %: a table labelled by figure, one column per value. The
  * limits' names are checked first (ss_limits_check_names). */

@@ -32,7 +32,8 @@ static const char USAGE[] =
     "                    (qgen.bf=250); repeatable, each NAME once (not merge)\n"
     "  --in SRC --out NODE   the stage's source and output node (override .stage; not merge)\n"
     "  --load OHMS       (run) the load the stage drives, for the Zout check\n"
-    "  --plot            (run) also write bode.svg (and wave.svg, thd_wave.svg)\n"
+    "  --plot            (run) also write bode.svg (and wave.svg, thd_wave.svg);\n"
+    "                    (sweep, spread) study.svg: the figures with their limits\n"
     "  --nodes A,B,...   (run) write only these nodes' voltages (op, dc, ac, tran tables and\n"
     "                    the report); default every node\n"
     "  --ls-freq F --thd-amp A --thd-target PCT   (run) the large-signal test\n"
@@ -144,6 +145,9 @@ static const cli_option OPTIONS[] = {
     {"--nodes", NULL, "A,B,...", C_RUN,
      "write only these nodes' voltages (op, dc, ac, tran tables, report)"},
     {"--plot", NULL, NULL, C_RUN, "also write bode.svg (and wave.svg, thd_wave.svg)"},
+    {"--plot", NULL, NULL, C_SWEEP | C_SPREAD,
+     "also write study.svg: per limited figure its values over the swept value (sweep) or "
+     "their histogram (spread), the limits drawn"},
     {"--ls-freq", NULL, "HZ", C_RUN,
      "large-signal test frequency (overrides .large_signal; needs a stage)"},
     {"--thd-amp", NULL, "AMP", C_RUN,

@@ -139,10 +139,10 @@ static void print_worst(const ss_table *summary)
 
 int cmd_study(const cli_args *a, int spread)
 {
-    static const char *const names[2] = {"study.csv", "study_summary.csv"};
-    const char *path[2];
+    static const char *const names[3] = {"study.csv", "study_summary.csv", "study.svg"};
+    const char *path[3];
     ss_outset *set = NULL;
-    int rc = out_start(a, names, 2, path, &set);
+    int rc = out_start(a, names, a->plot ? 3 : 2, path, &set);
     if (rc != EXIT_OK)
         return rc;
     ss_study *s = NULL;
@@ -170,6 +170,14 @@ int cmd_study(const cli_args *a, int spread)
         write_table(pts, path[0], &err) != 0 || write_table(summary, path[1], &err) != 0) {
         rc = fail(&err);
         goto done;
+    }
+    if (a->plot) {
+        char title[512];
+        snprintf(title, sizeof title, "%s %s", spread ? "spread" : "sweep", a->netlist);
+        if (ss_study_write_plot(pts, ss_study_limits(s), spread, title, path[2], &err) != SS_OK) {
+            rc = fail(&err);
+            goto done;
+        }
     }
     int n_bad = 0, n = ss_table_rows(pts);
     int status_col = ss_table_col_index(pts, "status");

@@ -4,6 +4,7 @@
 #include <stdio.h>
 #include <string.h>
 
+#include "output/svg.h"
 #include "study/study.h"
 
 /* The first figure column of a points table: right after `status`. */
@@ -144,4 +145,122 @@ ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table *
     }
     *out_summary = t;
     return SS_OK;
+}
+
+/* ---- plots ------------------------------------------------------------------------------ */
+
+#define PLOT_MAX_PANELS 40
+#define PLOT_MAX_CURVES 64
+
+/* 1 when the distinct values of x (in the order met) are spaced evenly in log, not in lin. */
+static int looks_log(const double *x, int n)
+{
+    double d[3];
+    int k = 0;
+    for (int i = 0; i < n && k < 3; i++) {
+        int seen = 0;
+        for (int j = 0; j < k; j++)
+            seen |= d[j] == x[i];
+        if (!seen)
+            d[k++] = x[i];
+    }
+    if (k < 3 || !(d[0] > 0.0 && d[1] > 0.0 && d[2] > 0.0))
+        return 0;
+    double r1 = d[1] / d[0], r2 = d[2] / d[1];
+    return fabs(r1 - r2) < 1e-6 * r1 && fabs((d[1] - d[0]) - (d[2] - d[1])) > 1e-6 * fabs(d[1] - d[0]);
+}
+
+ss_status ss_study_write_plot(const ss_table *pts, const ss_limits *l, int histogram,
+                              const char *title, const char *path, ss_error *err)
+{
+    int f0 = study_first_figure_col(pts);
+    int status_col = ss_table_col_index(pts, "status");
+    if (f0 < 0 || status_col < 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "not a study points table (no status column)");
+    int n = pts->n_rows, nc = pts->n_cols;
+    if (n < 1)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "study plot: no points");
+    if (!histogram && status_col < 2)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "study plot: no swept value to plot over");
+    int limited = l && l->n > 0;
+    svg_study_panel *panels = ss_alloc(PLOT_MAX_PANELS * sizeof *panels);
+    double *vals = ss_alloc((size_t)PLOT_MAX_PANELS * (size_t)n * sizeof *vals);
+    double *x = ss_alloc((size_t)n * sizeof *x);
+    int *curve = ss_alloc((size_t)n * sizeof *curve);
+    if (!panels || !vals || !x || !curve) {
+        ss_free(panels);
+        ss_free(vals);
+        ss_free(x);
+        ss_free(curve);
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    /* the figures with limits; without limits, every figure that moves */
+    int np = 0;
+    for (int j = f0; j < nc && np < PLOT_MAX_PANELS; j++) {
+        svg_study_panel *p = &panels[np];
+        p->figure = pts->col_names[j];
+        p->lo = -HUGE_VAL;
+        p->hi = HUGE_VAL;
+        p->has_limit = 0;
+        for (int k = 0; limited && k < l->n; k++)
+            if (strcmp(l->items[k].quantity, p->figure) == 0) {
+                p->lo = fmax(p->lo, l->items[k].lo);
+                p->hi = fmin(p->hi, l->items[k].hi);
+                p->has_limit = 1;
+            }
+        double *v = vals + (size_t)np * (size_t)n, mn = HUGE_VAL, mx = -HUGE_VAL;
+        for (int i = 0; i < n; i++) {
+            v[i] = pts->data[(size_t)i * (size_t)nc + (size_t)j];
+            if (!isnan(v[i])) {
+                mn = fmin(mn, v[i]);
+                mx = fmax(mx, v[i]);
+            }
+        }
+        p->v = v;
+        if (limited ? p->has_limit : mx > mn)
+            np++;
+    }
+    /* sweeps: over the first swept value, one curve per combination of the others */
+    int n_curves = 0, curve_first[PLOT_MAX_CURVES];
+    for (int i = 0; !histogram && i < n; i++) {
+        const double *row = pts->data + (size_t)i * (size_t)nc;
+        x[i] = row[1];
+        curve[i] = -1;
+        for (int c = 0; c < n_curves && curve[i] < 0; c++) {
+            const double *r0 = pts->data + (size_t)curve_first[c] * (size_t)nc;
+            int same = 1;
+            for (int d = 2; d < status_col && same; d++)
+                same = r0[d] == row[d];
+            if (same)
+                curve[i] = c;
+        }
+        if (curve[i] < 0 && n_curves < PLOT_MAX_CURVES) {
+            curve_first[n_curves] = i;
+            curve[i] = n_curves++;
+        }
+    }
+    /* each curve named by its other swept values ("ss_npn.bf=200") */
+    char label_buf[8][128];
+    const char *labels[8];
+    for (int c = 0; c < n_curves && c < 8; c++) {
+        const double *r0 = pts->data + (size_t)curve_first[c] * (size_t)nc;
+        size_t used = 0;
+        label_buf[c][0] = '\0';
+        for (int d = 2; d < status_col && used < sizeof label_buf[c]; d++)
+            used += (size_t)snprintf(label_buf[c] + used, sizeof label_buf[c] - used, "%s%s=%.4g",
+                                     d > 2 ? " " : "", pts->col_names[d], r0[d]);
+        labels[c] = label_buf[c];
+    }
+    svg_study_input in = {title,         histogram, x,     histogram ? NULL : pts->col_names[1],
+                          !histogram && looks_log(x, n), curve, n_curves,
+                          n_curves <= 8 ? labels : NULL, n, panels, np};
+    ss_status st = np == 0 ? err_set(err, SS_ERR_INPUT, NULL, 0,
+                                      "study plot: no figure to plot (no limits, and no "
+                                      "figure varies)")
+                           : svg_write_study(path, &in, err);
+    ss_free(panels);
+    ss_free(vals);
+    ss_free(x);
+    ss_free(curve);
+    return st;
 }
