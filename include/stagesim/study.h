@@ -154,6 +154,25 @@ SS_API ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_
 SS_API ss_status ss_study_snap(ss_study *s, int series, const char *kinds,
                                ss_table **out_values, ss_table **out_figures, ss_error *err);
 
+/* What ss_study_snap_with snaps. */
+typedef struct ss_snap_opts {
+    int series_r; /* the resistors' series: 6, 12, 24, 48, 96 or 192; 0 leaves them */
+    int series_c; /* the capacitors' series (E6 / E12 are what capacitors come in, common
+                   * practice); 0 leaves capacitors as they are */
+    const char *keep; /* elements left as they are, "RS,RL" (not the user's to choose: a
+                       * sensor's source resistance, the load); NULL none */
+} ss_snap_opts;
+
+/* Snaps every resistor and (series_c > 0) capacitor but the kept ones to the nearest value of
+ * its series and solves again; the limits' names are checked first. Outputs: per element
+ * value, preferred, change_pct, series; per figure computed, preferred, shift (in the figure's
+ * unit: dB for a _db figure), shift_pct (empty for a _db figure: a percentage of a dB value
+ * means nothing), and with limits `pass` (1/0 for the snapped value, empty for a figure without
+ * limit); *n_failed (may be NULL) the limits the snapped circuit fails. A kept name that is no
+ * resistor or capacitor of the circuit is SS_ERR_INPUT. */
+SS_API ss_status ss_study_snap_with(ss_study *s, const ss_snap_opts *opts, ss_table **out_values,
+                                    ss_table **out_figures, int *n_failed, ss_error *err);
+
 /* Reads a CSV written by ss_table_write_csv back (for merging shards); a study's text column
  * `failed_limit` becomes the row labels. */
 SS_API ss_status ss_table_read_csv(const char *path, ss_table **out, ss_error *err);

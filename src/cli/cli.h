@@ -29,6 +29,8 @@ typedef struct cli_args {
     int shard_k, shard_n;
     double min_yield;
     int series;
+    int cap_series; /* snap: the capacitors' series, 0 none (default 12) */
+    const char *keep; /* snap: elements left as they are */
     double temp_lo, temp_hi;
     double ls_freq, thd_amp, thd_target;
     const char **nodes; /* --nodes lists, each comma-separated */

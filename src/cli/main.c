@@ -53,6 +53,8 @@ static const char USAGE[] =
     "  --shard K/N       (sweep, spread) run the K-th of N slices of the points\n"
     "  --temps LO,HI     (sensitivity) temperature extremes, default -40,85\n"
     "  --series E6|E12|E24|E48|E96|E192   (snap) the preferred-value series\n"
+    "  --cap-series E6|...|none  (snap) the capacitors' series (default E12)\n"
+    "  --keep A,B,...    (snap) elements left as they are\n"
     "Real numbers take the netlist's SI suffixes (10k, 4.7meg, 100n; m is milli, a lone M\n"
     "is refused); counts are plain digits.\n"
     "\n"
@@ -112,8 +114,10 @@ static const cli_command COMMANDS[] = {
      "stagesim sensitivity netlists/vibration_frontend.cir --tol R1=5% --tol R2=5% \\\n"
      "      --temps -40,85 -o out/sens"},
     {"snap", C_SNAP, "stagesim snap NETLIST --series E6|E12|E24|E48|E96|E192 [options]",
-     "Snaps every resistor to the nearest value of the series (IEC 60063) and shows how\n"
-     "every figure shifts (snap_values.csv, snap_figures.csv).",
+     "Snaps every resistor to the nearest value of the series (IEC 60063) and every capacitor\n"
+     "to --cap-series (default E12), but the --keep elements, shows how every figure shifts\n"
+     "(snap_values.csv, snap_figures.csv) and judges the snapped circuit against the limits\n"
+     "(exit 1 when it fails one).",
      "stagesim snap netlists/vibration_frontend.cir --series E24 -o out/snap"},
     {"merge", C_MERGE, "stagesim merge [options] SHARD.csv...",
      "Puts the study.csv files of a sharded sweep or spread back together (every point\n"
@@ -182,6 +186,10 @@ static const cli_option OPTIONS[] = {
     {"--temps", NULL, "LO,HI", C_SENS,
      "corner temperatures in C, -273.15 < LO < HI <= 1000 (default -40,85)"},
     {"--series", NULL, "E6|E12|E24|E48|E96|E192", C_SNAP, "the preferred-value series (required)"},
+    {"--cap-series", NULL, "E6|E12|E24|E48|E96|E192|none", C_SNAP,
+     "the capacitors' series (default E12); none leaves capacitors as they are"},
+    {"--keep", NULL, "A,B,...", C_SNAP,
+     "elements left as they are (a sensor's source resistance, the load)"},
     {"--quiet", "-q", NULL, C_ALL, "no report on standard output"},
     {"--help", "-h", NULL, C_ALL, "print this help and exit"},
 };
@@ -292,6 +300,7 @@ static int parse_args_init(int argc, char **argv, cli_args *a)
     a->min_yield = -1.0;
     a->temp_lo = -40.0;
     a->temp_hi = 85.0;
+    a->cap_series = 12;
     a->sets = calloc((size_t)argc, sizeof *a->sets);
     a->varies = calloc((size_t)argc, sizeof *a->varies);
     a->tols = calloc((size_t)argc, sizeof *a->tols);
@@ -458,18 +467,27 @@ static int parse_study_option(const char *n, const char *o, const char *next, cl
         a->shard_n = (int)m;
     } else if (strcmp(n, "--min-yield") == 0) {
         rc = parse_real(o, next, 0.0, 0, 1.0, 0, "a fraction from 0 to 1", &a->min_yield);
-    } else if (strcmp(n, "--series") == 0) {
+    } else if (strcmp(n, "--series") == 0 || strcmp(n, "--cap-series") == 0) {
+        int cap = n[2] == 'c';
         const char *v = (next[0] == 'E' || next[0] == 'e') ? next + 1 : next;
         static const int known[] = {6, 12, 24, 48, 96, 192};
-        a->series = 0;
+        int got = 0;
         for (size_t i = 0; i < sizeof known / sizeof known[0]; i++) {
             char txt[8];
             snprintf(txt, sizeof txt, "%d", known[i]);
             if (strcmp(v, txt) == 0)
-                a->series = known[i];
+                got = known[i];
         }
-        if (!a->series)
-            return usage_error("--series needs E6, E12, E24, E48, E96 or E192, got '%s'", next);
+        if (cap && strcmp(next, "none") == 0) {
+            a->cap_series = 0;
+            return EXIT_OK;
+        }
+        if (!got)
+            return usage_errorf("%s needs E6, E12, E24, E48, E96 or E192%s, got '%s'", n,
+                                cap ? " (or none)" : "", next);
+        *(cap ? &a->cap_series : &a->series) = got;
+    } else if (strcmp(n, "--keep") == 0) {
+        a->keep = next;
     } else if (strcmp(n, "--temps") == 0) {
         static const char needs[] = "LO,HI in degrees C with -273.15 < LO < HI <= 1000";
         char buf[256];

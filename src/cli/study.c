@@ -347,15 +347,22 @@ int cmd_snap(const cli_args *a)
     }
     ss_error err = {0};
     ss_table *vals = NULL, *figs = NULL;
+    ss_snap_opts opts = {a->series, a->cap_series, a->keep};
+    int n_failed = 0;
     if (ss_study_note_identity(s, "snap", set, &err) != SS_OK ||
-        ss_study_snap(s, a->series, "r", &vals, &figs, &err) != SS_OK ||
+        ss_study_snap_with(s, &opts, &vals, &figs, &n_failed, &err) != SS_OK ||
         write_table(vals, path[0], &err) != 0 || write_table(figs, path[1], &err) != 0) {
         rc = fail(&err);
         goto done;
     }
+    int pass_col = ss_table_col_index(figs, "pass");
     if (!a->quiet) {
-        printf("resistors snapped to E%d\n  %-16s %13s %13s %9s\n", a->series, "element",
-               "value", "E value", "change");
+        if (a->cap_series)
+            printf("resistors snapped to E%d, capacitors to E%d", a->series, a->cap_series);
+        else
+            printf("resistors snapped to E%d", a->series);
+        printf("%s%s\n  %-16s %13s %13s %9s\n", a->keep ? "; kept as they are: " : "",
+               a->keep ? a->keep : "", "element", "value", "E value", "change");
         int v_col = ss_table_col_index(vals, "value");
         int e_col = ss_table_col_index(vals, "preferred");
         int c_col = ss_table_col_index(vals, "change_pct");
@@ -363,25 +370,40 @@ int cmd_snap(const cli_args *a)
             printf("  %-16s %13.6g %13.6g %8.2f%%\n", ss_table_row_label(vals, i),
                    ss_table_get(vals, i, v_col), ss_table_get(vals, i, e_col),
                    ss_table_get(vals, i, c_col));
-        printf("\nfigures that move\n  %-24s %13s %13s %13s %9s\n", "figure", "computed",
-               "preferred", "shift", "shift");
+        printf("\nfigures that move\n  %-24s %13s %13s %13s %9s%s\n", "figure", "computed",
+               "preferred", "shift", "shift", pass_col >= 0 ? "  limits" : "");
         int fc_col = ss_table_col_index(figs, "computed");
         int fp_col = ss_table_col_index(figs, "preferred");
         int sh_col = ss_table_col_index(figs, "shift");
         int pct_col = ss_table_col_index(figs, "shift_pct");
         for (int i = 0; i < ss_table_rows(figs); i++) {
             double shift = ss_table_get(figs, i, sh_col), pct = ss_table_get(figs, i, pct_col);
-            if (shift == 0.0 || isnan(shift))
+            double ok = pass_col >= 0 ? ss_table_get(figs, i, pass_col) : (double)NAN;
+            if ((shift == 0.0 || isnan(shift)) && !(ok == 0.0))
                 continue;
-            printf("  %-24s %13.6g %13.6g %13.4g", ss_table_row_label(figs, i),
-                   ss_table_get(figs, i, fc_col), ss_table_get(figs, i, fp_col), shift);
-            if (isnan(pct))
-                printf(" %9s\n", "-");
+            const char *name = ss_table_row_label(figs, i);
+            const char *at = strchr(name, '@');
+            size_t base = at ? (size_t)(at - name) : strlen(name);
+            int is_db = base > 3 && strncmp(name + base - 3, "_db", 3) == 0;
+            printf("  %-24s %13.6g %13.6g %13.4g", name, ss_table_get(figs, i, fc_col),
+                   ss_table_get(figs, i, fp_col), shift);
+            /* a dB figure moves by dB, not by a percentage of its dB value */
+            if (is_db)
+                printf(" %+.4f dB", shift);
+            else if (isnan(pct))
+                printf(" %9s", "-");
             else
-                printf(" %8.3f%%\n", pct);
+                printf(" %8.3f%%", pct);
+            printf("%s\n", isnan(ok) ? "" : ok == 1.0 ? "  pass" : "  FAIL");
         }
+        if (pass_col >= 0)
+            printf("\nsnapped circuit against the limits: %s\n",
+                   n_failed ? "FAILS" : "every limit passes");
     }
-    rc = out_commit(set, EXIT_OK);
+    if (n_failed)
+        fprintf(stderr, "stagesim: the snapped circuit fails %d limit%s (snap_figures.csv)\n",
+                n_failed, n_failed == 1 ? "" : "s");
+    rc = out_commit(set, n_failed ? EXIT_CHECK_FAILED : EXIT_OK);
 done:
     ss_table_destroy(&vals);
     ss_table_destroy(&figs);

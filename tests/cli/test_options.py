@@ -453,7 +453,8 @@ SAMPLE = {"-o": ["{T}/o2"], "--out-dir": ["{T}/o3"], "--set": ["r2=12k"],
           "--min-yield": ["0.5"], "--vary": ["r1=list:5k,10k"], "--tol": ["r1=5%"],
           "--trials": ["4"], "--seed": ["7"], "--threads": ["2"], "--shard": ["1/2"],
           "--temps": ["-20,70"], "--series": ["E24"],
-          "--match": ["r1,r2=0.5", "--tol", "r1=5%"]}
+          "--match": ["r1,r2=0.5", "--tol", "r1=5%"], "--cap-series": ["E6"],
+          "--keep": ["r1"]}
 BASE = {"run": ["run", "{T}/s.cir", "-o", "{T}/out"],
         "check": ["check", "{T}/s.cir"],
         "sweep": ["sweep", "{T}/s.cir", "-o", "{T}/out", "--vary", "rtop=list:1k,2k"],
