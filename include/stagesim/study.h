@@ -88,6 +88,12 @@ SS_API ss_status ss_study_add_vary(ss_study *s, const char *spec, ss_error *err)
  * ss_value_parse reads them. The nominal is the value after the study's --set overrides, so
  * a tolerance on a --set name spreads around the --set value. */
 SS_API ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err);
+/* `NAME,NAME[,...]=RHO`: the tolerances named (added before, each in one group at most) are
+ * drawn correlated, every pair with correlation RHO (0 .. 1) of their standard normal draws:
+ * z_i = sqrt(RHO) c + sqrt(1 - RHO) e_i, c common to the group and e_i each one's own; a
+ * gaussian tolerance takes mean + sigma z_i, a uniform one lo + (hi - lo) Phi(z_i) (a gaussian
+ * copula). docs/studies.md. */
+SS_API ss_status ss_study_add_match(ss_study *s, const char *spec, ss_error *err);
 /* Monte Carlo: trials > 0 random trials per grid point from seed. */
 SS_API ss_status ss_study_set_trials(ss_study *s, long trials, unsigned long long seed,
                                      ss_error *err);
@@ -105,16 +111,33 @@ SS_API const ss_limits *ss_study_limits(const ss_study *s);
 SS_API void ss_study_set_progress(ss_study *s, ss_progress_fn fn, void *ctx);
 SS_API long ss_study_points(const ss_study *s);
 /* Output: one row per point of this shard: point, swept and sampled values, status (0 ok, else
- * the exit-code class of the failure), then every figure of the nominal run. Before any point
+ * the exit-code class of the failure), then every figure of the nominal run. With limits (the
+ * netlist's .expect lines or ss_study_add_limits) each point is judged: a column `pass` (1/0)
+ * after status, and the first limit the point fails (its quantity; "unsolved"; "" when it
+ * passes) as the row's label (ss_table_row_label), a text column `failed_limit` written
+ * before the figures. Before any point
  * is solved: SS_ERR_INPUT for a limit naming no figure (ss_limits_check_names) and, with
  * trials, for a name both swept and toleranced. */
 SS_API ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err);
 SS_API void ss_study_destroy(ss_study **s);
 
 /* Statistics of a points table: per figure n, min, max, mean, std (sample), and, for figures
- * with limits, the fraction of points passing; a row `all_limits` holds the yield. */
+ * with limits, the fraction of points passing; a row `all_limits` holds the yield. With limits
+ * also, per limited figure, its worst point (smallest distance to its limits' bounds):
+ * worst_point, worst_value, worst_margin (negative when failing) and worst_NAME for every swept
+ * and sampled column of the points. */
 SS_API ss_status ss_study_summarize(const ss_table *points, const ss_limits *limits,
                                     ss_table **out_summary, ss_error *err);
+
+/* Writes an SVG of a points table (study.csv's): one panel per figure with limits (without
+ * limits: per figure that varies; at most 40) -- histogram 1: a histogram of its values with
+ * the limits as vertical lines (tolerance runs); 0: its values over the first swept value, one
+ * curve per combination of the other swept values, the limit band shaded and failing points
+ * marked (sweeps). title may be NULL. Atomic. SS_ERR_INPUT: no point, no figure to plot, no
+ * swept value (histogram 0). */
+SS_API ss_status ss_study_write_plot(const ss_table *points, const ss_limits *limits,
+                                     int histogram, const char *title, const char *path,
+                                     ss_error *err);
 
 /* Normalised sensitivities (dF/F)/(dx/x) of every figure to every toleranced or listed value,
  * by central differences of +-1 %: a table labelled by figure, one column per value. The
@@ -136,7 +159,27 @@ SS_API ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_
 SS_API ss_status ss_study_snap(ss_study *s, int series, const char *kinds,
                                ss_table **out_values, ss_table **out_figures, ss_error *err);
 
-/* Reads a CSV written by ss_table_write_csv back (for merging shards). */
+/* What ss_study_snap_with snaps. */
+typedef struct ss_snap_opts {
+    int series_r; /* the resistors' series: 6, 12, 24, 48, 96 or 192; 0 leaves them */
+    int series_c; /* the capacitors' series (E6 / E12 are what capacitors come in, common
+                   * practice); 0 leaves capacitors as they are */
+    const char *keep; /* elements left as they are, "RS,RL" (not the user's to choose: a
+                       * sensor's source resistance, the load); NULL none */
+} ss_snap_opts;
+
+/* Snaps every resistor and (series_c > 0) capacitor but the kept ones to the nearest value of
+ * its series and solves again; the limits' names are checked first. Outputs: per element
+ * value, preferred, change_pct, series; per figure computed, preferred, shift (in the figure's
+ * unit: dB for a _db figure), shift_pct (empty for a _db figure: a percentage of a dB value
+ * means nothing), and with limits `pass` (1/0 for the snapped value, empty for a figure without
+ * limit); *n_failed (may be NULL) the limits the snapped circuit fails. A kept name that is no
+ * resistor or capacitor of the circuit is SS_ERR_INPUT. */
+SS_API ss_status ss_study_snap_with(ss_study *s, const ss_snap_opts *opts, ss_table **out_values,
+                                    ss_table **out_figures, int *n_failed, ss_error *err);
+
+/* Reads a CSV written by ss_table_write_csv back (for merging shards); a study's text column
+ * `failed_limit` becomes the row labels. */
 SS_API ss_status ss_table_read_csv(const char *path, ss_table **out, ss_error *err);
 /* Concatenates study shards and sorts them by point; the header must match and every point
  * appear once. The result written with ss_table_write_csv equals the unsharded run's file. */

@@ -133,6 +133,7 @@ _PROTOS = {
     "ss_study_set_stage": (S, [P, c_char_p, c_char_p, E]),
     "ss_study_add_vary": (S, [P, c_char_p, E]),
     "ss_study_add_tolerance": (S, [P, c_char_p, E]),
+    "ss_study_add_match": (S, [P, c_char_p, E]),
     "ss_study_set_trials": (S, [P, c_long, c_ulonglong, E]),
     "ss_study_set_threads": (S, [P, c_int, E]),
     "ss_study_points": (c_long, [P]),

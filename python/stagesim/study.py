@@ -30,6 +30,11 @@ class Study(_lib.Owned):
         call(lib.ss_study_add_tolerance, self._h, spec.encode())
         return self
 
+    def add_match(self, spec):
+        """`A,B,...=RHO`: those tolerances drawn correlated (docs/studies.md)."""
+        call(lib.ss_study_add_match, self._h, spec.encode())
+        return self
+
     def set_trials(self, trials, seed=1):
         call(lib.ss_study_set_trials, self._h, int(trials), int(seed))
         return self

@@ -21,14 +21,16 @@ typedef struct cli_args {
     int plot, quiet;
     int strict; /* check --strict: a lint warning fails the check */
     const char *junit;
-    const char **varies, **tols, **shards;
-    int n_varies, n_tols, n_shards;
+    const char **varies, **tols, **shards, **matches;
+    int n_varies, n_tols, n_shards, n_matches;
     long trials;
     unsigned long long seed;
     int threads;
     int shard_k, shard_n;
     double min_yield;
     int series;
+    int cap_series; /* snap: the capacitors' series, 0 none (default 12) */
+    const char *keep; /* snap: elements left as they are */
     double temp_lo, temp_hi;
     double ls_freq, thd_amp, thd_target;
     double noise_lo_hz, noise_hi_hz; /* --noise-band; 0 when not given */

@@ -7,20 +7,6 @@
 
 #include "cli.h"
 
-/* E6 .. E192 (or 6 .. 192): the series' count, 0 when it is none of them. */
-static int series_of(const char *text)
-{
-    const char *v = (text[0] == 'E' || text[0] == 'e') ? text + 1 : text;
-    static const int known[] = {6, 12, 24, 48, 96, 192};
-    for (size_t i = 0; i < sizeof known / sizeof known[0]; i++) {
-        char txt[8];
-        snprintf(txt, sizeof txt, "%d", known[i]);
-        if (strcmp(v, txt) == 0)
-            return known[i];
-    }
-    return 0;
-}
-
 int parse_draft_option(const char *n, const char *o, const char *next, cli_args *a)
 {
     ss_draft_req *q = &a->draft;
@@ -46,13 +32,6 @@ int parse_draft_option(const char *n, const char *o, const char *next, cli_args 
     if (strcmp(n, "--f-high") == 0)
         return parse_real(o, next, 0.0, 1, 1e9, 0, "a frequency above 0 and at most 1 GHz",
                           &q->f_high_hz);
-    if (strcmp(n, "--cap-series") == 0) {
-        q->cap_series = series_of(next);
-        if (!q->cap_series)
-            return usage_error("--cap-series needs E6, E12, E24, E48, E96 or E192, got '%s'",
-                               next);
-        return EXIT_OK;
-    }
     return -1;
 }
 
@@ -82,6 +61,11 @@ int cmd_draft(const cli_args *a)
         q.load_ohm = a->load_ohm;
     if (a->series)
         q.series = a->series;
+    /* --cap-series is read with snap's reader (main.c), whose default is draft's too */
+    if (a->cap_series == 0)
+        return usage_error("%s", "--cap-series none is snap's (capacitors left as they are): a "
+                                 "draft needs a capacitor series");
+    q.cap_series = a->cap_series;
     ss_error err = {0};
     ss_draft *d = NULL;
     if (ss_draft_create(&q, &d, &err) != SS_OK)

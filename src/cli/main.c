@@ -35,7 +35,8 @@ static const char USAGE[] =
     "                    (qgen.bf=250); repeatable, each NAME once (not merge)\n"
     "  --in SRC --out NODE   the stage's source and output node (override .stage; not merge)\n"
     "  --load OHMS       (run) the load the stage drives, for the Zout check\n"
-    "  --plot            (run) also write bode.svg (and wave.svg, thd_wave.svg)\n"
+    "  --plot            (run) also write bode.svg (and wave.svg, thd_wave.svg);\n"
+    "                    (sweep, spread) study.svg: the figures with their limits\n"
     "  --nodes A,B,...   (run) write only these nodes' voltages (op, dc, ac, tran tables and\n"
     "                    the report); default every node\n"
     "  --ls-freq F --thd-amp A --thd-target PCT   (run) the large-signal test\n"
@@ -49,7 +50,9 @@ static const char USAGE[] =
     "  --min-yield F     (sweep, spread, merge) exit 1 when the yield is below F (0..1)\n"
     "  --vary NAME=lin:START:STOP:N | log:START:STOP:N | list:V1,V2,...  (sweep, spread;\n"
     "                    NAME may be temp)\n"
-    "  --tol NAME=PCT%[:gauss] | NAME=LO..HI[:gauss]   (spread, sensitivity)\n"
+    "  --tol NAME=PCT%[:gauss] | NAME=LO..HI[:gauss] | NAME=NOM+-D[:gauss]\n"
+    "                    (spread, sensitivity; NAME may be INSTANCE.PARAM or temp)\n"
+    "  --match A,B,...=RHO   (spread) draw these toleranced values correlated (0..1)\n"
     "  --trials N --seed S   (spread) tolerance trials (default 1000, seed 1)\n"
     "  --threads N       (sweep, spread) worker threads (default: all cores); results never\n"
     "                    depend on it\n"
@@ -61,6 +64,8 @@ static const char USAGE[] =
     "  --series E6|E12|E24|E48|E96|E192   (snap, draft) the preferred-value series\n"
     "  --supply, --current, --swing, --gain, --zin, --load, --source, --f-low, --f-high,\n"
     "  --cap-series   (draft) the stage's requirements: stagesim draft --help\n"
+    "  --cap-series E6|...|none  (snap) the capacitors' series (default E12)\n"
+    "  --keep A,B,...    (snap) elements left as they are\n"
     "Real numbers take the netlist's SI suffixes (10k, 4.7meg, 100n; m is milli, a lone M\n"
     "is refused); counts are plain digits.\n"
     "\n"
@@ -122,8 +127,10 @@ static const cli_command COMMANDS[] = {
      "stagesim sensitivity netlists/vibration_frontend.cir --tol R1=5% --tol R2=5% \\\n"
      "      --temps -40,85 -o out/sens"},
     {"snap", C_SNAP, "stagesim snap NETLIST --series E6|E12|E24|E48|E96|E192 [options]",
-     "Snaps every resistor to the nearest value of the series (IEC 60063) and shows how\n"
-     "every figure shifts (snap_values.csv, snap_figures.csv).",
+     "Snaps every resistor to the nearest value of the series (IEC 60063) and every capacitor\n"
+     "to --cap-series (default E12), but the --keep elements, shows how every figure shifts\n"
+     "(snap_values.csv, snap_figures.csv) and judges the snapped circuit against the limits\n"
+     "(exit 1 when it fails one).",
      "stagesim snap netlists/vibration_frontend.cir --series E24 -o out/snap"},
     {"merge", C_MERGE, "stagesim merge [options] SHARD.csv...",
      "Puts the study.csv files of a sharded sweep or spread back together (every point\n"
@@ -176,6 +183,9 @@ static const cli_option OPTIONS[] = {
     {"--nodes", NULL, "A,B,...", C_RUN,
      "write only these nodes' voltages (op, dc, ac, tran tables, report)"},
     {"--plot", NULL, NULL, C_RUN, "also write bode.svg (and wave.svg, thd_wave.svg)"},
+    {"--plot", NULL, NULL, C_SWEEP | C_SPREAD,
+     "also write study.svg: per limited figure its values over the swept value (sweep) or "
+     "their histogram (spread), the limits drawn"},
     {"--ls-freq", NULL, "HZ", C_RUN,
      "large-signal test frequency (overrides .large_signal; needs a stage)"},
     {"--thd-amp", NULL, "AMP", C_RUN,
@@ -197,7 +207,10 @@ static const cli_option OPTIONS[] = {
      "lin:START:STOP:N, log:START:STOP:N or list:V1,...; NAME as --set or temp"},
     {"--vary", NULL, "NAME=SPEC", C_SPREAD, "a grid of swept values (as sweep), trials at each"},
     {"--tol", NULL, "NAME=SPEC", C_SPREAD | C_SENS,
-     "PCT%[:gauss] or LO..HI[:gauss], added to the .tolerance lines; repeatable"},
+     "PCT%[:gauss], LO..HI[:gauss] or NOM+-D[:gauss], added to the .tolerance lines; NAME "
+     "as --set, q1.bf (that transistor's own) or temp; repeatable"},
+    {"--match", NULL, "A,B,...=RHO", C_SPREAD,
+     "draw these toleranced values correlated (RHO 0 .. 1, e.g. q1.bf,q2.bf=0.95); repeatable"},
     {"--trials", NULL, "N", C_SPREAD, "number of trials, 1 .. 100000000 (default 1000)"},
     {"--seed", NULL, "S", C_SPREAD, "random seed, 0 .. 18446744073709551615 (default 1)"},
     {"--threads", NULL, "N", C_SWEEP | C_SPREAD,
@@ -218,6 +231,10 @@ static const cli_option OPTIONS[] = {
     {"--max-candidates", NULL, "N", C_REFINE,
      "the most candidate designs solved, 10 .. 10000000 (default 20000)"},
     DRAFT_OPTIONS(C_DRAFT),
+    {"--cap-series", NULL, "E6|E12|E24|E48|E96|E192|none", C_SNAP,
+     "the capacitors' series (default E12); none leaves capacitors as they are"},
+    {"--keep", NULL, "A,B,...", C_SNAP,
+     "elements left as they are (a sensor's source resistance, the load)"},
     {"--quiet", "-q", NULL, C_ALL, "no report on standard output"},
     {"--help", "-h", NULL, C_ALL, "print this help and exit"},
 };
@@ -329,13 +346,16 @@ static int parse_args_init(int argc, char **argv, cli_args *a)
     a->temp_lo = -40.0;
     a->temp_hi = 85.0;
     ss_draft_req_init(&a->draft, SS_DRAFT_FOLLOWER);
+    a->cap_series = 12;
     a->sets = calloc((size_t)argc, sizeof *a->sets);
     a->varies = calloc((size_t)argc, sizeof *a->varies);
     a->tols = calloc((size_t)argc, sizeof *a->tols);
+    a->matches = calloc((size_t)argc, sizeof *a->matches);
     a->shards = calloc((size_t)argc, sizeof *a->shards);
     a->nodes = calloc((size_t)argc, sizeof *a->nodes);
     a->supply_tols = calloc((size_t)argc, sizeof *a->supply_tols);
-    if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes || !a->supply_tols)
+    if (!a->sets || !a->varies || !a->tols || !a->matches || !a->shards || !a->nodes ||
+        !a->supply_tols)
         return EXIT_BAD_INPUT;
     return EXIT_OK;
 }
@@ -358,7 +378,8 @@ static int check_option(const char *o, const char *next, const cli_command *cmd,
     /* a value given twice would drop the first; only these options add up */
     if (opt && opt->arg && strcmp(opt->name, "--set") != 0 && strcmp(opt->name, "--vary") != 0 &&
         strcmp(opt->name, "--tol") != 0 && strcmp(opt->name, "--nodes") != 0 &&
-        strcmp(opt->name, "--limits") != 0 && strcmp(opt->name, "--supply-tol") != 0) {
+        strcmp(opt->name, "--match") != 0 && strcmp(opt->name, "--limits") != 0 &&
+        strcmp(opt->name, "--supply-tol") != 0) {
         if (seen[opt - OPTIONS])
             return usage_errorf("%s given twice", o);
         seen[opt - OPTIONS] = 1;
@@ -481,6 +502,8 @@ static int parse_study_option(const char *n, const char *o, const char *next, cl
         a->varies[a->n_varies++] = next;
     } else if (strcmp(n, "--tol") == 0) {
         a->tols[a->n_tols++] = next;
+    } else if (strcmp(n, "--match") == 0) {
+        a->matches[a->n_matches++] = next;
     } else if (strcmp(n, "--trials") == 0) {
         unsigned long long v;
         if (parse_count(next, 100000000ull, &v) != 0 || v < 1)
@@ -511,18 +534,27 @@ static int parse_study_option(const char *n, const char *o, const char *next, cl
         a->shard_n = (int)m;
     } else if (strcmp(n, "--min-yield") == 0) {
         rc = parse_real(o, next, 0.0, 0, 1.0, 0, "a fraction from 0 to 1", &a->min_yield);
-    } else if (strcmp(n, "--series") == 0) {
+    } else if (strcmp(n, "--series") == 0 || strcmp(n, "--cap-series") == 0) {
+        int cap = n[2] == 'c';
         const char *v = (next[0] == 'E' || next[0] == 'e') ? next + 1 : next;
         static const int known[] = {6, 12, 24, 48, 96, 192};
-        a->series = 0;
+        int got = 0;
         for (size_t i = 0; i < sizeof known / sizeof known[0]; i++) {
             char txt[8];
             snprintf(txt, sizeof txt, "%d", known[i]);
             if (strcmp(v, txt) == 0)
-                a->series = known[i];
+                got = known[i];
         }
-        if (!a->series)
-            return usage_error("--series needs E6, E12, E24, E48, E96 or E192, got '%s'", next);
+        if (cap && strcmp(next, "none") == 0) {
+            a->cap_series = 0;
+            return EXIT_OK;
+        }
+        if (!got)
+            return usage_errorf("%s needs E6, E12, E24, E48, E96 or E192%s, got '%s'", n,
+                                cap ? " (or none)" : "", next);
+        *(cap ? &a->cap_series : &a->series) = got;
+    } else if (strcmp(n, "--keep") == 0) {
+        a->keep = next;
     } else if (strcmp(n, "--temps") == 0) {
         static const char needs[] = "LO,HI in degrees C with -273.15 < LO < HI <= 1000";
         char buf[256];
@@ -704,6 +736,7 @@ int main(int argc, char **argv)
     free(a.sets);
     free(a.varies);
     free(a.tols);
+    free(a.matches);
     free(a.shards);
     free(a.nodes);
     free(a.supply_tols);

@@ -54,6 +54,9 @@ static int make_study(const cli_args *a, ss_study **out, ss_limits **lim)
     for (int i = 0; i < a->n_tols; i++)
         if (ss_study_add_tolerance(s, a->tols[i], &err) != SS_OK)
             goto bad;
+    for (int i = 0; i < a->n_matches; i++)
+        if (ss_study_add_match(s, a->matches[i], &err) != SS_OK)
+            goto bad;
     if (a->limits_path) {
         if (ss_limits_create(lim, &err) != SS_OK ||
             ss_limits_add_file(*lim, a->limits_path, &err) != SS_OK ||
@@ -109,12 +112,42 @@ static void print_summary(const ss_table *summary)
     }
 }
 
+/* For every limited figure some point fails: its worst point and the swept and sampled values
+ * there (study_summary.csv's worst_* columns), so a failing run says which combination failed. */
+static void print_worst(const ss_table *summary)
+{
+    int wp = ss_table_col_index(summary, "worst_point");
+    if (wp < 0)
+        return;
+    int pf = ss_table_col_index(summary, "pass_fraction");
+    int wv = ss_table_col_index(summary, "worst_value");
+    int header = 0;
+    for (int i = 0; i < ss_table_rows(summary); i++) {
+        const char *name = ss_table_row_label(summary, i);
+        double frac = ss_table_get(summary, i, pf);
+        if (strcmp(name, "all_limits") == 0 || isnan(frac) || frac >= 1.0)
+            continue;
+        if (!header++)
+            printf("\nworst point of each failing figure\n");
+        double v = ss_table_get(summary, i, wv);
+        printf("  %-24s point %.0f: ", name, ss_table_get(summary, i, wp));
+        if (isnan(v))
+            printf("unsolved");
+        else
+            printf("%.6g", v);
+        for (int j = wp + 3; j < ss_table_cols(summary); j++)
+            printf("%s %s=%.6g", j == wp + 3 ? " at" : ",", ss_table_col_name(summary, j) + 6,
+                   ss_table_get(summary, i, j));
+        printf("\n");
+    }
+}
+
 int cmd_study(const cli_args *a, int spread)
 {
-    static const char *const names[2] = {"study.csv", "study_summary.csv"};
-    const char *path[2];
+    static const char *const names[3] = {"study.csv", "study_summary.csv", "study.svg"};
+    const char *path[3];
     ss_outset *set = NULL;
-    int rc = out_start(a, names, 2, path, &set);
+    int rc = out_start(a, names, a->plot ? 3 : 2, path, &set);
     if (rc != EXIT_OK)
         return rc;
     ss_study *s = NULL;
@@ -143,6 +176,14 @@ int cmd_study(const cli_args *a, int spread)
         rc = fail(&err);
         goto done;
     }
+    if (a->plot) {
+        char title[512];
+        snprintf(title, sizeof title, "%s %s", spread ? "spread" : "sweep", a->netlist);
+        if (ss_study_write_plot(pts, ss_study_limits(s), spread, title, path[2], &err) != SS_OK) {
+            rc = fail(&err);
+            goto done;
+        }
+    }
     int n_bad = 0, n = ss_table_rows(pts);
     int status_col = ss_table_col_index(pts, "status");
     for (int i = 0; i < n; i++)
@@ -152,6 +193,7 @@ int cmd_study(const cli_args *a, int spread)
                spread ? "spread" : "sweep", a->netlist, n, a->shard_n > 1 ? " (this shard)" : "",
                n_bad);
         print_summary(summary);
+        print_worst(summary);
     }
     if (n_bad)
         fprintf(stderr, "stagesim: warning: %d point%s did not solve (status column; figures "
@@ -310,15 +352,22 @@ int cmd_snap(const cli_args *a)
     }
     ss_error err = {0};
     ss_table *vals = NULL, *figs = NULL;
+    ss_snap_opts opts = {a->series, a->cap_series, a->keep};
+    int n_failed = 0;
     if (ss_study_note_identity(s, "snap", set, &err) != SS_OK ||
-        ss_study_snap(s, a->series, "r", &vals, &figs, &err) != SS_OK ||
+        ss_study_snap_with(s, &opts, &vals, &figs, &n_failed, &err) != SS_OK ||
         write_table(vals, path[0], &err) != 0 || write_table(figs, path[1], &err) != 0) {
         rc = fail(&err);
         goto done;
     }
+    int pass_col = ss_table_col_index(figs, "pass");
     if (!a->quiet) {
-        printf("resistors snapped to E%d\n  %-16s %13s %13s %9s\n", a->series, "element",
-               "value", "E value", "change");
+        if (a->cap_series)
+            printf("resistors snapped to E%d, capacitors to E%d", a->series, a->cap_series);
+        else
+            printf("resistors snapped to E%d", a->series);
+        printf("%s%s\n  %-16s %13s %13s %9s\n", a->keep ? "; kept as they are: " : "",
+               a->keep ? a->keep : "", "element", "value", "E value", "change");
         int v_col = ss_table_col_index(vals, "value");
         int e_col = ss_table_col_index(vals, "preferred");
         int c_col = ss_table_col_index(vals, "change_pct");
@@ -326,25 +375,40 @@ int cmd_snap(const cli_args *a)
             printf("  %-16s %13.6g %13.6g %8.2f%%\n", ss_table_row_label(vals, i),
                    ss_table_get(vals, i, v_col), ss_table_get(vals, i, e_col),
                    ss_table_get(vals, i, c_col));
-        printf("\nfigures that move\n  %-24s %13s %13s %13s %9s\n", "figure", "computed",
-               "preferred", "shift", "shift");
+        printf("\nfigures that move\n  %-24s %13s %13s %13s %9s%s\n", "figure", "computed",
+               "preferred", "shift", "shift", pass_col >= 0 ? "  limits" : "");
         int fc_col = ss_table_col_index(figs, "computed");
         int fp_col = ss_table_col_index(figs, "preferred");
         int sh_col = ss_table_col_index(figs, "shift");
         int pct_col = ss_table_col_index(figs, "shift_pct");
         for (int i = 0; i < ss_table_rows(figs); i++) {
             double shift = ss_table_get(figs, i, sh_col), pct = ss_table_get(figs, i, pct_col);
-            if (shift == 0.0 || isnan(shift))
+            double ok = pass_col >= 0 ? ss_table_get(figs, i, pass_col) : (double)NAN;
+            if ((shift == 0.0 || isnan(shift)) && !(ok == 0.0))
                 continue;
-            printf("  %-24s %13.6g %13.6g %13.4g", ss_table_row_label(figs, i),
-                   ss_table_get(figs, i, fc_col), ss_table_get(figs, i, fp_col), shift);
-            if (isnan(pct))
-                printf(" %9s\n", "-");
+            const char *name = ss_table_row_label(figs, i);
+            const char *at = strchr(name, '@');
+            size_t base = at ? (size_t)(at - name) : strlen(name);
+            int is_db = base > 3 && strncmp(name + base - 3, "_db", 3) == 0;
+            printf("  %-24s %13.6g %13.6g %13.4g", name, ss_table_get(figs, i, fc_col),
+                   ss_table_get(figs, i, fp_col), shift);
+            /* a dB figure moves by dB, not by a percentage of its dB value */
+            if (is_db)
+                printf(" %+.4f dB", shift);
+            else if (isnan(pct))
+                printf(" %9s", "-");
             else
-                printf(" %8.3f%%\n", pct);
+                printf(" %8.3f%%", pct);
+            printf("%s\n", isnan(ok) ? "" : ok == 1.0 ? "  pass" : "  FAIL");
         }
+        if (pass_col >= 0)
+            printf("\nsnapped circuit against the limits: %s\n",
+                   n_failed ? "FAILS" : "every limit passes");
     }
-    rc = out_commit(set, EXIT_OK);
+    if (n_failed)
+        fprintf(stderr, "stagesim: the snapped circuit fails %d limit%s (snap_figures.csv)\n",
+                n_failed, n_failed == 1 ? "" : "s");
+    rc = out_commit(set, n_failed ? EXIT_CHECK_FAILED : EXIT_OK);
 done:
     ss_table_destroy(&vals);
     ss_table_destroy(&figs);

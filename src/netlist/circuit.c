@@ -137,6 +137,15 @@ ss_status ss_circuit_get_value(const ss_circuit *ckt, const char *name, double *
                 return SS_OK;
             }
         }
+        /* INSTANCE.PARAM: the element's model's value, the nominal of its own */
+        int ei = circuit_find_elem(ckt, low);
+        if (ei >= 0 && elem_has_model(&ckt->elem[ei])) {
+            int pi = model_param_index(ckt->elem[ei].mod->ops, dot + 1);
+            if (pi >= 0) {
+                *out_value = ckt->elem[ei].mod->p[pi];
+                return SS_OK;
+            }
+        }
         *dot = '.';
     }
     return err_set(err, SS_ERR_INPUT, NULL, 0,

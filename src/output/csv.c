@@ -109,24 +109,38 @@ ss_status ss_table_write_csv(const ss_table *t, const char *path, ss_error *err)
     ss_status st = csv_open(&o, path, err);
     if (st != SS_OK)
         return st;
-    if (t->has_labels) {
-        csv_field(&o, t->label_col);
-        csv_char(&o, ',');
-    }
-    for (int j = 0; j < t->n_cols; j++) {
-        if (j)
+    /* the labels in their column: before data column label_at (0 unless a table says) */
+    int at = t->has_labels ? (t->label_at < 0 ? 0 : t->label_at > t->n_cols ? t->n_cols : t->label_at)
+                           : -1;
+    for (int j = 0; j <= t->n_cols; j++) {
+        if (j == at) {
+            if (j)
+                csv_char(&o, ',');
+            csv_field(&o, t->label_col);
+            if (j < t->n_cols)
+                csv_char(&o, ',');
+        }
+        if (j == t->n_cols)
+            break;
+        if (j && j != at)
             csv_char(&o, ',');
         csv_field(&o, t->col_names[j]);
     }
     csv_char(&o, '\n');
     for (int i = 0; i < t->n_rows && !o.f.failed; i++) {
-        if (t->has_labels) {
-            csv_field(&o, t->row_labels[i]);
-            csv_char(&o, ',');
-        }
         const double *row = t->data + (size_t)i * (size_t)t->n_cols;
-        for (int j = 0; j < t->n_cols; j++)
-            csv_number(&o, row[j], j > 0);
+        for (int j = 0; j <= t->n_cols; j++) {
+            if (j == at) {
+                if (j)
+                    csv_char(&o, ',');
+                csv_field(&o, t->row_labels[i]);
+                if (j < t->n_cols)
+                    csv_char(&o, ',');
+            }
+            if (j == t->n_cols)
+                break;
+            csv_number(&o, row[j], j > 0 && j != at);
+        }
         csv_char(&o, '\n');
     }
     return csv_commit(&o, err);

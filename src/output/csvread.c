@@ -127,7 +127,7 @@ ss_status table_parse_csv(const char *path, char *text, ss_table **out, ss_error
     char **fields = ss_alloc(MAX_FIELDS * sizeof *fields);
     ss_table *t = NULL;
     ss_status st = SS_OK;
-    int line_no = 0, n_cols = 0;
+    int line_no = 0, n_cols = 0, text_col = -1;
     char *p = text;
     while (st == SS_OK && fields && *p) {
         char *nl = strchr(p, '\n');
@@ -147,9 +147,14 @@ ss_status table_parse_csv(const char *path, char *text, ss_table **out, ss_error
             st = err_set(err, SS_ERR_INPUT, path, line_no, "malformed CSV line");
         } else if (line_no == 1) {
             n_cols = n;
-            t = table_create(n, NULL);
-            for (int j = 0; t && j < n; j++)
-                if (table_set_col(t, j, fields[j]) != 0)
+            for (int j = 0; j < n && text_col < 0; j++)
+                if (strcmp(fields[j], TABLE_TEXT_COL) == 0)
+                    text_col = j;
+            t = table_create(text_col < 0 ? n : n - 1, text_col < 0 ? NULL : TABLE_TEXT_COL);
+            if (t)
+                t->label_at = text_col < 0 ? 0 : text_col;
+            for (int j = 0, c = 0; t && j < n; j++)
+                if (j != text_col && table_set_col(t, c++, fields[j]) != 0)
                     st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
             if (!t)
                 st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
@@ -159,12 +164,14 @@ ss_status table_parse_csv(const char *path, char *text, ss_table **out, ss_error
             st = err_set(err, SS_ERR_INPUT, path, line_no, "%d fields, the header has %d", n,
                          n_cols);
         } else {
-            double *row = table_add_row(t, NULL);
+            double *row = table_add_row(t, text_col < 0 ? NULL : fields[text_col]);
             if (!row)
                 st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-            for (int j = 0; row && j < n && st == SS_OK; j++) {
-                row[j] = SS_NAN;
-                if (fields[j][0] && number_field(fields[j], &row[j]) != 0)
+            for (int j = 0, c = 0; row && j < n && st == SS_OK; j++) {
+                if (j == text_col)
+                    continue;
+                double *cell = &row[c++];
+                if (fields[j][0] && number_field(fields[j], cell) != 0)
                     st = err_set(err, SS_ERR_INPUT, path, line_no,
                                  "'%.40s' in column %d is not a number as stagesim writes them",
                                  fields[j], j + 1);

@@ -73,6 +73,10 @@ SS_HIDDEN ss_status output_write_strbuf(ss_strbuf *b, const char *path, ss_error
  * it in messages). csvread.c. */
 SS_HIDDEN ss_status csv_read_bytes(const char *path, ss_strbuf *b, ss_error *err);
 SS_HIDDEN ss_status table_parse_csv(const char *path, char *text, ss_table **out, ss_error *err);
+/* The one text column stagesim writes in a numbers table: a study's points table names there
+ * the first limit a point fails (runner.c). The reader takes a column of this header as the
+ * table's row labels, written back in the same place. */
+#define TABLE_TEXT_COL "failed_limit"
 /* Appends text for XML element content or an attribute value: & < > " as entities, control
  * characters XML 1.0 does not allow as spaces, every byte that is not part of well-formed UTF-8
  * as U+FFFD, so any netlist name or title keeps the document well-formed (xml.c). */

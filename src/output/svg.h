@@ -31,6 +31,39 @@ SS_HIDDEN ss_status svg_write_bode(const char *path, const svg_bode_input *in, s
  * Returns SS_OK, SS_ERR_INPUT, SS_ERR_NOMEM (also when *out had already failed). */
 SS_HIDDEN ss_status svg_render_bode(ss_strbuf *out, const svg_bode_input *in, ss_error *err);
 
+/* ---- study plots (study_svg.c) ----------------------------------------------------------- */
+
+/* One figure of a study: its value at every point and its limit band. */
+typedef struct svg_study_panel {
+    const char *figure;
+    const double *v; /* n values; NaN for a point that did not solve (not drawn) */
+    double lo, hi;   /* the band every limit on it leaves; -HUGE_VAL / HUGE_VAL when open */
+    int has_limit;
+} svg_study_panel;
+
+typedef struct svg_study_input {
+    const char *title; /* may be NULL */
+    int histogram;     /* 1: a histogram per figure (tolerance runs); 0: curves over x (sweeps) */
+    const double *x;   /* curves: the swept value of each point */
+    const char *x_name;
+    int x_log;        /* curves: a log x axis (every x > 0) */
+    const int *curve; /* curves: each point's curve (the other swept values), 0 .. n_curves-1 */
+    int n_curves;
+    const char *const *curve_label; /* n_curves labels ("bf=200"), or NULL */
+    int n; /* points */
+    const svg_study_panel *panels;
+    int n_panels;
+} svg_study_input;
+
+/* An SVG 1.1 document with one panel per figure, stacked: a histogram of its values (bars with
+ * data-count, the limits as vertical lines) or its curves over the swept value (polylines, the
+ * limit band shaded, failing points marked). Each panel's plot area is a rect of class
+ * plot-area whose data-x / data-y give the axis ranges (data-x-scale lin or log), so a reader
+ * can map every coordinate back to its value. Atomic write; SS_ERR_INPUT when there is no
+ * panel or no point. */
+SS_HIDDEN ss_status svg_write_study(const char *path, const svg_study_input *in, ss_error *err);
+SS_HIDDEN ss_status svg_render_study(ss_strbuf *out, const svg_study_input *in, ss_error *err);
+
 /* ---- primitives shared by the plot writers (svg_draw.c) ---------------------------------- */
 
 SS_HIDDEN void svg_put(ss_strbuf *b, const char *s);

@@ -237,9 +237,24 @@ ss_status solver_temp_error(const ss_solver *sv, const element *e, const char *w
                    e->mod->name, sv->temp_c, why);
 }
 
+/* The models of the context at temp_c: the cards' and every instance's own (values.c). */
+static ss_status check_models_at(const ss_solver *sv, double temp_c, ss_error *err)
+{
+    ss_status st = models_check_temp(sv->models, sv->ckt->n_models, temp_c, err);
+    for (int i = 0; st == SS_OK && sv->inst && i < sv->n_elem; i++)
+        if (sv->inst[i] && sv->inst[i]->active) {
+            model *m = &sv->inst[i]->m;
+            ss_error e2 = {0};
+            if (models_check_temp(&m, 1, temp_c, &e2) != SS_OK)
+                st = err_set(err, e2.code, e2.file, e2.line, "%s (the parameters of %s): %s",
+                             m->name, sv->elem[i].name, e2.message);
+        }
+    return st;
+}
+
 ss_status solver_check_temp(const ss_solver *sv, ss_error *err)
 {
-    return models_check_temp(sv->models, sv->ckt->n_models, sv->temp_c, err);
+    return check_models_at(sv, sv->temp_c, err);
 }
 
 ss_status ss_solver_set_temp(ss_solver *sv, double temp_c, ss_error *err)
@@ -247,7 +262,7 @@ ss_status ss_solver_set_temp(ss_solver *sv, double temp_c, ss_error *err)
     if (!(temp_c > -SS_ZERO_C_IN_K && temp_c <= 1000.0))
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "temperature %g C is outside -273.15 .. 1000 C", temp_c);
-    ss_status st = models_check_temp(sv->models, sv->ckt->n_models, temp_c, err);
+    ss_status st = check_models_at(sv, temp_c, err);
     if (st != SS_OK)
         return st;
     sv->temp_c = temp_c;

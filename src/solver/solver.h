@@ -32,6 +32,9 @@ struct ss_solver {
     int recheck_structure; /* values changed: the next prepare checks the internal nodes */
     int load_set;          /* the stage's load was named on the context (ss_solver_set_load) */
     double temp_c;
+    /* per element, its own model parameters (INSTANCE.PARAM, values.c): NULL until one of the
+     * element's is set by name; kept (inactive) across resets, so a study allocates once */
+    struct inst_model **inst;
 
     /* requests a caller may change per context */
     stage_spec stage;
@@ -80,6 +83,17 @@ struct ss_solver {
     struct warning_lint *warning_lint;
     int n_warnings;
 };
+
+/* An element's own copy of its model: the shared model's values (as replayed) with the
+ * parameters set on this instance by name in their place. While active, the element's mod
+ * points to m. */
+typedef struct inst_model {
+    model m;
+    const model *shared; /* the context's copy of the element's model card */
+    double val[MODEL_MAX_PARAMS];
+    unsigned char pin[MODEL_MAX_PARAMS];
+    int active;
+} inst_model;
 
 struct ac_wslot {
     double a0, a1;

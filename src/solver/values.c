@@ -153,6 +153,12 @@ static ss_status check_values(const ss_solver *sv, ss_error *err)
         if (model_range_check(md, msg, sizeof msg) != 0)
             return err_set(err, SS_ERR_INPUT, md->file, md->line, "%s", msg);
     }
+    for (int i = 0; sv->inst && i < sv->n_elem; i++) {
+        char msg[512];
+        const inst_model *im = sv->inst[i];
+        if (im && im->active && model_range_check(&im->m, msg, sizeof msg) != 0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0, "%s: %s", sv->elem[i].name, msg);
+    }
     return solver_check_temp(sv, err);
 }
 
@@ -175,6 +181,19 @@ ss_status solver_sync_values(ss_solver *sv, ss_error *err)
     }
     for (int i = 0; i < ckt->tape.n_entry && st == SS_OK; i++)
         st = replay_entry(&rc, &ckt->tape.entry[i], err);
+    /* an element's own parameters: its card's values as they now are, its own in their place */
+    for (int i = 0; st == SS_OK && sv->inst && i < sv->n_elem; i++) {
+        inst_model *im = sv->inst[i];
+        if (!im || !im->active)
+            continue;
+        memcpy(im->m.p, im->shared->p, sizeof im->m.p);
+        memcpy(im->m.given, im->shared->given, sizeof im->m.given);
+        for (int f = 0; f < MODEL_MAX_PARAMS; f++)
+            if (im->pin[f]) {
+                im->m.p[f] = im->val[f];
+                im->m.given[f] = 1;
+            }
+    }
     if (st == SS_OK)
         st = check_values(sv, err);
     if (st != SS_OK)
@@ -185,10 +204,11 @@ ss_status solver_sync_values(ss_solver *sv, ss_error *err)
 
 /* ---- by name ----------------------------------------------------------------------------- */
 
-enum { NAME_PARAM = 1, NAME_ELEM, NAME_MODEL };
+enum { NAME_PARAM = 1, NAME_ELEM, NAME_MODEL, NAME_INST };
 
 /* What `name` names, in the --set order: a global parameter, an element's main value, a
- * model's parameter. 0 when none (err set). */
+ * model's parameter, then one element's own model parameter (INSTANCE.PARAM: `q1.bf`, that
+ * transistor's alone). 0 when none (err set). */
 static int resolve(const ss_solver *sv, const char *name, int *index, int *field, ss_error *err)
 {
     const ss_circuit *ckt = sv->ckt;
@@ -227,10 +247,44 @@ static int resolve(const ss_solver *sv, const char *name, int *index, int *field
             *field = pi;
             return NAME_MODEL;
         }
+        int ei = circuit_find_elem(ckt, low);
+        if (ei >= 0 && elem_has_model(&ckt->elem[ei])) {
+            const model *md = ckt->elem[ei].mod;
+            int pi = model_param_index(md->ops, dot + 1);
+            if (pi < 0)
+                return err_set(err, SS_ERR_INPUT, NULL, 0,
+                               "%s: the model '%s' of %s has no parameter '%s'", name, md->name,
+                               low, dot + 1),
+                       0;
+            *index = ei;
+            *field = pi;
+            return NAME_INST;
+        }
     }
     return err_set(err, SS_ERR_INPUT, NULL, 0,
                    "%s: no parameter, element or model parameter of that name", name),
            0;
+}
+
+/* Element i's own model record, made on first use (in the context's arena, kept for reuse);
+ * NULL when out of memory. */
+static inst_model *inst_get(ss_solver *sv, int i)
+{
+    if (!sv->inst) {
+        sv->inst = arena_alloc(&sv->arena, (size_t)(sv->n_elem + 1) * sizeof *sv->inst);
+        if (!sv->inst)
+            return NULL;
+        memset(sv->inst, 0, (size_t)(sv->n_elem + 1) * sizeof *sv->inst);
+    }
+    if (!sv->inst[i]) {
+        inst_model *im = arena_alloc(&sv->arena, sizeof *im);
+        if (!im)
+            return NULL;
+        memset(im, 0, sizeof *im);
+        im->shared = sv->elem[i].mod; /* the card's copy: no instance of it is active yet */
+        sv->inst[i] = im;
+    }
+    return sv->inst[i];
 }
 
 ss_status ss_solver_set_value(ss_solver *sv, const char *name, double value, ss_error *err)
@@ -250,10 +304,24 @@ ss_status ss_solver_set_value(ss_solver *sv, const char *name, double value, ss_
         sv->elem[index].value = value;
         sv->elem_pin[index] = 1;
         break;
-    default:
+    case NAME_MODEL:
         sv->models[index]->p[field] = value;
         sv->models[index]->given[field] = 1;
         sv->model_pin[index * MODEL_MAX_PARAMS + field] = 1;
+        break;
+    default: {
+        inst_model *im = inst_get(sv, index);
+        if (!im)
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        if (!im->active) {
+            im->m = *im->shared;
+            memset(im->pin, 0, sizeof im->pin);
+            im->active = 1;
+            sv->elem[index].mod = &im->m;
+        }
+        im->val[field] = value;
+        im->pin[field] = 1;
+    }
     }
     sv->n_pins++;
     sv->values_dirty = 1;
@@ -271,9 +339,10 @@ ss_status ss_solver_get_value(ss_solver *sv, const char *name, double *out_value
     ss_status st = solver_sync_values(sv, err);
     if (st != SS_OK)
         return st;
-    *out_value = kind == NAME_PARAM  ? sv->param_val[index]
-                 : kind == NAME_ELEM ? sv->elem[index].value
-                                     : sv->models[index]->p[field];
+    *out_value = kind == NAME_PARAM   ? sv->param_val[index]
+                 : kind == NAME_ELEM  ? sv->elem[index].value
+                 : kind == NAME_MODEL ? sv->models[index]->p[field]
+                                      : sv->elem[index].mod->p[field];
     return SS_OK;
 }
 
@@ -296,6 +365,11 @@ void ss_solver_reset_values(ss_solver *sv)
             memcpy(sv->models[m]->p, ckt->models[m]->p, sizeof ckt->models[m]->p);
             memcpy(sv->models[m]->given, ckt->models[m]->given, sizeof ckt->models[m]->given);
         }
+        for (int i = 0; sv->inst && i < sv->n_elem; i++)
+            if (sv->inst[i] && sv->inst[i]->active) { /* back to the card's values */
+                sv->inst[i]->active = 0;
+                sv->elem[i].mod = sv->inst[i]->shared;
+            }
         for (int k = 0; k < ckt->n_params; k++)
             sv->param_val[k] = ckt->params[k].value;
         memset(sv->param_pin, 0, (size_t)ckt->n_params);

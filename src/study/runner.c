@@ -12,7 +12,9 @@
 #include <string.h>
 #include <unistd.h>
 
+#include "devices/device.h"
 #include "netlist/netlist.h"
+#include "output/output.h"
 #include "study/study.h"
 
 #define STUDY_MAX_THREADS 256
@@ -453,9 +455,7 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
     char *name = lower_dup(&s->arena, spec, (size_t)(eq - spec));
     if (!name)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    if (strcmp(name, "temp") == 0)
-        return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "tolerance on temp: sweep the temperature with --vary temp=... instead");
+    int is_temp = strcmp(name, "temp") == 0;
     double nominal;
     ss_status st = check_name(s, name, &nominal, err);
     if (st != SS_OK)
@@ -468,7 +468,7 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
         return err_set(err, SS_ERR_INPUT, NULL, 0, "tolerance on %s: longer than %zu characters",
                        name, sizeof body - 1);
     snprintf(body, sizeof body, "%s", eq + 1);
-    tol_spec t = {name, nominal, 0, 0, 0};
+    tol_spec t = {name, nominal, 0, 0, 0, -1, -1};
     char *colon = strchr(body, ':');
     if (colon) {
         *colon = '\0';
@@ -481,7 +481,25 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
     }
     size_t len = strlen(body);
     char *dots = strstr(body, "..");
-    if (len > 0 && body[len - 1] == '%') {
+    /* NOM+-D (or NOM±D): LO..HI = NOM-D .. NOM+D */
+    char *pm = strstr(body, "+-");
+    char *pm_utf8 = strstr(body, "\xc2\xb1");
+    if (!pm)
+        pm = pm_utf8;
+    if (is_temp && len > 0 && body[len - 1] == '%')
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "tolerance on temp: a percentage of degrees C means nothing; give "
+                       "LO..HI or NOM+-D in C (temp=-40..85, temp=25+-10:gauss)");
+    if (pm && !dots) {
+        *pm = '\0';
+        double nom, d;
+        if (spec_number(body, netlist_rules, &nom) != 0 ||
+            spec_number(pm + 2, netlist_rules, &d) != 0 || !(d >= 0.0))
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "tolerance on %s: expected NOM+-D with D >= 0", name);
+        t.lo = nom - d;
+        t.hi = nom + d;
+    } else if (len > 0 && body[len - 1] == '%') {
         body[len - 1] = '\0';
         double pct;
         if (spec_number(body, netlist_rules, &pct) != 0 || !(pct >= 0.0 && pct < 100.0))
@@ -497,8 +515,14 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
                            "tolerance on %s: expected LO..HI with LO <= HI", name);
     } else {
         return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "tolerance on %s: expected PCT%% or LO..HI, got '%s'", name, body);
+                       "tolerance on %s: expected PCT%%, LO..HI or NOM+-D, got '%s'", name,
+                       body);
     }
+    if (is_temp && !(temp_in_range(t.lo) && temp_in_range(t.hi)))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "tolerance on temp: %g .. %g C leaves -273.15 .. 1000 C", t.lo, t.hi);
+    if (is_temp)
+        t.nominal = 0.5 * (t.lo + t.hi); /* the centre: no card holds a nominal temperature */
     if (s->n_tols == s->cap_tols) {
         int ncap = s->cap_tols ? s->cap_tols * 2 : 8;
         tol_spec *nt = ss_realloc(s->tols, (size_t)ncap * sizeof *nt);
@@ -514,6 +538,105 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
 ss_status ss_study_add_tolerance(ss_study *s, const char *spec, ss_error *err)
 {
     return add_tolerance(s, spec, 0, err);
+}
+
+ss_status ss_study_add_match(ss_study *s, const char *spec, ss_error *err)
+{
+    char body[1024];
+    const char *eq = strrchr(spec, '=');
+    if (!eq || eq == spec || strlen(spec) >= sizeof body)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--match '%s': expected NAME,NAME[,...]=RHO with 0 <= RHO <= 1", spec);
+    if (s->n_groups >= STUDY_MAX_GROUPS)
+        return err_set(err, SS_ERR_LIMIT, NULL, 0, "--match: more than %d groups",
+                       STUDY_MAX_GROUPS);
+    ss_error e2 = {0};
+    double rho;
+    if (ss_value_parse(eq + 1, &rho, &e2) != SS_OK || !(rho >= 0.0 && rho <= 1.0))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--match %.*s: the correlation must be a number from 0 to 1, got '%s'",
+                       (int)(eq - spec), spec, eq + 1);
+    snprintf(body, sizeof body, "%.*s", (int)(eq - spec), spec);
+    char *f[STUDY_MAX_DIMS * 16];
+    int n = split_fields(body, ',', f, (int)(sizeof f / sizeof f[0]));
+    if (n < 2 || n > (int)(sizeof f / sizeof f[0]))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "--match %s: name from 2 to %d toleranced values, apart by commas",
+                       body, (int)(sizeof f / sizeof f[0]));
+    int g = s->n_groups, idx[sizeof f / sizeof f[0]];
+    for (int i = 0; i < n; i++) {
+        for (char *c = f[i]; *c; c++)
+            *c = (char)tolower((unsigned char)*c);
+        idx[i] = -1;
+        for (int t = 0; t < s->n_tols && idx[i] < 0; t++)
+            if (strcmp(s->tols[t].name, f[i]) == 0)
+                idx[i] = t;
+        if (idx[i] < 0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "--match: '%s' has no tolerance (give it one with --tol or "
+                           ".tolerance first)",
+                           f[i]);
+        if (s->tols[idx[i]].group >= 0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "--match: '%s' is matched twice (a tolerance belongs to one group)",
+                           f[i]);
+        for (int j = 0; j < i; j++)
+            if (idx[j] == idx[i])
+                return err_set(err, SS_ERR_INPUT, NULL, 0, "--match: '%s' named twice", f[i]);
+    }
+    for (int i = 0; i < n; i++)
+        s->tols[idx[i]].group = g;
+    s->groups[g].rho = rho;
+    s->groups[g].n = n;
+    s->n_groups++;
+    return SS_OK;
+}
+
+/* (model, parameter) of a tolerance's name: a card's parameter (`qn.bf`, is_inst 0) or an
+ * element's own (`q1.bf`, is_inst 1, the element's card); 0 when it is neither. */
+static int tol_model_param(const ss_circuit *ckt, const char *name, const model **md, int *pi,
+                           int *is_inst)
+{
+    char low[1024];
+    const char *dot = strrchr(name, '.');
+    if (!dot || strlen(name) >= sizeof low)
+        return 0;
+    snprintf(low, sizeof low, "%.*s", (int)(dot - name), name);
+    for (int k = 0; k < ckt->n_params; k++)
+        if (strcmp(ckt->params[k].name, name) == 0)
+            return 0;
+    if (circuit_find_elem(ckt, name) >= 0)
+        return 0;
+    int mi;
+    if (strmap_get(&ckt->model_map, low, &mi)) {
+        *md = ckt->models[mi];
+        *is_inst = 0;
+    } else {
+        int ei = circuit_find_elem(ckt, low);
+        if (ei < 0 || !elem_has_model(&ckt->elem[ei]))
+            return 0;
+        *md = ckt->elem[ei].mod;
+        *is_inst = 1;
+    }
+    *pi = model_param_index((*md)->ops, dot + 1);
+    return *pi >= 0;
+}
+
+/* Links each instance tolerance (`q1.bf`) to a tolerance on its card's parameter (`qn.bf`):
+ * then the instance spreads around the card's sampled value (a common and an own part). */
+static void link_instance_tols(ss_study *s)
+{
+    for (int t = 0; t < s->n_tols; t++) {
+        const model *md, *md2;
+        int pi, pi2, inst, inst2;
+        s->tols[t].scale_by = -1;
+        if (!tol_model_param(s->nominal, s->tols[t].name, &md, &pi, &inst) || !inst)
+            continue;
+        for (int u = 0; u < s->n_tols; u++)
+            if (u != t && tol_model_param(s->nominal, s->tols[u].name, &md2, &pi2, &inst2) &&
+                !inst2 && md2 == md && pi2 == pi && s->tols[u].nominal != 0.0)
+                s->tols[t].scale_by = u;
+    }
 }
 
 ss_status ss_study_set_trials(ss_study *s, long trials, unsigned long long seed, ss_error *err)
@@ -600,6 +723,8 @@ typedef struct run_shared {
     ss_table *out;
     long first, count; /* this shard's point range */
     int n_fixed;       /* columns before the figures */
+    const int *lim_fig; /* per limit, its figure's index among the figures; NULL: no limits */
+    int *fail_idx;      /* per point of the shard: the first limit it fails, -1 none, -2 unsolved */
     pthread_mutex_t lock;
     long next, done;
     ss_status fatal;
@@ -620,12 +745,37 @@ static void point_values(const ss_study *s, long p, double *vals)
          * shard that computes it */
         rng r;
         rng_seed(&r, s->seed, (uint64_t)trial);
+        double common[STUDY_MAX_GROUPS];
+        unsigned char drawn[STUDY_MAX_GROUPS] = {0};
         for (int t = 0; t < s->n_tols; t++) {
             const tol_spec *ts = &s->tols[t];
             double mid = 0.5 * (ts->lo + ts->hi), half = 0.5 * (ts->hi - ts->lo);
-            double v = ts->gauss ? mid + half / 3.0 * rng_gauss(&r)
-                                 : ts->lo + (ts->hi - ts->lo) * rng_uniform(&r);
+            double v;
+            if (ts->group < 0) {
+                v = ts->gauss ? mid + half / 3.0 * rng_gauss(&r)
+                              : ts->lo + (ts->hi - ts->lo) * rng_uniform(&r);
+            } else {
+                /* a matched value: the group's common draw (made at its first member's turn)
+                 * and its own, z = sqrt(rho) c + sqrt(1 - rho) e, corr(z_i, z_j) = rho */
+                int g = ts->group;
+                if (!drawn[g]) {
+                    common[g] = rng_gauss(&r);
+                    drawn[g] = 1;
+                }
+                double rho = s->groups[g].rho;
+                double z = sqrt(rho) * common[g] + sqrt(1.0 - rho) * rng_gauss(&r);
+                v = ts->gauss ? mid + half / 3.0 * z
+                              : ts->lo + (ts->hi - ts->lo) * 0.5 * erfc(-z / sqrt(2.0));
+            }
             vals[s->n_dims + t] = v;
+        }
+        /* an instance's own parameter around its card's sampled value: drawn value times the
+         * card's sample over the card's nominal (the card's tolerance is drawn in this trial
+         * already, whatever the order) */
+        for (int t = 0; t < s->n_tols; t++) {
+            int u = s->tols[t].scale_by;
+            if (u >= 0)
+                vals[s->n_dims + t] *= vals[s->n_dims + u] / s->tols[u].nominal;
         }
     }
 }
@@ -717,6 +867,18 @@ static void *worker(void *arg)
         for (int f = 0; f < nf->n_rows; f++)
             row[sh->n_fixed + f] = st == SS_OK ? figures_value(figs, f, nf->row_labels[f])
                                                : SS_NAN;
+        if (sh->lim_fig) {
+            /* judged here, in the limits' order: the first one failing is named */
+            int fail = st == SS_OK ? -1 : -2;
+            for (int k = 0; fail == -1 && k < s->limits->n; k++) {
+                const limit *lim = &s->limits->items[k];
+                double v = sh->lim_fig[k] < 0 ? SS_NAN : row[sh->n_fixed + sh->lim_fig[k]];
+                if (!(v >= lim->lo && v <= lim->hi))
+                    fail = k;
+            }
+            sh->fail_idx[i] = fail;
+            row[sh->n_fixed - 1] = fail == -1 ? 1.0 : 0.0;
+        }
         ss_table_destroy(&figs);
         pthread_mutex_lock(&sh->lock);
         if (st == SS_ERR_NOMEM && sh->fatal == SS_OK) {
@@ -730,6 +892,24 @@ static void *worker(void *arg)
     }
     ss_solver_destroy(&sv);
     return NULL;
+}
+
+/* Names in each row's text the first limit it fails (fail_idx, as the workers judged): the
+ * limit's quantity, "unsolved" for a point without figures, "" for a point that passes. One
+ * copy of each name, shared by the rows. 0 ok, -1 no memory. */
+static int label_failures(ss_table *t, const ss_limits *l, const int *fail_idx)
+{
+    const char **names = ss_alloc((size_t)l->n * sizeof *names);
+    const char *unsolved = arena_strdup(&t->arena, "unsolved");
+    const char *none = arena_strdup(&t->arena, "");
+    int bad = !names || !unsolved || !none;
+    for (int k = 0; !bad && k < l->n; k++)
+        bad |= !(names[k] = arena_strdup(&t->arena, l->items[k].quantity));
+    for (int i = 0; !bad && i < t->n_rows; i++)
+        t->row_labels[i] = fail_idx[i] >= 0 ? names[fail_idx[i]] : fail_idx[i] == -2 ? unsolved
+                                                                                   : none;
+    ss_free(names);
+    return bad ? -1 : 0;
 }
 
 ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
@@ -751,6 +931,7 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
     ss_status st = ss_limits_check_names(s->limits, s->nominal_sv, err);
     if (st != SS_OK)
         return st;
+    link_instance_tols(s);
     long first = total * (s->shard_k - 1) / s->shard_n;
     long end = total * s->shard_k / s->shard_n;
     /* the nominal run fixes the figure columns */
@@ -760,9 +941,16 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
     if (st != SS_OK)
         return st;
     int n_vals = s->n_dims + (s->trials > 0 ? s->n_tols : 0);
-    int n_fixed = 2 + n_vals;
-    ss_table *t = table_create(n_fixed + nominal_figs->n_rows, NULL);
+    /* with limits, each point is judged: a `pass` column after `status` and the first limit
+     * it fails as text (failed_limit) before the figures */
+    int judged = s->limits && s->limits->n > 0;
+    int n_fixed = 2 + n_vals + judged;
+    ss_table *t = table_create(n_fixed + nominal_figs->n_rows, judged ? TABLE_TEXT_COL : NULL);
     int bad = !t || table_set_col(t, 0, "point") != 0;
+    if (!bad && judged) {
+        t->label_at = n_fixed;
+        bad |= table_set_col(t, n_fixed - 1, "pass") != 0;
+    }
     for (int d = 0; !bad && d < s->n_dims; d++)
         bad |= table_set_col(t, 1 + d, s->dims[d].name) != 0;
     for (int v = s->n_dims; !bad && v < n_vals; v++)
@@ -777,8 +965,28 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
     }
     for (long i = first; i < end; i++)
         table_add_row(t, NULL);
+    int *lim_fig = NULL, *fail_idx = NULL;
+    if (judged) {
+        lim_fig = ss_alloc((size_t)s->limits->n * sizeof *lim_fig);
+        fail_idx = ss_alloc((size_t)(end - first > 0 ? end - first : 1) * sizeof *fail_idx);
+        if (!lim_fig || !fail_idx) {
+            ss_free(lim_fig);
+            ss_free(fail_idx);
+            ss_table_destroy(&t);
+            ss_table_destroy(&nominal_figs);
+            return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+        }
+        for (int k = 0; k < s->limits->n; k++) {
+            lim_fig[k] = -1;
+            for (int f = 0; f < nominal_figs->n_rows && lim_fig[k] < 0; f++)
+                if (strcmp(nominal_figs->row_labels[f], s->limits->items[k].quantity) == 0)
+                    lim_fig[k] = f;
+        }
+    }
     run_shared sh;
     memset(&sh, 0, sizeof sh);
+    sh.lim_fig = lim_fig;
+    sh.fail_idx = fail_idx;
     sh.s = s;
     sh.nominal_figs = nominal_figs;
     sh.out = t;
@@ -805,6 +1013,12 @@ ss_status ss_study_run(ss_study *s, ss_table **out_points, ss_error *err)
         pthread_join(tid[i], NULL);
     pthread_mutex_destroy(&sh.lock);
     ss_table_destroy(&nominal_figs);
+    if (sh.fatal == SS_OK && judged && label_failures(t, s->limits, fail_idx) != 0) {
+        sh.fatal = SS_ERR_NOMEM;
+        err_set(&sh.fatal_err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    }
+    ss_free(lim_fig);
+    ss_free(fail_idx);
     if (sh.fatal != SS_OK) {
         ss_table_destroy(&t);
         *err = sh.fatal_err;
@@ -851,6 +1065,13 @@ ss_status study_identity(const ss_study *s, ss_strbuf *text, long *first, long *
     for (int t = 0; t < s->n_tols; t++)
         strbuf_printf(text, "tol %s %.17g %.17g %s\n", s->tols[t].name, s->tols[t].lo,
                       s->tols[t].hi, s->tols[t].gauss ? "gauss" : "uniform");
+    for (int g = 0; g < s->n_groups; g++) {
+        strbuf_printf(text, "match %.17g", s->groups[g].rho);
+        for (int t = 0; t < s->n_tols; t++)
+            if (s->tols[t].group == g)
+                strbuf_printf(text, " %s", s->tols[t].name);
+        strbuf_printf(text, "\n");
+    }
     strbuf_printf(text, "trials %ld\nseed %llu\nlimits %s\n", s->trials, s->seed,
                   s->limits_sha256[0] ? s->limits_sha256 : "-");
     return text->failed ? err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory") : SS_OK;

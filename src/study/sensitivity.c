@@ -38,13 +38,16 @@ ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
     if (st == SS_OK && vals)
         st = study_context(s, &sv, err);
     for (int j = 0; vals && sv && j < s->n_tols && st == SS_OK; j++) {
-        double x0 = s->tols[j].nominal;
+        /* the temperature by its absolute value: +-1 % of the kelvins, per kelvin-relative */
+        int is_temp = strcmp(s->tols[j].name, "temp") == 0;
+        double off = is_temp ? SS_ZERO_C_IN_K : 0.0;
+        double x0 = s->tols[j].nominal + off;
         ss_table *fp = NULL, *fm = NULL;
         for (int k = 0; k < s->n_tols; k++)
             vals[k] = s->tols[k].nominal;
-        vals[j] = x0 * 1.01;
+        vals[j] = x0 * 1.01 - off;
         st = study_solve_point(s, sv, vals, s->n_tols, &fp, err);
-        vals[j] = x0 * 0.99;
+        vals[j] = x0 * 0.99 - off;
         if (st == SS_OK)
             st = study_solve_point(s, sv, vals, s->n_tols, &fm, err);
         for (int f = 0; st == SS_OK && f < nom->n_rows; f++) {

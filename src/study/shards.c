@@ -56,11 +56,18 @@ ss_status ss_study_note_identity(const ss_study *s, const char *command, ss_outs
 
 /* ---- merging -------------------------------------------------------------------------- */
 
+/* A row of a shard: its numbers and its text (the first failing limit), when it has one. */
+typedef struct merge_row {
+    const double *d;
+    const char *label;
+} merge_row;
+
 static int cmp_point(const void *a, const void *b)
 {
-    double x = **(const double *const *)a, y = **(const double *const *)b;
+    double x = ((const merge_row *)a)->d[0], y = ((const merge_row *)b)->d[0];
     return (x > y) - (x < y);
 }
+
 ss_status ss_study_merge(ss_table *const *shards, int n_shards, ss_table **out_points,
                          ss_error *err)
 {
@@ -72,10 +79,11 @@ ss_status ss_study_merge(ss_table *const *shards, int n_shards, ss_table **out_p
     long total = 0;
     for (int i = 0; i < n_shards; i++) {
         const ss_table *b = shards[i];
-        if (b->n_cols != a->n_cols)
+        if (b->n_cols != a->n_cols || b->has_labels != a->has_labels ||
+            (a->has_labels && (b->label_at != a->label_at || strcmp(a->label_col, b->label_col))))
             return err_set(err, SS_ERR_INPUT, NULL, 0,
-                           "merge: shard %d has %d columns, the first has %d", i + 1, b->n_cols,
-                           a->n_cols);
+                           "merge: shard %d has %d columns, the first has %d", i + 1,
+                           b->n_cols + b->has_labels, a->n_cols + a->has_labels);
         for (int j = 0; j < a->n_cols; j++)
             if (strcmp(a->col_names[j], b->col_names[j]) != 0)
                 return err_set(err, SS_ERR_INPUT, NULL, 0,
@@ -83,29 +91,36 @@ ss_status ss_study_merge(ss_table *const *shards, int n_shards, ss_table **out_p
                                j + 1, b->col_names[j], a->col_names[j]);
         total += b->n_rows;
     }
-    const double **rows = ss_alloc((size_t)(total ? total : 1) * sizeof *rows);
+    merge_row *rows = ss_alloc((size_t)(total ? total : 1) * sizeof *rows);
     if (!rows)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     long k = 0;
     for (int i = 0; i < n_shards; i++)
-        for (int r = 0; r < shards[i]->n_rows; r++)
-            rows[k++] = shards[i]->data + (size_t)r * (size_t)a->n_cols;
+        for (int r = 0; r < shards[i]->n_rows; r++, k++) {
+            rows[k].d = shards[i]->data + (size_t)r * (size_t)a->n_cols;
+            rows[k].label = a->has_labels ? shards[i]->row_labels[r] : NULL;
+        }
     qsort(rows, (size_t)total, sizeof *rows, cmp_point);
     for (long i = 0; i < total; i++)
-        if (rows[i][0] != (double)i) {
-            double got = rows[i][0];
+        if (rows[i].d[0] != (double)i) {
+            double got = rows[i].d[0];
             ss_free(rows);
             return err_set(err, SS_ERR_INPUT, NULL, 0,
                            "merge: point %ld is %s (got point %.0f there)", i,
                            got < (double)i ? "duplicated" : "missing", got);
         }
-    ss_table *t = table_create(a->n_cols, NULL);
+    ss_table *t = table_create(a->n_cols, a->has_labels ? a->label_col : NULL);
     int bad = !t || table_reserve(t, (int)(total ? total : 1)) != 0;
+    if (!bad)
+        t->label_at = a->label_at;
     for (int j = 0; !bad && j < a->n_cols; j++)
         bad |= table_set_col(t, j, a->col_names[j]) != 0;
     for (long i = 0; !bad && i < total; i++) {
-        double *row = table_add_row(t, NULL);
-        memcpy(row, rows[i], (size_t)a->n_cols * sizeof *row);
+        double *row = table_add_row(t, rows[i].label);
+        if (!row)
+            bad = 1;
+        else
+            memcpy(row, rows[i].d, (size_t)a->n_cols * sizeof *row);
     }
     ss_free(rows);
     if (bad) {

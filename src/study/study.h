@@ -39,7 +39,19 @@ typedef struct tol_spec {
     double nominal;
     double lo, hi; /* absolute range */
     int gauss;
+    int group; /* its correlation group (ss_study_add_match), -1 none */
+    /* an instance's own model parameter (`q1.bf`) whose card's parameter (`qn.bf`) is sampled
+     * too: the index of that tolerance, the instance's draw scaled by its ratio to its nominal
+     * (set when the run starts); -1 none */
+    int scale_by;
 } tol_spec;
+
+#define STUDY_MAX_GROUPS 64
+
+typedef struct match_group {
+    double rho; /* the correlation of the standard normal draws of its members, 0 .. 1 */
+    int n;      /* members: the tolerances whose group is this one */
+} match_group;
 
 struct ss_study {
     ss_arena arena;
@@ -57,6 +69,8 @@ struct ss_study {
     int n_dims;
     tol_spec *tols;
     int n_tols, cap_tols;
+    match_group groups[STUDY_MAX_GROUPS];
+    int n_groups;
     long trials;
     unsigned long long seed;
     int threads;

@@ -8,6 +8,9 @@ struct ss_table {
     int n_rows, n_cols, cap_rows;
     int has_labels;
     const char *label_col; /* header of the label column, e.g. "quantity" */
+    int label_at;          /* the CSV column the labels are written in: before data column
+                            * label_at (0: first, the usual place; a study's points table puts
+                            * its text column after its numbers, src/study/runner.c) */
     const char **col_names;
     const char **row_labels;
     double *data; /* row-major */

@@ -460,9 +460,10 @@ VALUES = {"DIR": "out/probe", "NAME=VALUE": "r1=1k", "SRC": "vsens", "NODE": "ou
           "FILE": "out/probe.txt", "F": "0.5", "N": "2", "S": "1", "K/N": "1/2",
           "LO,HI": "-40,85", "E12\\|E24\\|E96": "E12",
           "E6\\|E12\\|E24\\|E48\\|E96\\|E192": "E12", "F1..F2": "1..1k", "a\\|none": "a",
-          "VOLTS": "12", "AMPS": "1m", "GAIN": "10"}
+          "VOLTS": "12", "AMPS": "1m", "GAIN": "10",
+          "E6\\|E12\\|E24\\|E48\\|E96\\|E192\\|none": "E12"}
 SPEC = {"--vary": "r1=list:1k", "--tol": "r1=5%", "--supply-tol": "vcc=10%",
-        "--beta-range": "0.5x,2x"}
+        "--beta-range": "0.5x,2x", "--match": "r1,r2=0.5"}
 
 
 def check_option_table(cwd, env):

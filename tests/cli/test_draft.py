@@ -297,7 +297,8 @@ try:
         (["ce", "--load", "0"], "stagesim: --load needs a resistance in ohms above 0"),
         (["ce", "--gain", "ten"], "stagesim: --gain needs a voltage gain (V/V) above 0"),
         (["ce", "--cap-series", "E5"], "stagesim: --cap-series needs E6, E12, E24, E48, E96 or "
-                                       "E192, got 'E5'"),
+                                       "E192 (or none), got 'E5'"),
+        (["ce", "--cap-series", "none"], "stagesim: --cap-series none is snap's"),
         (["ce", "--series", "E7"], "stagesim: --series needs E6, E12, E24, E48, E96 or E192"),
         (["amplifier"], "stagesim: draft: unknown KIND 'amplifier'"),
         ([], "stagesim: draft needs a KIND"),

@@ -495,7 +495,8 @@ SAMPLE = {"-o": ["{T}/o2"], "--out-dir": ["{T}/o3"], "--set": ["r2=12k"],
           "--supply-tol": ["vsup=10%"], "--max-candidates": ["50"], "--noise-band": ["1..1k"],
           "--noise-weight": ["a"], "--supply": ["9"], "--current": ["2m"],
           "--swing": ["1"], "--gain": ["5"], "--zin": ["10k"], "--source": ["600"],
-          "--f-low": ["10"], "--f-high": ["50k"], "--cap-series": ["E6"]}
+          "--f-low": ["10"], "--f-high": ["50k"], "--cap-series": ["E6"],
+          "--match": ["r1,r2=0.5", "--tol", "r1=5%"], "--keep": ["r1"]}
 BASE = {"run": ["run", "{T}/s.cir", "-o", "{T}/out"],
         "check": ["check", "{T}/s.cir"],
         "sweep": ["sweep", "{T}/s.cir", "-o", "{T}/out", "--vary", "rtop=list:1k,2k"],

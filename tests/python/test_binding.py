@@ -223,6 +223,14 @@ subprocess.run([STAGESIM, "spread", VIB, "--set", "RC=6.8k", "--tol", "R1=5%", "
                 "-o", os.path.join(tmp, "sp")], check=True, stdout=subprocess.DEVNULL)
 ok, why = same_table(pts, os.path.join(tmp, "sp", "study.csv"))
 check("Study spread equals `stagesim spread`'s study.csv", ok, why)
+st = stagesim.Study(VIB).add_tolerance("R1=5%:gauss").add_tolerance("R2=5%:gauss").add_match(
+    "R1,R2=0.9").set_trials(20, seed=3).set_threads(1)
+pts = st.run()
+subprocess.run([STAGESIM, "spread", VIB, "--tol", "R1=5%:gauss", "--tol", "R2=5%:gauss",
+                "--match", "R1,R2=0.9", "--trials", "20", "--seed", "3", "--threads", "1",
+                "-o", os.path.join(tmp, "sm")], check=True, stdout=subprocess.DEVNULL)
+ok, why = same_table(pts, os.path.join(tmp, "sm", "study.csv"))
+check("Study.add_match equals `stagesim spread --match`'s study.csv", ok, why)
 with stagesim.Study(VIB) as st:
     st.set_stage("vsens", "c")
     check("Study.set_stage and a context manager", st.add_vary("RC=list:5k").run()["status"][0]

@@ -114,6 +114,91 @@ static void test_set_value_refusals(void **state)
     ss_circuit_destroy(&ckt);
 }
 
+/* Two transistors on one card; the reference for "q1's own parameter" is the same text with
+ * q1 on a card of its own that differs only there. */
+static const char *PAIR_FMT =
+    "matched pair\n"
+    "vcc vcc 0 9\n"
+    "rb1 vcc b1 820k\nq1 c1 b1 0 %s\nrc1 vcc c1 3.3k\n"
+    "rb2 vcc b2 820k\nq2 c2 b2 0 qn\nrc2 vcc c2 3.3k\n"
+    ".model qn npn is=2e-14 bf=180 vaf=%s\n"
+    ".model qown npn is=2e-14 bf=%s vaf=%s\n";
+
+static void pair_solve(ss_solver *sv, double *vc1, double *vc2)
+{
+    ss_table *op = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_op_solve(sv, &op, NULL, &err), SS_OK);
+    *vc1 = ss_test_opval(op, "v(c1)");
+    *vc2 = ss_test_opval(op, "v(c2)");
+    ss_table_destroy(&op);
+}
+
+static void pair_fresh(const char *q1_card, const char *vaf, const char *own_bf, double *vc1,
+                       double *vc2)
+{
+    char text[1024];
+    snprintf(text, sizeof text, PAIR_FMT, q1_card, vaf, own_bf, vaf);
+    ss_circuit *ckt = ss_test_parse(text);
+    ss_solver *sv = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_solver_create(ckt, &sv, &err), SS_OK);
+    pair_solve(sv, vc1, vc2);
+    ss_solver_destroy(&sv);
+    ss_circuit_destroy(&ckt);
+}
+
+static void test_instance_model_parameter(void **state)
+{
+    (void)state;
+    char text[1024];
+    snprintf(text, sizeof text, PAIR_FMT, "qn", "60", "180", "60");
+    ss_circuit *ckt = ss_test_parse(text);
+    ss_solver *sv = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_solver_create(ckt, &sv, &err), SS_OK);
+    double a1, a2, b1, b2, v;
+    /* q1.bf: q1 alone, as if it had a card of its own */
+    assert_int_equal(ss_solver_set_value(sv, "Q1.BF", 95.0, &err), SS_OK);
+    pair_solve(sv, &a1, &a2);
+    pair_fresh("qown", "60", "95", &b1, &b2);
+    assert_same_bits(a1, b1);
+    assert_same_bits(a2, b2);
+    assert_int_equal(ss_solver_get_value(sv, "q1.bf", &v, &err), SS_OK);
+    assert_same_bits(v, 95.0);
+    assert_int_equal(ss_solver_get_value(sv, "q2.bf", &v, &err), SS_OK);
+    assert_same_bits(v, 180.0);
+    assert_int_equal(ss_solver_get_value(sv, "qn.bf", &v, &err), SS_OK);
+    assert_same_bits(v, 180.0);
+    /* the card changed afterwards: q1 follows it in everything but its own BF */
+    assert_int_equal(ss_solver_set_value(sv, "qn.vaf", 80.0, &err), SS_OK);
+    pair_solve(sv, &a1, &a2);
+    pair_fresh("qown", "80", "95", &b1, &b2);
+    assert_same_bits(a1, b1);
+    assert_same_bits(a2, b2);
+    assert_int_equal(ss_solver_get_value(sv, "q1.vaf", &v, &err), SS_OK);
+    assert_same_bits(v, 80.0);
+    /* reset: both back on the card */
+    ss_solver_reset_values(sv);
+    pair_solve(sv, &a1, &a2);
+    pair_fresh("qn", "60", "180", &b1, &b2);
+    assert_same_bits(a1, b1);
+    assert_same_bits(a2, b2);
+    /* its circuit's nominal is the card's; a parameter the kind lacks is refused */
+    assert_int_equal(ss_circuit_get_value(ckt, "q2.bf", &v, &err), SS_OK);
+    assert_same_bits(v, 180.0);
+    assert_int_equal(ss_solver_set_value(sv, "q1.nosuch", 1.0, &err), SS_ERR_INPUT);
+    ss_assert_contains(err.message, "of q1 has no parameter 'nosuch'");
+    /* out of range: the next analysis names the instance */
+    memset(&err, 0, sizeof err);
+    assert_int_equal(ss_solver_set_value(sv, "q1.bf", -1.0, &err), SS_OK);
+    ss_table *op = NULL;
+    assert_int_equal(ss_op_solve(sv, &op, NULL, &err), SS_ERR_INPUT);
+    ss_assert_contains(err.message, "q1: ");
+    ss_solver_destroy(&sv);
+    ss_circuit_destroy(&ckt);
+}
+
 static void test_fixed_settings_refused(void **state)
 {
     (void)state;
@@ -229,6 +314,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_set_param_reaches_expressions),
         cmocka_unit_test(test_set_value_refusals),
+        cmocka_unit_test(test_instance_model_parameter),
         cmocka_unit_test(test_fixed_settings_refused),
         cmocka_unit_test(test_stage_load_follows_its_param),
         cmocka_unit_test(test_two_contexts_two_threads),
