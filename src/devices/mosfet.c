@@ -337,13 +337,22 @@ static void mos_limit(element *e, dev_load_ctx *lc, double *vgs, double *vds, do
     double dvth, von = mos_vth(e->tp, polarity(e) * e->tp[MP_VTO], st[ST_VBS], &dvth);
     double g0 = *vgs, d0 = *vds, b0 = *vbs;
     double vgd = *vgs - *vds, vgd_old = st[ST_VGS] - st[ST_VDS];
+    /* a voltage the limits leave alone is kept exactly as it came: recomputing it as a
+     * difference (vgs - vgd) changes its last bits, which would read as "limited" at every
+     * iteration and never let Newton converge (a switch at Vds of a few nV, fully on) */
     if (st[ST_VDS] >= 0.0) {
-        *vgs = mos_fetlim(*vgs, st[ST_VGS], von);
-        *vds = mos_limvds(*vgs - vgd, st[ST_VDS]);
+        double vgs_l = mos_fetlim(*vgs, st[ST_VGS], von);
+        double vds_l = vgs_l == *vgs ? *vds : vgs_l - vgd;
+        *vgs = vgs_l;
+        *vds = mos_limvds(vds_l, st[ST_VDS]);
     } else {
-        vgd = mos_fetlim(vgd, vgd_old, von);
-        *vds = -mos_limvds(-(*vgs - vgd), -st[ST_VDS]);
-        *vgs = vgd + *vds;
+        double vgd_l = mos_fetlim(vgd, vgd_old, von);
+        double vds_l = vgd_l == vgd ? *vds : *vgs - vgd_l;
+        double lim = -mos_limvds(-vds_l, -st[ST_VDS]);
+        if (vgd_l != vgd || lim != vds_l) {
+            *vds = lim;
+            *vgs = vgd_l + lim;
+        }
     }
     if (*vds >= 0.0) {
         *vbs = junction_limit(*vbs, st[ST_VBS], vt, vcrit, &lc->limited);
