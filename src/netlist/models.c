@@ -142,9 +142,14 @@ static void list_add(char *buf, size_t len, int first, const char *fmt, const ch
 static int judge_unknown(parser *ps, const logline *ll, const model_ctx *mc)
 {
     const model *m = mc->m;
-    int n = mc->n_unknown < MODEL_MAX_UNKNOWN ? mc->n_unknown : MODEL_MAX_UNKNOWN;
+    int n = mc->n_unknown;
     if (n == 0)
         return 0;
+    if (mc->n_unknown > MODEL_MAX_UNKNOWN) /* not all of them judged: none is ignored */
+        return line_error(ps, ll, "model '%s': %d fields that are not %s model parameters "
+                                  "(more than %d)",
+                          m->name, mc->n_unknown, m->ops->model_kind, MODEL_MAX_UNKNOWN),
+               -1;
     char bad[768] = "", extra[512] = "";
     int n_bad = 0, n_extra = 0;
     for (int i = 0; i < n; i++) {
@@ -159,36 +164,32 @@ static int judge_unknown(parser *ps, const logline *ll, const model_ctx *mc)
         else
             list_add(bad, sizeof bad, n_bad++ == 0, "'%s'%s", name, "");
     }
-    char more[48] = "";
-    if (mc->n_unknown > n)
-        snprintf(more, sizeof more, " and %d more", mc->n_unknown - n);
     const char *kind = m->ops->model_kind;
     if (n_bad > 0 && (n_extra == 0 || ps->model_extras_warn))
-        return line_error(ps, ll, "model '%s': unknown parameter%s %s%s for a %s model", m->name,
-                          n_bad + (mc->n_unknown > n) > 1 ? "s" : "", bad, more, kind),
+        return line_error(ps, ll, "model '%s': unknown parameter%s %s for a %s model", m->name,
+                          n_bad > 1 ? "s" : "", bad, kind),
                -1;
     if (n_bad > 0)
         return line_error(ps, ll,
-                          "model '%s': unknown parameter%s %s%s for a %s model; not parameters "
+                          "model '%s': unknown parameter%s %s for a %s model; not parameters "
                           "either: %s (ratings or maker's notes: .options model_extras=warn "
                           "ignores such fields with a warning)",
-                          m->name, n_bad + (mc->n_unknown > n) > 1 ? "s" : "", bad, more, kind,
-                          extra),
+                          m->name, n_bad > 1 ? "s" : "", bad, kind, extra),
                -1;
-    int plural = n_extra + (mc->n_unknown > n) > 1;
+    int plural = n_extra > 1;
     if (!ps->model_extras_warn)
         return line_error(ps, ll,
-                          "model '%s': %s%s %s %s model parameter%s (ratings or maker's "
+                          "model '%s': %s %s %s model parameter%s (ratings or maker's "
                           "notes? .options model_extras=warn ignores such fields with a "
                           "warning)",
-                          m->name, extra, more, plural ? "are not" : "is not a", kind,
+                          m->name, extra, plural ? "are not" : "is not a", kind,
                           plural ? "s" : ""),
                -1;
     char msg[1024];
     snprintf(msg, sizeof msg,
-             "%s:%d: model '%s': ignored %s%s: not %s%s model parameter%s (.options "
+             "%s:%d: model '%s': ignored %s: not %s%s model parameter%s (.options "
              "model_extras=warn) [model_extras]",
-             ll->file, ll->line, m->name, extra, more, plural ? "" : "a ", kind,
+             ll->file, ll->line, m->name, extra, plural ? "" : "a ", kind,
              plural ? "s" : "");
     if (circuit_warn(ps->ckt, "model_extras", m->name, msg) != 0)
         return nomem(ps), -1;
