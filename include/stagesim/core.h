@@ -326,12 +326,13 @@ SS_API const char *ss_circuit_input(const ss_circuit *ckt, int index, const char
  * in forward-active operation, currents above 1 kA. Each finding `.options lint_off=` leaves on
  * becomes a warning of the context ("FILE:LINE: NAME: ... [CHECK]", ss_solver_warning) that
  * ss_solver_warning_lint names; nothing else changes. Running it again adds
- * nothing. Output: *out_n (may be NULL), how many of the context's warnings are lint warnings.
+ * nothing. Output: *out_n (may be NULL), how many of the context's warnings are lint warnings,
+ * counting the parser's warnings that name a check (model_extras, docs/netlist.md) with them.
  * Returns SS_OK, or as ss_op_solve when the operating point had to be solved. */
 SS_API ss_status ss_lint_run(ss_solver *sv, int *out_n, ss_error *err);
 
-/* The lint check that raised warning `index` ("one_connection"); NULL for any other warning or
- * past the end. *subject (subject may be NULL) gets the element or node the warning names. */
+/* The lint check that raised warning `index` ("one_connection"), or the parser's check
+ * ("model_extras"); NULL for any other warning or past the end. *subject (subject may be NULL) gets the element or node the warning names. */
 SS_API const char *ss_solver_warning_lint(const ss_solver *sv, int index,
                                            const char **subject);
 

@@ -144,11 +144,17 @@ SS_API ss_status ss_study_write_plot(const ss_table *points, const ss_limits *li
  * limits' names are checked first (ss_limits_check_names). */
 SS_API ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err);
 
-/* Operating point at the beta extremes (every BJT model's BF at its tolerance limits, else
- * halved and doubled; the corner value replaces a --set of BF) and at two temperatures
- * (-273.15 < temp_lo_c < temp_hi_c <= 1000, else SS_ERR_INPUT): one row per BJT and corner with
- * temp_c, beta_corner (-1 low, +1 high), ic_a, vce_v, forward_active (1/0, empty if
- * unsolved). */
+/* Operating point at the spread extremes and at two temperatures (-273.15 < temp_lo_c <
+ * temp_hi_c <= 1000, else SS_ERR_INPUT). The spread parameters are each kind's (docs/studies.md:
+ * a BJT's BF; a JFET's BETA and VTO, a MOSFET's KP and VTO), at their tolerance limits, else
+ * halved and doubled (a VTO: +-50 % of its magnitude); the corner value replaces a --set one.
+ * The low extreme puts every one at the end that lowers the transistor's main current, the
+ * high one at the other end. One row per transistor and corner ("q1 beta low, -40 C", "j1
+ * current high, 85 C") with temp_c, beta_corner (-1 low, +1 high), then three columns per
+ * transistor kind in the circuit (device table order; the BJT's when there is none): its main
+ * current, its main voltage and 1/0 in its amplifying region -- ic_a, vce_v, forward_active
+ * for BJTs, id_a, vds_v, saturation for JFETs and MOSFETs (one set of columns for both FET
+ * kinds) -- empty where the row is another kind's or unsolved. */
 SS_API ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c,
                                   ss_table **out_corners, ss_error *err);
 

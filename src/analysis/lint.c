@@ -423,7 +423,7 @@ ss_status ss_lint_run(ss_solver *sv, int *out_n, ss_error *err)
     if (out_n) {
         int n = 0;
         for (int i = 0; i < sv->n_warnings; i++)
-            n += sv->warning_lint[i].check >= 0;
+            n += sv->warning_lint[i].check >= 0 || sv->warning_lint[i].named;
         *out_n = n;
     }
     return SS_OK;
@@ -431,9 +431,12 @@ ss_status ss_lint_run(ss_solver *sv, int *out_n, ss_error *err)
 
 const char *ss_solver_warning_lint(const ss_solver *sv, int index, const char **subject)
 {
-    if (!sv || index < 0 || index >= sv->n_warnings || sv->warning_lint[index].check < 0)
+    if (!sv || index < 0 || index >= sv->n_warnings)
+        return NULL;
+    const struct warning_lint *wl = &sv->warning_lint[index];
+    if (wl->check < 0 && !wl->named)
         return NULL;
     if (subject)
-        *subject = sv->warning_lint[index].subject;
-    return lint_check_name(sv->warning_lint[index].check);
+        *subject = wl->subject;
+    return wl->check >= 0 ? lint_check_name(wl->check) : wl->named;
 }

@@ -202,21 +202,57 @@ static int escape_unstable(ss_solver *sv, const dev_src_drive *drive, double *x,
     newton_result r;
     memcpy(x, prev, (size_t)n * sizeof *x);
     int ok = 1, retries = 0;
+    double last_move = 0.0, last_signed = 0.0;
+    int last_u = -1;
     for (int step = 0; step < 300 && np.anchor_scale > 1e-9; step++) {
         ss_status est = op_newton(sv, x, &np, drive, &r);
         *iters += r.iterations;
         if (est != SS_OK) {
             /* too long a pseudo-time step: back to the last state, a shorter step */
             if (est != SS_ERR_NO_CONVERGENCE || ++retries > 20) {
-                ok = 0;
+                /* from the last state reached, the exact solve below may still get there */
+                memcpy(x, prev, (size_t)n * sizeof *x);
+                ok = est == SS_ERR_NO_CONVERGENCE;
                 break;
             }
             memcpy(x, prev, (size_t)n * sizeof *x);
             np.anchor_scale *= 4.0;
+            last_move = 0.0;
             continue;
         }
+        double move = 0.0;
+        int mu = -1;
+        for (int u = 0; u < nn; u++)
+            if (fabs(x[u] - prev[u]) > move) {
+                move = fabs(x[u] - prev[u]);
+                mu = u;
+            }
+        /* the node that moved most the step before now moves back: the step overshot (a
+         * backward-Euler step longer than the growing mode's time constant flips it) */
+        int reversed = last_u >= 0 && last_move > 1e-9 &&
+                       (x[last_u] - prev[last_u]) * last_signed < 0.0 &&
+                       fabs(x[last_u] - prev[last_u]) > 0.5 * last_move;
+        double signed_move = mu >= 0 ? x[mu] - prev[mu] : 0.0;
         memcpy(prev, x, (size_t)n * sizeof *x);
-        np.anchor_scale *= 0.7;
+        /* While the state leaves the equilibrium faster step by step, the growing mode
+         * dominates: its growth per backward-Euler step is rho = 1 / (1 - s/G) (s its rate, G
+         * the anchor), so s/G = 1 - 1/rho, and the anchor is brought towards G = 2 s (at most
+         * halved a step): the mode then doubles each step until the circuit's nonlinearity
+         * stops it. Shrinking the anchor by a fixed factor instead, faster than the mode grew,
+         * let the long steps pull the state back to the equilibrium (backward Euler damps a
+         * growing mode once s/G > 2): a symmetric latch of square-law devices, whose loop gain
+         * stays high far from the balanced point, came back that way. Once the movement slows
+         * down the anchor shrinks by 30 % a step to the end. */
+        double rho = last_move > 1e-9 ? move / last_move : 0.0;
+        if (reversed)
+            np.anchor_scale *= 4.0;
+        else if (rho > 1.02)
+            np.anchor_scale *= fmin(1.0, fmax(0.5, 2.0 * (1.0 - 1.0 / rho)));
+        else
+            np.anchor_scale *= 0.7;
+        last_move = move;
+        last_u = mu;
+        last_signed = signed_move;
     }
     if (ok) {
         op_step fin = {0.0, 1.0, LOAD_FROM_X, NULL, NULL, 0.0};

@@ -1,6 +1,7 @@
 /* stagesim's study commands: sweep, spread, sensitivity (with the corners), snap and merge.
  * The studies themselves run in the library; the output set is common.c's. */
 #define _POSIX_C_SOURCE 200809L
+#include <ctype.h>
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -263,26 +264,54 @@ int cmd_sensitivity(const cli_args *a)
             if (shown)
                 printf("\n");
         }
-        printf("\noperating point at the beta and temperature extremes\n");
-        printf("  %-36s %12s %12s  %s\n", "transistor and corner", "Ic", "Vce", "region");
+    }
+    /* the columns after temp_c and beta_corner come in threes, one three per transistor kind:
+     * current, voltage, in the amplifying region (ss_study_corners) */
+    int n_groups = (ss_table_cols(corners) - 2) / 3;
+    char cur_head[16] = "I", volt_head[16] = "V", region[64] = "amplifying region";
+    if (n_groups == 1) { /* "ic_a" -> "Ic", "vce_v" -> "Vce", "forward_active" */
+        snprintf(cur_head, sizeof cur_head, "%s", ss_table_col_name(corners, 2));
+        snprintf(volt_head, sizeof volt_head, "%s", ss_table_col_name(corners, 3));
+        snprintf(region, sizeof region, "%s", ss_table_col_name(corners, 4));
+        char *cut[2] = {strchr(cur_head, '_'), strchr(volt_head, '_')};
+        for (int k = 0; k < 2; k++)
+            if (cut[k])
+                *cut[k] = '\0';
+        cur_head[0] = (char)toupper((unsigned char)cur_head[0]);
+        volt_head[0] = (char)toupper((unsigned char)volt_head[0]);
+        for (char *c = region; *c; c++)
+            if (*c == '_')
+                *c = ' ';
+    }
+    char leaves[80];
+    snprintf(leaves, sizeof leaves, "LEAVES %s", region);
+    for (char *c = leaves; *c; c++)
+        *c = (char)toupper((unsigned char)*c);
+    if (!a->quiet) {
+        printf("\noperating point at the spread and temperature extremes\n");
+        printf("  %-36s %12s %12s  %s\n", "transistor and corner", cur_head, volt_head,
+               "region");
     }
     int n_out = 0;
-    int ic_col = ss_table_col_index(corners, "ic_a");
-    int vce_col = ss_table_col_index(corners, "vce_v");
-    int fa_col = ss_table_col_index(corners, "forward_active");
     for (int i = 0; i < ss_table_rows(corners); i++) {
-        double fa = ss_table_get(corners, i, fa_col);
+        int g = 0; /* the row's kind: the three columns it has values in */
+        for (int k = 0; k < n_groups; k++)
+            if (!isnan(ss_table_get(corners, i, 4 + 3 * k)))
+                g = k;
+        double fa = ss_table_get(corners, i, 4 + 3 * g);
         n_out += fa != 1.0;
         if (!a->quiet)
             printf("  %-36s %12.4g %12.4g  %s\n", ss_table_row_label(corners, i),
-                   ss_table_get(corners, i, ic_col), ss_table_get(corners, i, vce_col),
-                   isnan(fa) ? "NO OPERATING POINT" : fa == 1.0 ? "forward active"
-                                                                : "LEAVES FORWARD ACTIVE");
+                   ss_table_get(corners, i, 2 + 3 * g), ss_table_get(corners, i, 3 + 3 * g),
+                   isnan(fa) ? "NO OPERATING POINT" : fa == 1.0 ? region : leaves);
     }
-    if (n_out)
-        fprintf(stderr, "stagesim: warning: %d transistor corner%s outside forward-active "
-                        "operation (corners.csv)\n",
-                n_out, n_out == 1 ? "" : "s");
+    for (char *c = region; *c; c++)
+        if (*c == ' ')
+            *c = '-';
+    if (n_out) /* "outside forward-active operation" */
+        fprintf(stderr, "stagesim: warning: %d transistor corner%s outside %s%s (corners.csv)\n",
+                n_out, n_out == 1 ? "" : "s", n_groups == 1 ? region : "their amplifying region",
+                n_groups == 1 ? " operation" : "");
     rc = out_commit(set, EXIT_OK);
 done:
     ss_table_destroy(&corners);

@@ -553,11 +553,23 @@ void ss_refine_set_progress(ss_refine *r, ss_progress_fn fn, void *ctx)
 
 /* ---- corners ------------------------------------------------------------------------------ */
 
+/* The model's multiplicative spread parameter (BF of a BJT, BETA or KP of a FET: the one its
+ * table marks for the corners without a shift), or -1. */
+static int gain_param(const model *md)
+{
+    for (int i = 0; i < md->ops->n_model_params; i++) {
+        unsigned f = md->ops->model_params[i].flags;
+        if ((f & DMP_CORNER) && !(f & DMP_CORNER_SHIFT))
+            return i;
+    }
+    return -1;
+}
+
 static ss_status build_corners(ss_refine *r, ss_error *err)
 {
     int n_beta = 0;
     for (int m = 0; m < r->ckt->n_models; m++)
-        n_beta += model_corner_param(r->ckt->models[m]) >= 0;
+        n_beta += gain_param(r->ckt->models[m]) >= 0;
     int n = 1 + (r->beta_set && n_beta > 0 ? 2 : 0) + (r->temps_set ? 2 : 0) + 2 * r->n_supply;
     if (r->beta_set && n_beta == 0)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
@@ -577,9 +589,14 @@ static ss_status build_corners(ss_refine *r, ss_error *err)
             snprintf(k->name, sizeof k->name, side ? "beta_high" : "beta_low");
             for (int m = 0; m < r->ckt->n_models; m++) {
                 const model *md = r->ckt->models[m];
-                int cp = model_corner_param(md);
+                int cp = gain_param(md);
                 if (cp < 0)
                     continue;
+                if (!r->beta_relative && strcmp(md->ops->model_params[cp].name, "bf") != 0)
+                    return err_set(err, SS_ERR_INPUT, NULL, 0,
+                                   "beta corners: model '%s' spreads %s, not BF: give the "
+                                   "corners as factors (0.5x,2x)",
+                                   md->name, md->ops->model_params[cp].name);
                 snprintf(k->set_name[k->n_set], sizeof k->set_name[0], "%s.%s", md->name,
                          md->ops->model_params[cp].name);
                 double f = side ? r->beta_hi : r->beta_lo;

@@ -571,6 +571,9 @@ static int bjt_noise(const element *e, const dev_noise_ctx *nc, dev_noise_src *o
     return n;
 }
 
+/* corners.csv: "q1 beta low, 85 C" with ic_a, vce_v, forward_active */
+static const dev_corner_names BJT_CORNER = {"beta", "ic_a", "vce_v"};
+
 /* collector-base and collector-emitter: every terminal is on one DC path */
 static const unsigned char BJT_DC_PAIRS[2][2] = {{0, 1}, {0, 2}};
 
@@ -582,6 +585,7 @@ const dev_ops bjt_ops = {
     .op_point = bjt_op_point,
     .bypass_terminal = 2,
     .amplifying_region = "forward active",
+    .corner = &BJT_CORNER,
     .report_heading = BJT_REPORT_HEADING,
     .report_line = bjt_report_line,
     .parse = bjt_parse,

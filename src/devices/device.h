@@ -131,8 +131,17 @@ enum {
     DMP_MIN_OPEN = 1u << 0,  /* value > min (else >= min) */
     DMP_MAX_OPEN = 1u << 1,  /* value < max (else <= max) */
     DMP_ZERO_INF = 1u << 2,  /* 0 on a card means infinite (VAF, IKF, ...) */
-    DMP_CORNER = 1u << 3,    /* the parameter the beta/temperature corners spread */
+    DMP_CORNER = 1u << 3,    /* a parameter the spread/temperature corners spread: halved and
+                                doubled when it has no tolerance (BF, BETA, KP) */
     DMP_CELSIUS = 1u << 4,   /* a temperature in degrees C (TNOM) */
+    /* with DMP_CORNER: spread by +-50 % of its magnitude instead (a threshold: VTO) */
+    DMP_CORNER_SHIFT = 1u << 5,
+    /* with DMP_CORNER: a larger value lowers the main current of the kind's first model type
+     * (VTO of an N channel); without it a larger value raises it (BF, BETA, KP) */
+    DMP_CORNER_LOWERS = 1u << 6,
+    /* with DMP_CORNER: the direction flips for the kind's second model type (a P channel's
+     * VTO is written in its own sign) */
+    DMP_CORNER_POLAR = 1u << 7,
 };
 /* where a parameter is used (dev_model_param.uses) */
 enum {
@@ -166,6 +175,15 @@ enum {
     DEV_INDUCTOR = 1u << 6,       /* a plain inductance (L): an open as its value grows */
     DEV_CONTROLLED = 1u << 7,     /* controlled by another element's branch current (F, H) */
 };
+
+/* What the corners (src/study/sensitivity.c, corners.csv) call a transistor kind's extremes
+ * and operating point: the word of the row labels ("beta": "q1 beta low, 85 C") and the
+ * columns of its main current and voltage ("ic_a", "vce_v"); the column of the flag is the
+ * kind's amplifying_region with '_' for ' ' ("forward_active"). */
+typedef struct dev_corner_names {
+    const char *extreme;
+    const char *current_col, *voltage_col;
+} dev_corner_names;
 
 /* A transistor-like element's operating point in the terms the corners, the report and the
  * sanity checks share (dev_ops.op_point). */
@@ -237,6 +255,8 @@ typedef struct dev_ops {
     /* the operating point's main current, voltage and region (transistors); NULL otherwise */
     void (*op_point)(const element *e, const double *x, double vt_v, double gmin_s,
                      dev_op_point *out);
+    /* the corners' names for its extremes and operating point (with op_point); NULL none */
+    const dev_corner_names *corner;
     /* the terminal a bypass capacitor decouples to AC ground (a BJT's emitter); -1 none */
     int bypass_terminal;
     /* the name of the region an amplifying stage works in ("forward active", "saturation"):
@@ -264,8 +284,12 @@ SS_HIDDEN const char *initialism_article(const char *name);
 SS_HIDDEN int model_param_index(const dev_ops *ops, const char *name);
 /* The model parameter table of a kind as docs/models.md prints it (markdown), appended to out. */
 SS_HIDDEN void device_param_table_md(const dev_ops *ops, ss_strbuf *out);
-/* The parameter of the model that the beta/temperature corners spread (DMP_CORNER), -1 none. */
-SS_HIDDEN int model_corner_param(const model *m);
+/* The corner parameters of a model (DMP_CORNER): *lo and *hi the extremes of parameter i
+ * without a tolerance (halved and doubled, or +-50 % of the magnitude with DMP_CORNER_SHIFT),
+ * and the return value +1 when the lower value gives the lower main current, -1 when the
+ * higher one does (DMP_CORNER_LOWERS, flipped by DMP_CORNER_POLAR on the second type); 0 when
+ * parameter i is no corner parameter. */
+SS_HIDDEN int model_corner_spread(const model *m, int i, double *lo, double *hi);
 
 
 /* ---- stamping helpers -------------------------------------------------------------------- */

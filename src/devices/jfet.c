@@ -26,7 +26,8 @@ enum {
 #define ANY -HUGE_VAL, HUGE_VAL, 0
 /* ORDER JFET_PARAM */
 static const dev_model_param jfet_params[JP_COUNT] = {
-    {"vto", -2.0, ANY, "V", ALL, "threshold (pinch-off) voltage; negative for depletion"},
+    {"vto", -2.0, -HUGE_VAL, HUGE_VAL, DMP_CORNER | DMP_CORNER_SHIFT | DMP_CORNER_LOWERS, "V",
+     ALL, "threshold (pinch-off) voltage; negative for depletion"},
     {"beta", 1e-4, POS | DMP_CORNER, "A/V^2", ALL, "transconductance parameter"},
     {"lambda", 0.0, NONNEG, "1/V", ALL, "channel-length modulation"},
     {"rd", 0.0, NONNEG, "ohm", ALL, "drain resistance"},
@@ -461,6 +462,9 @@ static void jfet_load_tran(element *e, dev_tran_ctx *tc)
     rhs_add(tc->rhs, e->inode[TD], ieq_gd);
 }
 
+/* corners.csv: "j1 current low, 85 C" with id_a, vds_v, saturation */
+static const dev_corner_names JFET_CORNER = {"current", "id_a", "vds_v"};
+
 /* drain-source through the channel, gate-source through the gate junction */
 static const unsigned char JFET_DC_PAIRS[2][2] = {{0, 2}, {1, 2}};
 
@@ -472,6 +476,7 @@ const dev_ops jfet_ops = {
     .op_point = jfet_op_point,
     .bypass_terminal = 2,
     .amplifying_region = "saturation",
+    .corner = &JFET_CORNER,
     .report_heading = JFET_REPORT_HEADING,
     .report_line = jfet_report_line,
     .parse = jfet_parse,

@@ -36,9 +36,11 @@ enum {
 static const dev_model_param mos_params[MP_COUNT] = {
     {"level", 1.0, 1.0, 1.0, 0, "", DMP_USE_DC,
      "model level (only the square law, 1, is built in)"},
-    {"vto", 0.0, ANY, "V", ALL, "zero-bias threshold voltage (gate-source, < 0 for an "
-                                "enhancement PMOS)"},
-    {"kp", 2e-5, POS, "A/V^2", ALL, "transconductance parameter (mobility times Cox)"},
+    {"vto", 0.0, -HUGE_VAL, HUGE_VAL,
+     DMP_CORNER | DMP_CORNER_SHIFT | DMP_CORNER_LOWERS | DMP_CORNER_POLAR, "V", ALL,
+     "zero-bias threshold voltage (gate-source, < 0 for an enhancement PMOS)"},
+    {"kp", 2e-5, 0.0, HUGE_VAL, DMP_MIN_OPEN | DMP_CORNER, "A/V^2", ALL,
+     "transconductance parameter (mobility times Cox)"},
     {"gamma", 0.0, NONNEG, "V^0.5", ALL, "body-effect coefficient"},
     {"phi", 0.6, POS, "V", ALL, "surface potential (2 phi_F)"},
     {"lambda", 0.0, NONNEG, "1/V", ALL, "channel-length modulation"},
@@ -335,13 +337,22 @@ static void mos_limit(element *e, dev_load_ctx *lc, double *vgs, double *vds, do
     double dvth, von = mos_vth(e->tp, polarity(e) * e->tp[MP_VTO], st[ST_VBS], &dvth);
     double g0 = *vgs, d0 = *vds, b0 = *vbs;
     double vgd = *vgs - *vds, vgd_old = st[ST_VGS] - st[ST_VDS];
+    /* a voltage the limits leave alone is kept exactly as it came: recomputing it as a
+     * difference (vgs - vgd) changes its last bits, which would read as "limited" at every
+     * iteration and never let Newton converge (a switch at Vds of a few nV, fully on) */
     if (st[ST_VDS] >= 0.0) {
-        *vgs = mos_fetlim(*vgs, st[ST_VGS], von);
-        *vds = mos_limvds(*vgs - vgd, st[ST_VDS]);
+        double vgs_l = mos_fetlim(*vgs, st[ST_VGS], von);
+        double vds_l = vgs_l == *vgs ? *vds : vgs_l - vgd;
+        *vgs = vgs_l;
+        *vds = mos_limvds(vds_l, st[ST_VDS]);
     } else {
-        vgd = mos_fetlim(vgd, vgd_old, von);
-        *vds = -mos_limvds(-(*vgs - vgd), -st[ST_VDS]);
-        *vgs = vgd + *vds;
+        double vgd_l = mos_fetlim(vgd, vgd_old, von);
+        double vds_l = vgd_l == vgd ? *vds : *vgs - vgd_l;
+        double lim = -mos_limvds(-vds_l, -st[ST_VDS]);
+        if (vgd_l != vgd || lim != vds_l) {
+            *vds = lim;
+            *vgs = vgd_l + lim;
+        }
     }
     if (*vds >= 0.0) {
         *vbs = junction_limit(*vbs, st[ST_VBS], vt, vcrit, &lc->limited);
@@ -698,6 +709,9 @@ static void mos_load_tran(element *e, dev_tran_ctx *tc)
     }
 }
 
+/* corners.csv: "m1 current low, 85 C" with id_a, vds_v, saturation */
+static const dev_corner_names MOS_CORNER = {"current", "id_a", "vds_v"};
+
 /* drain-source through the channel, drain-bulk and source-bulk through the junctions' gmin */
 static const unsigned char MOS_DC_PAIRS[3][2] = {{0, 2}, {0, 3}, {2, 3}};
 
@@ -709,6 +723,7 @@ const dev_ops mosfet_ops = {
     .op_point = mos_op_point,
     .bypass_terminal = 2,
     .amplifying_region = "saturation",
+    .corner = &MOS_CORNER,
     .report_heading = MOS_REPORT_HEADING,
     .report_line = mos_report_line,
     .parse = mos_parse,

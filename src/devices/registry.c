@@ -72,12 +72,23 @@ const char *initialism_article(const char *name)
     return name[0] && strchr("aefhilmnorsx", name[0]) ? "an" : "a";
 }
 
-int model_corner_param(const model *m)
+int model_corner_spread(const model *m, int i, double *lo, double *hi)
 {
-    for (int i = 0; i < m->ops->n_model_params; i++)
-        if (m->ops->model_params[i].flags & DMP_CORNER)
-            return i;
-    return -1;
+    unsigned f = m->ops->model_params[i].flags;
+    if (!(f & DMP_CORNER))
+        return 0;
+    double v = m->p[i];
+    if (f & DMP_CORNER_SHIFT) {
+        *lo = v - 0.5 * fabs(v);
+        *hi = v + 0.5 * fabs(v);
+    } else {
+        *lo = 0.5 * v;
+        *hi = 2.0 * v;
+    }
+    int dir = f & DMP_CORNER_LOWERS ? -1 : 1;
+    if (f & DMP_CORNER_POLAR && m->type == 1)
+        dir = -dir;
+    return dir;
 }
 
 int model_param_index(const dev_ops *ops, const char *name)

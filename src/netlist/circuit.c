@@ -55,13 +55,21 @@ int circuit_add_node_borrowed(struct ss_circuit *ckt, const char *copy, int inte
     return idx;
 }
 
-
-
-/* Appends msg (copied) with its lint check (-1 none) and subject, unless the very text is
- * there already (each warning once). 0 ok, -1 no memory. */
-
-
-
+int circuit_warn(struct ss_circuit *ckt, const char *check, const char *subject, const char *text)
+{
+    for (int i = 0; i < ckt->n_warnings; i++) /* each warning once */
+        if (strcmp(ckt->warnings[i].text, text) == 0)
+            return 0;
+    char *copy = arena_strdup(&ckt->arena, text);
+    if (!copy)
+        return -1;
+    ckt_warning *nw = ss_realloc(ckt->warnings, (size_t)(ckt->n_warnings + 1) * sizeof *nw);
+    if (!nw)
+        return -1;
+    ckt->warnings = nw;
+    nw[ckt->n_warnings++] = (ckt_warning){copy, check, subject};
+    return 0;
+}
 
 void ss_circuit_analyses(const ss_circuit *ckt, ss_analysis_flags *f)
 {
@@ -171,6 +179,7 @@ void ss_circuit_destroy(ss_circuit **pckt)
     ss_free(ckt->tape.entry);
     ss_free(ckt->tape.scope);
     ss_free(ckt->tape.slot_name);
+    ss_free(ckt->warnings);
     arena_clear(&ckt->arena);
     ss_free(ckt);
     *pckt = NULL;

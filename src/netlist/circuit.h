@@ -66,11 +66,20 @@ typedef struct element {
      * (claim() may write up to ELEM_MAX_SLOTS) */
 } element;
 
+/* A warning the parser raised (the circuit keeps it, read-only; every solver context made from
+ * the circuit starts with these): the text ("FILE:LINE: ... [CHECK]"), the stable name of what
+ * raised it (a check of `check --strict`, "model_extras") and the model or element it names. */
+typedef struct ckt_warning {
+    const char *text, *check, *subject;
+} ckt_warning;
+
 /* Per warning, when the lint raised it (analysis/lint.c): its check (enum lint_check; -1 for
- * any other warning) and the element or node it names. */
+ * any other warning) and the element or node it names; for a warning of the parser (check -1),
+ * `named` is the name of its check (ckt_warning.check), NULL for any other warning. */
 struct warning_lint {
     int check;
     const char *subject;
+    const char *named;
 };
 
 typedef struct ss_options_set {
@@ -253,8 +262,17 @@ struct ss_circuit {
     int n_inputs;
     /* bit k set: lint check k silenced by `.options lint_off=NAME,...` */
     unsigned lint_off;
+    /* the parser's warnings (fields of a .model card ignored under .options model_extras=warn),
+     * in the order raised; strings in the arena */
+    ckt_warning *warnings;
+    int n_warnings;
 };
 
+
+/* Adds a parse-time warning (text copied to the arena; check and subject kept as given, they
+ * must live as long as the circuit). 0 ok, -1 no memory. */
+SS_HIDDEN int circuit_warn(struct ss_circuit *ckt, const char *check, const char *subject,
+                           const char *text);
 
 /* Unknown index of a node: ground is -1 (its row and column are dropped). */
 static inline int node_unknown(int node_idx) { return node_idx - 1; }

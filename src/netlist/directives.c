@@ -66,6 +66,14 @@ static int set_option(parser *ps, const logline *ll, void *vctx, const char *nam
     }
     if (strcmp(name, "lint_off") == 0) /* sanity warnings to silence: docs/cli.md */
         return set_lint_off(ps, ll, text);
+    if (strcmp(name, "model_extras") == 0) { /* read before the model cards (models.c) */
+        if (strcmp(text, "error") != 0 && strcmp(text, "warn") != 0)
+            return line_error(ps, ll, ".options: model_extras must be error or warn, got "
+                                      "'%.40s'",
+                              text),
+                   -1;
+        return 0;
+    }
     if (line_value(ps, ll, NULL, text, ".options", name, &v) != 0)
         return -1;
     ss_options_set *o = &ps->ckt->opt;
@@ -91,7 +99,7 @@ static int set_option(parser *ps, const logline *ll, void *vctx, const char *nam
     else
         return line_error(ps, ll,
                           ".options: unknown option '%s' (known: tol_rel, tol_v, tol_i, gmin, "
-                          "newton_iters, tran_method, tran_tol_rel, tran_tol_v, lint_off)",
+                          "newton_iters, tran_method, tran_tol_rel, tran_tol_v, lint_off, model_extras)",
                           name),
                -1;
     return 0;

@@ -8,10 +8,193 @@
 #include "devices/device.h"
 #include "netlist/parser_internal.h"
 
+/* ---- fields that are not model parameters ------------------------------------------------ */
+
+/* Fields that published model files add to a card beside the parameters: ratings and the
+ * maker's notes, read by people, not by any model equation (common practice, from memory of
+ * such files). Only these are ignored under `.options model_extras=warn` (docs/netlist.md); no
+ * name here is a parameter of any kind (tests/unit/test_device_tables.c). */
+static const char *const MODEL_EXTRA_FIELDS[] = {
+    "vceo",  /* collector-emitter breakdown rating, base open */
+    "vcbo",  /* collector-base breakdown rating */
+    "vebo",  /* emitter-base breakdown rating */
+    "icrating", /* collector current rating */
+    "iave",  /* a diode's average forward current rating */
+    "vpk",   /* a diode's peak reverse voltage rating */
+    "vds",   /* a FET's drain-source voltage rating */
+    "ron",   /* a switching FET's on resistance as rated */
+    "qg",    /* a FET's gate charge as rated */
+    "mfg",   /* the maker */
+    "type",  /* the maker's part class ("silicon", "zener", "switching") */
+};
+#define N_MODEL_EXTRA_FIELDS ((int)(sizeof MODEL_EXTRA_FIELDS / sizeof MODEL_EXTRA_FIELDS[0]))
+
+const char *model_extra_field(int k)
+{
+    return k >= 0 && k < N_MODEL_EXTRA_FIELDS ? MODEL_EXTRA_FIELDS[k] : NULL;
+}
+
+static int is_model_extra_field(const char *name)
+{
+    for (int k = 0; k < N_MODEL_EXTRA_FIELDS; k++)
+        if (strcmp(MODEL_EXTRA_FIELDS[k], name) == 0)
+            return 1;
+    return 0;
+}
+
+/* Edits (insert, delete or replace a character, or swap two neighbours) from a to b, counted
+ * up to 9 (names longer than 31 characters count as 9 away from everything). */
+int name_distance(const char *a, const char *b)
+{
+    enum { N = 32 };
+    size_t la = strlen(a), lb = strlen(b);
+    if (la >= N || lb >= N)
+        return strcmp(a, b) == 0 ? 0 : 9;
+    int d[N][N];
+    for (size_t i = 0; i <= la; i++)
+        d[i][0] = (int)i;
+    for (size_t j = 0; j <= lb; j++)
+        d[0][j] = (int)j;
+    for (size_t i = 1; i <= la; i++) {
+        for (size_t j = 1; j <= lb; j++) {
+            int best = d[i - 1][j - 1] + (a[i - 1] != b[j - 1]);
+            if (d[i - 1][j] + 1 < best)
+                best = d[i - 1][j] + 1;
+            if (d[i][j - 1] + 1 < best)
+                best = d[i][j - 1] + 1;
+            if (i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] &&
+                d[i - 2][j - 2] + 1 < best)
+                best = d[i - 2][j - 2] + 1;
+            d[i][j] = best;
+        }
+    }
+    return d[la][lb] > 9 ? 9 : d[la][lb];
+}
+
+/* The parameter of ops nearest to name when close: at most 1 edit away for a name of up to 4
+ * characters, 2 for a longer one; the first in table order on a tie; NULL when none is. */
+static const char *nearest_param(const dev_ops *ops, const char *name)
+{
+    const char *best = NULL;
+    int best_d = strlen(name) <= 4 ? 2 : 3;
+    for (int i = 0; i < ops->n_model_params; i++) {
+        int d = name_distance(name, ops->model_params[i].name);
+        if (d < best_d) {
+            best_d = d;
+            best = ops->model_params[i].name;
+        }
+    }
+    return best;
+}
+
+/* `.options model_extras=error|warn`, read before the model cards (pass 1): 0 ok, -1 with the
+ * error set. set_option (pass 2) takes the option as known and checks it is given once. */
+int model_extras_prescan(parser *ps)
+{
+    for (int i = 0; i < ps->n_lines; i++) {
+        const logline *ll = &ps->lines[i];
+        if (!is_directive(ll, ".options") && !is_directive(ll, ".option"))
+            continue;
+        for (int k = 1; k + 1 < ll->n_tok; k++) {
+            if (strcmp(ll->tok[k], "model_extras") != 0 || strcmp(ll->tok[k + 1], "=") != 0)
+                continue;
+            const char *v = k + 2 < ll->n_tok ? ll->tok[k + 2] : "";
+            if (strcmp(v, "warn") == 0)
+                ps->model_extras_warn = 1;
+            else if (strcmp(v, "error") != 0)
+                return line_error(ps, ll, ".options: model_extras must be error or warn, got "
+                                          "'%.40s'",
+                                  v),
+                       -1;
+        }
+    }
+    return 0;
+}
+
+#define MODEL_MAX_UNKNOWN 32
+
 typedef struct model_ctx {
     model *m;
     const char *text[MODEL_MAX_PARAMS]; /* each parameter's value as written on the card */
+    /* the names on the card that are none of the kind's parameters, in order (at most
+     * MODEL_MAX_UNKNOWN kept; n_unknown counts them all) */
+    const char *unknown[MODEL_MAX_UNKNOWN];
+    int n_unknown;
 } model_ctx;
+
+/* Appends ", " (after the first) and the text to buf[len]. */
+static void list_add(char *buf, size_t len, int first, const char *fmt, const char *a,
+                     const char *b)
+{
+    size_t used = strlen(buf);
+    if (used + 1 >= len)
+        return;
+    if (!first) {
+        snprintf(buf + used, len - used, ", ");
+        used = strlen(buf);
+    }
+    snprintf(buf + used, len - used, fmt, a, b);
+}
+
+/* The card's names that are no parameter of its kind: an error naming them all, or (each a
+ * known extra field, and .options model_extras=warn) one warning for the card. 0 ok, -1 with
+ * the error set. */
+static int judge_unknown(parser *ps, const logline *ll, const model_ctx *mc)
+{
+    const model *m = mc->m;
+    int n = mc->n_unknown;
+    if (n == 0)
+        return 0;
+    if (mc->n_unknown > MODEL_MAX_UNKNOWN) /* not all of them judged: none is ignored */
+        return line_error(ps, ll, "model '%s': %d fields that are not %s model parameters "
+                                  "(more than %d)",
+                          m->name, mc->n_unknown, m->ops->model_kind, MODEL_MAX_UNKNOWN),
+               -1;
+    char bad[768] = "", extra[512] = "";
+    int n_bad = 0, n_extra = 0;
+    for (int i = 0; i < n; i++) {
+        const char *name = mc->unknown[i];
+        if (is_model_extra_field(name)) {
+            list_add(extra, sizeof extra, n_extra++ == 0, "%s%s", name, "");
+            continue;
+        }
+        const char *near = nearest_param(m->ops, name);
+        if (near)
+            list_add(bad, sizeof bad, n_bad++ == 0, "'%s' (did you mean %s?)", name, near);
+        else
+            list_add(bad, sizeof bad, n_bad++ == 0, "'%s'%s", name, "");
+    }
+    const char *kind = m->ops->model_kind;
+    if (n_bad > 0 && (n_extra == 0 || ps->model_extras_warn))
+        return line_error(ps, ll, "model '%s': unknown parameter%s %s for a %s model", m->name,
+                          n_bad > 1 ? "s" : "", bad, kind),
+               -1;
+    if (n_bad > 0)
+        return line_error(ps, ll,
+                          "model '%s': unknown parameter%s %s for a %s model; not parameters "
+                          "either: %s (ratings or maker's notes: .options model_extras=warn "
+                          "ignores such fields with a warning)",
+                          m->name, n_bad > 1 ? "s" : "", bad, kind, extra),
+               -1;
+    int plural = n_extra > 1;
+    if (!ps->model_extras_warn)
+        return line_error(ps, ll,
+                          "model '%s': %s %s %s model parameter%s (ratings or maker's "
+                          "notes? .options model_extras=warn ignores such fields with a "
+                          "warning)",
+                          m->name, extra, plural ? "are not" : "is not a", kind,
+                          plural ? "s" : ""),
+               -1;
+    char msg[1024];
+    snprintf(msg, sizeof msg,
+             "%s:%d: model '%s': ignored %s: not %s%s model parameter%s (.options "
+             "model_extras=warn) [model_extras]",
+             ll->file, ll->line, m->name, extra, plural ? "" : "a ", kind,
+             plural ? "s" : "");
+    if (circuit_warn(ps->ckt, "model_extras", m->name, msg) != 0)
+        return nomem(ps), -1;
+    return 0;
+}
 
 static int set_model_param(parser *ps, const logline *ll, void *vctx, const char *name,
                            const char *text)
@@ -19,10 +202,15 @@ static int set_model_param(parser *ps, const logline *ll, void *vctx, const char
     model_ctx *mc = vctx;
     model *m = mc->m;
     int idx = model_param_index(m->ops, name);
-    if (idx < 0)
-        return line_error(ps, ll, "model '%s': unknown parameter '%s' for a %s model", m->name,
-                          name, m->ops->model_kind),
-               -1;
+    if (idx < 0) { /* judged once the whole card is read (judge_unknown) */
+        for (int i = 0; i < mc->n_unknown && i < MODEL_MAX_UNKNOWN; i++)
+            if (strcmp(mc->unknown[i], name) == 0)
+                return 0;
+        if (mc->n_unknown < MODEL_MAX_UNKNOWN)
+            mc->unknown[mc->n_unknown] = name;
+        mc->n_unknown++;
+        return 0;
+    }
     /* one card, one value per parameter: a second one (often on a continuation line) is a
      * mistake either way it is read */
     if (mc->text[idx])
@@ -149,6 +337,8 @@ int define_model(parser *ps, const logline *ll)
     memset(&mc, 0, sizeof mc);
     mc.m = m;
     if (parse_assignments(ps, &sub, 0, set_model_param, &mc) != 0)
+        return -1;
+    if (judge_unknown(ps, ll, &mc) != 0)
         return -1;
     if (check_model(ps, ll, m) != 0)
         return -1;

@@ -92,7 +92,10 @@ static ss_status pass1(parser *ps)
                        ".subckt %s has no matching .ends", sd->name);
     }
     /* model cards see every global parameter, wherever its .param line stands (parameters
-     * are order-free) */
+     * are order-free), and the .options line that says how to take fields that are not
+     * parameters, wherever it stands */
+    if (n_model_lines > 0 && model_extras_prescan(ps) != 0)
+        return ps->err->code;
     for (int i = 0; i < ps->n_lines && n_model_lines > 0; i++) {
         if (is_directive(&ps->lines[i], ".model")) {
             n_model_lines--;

@@ -110,6 +110,7 @@ typedef struct parser {
     /* the model and parameter a value being read belongs to (models.c), -1 when none;
      * TAPE_HINT_STAGE_LOAD while .stage load= is read */
     int tape_model, tape_param;
+    int model_extras_warn; /* .options model_extras=warn (read before the model cards) */
 } parser;
 
 struct pctx {
@@ -245,6 +246,14 @@ SS_HIDDEN int scope_node(pctx *p, const char *tok, int *port);
 SS_HIDDEN int define_model(parser *ps, const logline *ll);
 /* Checks the physical ranges the equations need; 0 ok, -1 with the error set at ll. */
 SS_HIDDEN int check_model(parser *ps, const logline *ll, const model *m);
+/* Reads `.options model_extras=` from every .options line before the cards are defined; 0 ok,
+ * -1 with the error set (a value other than error or warn). */
+SS_HIDDEN int model_extras_prescan(parser *ps);
+/* The fields that are no model parameter yet are accepted under model_extras=warn, in order;
+ * NULL past the end. */
+SS_HIDDEN const char *model_extra_field(int k);
+/* Edits (insert, delete, replace, swap two neighbours) from a to b, counted up to 9. */
+SS_HIDDEN int name_distance(const char *a, const char *b);
 
 /* ---- subckt.c: subcircuits --------------------------------------------------------------- */
 

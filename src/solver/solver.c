@@ -55,6 +55,9 @@ static int alloc_value_state(ss_solver *sv)
     return 0;
 }
 
+static int warn_add(ss_solver *sv, const char *msg, int check, const char *subject,
+                    const char *named);
+
 static int copy_nodes(ss_solver *sv)
 {
     const ss_circuit *ckt = sv->ckt;
@@ -82,7 +85,12 @@ ss_status ss_solver_create(const ss_circuit *ckt, ss_solver **out, ss_error *err
     sv->stage = ckt->stage;
     sv->noise = ckt->noise;
     sv->ls = ckt->ls;
-    if (copy_values(sv) != 0 || alloc_value_state(sv) != 0 || copy_nodes(sv) != 0) {
+    int bad = copy_values(sv) != 0 || alloc_value_state(sv) != 0 || copy_nodes(sv) != 0;
+    /* the circuit's own warnings (the parser's) come first */
+    for (int i = 0; !bad && i < ckt->n_warnings; i++)
+        bad = warn_add(sv, ckt->warnings[i].text, -1, ckt->warnings[i].subject,
+                       ckt->warnings[i].check) != 0;
+    if (bad) {
         ss_solver_destroy(&sv);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
     }
@@ -179,7 +187,8 @@ void solver_unknown_name(const ss_solver *sv, int unknown, char *buf, size_t len
     snprintf(buf, len, "unknown #%d", unknown);
 }
 
-static int warn_add(ss_solver *sv, const char *msg, int check, const char *subject)
+static int warn_add(ss_solver *sv, const char *msg, int check, const char *subject,
+                    const char *named)
 {
     for (int i = 0; i < sv->n_warnings; i++)
         if (strcmp(sv->warnings[i], msg) == 0)
@@ -196,7 +205,7 @@ static int warn_add(ss_solver *sv, const char *msg, int check, const char *subje
     char *copy = arena_strdup(&sv->arena, msg);
     if (!copy)
         return -1;
-    nl[sv->n_warnings] = (struct warning_lint){check, subject};
+    nl[sv->n_warnings] = (struct warning_lint){check, subject, named};
     sv->warnings[sv->n_warnings++] = copy;
     return 0;
 }
@@ -208,7 +217,7 @@ void solver_warn(ss_solver *sv, const char *fmt, ...)
     va_start(ap, fmt);
     vsnprintf(msg, sizeof msg, fmt, ap);
     va_end(ap);
-    warn_add(sv, msg, -1, NULL);
+    warn_add(sv, msg, -1, NULL, NULL);
 }
 
 int solver_warn_lint(ss_solver *sv, int check, const char *subject, const char *fmt, ...)
@@ -218,7 +227,7 @@ int solver_warn_lint(ss_solver *sv, int check, const char *subject, const char *
     va_start(ap, fmt);
     vsnprintf(msg, sizeof msg, fmt, ap);
     va_end(ap);
-    return warn_add(sv, msg, check, subject);
+    return warn_add(sv, msg, check, subject, NULL);
 }
 
 const char *ss_solver_warning(const ss_solver *sv, int index)

@@ -1,5 +1,6 @@
 /* Sensitivities of every figure to every toleranced value, by central differences about the
- * nominal, and the BJT operating points at beta and temperature extremes, each on a context of
+ * nominal, and the transistors' operating points at the extremes of their kinds' spread
+ * parameters (a BJT's BF, a FET's BETA or KP and VTO) and of temperature, each on a context of
  * the nominal circuit with its values changed in place. Solving is runner.c's. */
 #include <math.h>
 #include <stdio.h>
@@ -81,7 +82,85 @@ ss_status ss_study_sensitivity(ss_study *s, ss_table **out_sens, ss_error *err)
     return SS_OK;
 }
 
-/* ---- beta and temperature extremes -------------------------------------------------------- */
+/* ---- spread and temperature extremes ------------------------------------------------------ */
+
+/* One spread parameter of one model: its value at the low-current and high-current extreme. */
+typedef struct corner_value {
+    char name[160]; /* MODEL.PARAM, as ss_solver_set_value takes it */
+    double at[2];   /* [0] the low-current extreme, [1] the high-current one */
+} corner_value;
+
+/* Every model's corner parameters (the kind's table, DMP_CORNER) at their extremes: the
+ * tolerance limits when the parameter has a tolerance, else the kind's default spread. A --set
+ * value is the nominal the default spread is taken from. Returns how many (out may be NULL to
+ * count). */
+static int corner_values(const ss_study *s, corner_value *out)
+{
+    const ss_circuit *nom = s->nominal;
+    int k = 0;
+    for (int m = 0; m < nom->n_models; m++) {
+        const model *md = nom->models[m];
+        for (int i = 0; i < md->ops->n_model_params; i++) {
+            double lo, hi;
+            int dir = model_corner_spread(md, i, &lo, &hi);
+            if (dir == 0)
+                continue;
+            if (out) {
+                corner_value *cv = &out[k];
+                snprintf(cv->name, sizeof cv->name, "%s.%s", md->name,
+                         md->ops->model_params[i].name);
+                for (int t = 0; t < s->n_tols; t++)
+                    if (strcmp(s->tols[t].name, cv->name) == 0) {
+                        lo = s->tols[t].lo;
+                        hi = s->tols[t].hi;
+                    }
+                cv->at[0] = dir > 0 ? lo : hi;
+                cv->at[1] = dir > 0 ? hi : lo;
+            }
+            k++;
+        }
+    }
+    return k;
+}
+
+#define CORNER_MAX_KINDS 8
+
+/* The kinds with corner names that have an element in the circuit, in the device table's
+ * order (the first kind with corner names when the circuit has no transistor, so the file
+ * always has its columns), into kinds[], each with its column group in group[]: kinds whose
+ * three column names are the same (the JFET's and the MOSFET's) share one. Returns how many
+ * kinds; *n_groups the groups. */
+static int corner_kinds(const ss_circuit *ckt, const dev_ops **kinds, int *group, int cap,
+                        int *n_groups)
+{
+    int n = 0, first = -1;
+    for (int d = 0; d < device_count() && n < cap; d++) {
+        const dev_ops *ops = device_at(d);
+        if (!ops->corner || !ops->op_point)
+            continue;
+        if (first < 0)
+            first = d;
+        for (int i = 0; i < ckt->n_elem; i++)
+            if (ckt->elem[i].ops == ops) {
+                kinds[n++] = ops;
+                break;
+            }
+    }
+    if (n == 0 && first >= 0)
+        kinds[n++] = device_at(first);
+    *n_groups = 0;
+    for (int k = 0; k < n; k++) {
+        int g = 0;
+        while (g < k && !(strcmp(kinds[g]->corner->current_col, kinds[k]->corner->current_col) ==
+                              0 &&
+                          strcmp(kinds[g]->corner->voltage_col, kinds[k]->corner->voltage_col) ==
+                              0 &&
+                          strcmp(kinds[g]->amplifying_region, kinds[k]->amplifying_region) == 0))
+            g++;
+        group[k] = g < k ? group[g] : (*n_groups)++;
+    }
+    return n;
+}
 
 ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_table **out,
                            ss_error *err)
@@ -91,58 +170,58 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
                        "corner temperatures %g and %g C: need -273.15 < LO < HI <= 1000 C",
                        temp_lo_c, temp_hi_c);
     const ss_circuit *nom = s->nominal;
-    /* every BJT model's BF at its toleranced extremes, or halved / doubled (beta spreads 2-3x
-     * within one type: common practice) */
-    int n_models = 0;
-    for (int m = 0; m < nom->n_models; m++)
-        n_models += model_corner_param(nom->models[m]) >= 0;
-    static const char *const cols[] = {"temp_c", "beta_corner", "ic_a", "vce_v", "forward_active"};
-    ss_table *t = table_create(5, "corner");
+    const dev_ops *kinds[CORNER_MAX_KINDS];
+    int group[CORNER_MAX_KINDS], n_groups;
+    int n_kinds = corner_kinds(nom, kinds, group, CORNER_MAX_KINDS, &n_groups);
+    int n_cols = 2 + 3 * n_groups;
+    ss_table *t = table_create(n_cols, "corner");
     ss_status st = SS_OK;
-    for (int j = 0; t && j < 5; j++)
-        if (table_set_col(t, j, cols[j]) != 0)
+    if (t && (table_set_col(t, 0, "temp_c") != 0 || table_set_col(t, 1, "beta_corner") != 0))
+        st = SS_ERR_NOMEM;
+    for (int k = 0; t && st == SS_OK && k < n_kinds; k++) {
+        int g = group[k];
+        char flag[64];
+        snprintf(flag, sizeof flag, "%s", kinds[k]->amplifying_region);
+        for (char *c = flag; *c; c++)
+            if (*c == ' ')
+                *c = '_';
+        if (table_set_col(t, 2 + 3 * g, kinds[k]->corner->current_col) != 0 ||
+            table_set_col(t, 3 + 3 * g, kinds[k]->corner->voltage_col) != 0 ||
+            table_set_col(t, 4 + 3 * g, flag) != 0)
             st = SS_ERR_NOMEM;
-    char(*names)[160] = ss_alloc((size_t)(n_models + 1) * sizeof *names);
-    double *beta = ss_alloc((size_t)(n_models + 1) * sizeof *beta);
+    }
+    int n_values = corner_values(s, NULL);
+    corner_value *cv = ss_alloc((size_t)(n_values + 1) * sizeof *cv);
     ss_solver *sv = NULL;
-    if (!t || !names || !beta || st != SS_OK)
+    if (!t || !cv || st != SS_OK)
         st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
-    if (st == SS_OK)
+    if (st == SS_OK) {
+        corner_values(s, cv);
         st = study_context(s, &sv, err);
+    }
     const double temps[2] = {temp_lo_c, temp_hi_c};
     for (int bc = 0; st == SS_OK && bc < 2; bc++) {
-        int k = 0;
-        for (int m = 0; m < nom->n_models; m++) {
-            const model *md = nom->models[m];
-            int cp = model_corner_param(md);
-            if (cp < 0)
-                continue;
-            snprintf(names[k], sizeof names[k], "%s.%s", md->name,
-                     md->ops->model_params[cp].name);
-            double bf = md->p[cp]; /* a --set BF is the nominal the corners are taken from */
-            double v = bc == 0 ? bf * 0.5 : bf * 2.0;
-            for (int i = 0; i < s->n_tols; i++)
-                if (strcmp(s->tols[i].name, names[k]) == 0)
-                    v = bc == 0 ? s->tols[i].lo : s->tols[i].hi;
-            beta[k++] = v;
-        }
         for (int tc = 0; st == SS_OK && tc < 2; tc++) {
             ss_error e2 = {0};
             ss_solver_reset_values(sv);
             ss_status pst = SS_OK;
-            for (int b = 0; b < k && pst == SS_OK; b++)
-                pst = ss_solver_set_value(sv, names[b], beta[b], &e2);
+            for (int b = 0; b < n_values && pst == SS_OK; b++)
+                pst = ss_solver_set_value(sv, cv[b].name, cv[b].at[bc], &e2);
             if (pst == SS_OK)
                 pst = ss_solver_set_temp(sv, temps[tc], &e2);
             if (pst == SS_OK)
                 pst = op_solve_into(sv, NULL, &e2);
             for (int i = 0; i < sv->n_elem && st == SS_OK; i++) {
                 const element *e = &sv->elem[i];
-                if (!e->ops->op_point)
+                int k = 0;
+                while (k < n_kinds && kinds[k] != e->ops)
+                    k++;
+                if (k == n_kinds)
                     continue;
+                int g = group[k];
                 char label[300];
-                snprintf(label, sizeof label, "%s beta %s, %g C", e->name, bc ? "high" : "low",
-                         temps[tc]);
+                snprintf(label, sizeof label, "%s %s %s, %g C", e->name,
+                         e->ops->corner->extreme, bc ? "high" : "low", temps[tc]);
                 double *row = table_add_row(t, label);
                 if (!row) {
                     st = err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
@@ -153,16 +232,15 @@ ss_status ss_study_corners(ss_study *s, double temp_lo_c, double temp_hi_c, ss_t
                 if (pst == SS_OK) {
                     dev_op_point op;
                     e->ops->op_point(e, sv->x_op, analysis_vt(sv), sv->ckt->opt.gmin, &op);
-                    row[2] = op.i_a;
-                    row[3] = op.v_v;
-                    row[4] = op.amplifying;
+                    row[2 + 3 * g] = op.i_a;
+                    row[3 + 3 * g] = op.v_v;
+                    row[4 + 3 * g] = op.amplifying;
                 }
             }
         }
     }
     ss_solver_destroy(&sv);
-    ss_free(beta);
-    ss_free(names);
+    ss_free(cv);
     if (st != SS_OK) {
         ss_table_destroy(&t);
         return st;

@@ -350,7 +350,7 @@ bad(".ac stop below start", 2, F + ":4: .ac: stop frequency 1 Hz is below start 
     "ac", "V1 a 0 5", "R1 a 0 1k", ".ac dec 10 1meg 1")
 bad("unknown .options name", 2,
     F + ":4: .options: unknown option 'reltol' (known: tol_rel, tol_v, tol_i, gmin, "
-    "newton_iters, tran_method, tran_tol_rel, tran_tol_v, lint_off)",
+    "newton_iters, tran_method, tran_tol_rel, tran_tol_v, lint_off, model_extras)",
     "options", "V1 a 0 5", "R1 a 0 1k", ".options reltol=1e-3")
 bad(".options value out of range", 2, F + ":4: .options: tol_rel = 2 is out of range",
     "options", "V1 a 0 5", "R1 a 0 1k", ".options tol_rel=2")

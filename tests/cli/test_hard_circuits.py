@@ -49,8 +49,9 @@ published sources; the Gummel-Poon and temperature forms there are marked "from 
 The exponential is exact here (stagesim continues it linearly above an argument of 200; here
 the cap is at 300, only to keep a wild trial point finite).
 
-Three checks guard behaviour that was once wrong (marked REGRESSION GUARD below):
+Four checks guard behaviour that was once wrong (marked REGRESSION GUARD below):
   latch, latch_pnpn      the unstable in-between solution used to be reported
+  cmos_latch             likewise, for a symmetric latch of MOSFETs
   resistance_spread      v(m), v(t) used to be right to 2.4e-5 only
   tiny_is_extreme        a junction at exp(85): beyond an exponent cap of 80 (the old one)
 The runs are killed after TIMEOUT_S seconds: 'reverse_midpoint gmin=0' guards a Newton solve
@@ -829,6 +830,22 @@ def latch_verify(guesses, stable_names):
     return verify
 
 
+def cmos_latch(label, rc, so, se, op, out, path, sets):
+    """The latch checks (a genuine, stable solution by the reference's own eigenvalues), then:
+    one output at the supply and the other at ground (to 1e-6 V), and the same state as the
+    first run of this circuit (the escape from the balanced point is deterministic)."""
+    latch_verify(CMOS_GUESSES, ["a low", "b low"])(label, rc, so, se, op, out, path, sets)
+    if rc != 0:
+        return
+    va, vb = op.get("v(a)"), op.get("v(b)")
+    lo_hi = (close(va, 0.0, 0, 1e-6) and close(vb, 5.0, 0, 1e-6)) or \
+        (close(va, 5.0, 0, 1e-6) and close(vb, 0.0, 0, 1e-6))
+    check(f"{label}: one output high, one low (v(a) {va}, v(b) {vb})", lo_hi)
+    state = "a low" if va is not None and va < 2.5 else "b low"
+    first = CMOS_STATE.setdefault("state", state)
+    check(f"{label}: the same state as the first run ({first})", state == first)
+
+
 def hv_reverse(label, rc, so, se, op, out, path, sets):
     """Closed form for the guard diode (Shockley 1949 with GMIN; exp(-Vk/Vt) underflows to 0)
     and the two-unknown Gummel-Poon equations of the monitor transistor (no RB/RE/RC, no
@@ -1085,6 +1102,11 @@ PNPN_GUESSES = {"OFF": dict(vcc=12, an=12, g1=12, k1=0),
                 "ON": dict(vcc=12, an=0.8, g1=0.1, k1=0.72),
                 "in-between": dict(vcc=12, an=1.0, g1=0.3, k1=0.7)}
 
+CMOS_GUESSES = {"a low": dict(vdd=5, a=0.0, b=5.0),
+                "b low": dict(vdd=5, a=5.0, b=0.0),
+                "balanced": dict(vdd=5, a=2.5, b=2.5)}
+CMOS_STATE = {}
+
 # (label, file in tests/hard, --set values, verification, also run with the fallbacks forced)
 CASES = [
     ("multistage_feedback", "multistage_feedback.cir", None, scipy_with(multistage_gain), True),
@@ -1092,6 +1114,7 @@ CASES = [
     ("saturated_switch", "saturated_switch.cir", None, saturated_switch, True),
     ("latch", "latch.cir", None, latch_verify(LATCH_GUESSES, ["Q1 on", "Q2 on"]), True),
     ("latch_pnpn", "latch_pnpn.cir", None, latch_verify(PNPN_GUESSES, ["OFF", "ON"]), True),
+    ("cmos_latch", "cmos_latch.cir", None, cmos_latch, True),
     ("hv_reverse", "hv_reverse.cir", None, hv_reverse, True),
     ("resistance_spread", "resistance_spread.cir", None, resistance_spread, True),
     ("cap_spread_ac", "cap_spread_ac.cir", None, cap_spread, False),

@@ -214,6 +214,59 @@ good("model card uses a .param defined later", check_bf_from_later_param,
      "t", ".model qx npn bf={bfx} is=1e-15", "VCC c 0 5", "VB b 0 0.65", "Q1 c b 0 qx",
      ".param bfx=150", ".op")
 
+# ---- published model cards: forms, and fields that are not parameters ----------------------------
+
+# A model file written the way published ones are (our own invented card): upper case, the
+# parenthesised form over `+` continuations, SI suffixes with units, spaces around `=`, and
+# ratings and the maker's name beside the parameters.
+PUB_LIB = ("* generic small-signal NPN, invented for the tests\n"
+           ".MODEL QGEN NPN (IS = 2.5F BF=180 VAF=90V\n"
+           "+ CJE=8pF MJE = 0.35 TF=350P\n"
+           "+ VCEO=40 ICRATING=200M MFG=Acme)\n")
+PUB_NET = ["published card", ".include pub.lib", "VCC c 0 5", "VB b 0 0.62", "Q1 c b 0 qgen",
+           ".op"]
+PUB_WARN = ("stagesim: warning: " + TMP + "/pub.lib:2: model 'qgen': ignored vceo, icrating, "
+            "mfg: not BJT model parameters (.options model_extras=warn) [model_extras]")
+
+
+def check_pub_card(tmp, out):
+    """The card's IS and BF as written reach the transistor: in forward active the
+    Gummel-Poon base current with ISE = ISC = 0 is Ib = IS/BF (exp(Vbe/(NF Vt)) - 1) +
+    IS/BR (exp(Vbc/(NR Vt)) - 1), VAF does not enter it (H. K. Gummel, H. C. Poon, Bell Syst.
+    Tech. J. 49, 827, 1970); Vt = k T / q at 300.15 K, k and q exact in the 2019 SI; the
+    default gmin of 1e-12 S across each junction adds gmin (Vbe + Vbc) (docs/models.md,
+    section 7)."""
+    v = op_values(tmp)
+    vt = 1.380649e-23 * 300.15 / 1.602176634e-19
+    vbe, vbc = 0.62, 0.62 - 5.0
+    want = (2.5e-15 / 180 * math.expm1(vbe / vt) + 2.5e-15 / 1.0 * math.expm1(vbc / vt)
+            + 1e-12 * (vbe + vbc))
+    got = v.get("ib(q1)")
+    return None if got is not None and close(got, want, 1e-9) else \
+        "ib(q1) = %r, expected %r" % (got, want)
+
+
+CASES.append(Case("published card with ratings: refused by default, all named",
+                  2, TMP + "/pub.lib:2: model 'qgen': vceo, icrating, mfg are not BJT model "
+                  "parameters (ratings or maker's notes? .options model_extras=warn ignores "
+                  "such fields with a warning)",
+                  {"pub.lib": PUB_LIB, "n.cir": net(*PUB_NET)}))
+CASES.append(Case("published card with ratings: one warning under model_extras=warn",
+                  0, PUB_WARN,
+                  {"pub.lib": PUB_LIB, "n.cir": net(*(PUB_NET + [".options model_extras=warn"]))},
+                  check=check_pub_card))
+CASES.append(Case("published card with ratings: check --strict counts the warning",
+                  1, PUB_WARN,
+                  {"pub.lib": PUB_LIB,
+                   "n.cir": net(*(PUB_NET + [".options model_extras=warn",
+                                             ".expect v(c) 4.9 .. 5.1"]))},
+                  args=["check", "{T}/n.cir", "--strict", "--quiet"]))
+CASES.append(Case("published card with a misspelt parameter: refused even under the option",
+                  2, TMP + "/pub.lib:2: model 'qgen': unknown parameter 'cjee' (did you mean "
+                  "cje?) for a BJT model",
+                  {"pub.lib": PUB_LIB.replace("CJE=8pF", "CJEE=8pF"),
+                   "n.cir": net(*(PUB_NET + [".options model_extras=warn"]))}))
+
 # ---- temperature-scaled model parameters ---------------------------------------------------------
 
 bad("xtb overflows beta at .temp 85",

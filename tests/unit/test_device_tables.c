@@ -6,6 +6,7 @@
 #include "ss_test.h"
 
 #include "devices/device.h"
+#include "netlist/parser_internal.h"
 
 /* The text between the marker line `<!-- parameters: NAME -->` and the next blank line. */
 static char *doc_table(const char *doc, const char *name)
@@ -157,6 +158,22 @@ static void test_card_ranges_come_from_the_tables(void **state)
                  "or pjf");
 }
 
+/* The fields a card may carry beside its parameters under .options model_extras=warn
+ * (docs/netlist.md) are none of any kind's parameters: a parameter is always read, never
+ * ignored as a rating. */
+static void test_extra_fields_are_no_parameters(void **state)
+{
+    (void)state;
+    int n = 0;
+    for (const char *f; (f = model_extra_field(n)) != NULL; n++)
+        for (int k = 0; k < device_count(); k++)
+            if (device_at(k)->model_params && model_param_index(device_at(k), f) >= 0) {
+                print_error("'%s' is a %s parameter\n", f, device_at(k)->kind_name);
+                fail();
+            }
+    assert_true(n >= 5);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -164,6 +181,7 @@ int main(void)
         cmocka_unit_test(test_parameter_tables_hold_together),
         cmocka_unit_test(test_kind_facts),
         cmocka_unit_test(test_card_ranges_come_from_the_tables),
+        cmocka_unit_test(test_extra_fields_are_no_parameters),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -8,7 +8,9 @@
 #include <unistd.h>
 
 #include "netlist/circuit.h"
+#include "devices/device.h"
 #include "netlist/netlist.h"
+#include "netlist/parser_internal.h"
 #include "solver/solver.h"
 
 /* ---- values: SI suffixes are the trade's convention (common practice) --------------------- */
@@ -327,7 +329,8 @@ static void test_errors_name_line_and_element(void **state)
                  "test.cir:4: stage output node 'zz' does not exist");
     expect_error("t\n.options reltol=1\nr1 a 0 1\n",
                  "test.cir:2: .options: unknown option 'reltol' (known: tol_rel, tol_v, tol_i, "
-                 "gmin, newton_iters, tran_method, tran_tol_rel, tran_tol_v, lint_off)");
+                 "gmin, newton_iters, tran_method, tran_tol_rel, tran_tol_v, lint_off, "
+                 "model_extras)");
 }
 
 /* The BJT's optional substrate node: the fourth token is the model when it names one, else
@@ -436,6 +439,154 @@ static void test_internal_node_does_not_shadow_netlist_node(void **state)
     ss_test_destroy(&ckt);
 }
 
+/* ---- published model cards ---------------------------------------------------------------- */
+
+/* Every card of `text` has the same parameters, given and with the same values (to 1e-15
+ * relative: `1f` and `0.001p` are the same number written two ways). */
+static void expect_same_cards(const char *text, int n_cards)
+{
+    ss_circuit *ckt = ss_test_parse(text);
+    assert_int_equal(ckt->n_models, n_cards);
+    const model *ref = ckt->models[0];
+    for (int k = 1; k < n_cards; k++) {
+        const model *m = ckt->models[k];
+        assert_ptr_equal(m->ops, ref->ops);
+        assert_int_equal(m->type, ref->type);
+        for (int i = 0; i < ref->ops->n_model_params; i++) {
+            if (m->given[i] != ref->given[i])
+                print_error("card %s: parameter %s given %d, reference %d\n", m->name,
+                            ref->ops->model_params[i].name, m->given[i], ref->given[i]);
+            assert_int_equal(m->given[i], ref->given[i]);
+            if (m->p[i] != ref->p[i]) /* defaults may be infinite: equal, not close */
+                ss_assert_close(m->p[i], ref->p[i], 1e-15, 0);
+        }
+    }
+    assert_int_equal(ckt->n_warnings, 0);
+    ss_test_destroy(&ckt);
+}
+
+/* A published card in any of the forms model files are written in (common practice): the
+ * parenthesised and the bare form, any case, parameters in any order, `+` continuations,
+ * SI suffixes (with a unit letter after them), spaces around `=`. */
+static void test_published_card_forms(void **state)
+{
+    (void)state;
+    expect_same_cards("bjt cards\n"
+                      ".model ref npn is=1e-15 bf=200 vaf=80 cje=2e-12 mje=0.33 tf=4e-10\n"
+                      ".model a npn(is=1e-15 bf=200 vaf=80 cje=2p mje=0.33 tf=0.4n)\n"
+                      ".MODEL B NPN (IS=1F BF=200\n"
+                      "+ VAF=80\n"
+                      "+CJE=2E-12 MJE=.33 TF=400P)\n"
+                      ".model c npn tf = 400ps mje = 0.33 cje= 2pF vaf =80V bf = 0.2k\n"
+                      "+ is = 0.001p\n"
+                      ".Model D Npn( Is=1e-15 Bf=200 Vaf=80 Cje=2p Mje=0.33 Tf=0.4n )\n"
+                      "v1 a 0 1\nr1 a 0 1k\n",
+                      5);
+    expect_same_cards("pnp cards\n"
+                      ".model ref pnp is=2e-15 bf=150 br=3 rb=10\n"
+                      ".model a PNP(IS=2F BF=150 BR=3 RB=10)\n"
+                      ".model b pnp\n+ (rb=10 br=3\n+ bf=150 is=2f)\n"
+                      "v1 a 0 1\nr1 a 0 1k\n",
+                      3);
+    expect_same_cards("jfet cards\n"
+                      ".model ref njf vto=-2 beta=1.3e-3 lambda=4e-3 cgs=3e-12 cgd=1e-12\n"
+                      ".model a NJF(VTO=-2 BETA=1.3M LAMBDA=4M CGS=3P CGD=1P)\n"
+                      ".model b njf cgd = 1pf cgs = 3pf\n+ lambda = 0.004 beta=1.3m vto=-2v\n"
+                      "v1 a 0 1\nr1 a 0 1k\n",
+                      3);
+    expect_same_cards("mosfet cards\n"
+                      ".model ref nmos level=1 vto=0.8 kp=1.2e-4 lambda=0.02 gamma=0.4\n"
+                      ".model a NMOS(LEVEL=1 VTO=0.8 KP=120U LAMBDA=20M GAMMA=0.4)\n"
+                      ".model b nmos (gamma = .4\n+ lambda=0.02\n+ kp=120u vto=800mv level=1)\n"
+                      "v1 a 0 1\nr1 a 0 1k\n",
+                      3);
+    expect_same_cards("diode cards\n"
+                      ".model ref d is=2.5e-9 n=1.75 rs=0.5 cjo=4e-12 tt=6e-9\n"
+                      ".model a D(IS=2.5N N=1.75 RS=.5 CJO=4P TT=6N)\n"
+                      ".model b d\n+ tt = 6ns cjo = 4pf\n+ rs = 500m n = 1.75 is = 2.5na\n"
+                      "v1 a 0 1\nr1 a 0 1k\n",
+                      3);
+}
+
+/* Fields that are not model parameters: an error naming them all with the card's line and
+ * saying how to accept them; under .options model_extras=warn, one warning per card naming
+ * them (in the circuit, and so in every context made from it, as a check of its own); a
+ * misspelt parameter stays an error either way, with the nearest parameter as a hint. */
+static void test_card_extra_fields(void **state)
+{
+    (void)state;
+    const char *card = ".model qx npn(is=1e-15 bf=200 vceo=45 icrating=100m mfg=acme)\n";
+    char text[1024];
+    snprintf(text, sizeof text, "t\n%sv1 a 0 1\nr1 a 0 1k\n", card);
+    expect_error(text, "test.cir:2: model 'qx': vceo, icrating, mfg are not BJT model parameters "
+                       "(ratings or maker's notes? .options model_extras=warn ignores such "
+                       "fields with a warning)");
+    expect_error("t\n.model dz d is=1n\n+ vpk=100 iave=0.2\nv1 a 0 1\nr1 a 0 1k\n",
+                 "test.cir:2: model 'dz': vpk, iave are not diode model parameters (ratings or "
+                 "maker's notes? .options model_extras=warn ignores such fields with a warning)");
+    expect_error("t\n.model dz d is=1n type=zener\nv1 a 0 1\nr1 a 0 1k\n",
+                 "test.cir:2: model 'dz': type is not a diode model parameter (ratings or "
+                 "maker's notes? .options model_extras=warn ignores such fields with a warning)");
+    /* misspellings: never ignored, with or without the option */
+    expect_error("t\n.model qx npn(is=1e-15 bff=200 vaff=80 lamda=1)\nv1 a 0 1\nr1 a 0 1k\n",
+                 "test.cir:2: model 'qx': unknown parameters 'bff' (did you mean bf?), 'vaff' "
+                 "(did you mean vaf?), 'lamda' for a BJT model");
+    expect_error("t\n.options model_extras=warn\n.model jx njf vto=-2 betta=1m lamda=0.01 "
+                 "mfg=acme\nv1 a 0 1\nr1 a 0 1k\n",
+                 "test.cir:3: model 'jx': unknown parameters 'betta' (did you mean beta?), "
+                 "'lamda' (did you mean lambda?) for a JFET model");
+    expect_error("t\n.model qx npn bf=200 bff=100 vceo=45\nv1 a 0 1\nr1 a 0 1k\n",
+                 "test.cir:2: model 'qx': unknown parameter 'bff' (did you mean bf?) for a BJT "
+                 "model; not parameters either: vceo (ratings or maker's notes: .options "
+                 "model_extras=warn ignores such fields with a warning)");
+    expect_error("t\n.options model_extras=maybe\n.model qx npn vceo=45\nv1 a 0 1\nr1 a 0 1k\n",
+                 "test.cir:2: .options: model_extras must be error or warn, got 'maybe'");
+    expect_error("t\n.options model_extras=ignore\nv1 a 0 1\nr1 a 0 1k\n",
+                 "test.cir:2: .options: model_extras must be error or warn, got 'ignore'");
+
+    /* accepted with the option, wherever the .options line stands (here after the card) */
+    snprintf(text, sizeof text,
+             "t\n%s.model qy npn bf=100\nv1 a 0 1\nr1 a 0 1k\n.options model_extras = warn\n",
+             card);
+    ss_circuit *ckt = ss_test_parse(text);
+    const char *want = "test.cir:2: model 'qx': ignored vceo, icrating, mfg: not BJT model "
+                       "parameters (.options model_extras=warn) [model_extras]";
+    assert_int_equal(ckt->n_warnings, 1); /* one per card; the clean card none */
+    assert_string_equal(ckt->warnings[0].text, want);
+    assert_int_equal(ckt->n_models, 2);
+    ss_assert_close(ckt->models[0]->p[model_param_index(ckt->models[0]->ops, "bf")], 200.0, 0,
+                    0);
+    ss_solver *sv = ss_test_sv(ckt);
+    assert_string_equal(ss_solver_warning(sv, 0), want);
+    assert_null(ss_solver_warning(sv, 1));
+    const char *subject = NULL;
+    assert_string_equal(ss_solver_warning_lint(sv, 0, &subject), "model_extras");
+    assert_string_equal(subject, "qx");
+    int n_lint = -1;
+    ss_error err = {0};
+    assert_int_equal(ss_lint_run(sv, &n_lint, &err), SS_OK);
+    assert_int_equal(n_lint, 1); /* what check --strict counts */
+    ss_test_destroy(&ckt);
+    /* model_extras=error is the default, said out loud */
+    snprintf(text, sizeof text, "t\n.options model_extras=error\n%sv1 a 0 1\nr1 a 0 1k\n", card);
+    char msg[1400];
+    ss_test_parse_error(text, msg, sizeof msg);
+    ss_assert_contains(msg, "test.cir:3: model 'qx': vceo, icrating, mfg are not BJT");
+}
+
+/* The edit distance behind the hints: insert, delete, replace, swap two neighbours. */
+static void test_name_distance(void **state)
+{
+    (void)state;
+    assert_int_equal(name_distance("bf", "bf"), 0);
+    assert_int_equal(name_distance("bff", "bf"), 1);
+    assert_int_equal(name_distance("fb", "bf"), 1);
+    assert_int_equal(name_distance("lamda", "lambda"), 1);
+    assert_int_equal(name_distance("cje", "mjc"), 2);
+    assert_int_equal(name_distance("", "vaf"), 3);
+    assert_int_equal(name_distance("icrating", "is"), 7);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -453,6 +604,9 @@ int main(void)
         cmocka_unit_test(test_include_relative_to_including_file),
         cmocka_unit_test(test_errors_name_line_and_element),
         cmocka_unit_test(test_bjt_substrate_node),
+        cmocka_unit_test(test_published_card_forms),
+        cmocka_unit_test(test_card_extra_fields),
+        cmocka_unit_test(test_name_distance),
         cmocka_unit_test(test_binary_garbage_rejected),
         cmocka_unit_test(test_long_names_are_refused_not_cut),
         cmocka_unit_test(test_internal_node_does_not_shadow_netlist_node),
