@@ -111,6 +111,15 @@ SS_API void ss_study_destroy(ss_study **s);
 SS_API ss_status ss_study_summarize(const ss_table *points, const ss_limits *limits,
                                     ss_table **out_summary, ss_error *err);
 
+/* The study's part of an HTML report (stagesim/plot.h): the page's title from the netlist's
+ * (when none was given) and the nominal circuit's warnings; then, when points is not NULL (with
+ * its summary, ss_study_summarize), the yield in the banner, the worst point of each of the
+ * study's limits (the smallest margin; a point without the figure is worst of all) with its
+ * measured value, bounds, margin, the fraction of points passing and its verdict -- these count
+ * as the page's limits -- and the summary table. */
+SS_API ss_status ss_html_add_study(ss_html *h, const ss_study *s, const ss_table *points,
+                                   const ss_table *summary, ss_error *err);
+
 /* Normalised sensitivities (dF/F)/(dx/x) of every figure to every toleranced or listed value,
  * by central differences of +-1 %: a table labelled by figure, one column per value. The
  * limits' names are checked first (ss_limits_check_names). */

@@ -109,13 +109,17 @@ int cmd_study(const cli_args *a, int spread)
     static const char *const names[2] = {"study.csv", "study_summary.csv"};
     const char *path[2];
     ss_outset *set = NULL;
+    ss_html *html = NULL;
+    const char *html_path = NULL;
     int rc = out_start(a, names, 2, path, &set);
-    if (rc != EXIT_OK)
-        return rc;
+    if (rc == EXIT_OK)
+        rc = html_start(a, set, &html, &html_path);
     ss_study *s = NULL;
     ss_limits *lim = NULL;
-    rc = make_study(a, &s, &lim);
+    if (rc == EXIT_OK)
+        rc = make_study(a, &s, &lim);
     if (rc != EXIT_OK) {
+        ss_html_destroy(&html);
         ss_outset_destroy(&set);
         return rc;
     }
@@ -148,16 +152,35 @@ int cmd_study(const cli_args *a, int spread)
                n_bad);
         print_summary(summary);
     }
-    if (n_bad)
-        fprintf(stderr, "stagesim: warning: %d point%s did not solve (status column; figures "
-                        "left empty)\n",
-                n_bad, n_bad == 1 ? "" : "s");
-    rc = out_commit(set, print_yield(summary, a->min_yield, a->quiet));
+    char warn[160] = "";
+    if (n_bad) {
+        snprintf(warn, sizeof warn, "%d point%s did not solve (status column; figures left "
+                                    "empty)", n_bad, n_bad == 1 ? "" : "s");
+        fprintf(stderr, "stagesim: warning: %s\n", warn);
+    }
+    rc = print_yield(summary, a->min_yield, a->quiet);
+    if (html) {
+        char note[200], why[120];
+        snprintf(note, sizeof note, "%d points%s, %d without an operating point", n,
+                 a->shard_n > 1 ? " (this shard)" : "", n_bad);
+        snprintf(why, sizeof why, "the yield is below the required %.4g %% (--min-yield)",
+                 100.0 * a->min_yield);
+        if (ss_html_add_note(html, note, &err) != SS_OK ||
+            (n_bad && ss_html_add_warning(html, warn, NULL, &err) != SS_OK) ||
+            (rc == EXIT_CHECK_FAILED && ss_html_fail(html, why, &err) != SS_OK) ||
+            ss_html_add_study(html, s, pts, summary, &err) != SS_OK ||
+            html_finish(html, set, html_path, &err) != 0) {
+            rc = fail(&err);
+            goto done;
+        }
+    }
+    rc = out_commit(set, rc);
 done:
     ss_table_destroy(&pts);
     ss_table_destroy(&summary);
     ss_limits_destroy(&lim);
     ss_study_destroy(&s);
+    ss_html_destroy(&html);
     ss_outset_destroy(&set);
     return rc;
 }
@@ -167,13 +190,17 @@ int cmd_sensitivity(const cli_args *a)
     static const char *const names[2] = {"sensitivity.csv", "corners.csv"};
     const char *path[2];
     ss_outset *set = NULL;
+    ss_html *html = NULL;
+    const char *html_path = NULL;
     int rc = out_start(a, names, 2, path, &set);
-    if (rc != EXIT_OK)
-        return rc;
+    if (rc == EXIT_OK)
+        rc = html_start(a, set, &html, &html_path);
     ss_study *s = NULL;
     ss_limits *lim = NULL;
-    rc = make_study(a, &s, &lim);
+    if (rc == EXIT_OK)
+        rc = make_study(a, &s, &lim);
     if (rc != EXIT_OK) {
+        ss_html_destroy(&html);
         ss_outset_destroy(&set);
         return rc;
     }
@@ -232,16 +259,30 @@ int cmd_sensitivity(const cli_args *a)
                    isnan(fa) ? "NO OPERATING POINT" : fa == 1.0 ? "forward active"
                                                                 : "LEAVES FORWARD ACTIVE");
     }
-    if (n_out)
-        fprintf(stderr, "stagesim: warning: %d transistor corner%s outside forward-active "
-                        "operation (corners.csv)\n",
-                n_out, n_out == 1 ? "" : "s");
+    char warn[160] = "";
+    if (n_out) {
+        snprintf(warn, sizeof warn, "%d transistor corner%s outside forward-active operation "
+                                    "(corners.csv)", n_out, n_out == 1 ? "" : "s");
+        fprintf(stderr, "stagesim: warning: %s\n", warn);
+    }
+    if (html && (ss_html_add_study(html, s, NULL, NULL, &err) != SS_OK ||
+                 (n_out && ss_html_add_warning(html, warn, NULL, &err) != SS_OK) ||
+                 ss_html_add_note(html, "normalised sensitivities: % change of the figure per % "
+                                        "change of the value", &err) != SS_OK ||
+                 ss_html_add_table(html, "Sensitivities", sens, 0, &err) != SS_OK ||
+                 ss_html_add_table(html, "Operating point at the beta and temperature extremes",
+                                   corners, 0, &err) != SS_OK ||
+                 html_finish(html, set, html_path, &err) != 0)) {
+        rc = fail(&err);
+        goto done;
+    }
     rc = out_commit(set, EXIT_OK);
 done:
     ss_table_destroy(&corners);
     ss_table_destroy(&sens);
     ss_limits_destroy(&lim);
     ss_study_destroy(&s);
+    ss_html_destroy(&html);
     ss_outset_destroy(&set);
     return rc;
 }
@@ -293,13 +334,17 @@ int cmd_snap(const cli_args *a)
     static const char *const names[2] = {"snap_values.csv", "snap_figures.csv"};
     const char *path[2];
     ss_outset *set = NULL;
+    ss_html *html = NULL;
+    const char *html_path = NULL;
     int rc = out_start(a, names, 2, path, &set);
-    if (rc != EXIT_OK)
-        return rc;
+    if (rc == EXIT_OK)
+        rc = html_start(a, set, &html, &html_path);
     ss_study *s = NULL;
     ss_limits *lim = NULL;
-    rc = make_study(a, &s, &lim);
+    if (rc == EXIT_OK)
+        rc = make_study(a, &s, &lim);
     if (rc != EXIT_OK) {
+        ss_html_destroy(&html);
         ss_outset_destroy(&set);
         return rc;
     }
@@ -339,12 +384,25 @@ int cmd_snap(const cli_args *a)
                 printf(" %8.3f%%\n", pct);
         }
     }
+    if (html) {
+        char head[64];
+        snprintf(head, sizeof head, "Resistors snapped to E%d", a->series);
+        if (ss_html_add_study(html, s, NULL, NULL, &err) != SS_OK ||
+            ss_html_add_table(html, head, vals, 0, &err) != SS_OK ||
+            ss_html_add_table(html, "Figures at the preferred values", figs, 0, &err) !=
+                SS_OK ||
+            html_finish(html, set, html_path, &err) != 0) {
+            rc = fail(&err);
+            goto done;
+        }
+    }
     rc = out_commit(set, EXIT_OK);
 done:
     ss_table_destroy(&vals);
     ss_table_destroy(&figs);
     ss_limits_destroy(&lim);
     ss_study_destroy(&s);
+    ss_html_destroy(&html);
     ss_outset_destroy(&set);
     return rc;
 }
