@@ -120,6 +120,13 @@ SS_API ss_status ss_study_summarize(const ss_table *points, const ss_limits *lim
 SS_API ss_status ss_html_add_study(ss_html *h, const ss_study *s, const ss_table *points,
                                    const ss_table *summary, ss_error *err);
 
+/* The study's limits judged against one column of a figures table labelled by figure (snap's
+ * "preferred"), as a verdict table of the page (ss_html_add_verdicts). Nothing without limits.
+ * SS_ERR_INPUT when the column is missing or a limit names no figure of the table. */
+SS_API ss_status ss_html_add_study_verdicts(ss_html *h, const ss_study *s, const char *heading,
+                                            const ss_table *figures, const char *column,
+                                            ss_error *err);
+
 /* Normalised sensitivities (dF/F)/(dx/x) of every figure to every toleranced or listed value,
  * by central differences of +-1 %: a table labelled by figure, one column per value. The
  * limits' names are checked first (ss_limits_check_names). */

@@ -388,6 +388,8 @@ int cmd_snap(const cli_args *a)
         char head[64];
         snprintf(head, sizeof head, "Resistors snapped to E%d", a->series);
         if (ss_html_add_study(html, s, NULL, NULL, &err) != SS_OK ||
+            ss_html_add_study_verdicts(html, s, "Limits at the preferred values", figs,
+                                       "preferred", &err) != SS_OK ||
             ss_html_add_table(html, head, vals, 0, &err) != SS_OK ||
             ss_html_add_table(html, "Figures at the preferred values", figs, 0, &err) !=
                 SS_OK ||

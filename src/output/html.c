@@ -530,6 +530,35 @@ ss_status ss_html_add_study(ss_html *h, const ss_study *s, const ss_table *pts,
     return status_of(h, err);
 }
 
+ss_status ss_html_add_study_verdicts(ss_html *h, const ss_study *s, const char *heading,
+                                     const ss_table *figures, const char *column, ss_error *err)
+{
+    int col = ss_table_col_index(figures, column);
+    if (col < 0)
+        return err_set(err, SS_ERR_INPUT, NULL, 0, "HTML report: the figures have no column '%s'",
+                       column);
+    if (!s->limits || s->limits->n == 0)
+        return SS_OK;
+    ss_table *vals = table_create(1, "metric");
+    ss_status st = vals && table_set_col(vals, 0, "value") == 0 ? SS_OK : nomem(err);
+    for (int i = 0; st == SS_OK && i < figures->n_rows; i++) {
+        double *row = table_add_row(vals, figures->row_labels[i]);
+        if (!row)
+            st = nomem(err);
+        else
+            row[0] = figures->data[(size_t)i * (size_t)figures->n_cols + (size_t)col];
+    }
+    ss_table *verdicts = NULL;
+    int n_failed = 0;
+    if (st == SS_OK)
+        st = ss_check_evaluate(s->limits, vals, &verdicts, &n_failed, err);
+    if (st == SS_OK)
+        st = ss_html_add_verdicts(h, heading, verdicts, err);
+    ss_table_destroy(&verdicts);
+    ss_table_destroy(&vals);
+    return st;
+}
+
 /* ---- plots -------------------------------------------------------------------------------- */
 
 ss_status ss_html_add_svg(ss_html *h, const char *caption, const char *svg, size_t len,

@@ -553,10 +553,37 @@ def case_sensitivity_snap(work):
                       os.path.join(out, "corners.csv"))
     out = os.path.join(work, "snap")
     page_path = os.path.join(out, "s.html")
-    r = run(["snap", VF, "--series", "E24", "-o", out, "--html", page_path, "-q"])
+    r = run(["snap", VF, "--series", "E24", "--limits", VF_LIMITS, "-o", out, "--html",
+             page_path, "-q"])
     check("snap --html: exit 0", r.returncode == 0, r.stderr)
     if r.returncode == 0:
         page = parse_page(page_path)
+        # the limits judged at the preferred values: snap_figures.csv's preferred column
+        # against the bounds check.csv lists
+        chk = os.path.join(work, "snap_check")
+        run(["check", VF, VF_LIMITS, "-o", chk, "-q"])
+        bounds = labelled(os.path.join(chk, "check.csv"))
+        figs = labelled(os.path.join(out, "snap_figures.csv"))
+        verdicts = table(page, "Limits at the preferred values")
+        bad = []
+        for q, b in bounds.items():
+            got = verdicts.get(q)
+            if not got:
+                bad.append("no row " + q)
+                continue
+            v = float(figs[q]["preferred"])
+            lo = float(b["lower"]) if b["lower"] else -float("inf")
+            hi = float(b["upper"]) if b["upper"] else float("inf")
+            for col, want in (("measured", v), ("margin", min(v - lo, hi - v)),
+                              ("pass", 1.0 if lo <= v <= hi else 0.0)):
+                if abs(float(got[col][1]) - want) > 1e-12 * max(1.0, abs(want)):
+                    bad.append("%s %s %s vs %r" % (q, col, got[col][1], want))
+            for col in ("lower", "upper"):
+                ok, detail = same_number(b[col], got[col], q + " " + col)
+                if not ok:
+                    bad.append(detail)
+        check("snap: %d limits judged at the preferred values (snap_figures.csv)" % len(bounds),
+              not bad and len(verdicts) == len(bounds), bad[:4])
         compare_table("snap: values", table(page, "Resistors snapped to E24"),
                       os.path.join(out, "snap_values.csv"))
         compare_table("snap: figures", table(page, "Figures at the preferred values"),
