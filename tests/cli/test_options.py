@@ -449,7 +449,8 @@ def help_options(binary, cmd):
 SAMPLE = {"-o": ["{T}/o2"], "--out-dir": ["{T}/o3"], "--set": ["r2=12k"],
           "--in": ["v1", "--out", "mid"], "--out": ["mid", "--in", "v1"], "--load": ["47k"],
           "--nodes": ["mid"], "--ls-freq": ["2k"], "--thd-amp": ["100m"],
-          "--thd-target": ["2"], "--junit": ["{T}/j.xml"], "--limits": ["{T}/l.limits"],
+          "--thd-target": ["2"], "--junit": ["{T}/j.xml"], "--html": ["{T}/r.html"],
+          "--limits": ["{T}/l.limits"],
           "--min-yield": ["0.5"], "--vary": ["r1=list:5k,10k"], "--tol": ["r1=5%"],
           "--trials": ["4"], "--seed": ["7"], "--threads": ["2"], "--shard": ["1/2"],
           "--temps": ["-20,70"], "--series": ["E24"]}
