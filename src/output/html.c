@@ -628,7 +628,7 @@ static const char CSS[] =
     ".banner.info{background:#eef1f7;border:1px solid #8a94a8}\n"
     ".banner p{margin:2px 0}\n"
     ".warnings{background:#fff6dc;border:1px solid #d8a400;border-radius:6px;padding:4px 14px}\n"
-    ".warnings li{margin:3px 0}.tag{background:#d8a400;color:#fff;border-radius:3px;"
+    ".warnings h2{margin-top:0.5em}.warnings li{margin:3px 0}.tag{background:#d8a400;color:#fff;border-radius:3px;"
     "padding:0 5px;font-size:0.85em}\n"
     "table.data{border-collapse:collapse;margin:6px 0;font-size:0.92em}\n"
     "table.data th,table.data td{border:1px solid #c8ccd4;padding:3px 9px;text-align:left}\n"

@@ -467,6 +467,13 @@ def case_hostile(work):
     compare_table("check: figures", table(page, "Figures"), os.path.join(out, "figures.csv"))
     self_contained("check", page)
     render_checks("check page", page_path, work, height=1600)
+    # the plots carry the title too (the SVG writer escapes it): the page still parses whole
+    run_page = os.path.join(work, "hostile_run.html")
+    r = run(["run", cir, "-o", os.path.join(work, "hostile_run"), "--html", run_page, "-q"])
+    page = parse_page(run_page) if r.returncode == 0 else None
+    check("run --html of the same netlist: the Bode plot inline, the title intact",
+          page is not None and page.svg == 1 and page.text["h1"] == want, r.stderr)
+    render_checks("hostile run page", run_page, work, height=2400)
 
 
 def case_check_lint(work):
