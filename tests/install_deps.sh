@@ -3,11 +3,12 @@
 # Skips apt entirely when everything is already there; uses sudo when not run as root.
 set -euo pipefail
 PKGS=(build-essential cmake pkg-config libsuitesparse-dev libcmocka-dev python3 python3-numpy python3-scipy)
-# the test suite also runs the examples under valgrind and shards a run with GNU parallel
+# the test suite also runs the examples under valgrind, shards a run with GNU parallel and
+# renders the HTML report in headless chromium (tests/cli/test_html.py)
 # (--with-slurm: also a one-node Slurm cluster for the cluster test, tests/cluster/)
 for opt in "$@"; do
     case "$opt" in
-        --with-tools) PKGS+=(valgrind parallel) ;;
+        --with-tools) PKGS+=(valgrind parallel chromium) ;;
         --with-slurm) PKGS+=(slurm-wlm munge) ;;
         *) echo "install_deps.sh: unknown option '$opt' (--with-tools, --with-slurm)" >&2; exit 2 ;;
     esac

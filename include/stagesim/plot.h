@@ -86,6 +86,58 @@ SS_API void ss_output_remove_temporaries(void);
 /* SHA-256 (FIPS PUB 180-4) of len bytes as 64 lower-case hexadecimal digits and a NUL. */
 SS_API void ss_sha256_hex(const void *data, size_t len, char out_hex[65]);
 
+/* ---- the HTML report: one self-contained page (docs/cli.md, "The HTML report") ---------- */
+
+/* A page built section by section and written once: inline CSS, the plots as inline SVG, no
+ * scripts, nothing fetched from elsewhere, valid UTF-8 with every name and title escaped
+ * (bytes that are not UTF-8 become U+FFFD). Number cells show the value rounded to 6
+ * significant digits (SI prefixes on V, A, Hz, ohm, S, s, W) and carry the exact value, as the
+ * CSV files write it, in their data-v attribute. The sections appear in the order added; the
+ * verdict banner (limits met and failed over every verdict table, the yield of a study, the
+ * number of warnings) and the warnings come first, the plots last. */
+typedef struct ss_html ss_html;
+
+/* title: the page's heading (NULL: the title of the first circuit added, ss_html_add_run or
+ * ss_html_add_study; "(untitled netlist)" when it has none); subtitle: a line under it (the
+ * command, NULL: none). Both copied. Output *out, the caller's (ss_html_destroy).
+ * Returns SS_OK, SS_ERR_NOMEM. */
+SS_API ss_status ss_html_create(const char *title, const char *subtitle, ss_html **out,
+                                ss_error *err);
+SS_API void ss_html_destroy(ss_html **h);
+/* The operating point (temperature, the op.csv rows -- the first 100 node voltages unless
+ * nodes were selected -- and the report's device tables) and, when summary is not NULL and
+ * the context has a stage, the stage figures (stage_summary.csv's rows). */
+SS_API ss_status ss_html_add_run(ss_html *h, const ss_solver *sv, const ss_table *summary,
+                                 ss_error *err);
+/* A verdict table of ss_check_evaluate (measured, lower, upper, margin, pass) under heading;
+ * its limits count in the banner. SS_ERR_INPUT for any other table. */
+SS_API ss_status ss_html_add_verdicts(ss_html *h, const char *heading, const ss_table *verdicts,
+                                      ss_error *err);
+/* Any table under heading, at most max_rows rows (0: all). */
+SS_API ss_status ss_html_add_table(ss_html *h, const char *heading, const ss_table *t,
+                                   int max_rows, ss_error *err);
+/* A paragraph of text in the sections. */
+SS_API ss_status ss_html_add_note(ss_html *h, const char *text, ss_error *err);
+/* Marks the page failed (the banner says FAIL) for a reason beside the limits, shown in the
+ * banner: a required yield not reached, lint warnings under --strict. */
+SS_API ss_status ss_html_fail(ss_html *h, const char *reason, ss_error *err);
+/* A warning; check, when not NULL, names the lint check that raised it. */
+SS_API ss_status ss_html_add_warning(ss_html *h, const char *text, const char *check,
+                                     ss_error *err);
+/* Every warning of the context so far (ss_solver_warning), lint warnings marked. */
+SS_API ss_status ss_html_add_warnings(ss_html *h, const ss_solver *sv, ss_error *err);
+/* A plot: an SVG document of len bytes (its XML declaration and doctype are dropped), shown
+ * with caption. SS_ERR_INPUT when there is no <svg element. */
+SS_API ss_status ss_html_add_svg(ss_html *h, const char *caption, const char *svg, size_t len,
+                                 ss_error *err);
+/* Every .svg file written so far in the output set, in the order the files were reserved,
+ * each with its file name as caption: call it after the plots are written and before
+ * ss_outset_commit. */
+SS_API ss_status ss_html_add_outset_plots(ss_html *h, const ss_outset *set, ss_error *err);
+/* Writes the page to path atomically. Returns SS_OK, SS_ERR_INPUT (no path), SS_ERR_IO,
+ * SS_ERR_NOMEM (also when an earlier add ran out of memory). */
+SS_API ss_status ss_html_write(const ss_html *h, const char *path, ss_error *err);
+
 #ifdef __cplusplus
 }
 #endif

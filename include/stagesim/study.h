@@ -139,6 +139,22 @@ SS_API ss_status ss_study_write_plot(const ss_table *points, const ss_limits *li
                                      int histogram, const char *title, const char *path,
                                      ss_error *err);
 
+/* The study's part of an HTML report (stagesim/plot.h): the page's title from the netlist's
+ * (when none was given) and the nominal circuit's warnings; then, when points is not NULL (with
+ * its summary, ss_study_summarize), the yield in the banner, the worst point of each of the
+ * study's limits (the smallest margin; a point without the figure is worst of all) with its
+ * measured value, bounds, margin, the fraction of points passing and its verdict -- these count
+ * as the page's limits -- and the summary table. */
+SS_API ss_status ss_html_add_study(ss_html *h, const ss_study *s, const ss_table *points,
+                                   const ss_table *summary, ss_error *err);
+
+/* The study's limits judged against one column of a figures table labelled by figure (snap's
+ * "preferred"), as a verdict table of the page (ss_html_add_verdicts). Nothing without limits.
+ * SS_ERR_INPUT when the column is missing or a limit names no figure of the table. */
+SS_API ss_status ss_html_add_study_verdicts(ss_html *h, const ss_study *s, const char *heading,
+                                            const ss_table *figures, const char *column,
+                                            ss_error *err);
+
 /* Normalised sensitivities (dF/F)/(dx/x) of every figure to every toleranced or listed value,
  * by central differences of +-1 %: a table labelled by figure, one column per value. The
  * limits' names are checked first (ss_limits_check_names). */

@@ -13,18 +13,21 @@ int cmd_check(const cli_args *a)
     int has_dir = a->out_dir_given;
     ss_outset *set = NULL;
     ss_error err = {0};
-    const char *path[2] = {NULL, NULL}, *junit = NULL;
+    const char *path[2] = {NULL, NULL}, *junit = NULL, *html_path = NULL;
+    ss_html *html = NULL;
     static const char *const names[2] = {"check.csv", "figures.csv"};
     int rc = EXIT_OK;
     if (has_dir) {
         rc = out_open(a, &set);
         if (rc == EXIT_OK)
             rc = out_reserve(set, a->out_dir, names, 2, path);
-    } else if (a->junit && ss_outset_open(NULL, &set, &err) != SS_OK) {
+    } else if ((a->junit || a->html) && ss_outset_open(NULL, &set, &err) != SS_OK) {
         rc = fail(&err);
     }
     if (rc == EXIT_OK && a->junit && ss_outset_add(set, a->junit, "--junit", &junit, &err) != SS_OK)
         rc = fail(&err);
+    if (rc == EXIT_OK)
+        rc = html_start(a, set, &html, &html_path);
     if (rc != EXIT_OK) {
         ss_outset_destroy(&set);
         return rc;
@@ -35,6 +38,7 @@ int cmd_check(const cli_args *a)
     ss_table *figs = NULL, *verdicts = NULL;
     rc = load_circuit(a, &ckt, &sv);
     if (rc != EXIT_OK) {
+        ss_html_destroy(&html);
         ss_outset_destroy(&set);
         return rc;
     }
@@ -72,6 +76,17 @@ int cmd_check(const cli_args *a)
         rc = fail(&err);
         goto done;
     }
+    if (html && (ss_html_add_verdicts(html, "Verdicts", verdicts, &err) != SS_OK ||
+                 (a->strict && n_lint &&
+                  ss_html_fail(html, "--strict: the lint warnings fail the check", &err) !=
+                      SS_OK) ||
+                 ss_html_add_run(html, sv, NULL, &err) != SS_OK ||
+                 ss_html_add_table(html, "Figures", figs, 0, &err) != SS_OK ||
+                 ss_html_add_warnings(html, sv, &err) != SS_OK ||
+                 html_finish(html, set, html_path, &err) != 0)) {
+        rc = fail(&err);
+        goto done;
+    }
     int n = ss_table_rows(verdicts);
     if (!a->quiet) {
         printf("check %s: %d limit%s\n\n", a->netlist, n, n == 1 ? "" : "s");
@@ -96,6 +111,7 @@ int cmd_check(const cli_args *a)
     if (set)
         rc = out_commit(set, rc);
 done:
+    ss_html_destroy(&html);
     ss_table_destroy(&figs);
     ss_table_destroy(&verdicts);
     ss_limits_destroy(&lim);

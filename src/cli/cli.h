@@ -21,6 +21,7 @@ typedef struct cli_args {
     int plot, quiet;
     int strict; /* check --strict: a lint warning fails the check */
     const char *junit;
+    const char *html; /* --html FILE */
     const char **varies, **tols, **shards, **matches;
     int n_varies, n_tols, n_shards, n_matches;
     long trials;
@@ -69,6 +70,11 @@ int out_reserve(ss_outset *set, const char *dir, const char *const *names, int n
 int out_start(const cli_args *a, const char *const *names, int n, const char **staged,
               ss_outset **set);
 int out_commit(ss_outset *set, int rc);
+/* --html: reserves its file in the set and makes the report (*h NULL without --html). */
+int html_start(const cli_args *a, ss_outset *set, ss_html **h, const char **staged);
+/* The report's last parts, then its file: the plots the set has written, the page written to
+ * staged. 0, or -1 with *err filled. Without a report nothing. */
+int html_finish(ss_html *h, const ss_outset *set, const char *staged, ss_error *err);
 /* " %13.6g", or "-" right-aligned for NaN: a table cell of the report */
 void print_bound(double v);
 int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv);

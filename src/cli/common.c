@@ -164,6 +164,35 @@ int out_commit(ss_outset *set, int rc)
     return rc;
 }
 
+int html_start(const cli_args *a, ss_outset *set, ss_html **h, const char **staged)
+{
+    *h = NULL;
+    if (!a->html)
+        return EXIT_OK;
+    ss_error err = {0};
+    if (ss_outset_add(set, a->html, "--html", staged, &err) != SS_OK)
+        return fail(&err);
+    size_t n = strlen(a->cmdline ? a->cmdline : "") + 16;
+    char *sub = malloc(n);
+    if (!sub) {
+        fprintf(stderr, "stagesim: out of memory\n");
+        return EXIT_BAD_INPUT;
+    }
+    snprintf(sub, n, "stagesim %s", a->cmdline ? a->cmdline : a->cmd);
+    ss_status st = ss_html_create(NULL, sub, h, &err);
+    free(sub);
+    return st == SS_OK ? EXIT_OK : fail(&err);
+}
+
+int html_finish(ss_html *h, const ss_outset *set, const char *staged, ss_error *err)
+{
+    if (!h)
+        return 0;
+    return ss_html_add_outset_plots(h, set, err) == SS_OK && ss_html_write(h, staged, err) == SS_OK
+               ? 0
+               : -1;
+}
+
 void print_bound(double v)
 {
     if (isnan(v))

@@ -44,6 +44,8 @@ static const char USAGE[] =
     "                    merge)\n"
     "  --noise-weight a|none   A-weighting (IEC 61672-1) of the noise figures (not merge)\n"
     "  --junit FILE      (check) the verdicts as JUnit-style XML\n"
+    "  --html FILE       (all but merge) a self-contained HTML report (figures, verdicts,\n"
+    "                    warnings, plots)\n"
     "  --quiet           no report on stdout\n"
     "  --strict          (check) fail (exit 1) on any sanity (lint) warning\n"
     "  --limits FILE     (all but run) a limits file (check: or its LIMITS argument)\n"
@@ -193,6 +195,14 @@ static const cli_option OPTIONS[] = {
     {"--thd-target", NULL, "PCT", C_RUN,
      "THD whose input amplitude is searched, 0 < PCT < 100 (default 1)"},
     {"--junit", NULL, "FILE", C_CHECK, "also write the verdicts as JUnit-style XML"},
+    {"--html", NULL, "FILE", C_RUN,
+     "also write a one-file HTML report: figures, warnings, the plots (drawn as --plot)"},
+    {"--html", NULL, "FILE", C_CHECK,
+     "also write a one-file HTML report: verdicts with margins, figures, warnings"},
+    {"--html", NULL, "FILE", C_SWEEP | C_SPREAD,
+     "also write a one-file HTML report: yield, worst case per limit, summary"},
+    {"--html", NULL, "FILE", C_SENS | C_SNAP,
+     "also write a one-file HTML report of the tables and warnings"},
     {"--strict", NULL, NULL, C_CHECK,
      "fail (exit 1) on any sanity (lint) warning, as a failing JUnit testcase each"},
     {"--limits", NULL, "FILE", C_CHECK, "the limits file (instead of the LIMITS argument)"},
@@ -419,7 +429,7 @@ static int take_positional(const char *o, const cli_command *cmd, cli_args *a)
 }
 
 /* The options several commands share: -o, --set, --in, --out, --noise-band, --noise-weight,
- * --junit, --limits, --strict, --quiet. n is the option's name, next its value. */
+ * --junit, --html, --limits, --strict, --quiet. n is the option's name, next its value. */
 static int parse_shared_option(const char *n, const char *next, cli_args *a)
 {
     if (strcmp(n, "-o") == 0) {
@@ -456,6 +466,8 @@ static int parse_shared_option(const char *n, const char *next, cli_args *a)
         a->noise_weight = next;
     } else if (strcmp(n, "--junit") == 0) {
         a->junit = next;
+    } else if (strcmp(n, "--html") == 0) {
+        a->html = next;
     } else if (strcmp(n, "--limits") == 0) {
         if (a->limits_path)
             return usage_error("--limits: one limits file only, got a second ('%s')", next);

@@ -27,7 +27,21 @@ typedef struct run_ctx {
     ss_table *summary;  /* the stage summary, for the report (NULL without a stage) */
     ss_table *rows;     /* the analysis's rows, while its after step runs, when it keeps them */
     ss_table *nsum, *ncon; /* the noise summary and contributions */
+    ss_html *html;         /* --html: the report, filled as the analyses go (NULL without) */
+    const char *html_path; /* where it is staged */
 } run_ctx;
+
+/* The plots are drawn for --plot, and for --html, whose page shows them. */
+static int draw_plots(const run_ctx *c) { return c->a->plot || c->a->html; }
+
+/* A warning of run itself: on standard error, and in the HTML report. */
+static void run_warn(const run_ctx *c, const char *text)
+{
+    fprintf(stderr, "stagesim: warning: %s\n", text);
+    ss_error ignore = {0};
+    if (c->html) /* out of memory shows when the page is written */
+        ss_html_add_warning(c->html, text, NULL, &ignore);
+}
 
 static const char *run_path(const run_ctx *c, const char *name)
 {
@@ -39,13 +53,15 @@ static const char *run_path(const run_ctx *c, const char *name)
 
 /* A plot that cannot be drawn (a gain that is infinite somewhere, fewer than two points) costs
  * the plot, not the run: warn and go on without the file. */
-static int plot_result(ss_status st, const ss_error *err, const char *name)
+static int plot_result(const run_ctx *c, ss_status st, const ss_error *err, const char *name)
 {
     if (st == SS_OK)
         return 0;
     if (st != SS_ERR_INPUT)
         return -1;
-    fprintf(stderr, "stagesim: warning: no %s: %s\n", name, err->message);
+    char text[1400];
+    snprintf(text, sizeof text, "no %s: %s", name, err->message);
+    run_warn(c, text);
     return 0;
 }
 
@@ -155,12 +171,12 @@ static int after_ac(run_ctx *c, int ran, ss_error *err)
 {
     (void)err;
     if (!ran && c->fl.stage)
-        fprintf(stderr, "stagesim: warning: a stage is named but the netlist has no .ac "
-                        "sweep; no stage figures computed\n");
+        run_warn(c, "a stage is named but the netlist has no .ac sweep; no stage figures "
+                    "computed");
     return 0;
 }
 
-static int keep_stage(const run_ctx *c) { return c->a->plot; }
+static int keep_stage(const run_ctx *c) { return draw_plots(c); }
 
 static ss_status emit_stage(run_ctx *c, ss_sink *sink, ss_error *err)
 {
@@ -185,24 +201,29 @@ static void print_report(const run_ctx *c)
 /* stage_summary.csv and the Bode plot, then the report. */
 static int after_stage(run_ctx *c, int ran, ss_error *err)
 {
-    if (!ran && c->a->plot)
-        fprintf(stderr, "stagesim: warning: --plot needs an .ac sweep and a stage; no plot\n");
+    if (!ran && draw_plots(c))
+        run_warn(c, c->a->plot ? "--plot needs an .ac sweep and a stage; no plot"
+                               : "no Bode plot in the HTML report: it needs an .ac sweep and "
+                                 "a stage");
     if (ran && write_table(c->summary, run_path(c, "stage_summary.csv"), err) != 0)
         return -1;
-    if (ran && c->a->plot) {
+    if (ran && draw_plots(c)) {
         ss_error perr = {0};
         ss_status st = ss_plot_write_bode(c->sv, c->rows, c->summary,
                                           run_path(c, "bode.svg"), &perr);
-        if (plot_result(st, &perr, "bode.svg") != 0) {
+        if (plot_result(c, st, &perr, "bode.svg") != 0) {
             *err = perr;
             return -1;
         }
     }
     print_report(c);
+    /* the page's operating point is the report's: before .dc moves it */
+    if (c->html && ss_html_add_run(c->html, c->sv, c->summary, err) != SS_OK)
+        return -1;
     return 0;
 }
 
-static int keep_tran(const run_ctx *c) { return c->a->plot && c->fl.stage; }
+static int keep_tran(const run_ctx *c) { return draw_plots(c) && c->fl.stage; }
 
 static int after_tran(run_ctx *c, int ran, ss_error *err)
 {
@@ -210,7 +231,7 @@ static int after_tran(run_ctx *c, int ran, ss_error *err)
         return 0;
     ss_error perr = {0};
     ss_status st = ss_plot_write_wave(c->sv, c->rows, NULL, NULL, run_path(c, "wave.svg"), &perr);
-    if (plot_result(st, &perr, "wave.svg") != 0) {
+    if (plot_result(c, st, &perr, "wave.svg") != 0) {
         *err = perr;
         return -1;
     }
@@ -229,8 +250,7 @@ static int after_large_signal(run_ctx *c, int ran, ss_error *err)
 {
     if (!ran) {
         if (c->fl.large_signal)
-            fprintf(stderr, "stagesim: warning: .large_signal needs a stage; no large-signal "
-                            "figures\n");
+            run_warn(c, ".large_signal needs a stage; no large-signal figures");
         return 0;
     }
     ss_table *harm = NULL, *wave = NULL;
@@ -241,11 +261,11 @@ static int after_large_signal(run_ctx *c, int ran, ss_error *err)
     if (amp > 0.0) {
         bad = ss_stage_thd(c->sv, amp, f_hz, &thd, &harm, &wave, err) != SS_OK ||
               write_table(harm, run_path(c, "harmonics.csv"), err) != 0;
-        if (!bad && c->a->plot) {
+        if (!bad && draw_plots(c)) {
             ss_error perr = {0};
             ss_status st =
                 ss_plot_write_wave(c->sv, wave, NULL, NULL, run_path(c, "thd_wave.svg"), &perr);
-            if (plot_result(st, &perr, "thd_wave.svg") != 0) {
+            if (plot_result(c, st, &perr, "thd_wave.svg") != 0) {
                 *err = perr;
                 bad = 1;
             }
@@ -253,6 +273,8 @@ static int after_large_signal(run_ctx *c, int ran, ss_error *err)
     }
     if (!bad && !c->a->quiet)
         print_large_signal(c->rows, f_hz);
+    if (!bad && c->html && ss_html_add_table(c->html, "Large signal", c->rows, 0, err) != SS_OK)
+        bad = 1;
     ss_table_destroy(&harm);
     ss_table_destroy(&wave);
     return bad ? -1 : 0;
@@ -263,9 +285,10 @@ static ss_status emit_noise(run_ctx *c, ss_sink *sink, ss_error *err)
     return ss_noise_emit(c->sv, sink, &c->nsum, &c->ncon, err);
 }
 
-static int keep_noise(const run_ctx *c) { return c->a->plot; }
+static int keep_noise(const run_ctx *c) { return draw_plots(c); }
 
-/* noise_summary.csv, noise_contrib.csv and, with --plot, noise.svg; then the noise report. */
+/* noise_summary.csv, noise_contrib.csv and, with --plot or --html, noise.svg; then the noise
+ * report. */
 static int after_noise(run_ctx *c, int ran, ss_error *err)
 {
     if (!ran)
@@ -273,16 +296,19 @@ static int after_noise(run_ctx *c, int ran, ss_error *err)
     if (write_table(c->nsum, run_path(c, "noise_summary.csv"), err) != 0 ||
         write_table(c->ncon, run_path(c, "noise_contrib.csv"), err) != 0)
         return -1;
-    if (c->a->plot) {
+    if (draw_plots(c)) {
         ss_error perr = {0};
         ss_status st = ss_plot_write_noise(c->sv, c->rows, run_path(c, "noise.svg"), &perr);
-        if (plot_result(st, &perr, "noise.svg") != 0) {
+        if (plot_result(c, st, &perr, "noise.svg") != 0) {
             *err = perr;
             return -1;
         }
     }
     if (!c->a->quiet)
         print_noise(c->nsum, c->ncon);
+    if (c->html && (ss_html_add_table(c->html, "Noise", c->nsum, 0, err) != SS_OK ||
+                    ss_html_add_table(c->html, "Noise contributions", c->ncon, 12, err) != SS_OK))
+        return -1;
     return 0;
 }
 
@@ -363,12 +389,17 @@ int cmd_run(const cli_args *a)
     c.a = a;
     run_files(&c);
     int rc = out_start(a, c.names, c.n_files, c.path, &set);
-    if (rc != EXIT_OK)
+    if (rc == EXIT_OK)
+        rc = html_start(a, set, &c.html, &c.html_path);
+    if (rc != EXIT_OK) {
+        ss_outset_destroy(&set);
         return rc;
+    }
     ss_error err = {0};
     ss_circuit *ckt = NULL;
     rc = load_circuit(a, &ckt, &c.sv);
     if (rc != EXIT_OK) {
+        ss_html_destroy(&c.html);
         ss_outset_destroy(&set);
         return rc;
     }
@@ -377,6 +408,9 @@ int cmd_run(const cli_args *a)
               ss_outset_note_circuit(set, ckt, &err) != SS_OK;
     for (int i = 0; !bad && i < ss_analysis_count(); i++)
         bad = run_analysis(&c, i, &err) != 0;
+    if (!bad && c.html)
+        bad = ss_html_add_warnings(c.html, c.sv, &err) != SS_OK ||
+              html_finish(c.html, set, c.html_path, &err) != 0;
     if (bad) {
         rc = fail(&err); /* nothing of this run becomes visible */
     } else {
@@ -387,6 +421,7 @@ int cmd_run(const cli_args *a)
     ss_table_destroy(&c.summary);
     ss_table_destroy(&c.nsum);
     ss_table_destroy(&c.ncon);
+    ss_html_destroy(&c.html);
     ss_solver_destroy(&c.sv);
     ss_circuit_destroy(&ckt);
     ss_outset_destroy(&set);

@@ -148,13 +148,18 @@ int cmd_study(const cli_args *a, int spread)
     static const char *const names[3] = {"study.csv", "study_summary.csv", "study.svg"};
     const char *path[3];
     ss_outset *set = NULL;
-    int rc = out_start(a, names, a->plot ? 3 : 2, path, &set);
-    if (rc != EXIT_OK)
-        return rc;
+    ss_html *html = NULL;
+    const char *html_path = NULL;
+    int want_plot = a->plot || a->html; /* the page shows the plot */
+    int rc = out_start(a, names, want_plot ? 3 : 2, path, &set);
+    if (rc == EXIT_OK)
+        rc = html_start(a, set, &html, &html_path);
     ss_study *s = NULL;
     ss_limits *lim = NULL;
-    rc = make_study(a, &s, &lim);
+    if (rc == EXIT_OK)
+        rc = make_study(a, &s, &lim);
     if (rc != EXIT_OK) {
+        ss_html_destroy(&html);
         ss_outset_destroy(&set);
         return rc;
     }
@@ -177,7 +182,7 @@ int cmd_study(const cli_args *a, int spread)
         rc = fail(&err);
         goto done;
     }
-    if (a->plot) {
+    if (want_plot) {
         char title[512];
         snprintf(title, sizeof title, "%s %s", spread ? "spread" : "sweep", a->netlist);
         if (ss_study_write_plot(pts, ss_study_limits(s), spread, title, path[2], &err) != SS_OK) {
@@ -196,16 +201,35 @@ int cmd_study(const cli_args *a, int spread)
         print_summary(summary);
         print_worst(summary);
     }
-    if (n_bad)
-        fprintf(stderr, "stagesim: warning: %d point%s did not solve (status column; figures "
-                        "left empty)\n",
-                n_bad, n_bad == 1 ? "" : "s");
-    rc = out_commit(set, print_yield(summary, a->min_yield, a->quiet));
+    char warn[160] = "";
+    if (n_bad) {
+        snprintf(warn, sizeof warn, "%d point%s did not solve (status column; figures left "
+                                    "empty)", n_bad, n_bad == 1 ? "" : "s");
+        fprintf(stderr, "stagesim: warning: %s\n", warn);
+    }
+    rc = print_yield(summary, a->min_yield, a->quiet);
+    if (html) {
+        char note[200], why[120];
+        snprintf(note, sizeof note, "%d points%s, %d without an operating point", n,
+                 a->shard_n > 1 ? " (this shard)" : "", n_bad);
+        snprintf(why, sizeof why, "the yield is below the required %.4g %% (--min-yield)",
+                 100.0 * a->min_yield);
+        if (ss_html_add_note(html, note, &err) != SS_OK ||
+            (n_bad && ss_html_add_warning(html, warn, NULL, &err) != SS_OK) ||
+            (rc == EXIT_CHECK_FAILED && ss_html_fail(html, why, &err) != SS_OK) ||
+            ss_html_add_study(html, s, pts, summary, &err) != SS_OK ||
+            html_finish(html, set, html_path, &err) != 0) {
+            rc = fail(&err);
+            goto done;
+        }
+    }
+    rc = out_commit(set, rc);
 done:
     ss_table_destroy(&pts);
     ss_table_destroy(&summary);
     ss_limits_destroy(&lim);
     ss_study_destroy(&s);
+    ss_html_destroy(&html);
     ss_outset_destroy(&set);
     return rc;
 }
@@ -215,13 +239,17 @@ int cmd_sensitivity(const cli_args *a)
     static const char *const names[2] = {"sensitivity.csv", "corners.csv"};
     const char *path[2];
     ss_outset *set = NULL;
+    ss_html *html = NULL;
+    const char *html_path = NULL;
     int rc = out_start(a, names, 2, path, &set);
-    if (rc != EXIT_OK)
-        return rc;
+    if (rc == EXIT_OK)
+        rc = html_start(a, set, &html, &html_path);
     ss_study *s = NULL;
     ss_limits *lim = NULL;
-    rc = make_study(a, &s, &lim);
+    if (rc == EXIT_OK)
+        rc = make_study(a, &s, &lim);
     if (rc != EXIT_OK) {
+        ss_html_destroy(&html);
         ss_outset_destroy(&set);
         return rc;
     }
@@ -308,16 +336,31 @@ int cmd_sensitivity(const cli_args *a)
     for (char *c = region; *c; c++)
         if (*c == ' ')
             *c = '-';
-    if (n_out) /* "outside forward-active operation" */
-        fprintf(stderr, "stagesim: warning: %d transistor corner%s outside %s%s (corners.csv)\n",
-                n_out, n_out == 1 ? "" : "s", n_groups == 1 ? region : "their amplifying region",
-                n_groups == 1 ? " operation" : "");
+    char warn[160] = "";
+    if (n_out) { /* "outside forward-active operation" */
+        snprintf(warn, sizeof warn, "%d transistor corner%s outside %s%s (corners.csv)", n_out,
+                 n_out == 1 ? "" : "s", n_groups == 1 ? region : "their amplifying region",
+                 n_groups == 1 ? " operation" : "");
+        fprintf(stderr, "stagesim: warning: %s\n", warn);
+    }
+    if (html && (ss_html_add_study(html, s, NULL, NULL, &err) != SS_OK ||
+                 (n_out && ss_html_add_warning(html, warn, NULL, &err) != SS_OK) ||
+                 ss_html_add_note(html, "normalised sensitivities: % change of the figure per % "
+                                        "change of the value", &err) != SS_OK ||
+                 ss_html_add_table(html, "Sensitivities", sens, 0, &err) != SS_OK ||
+                 ss_html_add_table(html, "Operating point at the spread and temperature extremes",
+                                   corners, 0, &err) != SS_OK ||
+                 html_finish(html, set, html_path, &err) != 0)) {
+        rc = fail(&err);
+        goto done;
+    }
     rc = out_commit(set, EXIT_OK);
 done:
     ss_table_destroy(&corners);
     ss_table_destroy(&sens);
     ss_limits_destroy(&lim);
     ss_study_destroy(&s);
+    ss_html_destroy(&html);
     ss_outset_destroy(&set);
     return rc;
 }
@@ -369,13 +412,17 @@ int cmd_snap(const cli_args *a)
     static const char *const names[2] = {"snap_values.csv", "snap_figures.csv"};
     const char *path[2];
     ss_outset *set = NULL;
+    ss_html *html = NULL;
+    const char *html_path = NULL;
     int rc = out_start(a, names, 2, path, &set);
-    if (rc != EXIT_OK)
-        return rc;
+    if (rc == EXIT_OK)
+        rc = html_start(a, set, &html, &html_path);
     ss_study *s = NULL;
     ss_limits *lim = NULL;
-    rc = make_study(a, &s, &lim);
+    if (rc == EXIT_OK)
+        rc = make_study(a, &s, &lim);
     if (rc != EXIT_OK) {
+        ss_html_destroy(&html);
         ss_outset_destroy(&set);
         return rc;
     }
@@ -437,12 +484,31 @@ int cmd_snap(const cli_args *a)
     if (n_failed)
         fprintf(stderr, "stagesim: the snapped circuit fails %d limit%s (snap_figures.csv)\n",
                 n_failed, n_failed == 1 ? "" : "s");
+    if (html) {
+        char head[96];
+        if (a->cap_series)
+            snprintf(head, sizeof head, "Resistors snapped to E%d, capacitors to E%d", a->series,
+                     a->cap_series);
+        else
+            snprintf(head, sizeof head, "Resistors snapped to E%d", a->series);
+        if (ss_html_add_study(html, s, NULL, NULL, &err) != SS_OK ||
+            ss_html_add_study_verdicts(html, s, "Limits at the preferred values", figs,
+                                       "preferred", &err) != SS_OK ||
+            ss_html_add_table(html, head, vals, 0, &err) != SS_OK ||
+            ss_html_add_table(html, "Figures at the preferred values", figs, 0, &err) !=
+                SS_OK ||
+            html_finish(html, set, html_path, &err) != 0) {
+            rc = fail(&err);
+            goto done;
+        }
+    }
     rc = out_commit(set, n_failed ? EXIT_CHECK_FAILED : EXIT_OK);
 done:
     ss_table_destroy(&vals);
     ss_table_destroy(&figs);
     ss_limits_destroy(&lim);
     ss_study_destroy(&s);
+    ss_html_destroy(&html);
     ss_outset_destroy(&set);
     return rc;
 }

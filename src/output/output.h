@@ -81,6 +81,10 @@ SS_HIDDEN ss_status table_parse_csv(const char *path, char *text, ss_table **out
  * characters XML 1.0 does not allow as spaces, every byte that is not part of well-formed UTF-8
  * as U+FFFD, so any netlist name or title keeps the document well-formed (xml.c). */
 SS_HIDDEN void xml_put_text(ss_strbuf *b, const char *text);
+/* File i of an output set (outset.c), in the order reserved: *name the base name inside the
+ * set's folder or else the path as given, *staged where it was written (NULL: reserved but not
+ * written). Returns 0, or -1 past the last file. What the HTML report reads its plots from. */
+SS_HIDDEN int outset_written(const ss_outset *s, int i, const char **name, const char **staged);
 /* Shortest text that reads back as the same double (fmt_double.h); "" for NaN. */
 SS_HIDDEN int output_format_double(char *buf, size_t len, double v);
 

@@ -354,6 +354,18 @@ void ss_outset_destroy(ss_outset **ps)
     *ps = NULL;
 }
 
+int outset_written(const ss_outset *s, int i, const char **name, const char **staged)
+{
+    if (!s || i < 0 || i >= s->n_files)
+        return -1;
+    const outset_file *f = &s->files[i];
+    unsigned char d[32];
+    unsigned long long size;
+    *name = f->in_dir_name ? f->in_dir_name : f->path;
+    *staged = output_temp_digest(f->slot, d, &size) ? f->staged : NULL;
+    return 0;
+}
+
 /* ---- reading a manifest ------------------------------------------------------------------ */
 
 void manifest_free(kv_pair *kv, int n)
