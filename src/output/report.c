@@ -66,7 +66,9 @@ void ss_report_write(const ss_solver *sv, const ss_table *summary, FILE *f)
         if (shown < n_out)
             fprintf(f, "  ... and %d more (all in op.csv; --nodes names the ones to show)\n",
                     n_out - shown);
-        /* one table per kind that has one, in the registry's order */
+        /* one table per kind that has one, in the registry's order; the power column is
+         * op.csv's power row (op_power_w) */
+        double *scratch = op_power_begin(sv);
         for (int k = 0; k < device_count(); k++) {
             const dev_ops *ops = device_at(k);
             if (!ops->report_line)
@@ -79,7 +81,8 @@ void ss_report_write(const ss_solver *sv, const ss_table *summary, FILE *f)
                 if (!any++)
                     fputs(ops->report_heading, f);
                 char line[512];
-                ops->report_line(el, sv->x_op, vt, sv->ckt->opt.gmin, line, sizeof line);
+                ops->report_line(el, sv->x_op, vt, sv->ckt->opt.gmin,
+                                 op_power_w(sv, el, sv->x_op, scratch), line, sizeof line);
                 fprintf(f, "%s\n", line);
             }
         }

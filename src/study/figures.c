@@ -153,6 +153,9 @@ static const char *missing_because(const ss_solver *sv, const char *q)
                               : "the stage source's kind names its input figures: vin_..._v "
                                 "and thd_amp_v for a V source, iin_..._a and thd_amp_a for an "
                                 "I source";
+    if (strncmp(q, "power(", 6) == 0)
+        return "power(NAME) is the DC power of an element of the netlist that carries it: a "
+               "resistor, source, diode or transistor, not a capacitor or inductor";
     return "the figures are the op.csv quantities of this circuit's nodes and devices, the "
            "stage summary metrics, the noise and large-signal figures and QUANTITY@FREQ; "
            "docs/checks.md lists them";

