@@ -141,6 +141,13 @@ SS_API double ss_circuit_temp_c(const ss_circuit *ckt);
  * kept once. SS_ERR_INPUT names a node the circuit does not have. */
 SS_API ss_status ss_solver_select_nodes(ss_solver *sv, const char *const *names, int n,
                                          ss_error *err);
+/* Names the elements whose DC quantities join the DC sweep's table: after the node columns,
+ * each element's operating-point rows (op.csv's names: ic(q1), ib(q1), vbe(q1), vce(q1),
+ * gm(q1), then power(q1)) at every sweep point, in the order given. n = 0 (or names NULL): none,
+ * the default. A name twice is kept once. SS_ERR_INPUT names an element the circuit does not
+ * have or one without such rows (a capacitor, an inductor). */
+SS_API ss_status ss_solver_select_devices(ss_solver *sv, const char *const *names, int n,
+                                           ss_error *err);
 
 /* ---- result tables ----------------------------------------------------------------------- */
 

@@ -33,6 +33,8 @@ typedef struct cli_args {
     double ls_freq, thd_amp, thd_target;
     const char **nodes; /* --nodes lists, each comma-separated */
     int n_nodes;
+    const char **devices; /* --devices lists, each comma-separated */
+    int n_devices;
     char *cmdline; /* the arguments after the program name, for the run's manifest */
 } cli_args;
 

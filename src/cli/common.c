@@ -174,12 +174,14 @@ void print_bound(double v)
 
 /* ---- the circuit ------------------------------------------------------------------------- */
 
-/* --nodes a,b --nodes c: the nodes whose per-node results run writes. */
-static int select_nodes(ss_solver *sv, const cli_args *a)
+/* --nodes a,b --nodes c (or --devices): the lists split at the commas, handed to select. */
+static int select_names(ss_solver *sv, const char *opt, const char *what, const char **lists,
+                        int n_lists,
+                        ss_status (*select)(ss_solver *, const char *const *, int, ss_error *))
 {
     size_t total = 0;
-    for (int i = 0; i < a->n_nodes; i++)
-        total += strlen(a->nodes[i]) + 1;
+    for (int i = 0; i < n_lists; i++)
+        total += strlen(lists[i]) + 1;
     char *buf = malloc(total);
     const char **names = calloc(total, sizeof *names);
     if (!buf || !names) {
@@ -190,9 +192,9 @@ static int select_nodes(ss_solver *sv, const cli_args *a)
     }
     int n = 0;
     char *w = buf;
-    for (int i = 0; i < a->n_nodes; i++) {
-        size_t len = strlen(a->nodes[i]);
-        memcpy(w, a->nodes[i], len + 1);
+    for (int i = 0; i < n_lists; i++) {
+        size_t len = strlen(lists[i]);
+        memcpy(w, lists[i], len + 1);
         for (char *tok = strtok(w, ","); tok; tok = strtok(NULL, ","))
             names[n++] = tok;
         w += len + 1;
@@ -200,9 +202,9 @@ static int select_nodes(ss_solver *sv, const cli_args *a)
     ss_error err = {0};
     int rc = EXIT_OK;
     if (n == 0)
-        rc = usage_error("%s", "--nodes needs node names separated by commas");
-    else if (ss_solver_select_nodes(sv, names, n, &err) != SS_OK) {
-        fprintf(stderr, "stagesim: --nodes: %s\n", err.message);
+        rc = usage_errorf("%s needs %s names separated by commas", opt, what);
+    else if (select(sv, names, n, &err) != SS_OK) {
+        fprintf(stderr, "stagesim: %s: %s\n", opt, err.message);
         rc = EXIT_BAD_INPUT;
     }
     free(buf);
@@ -250,8 +252,8 @@ static int apply_stage_options(ss_solver *sv, const cli_args *a)
     return EXIT_OK;
 }
 
-/* Parses the netlist, makes its solver context and applies --in/--out/--load/--nodes and the
- * large-signal options to it. */
+/* Parses the netlist, makes its solver context and applies --in/--out/--load/--nodes/--devices
+ * and the large-signal options to it. */
 int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv)
 {
     ss_error err = {0};
@@ -273,7 +275,17 @@ int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv)
     if (rc == EXIT_OK)
         rc = apply_stage_options(sv, a);
     if (rc == EXIT_OK && a->n_nodes > 0)
-        rc = select_nodes(sv, a);
+        rc = select_names(sv, "--nodes", "node", a->nodes, a->n_nodes, ss_solver_select_nodes);
+    ss_analysis_flags fl;
+    ss_solver_analyses(sv, &fl);
+    if (rc == EXIT_OK && a->n_devices > 0 && !fl.dc) {
+        fprintf(stderr, "stagesim: --devices: the netlist has no .dc sweep (the elements' "
+                        "columns go into dc.csv; op.csv has every element's rows)\n");
+        rc = EXIT_BAD_INPUT;
+    }
+    if (rc == EXIT_OK && a->n_devices > 0)
+        rc = select_names(sv, "--devices", "element", a->devices, a->n_devices,
+                          ss_solver_select_devices);
     if (rc != EXIT_OK) {
         ss_solver_destroy(&sv);
         ss_circuit_destroy(&ckt);

@@ -35,6 +35,8 @@ static const char USAGE[] =
     "  --plot            (run) also write bode.svg (and wave.svg, thd_wave.svg)\n"
     "  --nodes A,B,...   (run) write only these nodes' voltages (op, dc, ac, tran tables and\n"
     "                    the report); default every node\n"
+    "  --devices X,Y,... (run) add these elements' op.csv quantities (currents, terminal\n"
+    "                    voltages, power) to dc.csv; default none\n"
     "  --ls-freq F --thd-amp A --thd-target PCT   (run) the large-signal test\n"
     "  --junit FILE      (check) the verdicts as JUnit-style XML\n"
     "  --quiet           no report on stdout\n"
@@ -141,6 +143,8 @@ static const cli_option OPTIONS[] = {
      "the load on the stage output, for the report's Zout warning (as .stage load=)"},
     {"--nodes", NULL, "A,B,...", C_RUN,
      "write only these nodes' voltages (op, dc, ac, tran tables, report)"},
+    {"--devices", NULL, "X,Y,...", C_RUN,
+     "add these elements' op.csv quantities to dc.csv, after the node voltages"},
     {"--plot", NULL, NULL, C_RUN, "also write bode.svg (and wave.svg, thd_wave.svg)"},
     {"--ls-freq", NULL, "HZ", C_RUN,
      "large-signal test frequency (overrides .large_signal; needs a stage)"},
@@ -288,7 +292,8 @@ static int parse_args_init(int argc, char **argv, cli_args *a)
     a->tols = calloc((size_t)argc, sizeof *a->tols);
     a->shards = calloc((size_t)argc, sizeof *a->shards);
     a->nodes = calloc((size_t)argc, sizeof *a->nodes);
-    if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes)
+    a->devices = calloc((size_t)argc, sizeof *a->devices);
+    if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes || !a->devices)
         return EXIT_BAD_INPUT;
     return EXIT_OK;
 }
@@ -311,6 +316,7 @@ static int check_option(const char *o, const char *next, const cli_command *cmd,
     /* a value given twice would drop the first; only these options add up */
     if (opt && opt->arg && strcmp(opt->name, "--set") != 0 && strcmp(opt->name, "--vary") != 0 &&
         strcmp(opt->name, "--tol") != 0 && strcmp(opt->name, "--nodes") != 0 &&
+        strcmp(opt->name, "--devices") != 0 &&
         strcmp(opt->name, "--limits") != 0) {
         if (seen[opt - OPTIONS])
             return usage_errorf("%s given twice", o);
@@ -383,7 +389,8 @@ static int parse_shared_option(const char *n, const char *next, cli_args *a)
     return EXIT_OK;
 }
 
-/* run's options: --load, --ls-freq, --thd-amp, --thd-target, --nodes, --plot (o as given). */
+/* run's options: --load, --ls-freq, --thd-amp, --thd-target, --nodes, --devices, --plot (o as
+ * given). */
 static int parse_run_option(const char *n, const char *o, const char *next, cli_args *a)
 {
     int rc = EXIT_OK;
@@ -398,6 +405,8 @@ static int parse_run_option(const char *n, const char *o, const char *next, cli_
                         &a->thd_target);
     } else if (strcmp(n, "--nodes") == 0) {
         a->nodes[a->n_nodes++] = next;
+    } else if (strcmp(n, "--devices") == 0) {
+        a->devices[a->n_devices++] = next;
     } else if (strcmp(n, "--plot") == 0) {
         a->plot = 1;
     } else {
@@ -628,6 +637,7 @@ int main(int argc, char **argv)
     free(a.tols);
     free(a.shards);
     free(a.nodes);
+    free(a.devices);
     free(a.cmdline);
     return rc;
 }

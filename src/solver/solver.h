@@ -39,6 +39,8 @@ struct ss_solver {
     large_signal_spec ls;
     int *out_nodes; /* the nodes whose per-node results are written; NULL every netlist node */
     int n_out_nodes;
+    int *dc_devices; /* the elements whose op.csv rows join the DC sweep's table; NULL none */
+    int n_dc_devices;
 
     /* nodes: the circuit's, then the internal ones setup adds */
     const char **node_name;
@@ -124,6 +126,9 @@ static inline int solver_out_node(const ss_solver *sv, int k)
 {
     return sv->out_nodes ? sv->out_nodes[k] : k + 1;
 }
+/* How many op.csv rows element e has (its kind's report rows and its power row): the columns
+ * it adds to the DC sweep's table when selected (ss_solver_select_devices). */
+SS_HIDDEN int solver_device_n_rows(const element *e);
 /* The error for element e whose model, scaled to the context's temperature, failed: why. */
 SS_HIDDEN ss_status solver_temp_error(const ss_solver *sv, const element *e, const char *why,
                                       ss_error *err);

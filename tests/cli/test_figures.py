@@ -149,6 +149,45 @@ check("power: a limit on a capacitor's power is an input error naming file:line"
       r.returncode == 2 and "p.limits:2: limit on 'power(c2)': no such figure" in r.stderr,
       r.stderr)
 
+# ---- dc.csv with device columns (--devices) --------------------------------------------------
+LD = os.path.join(NET, "line_driver.cir")
+r0 = run(["run", LD, "-o", os.path.join(tmp, "ld0"), "-q"])
+r1 = run(["run", LD, "-o", os.path.join(tmp, "ld1"), "-q", "--devices", "Q1,q2", "--devices",
+          "d1,rline,q1"])
+check("--devices: runs", r0.returncode == 0 and r1.returncode == 0, r0.stderr + r1.stderr)
+if r0.returncode == 0 and r1.returncode == 0:
+    d0 = open(os.path.join(tmp, "ld0", "dc.csv")).read().splitlines()
+    d1 = open(os.path.join(tmp, "ld1", "dc.csv")).read().splitlines()
+    head = d1[0].split(",")
+    n0 = len(d0[0].split(","))
+    check("--devices: the node columns are byte for byte those of a run without it",
+          len(d0) == len(d1) and all(b.split(",")[:n0] == a.split(",") for a, b in zip(d0, d1)))
+    want = ["ic(q1)", "ib(q1)", "vbe(q1)", "vce(q1)", "gm(q1)", "power(q1)", "ic(q2)", "ib(q2)",
+            "vbe(q2)", "vce(q2)", "gm(q2)", "power(q2)", "id(d1)", "power(d1)", "power(rline)"]
+    check("--devices: the columns are op.csv's names, in the order named, each element once",
+          head[n0:] == want, head[n0:])
+    rows = [dict(zip(head, map(float, ln.split(",")))) for ln in d1[1:]]
+    ok = all(close(rw["power(q2)"], rw["ic(q2)"] * rw["vce(q2)"] + rw["ib(q2)"] * rw["vbe(q2)"],
+                   1e-9) for rw in rows)
+    check("--devices: power(q2) = Ic Vce + Ib Vbe at every sweep point", ok)
+    # at vcc = 12 (the netlist's own value) the columns are op.csv's numbers
+    op = read_op(os.path.join(tmp, "ld0"))
+    at12 = [rw for rw in rows if rw["vcc"] == 12.0]
+    check("--devices: at the netlist's own supply the columns agree with op.csv (1e-6)",
+          at12 and all(close(at12[0][k], op[k], 1e-6, 1e-12) for k in want), at12)
+    check("--devices: default dc.csv byte-identical to the file the docs show (no device columns)",
+          not any("(q1)" in c for c in d0[0].split(",")))
+for args, msg in [(["--devices", "cout"], "--devices: 'cout' (a capacitor) has no DC quantities"),
+                  (["--devices", "q9"], "--devices: 'q9' is no element of the circuit"),
+                  (["--devices", ","], "--devices needs element names")]:
+    r = run(["run", LD, "-o", os.path.join(tmp, "ldx"), "-q"] + args)
+    check(f"--devices: {' '.join(args)} is exit 2 saying why", r.returncode == 2 and msg in r.stderr,
+          r.stderr[:300])
+r = run(["run", os.path.join(NET, "vibration_frontend.cir"), "-o", os.path.join(tmp, "vx"), "-q",
+         "--devices", "q1"])
+check("--devices without a .dc sweep is exit 2", r.returncode == 2 and "no .dc sweep" in r.stderr,
+      r.stderr)
+
 
 def finish():
     shutil.rmtree(tmp, ignore_errors=True)
