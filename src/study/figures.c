@@ -89,7 +89,7 @@ static int freq_figure_seen(const ss_limits *limits, int i)
 static ss_status freq_needs_stage(const limit *lim, ss_error *err)
 {
     return err_set(err, SS_ERR_INPUT, lim->file, lim->line,
-                   "limit on %s needs a stage: add `.stage in=SOURCE out=NODE`", lim->quantity);
+                   "limit on %s needs a stage: add `.stage in=SOURCE out=NODE`", lim->label);
 }
 
 void figures_names(const ss_solver *sv, const ss_limits *limits, dev_report_fn fn, void *sink)
@@ -177,7 +177,7 @@ ss_status ss_limits_check_names(const ss_limits *limits, const ss_solver *sv, ss
         const limit *lim = &limits->items[i];
         if (!nc.found[i])
             st = err_set(err, SS_ERR_INPUT, lim->file, lim->line,
-                         "limit on '%s': no such figure (%s)", lim->quantity,
+                         "limit on '%s': no such figure (%s)", lim->label,
                          missing_because(sv, lim->quantity));
     }
     ss_free(nc.found);
@@ -288,9 +288,11 @@ ss_status ss_check_evaluate(const ss_limits *l, const ss_table *figures, ss_tabl
             return err_set(err, SS_ERR_INPUT, lim->file, lim->line,
                            "limit on '%s': no such figure in this run (figures are the op.csv "
                            "quantities, the stage summary metrics and QUANTITY@FREQ)",
-                           lim->quantity);
+                           lim->label);
         }
-        double *row = table_add_row(t, lim->quantity);
+        if (lim->magnitude)
+            v = fabs(v);
+        double *row = table_add_row(t, lim->label);
         if (!row) {
             ss_table_destroy(&t);
             return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");

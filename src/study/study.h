@@ -7,7 +7,10 @@
 #include "netlist/netlist.h"
 
 typedef struct limit {
-    char quantity[128]; /* lower case; "gain_db@1000" style when at a frequency */
+    char quantity[128]; /* the figure judged, lower case; "gain_db@1000" style when at a
+                           frequency: the name figures, points and lookups go by */
+    char label[136];    /* the limit as reports name it: quantity, or abs(QUANTITY) */
+    int magnitude;      /* abs(...): the bounds apply to the figure's magnitude */
     char base[64];      /* the quantity without its frequency */
     int at_freq;
     double freq_hz;

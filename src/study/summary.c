@@ -27,7 +27,7 @@ ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table *
             return err_set(err, SS_ERR_INPUT, l->items[k].file, l->items[k].line,
                            "limit on '%s': the points have no such figure (a typo, or a figure "
                            "this study did not compute)",
-                           l->items[k].quantity);
+                           l->items[k].label);
     }
     static const char *const cols[] = {"n", "min", "max", "mean", "std", "pass_fraction"};
     ss_table *t = table_create(6, "figure");
@@ -37,13 +37,15 @@ ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table *
     /* a point passes all limits when it converged and every limited figure is in range */
     long n_pass_all = 0, n_points = pts->n_rows;
     unsigned char *fails = ss_alloc((size_t)(n_points ? n_points : 1));
-    bad |= !fails;
+    const limit **on_fig = ss_alloc((size_t)(l && l->n ? l->n : 1) * sizeof *on_fig);
+    bad |= !fails || !on_fig;
     for (int j = f0; !bad && j < pts->n_cols; j++) {
         const char *name = pts->col_names[j];
-        const limit *lim = NULL;
+        /* every limit on this figure counts (a plain one and an abs(...) one may share it) */
+        int has_lim = 0;
         for (int k = 0; l && k < l->n; k++)
             if (strcmp(l->items[k].quantity, name) == 0)
-                lim = &l->items[k];
+                on_fig[has_lim++] = &l->items[k];
         /* Welford's running mean and variance (numerically stable) */
         double n = 0, mean = 0, m2 = 0, mn = HUGE_VAL, mx = -HUGE_VAL;
         long pass = 0;
@@ -58,8 +60,12 @@ ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table *
                 mn = fmin(mn, v);
                 mx = fmax(mx, v);
             }
-            if (lim) {
-                int in = ok && v >= lim->lo && v <= lim->hi;
+            if (has_lim) {
+                int in = ok;
+                for (int k = 0; in && k < has_lim; k++) {
+                    double m = on_fig[k]->magnitude ? fabs(v) : v; /* abs(...): magnitude */
+                    in = m >= on_fig[k]->lo && m <= on_fig[k]->hi;
+                }
                 pass += in;
                 if (!in)
                     fails[i] = 1;
@@ -75,7 +81,7 @@ ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table *
         row[2] = n > 0 ? mx : SS_NAN;
         row[3] = n > 0 ? mean : SS_NAN;
         row[4] = n > 1 ? sqrt(m2 / (n - 1.0)) : SS_NAN;
-        row[5] = lim && n_points > 0 ? (double)pass / (double)n_points : SS_NAN;
+        row[5] = has_lim && n_points > 0 ? (double)pass / (double)n_points : SS_NAN;
     }
     if (!bad && l && l->n > 0) {
         int status_col = f0 - 1;
@@ -91,6 +97,7 @@ ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table *
         }
     }
     ss_free(fails);
+    ss_free(on_fig);
     if (bad) {
         ss_table_destroy(&t);
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");

@@ -188,6 +188,54 @@ r = run(["run", os.path.join(NET, "vibration_frontend.cir"), "-o", os.path.join(
 check("--devices without a .dc sweep is exit 2", r.returncode == 2 and "no .dc sweep" in r.stderr,
       r.stderr)
 
+# ---- abs(QUANTITY): limits on a magnitude ---------------------------------------------------
+LDX = os.path.join(tmp, "ldx.cir")
+write(LDX, open(LD).read().replace("../models/", os.path.join(ROOT, "models") + "/")
+      .replace(".end", ".expect abs(vce(q2)) >= 3\n.end"))
+op = read_op(os.path.join(tmp, "ld0"))
+alim = os.path.join(tmp, "a.limits")
+write(alim, "abs(vce(q2)) >= 3\nvce(q2) >= 3\nABS(ic(q2)) = 2.9m +- 10%\nabs(phase_deg) @ 1k <= 10\n")
+r = run(["check", LDX, alim, "-o", os.path.join(tmp, "achk")])
+check("abs: the PNP's abs(vce) >= 3 passes where vce >= 3 fails (exit 1, 4 of 5 pass)",
+      r.returncode == 1 and "4 passed, 1 failed" in r.stdout, r.stdout + r.stderr)
+with open(os.path.join(tmp, "achk", "check.csv"), newline="") as f:
+    ver = {row[0]: row for row in list(csv.reader(f))[1:]}
+check("abs: check.csv names the limit abs(vce(q2)) and measures |vce(q2)| = -vce(q2) of op.csv",
+      "abs(vce(q2))" in ver and close(float(ver["abs(vce(q2))"][1]), -op["vce(q2)"], 1e-6),
+      ver.get("abs(vce(q2))"))
+check("abs: a relation with a tolerance and a frequency take it too",
+      ver.get("abs(ic(q2))", ["", "", "", "", "", "0"])[5] == "1" and
+      ver.get("abs(phase_deg)@1000", ["", "", "", "", "", "0"])[5] == "1", sorted(ver))
+r = run(["run", LDX, "-o", os.path.join(tmp, "ldx"), "-q"])
+check("abs: run accepts an .expect abs(...) line", r.returncode == 0, r.stderr)
+write(alim, "abs(vce(q2)) >= 5\n")
+r = run(["sweep", LDX, "--vary", "vsupply=list:9,12", "--limits", alim, "-o",
+         os.path.join(tmp, "asw"), "-q"])
+summ = {}
+if r.returncode in (0, 1):
+    with open(os.path.join(tmp, "asw", "study_summary.csv"), newline="") as f:
+        summ = {row[0]: row for row in list(csv.reader(f))[1:]}
+# at 9 V |vce(q2)| = 4.47 V (fails >= 5), at 12 V 5.94 V; the .expect >= 3 passes both
+check("abs: a sweep judges the magnitude, and every limit on one figure (pass 1/2)",
+      summ.get("vce(q2)", [""] * 7)[6] == "0.5", summ.get("vce(q2)"))
+for text, msg in [("vce(q2) >= 1\nabs(vce(q2) >= 3", "a.limits:2: limit on abs(vce(q2) >= 3: "
+                   "unbalanced parentheses"),
+                  ("abs() >= 3", "a.limits:1: limit on abs(): write abs(QUANTITY)"),
+                  ("abs >= 3", "a.limits:1: limit on abs: write abs(QUANTITY)"),
+                  ("abs(abs(vce(q2))) >= 3", "a.limits:1: limit on abs(abs(vce(q2))): write"),
+                  ("abs(vce(q2)))x >= 3", "a.limits:1: limit on abs(vce(q2)))x: unbalanced"),
+                  ("abs(vce(q9)) >= 3", "a.limits:1: limit on 'abs(vce(q9))': no such figure")]:
+    write(alim, text + "\n")
+    r = run(["check", LD, alim, "-q"])
+    check(f"abs: malformed {text.splitlines()[-1]!r} is exit 2 naming file:line",
+          r.returncode == 2 and msg in r.stderr, r.stderr)
+bad = os.path.join(tmp, "bad_expect.cir")
+write(bad, open(LDX).read().replace(".expect abs(vce(q2)) >= 3", ".expect abs(vce(q2) >= 3"))
+r = run(["check", bad, "-q"])
+n_line = open(bad).read().splitlines().index(".expect abs(vce(q2) >= 3") + 1
+check("abs: a malformed .expect abs( line names the netlist's file:line",
+      r.returncode == 2 and f"bad_expect.cir:{n_line}:" in r.stderr, r.stderr)
+
 
 def finish():
     shutil.rmtree(tmp, ignore_errors=True)
