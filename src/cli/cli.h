@@ -35,12 +35,19 @@ typedef struct cli_args {
     int n_nodes;
     const char **devices; /* --devices lists, each comma-separated */
     int n_devices;
+    const char **models; /* --models folders, in order */
+    int n_models;
     char *cmdline; /* the arguments after the program name, for the run's manifest */
 } cli_args;
 
 /* ---- main.c: usage errors -------------------------------------------------------------------- */
 
 /* "stagesim: " and the message on stderr, then the --help text; return EXIT_BAD_INPUT. */
+/* The folders .include files are looked for in after the netlist's own: --models in order,
+ * then STAGESIM_MODELS (colon-separated), then the installed models folder found from the
+ * program's own location (when it exists). Returns the list (free with free(); its strings
+ * in the same block), *n its length; NULL when out of memory. */
+const char **model_search_path(const cli_args *a, int *n);
 int usage_error(const char *fmt, const char *arg);
 int usage_errorf(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
 
@@ -62,7 +69,9 @@ int out_start(const cli_args *a, const char *const *names, int n, const char **s
               ss_outset **set);
 int out_commit(ss_outset *set, int rc);
 /* " %13.6g", or "-" right-aligned for NaN: a table cell of the report */
-void print_bound(double v);
+/* One cell of a figure table: v in engineering notation with the unit of figure `name`
+ * (ss_format_figure), right-aligned in 13 columns; "-" for NaN. */
+void print_figure(double v, const char *name);
 int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv);
 
 /* ---- the commands: each returns the program's exit code -------------------------------------- */

@@ -164,12 +164,10 @@ int out_commit(ss_outset *set, int rc)
     return rc;
 }
 
-void print_bound(double v)
+void print_figure(double v, const char *name)
 {
-    if (isnan(v))
-        printf(" %13s", "-");
-    else
-        printf(" %13.6g", v);
+    char buf[48];
+    printf(" %13s", ss_format_figure(buf, sizeof buf, v, name));
 }
 
 /* ---- the circuit ------------------------------------------------------------------------- */
@@ -210,6 +208,56 @@ static int select_names(ss_solver *sv, const char *opt, const char *what, const 
     free(buf);
     free(names);
     return rc;
+}
+
+const char **model_search_path(const cli_args *a, int *n)
+{
+    const char *env = getenv("STAGESIM_MODELS");
+    /* the installed folder: <prefix>/<bindir>/stagesim -> <prefix>/<datadir>/stagesim/models,
+     * from where this program is, so an installed tree can move */
+    char exe[4096], installed[4096 + 64] = "";
+    ssize_t len = readlink("/proc/self/exe", exe, sizeof exe - 1);
+    if (len > 0) {
+        exe[len] = '\0';
+        char *slash = strrchr(exe, '/');
+        if (slash) {
+            *slash = '\0';
+            struct stat st;
+            snprintf(installed, sizeof installed, "%s/%s", exe, STAGESIM_MODELS_FROM_BIN);
+            if (stat(installed, &st) != 0 || !S_ISDIR(st.st_mode))
+                installed[0] = '\0';
+        }
+    }
+    size_t text = strlen(installed) + 1 + (env ? strlen(env) + 1 : 0);
+    for (int i = 0; i < a->n_models; i++)
+        text += strlen(a->models[i]) + 1;
+    int cap = a->n_models + 1;
+    for (const char *c = env; c && *c; c++)
+        cap += *c == ':';
+    cap += env ? 1 : 0;
+    const char **list = malloc((size_t)cap * sizeof *list + text);
+    if (!list)
+        return NULL;
+    char *w = (char *)(list + cap);
+    int k = 0;
+    for (int i = 0; i < a->n_models; i++) {
+        list[k++] = strcpy(w, a->models[i]);
+        w += strlen(w) + 1;
+    }
+    for (const char *c = env; c && *c;) {
+        size_t m = strcspn(c, ":");
+        if (m > 0) { /* an empty entry names no folder */
+            memcpy(w, c, m);
+            w[m] = '\0';
+            list[k++] = w;
+            w += m + 1;
+        }
+        c += m + (c[m] == ':');
+    }
+    if (installed[0])
+        list[k++] = strcpy(w, installed);
+    *n = k;
+    return list;
 }
 
 /* --load and the large-signal options act on the stage: without one they would be dropped. */
@@ -259,7 +307,16 @@ int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv)
     ss_error err = {0};
     ss_circuit *ckt = NULL;
     ss_solver *sv = NULL;
-    if (ss_circuit_parse_file(a->netlist, a->sets, a->n_sets, &ckt, &err) != SS_OK)
+    int n_dirs = 0;
+    const char **dirs = model_search_path(a, &n_dirs);
+    if (!dirs) {
+        fprintf(stderr, "stagesim: out of memory\n");
+        return EXIT_BAD_INPUT;
+    }
+    ss_status pst = ss_circuit_parse_file_models(a->netlist, a->sets, a->n_sets, dirs, n_dirs,
+                                                 &ckt, &err);
+    free(dirs);
+    if (pst != SS_OK)
         return fail(&err);
     if (ss_solver_create(ckt, &sv, &err) != SS_OK) {
         ss_circuit_destroy(&ckt);

@@ -30,6 +30,9 @@ static const char USAGE[] =
     "  -o DIR            output folder (default: current folder; created if missing)\n"
     "  --set NAME=VALUE  override a .param, an element value (R1=10k) or a model parameter\n"
     "                    (qgen.bf=250); repeatable, each NAME once (not merge)\n"
+    "  --models DIR      a folder searched for .include files not found beside the netlist\n"
+    "                    (repeatable, in order; then STAGESIM_MODELS, then the installed\n"
+    "                    models) (not merge)\n"
     "  --in SRC --out NODE   the stage's source and output node (override .stage; not merge)\n"
     "  --load OHMS       (run) the load the stage drives, for the Zout check\n"
     "  --plot            (run) also write bode.svg (and wave.svg, thd_wave.svg)\n"
@@ -137,6 +140,8 @@ static const cli_option OPTIONS[] = {
     {"-o", "--out-dir", "DIR", C_CHECK, "write check.csv and figures.csv into DIR"},
     {"--set", NULL, "NAME=VALUE", C_NETLIST,
      "set a .param, element value (R1=10k) or MODEL.PARAM; repeatable, each NAME once"},
+    {"--models", NULL, "DIR", C_NETLIST,
+     "a folder for .include files not beside the netlist; repeatable, searched in order"},
     {"--in", NULL, "SRC", C_NETLIST, "the stage's driving source (with --out; overrides .stage)"},
     {"--out", NULL, "NODE", C_NETLIST, "the stage's output node (with --in)"},
     {"--load", NULL, "OHMS", C_RUN,
@@ -293,7 +298,9 @@ static int parse_args_init(int argc, char **argv, cli_args *a)
     a->shards = calloc((size_t)argc, sizeof *a->shards);
     a->nodes = calloc((size_t)argc, sizeof *a->nodes);
     a->devices = calloc((size_t)argc, sizeof *a->devices);
-    if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes || !a->devices)
+    a->models = calloc((size_t)argc, sizeof *a->models);
+    if (!a->sets || !a->varies || !a->tols || !a->shards || !a->nodes || !a->devices ||
+        !a->models)
         return EXIT_BAD_INPUT;
     return EXIT_OK;
 }
@@ -316,7 +323,7 @@ static int check_option(const char *o, const char *next, const cli_command *cmd,
     /* a value given twice would drop the first; only these options add up */
     if (opt && opt->arg && strcmp(opt->name, "--set") != 0 && strcmp(opt->name, "--vary") != 0 &&
         strcmp(opt->name, "--tol") != 0 && strcmp(opt->name, "--nodes") != 0 &&
-        strcmp(opt->name, "--devices") != 0 &&
+        strcmp(opt->name, "--devices") != 0 && strcmp(opt->name, "--models") != 0 &&
         strcmp(opt->name, "--limits") != 0) {
         if (seen[opt - OPTIONS])
             return usage_errorf("%s given twice", o);
@@ -354,8 +361,8 @@ static int take_positional(const char *o, const cli_command *cmd, cli_args *a)
     return EXIT_OK;
 }
 
-/* The options several commands share: -o, --set, --in, --out, --junit, --limits, --strict,
- * --quiet. n is the option's name, next its value. */
+/* The options several commands share: -o, --set, --models, --in, --out, --junit, --limits,
+ * --strict, --quiet. n is the option's name, next its value. */
 static int parse_shared_option(const char *n, const char *next, cli_args *a)
 {
     if (strcmp(n, "-o") == 0) {
@@ -369,6 +376,8 @@ static int parse_shared_option(const char *n, const char *next, cli_args *a)
         a->sets[a->n_sets].name = next;
         a->sets[a->n_sets].value = eq + 1;
         a->n_sets++;
+    } else if (strcmp(n, "--models") == 0) {
+        a->models[a->n_models++] = next;
     } else if (strcmp(n, "--in") == 0) {
         a->in_src = next;
     } else if (strcmp(n, "--out") == 0) {
@@ -638,6 +647,7 @@ int main(int argc, char **argv)
     free(a.shards);
     free(a.nodes);
     free(a.devices);
+    free(a.models);
     free(a.cmdline);
     return rc;
 }

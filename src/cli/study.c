@@ -3,6 +3,7 @@
 #define _POSIX_C_SOURCE 200809L
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <time.h>
 #include <unistd.h>
@@ -32,7 +33,15 @@ static int make_study(const cli_args *a, ss_study **out, ss_limits **lim)
 {
     ss_error err = {0};
     ss_study *s = NULL;
-    if (ss_study_create(a->netlist, a->sets, a->n_sets, &s, &err) != SS_OK)
+    int n_dirs = 0;
+    const char **dirs = model_search_path(a, &n_dirs);
+    if (!dirs) {
+        fprintf(stderr, "stagesim: out of memory\n");
+        return EXIT_BAD_INPUT;
+    }
+    ss_status st = ss_study_create_models(a->netlist, a->sets, a->n_sets, dirs, n_dirs, &s, &err);
+    free(dirs);
+    if (st != SS_OK)
         return fail(&err);
     if (a->in_src || a->out_node) {
         if (!a->in_src || !a->out_node) {
@@ -95,7 +104,7 @@ static void print_summary(const ss_table *summary)
             continue;
         printf("  %-24s %8.0f", name, ss_table_get(summary, i, n_col));
         for (int j = 0; j < 4; j++)
-            print_bound(ss_table_get(summary, i, ss_table_col_index(summary, stats[j])));
+            print_figure(ss_table_get(summary, i, ss_table_col_index(summary, stats[j])), name);
         double pf = ss_table_get(summary, i, pf_col);
         if (isnan(pf))
             printf(" %8s\n", "-");
@@ -226,9 +235,11 @@ int cmd_sensitivity(const cli_args *a)
     for (int i = 0; i < ss_table_rows(corners); i++) {
         double fa = ss_table_get(corners, i, fa_col);
         n_out += fa != 1.0;
+        char ic[48], vce[48];
         if (!a->quiet)
-            printf("  %-36s %12.4g %12.4g  %s\n", ss_table_row_label(corners, i),
-                   ss_table_get(corners, i, ic_col), ss_table_get(corners, i, vce_col),
+            printf("  %-36s %12s %12s  %s\n", ss_table_row_label(corners, i),
+                   ss_format_eng(ic, sizeof ic, ss_table_get(corners, i, ic_col), "A"),
+                   ss_format_eng(vce, sizeof vce, ss_table_get(corners, i, vce_col), "V"),
                    isnan(fa) ? "NO OPERATING POINT" : fa == 1.0 ? "forward active"
                                                                 : "LEAVES FORWARD ACTIVE");
     }
@@ -317,10 +328,13 @@ int cmd_snap(const cli_args *a)
         int v_col = ss_table_col_index(vals, "value");
         int e_col = ss_table_col_index(vals, "preferred");
         int c_col = ss_table_col_index(vals, "change_pct");
-        for (int i = 0; i < ss_table_rows(vals); i++)
-            printf("  %-16s %13.6g %13.6g %8.2f%%\n", ss_table_row_label(vals, i),
-                   ss_table_get(vals, i, v_col), ss_table_get(vals, i, e_col),
+        for (int i = 0; i < ss_table_rows(vals); i++) {
+            char v[48], e[48];
+            printf("  %-16s %13s %13s %8.2f%%\n", ss_table_row_label(vals, i),
+                   ss_format_eng(v, sizeof v, ss_table_get(vals, i, v_col), "ohm"),
+                   ss_format_eng(e, sizeof e, ss_table_get(vals, i, e_col), "ohm"),
                    ss_table_get(vals, i, c_col));
+        }
         printf("\nfigures that move\n  %-24s %13s %13s %13s %9s\n", "figure", "computed",
                "preferred", "shift", "shift");
         int fc_col = ss_table_col_index(figs, "computed");
@@ -331,8 +345,11 @@ int cmd_snap(const cli_args *a)
             double shift = ss_table_get(figs, i, sh_col), pct = ss_table_get(figs, i, pct_col);
             if (shift == 0.0 || isnan(shift))
                 continue;
-            printf("  %-24s %13.6g %13.6g %13.4g", ss_table_row_label(figs, i),
-                   ss_table_get(figs, i, fc_col), ss_table_get(figs, i, fp_col), shift);
+            const char *fig = ss_table_row_label(figs, i);
+            printf("  %-24s", fig);
+            print_figure(ss_table_get(figs, i, fc_col), fig);
+            print_figure(ss_table_get(figs, i, fp_col), fig);
+            print_figure(shift, fig);
             if (isnan(pct))
                 printf(" %9s\n", "-");
             else

@@ -39,6 +39,13 @@ struct ss_solver {
     large_signal_spec ls;
     int *out_nodes; /* the nodes whose per-node results are written; NULL every netlist node */
     int n_out_nodes;
+    /* what the report shows of the last stage run beyond stage_summary.csv (analysis/stage.c,
+     * stage_own_zout): for the load comparison the element
+     * drawn in the netlist as the named load + 1 (0: none found), and the mid-band output
+     * impedance of the stage without it (ohm; the solved Zout when none was found) */
+    int stage_load_elem1;
+    double stage_zout_own_ohm;
+    double stage_phase_mid_deg; /* the gain's phase at mid-band, (-180, 180] */
     int *dc_devices; /* the elements whose op.csv rows join the DC sweep's table; NULL none */
     int n_dc_devices;
 

@@ -458,7 +458,8 @@ def inline_commands(page):
 VALUES = {"DIR": "out/probe", "NAME=VALUE": "r1=1k", "SRC": "vsens", "NODE": "out",
           "OHMS": "1k", "A,B,...": "out", "HZ": "1k", "AMP": "0.1", "PCT": "1",
           "FILE": "out/probe.txt", "F": "0.5", "N": "2", "S": "1", "K/N": "1/2",
-          "LO,HI": "-40,85", "E12\\|E24\\|E96": "E12"}
+          "LO,HI": "-40,85", "E12\\|E24\\|E96": "E12",
+          "E6\\|E12\\|E24\\|E48\\|E96\\|E192": "E12", "X,Y,...": "q1"}
 SPEC = {"--vary": "r1=list:1k", "--tol": "r1=5%"}
 
 

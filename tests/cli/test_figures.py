@@ -236,6 +236,111 @@ n_line = open(bad).read().splitlines().index(".expect abs(vce(q2) >= 3") + 1
 check("abs: a malformed .expect abs( line names the netlist's file:line",
       r.returncode == 2 and f"bad_expect.cir:{n_line}:" in r.stderr, r.stderr)
 
+# ---- the load compared with the stage's own output impedance --------------------------------
+VF = os.path.join(NET, "vibration_frontend.cir")
+r = run(["run", VF, "-o", os.path.join(tmp, "vl"), "--load", "47k"])
+with open(os.path.join(tmp, "vl", "stage_summary.csv"), newline="") as f:
+    zsum = {k: float(v) if v else math.nan for k, v in list(csv.reader(f))[1:]}
+z_with = zsum.get("zout_mid_ohm", math.nan)
+# RL 47k from out to ground is drawn in the netlist: the stage alone has 1 / (1/Z - 1/47k)
+# (Ohm's law; the parallel combination taken apart; exact for a resistive Zout, close for this
+# mid-band Zout whose phase is a fraction of a degree)
+z_own = 1.0 / (1.0 / z_with - 1.0 / 47e3)
+m_own = re.search(r"Zout of the stage alone ([0-9.]+ [kM]?ohm) \(without rl", r.stdout)
+check("load: the report names the drawn load and the Zout with it",
+      f"with the load rl (47 kohm) in the netlist" in r.stdout, r.stdout[-900:])
+check(f"load: the stage's own Zout is 1/(1/Zout - 1/47k) = {z_own:.1f} ohm (4 digits)",
+      m_own is not None and close(eng_value(m_own.group(1), "ohm"), z_own, 6e-4),
+      m_own.group(1) if m_own else r.stdout[-900:])
+check("load: the warning compares the stage's own Zout with the load",
+      m_own is not None and f"warning: the stage's own Zout {m_own.group(1)} is not ten times "
+      "below the 47 kohm load" in r.stdout, r.stdout[-600:])
+r = run(["run", VF, "-o", os.path.join(tmp, "vl2"), "--load", "30k"])
+check("load: a load not drawn in the netlist is compared with the Zout solved, and said so",
+      "Zout of the stage alone" not in r.stdout and "no resistor of the load's value" in r.stdout
+      and "own Zout 4.993 kohm" in r.stdout, r.stdout[-600:])
+r = run(["run", VF, "-o", os.path.join(tmp, "vl3"), "--load", "1meg"])
+check("load: no warning when the stage's own Zout is ten times below the load",
+      "warning: the stage's own Zout" not in r.stdout, r.stdout[-600:])
+
+# ---- units on every line of the report, engineering notation on stdout ----------------------
+r = run(["run", VF, "-o", os.path.join(tmp, "vu")])
+out = r.stdout
+check("units: mid-band gain with V/V and the phase showing the inversion",
+      re.search(r"mid-band gain +20\.399 dB \(10\.47 V/V\) at 471\.4 Hz", out) is not None and
+      re.search(r"mid-band phase +-179\.\d deg \(inverting\)", out) is not None, out[-1500:])
+check("units: the large-signal block gives the test frequency and amplitude, swings in V, the "
+      "THD target",
+      "Large signal at 1 kHz, test input amplitude 100 mV" in out and
+      re.search(r"output swing before clipping, \+ +2\.912 V", out) is not None and
+      "THD at the 100 mV test amplitude" in out and
+      re.search(r"input amplitude for 1 % THD \(target\) +237\.6 mV", out) is not None, out)
+check("units: no e-notation on stdout", not re.search(r"\de[-+]\d", out), out)
+r = run(["check", VF, os.path.join(NET, "vibration_frontend.limits")])
+check("units: check's table in engineering notation with units",
+      re.search(r"ic\(q1\) +921\.6 uA +782 uA +1\.058 mA +136\.4 uA +pass", r.stdout) is not None
+      and re.search(r"f_high_hz +51\.02 kHz +40 kHz", r.stdout) is not None, r.stdout)
+r = run(["sensitivity", VF, "--tol", "rc=5%", "-o", os.path.join(tmp, "vs")])
+check("units: the sensitivity command's corner table in engineering notation",
+      re.search(r"q1 .* +\d+(\.\d+)? uA +\d+(\.\d+)? V +forward active", r.stdout) is not None,
+      r.stdout[-800:])
+# the formatter itself: published SI prefixes (BIPM SI Brochure, 9th ed., 2019, table 7)
+W = os.path.join(tmp, "tiny.cir")
+write(W, "leak\nI1 0 a 1.841e-18\nR1 a 0 1\n.expect v(a) <= 1\n.op\n.end\n")
+r = run(["check", W])
+check("units: 1.841e-18 V is written 1.841 aV, not 0.001841 fV",
+      "1.841 aV" in r.stdout and "fV" not in r.stdout, r.stdout)
+
+# ---- the model search path: beside the netlist, --models, STAGESIM_MODELS, installed ---------
+MP = os.path.join(tmp, "mp")
+for d in ["net", "a", "b", "c"]:
+    os.makedirs(os.path.join(MP, d))
+# one diode card under one name in several folders, each with its own saturation current: which
+# file was read shows in id(d1). V1 10 V through 1 k into the diode.
+write(os.path.join(MP, "net", "n.cir"),
+      "clamp\nV1 in 0 10\nR1 in mid 1k\nD1 mid 0 dlib\n.include lib.mod\n.op\n.end\n")
+for d, is_ in [("a", "1e-14"), ("b", "1e-9"), ("c", "1e-6")]:
+    write(os.path.join(MP, d, "lib.mod"), f".model dlib d is={is_}\n")
+env0 = dict(os.environ)
+env0.pop("STAGESIM_MODELS", None)
+
+
+def id_with(args, env_models=None, name="o"):
+    env = dict(env0)
+    if env_models is not None:
+        env["STAGESIM_MODELS"] = env_models
+    out = os.path.join(MP, name)
+    r = run(["run", "net/n.cir", "-o", out, "-q"] + args, cwd=MP, env=env)
+    return (read_op(out)["id(d1)"] if r.returncode == 0 else None), r
+
+
+ids = {}
+for d in ["a", "b", "c"]:
+    ids[d], _ = id_with(["--models", d], name="o" + d)
+check("models: the three cards give three different diode currents",
+      None not in ids.values() and len(set(ids.values())) == 3, ids)
+v, _ = id_with(["--models", "b", "--models", "a"])
+check("models: --models folders are searched in the order given (b before a)", v == ids["b"], v)
+v, _ = id_with([], env_models=os.path.join(MP, "c") + ":" + os.path.join(MP, "a"))
+check("models: STAGESIM_MODELS entries in order (c before a)", v == ids["c"], v)
+v, _ = id_with(["--models", "a"], env_models=os.path.join(MP, "b"))
+check("models: --models before STAGESIM_MODELS", v == ids["a"], v)
+write(os.path.join(MP, "net", "lib.mod"), ".model dlib d is=1e-14\n")
+v, _ = id_with(["--models", "b"], env_models=os.path.join(MP, "c"))
+check("models: a file beside the netlist comes first", v == ids["a"], v)
+os.remove(os.path.join(MP, "net", "lib.mod"))
+v, r = id_with(["--models", "nowhere"], env_models="::" + os.path.join(MP, "gone") + ":")
+check("models: not found anywhere: exit 2 naming the netlist line and every folder tried",
+      v is None and r.returncode == 2 and "net/n.cir:5: .include 'lib.mod': no such file in any "
+      "folder tried: net, nowhere, " + os.path.join(MP, "gone") in r.stderr, r.stderr)
+env = dict(env0)
+r = run(["sweep", "net/n.cir", "--vary", "r1=list:1k,2k", "--models", "b", "-o",
+         os.path.join(MP, "sw"), "-q"], cwd=MP, env=env)
+check("models: the studies take --models too", r.returncode == 0, r.stderr)
+write(os.path.join(MP, "l.limits"), "id(d1) >= 1m\n")
+r = run(["check", "net/n.cir", "l.limits", "--models", "a", "-q"], cwd=MP, env=env)
+check("models: check takes --models", r.returncode == 0, r.stderr)
+
 
 def finish():
     shutil.rmtree(tmp, ignore_errors=True)
