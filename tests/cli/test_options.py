@@ -449,7 +449,8 @@ def help_options(binary, cmd):
 # A valid value for every option, and what it needs beside it.
 SAMPLE = {"-o": ["{T}/o2"], "--out-dir": ["{T}/o3"], "--set": ["r2=12k"],
           "--in": ["v1", "--out", "mid"], "--out": ["mid", "--in", "v1"], "--load": ["47k"],
-          "--nodes": ["mid"], "--devices": ["d1"], "--ls-freq": ["2k"], "--thd-amp": ["100m"],
+          "--nodes": ["mid"], "--devices": ["d1"], "--models": ["{T}"], "--ls-freq": ["2k"],
+          "--thd-amp": ["100m"],
           "--thd-target": ["2"], "--junit": ["{T}/j.xml"], "--limits": ["{T}/l.limits"],
           "--min-yield": ["0.5"], "--vary": ["r1=list:5k,10k"], "--tol": ["r1=5%"],
           "--trials": ["4"], "--seed": ["7"], "--threads": ["2"], "--shard": ["1/2"],
