@@ -43,6 +43,19 @@ typedef struct ss_error {
 SS_API void ss_error_format(const ss_error *err, char *buf, size_t buf_len);
 SS_API const char *ss_status_name(ss_status code);
 SS_API const char *ss_version(void);
+
+/* What stagesim prints: v in engineering notation, 4 significant digits and an SI prefix from
+ * y to Y ("5.273 mW", "1.841 aA", "10.47" without a unit; "-" for NaN, "inf"), into buf of len
+ * bytes; returns buf. */
+SS_API const char *ss_format_eng(char *buf, size_t len, double v, const char *unit);
+/* The unit of a figure by its name: an op.csv row by its quantity (v(..), vce(..): "V";
+ * i(..), ic(..): "A"; gm(..): "S"; power(..): "W"), a summary metric by its suffix (_hz "Hz",
+ * _ohm "ohm", _db "dB", _deg "deg", _pct "%", _v "V", _a "A"); "" for a ratio (gain) or an
+ * unknown name. abs(...) and "@FREQ" are looked through. Never NULL. */
+SS_API const char *ss_figure_unit(const char *name);
+/* A figure's value as printed: ss_format_eng with the figure's unit; dB, degrees and
+ * percentages without an SI prefix ("20.4 dB"). Returns buf. */
+SS_API const char *ss_format_figure(char *buf, size_t len, double v, const char *name);
 /* Opt-in: hands SuiteSparse (KLU) the library's large-block allocation (whole huge pages for
  * the LU factors of big circuits), once per process and only when the process has not set
  * SuiteSparse's memory functions itself. It changes a process-wide setting, so the library
@@ -76,6 +89,15 @@ typedef struct ss_override {
  * Returns SS_OK, SS_ERR_INPUT, SS_ERR_IO, SS_ERR_NOMEM or SS_ERR_LIMIT with err filled. */
 SS_API ss_status ss_circuit_parse_file(const char *path, const ss_override *overrides,
                                        int n_overrides, ss_circuit **out_ckt, ss_error *err);
+
+/* As ss_circuit_parse_file, with folders for model files: a relative .include path not found
+ * beside the file that includes it is looked for in model_dirs[0], [1], ... in order (the
+ * first that has it wins); when none has it the error names every folder tried. The CLI
+ * passes --models, then STAGESIM_MODELS, then the installed models folder (docs/netlist.md). */
+SS_API ss_status ss_circuit_parse_file_models(const char *path, const ss_override *overrides,
+                                              int n_overrides, const char *const *model_dirs,
+                                              int n_model_dirs, ss_circuit **out_ckt,
+                                              ss_error *err);
 
 /* As ss_circuit_parse_file, from text in memory; `name` stands for the file name in errors,
  * and relative .include paths resolve against the current directory. */
@@ -141,6 +163,13 @@ SS_API double ss_circuit_temp_c(const ss_circuit *ckt);
  * kept once. SS_ERR_INPUT names a node the circuit does not have. */
 SS_API ss_status ss_solver_select_nodes(ss_solver *sv, const char *const *names, int n,
                                          ss_error *err);
+/* Names the elements whose DC quantities join the DC sweep's table: after the node columns,
+ * each element's operating-point rows (op.csv's names: ic(q1), ib(q1), vbe(q1), vce(q1),
+ * gm(q1), then power(q1)) at every sweep point, in the order given. n = 0 (or names NULL): none,
+ * the default. A name twice is kept once. SS_ERR_INPUT names an element the circuit does not
+ * have or one without such rows (a capacitor, an inductor). */
+SS_API ss_status ss_solver_select_devices(ss_solver *sv, const char *const *names, int n,
+                                           ss_error *err);
 
 /* ---- result tables ----------------------------------------------------------------------- */
 

@@ -71,6 +71,10 @@ typedef void (*ss_progress_fn)(void *ctx, long done, long total);
 /* Parses the nominal circuit (checking it) and keeps its .tolerance lines. */
 SS_API ss_status ss_study_create(const char *netlist_path, const ss_override *sets, int n_sets,
                                  ss_study **out, ss_error *err);
+/* The same, the netlist parsed with model folders (ss_circuit_parse_file_models). */
+SS_API ss_status ss_study_create_models(const char *netlist_path, const ss_override *sets,
+                                        int n_sets, const char *const *model_dirs,
+                                        int n_model_dirs, ss_study **out, ss_error *err);
 SS_API ss_status ss_study_set_stage(ss_study *s, const char *in_source, const char *out_node,
                                     ss_error *err);
 /* The noise analysis's own band and weighting at every point (ss_solver_set_noise_band and

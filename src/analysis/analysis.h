@@ -31,9 +31,17 @@ SS_HIDDEN ss_status op_solve_into(ss_solver *sv, ss_op_stats *stats, ss_error *e
 SS_HIDDEN ss_status op_solve_driven(ss_solver *sv, const dev_src_drive *drive,
                                     ss_op_stats *stats, ss_error *err);
 /* The rows of op.csv through fn(sink, quantity, name, value), in op.csv's order: v(NODE) per
- * written node, then each V source's, BJT's and diode's report rows. x is the solution; NULL
+ * written node, then kind by kind (the registry's order) each element's report rows followed by
+ * its power(NAME) row. x is the solution; NULL
  * names the same rows with NaN values before anything is solved. */
 SS_HIDDEN void op_rows(const ss_solver *sv, const double *x, dev_report_fn fn, void *sink);
+/* Power at the solution x (device_power_w with the sources at their DC values): op_power_begin
+ * clears the context's scratch vector (work_x, idle between analyses) and returns it;
+ * op_power_w gives element e's power (W, NaN for a kind without a power row) and leaves the
+ * scratch clear for the next element. */
+SS_HIDDEN double *op_power_begin(const ss_solver *sv);
+SS_HIDDEN double op_power_w(const ss_solver *sv, const element *e, const double *x,
+                            double *scratch);
 /* Formats a singular-matrix error naming the unknown. */
 SS_HIDDEN ss_status report_singular(ss_solver *sv, int bad_unknown, const char *during,
                                     ss_error *err);

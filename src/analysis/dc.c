@@ -56,6 +56,91 @@ static ss_status solve_point(ss_solver *sv, const dev_src_drive *drive, double *
     return st;
 }
 
+/* ---- the selected elements' columns (ss_solver_select_devices) -------------------------- */
+
+typedef struct dev_cols {
+    const char **names; /* the column names, filled from `at` */
+    char *text;         /* their characters (NULL: only measuring into `len`) */
+    size_t len;
+    double *row; /* the values, filled from `at` */
+    int at;
+} dev_cols;
+
+static void dev_col_name(void *vc, const char *quantity, const char *elem_name, double value)
+{
+    (void)value;
+    dev_cols *c = vc;
+    size_t n = strlen(quantity) + strlen(elem_name) + 3;
+    if (c->text) {
+        snprintf(c->text + c->len, n, "%s(%s)", quantity, elem_name);
+        c->names[c->at++] = c->text + c->len;
+    }
+    c->len += n;
+}
+
+static void dev_col_value(void *vc, const char *quantity, const char *elem_name, double value)
+{
+    (void)quantity;
+    (void)elem_name;
+    dev_cols *c = vc;
+    c->row[c->at++] = value;
+}
+
+/* The selected elements' rows at x (NULL: their names) through fn, as op.csv has them. */
+static void dev_rows(ss_solver *sv, const double *x, dev_report_fn fn, dev_cols *c)
+{
+    double vt = analysis_vt(sv);
+    double *scratch = x ? op_power_begin(sv) : NULL;
+    for (int k = 0; k < sv->n_dc_devices; k++) {
+        const element *e = &sv->elem[sv->dc_devices[k]];
+        if (e->ops->report)
+            e->ops->report(e, x, vt, sv->ckt->opt.gmin, fn, c);
+        if (elem_has_power(e))
+            fn(c, "power", e->name, x ? op_power_w(sv, e, x, scratch) : SS_NAN);
+    }
+}
+
+/* The node columns' names (analysis_col_names) followed by the selected elements': one block
+ * the caller frees with ss_free; NULL out of memory. */
+static const char **dc_col_names(ss_solver *sv, const char *const *lead, int n_lead,
+                                 int *n_cols)
+{
+    static const char *const fmt[] = {"v(%s)"};
+    int n_node_cols = 0;
+    const char **node_names = analysis_col_names(sv, lead, n_lead, fmt, 1, &n_node_cols);
+    if (!node_names || sv->n_dc_devices == 0) {
+        *n_cols = n_node_cols;
+        return node_names;
+    }
+    int n_dev = 0;
+    for (int k = 0; k < sv->n_dc_devices; k++)
+        n_dev += solver_device_n_rows(&sv->elem[sv->dc_devices[k]]);
+    dev_cols c = {0};
+    dev_rows(sv, NULL, dev_col_name, &c); /* measures the names' length */
+    size_t ptrs = (size_t)(n_node_cols + n_dev) * sizeof(const char *);
+    /* one block: the pointers, the node columns' names copied, the elements' */
+    size_t node_len = 0;
+    for (int j = 0; j < n_node_cols; j++)
+        node_len += strlen(node_names[j]) + 1;
+    const char **all = ss_alloc(ptrs + c.len + node_len);
+    if (!all) {
+        ss_free(node_names);
+        return NULL;
+    }
+    char *text = (char *)all + ptrs;
+    for (int j = 0; j < n_node_cols; j++) {
+        size_t len = strlen(node_names[j]) + 1;
+        memcpy(text, node_names[j], len);
+        all[j] = text;
+        text += len;
+    }
+    ss_free(node_names);
+    c = (dev_cols){all, text, 0, NULL, n_node_cols};
+    dev_rows(sv, NULL, dev_col_name, &c);
+    *n_cols = n_node_cols + n_dev;
+    return all;
+}
+
 ss_status ss_dc_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
 {
     if (sv->ckt->dc.n == 0)
@@ -70,9 +155,8 @@ ss_status ss_dc_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
         return err_set(err, SS_ERR_LIMIT, sv->ckt->dc.sweep[0].file, sv->ckt->dc.sweep[0].line,
                        ".dc: more than 1e7 points in all");
     const char *lead[2] = {src[0]->name, src[1] ? src[1]->name : NULL};
-    static const char *const fmt[] = {"v(%s)"};
     int n_cols = 0;
-    const char **names = analysis_col_names(sv, lead, sv->ckt->dc.n, fmt, 1, &n_cols);
+    const char **names = dc_col_names(sv, lead, sv->ckt->dc.n, &n_cols);
     double *row = names ? ss_alloc((size_t)n_cols * sizeof *row) : NULL;
     ss_status st = row ? sink_begin(sink, n_cols, names, (long)n_inner * n_outer, err)
                        : err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
@@ -105,6 +189,10 @@ ss_status ss_dc_sweep_emit(ss_solver *sv, ss_sink *sink, ss_error *err)
                 row[c++] = swept_value(&drive, src[1]);
             for (int j = 0; j < solver_n_out_nodes(sv); j++)
                 row[c++] = x[node_unknown(solver_out_node(sv, j))];
+            if (sv->n_dc_devices > 0) {
+                dev_cols dc = {NULL, NULL, 0, row, c};
+                dev_rows(sv, x, dev_col_value, &dc);
+            }
             st = sink_row(sink, row, err);
         }
     }

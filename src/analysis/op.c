@@ -399,20 +399,43 @@ static void op_row_to_sink(void *vc, const char *quantity, const char *elem_name
     c->st = sink_row_labelled(c->sink, label, &value, c->err);
 }
 
+double *op_power_begin(const ss_solver *sv)
+{
+    double *scratch = sv->work_x;
+    memset(scratch, 0, (size_t)sv->n_unknowns * sizeof *scratch);
+    return scratch;
+}
+
+double op_power_w(const ss_solver *sv, const element *e, const double *x, double *scratch)
+{
+    dev_load_ctx lc = {.x = x,
+                       .gmin_s = sv->ckt->opt.gmin,
+                       .src_scale = 1.0,
+                       .vt_v = analysis_vt(sv),
+                       .mode = LOAD_FROM_X,
+                       .ckt_elem = sv->elem};
+    return device_power_w(e, x, &lc, scratch);
+}
+
 void op_rows(const ss_solver *sv, const double *x, dev_report_fn fn, void *sink)
 {
     for (int j = 0; j < solver_n_out_nodes(sv); j++) {
         int node = solver_out_node(sv, j);
         fn(sink, "v", sv->node_name[node], x ? x[node - 1] : SS_NAN);
     }
-    /* the element rows kind by kind, in the registry's order */
+    /* the element rows kind by kind, in the registry's order: its own rows, then its power */
     double vt = analysis_vt(sv);
+    double *scratch = x ? op_power_begin(sv) : NULL;
     for (int k = 0; k < device_count(); k++) {
         const dev_ops *ops = device_at(k);
-        for (int i = 0; ops->report && i < sv->n_elem; i++) {
+        for (int i = 0; i < sv->n_elem; i++) {
             const element *e = &sv->elem[i];
-            if (e->ops == ops)
-                e->ops->report(e, x, vt, sv->ckt->opt.gmin, fn, sink);
+            if (e->ops != ops)
+                continue;
+            if (ops->report)
+                ops->report(e, x, vt, sv->ckt->opt.gmin, fn, sink);
+            if (elem_has_power(e))
+                fn(sink, "power", e->name, x ? op_power_w(sv, e, x, scratch) : SS_NAN);
         }
     }
 }

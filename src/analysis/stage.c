@@ -275,6 +275,41 @@ static ss_status stage_summary_rows(ss_solver *sv, ss_table *s, const stage_swee
     return st;
 }
 
+/* The load a stage names (.stage load=, --load) is a resistor the netlist usually draws too;
+ * the solved Zout then includes it. The element drawn as the load: a resistor from the output
+ * node to ground whose value is the named load (to 1e-6); -1 when there is none. */
+static int stage_drawn_load(const ss_solver *sv, int out_node)
+{
+    double r_load = sv->stage.load_ohm;
+    for (int i = 0; r_load > 0.0 && i < sv->n_elem; i++) {
+        const element *e = &sv->elem[i];
+        if (!elem_is(e, DEV_RESISTOR))
+            continue;
+        int a = e->node[0], b = e->node[1];
+        if (((a == out_node && b == 0) || (a == 0 && b == out_node)) &&
+            fabs(e->value - r_load) <= 1e-6 * r_load)
+            return i;
+    }
+    return -1;
+}
+
+/* The stage's own mid-band output impedance, what the load is compared with: the solved Zout
+ * (a driving-point impedance from the output node to ground) with the drawn load's admittance
+ * taken out, 1 / (1/Zout - 1/R) -- exact, since a resistor from that node to ground adds 1/R to
+ * the driving-point admittance (Ohm's and Kirchhoff's laws); the solved Zout when the netlist
+ * draws no such load. Kept on the context for the report. */
+static void stage_own_zout(ss_solver *sv, const stage_sweep *sw)
+{
+    int k = stage_drawn_load(sv, sw->out_node);
+    sv->stage_load_elem1 = k + 1;
+    sv->stage_zout_own_ohm = cabs(sw->mid.zout);
+    sv->stage_phase_mid_deg = phase_deg(sw->mid.gain);
+    if (k < 0)
+        return;
+    double complex y = 1.0 / sw->mid.zout - 1.0 / sv->elem[k].value;
+    sv->stage_zout_own_ohm = cabs(y) > 0.0 ? 1.0 / cabs(y) : HUGE_VAL;
+}
+
 /* The summary is made before the rows are sent, so a sink sees the rows of a run that
  * succeeded only. */
 ss_status ss_stage_emit(ss_solver *sv, ss_sink *sink, ss_table **out_summary, ss_error *err)
@@ -305,6 +340,8 @@ ss_status ss_stage_emit(ss_solver *sv, ss_sink *sink, ss_table **out_summary, ss
         st = stage_corners(sv, &sw, err);
     if (st == SS_OK)
         st = stage_summary_rows(sv, s, &sw, err);
+    if (st == SS_OK)
+        stage_own_zout(sv, &sw);
     if (st == SS_OK)
         st = stage_rows(sink, &sw, err);
     ss_free(sw.freqs);

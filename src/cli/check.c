@@ -97,7 +97,8 @@ int cmd_check(const cli_args *a)
         for (int i = 0; i < n; i++) {
             printf("  %-24s", ss_table_row_label(verdicts, i));
             for (int j = 0; j < 4; j++)
-                print_bound(ss_table_get(verdicts, i, ss_table_col_index(verdicts, bounds[j])));
+                print_figure(ss_table_get(verdicts, i, ss_table_col_index(verdicts, bounds[j])),
+                             ss_table_row_label(verdicts, i));
             printf("  %s\n", ss_table_get(verdicts, i, pass_col) != 0.0 ? "pass" : "FAIL");
         }
         printf("\n%d passed, %d failed\n", n - n_failed, n_failed);

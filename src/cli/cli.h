@@ -44,12 +44,21 @@ typedef struct cli_args {
     const char **supply_tols;      /* refine --supply-tol NAME=PCT% */
     int n_supply_tols;
     long max_candidates;           /* refine --max-candidates; 0 the default */
+    const char **devices; /* --devices lists, each comma-separated */
+    int n_devices;
+    const char **models; /* --models folders, in order */
+    int n_models;
     char *cmdline; /* the arguments after the program name, for the run's manifest */
 } cli_args;
 
 /* ---- main.c: usage errors -------------------------------------------------------------------- */
 
 /* "stagesim: " and the message on stderr, then the --help text; return EXIT_BAD_INPUT. */
+/* The folders .include files are looked for in after the netlist's own: --models in order,
+ * then STAGESIM_MODELS (colon-separated), then the installed models folder found from the
+ * program's own location (when it exists). Returns the list (free with free(); its strings
+ * in the same block), *n its length; NULL when out of memory. */
+const char **model_search_path(const cli_args *a, int *n);
 int usage_error(const char *fmt, const char *arg);
 int usage_errorf(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
 
@@ -76,7 +85,9 @@ int html_start(const cli_args *a, ss_outset *set, ss_html **h, const char **stag
  * staged. 0, or -1 with *err filled. Without a report nothing. */
 int html_finish(ss_html *h, const ss_outset *set, const char *staged, ss_error *err);
 /* " %13.6g", or "-" right-aligned for NaN: a table cell of the report */
-void print_bound(double v);
+/* One cell of a figure table: v in engineering notation with the unit of figure `name`
+ * (ss_format_figure), right-aligned in 13 columns; "-" for NaN. */
+void print_figure(double v, const char *name);
 int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv);
 
 /* ---- the commands: each returns the program's exit code -------------------------------------- */

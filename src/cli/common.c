@@ -193,22 +193,22 @@ int html_finish(ss_html *h, const ss_outset *set, const char *staged, ss_error *
                : -1;
 }
 
-void print_bound(double v)
+void print_figure(double v, const char *name)
 {
-    if (isnan(v))
-        printf(" %13s", "-");
-    else
-        printf(" %13.6g", v);
+    char buf[48];
+    printf(" %13s", ss_format_figure(buf, sizeof buf, v, name));
 }
 
 /* ---- the circuit ------------------------------------------------------------------------- */
 
-/* --nodes a,b --nodes c: the nodes whose per-node results run writes. */
-static int select_nodes(ss_solver *sv, const cli_args *a)
+/* --nodes a,b --nodes c (or --devices): the lists split at the commas, handed to select. */
+static int select_names(ss_solver *sv, const char *opt, const char *what, const char **lists,
+                        int n_lists,
+                        ss_status (*select)(ss_solver *, const char *const *, int, ss_error *))
 {
     size_t total = 0;
-    for (int i = 0; i < a->n_nodes; i++)
-        total += strlen(a->nodes[i]) + 1;
+    for (int i = 0; i < n_lists; i++)
+        total += strlen(lists[i]) + 1;
     char *buf = malloc(total);
     const char **names = calloc(total, sizeof *names);
     if (!buf || !names) {
@@ -219,9 +219,9 @@ static int select_nodes(ss_solver *sv, const cli_args *a)
     }
     int n = 0;
     char *w = buf;
-    for (int i = 0; i < a->n_nodes; i++) {
-        size_t len = strlen(a->nodes[i]);
-        memcpy(w, a->nodes[i], len + 1);
+    for (int i = 0; i < n_lists; i++) {
+        size_t len = strlen(lists[i]);
+        memcpy(w, lists[i], len + 1);
         for (char *tok = strtok(w, ","); tok; tok = strtok(NULL, ","))
             names[n++] = tok;
         w += len + 1;
@@ -229,14 +229,64 @@ static int select_nodes(ss_solver *sv, const cli_args *a)
     ss_error err = {0};
     int rc = EXIT_OK;
     if (n == 0)
-        rc = usage_error("%s", "--nodes needs node names separated by commas");
-    else if (ss_solver_select_nodes(sv, names, n, &err) != SS_OK) {
-        fprintf(stderr, "stagesim: --nodes: %s\n", err.message);
+        rc = usage_errorf("%s needs %s names separated by commas", opt, what);
+    else if (select(sv, names, n, &err) != SS_OK) {
+        fprintf(stderr, "stagesim: %s: %s\n", opt, err.message);
         rc = EXIT_BAD_INPUT;
     }
     free(buf);
     free(names);
     return rc;
+}
+
+const char **model_search_path(const cli_args *a, int *n)
+{
+    const char *env = getenv("STAGESIM_MODELS");
+    /* the installed folder: <prefix>/<bindir>/stagesim -> <prefix>/<datadir>/stagesim/models,
+     * from where this program is, so an installed tree can move */
+    char exe[4096], installed[4096 + 64] = "";
+    ssize_t len = readlink("/proc/self/exe", exe, sizeof exe - 1);
+    if (len > 0) {
+        exe[len] = '\0';
+        char *slash = strrchr(exe, '/');
+        if (slash) {
+            *slash = '\0';
+            struct stat st;
+            snprintf(installed, sizeof installed, "%s/%s", exe, STAGESIM_MODELS_FROM_BIN);
+            if (stat(installed, &st) != 0 || !S_ISDIR(st.st_mode))
+                installed[0] = '\0';
+        }
+    }
+    size_t text = strlen(installed) + 1 + (env ? strlen(env) + 1 : 0);
+    for (int i = 0; i < a->n_models; i++)
+        text += strlen(a->models[i]) + 1;
+    int cap = a->n_models + 1;
+    for (const char *c = env; c && *c; c++)
+        cap += *c == ':';
+    cap += env ? 1 : 0;
+    const char **list = malloc((size_t)cap * sizeof *list + text);
+    if (!list)
+        return NULL;
+    char *w = (char *)(list + cap);
+    int k = 0;
+    for (int i = 0; i < a->n_models; i++) {
+        list[k++] = strcpy(w, a->models[i]);
+        w += strlen(w) + 1;
+    }
+    for (const char *c = env; c && *c;) {
+        size_t m = strcspn(c, ":");
+        if (m > 0) { /* an empty entry names no folder */
+            memcpy(w, c, m);
+            w[m] = '\0';
+            list[k++] = w;
+            w += m + 1;
+        }
+        c += m + (c[m] == ':');
+    }
+    if (installed[0])
+        list[k++] = strcpy(w, installed);
+    *n = k;
+    return list;
 }
 
 /* --load and the large-signal options act on the stage: without one they would be dropped. */
@@ -308,14 +358,23 @@ static int apply_noise_options(ss_solver *sv, const cli_args *a)
     return EXIT_OK;
 }
 
-/* Parses the netlist, makes its solver context and applies --in/--out/--load/--nodes and the
- * large-signal options to it. */
+/* Parses the netlist, makes its solver context and applies --in/--out/--load/--nodes/--devices
+ * and the large-signal options to it. */
 int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv)
 {
     ss_error err = {0};
     ss_circuit *ckt = NULL;
     ss_solver *sv = NULL;
-    if (ss_circuit_parse_file(a->netlist, a->sets, a->n_sets, &ckt, &err) != SS_OK)
+    int n_dirs = 0;
+    const char **dirs = model_search_path(a, &n_dirs);
+    if (!dirs) {
+        fprintf(stderr, "stagesim: out of memory\n");
+        return EXIT_BAD_INPUT;
+    }
+    ss_status pst = ss_circuit_parse_file_models(a->netlist, a->sets, a->n_sets, dirs, n_dirs,
+                                                 &ckt, &err);
+    free(dirs);
+    if (pst != SS_OK)
         return fail(&err);
     if (ss_solver_create(ckt, &sv, &err) != SS_OK) {
         ss_circuit_destroy(&ckt);
@@ -333,7 +392,17 @@ int load_circuit(const cli_args *a, ss_circuit **out_ckt, ss_solver **out_sv)
     if (rc == EXIT_OK)
         rc = apply_noise_options(sv, a);
     if (rc == EXIT_OK && a->n_nodes > 0)
-        rc = select_nodes(sv, a);
+        rc = select_names(sv, "--nodes", "node", a->nodes, a->n_nodes, ss_solver_select_nodes);
+    ss_analysis_flags fl;
+    ss_solver_analyses(sv, &fl);
+    if (rc == EXIT_OK && a->n_devices > 0 && !fl.dc) {
+        fprintf(stderr, "stagesim: --devices: the netlist has no .dc sweep (the elements' "
+                        "columns go into dc.csv; op.csv has every element's rows)\n");
+        rc = EXIT_BAD_INPUT;
+    }
+    if (rc == EXIT_OK && a->n_devices > 0)
+        rc = select_names(sv, "--devices", "element", a->devices, a->n_devices,
+                          ss_solver_select_devices);
     if (rc != EXIT_OK) {
         ss_solver_destroy(&sv);
         ss_circuit_destroy(&ckt);

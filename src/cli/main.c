@@ -33,12 +33,17 @@ static const char USAGE[] =
     "  -o DIR            output folder (default: current folder; created if missing)\n"
     "  --set NAME=VALUE  override a .param, an element value (R1=10k) or a model parameter\n"
     "                    (qgen.bf=250); repeatable, each NAME once (not merge)\n"
+    "  --models DIR      a folder searched for .include files not found beside the netlist\n"
+    "                    (repeatable, in order; then STAGESIM_MODELS, then the installed\n"
+    "                    models) (not merge)\n"
     "  --in SRC --out NODE   the stage's source and output node (override .stage; not merge)\n"
     "  --load OHMS       (run) the load the stage drives, for the Zout check\n"
     "  --plot            (run) also write bode.svg (and wave.svg, thd_wave.svg);\n"
     "                    (sweep, spread) study.svg: the figures with their limits\n"
     "  --nodes A,B,...   (run) write only these nodes' voltages (op, dc, ac, tran tables and\n"
     "                    the report); default every node\n"
+    "  --devices X,Y,... (run) add these elements' op.csv quantities (currents, terminal\n"
+    "                    voltages, power) to dc.csv; default none\n"
     "  --ls-freq F --thd-amp A --thd-target PCT   (run) the large-signal test\n"
     "  --noise-band F1..F2   the noise analysis's own band (overrides .noise band=; not\n"
     "                    merge)\n"
@@ -174,6 +179,8 @@ static const cli_option OPTIONS[] = {
     {"-o", "--out-dir", "DIR", C_CHECK, "write check.csv and figures.csv into DIR"},
     {"--set", NULL, "NAME=VALUE", C_NETLIST,
      "set a .param, element value (R1=10k) or MODEL.PARAM; repeatable, each NAME once"},
+    {"--models", NULL, "DIR", C_NETLIST & ~C_REFINE,
+     "a folder for .include files not beside the netlist; repeatable, searched in order"},
     {"--in", NULL, "SRC", C_NETLIST, "the stage's driving source (with --out; overrides .stage)"},
     {"--out", NULL, "NODE", C_NETLIST, "the stage's output node (with --in)"},
     {"--noise-band", NULL, "F1..F2", C_NETLIST & ~C_REFINE,
@@ -184,6 +191,8 @@ static const cli_option OPTIONS[] = {
      "the load on the stage output, for the report's Zout warning (as .stage load=)"},
     {"--nodes", NULL, "A,B,...", C_RUN,
      "write only these nodes' voltages (op, dc, ac, tran tables, report)"},
+    {"--devices", NULL, "X,Y,...", C_RUN,
+     "add these elements' op.csv quantities to dc.csv, after the node voltages"},
     {"--plot", NULL, NULL, C_RUN, "also write bode.svg (and wave.svg, thd_wave.svg)"},
     {"--plot", NULL, NULL, C_SWEEP | C_SPREAD,
      "also write study.svg: per limited figure its values over the swept value (sweep) or "
@@ -364,8 +373,10 @@ static int parse_args_init(int argc, char **argv, cli_args *a)
     a->shards = calloc((size_t)argc, sizeof *a->shards);
     a->nodes = calloc((size_t)argc, sizeof *a->nodes);
     a->supply_tols = calloc((size_t)argc, sizeof *a->supply_tols);
+    a->devices = calloc((size_t)argc, sizeof *a->devices);
+    a->models = calloc((size_t)argc, sizeof *a->models);
     if (!a->sets || !a->varies || !a->tols || !a->matches || !a->shards || !a->nodes ||
-        !a->supply_tols)
+        !a->supply_tols || !a->devices || !a->models)
         return EXIT_BAD_INPUT;
     return EXIT_OK;
 }
@@ -389,7 +400,8 @@ static int check_option(const char *o, const char *next, const cli_command *cmd,
     if (opt && opt->arg && strcmp(opt->name, "--set") != 0 && strcmp(opt->name, "--vary") != 0 &&
         strcmp(opt->name, "--tol") != 0 && strcmp(opt->name, "--nodes") != 0 &&
         strcmp(opt->name, "--match") != 0 && strcmp(opt->name, "--limits") != 0 &&
-        strcmp(opt->name, "--supply-tol") != 0) {
+        strcmp(opt->name, "--supply-tol") != 0 && strcmp(opt->name, "--devices") != 0 &&
+        strcmp(opt->name, "--models") != 0) {
         if (seen[opt - OPTIONS])
             return usage_errorf("%s given twice", o);
         seen[opt - OPTIONS] = 1;
@@ -428,8 +440,9 @@ static int take_positional(const char *o, const cli_command *cmd, cli_args *a)
     return EXIT_OK;
 }
 
-/* The options several commands share: -o, --set, --in, --out, --noise-band, --noise-weight,
- * --junit, --html, --limits, --strict, --quiet. n is the option's name, next its value. */
+/* The options several commands share: -o, --set, --models, --in, --out, --noise-band,
+ * --noise-weight, --junit, --html, --limits, --strict, --quiet. n is the option's name, next its
+ * value. */
 static int parse_shared_option(const char *n, const char *next, cli_args *a)
 {
     if (strcmp(n, "-o") == 0) {
@@ -443,6 +456,8 @@ static int parse_shared_option(const char *n, const char *next, cli_args *a)
         a->sets[a->n_sets].name = next;
         a->sets[a->n_sets].value = eq + 1;
         a->n_sets++;
+    } else if (strcmp(n, "--models") == 0) {
+        a->models[a->n_models++] = next;
     } else if (strcmp(n, "--in") == 0) {
         a->in_src = next;
     } else if (strcmp(n, "--out") == 0) {
@@ -482,7 +497,8 @@ static int parse_shared_option(const char *n, const char *next, cli_args *a)
     return EXIT_OK;
 }
 
-/* run's options: --load, --ls-freq, --thd-amp, --thd-target, --nodes, --plot (o as given). */
+/* run's options: --load, --ls-freq, --thd-amp, --thd-target, --nodes, --devices, --plot (o as
+ * given). */
 static int parse_run_option(const char *n, const char *o, const char *next, cli_args *a)
 {
     int rc = EXIT_OK;
@@ -497,6 +513,8 @@ static int parse_run_option(const char *n, const char *o, const char *next, cli_
                         &a->thd_target);
     } else if (strcmp(n, "--nodes") == 0) {
         a->nodes[a->n_nodes++] = next;
+    } else if (strcmp(n, "--devices") == 0) {
+        a->devices[a->n_devices++] = next;
     } else if (strcmp(n, "--plot") == 0) {
         a->plot = 1;
     } else {
@@ -752,6 +770,8 @@ int main(int argc, char **argv)
     free(a.shards);
     free(a.nodes);
     free(a.supply_tols);
+    free(a.devices);
+    free(a.models);
     free(a.cmdline);
     return rc;
 }

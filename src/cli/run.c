@@ -67,22 +67,37 @@ static int plot_result(const run_ctx *c, ss_status st, const ss_error *err, cons
 
 static void print_large_signal(const ss_table *ls, double f_hz)
 {
-    printf("\nLarge signal at %.4g Hz\n", f_hz);
-    const char *rows[][2] = {{"swing_pos_v", "output swing before clipping, +"},
-                             {"swing_neg_v", "output swing before clipping, -"},
-                             {"thd_pct", "THD at the test amplitude (%)"},
-                             {"vin_at_thd_v", "input amplitude for the THD target"},
-                             {"iin_at_thd_a", "input amplitude for the THD target"}};
     int col = ss_table_col_index(ls, "value");
-    for (size_t k = 0; k < sizeof rows / sizeof rows[0]; k++) {
-        double v = ss_table_lookup(ls, rows[k][0], col);
-        double e = strcmp(rows[k][0], "thd_pct") == 0 ? ss_table_lookup(ls, "thd_err_pct", col)
-                                                      : SS_NAN_CLI;
-        if (!isnan(v) && !isnan(e))
-            printf("  %-40s %.5g (estimated error %.2g)\n", rows[k][1], v, e);
-        else if (!isnan(v))
-            printf("  %-40s %.5g\n", rows[k][1], v);
+    /* a V-driven stage's input in V, an I-driven one's in A (large_signal.csv's names) */
+    int current = !isnan(ss_table_lookup(ls, "thd_amp_a", col));
+    const char *in_unit = current ? "A" : "V";
+    double amp = ss_table_lookup(ls, current ? "thd_amp_a" : "thd_amp_v", col);
+    double target = ss_table_lookup(ls, "thd_target_pct", col);
+    char a[48], b[48], lbl[96];
+    printf("\nLarge signal at %s, test input amplitude %s\n", ss_format_eng(a, sizeof a, f_hz, "Hz"),
+           ss_format_eng(b, sizeof b, amp, in_unit));
+    const char *swing[][2] = {{"swing_pos_v", "output swing before clipping, +"},
+                              {"swing_neg_v", "output swing before clipping, -"}};
+    for (size_t k = 0; k < 2; k++) {
+        double v = ss_table_lookup(ls, swing[k][0], col);
+        if (!isnan(v))
+            printf("  %-40s %s\n", swing[k][1], ss_format_eng(a, sizeof a, v, "V"));
     }
+    double thd = ss_table_lookup(ls, "thd_pct", col);
+    double thd_err = ss_table_lookup(ls, "thd_err_pct", col);
+    snprintf(lbl, sizeof lbl, "THD at the %s test amplitude", ss_format_eng(b, sizeof b, amp, in_unit));
+    if (!isnan(thd) && !isnan(thd_err) && thd_err > 0.0) {
+        /* two significant digits in plain decimals (0.000045 %, not 4.5e-05 %) */
+        int dec = (int)fmax(0.0, fmin(12.0, 1.0 - floor(log10(thd_err))));
+        printf("  %-40s %.4g %% (estimated error %.*f %%)\n", lbl, thd, dec, thd_err);
+    } else if (!isnan(thd) && !isnan(thd_err))
+        printf("  %-40s %.4g %% (estimated error 0 %%)\n", lbl, thd);
+    else if (!isnan(thd))
+        printf("  %-40s %.4g %%\n", lbl, thd);
+    double at = ss_table_lookup(ls, current ? "iin_at_thd_a" : "vin_at_thd_v", col);
+    snprintf(lbl, sizeof lbl, "input amplitude for %.4g %% THD (target)", target);
+    if (!isnan(at))
+        printf("  %-40s %s\n", lbl, ss_format_eng(a, sizeof a, at, in_unit));
 }
 
 /* The noise block of the report: the band, the integrated figures and the largest single
@@ -93,13 +108,13 @@ static void print_noise(const ss_table *nsum, const ss_table *ncon)
 {
     int col = ss_table_col_index(nsum, "value");
     double points = ss_table_lookup(nsum, "band_points", col);
+    char f1[48], f2[48];
+    ss_format_eng(f1, sizeof f1, ss_table_lookup(nsum, "f_start_hz", col), "Hz");
+    ss_format_eng(f2, sizeof f2, ss_table_lookup(nsum, "f_stop_hz", col), "Hz");
     if (isnan(points))
-        printf("\nNoise over the .ac band (%.4g Hz .. %.4g Hz)\n",
-               ss_table_lookup(nsum, "f_start_hz", col), ss_table_lookup(nsum, "f_stop_hz", col));
+        printf("\nNoise over the .ac band (%s .. %s)\n", f1, f2);
     else
-        printf("\nNoise over its own band (%.4g Hz .. %.4g Hz, %.0f points)\n",
-               ss_table_lookup(nsum, "f_start_hz", col), ss_table_lookup(nsum, "f_stop_hz", col),
-               points);
+        printf("\nNoise over its own band (%s .. %s, %.0f points)\n", f1, f2, points);
     printf("  output noise    %.4g uV rms\n",
            1e6 * ss_table_lookup(nsum, "out_noise_rms_v", col));
     printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", col));

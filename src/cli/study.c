@@ -4,6 +4,7 @@
 #include <ctype.h>
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <time.h>
 #include <unistd.h>
@@ -33,7 +34,15 @@ static int make_study(const cli_args *a, ss_study **out, ss_limits **lim)
 {
     ss_error err = {0};
     ss_study *s = NULL;
-    if (ss_study_create(a->netlist, a->sets, a->n_sets, &s, &err) != SS_OK)
+    int n_dirs = 0;
+    const char **dirs = model_search_path(a, &n_dirs);
+    if (!dirs) {
+        fprintf(stderr, "stagesim: out of memory\n");
+        return EXIT_BAD_INPUT;
+    }
+    ss_status st = ss_study_create_models(a->netlist, a->sets, a->n_sets, dirs, n_dirs, &s, &err);
+    free(dirs);
+    if (st != SS_OK)
         return fail(&err);
     if (a->in_src || a->out_node) {
         if (!a->in_src || !a->out_node) {
@@ -104,7 +113,7 @@ static void print_summary(const ss_table *summary)
             continue;
         printf("  %-24s %8.0f", name, ss_table_get(summary, i, n_col));
         for (int j = 0; j < 4; j++)
-            print_bound(ss_table_get(summary, i, ss_table_col_index(summary, stats[j])));
+            print_figure(ss_table_get(summary, i, ss_table_col_index(summary, stats[j])), name);
         double pf = ss_table_get(summary, i, pf_col);
         if (isnan(pf))
             printf(" %8s\n", "-");
@@ -328,9 +337,11 @@ int cmd_sensitivity(const cli_args *a)
                 g = k;
         double fa = ss_table_get(corners, i, 4 + 3 * g);
         n_out += fa != 1.0;
+        char ic[48], vce[48];
         if (!a->quiet)
-            printf("  %-36s %12.4g %12.4g  %s\n", ss_table_row_label(corners, i),
-                   ss_table_get(corners, i, 2 + 3 * g), ss_table_get(corners, i, 3 + 3 * g),
+            printf("  %-36s %12s %12s  %s\n", ss_table_row_label(corners, i),
+                   ss_format_eng(ic, sizeof ic, ss_table_get(corners, i, 2 + 3 * g), "A"),
+                   ss_format_eng(vce, sizeof vce, ss_table_get(corners, i, 3 + 3 * g), "V"),
                    isnan(fa) ? "NO OPERATING POINT" : fa == 1.0 ? region : leaves);
     }
     for (char *c = region; *c; c++)
@@ -447,10 +458,16 @@ int cmd_snap(const cli_args *a)
         int v_col = ss_table_col_index(vals, "value");
         int e_col = ss_table_col_index(vals, "preferred");
         int c_col = ss_table_col_index(vals, "change_pct");
-        for (int i = 0; i < ss_table_rows(vals); i++)
-            printf("  %-16s %13.6g %13.6g %8.2f%%\n", ss_table_row_label(vals, i),
-                   ss_table_get(vals, i, v_col), ss_table_get(vals, i, e_col),
+        for (int i = 0; i < ss_table_rows(vals); i++) {
+            char v[48], e[48];
+            const char *el = ss_table_row_label(vals, i);
+            /* an element's first letter is its kind (the netlist's rule): C is a capacitor */
+            const char *unit = (el[0] == 'c' || el[0] == 'C') ? "F" : "ohm";
+            printf("  %-16s %13s %13s %8.2f%%\n", el,
+                   ss_format_eng(v, sizeof v, ss_table_get(vals, i, v_col), unit),
+                   ss_format_eng(e, sizeof e, ss_table_get(vals, i, e_col), unit),
                    ss_table_get(vals, i, c_col));
+        }
         printf("\nfigures that move\n  %-24s %13s %13s %13s %9s%s\n", "figure", "computed",
                "preferred", "shift", "shift", pass_col >= 0 ? "  limits" : "");
         int fc_col = ss_table_col_index(figs, "computed");
@@ -466,8 +483,10 @@ int cmd_snap(const cli_args *a)
             const char *at = strchr(name, '@');
             size_t base = at ? (size_t)(at - name) : strlen(name);
             int is_db = base > 3 && strncmp(name + base - 3, "_db", 3) == 0;
-            printf("  %-24s %13.6g %13.6g %13.4g", name, ss_table_get(figs, i, fc_col),
-                   ss_table_get(figs, i, fp_col), shift);
+            printf("  %-24s", name);
+            print_figure(ss_table_get(figs, i, fc_col), name);
+            print_figure(ss_table_get(figs, i, fp_col), name);
+            print_figure(shift, name);
             /* a dB figure moves by dB, not by a percentage of its dB value */
             if (is_db)
                 printf(" %+.4f dB", shift);

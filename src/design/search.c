@@ -708,6 +708,7 @@ static double norm_margin(const limit *lim, int is_db, double v)
 {
     if (isnan(v))
         return MARGIN_NO_SOLUTION;
+    v = limit_judged(lim, v);
     double m = HUGE_VAL;
     if (is_db) {
         if (isfinite(lim->lo))

@@ -437,7 +437,7 @@ static void bjt_load_dc(element *e, dev_load_ctx *lc)
 
 /* Operating-point details for the report and op.csv (currents into the terminals). */
 typedef struct bjt_op_info {
-    double ic_a, ib_a, ie_a, vbe_v, vce_v, vbc_v, gm_s, power_w;
+    double ic_a, ib_a, ie_a, vbe_v, vce_v, vbc_v, gm_s;
     const char *region;
 } bjt_op_info;
 
@@ -456,7 +456,6 @@ static void bjt_op_details(const element *e, const double *x, double vt_v, doubl
     out->vce_v = xv(x, e->node[TC]) - xv(x, e->node[TE]);
     out->vbc_v = xv(x, e->node[TB]) - xv(x, e->node[TC]);
     out->gm_s = o.gce;
-    out->power_w = out->ic_a * out->vce_v + out->ib_a * out->vbe_v;
     /* regions by the (polarity-corrected) terminal junction voltages; a junction counts as
      * forward-biased above 0.4 V (reporting threshold, docs/cli.md) */
     int be_on = p * out->vbe_v > 0.4, bc_on = p * out->vbc_v > 0.4;
@@ -482,7 +481,7 @@ static const char BJT_REPORT_HEADING[] =
     "          gm       power  region\n";
 
 static void bjt_report_line(const element *e, const double *x, double vt_v, double gmin_s,
-                            char *buf, size_t len)
+                            double power_w, char *buf, size_t len)
 {
     char a[48], b[48], c[48], d[48], f[48], g[48];
     bjt_op_info info;
@@ -492,13 +491,13 @@ static void bjt_report_line(const element *e, const double *x, double vt_v, doub
              BJT_TYPES[e->mod->type], fmt_eng(a, sizeof a, info.ic_a, "A"),
              fmt_eng(b, sizeof b, info.ib_a, "A"), fmt_eng(c, sizeof c, info.vbe_v, "V"),
              fmt_eng(d, sizeof d, info.vce_v, "V"), beta, fmt_eng(f, sizeof f, info.gm_s, "S"),
-             fmt_eng(g, sizeof g, info.power_w, "W"), info.region);
+             fmt_eng(g, sizeof g, power_w, "W"), info.region);
 }
 
 static void bjt_report(const element *e, const double *x, double vt_v, double gmin_s,
                        dev_report_fn fn, void *sink)
 {
-    bjt_op_info info = {SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, NULL};
+    bjt_op_info info = {SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, NULL};
     if (x)
         bjt_op_details(e, x, vt_v, gmin_s, &info);
     fn(sink, "ic", e->name, info.ic_a);

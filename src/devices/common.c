@@ -19,6 +19,34 @@ int temp_param_check(const char *name, double v, int positive, char *why, size_t
 
 const unsigned char DC_PAIR_AB[1][2] = {{0, 1}};
 
+double device_power_w(const element *e, const double *x, const dev_load_ctx *lc, double *scratch)
+{
+    if (!x || !elem_has_power(e))
+        return SS_NAN;
+    e->ops->kcl(e, x, lc, scratch);
+    /* P = sum of V * I over the terminals (Tellegen's theorem applied to the element alone;
+     * currents into internal nodes cancel at a solution). Terminals on one node count once:
+     * scratch holds their summed current. */
+    double p_w = 0.0;
+    for (int t = 0; t < e->n_node; t++) {
+        int n = e->node[t], seen = 0;
+        for (int u = 0; u < t; u++)
+            seen |= e->node[u] == n;
+        if (!seen && n > 0)
+            p_w += x[n - 1] * scratch[n - 1];
+    }
+    /* back to all zero: every entry a kcl writes (terminals, internal nodes, its branch) */
+    for (int t = 0; t < e->n_node; t++)
+        if (e->node[t] > 0)
+            scratch[e->node[t] - 1] = 0.0;
+    for (int k = 0; k < 3; k++)
+        if (e->inode[k] > 0)
+            scratch[e->inode[k] - 1] = 0.0;
+    if (e->branch >= 0)
+        scratch[e->branch] = 0.0;
+    return p_w;
+}
+
 void claim_pair(element *e, dev_setup_ctx *sc, int first, int a, int b)
 {
     int ua = node_unknown(a), ub = node_unknown(b);

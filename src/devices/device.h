@@ -263,10 +263,11 @@ typedef struct dev_ops {
      * what the sanity check says a stage transistor should be in; NULL for other kinds */
     const char *amplifying_region;
     /* this kind's table in the text report (src/output/report.c): heading lines, then one line
-     * per element at the operating point x written into buf; NULL when none */
+     * per element at the operating point x written into buf, with the element's power (W,
+     * device_power_w: the op.csv power row) to show; NULL when none */
     const char *report_heading;
     void (*report_line)(const element *e, const double *x, double vt_v, double gmin_s,
-                        char *buf, size_t len);
+                        double power_w, char *buf, size_t len);
 } dev_ops;
 
 /* registry.c: the kinds in a fixed order -- the order of their rows in op.csv and of their
@@ -353,6 +354,21 @@ static inline double noise_flicker_a2(double kf, double af, double i_a)
  * (positive set) or >= 0. 0 ok; -1 with the reason in why. */
 SS_HIDDEN int temp_param_check(const char *name, double v, int positive, char *why,
                                size_t why_len);
+
+/* ---- power at the operating point --------------------------------------------------------- */
+/* Whether an element has a power(NAME) row: every kind with terminal currents at DC except the
+ * plain storage elements (a capacitor carries no DC current; an inductor has no DC voltage). */
+static inline int elem_has_power(const element *e)
+{
+    return e->ops->kcl && !elem_is(e, DEV_CAPACITOR | DEV_INDUCTOR);
+}
+/* The power element e absorbs at the solution x, W (negative: it delivers power): the sum over
+ * its distinct terminal nodes of V(node) * I(into the element at that node), the currents from
+ * the kind's kcl (its own equations, not the Newton stamps). The one computation behind op.csv's
+ * power rows, the power limits and the report's power column. scratch: one double per unknown,
+ * all zero on entry and left all zero. NaN when x is NULL or e has no power row. */
+SS_HIDDEN double device_power_w(const element *e, const double *x, const dev_load_ctx *lc,
+                                double *scratch);
 
 /* Claims the four slots of a two-terminal admittance between nodes a and b into
  * e->slot[first..first+3] in the order (a,a) (b,b) (a,b) (b,a). */

@@ -146,18 +146,19 @@ static void diode_report(const element *e, const double *x, double vt_v, double 
     fn(sink, "id", e->name, id);
 }
 
-static const char DIODE_REPORT_HEADING[] = "\nDiodes\n  name                  Id         Vd\n";
+static const char DIODE_REPORT_HEADING[] =
+    "\nDiodes\n  name                  Id         Vd       power\n";
 
 static void diode_report_line(const element *e, const double *x, double vt_v, double gmin_s,
-                              char *buf, size_t len)
+                              double power_w, char *buf, size_t len)
 {
-    char a[48], b[48];
+    char a[48], b[48], c[48];
     double vd = xv(x, e->node[0]) - xv(x, e->node[1]);
     /* the diode current exactly as op.csv has it */
     double vdi = xv(x, e->inode[0]) - xv(x, e->node[1]), gd;
     double id = junction_current(e->tp[DP_IS], vdi, e->tp[DP_N] * vt_v, &gd) + gmin_s * vdi;
-    snprintf(buf, len, "  %-12s %11s %10s", e->name, fmt_eng(a, sizeof a, id, "A"),
-             fmt_eng(b, sizeof b, vd, "V"));
+    snprintf(buf, len, "  %-12s %11s %10s %11s", e->name, fmt_eng(a, sizeof a, id, "A"),
+             fmt_eng(b, sizeof b, vd, "V"), fmt_eng(c, sizeof c, power_w, "W"));
 }
 
 /* Terminal currents from the device equations alone (not the Newton stamps). */

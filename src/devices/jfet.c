@@ -323,7 +323,7 @@ static void jfet_load_ac(const element *e, dev_ac_ctx *ac)
 /* Operating-point details for the report and op.csv: terminal currents into the device,
  * terminal voltages, and the channel's gm and gds at the internal nodes. */
 typedef struct jfet_op_info {
-    double id_a, ig_a, vgs_v, vds_v, gm_s, gds_s, power_w;
+    double id_a, ig_a, vgs_v, vds_v, gm_s, gds_s;
     const char *region;
 } jfet_op_info;
 
@@ -341,7 +341,6 @@ static void jfet_op_details(const element *e, const double *x, double vt_v, doub
     out->vds_v = xv(x, e->node[TD]) - xv(x, e->node[TS]);
     out->gm_s = o.gm;
     out->gds_s = o.gds;
-    out->power_w = out->id_a * out->vds_v + out->ig_a * out->vgs_v;
     out->region = o.region;
 }
 
@@ -363,7 +362,7 @@ static const char JFET_REPORT_HEADING[] =
     "         gds       power  region\n";
 
 static void jfet_report_line(const element *e, const double *x, double vt_v, double gmin_s,
-                             char *buf, size_t len)
+                             double power_w, char *buf, size_t len)
 {
     char a[48], b[48], c[48], d[48], f[48], g[48], h[48];
     jfet_op_info info;
@@ -372,14 +371,14 @@ static void jfet_report_line(const element *e, const double *x, double vt_v, dou
              JFET_TYPES[e->mod->type], fmt_eng(a, sizeof a, info.id_a, "A"),
              fmt_eng(b, sizeof b, info.ig_a, "A"), fmt_eng(c, sizeof c, info.vgs_v, "V"),
              fmt_eng(d, sizeof d, info.vds_v, "V"), fmt_eng(f, sizeof f, info.gm_s, "S"),
-             fmt_eng(g, sizeof g, info.gds_s, "S"), fmt_eng(h, sizeof h, info.power_w, "W"),
+             fmt_eng(g, sizeof g, info.gds_s, "S"), fmt_eng(h, sizeof h, power_w, "W"),
              info.region);
 }
 
 static void jfet_report(const element *e, const double *x, double vt_v, double gmin_s,
                         dev_report_fn fn, void *sink)
 {
-    jfet_op_info info = {SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, NULL};
+    jfet_op_info info = {SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, SS_NAN, NULL};
     if (x)
         jfet_op_details(e, x, vt_v, gmin_s, &info);
     fn(sink, "id", e->name, info.id_a);

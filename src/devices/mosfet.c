@@ -613,19 +613,20 @@ static void mos_report(const element *e, const double *x, double vt_v, double gm
 
 static const char MOS_REPORT_HEADING[] =
     "\nMOSFETs\n  name         type           Id        Vgs        Vds        Vth          gm"
-    "         gds  region\n";
+    "         gds       power  region\n";
 
 static void mos_report_line(const element *e, const double *x, double vt_v, double gmin_s,
-                            char *buf, size_t len)
+                            double power_w, char *buf, size_t len)
 {
-    char a[48], b[48], c[48], d[48], f[48], g[48];
+    char a[48], b[48], c[48], d[48], f[48], g[48], h[48];
     mos_op_info info;
     mos_op_details(e, x, vt_v, gmin_s, &info);
-    snprintf(buf, len, "  %-12s %-4s %11s %10s %10s %10s %11s %11s  %s", e->name,
+    snprintf(buf, len, "  %-12s %-4s %11s %10s %10s %10s %11s %11s %11s  %s", e->name,
              MOS_TYPES[e->mod->type], fmt_eng(a, sizeof a, info.id_a, "A"),
              fmt_eng(b, sizeof b, info.vgs_v, "V"), fmt_eng(c, sizeof c, info.vds_v, "V"),
              fmt_eng(d, sizeof d, info.vth_v, "V"), fmt_eng(f, sizeof f, info.gm_s, "S"),
-             fmt_eng(g, sizeof g, info.gds_s, "S"), REGION_NAME[info.region]);
+             fmt_eng(g, sizeof g, info.gds_s, "S"), fmt_eng(h, sizeof h, power_w, "W"),
+             REGION_NAME[info.region]);
 }
 
 /* Noise (docs/noise.md): channel thermal noise (8/3) k T gm between d' and s' (the saturation

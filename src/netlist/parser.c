@@ -315,6 +315,7 @@ static ss_status finish_circuit(parser *ps)
 
 static ss_status parse_common(const char *path, const char *text, size_t text_len,
                               const char *name, const ss_override *overrides, int n_overrides,
+                              const char *const *model_dirs, int n_model_dirs,
                               ss_circuit **out_ckt, ss_error *err)
 {
     ss_error local = {0};
@@ -336,6 +337,8 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
     ps.err = err;
     ps.overrides = overrides;
     ps.n_overrides = n_overrides;
+    ps.model_dirs = model_dirs;
+    ps.n_model_dirs = model_dirs && n_model_dirs > 0 ? n_model_dirs : 0;
     ps.tape_model = -1;
     ss_status st = SS_OK;
     if (!ckt->file || circuit_add_node(ckt, "0", 0) != 0 || note_node_prefix(&ps, 0, 0) != 0)
@@ -378,12 +381,21 @@ static ss_status parse_common(const char *path, const char *text, size_t text_le
 ss_status ss_circuit_parse_file(const char *path, const ss_override *overrides, int n_overrides,
                                 ss_circuit **out_ckt, ss_error *err)
 {
-    return parse_common(path, NULL, 0, NULL, overrides, n_overrides, out_ckt, err);
+    return parse_common(path, NULL, 0, NULL, overrides, n_overrides, NULL, 0, out_ckt, err);
+}
+
+ss_status ss_circuit_parse_file_models(const char *path, const ss_override *overrides,
+                                       int n_overrides, const char *const *model_dirs,
+                                       int n_model_dirs, ss_circuit **out_ckt, ss_error *err)
+{
+    return parse_common(path, NULL, 0, NULL, overrides, n_overrides, model_dirs, n_model_dirs,
+                        out_ckt, err);
 }
 
 ss_status ss_circuit_parse_text(const char *text, size_t text_len, const char *name,
                                 const ss_override *overrides, int n_overrides,
                                 ss_circuit **out_ckt, ss_error *err)
 {
-    return parse_common(NULL, text, text_len, name, overrides, n_overrides, out_ckt, err);
+    return parse_common(NULL, text, text_len, name, overrides, n_overrides, NULL, 0, out_ckt,
+                        err);
 }

@@ -88,6 +88,9 @@ typedef struct parser {
     ss_arena scratch; /* parse-lifetime data (token arrays), freed with the parser */
     const ss_override *overrides;
     int n_overrides;
+    /* folders searched, in order, for a relative .include not found beside its file */
+    const char *const *model_dirs;
+    int n_model_dirs;
     unsigned char *override_used;
     size_t text_bytes; /* netlist text read so far, all files together */
     /* per node, the length of the instance prefix it was named with (0 at the top level):

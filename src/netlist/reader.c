@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include "netlist/parser_internal.h"
 
@@ -227,7 +228,27 @@ static ss_status do_include(parser *ps, const char *file, int line_no, const cha
         snprintf(path, sizeof path, "%s", name);
     else
         snprintf(path, sizeof path, "%s/%s", dir_of(file, dir, sizeof dir), name);
-    return read_file(ps, path, &here, 0);
+    if (name[0] == '/' || ps->n_model_dirs == 0 || access(path, F_OK) == 0)
+        return read_file(ps, path, &here, 0);
+    /* not beside the including file: the model folders, in order (docs/netlist.md) */
+    for (int k = 0; k < ps->n_model_dirs; k++) {
+        char cand[8192];
+        snprintf(cand, sizeof cand, "%s/%s", ps->model_dirs[k], name);
+        if (access(cand, F_OK) == 0)
+            return read_file(ps, cand, &here, 0);
+    }
+    ss_strbuf tried = {0};
+    strbuf_printf(&tried, "%s", dir);
+    for (int k = 0; k < ps->n_model_dirs; k++)
+        strbuf_printf(&tried, ", %s", ps->model_dirs[k]);
+    ss_status st = tried.failed ? nomem(ps)
+                                : line_error(ps, &here,
+                                             ".include '%s': no such file in any folder tried: "
+                                             "%s (the netlist's folder, then --models, "
+                                             "STAGESIM_MODELS and the installed models)",
+                                             name, tried.data);
+    strbuf_clear(&tried);
+    return st;
 }
 
 static ss_status finish_logical(parser *ps, ss_strbuf *cur, const char *file, int line_no,

@@ -422,6 +422,7 @@ ss_status ss_html_add_run(ss_html *h, const ss_solver *sv, const ss_table *summa
                              "</p>\n", c.more);
         /* the device tables of the text report */
         double vt = analysis_vt(sv);
+        double *scratch = op_power_begin(sv); /* the power column is op.csv's power row */
         for (int k = 0; k < device_count(); k++) {
             const dev_ops *ops = device_at(k);
             if (!ops->report_line)
@@ -436,7 +437,8 @@ ss_status ss_html_add_run(ss_html *h, const ss_solver *sv, const ss_table *summa
                     put_text(b, ops->report_heading);
                 }
                 char line[512];
-                ops->report_line(el, sv->x_op, vt, sv->ckt->opt.gmin, line, sizeof line);
+                ops->report_line(el, sv->x_op, vt, sv->ckt->opt.gmin,
+                                 op_power_w(sv, el, sv->x_op, scratch), line, sizeof line);
                 put_text(b, line);
                 put(b, "\n");
             }
@@ -489,7 +491,8 @@ ss_status ss_html_add_study(ss_html *h, const ss_study *s, const ss_table *pts,
             double worst_m = HUGE_VAL;
             for (long i = 0; col >= 0 && i < n_points; i++) {
                 double v = pts->data[(size_t)i * (size_t)pts->n_cols + (size_t)col];
-                double m = isnan(v) ? -HUGE_VAL : fmin(v - lim->lo, lim->hi - v);
+                double x = limit_judged(lim, v);
+                double m = isnan(v) ? -HUGE_VAL : fmin(x - lim->lo, lim->hi - x);
                 pass += !isnan(v) && m >= 0.0;
                 if (worst < 0 || m < worst_m) {
                     worst = i;

@@ -20,12 +20,26 @@ ss_status ss_plot_write_bode(const ss_solver *sv, const ss_table *stage,
         buf[n + k] = ss_table_get(stage, k, 2);
         buf[2 * n + k] = ss_table_get(stage, k, 3);
     }
-    /* a long netlist title is cut so the plot title fits the page */
-    char title[512];
+    /* a long netlist title is cut (at a character, with an ellipsis) so the plot title keeps
+     * its ": v(out) / in" whole within the 64 characters the plot's frame holds (svg.c cuts
+     * whatever is still too wide) */
+    char title[512], tail[160];
     const char *t = sv->ckt->title && sv->ckt->title[0] ? sv->ckt->title : "stage";
-    int max_title = 60;
-    snprintf(title, sizeof title, "%.*s%s: v(%s) / %s", max_title, t,
-             (int)strlen(t) > max_title ? "..." : "", sv->stage.out, sv->stage.in);
+    snprintf(tail, sizeof tail, ": v(%s) / %s", sv->stage.out, sv->stage.in);
+    size_t tail_chars = 0, chars = 0, bytes = 0;
+    for (const char *c = tail; *c; c++)
+        tail_chars += ((unsigned char)*c & 0xC0) != 0x80;
+    size_t max_chars = tail_chars + 16 < 64 ? 64 - tail_chars - 1 : 16;
+    int cut = 0;
+    for (; t[bytes] && bytes < 300; bytes++)
+        if (((unsigned char)t[bytes] & 0xC0) != 0x80 && ++chars > max_chars) {
+            cut = 1;
+            break;
+        }
+    cut |= t[bytes] != '\0';
+    while (cut && bytes > 0 && t[bytes - 1] == ' ')
+        bytes--;
+    snprintf(title, sizeof title, "%.*s%s%s", (int)bytes, t, cut ? "\xE2\x80\xA6" : "", tail);
     svg_bode_input in = {title,
                          buf,
                          buf + n,

@@ -13,9 +13,11 @@ static const char *eng(char *buf, size_t len, double v, const char *unit)
     return fmt_eng(buf, len, v, unit);
 }
 
+/* The stage block: every figure with its unit and where it was taken; the load compared with
+ * the stage's own output impedance (docs/stage.md). */
 static void report_stage(const ss_solver *sv, const ss_table *summary, FILE *f)
 {
-    char a[48], b[48];
+    char a[48], b[48], c[48];
     fprintf(f, "\nStage: input source %s, output node %s", sv->stage.in, sv->stage.out);
     if (sv->stage.load_ohm > 0.0)
         fprintf(f, ", load %s", eng(a, sizeof a, sv->stage.load_ohm, "ohm"));
@@ -27,8 +29,15 @@ static void report_stage(const ss_solver *sv, const ss_table *summary, FILE *f)
     double bw = ss_table_lookup(summary, "bandwidth_hz", 0);
     double zin = ss_table_lookup(summary, "zin_mid_ohm", 0);
     double zout = ss_table_lookup(summary, "zout_mid_ohm", 0);
-    fprintf(f, "  mid-band gain   %.3f dB (x%.4g) at %s\n", g_db, pow(10.0, g_db / 20.0),
-            eng(a, sizeof a, f_mid, "Hz"));
+    /* a current-driven stage's gain is a transimpedance */
+    int e_in = circuit_find_elem(sv->ckt, sv->stage.in);
+    const char *g_unit = e_in >= 0 && elem_is(&sv->elem[e_in], DEV_DRIVES_CURRENT) ? "V/A" : "V/V";
+    fprintf(f, "  mid-band gain   %.3f dB (%s) at %s\n", g_db,
+            eng(a, sizeof a, pow(10.0, g_db / 20.0), g_unit), eng(b, sizeof b, f_mid, "Hz"));
+    double ph = sv->stage_phase_mid_deg;
+    fprintf(f, "  mid-band phase  %.1f deg%s\n", ph,
+            fabs(fabs(ph) - 180.0) < 45.0 ? " (inverting)" : fabs(ph) < 45.0 ? " (non-inverting)"
+                                                                             : "");
     fprintf(f, "  low -3 dB       %s\n",
             isnan(f_lo) ? "not in the swept range" : eng(a, sizeof a, f_lo, "Hz"));
     fprintf(f, "  high -3 dB      %s\n",
@@ -36,12 +45,24 @@ static void report_stage(const ss_solver *sv, const ss_table *summary, FILE *f)
     if (!isnan(bw))
         fprintf(f, "  bandwidth       %s\n", eng(a, sizeof a, bw, "Hz"));
     fprintf(f, "  Zin  (mid-band) %s\n", eng(a, sizeof a, zin, "ohm"));
-    fprintf(f, "  Zout (mid-band) %s\n", eng(b, sizeof b, zout, "ohm"));
-    if (sv->stage.load_ohm > 0.0 && zout * 10.0 > sv->stage.load_ohm)
+    double load = sv->stage.load_ohm;
+    const element *drawn = sv->stage_load_elem1 > 0 ? &sv->elem[sv->stage_load_elem1 - 1] : NULL;
+    double own = sv->stage_zout_own_ohm;
+    if (drawn) {
+        fprintf(f, "  Zout (mid-band) %s with the load %s (%s) in the netlist\n",
+                eng(b, sizeof b, zout, "ohm"), drawn->name, eng(c, sizeof c, load, "ohm"));
+        fprintf(f, "  Zout of the stage alone %s (without %s: what the load sees)\n",
+                eng(b, sizeof b, own, "ohm"), drawn->name);
+    } else {
+        fprintf(f, "  Zout (mid-band) %s\n", eng(b, sizeof b, zout, "ohm"));
+    }
+    if (load > 0.0 && own * 10.0 > load)
         fprintf(f,
-                "  warning: Zout is not ten times below the %s load; loading costs gain "
-                "(rule of thumb: Zout <= load/10)\n",
-                eng(a, sizeof a, sv->stage.load_ohm, "ohm"));
+                "  warning: the stage's own Zout %s is not ten times below the %s load; loading "
+                "costs gain (rule of thumb: Zout <= load/10)%s\n",
+                eng(b, sizeof b, own, "ohm"), eng(a, sizeof a, load, "ohm"),
+                drawn ? "" : " [no resistor of the load's value from the output to ground in "
+                             "the netlist: compared with the Zout solved]");
 }
 
 #define REPORT_MAX_NODES 100
@@ -66,7 +87,9 @@ void ss_report_write(const ss_solver *sv, const ss_table *summary, FILE *f)
         if (shown < n_out)
             fprintf(f, "  ... and %d more (all in op.csv; --nodes names the ones to show)\n",
                     n_out - shown);
-        /* one table per kind that has one, in the registry's order */
+        /* one table per kind that has one, in the registry's order; the power column is
+         * op.csv's power row (op_power_w) */
+        double *scratch = op_power_begin(sv);
         for (int k = 0; k < device_count(); k++) {
             const dev_ops *ops = device_at(k);
             if (!ops->report_line)
@@ -79,7 +102,8 @@ void ss_report_write(const ss_solver *sv, const ss_table *summary, FILE *f)
                 if (!any++)
                     fputs(ops->report_heading, f);
                 char line[512];
-                ops->report_line(el, sv->x_op, vt, sv->ckt->opt.gmin, line, sizeof line);
+                ops->report_line(el, sv->x_op, vt, sv->ckt->opt.gmin,
+                                 op_power_w(sv, el, sv->x_op, scratch), line, sizeof line);
                 fprintf(f, "%s\n", line);
             }
         }

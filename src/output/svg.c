@@ -607,6 +607,35 @@ static void draw_half_power_label(ss_strbuf *b, label_room *room)
     put_boxed_label(b, s, C_MUTED, text);
 }
 
+/* The plot title in at most max_w px: whole when its estimated width fits, else cut at a
+ * character boundary with an ellipsis (U+2026) so the estimate, ellipsis included, fits. Bold
+ * glyphs run wider than GLYPH_EM; TITLE_EM is a margin of our own on the safe side. */
+#define FONT_TITLE 17.0
+#define TITLE_EM 0.66
+static void fit_title(const char *t, char *buf, size_t len, double max_w)
+{
+    size_t max_chars = (size_t)(max_w / (TITLE_EM * FONT_TITLE));
+    if (visible_len(t) <= max_chars) {
+        snprintf(buf, len, "%s", t);
+        return;
+    }
+    /* keep max_chars - 1 characters (the ellipsis is the last one), whole UTF-8 sequences */
+    size_t bytes = 0, chars = 0;
+    while (t[bytes] && bytes + 8 < len) {
+        if (((unsigned char)t[bytes] & 0xC0) != 0x80) {
+            if (chars + 1 >= max_chars)
+                break;
+            chars++;
+        }
+        bytes++;
+    }
+    while (bytes > 0 && ((unsigned char)t[bytes] & 0xC0) == 0x80) /* a whole sequence */
+        bytes--;
+    while (bytes > 0 && t[bytes - 1] == ' ')
+        bytes--;
+    snprintf(buf, len, "%.*s\xE2\x80\xA6", (int)bytes, t);
+}
+
 static void draw_axis_titles(ss_strbuf *b, const svg_bode_input *in)
 {
     svg_put(b, "<g font-size=\"13\" fill=\"" C_TEXT "\">\n");
@@ -619,9 +648,12 @@ static void draw_axis_titles(ss_strbuf *b, const svg_bode_input *in)
     svg_put_text(b, 0.5 * (PLOT_X0 + PLOT_X1), FREQ_TITLE_Y, "middle", "", "Frequency");
     svg_put(b, "</g>\n");
 
-    if (in->title)
+    if (in->title) {
+        char title[512];
+        fit_title(in->title, title, sizeof title, PLOT_X1 - PLOT_X0);
         svg_put_text(b, PLOT_X0, TITLE_Y, "start",
-                 "font-size=\"17\" font-weight=\"bold\" fill=\"" C_TEXT "\"", in->title);
+                     "font-size=\"17\" font-weight=\"bold\" fill=\"" C_TEXT "\"", title);
+    }
     if (!isnan(in->gain_mid_db)) {
         char num[64], note[96];
         svg_format_tick(num, sizeof num, in->gain_mid_db, 0.1);

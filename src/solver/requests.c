@@ -52,6 +52,64 @@ ss_status ss_solver_select_nodes(ss_solver *sv, const char *const *names, int n,
     return SS_OK;
 }
 
+/* op.csv rows counted (the element's rows with x NULL) */
+static void count_row(void *vn, const char *quantity, const char *elem_name, double value)
+{
+    (void)quantity;
+    (void)elem_name;
+    (void)value;
+    (*(int *)vn)++;
+}
+
+int solver_device_n_rows(const element *e)
+{
+    int n = 0;
+    if (e->ops->report)
+        e->ops->report(e, NULL, 0.0, 0.0, count_row, &n);
+    return n + elem_has_power(e);
+}
+
+ss_status ss_solver_select_devices(ss_solver *sv, const char *const *names, int n,
+                                   ss_error *err)
+{
+    if (!names || n <= 0) {
+        ss_free(sv->dc_devices);
+        sv->dc_devices = NULL;
+        sv->n_dc_devices = 0;
+        return SS_OK;
+    }
+    int *sel = ss_alloc((size_t)n * sizeof *sel);
+    if (!sel)
+        return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
+    int count = 0;
+    for (int k = 0; k < n; k++) {
+        char low[1024]; /* a name that does not fit is no element: never cut it to one that is */
+        int idx = names[k] && name_lower_copy(names[k], low, sizeof low)
+                      ? circuit_find_elem(sv->ckt, low)
+                      : -1;
+        if (idx < 0) {
+            ss_free(sel);
+            return err_set(err, SS_ERR_INPUT, NULL, 0, "'%s' is no element of the circuit",
+                           names[k] ? names[k] : "(null)");
+        }
+        if (solver_device_n_rows(&sv->elem[idx]) == 0) {
+            ss_free(sel);
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "'%s' (a %s) has no DC quantities to write (no op.csv rows)",
+                           names[k], sv->elem[idx].ops->kind_name);
+        }
+        int dup = 0;
+        for (int j = 0; j < count; j++)
+            dup |= sel[j] == idx;
+        if (!dup)
+            sel[count++] = idx;
+    }
+    ss_free(sv->dc_devices);
+    sv->dc_devices = sel;
+    sv->n_dc_devices = count;
+    return SS_OK;
+}
+
 ss_status ss_solver_set_stage(ss_solver *sv, const char *in_source, const char *out_node,
                               ss_error *err)
 {

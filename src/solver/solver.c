@@ -128,6 +128,7 @@ void ss_solver_destroy(ss_solver **psv)
     ss_solver *sv = *psv;
     solver_unprepare(sv);
     ss_free(sv->out_nodes);
+    ss_free(sv->dc_devices);
     ss_free(sv->node_name);
     ss_free(sv->node_internal);
     ss_free(sv->elem);

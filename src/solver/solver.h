@@ -42,6 +42,15 @@ struct ss_solver {
     large_signal_spec ls;
     int *out_nodes; /* the nodes whose per-node results are written; NULL every netlist node */
     int n_out_nodes;
+    /* what the report shows of the last stage run beyond stage_summary.csv (analysis/stage.c,
+     * stage_own_zout): for the load comparison the element
+     * drawn in the netlist as the named load + 1 (0: none found), and the mid-band output
+     * impedance of the stage without it (ohm; the solved Zout when none was found) */
+    int stage_load_elem1;
+    double stage_zout_own_ohm;
+    double stage_phase_mid_deg; /* the gain's phase at mid-band, (-180, 180] */
+    int *dc_devices; /* the elements whose op.csv rows join the DC sweep's table; NULL none */
+    int n_dc_devices;
 
     /* nodes: the circuit's, then the internal ones setup adds */
     const char **node_name;
@@ -138,6 +147,9 @@ static inline int solver_out_node(const ss_solver *sv, int k)
 {
     return sv->out_nodes ? sv->out_nodes[k] : k + 1;
 }
+/* How many op.csv rows element e has (its kind's report rows and its power row): the columns
+ * it adds to the DC sweep's table when selected (ss_solver_select_devices). */
+SS_HIDDEN int solver_device_n_rows(const element *e);
 /* The error for element e whose model, scaled to the context's temperature, failed: why. */
 SS_HIDDEN ss_status solver_temp_error(const ss_solver *sv, const element *e, const char *why,
                                       ss_error *err);

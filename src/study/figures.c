@@ -92,7 +92,7 @@ static int freq_figure_seen(const ss_limits *limits, int i)
 static ss_status freq_needs_stage(const limit *lim, ss_error *err)
 {
     return err_set(err, SS_ERR_INPUT, lim->file, lim->line,
-                   "limit on %s needs a stage: add `.stage in=SOURCE out=NODE`", lim->quantity);
+                   "limit on %s needs a stage: add `.stage in=SOURCE out=NODE`", lim->label);
 }
 
 void figures_names(const ss_solver *sv, const ss_limits *limits, dev_report_fn fn, void *sink)
@@ -166,6 +166,9 @@ static const char *missing_because(const ss_solver *sv, const char *q)
                               : "the stage source's kind names its input figures: vin_..._v "
                                 "and thd_amp_v for a V source, iin_..._a and thd_amp_a for an "
                                 "I source";
+    if (strncmp(q, "power(", 6) == 0)
+        return "power(NAME) is the DC power of an element of the netlist that carries it: a "
+               "resistor, source, diode or transistor, not a capacitor or inductor";
     return "the figures are the op.csv quantities of this circuit's nodes and devices, the "
            "stage summary metrics, the noise and large-signal figures and QUANTITY@FREQ; "
            "docs/checks.md lists them";
@@ -187,7 +190,7 @@ ss_status ss_limits_check_names(const ss_limits *limits, const ss_solver *sv, ss
         const limit *lim = &limits->items[i];
         if (!nc.found[i])
             st = err_set(err, SS_ERR_INPUT, lim->file, lim->line,
-                         "limit on '%s': no such figure (%s)", lim->quantity,
+                         "limit on '%s': no such figure (%s)", lim->label,
                          missing_because(sv, lim->quantity));
     }
     ss_free(nc.found);
@@ -305,9 +308,11 @@ ss_status ss_check_evaluate(const ss_limits *l, const ss_table *figures, ss_tabl
             return err_set(err, SS_ERR_INPUT, lim->file, lim->line,
                            "limit on '%s': no such figure in this run (figures are the op.csv "
                            "quantities, the stage summary metrics and QUANTITY@FREQ)",
-                           lim->quantity);
+                           lim->label);
         }
-        double *row = table_add_row(t, lim->quantity);
+        if (lim->magnitude)
+            v = fabs(v);
+        double *row = table_add_row(t, lim->label);
         if (!row) {
             ss_table_destroy(&t);
             return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");

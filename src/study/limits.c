@@ -88,6 +88,33 @@ static ss_status scan_quantity(const char **pp, limit *lim, const char *file, in
     lim->base[q] = '\0';
     if (q == 0)
         return err_set(err, SS_ERR_INPUT, file, line, "limit: missing the quantity");
+    if (depth != 0 || (*p && !isspace((unsigned char)*p) && *p != '@' && *p != '<' &&
+                       *p != '>' && *p != '='))
+        return err_set(err, SS_ERR_INPUT, file, line,
+                       "limit on %s: unbalanced parentheses or a name too long", lim->base);
+    /* abs(QUANTITY): the bounds are on the magnitude (a PNP's vce(q) >= 3 as abs(vce(q)) >= 3) */
+    if (strncmp(lim->base, "abs(", 4) == 0 || strcmp(lim->base, "abs") == 0) {
+        size_t n = strlen(lim->base);
+        if (n < 6 || lim->base[n - 1] != ')')
+            return err_set(err, SS_ERR_INPUT, file, line,
+                           "limit on %s: write abs(QUANTITY), a figure's name inside the "
+                           "parentheses (abs(vce(q1)) >= 3)",
+                           lim->base);
+        memmove(lim->base, lim->base + 4, n - 5);
+        lim->base[n - 5] = '\0';
+        /* the inner text must be one figure name with its own parentheses balanced */
+        int d = 0, ok = 1;
+        for (const char *c = lim->base; *c && ok; c++) {
+            d += *c == '(' ? 1 : *c == ')' ? -1 : 0;
+            ok = d >= 0;
+        }
+        if (!ok || d != 0 || strncmp(lim->base, "abs(", 4) == 0)
+            return err_set(err, SS_ERR_INPUT, file, line,
+                           "limit on abs(%s): write abs(QUANTITY), one figure's name inside the "
+                           "parentheses (abs(vce(q1)) >= 3)",
+                           lim->base);
+        lim->magnitude = 1;
+    }
     skip_ws(&p);
     if (*p == '@') {
         p++;
@@ -106,6 +133,10 @@ static ss_status scan_quantity(const char **pp, limit *lim, const char *file, in
         snprintf(lim->quantity, sizeof lim->quantity, "%s@%.9g", lim->base, lim->freq_hz);
     else
         snprintf(lim->quantity, sizeof lim->quantity, "%s", lim->base);
+    if (lim->magnitude && lim->at_freq)
+        snprintf(lim->label, sizeof lim->label, "abs(%s)@%.9g", lim->base, lim->freq_hz);
+    else
+        snprintf(lim->label, sizeof lim->label, lim->magnitude ? "abs(%s)" : "%s", lim->quantity);
     *pp = p;
     return SS_OK;
 }
@@ -156,7 +187,7 @@ static ss_status scan_bounds(const char **pp, limit *lim, const char *file, int 
         if (lim->hi < lim->lo)
             return err_set(err, SS_ERR_INPUT, file, line,
                            "limit on %s: the upper bound %g is below the lower bound %g",
-                           lim->quantity, lim->hi, lim->lo);
+                           lim->label, lim->hi, lim->lo);
     }
     *pp = p;
     return SS_OK;
@@ -164,7 +195,7 @@ bad:
     return err_set(err, SS_ERR_INPUT, file, line,
                    "limit on %s: cannot read '%s' (write LO .. HI, >= LO, <= HI or "
                    "= NOMINAL +- TOL[%%])",
-                   lim->quantity, rel);
+                   lim->label, rel);
 }
 
 ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, int line,
@@ -184,7 +215,7 @@ ss_status limits_parse_line(ss_limits *l, const char *text, const char *file, in
     skip_ws(&p);
     if (*p)
         return err_set(err, SS_ERR_INPUT, file, line, "limit on %s: unexpected '%s' at the end",
-                       lim.quantity, p);
+                       lim.label, p);
     lim.file = file;
     lim.line = line;
     if (l->n == l->cap) {

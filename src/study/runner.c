@@ -82,6 +82,13 @@ static ss_status add_tolerance(ss_study *s, const char *spec, int netlist_rules,
 ss_status ss_study_create(const char *netlist_path, const ss_override *sets, int n_sets,
                           ss_study **out, ss_error *err)
 {
+    return ss_study_create_models(netlist_path, sets, n_sets, NULL, 0, out, err);
+}
+
+ss_status ss_study_create_models(const char *netlist_path, const ss_override *sets, int n_sets,
+                                 const char *const *model_dirs, int n_model_dirs, ss_study **out,
+                                 ss_error *err)
+{
     ss_study *s = ss_alloc(sizeof *s);
     if (!s)
         return err_set(err, SS_ERR_NOMEM, NULL, 0, "out of memory");
@@ -101,7 +108,8 @@ ss_status ss_study_create(const char *netlist_path, const ss_override *sets, int
     }
     s->n_sets = n_sets;
     s->shard_k = s->shard_n = 1;
-    ss_status st = ss_circuit_parse_file(netlist_path, sets, n_sets, &s->nominal, err);
+    ss_status st = ss_circuit_parse_file_models(netlist_path, sets, n_sets, model_dirs,
+                                                n_model_dirs, &s->nominal, err);
     if (st == SS_OK)
         st = ss_solver_create(s->nominal, &s->nominal_sv, err);
     if (st != SS_OK) {
@@ -873,7 +881,8 @@ static void *worker(void *arg)
             for (int k = 0; fail == -1 && k < s->limits->n; k++) {
                 const limit *lim = &s->limits->items[k];
                 double v = sh->lim_fig[k] < 0 ? SS_NAN : row[sh->n_fixed + sh->lim_fig[k]];
-                if (!(v >= lim->lo && v <= lim->hi))
+                double x = limit_judged(lim, v);
+                if (!(x >= lim->lo && x <= lim->hi))
                     fail = k;
             }
             sh->fail_idx[i] = fail;

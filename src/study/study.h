@@ -3,11 +3,16 @@
 #ifndef SS_STUDY_H
 #define SS_STUDY_H
 
+#include <math.h>
+
 #include "analysis/analysis.h"
 #include "netlist/netlist.h"
 
 typedef struct limit {
-    char quantity[128]; /* lower case; "gain_db@1000" style when at a frequency */
+    char quantity[128]; /* the figure judged, lower case; "gain_db@1000" style when at a
+                           frequency: the name figures, points and lookups go by */
+    char label[136];    /* the limit as reports name it: quantity, or abs(QUANTITY) */
+    int magnitude;      /* abs(...): the bounds apply to the figure's magnitude */
     char base[64];      /* the quantity without its frequency */
     int at_freq;
     double freq_hz;
@@ -15,6 +20,9 @@ typedef struct limit {
     const char *file;
     int line;
 } limit;
+
+/* The number a limit's bounds apply to: the figure, or its magnitude for abs(...). */
+static inline double limit_judged(const limit *lim, double v) { return lim->magnitude ? fabs(v) : v; }
 
 struct ss_limits {
     limit *items;

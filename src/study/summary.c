@@ -26,8 +26,10 @@ static double figure_margin(double v, const limit *const *lim, int n_lim)
     if (isnan(v))
         return -HUGE_VAL;
     double m = HUGE_VAL;
-    for (int k = 0; k < n_lim; k++)
-        m = fmin(m, fmin(v - lim[k]->lo, lim[k]->hi - v));
+    for (int k = 0; k < n_lim; k++) {
+        double x = limit_judged(lim[k], v);
+        m = fmin(m, fmin(x - lim[k]->lo, lim[k]->hi - x));
+    }
     return m;
 }
 
@@ -46,7 +48,7 @@ ss_status ss_study_summarize(const ss_table *pts, const ss_limits *l, ss_table *
             return err_set(err, SS_ERR_INPUT, l->items[k].file, l->items[k].line,
                            "limit on '%s': the points have no such figure (a typo, or a figure "
                            "this study did not compute)",
-                           l->items[k].quantity);
+                           l->items[k].label);
     }
     int status_col = ss_table_col_index(pts, "status");
     /* with limits: per limited figure its worst point (the smallest margin to its limits),
@@ -202,8 +204,9 @@ ss_status ss_study_write_plot(const ss_table *pts, const ss_limits *l, int histo
         p->lo = -HUGE_VAL;
         p->hi = HUGE_VAL;
         p->has_limit = 0;
+        /* a band on the magnitude (abs(...)) is not a band on the plotted signed values */
         for (int k = 0; limited && k < l->n; k++)
-            if (strcmp(l->items[k].quantity, p->figure) == 0) {
+            if (strcmp(l->items[k].quantity, p->figure) == 0 && !l->items[k].magnitude) {
                 p->lo = fmax(p->lo, l->items[k].lo);
                 p->hi = fmin(p->hi, l->items[k].hi);
                 p->has_limit = 1;

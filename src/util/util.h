@@ -95,7 +95,7 @@ SS_HIDDEN int strbuf_read_file(ss_strbuf *b, const char *path, size_t max_bytes,
  * naming its limit): strerror for SS_READ_OPEN and SS_READ_IO. */
 SS_HIDDEN const char *strbuf_read_error_text(int code, int sys_errno);
 
-/* "4.70 k" style text of v with unit (4 significant digits, SI prefix f .. T; "-" for NaN):
+/* "4.70 k" style text of v with unit (4 significant digits, SI prefix y .. Y; "-" for NaN):
  * the report's notation (eng.c). Returns buf. */
 SS_HIDDEN const char *fmt_eng(char *buf, size_t len, double v, const char *unit);
 

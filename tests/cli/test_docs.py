@@ -461,7 +461,8 @@ VALUES = {"DIR": "out/probe", "NAME=VALUE": "r1=1k", "SRC": "vsens", "NODE": "ou
           "LO,HI": "-40,85", "E12\\|E24\\|E96": "E12",
           "E6\\|E12\\|E24\\|E48\\|E96\\|E192": "E12", "F1..F2": "1..1k", "a\\|none": "a",
           "VOLTS": "12", "AMPS": "1m", "GAIN": "10",
-          "E6\\|E12\\|E24\\|E48\\|E96\\|E192\\|none": "E12"}
+          "E6\\|E12\\|E24\\|E48\\|E96\\|E192\\|none": "E12",
+          "X,Y,...": "q1"}
 SPEC = {"--vary": "r1=list:1k", "--tol": "r1=5%", "--supply-tol": "vcc=10%",
         "--beta-range": "0.5x,2x", "--match": "r1,r2=0.5"}
 

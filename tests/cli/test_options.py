@@ -41,6 +41,7 @@ c1 mid 0 1n
 d1 mid 0 dx
 .model dx d is=1e-14
 .ac dec 5 10 1meg
+.dc v1 0 1 0.5
 .stage in=v1 out=mid
 .noise v(mid) v1
 .expect v(mid) >= -1
@@ -487,9 +488,9 @@ def help_options(binary, cmd):
 # A valid value for every option, and what it needs beside it.
 SAMPLE = {"-o": ["{T}/o2"], "--out-dir": ["{T}/o3"], "--set": ["r2=12k"],
           "--in": ["v1", "--out", "mid"], "--out": ["mid", "--in", "v1"], "--load": ["47k"],
-          "--nodes": ["mid"], "--ls-freq": ["2k"], "--thd-amp": ["100m"],
-          "--thd-target": ["2"], "--junit": ["{T}/j.xml"], "--html": ["{T}/r.html"],
-          "--limits": ["{T}/l.limits"],
+          "--nodes": ["mid"], "--devices": ["d1"], "--models": ["{T}"], "--ls-freq": ["2k"],
+          "--thd-amp": ["100m"], "--thd-target": ["2"], "--junit": ["{T}/j.xml"],
+          "--html": ["{T}/r.html"], "--limits": ["{T}/l.limits"],
           "--min-yield": ["0.5"], "--vary": ["r1=list:5k,10k"], "--tol": ["r1=5%"],
           "--trials": ["4"], "--seed": ["7"], "--threads": ["2"], "--shard": ["1/2"],
           "--temps": ["-20,70"], "--series": ["E24"], "--beta-range": ["0.5x,2x"],

@@ -149,6 +149,82 @@ static void test_render_escapes_title(void **state)
     strbuf_clear(&b);
 }
 
+/* Every <text> of doc inside the page's frame (0 .. 860 px wide, the writer's page), its
+ * extent estimated from its characters: 0.6 em per glyph for regular text (a common rule of
+ * thumb for sans-serif fonts, from memory) and 0.66 em for bold, from its x, anchor and font
+ * size (its own, else 13 inside the axis-title group, else 11). Rotated texts are skipped.
+ * Returns how many texts were checked; fails on the first outside. */
+static int assert_texts_inside(const char *doc, double page_w, double right_limit_title)
+{
+    int n = 0;
+    for (const char *p = strstr(doc, "<text "); p; p = strstr(p + 1, "<text ")) {
+        const char *gt = strchr(p, '>'), *end = strstr(p, "</text>");
+        assert_non_null(gt);
+        assert_non_null(end);
+        char attrs[512];
+        size_t alen = (size_t)(gt - p) < sizeof attrs - 1 ? (size_t)(gt - p) : sizeof attrs - 1;
+        memcpy(attrs, p, alen);
+        attrs[alen] = '\0';
+        if (strstr(attrs, "rotate("))
+            continue;
+        double x = atof(strstr(attrs, "x=\"") + 3);
+        const char *fs = strstr(attrs, "font-size=\"");
+        double font = fs ? atof(fs + 11) : 11.0;
+        int bold = strstr(attrs, "bold") != NULL;
+        /* displayed characters: entities count as one, UTF-8 continuation bytes as none */
+        double chars = 0.0;
+        for (const char *c = gt + 1; c < end; c++) {
+            if (*c == '&') {
+                const char *semi = strchr(c, ';');
+                c = semi ? semi : c;
+                chars += 1.0;
+            } else if (((unsigned char)*c & 0xC0) != 0x80) {
+                chars += 1.0;
+            }
+        }
+        double w = chars * (bold ? 0.66 : 0.6) * font;
+        double lo = strstr(attrs, "\"middle\"") ? x - w / 2 : strstr(attrs, "\"end\"") ? x - w : x;
+        double hi = lo + w;
+        if (lo < 0.0 || hi > page_w || (bold && hi > right_limit_title))
+            fail_msg("text outside the frame (%.1f .. %.1f px): %.*s", lo, hi, (int)(end - p), p);
+        n++;
+    }
+    return n;
+}
+
+/* A 200-character title (of wide and of multi-byte characters) stays inside the plot frame:
+ * cut with an ellipsis, every text element within the page. */
+static void test_render_long_title_stays_inside_the_frame(void **state)
+{
+    (void)state;
+    char title[1024] = "";
+    for (int i = 0; i < 20; i++)
+        strcat(title, "Geophone WMWM"); /* 13 characters, 260 in all */
+    title[200] = '\0';
+    sweep s;
+    make_high_pass(&s, title);
+    ss_strbuf b = render_ok(&s);
+    assert_true(assert_texts_inside(b.data, 860.0, 830.0) > 10);
+    assert_non_null(strstr(b.data, "\xE2\x80\xA6</text>")); /* the ellipsis ends the title */
+    assert_null(strstr(b.data, title));
+    strbuf_clear(&b);
+    /* 200 characters of two bytes each (U+00B5 micro sign): cut between whole characters */
+    char micro[512] = "";
+    for (int i = 0; i < 200; i++)
+        strcat(micro, "\xC2\xB5");
+    make_high_pass(&s, micro);
+    b = render_ok(&s);
+    assert_true(assert_texts_inside(b.data, 860.0, 830.0) > 10);
+    assert_non_null(strstr(b.data, "\xC2\xB5\xE2\x80\xA6</text>"));
+    strbuf_clear(&b);
+    /* a short title is kept whole */
+    make_high_pass(&s, "Geophone preamp");
+    b = render_ok(&s);
+    assert_non_null(strstr(b.data, ">Geophone preamp</text>"));
+    assert_true(assert_texts_inside(b.data, 860.0, 830.0) > 10);
+    strbuf_clear(&b);
+}
+
 /* A sweep inside one decade has at most one decade line: the ticks fall back to multiples. */
 static void test_render_sweep_within_one_decade_labels_multiples(void **state)
 {
@@ -379,6 +455,7 @@ int main(void)
         cmocka_unit_test(test_render_labels_low_corner),
         cmocka_unit_test(test_render_frequency_ticks_use_si_prefixes),
         cmocka_unit_test(test_render_escapes_title),
+        cmocka_unit_test(test_render_long_title_stays_inside_the_frame),
         cmocka_unit_test(test_render_sweep_within_one_decade_labels_multiples),
         cmocka_unit_test(test_render_flat_response_is_finite),
         cmocka_unit_test(test_render_rejects_single_point),
