@@ -488,8 +488,8 @@ int cmd_snap(const cli_args *a)
             print_figure(ss_table_get(figs, i, fp_col), name);
             print_figure(shift, name);
             /* a dB figure moves by dB, not by a percentage of its dB value */
-            if (is_db)
-                printf(" %+.4f dB", shift);
+            if (is_db) /* the shift column is already in dB */
+                printf(" %9s", "");
             else if (isnan(pct))
                 printf(" %9s", "-");
             else

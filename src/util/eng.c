@@ -97,7 +97,16 @@ const char *ss_format_figure(char *buf, size_t len, double v, const char *name)
     /* logarithmic and angular units and percentages take no SI prefix */
     if (isfinite(v) && (strcmp(unit, "dB") == 0 || strcmp(unit, "deg") == 0 ||
                         strcmp(unit, "%") == 0)) {
-        snprintf(buf, len, "%.4g %s", v, unit);
+        /* four significant digits, never an exponent: a shift of 7.7e-05 dB reads
+         * -0.00007687 dB */
+        double m = fabs(v);
+        if (m == 0.0 || (m >= 1e-3 && m < 1e4))
+            snprintf(buf, len, "%.4g %s", v, unit);
+        else if (m < 1e-3) {
+            int dec = 3 - (int)floor(log10(m));
+            snprintf(buf, len, "%.*f %s", dec > 15 ? 15 : dec, v, unit);
+        } else
+            snprintf(buf, len, "%.0f %s", v, unit);
         return buf;
     }
     return fmt_eng(buf, len, v, unit);
