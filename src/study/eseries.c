@@ -58,26 +58,10 @@ ss_status ss_eseries_nearest(int series, double value, double *out_value, ss_err
     if (n == 0)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "unknown series E%d (use E6, E12, E24, E48, E96 or E192)", series);
-    if (!(value > 0.0) || !isfinite(value))
+    long k;
+    if (eseries_lattice_index(series, value, &k) != 0)
         return err_set(err, SS_ERR_INPUT, NULL, 0, "cannot snap %g to a preferred value", value);
-    /* nearest on a logarithmic scale: the series are geometric, so "nearest" means the
-     * smallest ratio, checked in this decade and the neighbours' edge values */
-    double decade = pow(10.0, floor(log10(value)));
-    double best = 0.0, best_err = HUGE_VAL;
-    for (int d = -1; d <= 1; d++) {
-        double dec = decade * pow(10.0, d);
-        for (int i = 0; i < n; i++) {
-            double cand = tab[i] / scale * dec;
-            double e = fabs(log(cand / value));
-            if (e < best_err) {
-                best_err = e;
-                best = cand;
-            }
-        }
-    }
-    /* round away the binary noise of the decade scaling: 4 significant digits */
-    double mag = pow(10.0, floor(log10(best)) - 3.0);
-    *out_value = round(best / mag) * mag;
+    *out_value = eseries_lattice_value(series, k);
     return SS_OK;
 }
 
@@ -98,9 +82,15 @@ double eseries_lattice_value(int series, long k)
         return SS_NAN;
     long d = floor_div(k, n);
     long i = k - d * n;
-    /* the significand times an exact power of ten: 4.7 * 1e3 as 47 * 1e2, then rounded to
-     * the table's digits so that every index gives one and the same double */
-    double v = tab[i] * pow(10.0, (double)d) / scale;
+    /* the significand's digits times or over an exact power of ten (10^0 .. 10^22 are exact
+     * doubles): 4.7k as 47 * 10^2, 10 uF as 10 / 10^6 -- one correctly rounded operation, so
+     * the value is the double nearest the preferred value (no 9.999999999999999e-06) */
+    int p = (int)d - (scale == 100.0 ? 2 : 1);
+    if (p >= 0 && p <= 22)
+        return tab[i] * pow(10.0, (double)p);
+    if (p < 0 && p >= -22)
+        return tab[i] / pow(10.0, (double)-p);
+    double v = tab[i] * pow(10.0, (double)p); /* beyond 1e22: rounded to the table's digits */
     double mag = pow(10.0, floor(log10(v)) - 3.0);
     return round(v / mag) * mag;
 }
