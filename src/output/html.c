@@ -102,7 +102,14 @@ static void format_shown(char *buf, size_t len, double v, const char *unit)
         return;
     }
     if (!takes_prefix(unit) || v == 0.0) {
-        snprintf(buf, len, "%.6g%s%s", v, unit[0] ? " " : "", unit);
+        double m = fabs(v);
+        if (m == 0.0 || (m >= 1e-3 && m < 1e6)) /* dB, %, degrees, ratios: no exponent */
+            snprintf(buf, len, "%.6g%s%s", v, unit[0] ? " " : "", unit);
+        else if (m < 1e-3) {
+            int dec = 5 - (int)floor(log10(m));
+            snprintf(buf, len, "%.*f%s%s", dec > 15 ? 15 : dec, v, unit[0] ? " " : "", unit);
+        } else
+            snprintf(buf, len, "%.6g%s%s", v, unit[0] ? " " : "", unit);
         return;
     }
     static const char *const prefix[] = {"f", "p", "n", "\xC2\xB5", "m", "", "k", "M", "G", "T"};

@@ -8,6 +8,7 @@
 
 #include "output/output.h"
 #include "output/svg.h"
+#include "util/util.h"
 
 #define PAGE_W 860.0
 #define PLOT_X0 96.0
@@ -40,12 +41,13 @@ typedef struct axis {
     int log; /* log10 scale */
 } axis;
 
-/* A tick label: plain decimals for everyday magnitudes, %.3g beyond them. */
+/* A tick label: plain decimals for everyday magnitudes, an SI prefix beyond them (750 u, not
+ * 0.00075). */
 static void tick_label(char *buf, size_t len, double v, double step)
 {
     double a = fabs(v);
     if (a != 0.0 && (a < 1e-3 || a >= 1e6 || step < 1e-4))
-        snprintf(buf, len, "%.3g", v);
+        fmt_eng(buf, len, v, "");
     else
         svg_format_tick(buf, len, v, step);
 }
@@ -153,7 +155,11 @@ static void draw_bound(ss_strbuf *b, double y0, const axis *ax, double v, int ve
     if (!isfinite(v) || frac_of(ax, v) < -1e-9 || frac_of(ax, v) > 1.0 + 1e-9)
         return;
     char l[96], num[48];
-    snprintf(num, sizeof num, "%.6g", v);
+    double a = fabs(v);
+    if (a != 0.0 && (a < 1e-3 || a >= 1e6))
+        fmt_eng(num, sizeof num, v, "");
+    else
+        snprintf(num, sizeof num, "%.6g", v);
     snprintf(l, sizeof l, "%s %s", side, num);
     if (vertical) {
         double x = px_x(ax, v);
