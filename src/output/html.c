@@ -105,7 +105,7 @@ static void format_shown(char *buf, size_t len, double v, const char *unit)
         double m = fabs(v);
         if (m == 0.0 || (m >= 1e-3 && m < 1e6)) /* dB, %, degrees, ratios: no exponent */
             snprintf(buf, len, "%.6g%s%s", v, unit[0] ? " " : "", unit);
-        else if (m < 1e-3) {
+        else if (m < 1e-3 && m >= 1e-9) {
             int dec = 5 - (int)floor(log10(m));
             snprintf(buf, len, "%.*f%s%s", dec > 15 ? 15 : dec, v, unit[0] ? " " : "", unit);
         } else
