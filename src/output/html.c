@@ -37,6 +37,26 @@ static void put(ss_strbuf *b, const char *s) { strbuf_append(b, s, strlen(s)); }
  * as spaces, bytes that are not UTF-8 as U+FFFD (xml.c), so the page stays valid UTF-8. */
 static void put_text(ss_strbuf *b, const char *s) { xml_put_text(b, s ? s : ""); }
 
+/* The report's device tables as preformatted blocks, one per kind (report_device_tables). */
+typedef struct device_pre {
+    ss_strbuf *b;
+    int open;
+} device_pre;
+
+static void put_device_line(void *ctx, const char *heading, const char *line)
+{
+    device_pre *p = ctx;
+    if (heading) {
+        if (p->open)
+            put(p->b, "</pre>\n");
+        put(p->b, "<pre class=\"devices\">");
+        put_text(p->b, heading);
+        p->open = 1;
+    }
+    put_text(p->b, line);
+    put(p->b, "\n");
+}
+
 /* ---- numbers ------------------------------------------------------------------------------ */
 
 /* The unit of a figure from its name, as the CSV files name them: v(..), vbe(..) volts, i(..),
@@ -428,30 +448,10 @@ ss_status ss_html_add_run(ss_html *h, const ss_solver *sv, const ss_table *summa
             strbuf_printf(b, "<p class=\"more\">&hellip; and %d more node voltages (all in op.csv)"
                              "</p>\n", c.more);
         /* the device tables of the text report */
-        double vt = analysis_vt(sv);
-        double *scratch = op_power_begin(sv); /* the power column is op.csv's power row */
-        for (int k = 0; k < device_count(); k++) {
-            const dev_ops *ops = device_at(k);
-            if (!ops->report_line)
-                continue;
-            int any = 0;
-            for (int i = 0; i < sv->n_elem; i++) {
-                const element *el = &sv->elem[i];
-                if (el->ops != ops)
-                    continue;
-                if (!any++) {
-                    put(b, "<pre class=\"devices\">");
-                    put_text(b, ops->report_heading);
-                }
-                char line[512];
-                ops->report_line(el, sv->x_op, vt, sv->ckt->opt.gmin,
-                                 op_power_w(sv, el, sv->x_op, scratch), line, sizeof line);
-                put_text(b, line);
-                put(b, "\n");
-            }
-            if (any)
-                put(b, "</pre>\n");
-        }
+        device_pre pre = {b, 0};
+        report_device_tables(sv, put_device_line, &pre);
+        if (pre.open)
+            put(b, "</pre>\n");
     } else {
         put(b, "<p>no operating point</p>\n");
     }

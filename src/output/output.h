@@ -88,4 +88,10 @@ SS_HIDDEN int outset_written(const ss_outset *s, int i, const char **name, const
 /* Shortest text that reads back as the same double (fmt_double.h); "" for NaN. */
 SS_HIDDEN int output_format_double(char *buf, size_t len, double v);
 
+/* The text report's device tables (report.c), also the HTML page's: for each kind that has
+ * one, in the registry's order, fn(ctx, heading, line) -- the kind's heading with its first
+ * line, NULL with the others. */
+typedef void (*report_line_fn)(void *ctx, const char *heading, const char *line);
+SS_HIDDEN void report_device_tables(const ss_solver *sv, report_line_fn fn, void *ctx);
+
 #endif

@@ -67,13 +67,44 @@ static void report_stage(const ss_solver *sv, const ss_table *summary, FILE *f)
 
 #define REPORT_MAX_NODES 100
 
+/* The device tables of the report, one per kind that has one in the registry's order: fn
+ * gets the kind's heading with its first line, then each further line with heading NULL. The
+ * power column is op.csv's power row (op_power_w). */
+void report_device_tables(const ss_solver *sv, report_line_fn fn, void *ctx)
+{
+    double vt = analysis_vt(sv);
+    double *scratch = op_power_begin(sv);
+    for (int k = 0; k < device_count(); k++) {
+        const dev_ops *ops = device_at(k);
+        if (!ops->report_line)
+            continue;
+        int any = 0;
+        for (int i = 0; i < sv->n_elem; i++) {
+            const element *el = &sv->elem[i];
+            if (el->ops != ops)
+                continue;
+            char line[512];
+            ops->report_line(el, sv->x_op, vt, sv->ckt->opt.gmin,
+                             op_power_w(sv, el, sv->x_op, scratch), line, sizeof line);
+            fn(ctx, any++ ? NULL : ops->report_heading, line);
+        }
+    }
+}
+
+static void print_device_line(void *ctx, const char *heading, const char *line)
+{
+    FILE *f = ctx;
+    if (heading)
+        fputs(heading, f);
+    fprintf(f, "%s\n", line);
+}
+
 void ss_report_write(const ss_solver *sv, const ss_table *summary, FILE *f)
 {
     fprintf(f, "%s\n", sv->ckt->title && sv->ckt->title[0] ? sv->ckt->title : "(untitled netlist)");
     fprintf(f, "temperature %.2f C\n", sv->temp_c);
     if (!sv->have_op && !summary)
         return;
-    double vt = analysis_vt(sv);
     if (sv->have_op) {
         fprintf(f, "\nNode voltages\n");
         /* a board of thousands of nodes would bury the rest of the report: the first
@@ -87,26 +118,7 @@ void ss_report_write(const ss_solver *sv, const ss_table *summary, FILE *f)
         if (shown < n_out)
             fprintf(f, "  ... and %d more (all in op.csv; --nodes names the ones to show)\n",
                     n_out - shown);
-        /* one table per kind that has one, in the registry's order; the power column is
-         * op.csv's power row (op_power_w) */
-        double *scratch = op_power_begin(sv);
-        for (int k = 0; k < device_count(); k++) {
-            const dev_ops *ops = device_at(k);
-            if (!ops->report_line)
-                continue;
-            int any = 0;
-            for (int i = 0; i < sv->n_elem; i++) {
-                const element *el = &sv->elem[i];
-                if (el->ops != ops)
-                    continue;
-                if (!any++)
-                    fputs(ops->report_heading, f);
-                char line[512];
-                ops->report_line(el, sv->x_op, vt, sv->ckt->opt.gmin,
-                                 op_power_w(sv, el, sv->x_op, scratch), line, sizeof line);
-                fprintf(f, "%s\n", line);
-            }
-        }
+        report_device_tables(sv, print_device_line, f);
     }
     if (summary && sv->stage.in)
         report_stage(sv, summary, f);
