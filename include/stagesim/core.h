@@ -284,6 +284,11 @@ SS_API ss_status ss_solver_set_noise_band(ss_solver *sv, double lo_hz, double hi
  * SS_ERR_INPUT for another name. */
 SS_API ss_status ss_solver_set_noise_weight(ss_solver *sv, const char *weight, ss_error *err);
 
+/* The unit of the noise analysis's input-referred figures (in_noise_rms_v, in_noise_v_rthz, ...):
+ * "A" when its input source is a current source, else "V" (also before any noise request).
+ * Never NULL. */
+SS_API const char *ss_solver_noise_input_unit(const ss_solver *sv);
+
 /* Noise analysis over the .ac frequencies (or its own band) at the operating point (solved first if needed),
  * for the output node and input source of .noise (or ss_solver_set_noise); docs/noise.md.
  * Outputs (owned by the caller, written on success only; each may be NULL if not wanted):

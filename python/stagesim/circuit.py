@@ -185,9 +185,11 @@ class Solver(_lib.Owned):
             _tables.take(summary)
 
     def noise(self):
-        """Noise over the .ac frequencies: (array of freq_hz, out_noise_v_rthz,
-        in_noise_v_rthz; {metric: value} summary; contributions: a structured array with
-        a 'source' field and out_noise_rms_v, share_pct, element_share_pct)."""
+        """Noise over the .ac frequencies, or over the noise analysis's own band when it has
+        one (.noise band=F1..F2): (array of freq_hz, out_noise_v_rthz, in_noise_v_rthz --
+        input-referred in A/rtHz when the input is a current source; {metric: value} summary;
+        contributions: a structured array with a 'source' field and out_noise_rms_v,
+        share_pct, element_share_pct)."""
         summary, contrib = ctypes.c_void_p(), ctypes.c_void_p()
         with _tables.Collector() as c:
             c.run(lib.ss_noise_emit, self._handle(), "SINK", ctypes.byref(summary),

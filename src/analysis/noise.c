@@ -162,6 +162,12 @@ ss_status ss_solver_set_noise_weight(ss_solver *sv, const char *weight, ss_error
     return SS_OK;
 }
 
+const char *ss_solver_noise_input_unit(const ss_solver *sv)
+{
+    int e = sv && sv->noise.src ? circuit_find_elem(sv->ckt, sv->noise.src) : -1;
+    return e >= 0 && elem_is(&sv->elem[e], DEV_DRIVES_CURRENT) ? "A" : "V";
+}
+
 /* Everything the sweep needs, allocated before the first frequency. */
 typedef struct noise_work {
     noise_src *src;

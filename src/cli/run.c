@@ -104,8 +104,10 @@ static void print_large_signal(const ss_table *ls, double f_hz)
  * sources, ranked by their own share (noise_contrib.csv keeps each element's rows together;
  * ranking rows there would let an element of many small sources push a larger single one off
  * the list), each with its element's total beside it. */
-static void print_noise(const ss_table *nsum, const ss_table *ncon)
+static void print_noise(const ss_solver *sv, const ss_table *nsum, const ss_table *ncon)
 {
+    /* input-referred to a current source: A rms (the CSV's _v names stay as they are) */
+    const char *in_unit = ss_solver_noise_input_unit(sv);
     int col = ss_table_col_index(nsum, "value");
     double points = ss_table_lookup(nsum, "band_points", col);
     char f1[48], f2[48];
@@ -117,12 +119,13 @@ static void print_noise(const ss_table *nsum, const ss_table *ncon)
         printf("\nNoise over its own band (%s .. %s, %.0f points)\n", f1, f2, points);
     printf("  output noise    %.4g uV rms\n",
            1e6 * ss_table_lookup(nsum, "out_noise_rms_v", col));
-    printf("  input-referred  %.4g uV rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", col));
+    printf("  input-referred  %.4g u%s rms\n", 1e6 * ss_table_lookup(nsum, "in_noise_rms_v", col),
+           in_unit);
     double a_out = ss_table_lookup(nsum, "out_noise_a_rms_v", col);
     if (!isnan(a_out)) {
         printf("  A-weighted output noise    %.4g uV rms\n", 1e6 * a_out);
-        printf("  A-weighted input-referred  %.4g uV rms\n",
-               1e6 * ss_table_lookup(nsum, "in_noise_a_rms_v", col));
+        printf("  A-weighted input-referred  %.4g u%s rms\n",
+               1e6 * ss_table_lookup(nsum, "in_noise_a_rms_v", col), in_unit);
     }
     double nf = ss_table_lookup(nsum, "noise_figure_db", col);
     if (!isnan(nf))
@@ -320,7 +323,7 @@ static int after_noise(run_ctx *c, int ran, ss_error *err)
         }
     }
     if (!c->a->quiet)
-        print_noise(c->nsum, c->ncon);
+        print_noise(c->sv, c->nsum, c->ncon);
     if (c->html && (ss_html_add_table(c->html, "Noise", c->nsum, 0, err) != SS_OK ||
                     ss_html_add_table(c->html, "Noise contributions", c->ncon, 12, err) != SS_OK))
         return -1;

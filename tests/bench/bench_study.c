@@ -9,13 +9,17 @@
  *      klu_z_refactor / klu_z_solve / klu_z_tsolve calls as a trial made (counted by wrapping
  *      the KLU functions this program links, see klu_wrap), on copies of its matrices, and the
  *      ratio of the study's time per trial to it;
- *   3. for comparison, the same trials in this program's own loop.
+ *   3. for comparison, the same trials in this program's own loop;
+ *   4. with a STAGESIM binary given: the command users run, `STAGESIM spread NETLIST --tol
+ *      R1=5% --tol R2=5% --trials N --threads 1 -q -o DIR` (files written to a fresh folder
+ *      under /tmp), at 2 000 and 20 000 trials, its CPU time per trial (the child's user +
+ *      system time, parse and file writing included) against the same bare KLU work.
  *
  * CPU time, wall time and page faults per trial, medians of the repetitions (the bare work and
  * the own loop alternate, so a busy moment of the machine does not land on one side only).
- * Usage: bench_study [NETLIST] [REPEATS]   (NETLIST "" or none: netlists/vibration_frontend.cir
- * with tolerances R1 5 % and R2 5 %, as `stagesim spread NETLIST --tol R1=5% --tol R2=5%`;
- * REPEATS runs of each study size, default 3). */
+ * Usage: bench_study [NETLIST] [REPEATS] [STAGESIM]   (NETLIST "" or none:
+ * netlists/vibration_frontend.cir with tolerances R1 5 % and R2 5 %, as `stagesim spread
+ * NETLIST --tol R1=5% --tol R2=5%`; REPEATS runs of each study size, default 3). */
 #define _GNU_SOURCE /* RTLD_NEXT */
 #include <dlfcn.h>
 #include <stdint.h>
@@ -431,6 +435,50 @@ static cost run_study_fresh(const char *path, long trials)
     return c;
 }
 
+/* `STAGESIM spread` of NETLIST with the benchmark's tolerances in a child process, standard
+ * output to /dev/null; its CPU time (user + system) per trial. */
+static double run_cli_spread(const char *bin, const char *path, long trials)
+{
+    char dir[] = "/tmp/bench_study_XXXXXX";
+    if (!mkdtemp(dir)) {
+        perror("bench_study: mkdtemp");
+        exit(1);
+    }
+    char n[32];
+    snprintf(n, sizeof n, "%ld", trials);
+    char *argv[] = {(char *)bin, "spread", (char *)path, "--tol", "R1=5%", "--tol", "R2=5%",
+                    "--trials", n, "--seed", "1", "--threads", "1", "-q", "-o", dir, NULL};
+    fflush(stdout);
+    pid_t pid = fork();
+    if (pid < 0) {
+        perror("bench_study: fork");
+        exit(1);
+    }
+    if (pid == 0) {
+        if (!freopen("/dev/null", "w", stdout))
+            _exit(127);
+        execv(argv[0], argv);
+        _exit(127);
+    }
+    int status = 0;
+    struct rusage ru;
+    wait4(pid, &status, 0, &ru);
+    if (!WIFEXITED(status) || WEXITSTATUS(status) > 1) { /* 1: a limit failed, still a run */
+        fprintf(stderr, "bench_study: %s spread exited with status %d\n", bin, status);
+        exit(1);
+    }
+    const char *files[] = {"study.csv", "study_summary.csv", "run_manifest.csv"};
+    char f[sizeof dir + 32];
+    for (size_t k = 0; k < sizeof files / sizeof files[0]; k++) {
+        snprintf(f, sizeof f, "%s/%s", dir, files[k]);
+        remove(f);
+    }
+    rmdir(dir);
+    double cpu = (double)ru.ru_utime.tv_sec + 1e-6 * (double)ru.ru_utime.tv_usec +
+                 (double)ru.ru_stime.tv_sec + 1e-6 * (double)ru.ru_stime.tv_usec;
+    return cpu / (double)trials;
+}
+
 static void print_cost(const char *what, cost c)
 {
     printf("%-48s %10.1f %10.1f %8.1f\n", what, c.cpu * 1e6, c.wall * 1e6, c.faults);
@@ -522,6 +570,25 @@ int main(int argc, char **argv)
            m20.cpu / m2.cpu, m20.wall / m2.wall);
     if (failed)
         printf("(%ld trials did not solve)\n", failed);
+
+    /* 4. the command itself, each size alternately, medians */
+    if (argc > 3 && argv[3][0]) {
+        double *c2 = malloc((size_t)reps * sizeof *c2), *c20 = malloc((size_t)reps * sizeof *c20);
+        if (!c2 || !c20)
+            return 1;
+        for (int r = 0; r < reps; r++) {
+            c2[r] = run_cli_spread(argv[3], path, 2000);
+            c20[r] = run_cli_spread(argv[3], path, 20000);
+        }
+        double cm2 = median(c2, reps), cm20 = median(c20, reps);
+        printf("%-48s %10s\n", "the command, per trial", "CPU us");
+        printf("%-48s %10.1f\n", "stagesim spread --threads 1, 2000 trials", cm2 * 1e6);
+        printf("%-48s %10.1f\n", "stagesim spread --threads 1, 20000 trials", cm20 * 1e6);
+        printf("%-48s %10.2f\n", "ratio command (20000) / bare KLU", cm20 / mb.cpu);
+        printf("%-48s %10.2f\n", "ratio command 20000 / 2000 per trial", cm20 / cm2);
+        free(c2);
+        free(c20);
+    }
     free(own);
     free(bare);
     free(s2);

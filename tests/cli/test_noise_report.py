@@ -8,6 +8,7 @@ noise sources and the noise-density plot (noise.svg), read as a reader would.
   element they belong to, with the element's total beside each: on the vibration front-end
   r2's thermal noise (5.25 %) is listed and q1's collector shot noise (1.43 %) is not, and the
   numbers are those of noise_contrib.csv;
+* the report's input-referred noise is in A rms when the input is a current source;
 * noise.svg: the axes are calibrated from the plot's own decade labels and grid lines, every
   plotted point is mapped back to a frequency and a density and compared with noise.csv
   (the rounding of the coordinates to 0.01 px bounds the difference).
@@ -189,7 +190,39 @@ def svg_checks(out):
           r.returncode == 0 and not os.path.exists(os.path.join(tmp, "noplot", "noise.svg")))
 
 
+def input_unit_checks():
+    """The report's input-referred lines carry the input source's unit: a resistor R driven by
+    a current source has the output noise of its thermal noise, sqrt(4kTRB) (Johnson-Nyquist,
+    Nyquist 1928), and the input-referred noise sqrt(4kTB/R) is a current, printed in A rms."""
+    net = os.path.join(tmp, "inoise.cir")
+    with open(net, "w") as f:
+        f.write("current-driven resistor\nIin 0 out DC 0 AC 1\nR1 out 0 10k\n"
+                ".ac dec 10 10 10k\n.noise v(out) iin band=10..10k weight=a\n.end\n")
+    out = os.path.join(tmp, "inoise")
+    r = run(["run", net, "-o", out])
+    check("current-driven noise run: exit 0", r.returncode == 0, r.stderr)
+    if r.returncode != 0:
+        return
+    kt4 = 4 * 1.380649e-23 * 300.15  # k exact in the 2019 SI; 27 C
+    want_in = math.sqrt(kt4 * (10e3 - 10) / 10e3)
+    m = re.search(r"^  input-referred  (\S+) (\S+) rms$", r.stdout, re.M)
+    check("input-referred noise printed in uA rms", m is not None and m.group(2) == "uA",
+          r.stdout)
+    if m:
+        check("input-referred current = sqrt(4kTB/R) within 0.1 %",
+              abs(float(m.group(1)) * 1e-6 / want_in - 1) < 1e-3, m.group(1))
+    check("A-weighted input-referred noise printed in uA rms",
+          re.search(r"^  A-weighted input-referred  \S+ uA rms$", r.stdout, re.M) is not None,
+          r.stdout)
+    check("output noise still in uV rms",
+          re.search(r"^  output noise    \S+ uV rms$", r.stdout, re.M) is not None, r.stdout)
+    r = run(["run", VIB, "-o", os.path.join(tmp, "vunit")])
+    check("a voltage-driven stage's input-referred noise stays in uV rms",
+          re.search(r"^  input-referred  \S+ uV rms$", r.stdout, re.M) is not None, r.stdout)
+
+
 try:
+    input_unit_checks()
     limits_checks()
     out = ranking_checks()
     svg_checks(out)
