@@ -210,6 +210,9 @@ static void print_report(const ss_refine *r, const ss_table *design, const ss_ta
         printf("\n  %ld trials per candidate; %ld of %ld candidates met every limit at their "
                "nominal values and were given the trials\n",
                s.trials, s.mc_candidates, s.candidates);
+        if (s.mc_candidates > 0)
+            printf("  the trials took %.2f s: %.2f ms per candidate given them\n", s.mc_seconds,
+                   1e3 * s.mc_seconds / (double)s.mc_candidates);
         printf("  %-24s %8s %8s\n", "limit", "failing", "of");
         int c_f = ss_table_col_index(yield, "failing");
         for (int i = 1; i < ss_table_rows(yield); i++)
