@@ -816,8 +816,8 @@ static ss_status unit_figures(worker *w, ss_solver *sv, double *fig, ss_error *e
     ss_error err = {0};
     ss_status st = SS_OK;
     ss_table *figs = NULL;
+    w->op_count = 0;
     {
-        w->op_count = 0;
         op_rows(sv, sv->x_op, collect_op, w);
         for (int i = 0; i < nl && st == SS_OK; i++) {
             const limit *lim = &r->limits->items[i];
