@@ -1105,8 +1105,9 @@ static ss_status path_add_marg(ss_refine *r, int phase, const double *marg, ss_e
     int which0;
     double mn0 = min_of(r, marg, &which0);
     /* within one phase, a row only for a step that raises the smallest margin by a
-     * thousandth: the path shows the search, not every decimal */
-    if (r->n_path > 0 && phase != 4) {
+     * thousandth: the path shows the search, not every decimal (scoring by yield, every
+     * step: each raised the yield score, whatever the margin did) */
+    if (r->n_path > 0 && phase != 4 && !r->scoring) {
         const path_row *last = &r->path[r->n_path - 1];
         if (last->phase == phase && mn0 - last->min_margin < 1e-3)
             return SS_OK;
