@@ -53,6 +53,20 @@ SS_API ss_status ss_refine_add_supply_tol(ss_refine *r, const char *spec, ss_err
 SS_API ss_status ss_refine_set_threads(ss_refine *r, int n_threads, ss_error *err);
 /* The most candidate designs the search solves, 10 .. 10000000 (default 20000). */
 SS_API ss_status ss_refine_set_budget(ss_refine *r, long max_candidates, ss_error *err);
+/* Tolerances (docs/refine.md, "Yield"): `NAME=SPEC` as ss_study_add_tolerance reads it; the
+ * netlist's .tolerance lines join the first one. With tolerances the lattice phases score a
+ * candidate by its yield over the same trials (the draws spread makes for the seed; a tolerance
+ * on a free value spreads around the candidate's value), the smallest nominal margin breaking
+ * ties; only candidates meeting every limit at their nominal values get the trials. Corners
+ * are refused with tolerances (ss_refine_run): a tolerance on temp or the supply takes their
+ * place. */
+SS_API ss_status ss_refine_add_tolerance(ss_refine *r, const char *spec, ss_error *err);
+/* Trials per candidate, 1 .. 1000000 (default 200), and their seed (default 1). */
+SS_API ss_status ss_refine_set_trials(ss_refine *r, long trials, unsigned long long seed,
+                                      ss_error *err);
+/* The target yield, 0 .. 1: the lattice search stops at the single-step neighbourhood optimum
+ * once it is met (no pair steps). */
+SS_API ss_status ss_refine_set_min_yield(ss_refine *r, double min_yield, ss_error *err);
 /* Called on the calling thread after each batch of candidates: done so far, the budget. */
 SS_API void ss_refine_set_progress(ss_refine *r, ss_progress_fn fn, void *ctx);
 
@@ -74,6 +88,14 @@ typedef struct ss_refine_stats {
     double seconds;       /* wall-clock time of the search */
     double min_margin;    /* the chosen design's smallest normalised margin */
     int feasible;         /* 1 when it meets every limit at every corner */
+    /* with tolerances (else trials 0 and NaN yields) */
+    long trials;          /* trials per candidate given them */
+    long mc_candidates;   /* candidates given the trials (the others failed a limit at their
+                           * nominal values) */
+    double mc_seconds;    /* wall-clock time of the trials */
+    long passed;          /* the chosen design's trials meeting every limit */
+    double yield, yield_lo95, yield_hi95; /* passed / trials and its 95 % Wilson interval */
+    double min_yield;     /* the target, -1 none */
 } ss_refine_stats;
 SS_API void ss_refine_get_stats(const ss_refine *r, ss_refine_stats *out);
 
@@ -86,6 +108,15 @@ SS_API void ss_refine_get_stats(const ss_refine *r, ss_refine_stats *out);
  *            candidates (solved so far), min_margin -- one row per improvement */
 SS_API ss_status ss_refine_tables(const ss_refine *r, ss_table **out_design,
                                   ss_table **out_margins, ss_table **out_path, ss_error *err);
+/* With tolerances, after ss_refine_run: the chosen design's trials, labelled by limit
+ * (all_limits first: the yield; then every limit; then unsolved, the trials without an
+ * operating point): trials, failing, passing, pass_fraction, wilson_lo95, wilson_hi95 (the
+ * 95 % Wilson score interval of the fraction). SS_ERR_INPUT without tolerances. */
+SS_API ss_status ss_refine_yield_table(const ss_refine *r, ss_table **out, ss_error *err);
+/* The Wilson score interval of a binomial fraction k / n at z standard deviations (1.96 for
+ * 95 %): E. B. Wilson, "Probable inference, the law of succession, and statistical
+ * inference", J. Am. Stat. Assoc. 22 (1927) 209-212. */
+SS_API void ss_wilson_interval(long k, long n, double z, double *lo, double *hi);
 /* The limits failing with the chosen design, as "QUANTITY at CORNER", i = 0 .. ; NULL past the
  * end (every limit met: NULL at once). */
 SS_API const char *ss_refine_binding(const ss_refine *r, int i);

@@ -26,6 +26,7 @@ typedef struct cli_args {
     int n_varies, n_tols, n_shards, n_matches;
     long trials;
     unsigned long long seed;
+    int seed_given;
     int threads;
     int shard_k, shard_n;
     double min_yield;

@@ -66,6 +66,7 @@ static const char USAGE[] =
     "  --shard K/N       (sweep, spread) run the K-th of N slices of the points\n"
     "  --temps LO,HI     (sensitivity) temperature extremes, default -40,85\n"
     "  --series E6|E12|E24|E48|E96|E192   (snap) the preferred-value series\n"
+    "  --tol NAME=SPEC --trials N --seed S --min-yield F   (refine) score by yield\n"
     "  --beta-range LO,HI --supply-tol NAME=PCT% --max-candidates N   (refine) corners and\n"
     "                    the search's budget; refine also takes --temps and --threads\n"
     "  --series E6|E12|E24|E48|E96|E192   (snap, draft) the preferred-value series\n"
@@ -249,6 +250,12 @@ static const cli_option OPTIONS[] = {
      "1 .. 256 worker threads (default: all cores); results do not depend on it"},
     {"--max-candidates", NULL, "N", C_REFINE,
      "the most candidate designs solved, 10 .. 10000000 (default 20000)"},
+    {"--tol", NULL, "NAME=SPEC", C_REFINE,
+     "as spread's (with the .tolerance lines): choose by yield over the trials; repeatable"},
+    {"--trials", NULL, "N", C_REFINE, "trials per candidate with --tol, 1 .. 1000000 (default 200)"},
+    {"--seed", NULL, "S", C_REFINE, "the trials' seed with --tol (default 1), as spread's"},
+    {"--min-yield", NULL, "F", C_REFINE,
+     "with --tol: the target yield (0 .. 1); exit 1 when the chosen design falls short"},
     DRAFT_OPTIONS(C_DRAFT),
     {"--cap-series", NULL, "E6|E12|E24|E48|E96|E192|none", C_SNAP,
      "the capacitors' series (default E12); none leaves capacitors as they are"},
@@ -540,6 +547,7 @@ static int parse_study_option(const char *n, const char *o, const char *next, cl
             return usage_error("--trials needs a whole number from 1 to 100000000, got '%s'", next);
         a->trials = (long)v;
     } else if (strcmp(n, "--seed") == 0) {
+        a->seed_given = 1;
         if (parse_count(next, ULLONG_MAX, &a->seed) != 0)
             return usage_error("--seed needs a whole number from 0 to "
                                "18446744073709551615, got '%s'",

@@ -123,6 +123,21 @@ static int setup(const cli_args *a, ss_refine **out)
             fprintf(stderr, "stagesim: --supply-tol: %s\n", err.message);
             rc = EXIT_BAD_INPUT;
         }
+    if (rc == EXIT_OK && a->n_tols == 0 && (a->trials > 0 || a->seed_given || a->min_yield >= 0.0)) {
+        fprintf(stderr, "stagesim: refine: %s needs tolerances (--tol NAME=SPEC): without them "
+                        "there is no yield to judge\n",
+                a->trials > 0 ? "--trials" : a->seed_given ? "--seed" : "--min-yield");
+        rc = EXIT_BAD_INPUT;
+    }
+    for (int i = 0; rc == EXIT_OK && i < a->n_tols; i++)
+        if (ss_refine_add_tolerance(r, a->tols[i], &err) != SS_OK) {
+            fprintf(stderr, "stagesim: --tol: %s\n", err.message);
+            rc = EXIT_BAD_INPUT;
+        }
+    if (rc == EXIT_OK && a->n_tols > 0 &&
+        (ss_refine_set_trials(r, a->trials > 0 ? a->trials : 200, a->seed, &err) != SS_OK ||
+         (a->min_yield >= 0.0 && ss_refine_set_min_yield(r, a->min_yield, &err) != SS_OK)))
+        rc = fail(&err);
     if (rc == EXIT_OK && a->threads > 0 && ss_refine_set_threads(r, a->threads, &err) != SS_OK)
         rc = fail(&err);
     if (rc == EXIT_OK && a->max_candidates > 0 &&
@@ -138,7 +153,7 @@ static int setup(const cli_args *a, ss_refine **out)
 }
 
 static void print_report(const ss_refine *r, const ss_table *design, const ss_table *margins,
-                         const ss_table *path)
+                         const ss_table *path, const ss_table *yield)
 {
     ss_refine_stats s;
     ss_refine_get_stats(r, &s);
@@ -181,8 +196,29 @@ static void print_report(const ss_refine *r, const ss_table *design, const ss_ta
         }
         printf("\n");
     }
-    if (s.feasible)
+    if (s.feasible && s.trials == 0)
         printf("\nevery limit met at every corner (smallest margin %.4g)\n", s.min_margin);
+    else if (s.feasible)
+        printf("\nevery limit met at the nominal values (smallest margin %.4g)\n", s.min_margin);
+    if (yield) {
+        printf("\nyield of the chosen design: %ld of %ld trials meet every limit, %.1f %% "
+               "(95 %% Wilson interval %.1f .. %.1f %%)",
+               s.passed, s.trials, 100.0 * s.yield, 100.0 * s.yield_lo95, 100.0 * s.yield_hi95);
+        if (s.min_yield >= 0.0)
+            printf(", target %.1f %%: %s", 100.0 * s.min_yield,
+                   s.yield >= s.min_yield ? "met" : "NOT met");
+        printf("\n  %ld trials per candidate; %ld of %ld candidates met every limit at their "
+               "nominal values and were given the trials\n",
+               s.trials, s.mc_candidates, s.candidates);
+        if (s.mc_candidates > 0)
+            printf("  the trials took %.2f s: %.2f ms per candidate given them\n", s.mc_seconds,
+                   1e3 * s.mc_seconds / (double)s.mc_candidates);
+        printf("  %-24s %8s %8s\n", "limit", "failing", "of");
+        int c_f = ss_table_col_index(yield, "failing");
+        for (int i = 1; i < ss_table_rows(yield); i++)
+            printf("  %-24s %8.0f %8ld\n", ss_table_row_label(yield, i),
+                   ss_table_get(yield, i, c_f), s.trials);
+    }
     printf("\nA design found by simulation is a starting point for the bench: build it and "
            "measure it.\nRatings (dissipation, voltage) are checked only as far as the limits "
            "name them.\n");
@@ -190,11 +226,11 @@ static void print_report(const ss_refine *r, const ss_table *design, const ss_ta
 
 int cmd_refine(const cli_args *a)
 {
-    static const char *const names[4] = {"refined.cir", "design.csv", "design_margins.csv",
-                                         "refine_path.csv"};
-    const char *path[4];
+    static const char *const names[5] = {"refined.cir", "design.csv", "design_margins.csv",
+                                         "refine_path.csv", "design_yield.csv"};
+    const char *path[5];
     ss_outset *set = NULL;
-    int rc = out_start(a, names, 4, path, &set);
+    int rc = out_start(a, names, a->n_tols > 0 ? 5 : 4, path, &set);
     if (rc != EXIT_OK)
         return rc;
     ss_refine *r = NULL;
@@ -206,16 +242,18 @@ int cmd_refine(const cli_args *a)
     progress pr = {now_s(), 0.0, a->quiet};
     ss_refine_set_progress(r, on_progress, &pr);
     ss_error err = {0};
-    ss_table *design = NULL, *margins = NULL, *pth = NULL;
+    ss_table *design = NULL, *margins = NULL, *pth = NULL, *yield = NULL;
     if (ss_refine_run(r, &err) != SS_OK || ss_refine_tables(r, &design, &margins, &pth, &err) ||
         ss_refine_write_netlist(r, path[0], &err) != SS_OK ||
         write_table(design, path[1], &err) != 0 || write_table(margins, path[2], &err) != 0 ||
-        write_table(pth, path[3], &err) != 0) {
+        write_table(pth, path[3], &err) != 0 ||
+        (a->n_tols > 0 && (ss_refine_yield_table(r, &yield, &err) != SS_OK ||
+                           write_table(yield, path[4], &err) != 0))) {
         rc = fail(&err);
         goto done;
     }
     if (!a->quiet)
-        print_report(r, design, margins, pth);
+        print_report(r, design, margins, pth, yield);
     rc = EXIT_OK;
     if (ss_refine_binding(r, 0)) {
         fprintf(stderr, "stagesim: refine: the best design found fails:");
@@ -224,11 +262,27 @@ int cmd_refine(const cli_args *a)
         fprintf(stderr, "\n");
         rc = EXIT_CHECK_FAILED;
     }
+    ss_refine_stats s;
+    ss_refine_get_stats(r, &s);
+    if (yield && s.min_yield >= 0.0 && !(s.yield >= s.min_yield)) {
+        /* the limit failing the most trials binds the yield */
+        int c_f = ss_table_col_index(yield, "failing"), worst = 1;
+        for (int i = 2; i < ss_table_rows(yield); i++)
+            if (ss_table_get(yield, i, c_f) > ss_table_get(yield, worst, c_f))
+                worst = i;
+        fprintf(stderr,
+                "stagesim: refine: the best yield found is %.1f %% (%ld of %ld trials), below "
+                "the target %.1f %%; the binding limit is %s (failing %.0f trials)\n",
+                100.0 * s.yield, s.passed, s.trials, 100.0 * s.min_yield,
+                ss_table_row_label(yield, worst), ss_table_get(yield, worst, c_f));
+        rc = EXIT_CHECK_FAILED;
+    }
     rc = out_commit(set, rc);
 done:
     ss_table_destroy(&design);
     ss_table_destroy(&margins);
     ss_table_destroy(&pth);
+    ss_table_destroy(&yield);
     ss_refine_destroy(&r);
     ss_outset_destroy(&set);
     return rc;

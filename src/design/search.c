@@ -61,11 +61,14 @@ typedef struct limit_plan {
     int is_db;
 } limit_plan;
 
+static double now_s(void);
+
 typedef struct worker {
     struct ss_refine *r;
     int id;
     ss_solver **sv;   /* one per corner */
     double *op_vals;  /* op_rows values, n_op_rows */
+    double *trial_fig; /* a trial's figures, n_limits */
     int op_count;
     pthread_t th;
     int started;
@@ -134,6 +137,29 @@ struct ss_refine {
     int n_path, cap_path;
     char **binding;
     int n_binding;
+
+    /* tolerance trials (docs/refine.md, "Yield"): with tolerances the lattice phases score a
+     * candidate by the fraction of the same trials that meet every limit */
+    ss_study *tol_study; /* the tolerances, parsed and drawn as spread parses and draws them */
+    int n_tols;
+    int *tol_free;       /* per tolerance: the free value it names (-1 none) */
+    int free_tol[REFINE_MAX_FREE]; /* per free value: the tolerance naming it (-1 none) */
+    long trials;
+    unsigned long long seed;
+    double min_yield;    /* the target, -1 none */
+    double *trial_vals;  /* trials x n_tols, drawn once: every candidate sees the same draws */
+    int scoring;         /* 1 in the lattice phases: objective() is the yield score */
+    int batch_kind;      /* 0 candidates x corners, 1 trial candidates x trials */
+    int *mc_cand;        /* the batch's candidates given trials */
+    int n_mc;
+    unsigned char *mc_fail; /* n_mc x trials x (n_limits + 1): 1 where the trial fails that
+                             * limit; the last slot 1 when the trial has no operating point */
+    double *batch_yield; /* per batch candidate: its yield, NaN when not given trials */
+    long *batch_lfail;   /* per batch candidate: trials failing each limit, then unsolved */
+    long mc_candidates, mc_circuits;
+    double best_yield;
+    long *best_lfail;
+    double mc_seconds;
 };
 
 /* ---- setup ------------------------------------------------------------------------------- */
@@ -382,6 +408,10 @@ ss_status ss_refine_create(const char *netlist_path, const ss_override *sets, in
     if (!r)
         return nomem(err);
     r->budget = 20000;
+    r->min_yield = -1.0;
+    r->trials = 200;
+    r->seed = 1;
+    r->best_yield = SS_NAN;
     r->netlist = arena_strdup(&r->arena, netlist_path);
     r->sets = arena_alloc(&r->arena, (size_t)(n_sets + 1) * sizeof *r->sets);
     if (!r->netlist || !r->sets) {
@@ -542,6 +572,37 @@ ss_status ss_refine_set_budget(ss_refine *r, long max_candidates, ss_error *err)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
                        "candidate budget %ld is outside 10 .. 10000000", max_candidates);
     r->budget = max_candidates;
+    return SS_OK;
+}
+
+ss_status ss_refine_add_tolerance(ss_refine *r, const char *spec, ss_error *err)
+{
+    if (!r->tol_study) {
+        ss_status st = ss_study_create(r->netlist, r->sets, r->n_sets, &r->tol_study, err);
+        if (st != SS_OK)
+            return st;
+    }
+    return ss_study_add_tolerance(r->tol_study, spec, err);
+}
+
+ss_status ss_refine_set_trials(ss_refine *r, long trials, unsigned long long seed,
+                               ss_error *err)
+{
+    if (trials < 1 || trials > 1000000)
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "refine: the trials per candidate must be from 1 to 1000000, got %ld",
+                       trials);
+    r->trials = trials;
+    r->seed = seed;
+    return SS_OK;
+}
+
+ss_status ss_refine_set_min_yield(ss_refine *r, double min_yield, ss_error *err)
+{
+    if (!(min_yield >= 0.0 && min_yield <= 1.0))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "refine: the target yield must be from 0 to 1, got %g", min_yield);
+    r->min_yield = min_yield;
     return SS_OK;
 }
 
@@ -746,25 +807,17 @@ static void collect_op(void *vc, const char *quantity, const char *elem_name, do
     w->op_count++;
 }
 
-static void eval_unit(worker *w, long unit)
+/* The figure of every limit into fig[0 .. n_limits-1] (NaN where there is none), the operating
+ * point of sv solved. */
+static ss_status unit_figures(worker *w, ss_solver *sv, double *fig, ss_error *err_out)
 {
     ss_refine *r = w->r;
-    int nc = r->n_corners, nl = r->limits->n;
-    long cand = unit / nc;
-    int k = (int)(unit % nc);
-    ss_solver *sv = w->sv[k];
-    const double *vals = r->batch_vals + cand * r->n_free;
-    double *marg = r->batch_marg + unit * nl;
-    double *fig = r->batch_fig + unit * nl;
+    int nl = r->limits->n;
     ss_error err = {0};
     ss_status st = SS_OK;
-    for (int i = 0; i < r->n_free && st == SS_OK; i++)
-        st = ss_solver_set_value(sv, r->fv[i].name, vals[i], &err);
-    if (st == SS_OK)
-        st = op_solve_into(sv, NULL, &err);
     ss_table *figs = NULL;
-    if (st == SS_OK) {
-        w->op_count = 0;
+    w->op_count = 0;
+    {
         op_rows(sv, sv->x_op, collect_op, w);
         for (int i = 0; i < nl && st == SS_OK; i++) {
             const limit *lim = &r->limits->items[i];
@@ -789,10 +842,36 @@ static void eval_unit(worker *w, long unit)
                     v = ss_table_lookup(figs, lim->quantity, ss_table_col_index(figs, "value"));
             }
             fig[i] = v;
-            marg[i] = norm_margin(lim, r->plan[i].is_db, v);
         }
     }
     ss_table_destroy(&figs);
+    *err_out = err;
+    return st;
+}
+
+static void eval_unit(worker *w, long unit)
+{
+    ss_refine *r = w->r;
+    int nc = r->n_corners, nl = r->limits->n;
+    long cand = unit / nc;
+    int k = (int)(unit % nc);
+    ss_solver *sv = w->sv[k];
+    const double *vals = r->batch_vals + cand * r->n_free;
+    double *marg = r->batch_marg + unit * nl;
+    double *fig = r->batch_fig + unit * nl;
+    ss_error err = {0};
+    ss_status st = SS_OK;
+    if (r->n_tols > 0)
+        ss_solver_reset_values(sv); /* a trial's values away (no corner sets any with them) */
+    for (int i = 0; i < r->n_free && st == SS_OK; i++)
+        st = ss_solver_set_value(sv, r->fv[i].name, vals[i], &err);
+    if (st == SS_OK)
+        st = op_solve_into(sv, NULL, &err);
+    if (st == SS_OK)
+        st = unit_figures(w, sv, fig, &err);
+    if (st == SS_OK)
+        for (int i = 0; i < nl; i++)
+            marg[i] = norm_margin(&r->limits->items[i], r->plan[i].is_db, fig[i]);
     if (st == SS_ERR_NOMEM)
         w->nomem = 1;
     r->batch_ok[unit] = st == SS_OK;
@@ -801,6 +880,51 @@ static void eval_unit(worker *w, long unit)
             marg[i] = MARGIN_NO_SOLUTION;
             fig[i] = SS_NAN;
         }
+}
+
+/* One tolerance trial of a candidate: mc unit = (its index among mc_cand) x trials + trial.
+ * Every value back to the netlist's, the candidate's free values (a toleranced one times its
+ * trial's draw over the tolerance's nominal: the tolerance spreads around the candidate's
+ * value as it spreads around the chosen value in the chosen netlist), the other toleranced
+ * values as drawn; judged against every limit as spread judges a trial. */
+static void eval_trial(worker *w, long unit)
+{
+    ss_refine *r = w->r;
+    int nl = r->limits->n;
+    long trial = unit % r->trials;
+    int cand = r->mc_cand[unit / r->trials];
+    ss_solver *sv = w->sv[0];
+    const double *vals = r->batch_vals + (size_t)cand * (size_t)r->n_free;
+    const double *tv = r->trial_vals + (size_t)trial * (size_t)r->n_tols;
+    unsigned char *fail = r->mc_fail + (size_t)unit * (size_t)(nl + 1);
+    ss_error err = {0};
+    ss_status st = SS_OK;
+    ss_solver_reset_values(sv);
+    for (int i = 0; i < r->n_free && st == SS_OK; i++) {
+        int t = r->free_tol[i];
+        double v = t < 0 ? vals[i] : vals[i] * (tv[t] / study_tol_nominal(r->tol_study, t));
+        st = ss_solver_set_value(sv, r->fv[i].name, v, &err);
+    }
+    for (int t = 0; t < r->n_tols && st == SS_OK; t++) {
+        if (r->tol_free[t] >= 0)
+            continue;
+        const char *name = study_tol_name(r->tol_study, t);
+        st = strcmp(name, "temp") == 0 ? ss_solver_set_temp(sv, tv[t], &err)
+                                       : ss_solver_set_value(sv, name, tv[t], &err);
+    }
+    if (st == SS_OK)
+        st = op_solve_into(sv, NULL, &err);
+    double *fig = w->trial_fig;
+    if (st == SS_OK)
+        st = unit_figures(w, sv, fig, &err);
+    if (st == SS_ERR_NOMEM)
+        w->nomem = 1;
+    for (int i = 0; i < nl; i++) {
+        const limit *lim = &r->limits->items[i];
+        double x = st == SS_OK ? limit_judged(lim, fig[i]) : SS_NAN;
+        fail[i] = !(x >= lim->lo && x <= lim->hi);
+    }
+    fail[nl] = st != SS_OK;
 }
 
 /* ---- the worker pool -------------------------------------------------------------------- */
@@ -814,7 +938,10 @@ static void work_units(worker *w)
         pthread_mutex_unlock(&r->mu);
         if (u < 0)
             return;
-        eval_unit(w, u);
+        if (r->batch_kind)
+            eval_trial(w, u);
+        else
+            eval_unit(w, u);
         pthread_mutex_lock(&r->mu);
         if (--r->units_left == 0)
             pthread_cond_signal(&r->cv_done);
@@ -845,7 +972,7 @@ static void *worker_main(void *arg)
 static ss_status run_batch(ss_refine *r, ss_error *err)
 {
     pthread_mutex_lock(&r->mu);
-    r->n_units = (long)r->n_batch * r->n_corners;
+    r->n_units = r->batch_kind ? (long)r->n_mc * r->trials : (long)r->n_batch * r->n_corners;
     r->units_left = r->n_units;
     r->next_unit = 0;
     r->generation++;
@@ -856,10 +983,18 @@ static ss_status run_batch(ss_refine *r, ss_error *err)
     while (r->units_left > 0)
         pthread_cond_wait(&r->cv_done, &r->mu);
     pthread_mutex_unlock(&r->mu);
-    r->candidates += r->n_batch;
+    if (r->batch_kind) {
+        r->mc_candidates += r->n_mc;
+        r->mc_circuits += r->n_units;
+        int nl = r->limits->n;
+        for (long u = 0; u < r->n_units; u++)
+            r->failed += r->mc_fail[(size_t)u * (size_t)(nl + 1) + (size_t)nl];
+    } else {
+        r->candidates += r->n_batch;
+        for (long u = 0; u < r->n_units; u++)
+            r->failed += !r->batch_ok[u];
+    }
     r->circuits += r->n_units;
-    for (long u = 0; u < r->n_units; u++)
-        r->failed += !r->batch_ok[u];
     int short_of_memory = 0;
     for (int t = 0; t < r->n_workers; t++)
         short_of_memory |= r->workers[t].nomem;
@@ -886,6 +1021,25 @@ static ss_status batch_reserve(ss_refine *r, int n, ss_error *err)
         r->batch_ok = o;
     if (!v || !m || !f || !o)
         return nomem(err);
+    if (r->n_tols > 0) {
+        size_t nt = (size_t)r->trials * (nl + 1);
+        double *y = ss_realloc(r->batch_yield, (size_t)n * sizeof *y);
+        if (y)
+            r->batch_yield = y;
+        long *lf = ss_realloc(r->batch_lfail, (size_t)n * (nl + 1) * sizeof *lf);
+        if (lf)
+            r->batch_lfail = lf;
+        int *mc = ss_realloc(r->mc_cand, (size_t)n * sizeof *mc);
+        if (mc)
+            r->mc_cand = mc;
+        unsigned char *mf = ss_realloc(r->mc_fail, (size_t)n * nt);
+        if (mf)
+            r->mc_fail = mf;
+        if (!y || !lf || !mc || !mf)
+            return nomem(err);
+        for (int c = 0; c < n; c++)
+            r->batch_yield[c] = SS_NAN;
+    }
     r->cap_batch = n;
     return SS_OK;
 }
@@ -912,7 +1066,17 @@ static double objective(const ss_refine *r, int c, double *min_out, int *which)
         *min_out = mn;
     if (which)
         *which = at;
-    return mn + 1e-3 * sum / per;
+    double obj = mn + 1e-3 * sum / per;
+    if (!r->scoring)
+        return obj;
+    /* the yield score: the yield first (steps of 1/trials), the margin objective within half a
+     * step; a candidate without trials (it fails a limit at its nominal values) below every
+     * one with them, ranked by its smallest margin */
+    double y = r->batch_yield[c];
+    if (isnan(y))
+        return -2.0 + 1.0 / (1.0 - fmin(mn, 0.0));
+    double o = fmax(obj, 0.0);
+    return y + 0.5 / (double)r->trials * (o / (1.0 + o));
 }
 
 static void binding_label(const ss_refine *r, int which, char *buf, size_t len)
@@ -941,8 +1105,9 @@ static ss_status path_add_marg(ss_refine *r, int phase, const double *marg, ss_e
     int which0;
     double mn0 = min_of(r, marg, &which0);
     /* within one phase, a row only for a step that raises the smallest margin by a
-     * thousandth: the path shows the search, not every decimal */
-    if (r->n_path > 0 && phase != 4) {
+     * thousandth: the path shows the search, not every decimal (scoring by yield, every
+     * step: each raised the yield score, whatever the margin did) */
+    if (r->n_path > 0 && phase != 4 && !r->scoring) {
         const path_row *last = &r->path[r->n_path - 1];
         if (last->phase == phase && mn0 - last->min_margin < 1e-3)
             return SS_OK;
@@ -989,7 +1154,70 @@ static int consider(ss_refine *r, int c)
            (size_t)r->n_corners * sizeof *r->best_ok);
     r->best_obj = obj;
     r->best_min = mn;
+    if (r->n_tols > 0) {
+        int nl = r->limits->n;
+        r->best_yield = r->scoring ? r->batch_yield[c] : SS_NAN;
+        if (r->scoring && !isnan(r->best_yield))
+            memcpy(r->best_lfail, r->batch_lfail + (size_t)c * (size_t)(nl + 1),
+                   (size_t)(nl + 1) * sizeof *r->best_lfail);
+    }
     return 1;
+}
+
+/* Gives the trials to the batch's candidates cand[0 .. m-1]: batch_yield and batch_lfail. */
+static ss_status run_trials(ss_refine *r, const int *cand, int m, ss_error *err)
+{
+    if (m == 0)
+        return SS_OK;
+    int nl = r->limits->n;
+    memcpy(r->mc_cand, cand, (size_t)m * sizeof *cand);
+    r->n_mc = m;
+    r->batch_kind = 1;
+    double t0 = now_s();
+    ss_status st = run_batch(r, err);
+    r->mc_seconds += now_s() - t0;
+    r->batch_kind = 0;
+    if (st != SS_OK)
+        return st;
+    for (int j = 0; j < m; j++) {
+        long *lf = r->batch_lfail + (size_t)cand[j] * (size_t)(nl + 1);
+        memset(lf, 0, (size_t)(nl + 1) * sizeof *lf);
+        long pass = 0;
+        for (long t = 0; t < r->trials; t++) {
+            const unsigned char *f =
+                r->mc_fail + ((size_t)j * (size_t)r->trials + (size_t)t) * (size_t)(nl + 1);
+            int ok = 1;
+            for (int i = 0; i <= nl; i++) {
+                lf[i] += f[i];
+                ok &= !f[i];
+            }
+            pass += ok;
+        }
+        r->batch_yield[cand[j]] = (double)pass / (double)r->trials;
+    }
+    return SS_OK;
+}
+
+/* Screening: the candidates of the batch meeting every limit at their nominal values get the
+ * trials; the others keep no yield (objective() ranks them below). */
+static ss_status score_batch(ss_refine *r, ss_error *err)
+{
+    if (!r->scoring)
+        return SS_OK;
+    int m = 0;
+    int *pass = ss_alloc((size_t)(r->n_batch + 1) * sizeof *pass);
+    if (!pass)
+        return nomem(err);
+    for (int c = 0; c < r->n_batch; c++) {
+        double mn;
+        objective(r, c, &mn, NULL);
+        r->batch_yield[c] = SS_NAN;
+        if (mn >= 0.0)
+            pass[m++] = c;
+    }
+    ss_status st = run_trials(r, pass, m, err);
+    ss_free(pass);
+    return st;
 }
 
 static void report_progress(ss_refine *r)
@@ -1169,7 +1397,7 @@ static ss_status eval_lattice(ss_refine *r, const long *idx, int m, double *f, i
         for (int i = 0; i < n; i++)
             r->batch_vals[c * n + i] = eseries_lattice_value(r->fv[i].series, idx[c * n + i]);
     r->n_batch = m;
-    if ((st = run_batch(r, err)) != SS_OK)
+    if ((st = run_batch(r, err)) != SS_OK || (st = score_batch(r, err)) != SS_OK)
         return st;
     for (int c = 0; c < m; c++)
         f[c] = objective(r, c, NULL, NULL);
@@ -1234,7 +1462,10 @@ static ss_status lattice_search(ss_refine *r, long *cur, double *fcur, ss_error 
             if (f[c] > *fcur + 1e-12 && (best < 0 || f[c] > f[best]))
                 best = c;
         if (best < 0) {
-            if (pairs)
+            /* the target yield met at the single-step optimum: no pair steps (their cost is
+             * trials x 2n(n-1) circuits) */
+            if (pairs || (r->scoring && r->min_yield >= 0.0 && !isnan(r->best_yield) &&
+                          r->best_yield >= r->min_yield))
                 break;
             pairs = 1;
             continue;
@@ -1251,6 +1482,42 @@ static ss_status lattice_search(ss_refine *r, long *cur, double *fcur, ss_error 
 }
 
 /* ---- the run ------------------------------------------------------------------------------ */
+
+/* The tolerance trials, drawn once (common random numbers: every candidate is judged on the
+ * same draws, so two candidates' yields differ by their values only), and which tolerance
+ * names a free value. */
+static ss_status draw_trials(ss_refine *r, ss_error *err)
+{
+    ss_status st = ss_study_set_trials(r->tol_study, r->trials, r->seed, err);
+    if (st != SS_OK)
+        return st;
+    r->n_tols = study_n_tols(r->tol_study);
+    r->trial_vals = ss_alloc((size_t)r->trials * (size_t)r->n_tols * sizeof *r->trial_vals);
+    r->tol_free = arena_alloc(&r->arena, (size_t)r->n_tols * sizeof *r->tol_free);
+    r->best_lfail = ss_alloc((size_t)(r->limits->n + 1) * sizeof *r->best_lfail);
+    if (!r->trial_vals || !r->tol_free || !r->best_lfail)
+        return nomem(err);
+    memset(r->best_lfail, 0, (size_t)(r->limits->n + 1) * sizeof *r->best_lfail);
+    for (long t = 0; t < r->trials; t++)
+        study_trial_values(r->tol_study, t, r->trial_vals + (size_t)t * (size_t)r->n_tols);
+    for (int i = 0; i < r->n_free; i++)
+        r->free_tol[i] = -1;
+    for (int t = 0; t < r->n_tols; t++) {
+        r->tol_free[t] = -1;
+        for (int i = 0; i < r->n_free; i++)
+            if (strcmp(study_tol_name(r->tol_study, t), r->fv[i].name) == 0) {
+                r->tol_free[t] = i;
+                r->free_tol[i] = t;
+            }
+        if (r->tol_free[t] >= 0 && study_tol_nominal(r->tol_study, t) == 0.0)
+            return err_set(err, SS_ERR_INPUT, NULL, 0,
+                           "refine: tolerance on %s: its nominal value is 0, so it cannot "
+                           "follow the candidate's value",
+                           study_tol_name(r->tol_study, t));
+    }
+    r->best_yield = SS_NAN;
+    return SS_OK;
+}
 
 static void stop_workers(ss_refine *r)
 {
@@ -1270,6 +1537,7 @@ static void stop_workers(ss_refine *r)
             ss_solver_destroy(&w->sv[k]);
         ss_free(w->sv);
         ss_free(w->op_vals);
+        ss_free(w->trial_fig);
     }
     ss_free(r->workers);
     r->workers = NULL;
@@ -1300,7 +1568,8 @@ static ss_status start_workers(ss_refine *r, ss_error *err)
         w->id = t;
         w->sv = ss_alloc((size_t)r->n_corners * sizeof *w->sv);
         w->op_vals = ss_alloc((size_t)(r->n_op_rows + 1) * sizeof *w->op_vals);
-        if (!w->sv || !w->op_vals)
+        w->trial_fig = ss_alloc((size_t)(r->limits->n + 1) * sizeof *w->trial_fig);
+        if (!w->sv || !w->op_vals || !w->trial_fig)
             return nomem(err);
         memset(w->sv, 0, (size_t)r->n_corners * sizeof *w->sv);
         for (int k = 0; k < r->n_corners; k++) {
@@ -1377,6 +1646,12 @@ ss_status ss_refine_run(ss_refine *r, ss_error *err)
         return err_set(err, SS_ERR_INPUT, r->ckt->file, 0,
                        "refine: no limits to meet; add .expect lines or a limits file");
     ss_status st = ss_limits_check_names(r->limits, r->nominal_sv, err);
+    if (st == SS_OK && r->tol_study && (r->beta_set || r->temps_set || r->n_supply > 0))
+        st = err_set(err, SS_ERR_INPUT, NULL, 0,
+                     "refine: tolerances take the corners' place: give temp or the supply "
+                     "a tolerance instead of --beta-range, --temps or --supply-tol");
+    if (st == SS_OK && r->tol_study)
+        st = draw_trials(r, err);
     if (st == SS_OK)
         st = build_corners(r, err);
     if (st == SS_OK)
@@ -1451,6 +1726,7 @@ ss_status ss_refine_run(ss_refine *r, ss_error *err)
                                               : cur[i];
         }
         double fcur;
+        r->scoring = r->n_tols > 0;
         st = eval_lattice(r, cur, 1, &fcur, 2, err);
         /* from here on only lattice points may be chosen */
         if (st == SS_OK) {
@@ -1460,6 +1736,19 @@ ss_status ss_refine_run(ss_refine *r, ss_error *err)
         }
         if (st == SS_OK)
             st = lattice_search(r, cur, &fcur, err);
+    }
+    /* the chosen design's yield when screening gave it no trials */
+    if (st == SS_OK && r->n_tols > 0 && r->best_vals && isnan(r->best_yield) &&
+        (st = batch_reserve(r, 1, err)) == SS_OK) {
+        memcpy(r->batch_vals, r->best_vals, (size_t)n * sizeof *bv);
+        r->n_batch = 1;
+        int zero = 0;
+        st = run_trials(r, &zero, 1, err);
+        if (st == SS_OK) {
+            r->best_yield = r->batch_yield[0];
+            memcpy(r->best_lfail, r->batch_lfail,
+                   (size_t)(r->limits->n + 1) * sizeof *r->best_lfail);
+        }
     }
     r->seconds = now_s() - t0;
     stop_workers(r);
@@ -1498,6 +1787,17 @@ void ss_refine_get_stats(const ss_refine *r, ss_refine_stats *out)
         out->min_margin = min_of(r, r->best_marg, &which);
     }
     out->feasible = r->feasible;
+    out->trials = r->n_tols > 0 ? r->trials : 0;
+    out->min_yield = r->min_yield;
+    out->mc_candidates = r->mc_candidates;
+    out->mc_seconds = r->mc_seconds;
+    out->yield = out->yield_lo95 = out->yield_hi95 = SS_NAN;
+    if (r->n_tols > 0 && r->ran && !isnan(r->best_yield)) {
+        out->yield = r->best_yield;
+        out->passed = (long)llround(r->best_yield * (double)r->trials);
+        ss_wilson_interval(out->passed, r->trials, 1.959963984540054, &out->yield_lo95,
+                           &out->yield_hi95);
+    }
 }
 
 const char *ss_refine_binding(const ss_refine *r, int i)
@@ -1700,7 +2000,71 @@ void ss_refine_destroy(ss_refine **pr)
     ss_free(r->best_ok);
     ss_free(r->path);
     ss_free(r->binding);
+    ss_study_destroy(&r->tol_study);
+    ss_free(r->trial_vals);
+    ss_free(r->mc_cand);
+    ss_free(r->mc_fail);
+    ss_free(r->batch_yield);
+    ss_free(r->batch_lfail);
+    ss_free(r->best_lfail);
     arena_clear(&r->arena);
     ss_free(r);
     *pr = NULL;
+}
+
+void ss_wilson_interval(long k, long n, double z, double *lo, double *hi)
+{
+    if (n <= 0) {
+        *lo = *hi = SS_NAN;
+        return;
+    }
+    double p = (double)k / (double)n, nn = (double)n, z2 = z * z;
+    double den = 1.0 + z2 / nn;
+    double mid = (p + z2 / (2.0 * nn)) / den;
+    double half = z / den * sqrt(p * (1.0 - p) / nn + z2 / (4.0 * nn * nn));
+    *lo = fmax(0.0, mid - half);
+    *hi = fmin(1.0, mid + half);
+}
+
+ss_status ss_refine_yield_table(const ss_refine *r, ss_table **out, ss_error *err)
+{
+    *out = NULL;
+    if (r->n_tols == 0 || !r->ran || isnan(r->best_yield))
+        return err_set(err, SS_ERR_INPUT, NULL, 0,
+                       "refine: no yield: the search ran without tolerances");
+    static const char *const cols[] = {"trials", "failing", "passing", "pass_fraction",
+                                       "wilson_lo95", "wilson_hi95"};
+    int nl = r->limits->n;
+    ss_table *t = new_table(6, "limit", cols);
+    if (!t)
+        return nomem(err);
+    for (int i = 0; i < nl + 2; i++) {
+        long failing;
+        const char *label;
+        if (i == 0) {
+            failing = r->trials - (long)llround(r->best_yield * (double)r->trials);
+            label = "all_limits";
+        } else if (i <= nl) {
+            failing = r->best_lfail[i - 1];
+            label = r->limits->items[i - 1].quantity;
+        } else {
+            failing = r->best_lfail[nl];
+            label = "unsolved";
+        }
+        double *row = table_add_row(t, label);
+        if (!row) {
+            ss_table_destroy(&t);
+            return nomem(err);
+        }
+        double lo, hi;
+        ss_wilson_interval(r->trials - failing, r->trials, 1.959963984540054, &lo, &hi);
+        row[0] = (double)r->trials;
+        row[1] = (double)failing;
+        row[2] = (double)(r->trials - failing);
+        row[3] = (double)(r->trials - failing) / (double)r->trials;
+        row[4] = lo;
+        row[5] = hi;
+    }
+    *out = t;
+    return SS_OK;
 }

@@ -788,6 +788,24 @@ static void point_values(const ss_study *s, long p, double *vals)
     }
 }
 
+/* The tolerances' values of trial `trial` (0-based) of the study's seed: what spread draws for
+ * that trial, into vals[0 .. n_tols-1] (a study without swept values). */
+void study_trial_values(ss_study *s, long trial, double *vals)
+{
+    link_instance_tols(s);
+    long keep = s->trials;
+    if (s->trials <= trial)
+        s->trials = trial + 1;
+    point_values(s, trial, vals);
+    s->trials = keep;
+}
+
+int study_n_tols(const ss_study *s) { return s->n_tols; }
+
+const char *study_tol_name(const ss_study *s, int t) { return s->tols[t].name; }
+
+double study_tol_nominal(const ss_study *s, int t) { return s->tols[t].nominal; }
+
 /* One point on the context sv: every value back to the nominal (the netlist with the study's
  * --set values), then the swept and sampled values set by name -- a sampled value replaces a
  * --set one of the same name, as the tolerance spreads around it -- and the figures solved. */

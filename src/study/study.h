@@ -131,6 +131,14 @@ SS_HIDDEN ss_status limits_parse_line(ss_limits *l, const char *text, const char
  * shard's point range [first, end) of total. (runner.c; shards.c hashes it.) */
 SS_HIDDEN ss_status study_identity(const ss_study *s, ss_strbuf *text, long *first, long *end,
                                    long *total, ss_error *err);
+/* Tolerance trials drawn for another search (src/design/search.c's yield): the values of
+ * every tolerance in trial `trial` (0-based) of the seed set with ss_study_set_trials -- the
+ * very draws spread makes for that trial -- into vals[0 .. study_n_tols-1]; the study has no
+ * swept values. The tolerances' names (lower case; "temp") and nominal values. */
+SS_HIDDEN void study_trial_values(ss_study *s, long trial, double *vals);
+SS_HIDDEN int study_n_tols(const ss_study *s);
+SS_HIDDEN const char *study_tol_name(const ss_study *s, int t);
+SS_HIDDEN double study_tol_nominal(const ss_study *s, int t);
 /* The first figure column of a study's points table (right after `status`); -1 when none. */
 SS_HIDDEN int study_first_figure_col(const ss_table *pts);
 SS_HIDDEN const ss_circuit *study_nominal(const ss_study *s);

@@ -418,7 +418,7 @@ case("help of an unknown command", 2, "stagesim: unknown command 'solve'", ["hel
      usage=True)
 case("--help as the value of -o is a folder name", 2, "stagesim: run needs a NETLIST",
      ["run", "-o", "--help"], usage=True)
-case("option of another command", 2, "stagesim: --tol belongs to spread and sensitivity, not "
+case("option of another command", 2, "stagesim: --tol belongs to spread, sensitivity and refine, not "
      "sweep", SWEEP + ["rtop=list:1k", "--tol", "r1=5%"], usage=True)
 
 # ---- runner ----------------------------------------------------------------------------------
@@ -499,6 +499,11 @@ SAMPLE = {"-o": ["{T}/o2"], "--out-dir": ["{T}/o3"], "--set": ["r2=12k"],
           "--swing": ["1"], "--gain": ["5"], "--zin": ["10k"], "--source": ["600"],
           "--f-low": ["10"], "--f-high": ["50k"], "--cap-series": ["E6"],
           "--match": ["r1,r2=0.5", "--tol", "r1=5%"], "--keep": ["r1"]}
+# Where a command needs more beside an option than the others do: refine's trials, seed and
+# target need tolerances.
+SAMPLE_FOR = {("refine", "--trials"): ["4", "--tol", "r1=5%"],
+              ("refine", "--seed"): ["7", "--tol", "r1=5%"],
+              ("refine", "--min-yield"): ["0.5", "--tol", "r1=5%"]}
 BASE = {"run": ["run", "{T}/s.cir", "-o", "{T}/out"],
         "check": ["check", "{T}/s.cir"],
         "sweep": ["sweep", "{T}/s.cir", "-o", "{T}/out", "--vary", "rtop=list:1k,2k"],
@@ -535,7 +540,8 @@ def option_checks(binary, report):
                 elif n in base or any(a in base for a in names):
                     extra = []  # the base command line already uses it
                 else:
-                    extra = [n] + (SAMPLE[names[0]] if takes else [])
+                    extra = [n] + (SAMPLE_FOR.get((c, names[0]), SAMPLE[names[0]])
+                                   if takes else [])
                 rc, out, err = run_in(binary, base + extra, tmp, {})
                 if n in listed:
                     bad = [ln for ln in err.splitlines()

@@ -200,7 +200,7 @@ bad = [
     (["--max-candidates", "5"], "--max-candidates"),
     (["--threads", "0"], "--threads"),
     (["--frobnicate"], "--frobnicate"),
-    (["--tol", "R1=5%"], "--tol"),
+    (["--tol", "nosuch=5%"], "--tol"),
     (["--series", "E24"], "--series"),
 ]
 for args, named in bad:
