@@ -158,7 +158,8 @@ static void print_report(const ss_refine *r, const ss_table *design, const ss_ta
     ss_refine_stats s;
     ss_refine_get_stats(r, &s);
     double per_s = s.seconds > 0 ? s.candidates / s.seconds : 0.0;
-    printf("refine: %d free values, %d limits, %d corners\n", s.n_free, s.n_limits, s.n_corners);
+    printf("refine: %d free value%s, %d limit%s, %d corner%s\n", s.n_free, s.n_free == 1 ? "" : "s",
+           s.n_limits, s.n_limits == 1 ? "" : "s", s.n_corners, s.n_corners == 1 ? "" : "s");
     printf("searched %ld candidates (%ld circuits solved, %ld without an operating point) in "
            "%.2f s on %d threads:\n  %.0f candidates/s, %.0f circuits/s, %.0f circuits/s per "
            "thread\n",
