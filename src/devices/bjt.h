@@ -38,9 +38,11 @@ static inline double bjt_polarity(const element *e) { return e->mod->type == BJT
 /* the substrate node (0: ground, also when the line names none) */
 static inline int bjt_substrate(const element *e) { return e->n_node > 3 ? e->node[3] : 0; }
 
-/* What the card (not a context's values) makes of the structure, as it decides the internal
- * nodes: the base resistance varies when RBM is given and differs from RB (and RB > 0 made
- * b'); part of CJC sits at the external base when XCJC < 1 with CJC and b'. */
+/* What the model values make of the structure (with the internal nodes, they decide the
+ * matrix entries bjt_claim makes; a context whose values change them prepares again, as for a
+ * series resistance set to or from zero): the base resistance varies when RBM is given and
+ * differs from RB (and RB > 0 made b'); part of CJC sits at the external base when XCJC < 1
+ * with CJC and b'; CJS > 0 adds the collector-substrate pair. */
 static inline int bjt_rb_varies(const element *e)
 {
     const double *mp = e->mod->p;

@@ -71,8 +71,9 @@ void bjt_load_ac(const element *e, dev_ac_ctx *ac)
     bjt_eval_out o;
     bjt_eval(tp, ac->vt_v, ac->gmin_s, vbe, vbc, &o);
 
-    /* capacitances: depletion with the FC extension, diffusion dQf/dVbe (and the cross term
-     * dQf/dVbc when XTF makes TF depend on the bias) and TR dIR/dVbc */
+    /* capacitances: depletion with the FC extension, diffusion dQf/dVbe, the cross term
+     * dQf/dVbc (Qf depends on Vbc through qb and through VTF: the transient's charge,
+     * linearised) and TR dIR/dVbc */
     double cbe = junction_depletion_cap(vbe, tp[BP_CJE], tp[BP_VJE], tp[BP_MJE], tp[BP_FC]);
     double cbc = junction_depletion_cap(vbc, cjc_internal(e), tp[BP_VJC], tp[BP_MJC], tp[BP_FC]);
     double cx = 0.0; /* dQf/dVbc */
@@ -80,8 +81,7 @@ void bjt_load_ac(const element *e, dev_ac_ctx *ac)
         double c11, c12;
         forward_charge(tp, &o, vbc, &c11, &c12);
         cbe += c11;
-        if (tp[BP_XTF] != 0.0)
-            cx = c12;
+        cx = c12;
     }
     if (tp[BP_TR] > 0.0) {
         double gir;

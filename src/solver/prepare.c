@@ -1,6 +1,6 @@
 /* Context preparation: device setup (internal nodes, branch currents), topology checks with
  * clear names, slot claims, the sparse pattern and klu_analyze -- once per context, again only
- * when a changed model parameter adds or removes an internal node. */
+ * when a changed model parameter adds or removes an internal node or a matrix entry. */
 #include <assert.h>
 #include <stdio.h>
 #include <string.h>
@@ -158,19 +158,37 @@ static int probe_branch(void *owner)
     return 0;
 }
 
-/* 1 when an element's setup at the present values would make other internal nodes than it
- * has (a series resistance set to or from zero). */
+static int probe_claim(void *owner, int row, int col)
+{
+    (void)owner;
+    return row < 0 || col < 0 ? -1 : 0;
+}
+
+/* 1 when an element's setup or claims at the present values would make another layout than
+ * it has: other internal nodes (a series resistance set to or from zero) or other matrix
+ * entries (a model parameter that adds the entries of a term only some cards use, such as the
+ * BJT's varying base resistance, its external CJC part or its substrate capacitance). */
 static int structure_changed(const ss_solver *sv)
 {
-    dev_setup_ctx pc = {NULL, probe_node, probe_branch, NULL, 0};
+    dev_setup_ctx pc = {NULL, probe_node, probe_branch, probe_claim, 0};
+    int probe_slot[ELEM_MAX_SLOTS];
     for (int i = 0; i < sv->n_elem; i++) {
         const element *e = &sv->elem[i];
-        if (!e->ops->setup || !elem_has_model(e))
+        if (!elem_has_model(e))
             continue;
         element probe = *e;
-        e->ops->setup(&probe, &pc);
-        for (int k = 0; k < 3; k++)
-            if ((probe.inode[k] == -2) != (e->inode[k] != e->node[k]))
+        if (e->ops->setup) {
+            e->ops->setup(&probe, &pc);
+            for (int k = 0; k < 3; k++)
+                if ((probe.inode[k] == -2) != (e->inode[k] != e->node[k]))
+                    return 1;
+        }
+        /* the same internal nodes: which slots the claims fill now */
+        probe = *e;
+        probe.slot = probe_slot;
+        e->ops->claim(&probe, sv->elem, &pc);
+        for (int k = 0; k < e->n_slot; k++)
+            if ((probe_slot[k] >= 0) != (e->slot[k] >= 0))
                 return 1;
     }
     return 0;

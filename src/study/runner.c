@@ -254,7 +254,8 @@ static ss_status check_name(ss_study *s, const char *name, double *nominal, ss_e
      * point by point: refused here, once, rather than failing every point */
     ss_solver *sv = s->nominal_sv;
     ss_solver_reset_values(sv);
-    double probe = *nominal != 0.0 ? *nominal * 1.5 : 1.0;
+    /* (a card's absent parameter can be infinite: IKF, VAF, RBM, IRB ...) */
+    double probe = *nominal != 0.0 && isfinite(*nominal) ? *nominal * 1.5 : 1.0;
     ss_status st = ss_solver_set_value(sv, name, probe, &e2);
     if (st == SS_OK && solver_sync_values(sv, &e2) != SS_OK && sv->fixed_conflict)
         st = err_set(err, SS_ERR_INPUT, e2.file, e2.line, "%s: %s", name, e2.message);

@@ -34,7 +34,10 @@ beside each, their exact forms recalled from memory):
     depletion C = CJ (1 - V/VJ)^-M for V < FC VJ, else
               CJ (1 - FC)^-(1+M) (1 - FC (1+M) + M V/VJ);
     BJT Cbe = depletion(CJE, VJE, MJE) + TF d(IF/qb)/dVbe, Cbc = depletion(CJC, VJC, MJC)
-    + TR dIR/dVbc; diode Cd = depletion(CJO, VJ, M) + TT gd.
+    + TR dIR/dVbc, and the cross capacitance of the forward charge on Vbc,
+    Cx = d(TF IF/qb)/dVbc = -TF IF/qb^2 dqb/dVbc (b'-e' current per Vbc; Getreu 1976,
+    Antognetti & Massobrio 1993 ch. 2: the charge Qf = TF IF/qb differentiated);
+    diode Cd = depletion(CJO, VJ, M) + TT gd.
 Physics constants: exact 2019-SI k = 1.380649e-23 J/K, q = 1.602176634e-19 C; 0 degC =
 273.15 K; default temperature (and TNOM) 27 degC.
 
@@ -634,11 +637,20 @@ class Circuit:
                 cbe = depletion_cap(vbe, p["cje"], p["vje"], p["mje"], p["fc"])
                 cbc = depletion_cap(vbc, p["cjc"], p["vjc"], p["mjc"], p["fc"])
                 cbe += p["tf"] * dstep(lambda z: gp_currents(p, self.vt, z, vbc)[2], vbe)
+                # the forward charge TF IF/qb also depends on Vbc through qb (VAF, IKR):
+                # d(TF IF/qb)/dVbc = -TF IF/qb^2 dqb/dVbc, a b'-e' current per Vbc
+                cx = p["tf"] * dstep(lambda z: gp_currents(p, self.vt, vbe, z)[2], vbc)
                 cbc += p["tr"] * dstep(lambda z: gp_currents(p, self.vt, vbe, z)[3], vbc)
                 gm = dstep(lambda z: gp_currents(p, self.vt, z, vbc)[0], vbe)
                 self.caps[e["name"]] = dict(vbe=vbe, vbc=vbc, cbe=cbe, cbc=cbc, gm=gm)
                 cap(bi, ei, cbe)
                 cap(bi, ci, cbc)
+                for r_, sg in ((bi, 1), (ei, -1)):  # rows b', e'; columns b' (+), c' (-)
+                    if r_ >= 0:
+                        if bi >= 0:
+                            C[r_, bi] += sg * cx
+                        if ci >= 0:
+                            C[r_, ci] -= sg * cx
         return C
 
     # ---- small-signal solves ---------------------------------------------------------

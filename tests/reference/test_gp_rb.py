@@ -20,6 +20,9 @@ IRB, IKF 20 mA so qb moves), and a PNP level shifter with IRB.
 TF is left at 0 here (the diffusion charge is test_gp_charge.py's subject).
 Tolerances: operating point 1e-9 relative (tight Newton options), AC node phasors 1e-6
 relative, output noise density 1e-6 relative.
+A closed-form check needs no solver at all: a base-current-driven NPN (VAF, IKF infinite,
+ISE = ISC = 0, gmin 0) has V(b) - V(e) = Vt ln(1 + Ib BF/IS) + Ib rbb(Ib) with the rbb law
+above, Vt = kT/q with the exact SI constants; 1e-9 relative over five decades of Ib.
 """
 
 import math
@@ -220,6 +223,50 @@ def run_library_card(binary, keep):
           SRC_RB + ", AC with every charge parameter")
 
 
+# ---- closed form: V(b) - V(e) of a base-current-driven NPN -------------------------------
+# Constants: the exact 2019 SI values k = 1.380649e-23 J/K and q = 1.602176634e-19 C (CODATA
+# 2018), 0 C = 273.15 K, the same numbers the C uses (src/util/util.h).
+K_B, Q_E, ZERO_C = 1.380649e-23, 1.602176634e-19, 273.15
+SRC_CLOSED = ("closed form: Vbe = Vt ln(1 + Ib BF/IS) (Gummel-Poon with VAF, IKF infinite and "
+              "ISE = 0; Gummel & Poon 1970) + Ib rbb(Ib), the SPICE2 Gummel-Poon base "
+              "resistance law as given by Antognetti & Massobrio 1993")
+
+
+def rbb_closed(ib, rb, rbm, irb):
+    """rbb = RBM + 3 (RB - RBM)(tan z - z)/(z tan^2 z), z as published (written out here, not
+    the C's rearranged form)."""
+    z = (-1.0 + math.sqrt(1.0 + 144.0 * ib / (math.pi ** 2 * irb))) / (
+        (24.0 / math.pi ** 2) * math.sqrt(ib / irb))
+    return rbm + 3.0 * (rb - rbm) * (math.tan(z) - z) / (z * math.tan(z) ** 2)
+
+
+def run_closed_form(binary, keep):
+    """A current source drives Ib into the base, the emitter is grounded and the collector held
+    at 5 V. With VAF and IKF not given (infinite), ISE = ISC = 0 and gmin 0, IB = IF/BF + IR/BR;
+    the collector junction is reverse-biased, so IR = -IS and IR/BR shifts IF by IS BF/BR,
+    below 1e-9 of BF Ib here (IS/(BR Ib) <= 1e-9 with IS 1e-16, BR 1, Ib >= 0.1 uA): its effect
+    on V(b) is under Vt 1e-9, some 5e-11 relative. Ib over five decades, with the base
+    resistance from near RB to near RBM."""
+    card = dict(IS=1e-16, BF=120, RB=250, RBM=15, IRB=40e-6, BR=1)
+    temp_c = 27.0
+    vt = K_B * (temp_c + ZERO_C) / Q_E
+    for ib in (1e-7, 1e-6, 1e-5, 1e-4, 1e-3, 1e-2):
+        text = "\n".join([
+            "bridge sensor bias transistor, base current %g A" % ib,
+            card_text("qx", "NPN", card),
+            "VC c 0 DC 5",
+            "IB 0 b DC %.17g" % ib,
+            "Q1 c b 0 qx",
+            ".op",
+            TIGHT + " gmin=0", ".end", ""])
+        out = gpref.run(binary, "closed_%g" % ib, text, keep)
+        got = gpref.read_op(out)["v(b)"]
+        rbb = rbb_closed(ib, card["RB"], card["RBM"], card["IRB"])
+        want = vt * math.log(1.0 + ib * card["BF"] / card["IS"]) + ib * rbb
+        check("closed form V(b) at Ib = %g A (rbb %.6g ohm)" % (ib, rbb), got, want, 1e-9,
+              0.0, SRC_CLOSED)
+
+
 def main():
     if len(sys.argv) < 2:
         print("usage: test_gp_rb.py STAGESIM")
@@ -234,6 +281,7 @@ def main():
         run_ce(binary, keep, "qb form", qb_card)
         run_pnp(binary, keep)
         run_library_card(binary, keep)
+        run_closed_form(binary, keep)
     finally:
         for d in keep:
             shutil.rmtree(d, ignore_errors=True)

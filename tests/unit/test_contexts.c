@@ -247,6 +247,86 @@ typedef struct job {
 } job;
 
 /* One context, fifty solves alternating between two values: what a study's thread does. */
+/* A common-emitter stage whose card lacks the parameters that add matrix entries (RBM, XCJC,
+ * CJS) or internal nodes (RB): a context that sets them must give, at every frequency, the
+ * bits of a fresh parse with the values written into the card (the layout of the matrix follows
+ * the values, not the card it started from). "%s" is what the card gets appended. */
+static const char *CE_FMT = "line receiver\n"
+                            "vcc vcc 0 12\nvs src 0 dc 0 ac 1\nrs src b 600\n"
+                            "r1 vcc b 100k\nr2 b 0 22k\nrc vcc c 4.7k\nre e 0 1k\n"
+                            "ce e 0 100u\nq1 c b e qn\n"
+                            ".model qn npn is=5e-15 bf=180 vaf=90 ikf=0.08 rb=%s re=0.4 rc=2 "
+                            "cje=8p mje=0.35 cjc=3p tf=0.35n tr=30n%s\n"
+                            ".ac dec 2 1k 100meg\n";
+
+static ss_table *ce_ac(ss_solver *sv)
+{
+    ss_table *ac = NULL;
+    ss_error err = {0};
+    if (ss_ac_sweep_run(sv, &ac, &err) != SS_OK) {
+        print_error("ac failed: %s\n", err.message);
+        fail();
+    }
+    return ac;
+}
+
+static void ce_compare(ss_solver *sv, const char *rb, const char *extra)
+{
+    char text[1024];
+    snprintf(text, sizeof text, CE_FMT, rb, extra);
+    ss_circuit *ckt = ss_test_parse(text);
+    ss_solver *fresh = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_solver_create(ckt, &fresh, &err), SS_OK);
+    ss_table *a = ce_ac(sv), *b = ce_ac(fresh);
+    int col = ss_table_col_index(a, "vm(c)");
+    assert_true(col >= 0 && ss_table_rows(a) == ss_table_rows(b));
+    for (int r = 0; r < ss_table_rows(a); r++)
+        assert_same_bits(ss_table_get(a, r, col), ss_table_get(b, r, col));
+    ss_table_destroy(&a);
+    ss_table_destroy(&b);
+    ss_solver_destroy(&fresh);
+    ss_circuit_destroy(&ckt);
+}
+
+static void test_values_that_change_the_layout(void **state)
+{
+    (void)state;
+    char text[1024];
+    snprintf(text, sizeof text, CE_FMT, "60", "");
+    ss_circuit *ckt = ss_test_parse(text);
+    ss_solver *sv = NULL;
+    ss_error err = {0};
+    assert_int_equal(ss_solver_create(ckt, &sv, &err), SS_OK);
+    ce_compare(sv, "60", "");
+    /* each on its own, after a solve at the card's values; then back to the card */
+    static const struct {
+        const char *name, *text;
+        double v;
+    } one[] = {{"qn.cjs", " cjs=20p", 20e-12},  {"q1.cjs", " cjs=20p", 20e-12},
+               {"qn.xcjc", " xcjc=0.3", 0.3},   {"q1.xcjc", " xcjc=0.3", 0.3},
+               {"qn.rbm", " rbm=5", 5.0},       {"q1.rbm", " rbm=5", 5.0}};
+    for (size_t k = 0; k < sizeof one / sizeof one[0]; k++) {
+        assert_int_equal(ss_solver_set_value(sv, one[k].name, one[k].v, &err), SS_OK);
+        ce_compare(sv, "60", one[k].text);
+        ss_solver_reset_values(sv);
+        ce_compare(sv, "60", "");
+    }
+    /* together, with IRB; then RB equal to RBM (a constant base resistance again) */
+    assert_int_equal(ss_solver_set_value(sv, "qn.rbm", 5.0, &err), SS_OK);
+    assert_int_equal(ss_solver_set_value(sv, "qn.irb", 2e-4, &err), SS_OK);
+    assert_int_equal(ss_solver_set_value(sv, "qn.xcjc", 0.3, &err), SS_OK);
+    assert_int_equal(ss_solver_set_value(sv, "qn.cjs", 20e-12, &err), SS_OK);
+    ce_compare(sv, "60", " rbm=5 irb=0.2m xcjc=0.3 cjs=20p");
+    assert_int_equal(ss_solver_set_value(sv, "qn.rb", 5.0, &err), SS_OK);
+    ce_compare(sv, "5", " rbm=5 irb=0.2m xcjc=0.3 cjs=20p");
+    /* RB to zero: no b', so no external CJC part and no varying base resistance */
+    assert_int_equal(ss_solver_set_value(sv, "qn.rb", 0.0, &err), SS_OK);
+    ce_compare(sv, "0", " rbm=5 irb=0.2m xcjc=0.3 cjs=20p");
+    ss_solver_destroy(&sv);
+    ss_circuit_destroy(&ckt);
+}
+
 static void *run_job(void *arg)
 {
     job *j = arg;
@@ -317,6 +397,7 @@ int main(void)
         cmocka_unit_test(test_instance_model_parameter),
         cmocka_unit_test(test_fixed_settings_refused),
         cmocka_unit_test(test_stage_load_follows_its_param),
+        cmocka_unit_test(test_values_that_change_the_layout),
         cmocka_unit_test(test_two_contexts_two_threads),
         cmocka_unit_test(test_temperature_per_context),
     };
