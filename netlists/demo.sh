@@ -8,4 +8,4 @@ cmake -S . -B build -DCMAKE_BUILD_TYPE=RelWithDebInfo >/dev/null
 cmake --build build -j"$(nproc 2>/dev/null || echo 2)" >/dev/null
 ./build/stagesim run netlists/vibration_frontend.cir -o out/demo --plot
 echo
-echo "results in out/demo/: op.csv ac.csv stage.csv stage_summary.csv bode.svg noise*.csv large_signal.csv harmonics.csv thd_wave.svg"
+echo "results in out/demo/: op.csv ac.csv stage.csv stage_summary.csv bode.svg noise*.csv noise.svg large_signal.csv harmonics.csv thd_wave.svg"
