@@ -50,14 +50,22 @@ int eseries_table(int series, const int **values, double *scale)
     }
 }
 
-ss_status ss_eseries_nearest(int series, double value, double *out_value, ss_error *err)
+/* The count of the series, or 0 with err set naming the series that exist. */
+static int series_count(int series, ss_error *err)
 {
     const int *tab;
     double scale;
     int n = eseries_table(series, &tab, &scale);
     if (n == 0)
-        return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "unknown series E%d (use E6, E12, E24, E48, E96 or E192)", series);
+        err_set(err, SS_ERR_INPUT, NULL, 0,
+                "unknown series E%d (use E6, E12, E24, E48, E96 or E192)", series);
+    return n;
+}
+
+ss_status ss_eseries_nearest(int series, double value, double *out_value, ss_error *err)
+{
+    if (series_count(series, err) == 0)
+        return SS_ERR_INPUT;
     long k;
     if (eseries_lattice_index(series, value, &k) != 0)
         return err_set(err, SS_ERR_INPUT, NULL, 0, "cannot snap %g to a preferred value", value);
@@ -120,11 +128,8 @@ int eseries_lattice_index(int series, double value, long *out_k)
 
 ss_status ss_eseries_index(int series, double value, long *out_index, ss_error *err)
 {
-    const int *tab;
-    double scale;
-    if (eseries_table(series, &tab, &scale) == 0)
-        return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "unknown series E%d (use E6, E12, E24, E48, E96 or E192)", series);
+    if (series_count(series, err) == 0)
+        return SS_ERR_INPUT;
     if (eseries_lattice_index(series, value, out_index) != 0)
         return err_set(err, SS_ERR_INPUT, NULL, 0, "%g has no preferred value", value);
     return SS_OK;
@@ -132,12 +137,9 @@ ss_status ss_eseries_index(int series, double value, long *out_index, ss_error *
 
 ss_status ss_eseries_value(int series, long index, double *out_value, ss_error *err)
 {
-    const int *tab;
-    double scale;
-    int n = eseries_table(series, &tab, &scale);
+    int n = series_count(series, err);
     if (n == 0)
-        return err_set(err, SS_ERR_INPUT, NULL, 0,
-                       "unknown series E%d (use E6, E12, E24, E48, E96 or E192)", series);
+        return SS_ERR_INPUT;
     /* 1e-30 .. 1e30 covers every component value a netlist can mean */
     if (index < -30L * n || index > 30L * n)
         return err_set(err, SS_ERR_INPUT, NULL, 0,
