@@ -254,6 +254,9 @@ int model_range_check(const model *m, char *msg, size_t msg_len)
             snprintf(msg, msg_len, "model '%s': %s must be positive, got %g", m->name, n, v);
         else if (!isfinite(pd->max) && pd->min == 0.0)
             snprintf(msg, msg_len, "model '%s': %s must not be negative, got %g", m->name, n, v);
+        else if (pd->min == pd->max) /* a switch with one supported setting: LEVEL=1 */
+            snprintf(msg, msg_len, "model '%s': %s %g is not supported (only %s=%g is)", m->name,
+                     n, v, n, pd->min);
         else
             snprintf(msg, msg_len, "model '%s': %s must be in %c%g, %g%c, got %g", m->name, n,
                      pd->flags & DMP_MIN_OPEN ? '(' : '[', pd->min, pd->max,

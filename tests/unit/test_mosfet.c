@@ -236,7 +236,7 @@ static void test_card_checks(void **state)
 {
     (void)state;
     expect_error("t\n.model nm nmos level=2\nm1 d g 0 0 nm\nvd d 0 1\n",
-                 "test.cir:2: model 'nm': level must be in [1, 1], got 2");
+                 "test.cir:2: model 'nm': level 2 is not supported (only level=1 is)");
     expect_error("t\n.model nm nmos kp=0\nm1 d g 0 0 nm\nvd d 0 1\n",
                  "test.cir:2: model 'nm': kp must be positive, got 0");
     expect_error("t\n.model nm nmos phi=-0.6\nm1 d g 0 0 nm\nvd d 0 1\n",
