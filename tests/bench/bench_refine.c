@@ -33,35 +33,11 @@
 #include "klu_count.h"
 
 
-/* The calls `per` counted over `candidates` candidates, replayed candidate by candidate: every factorization
- * (fresh or not) as a refactor, every solve on a fresh right-hand side. */
+/* The calls `per` counted over `of` candidates, replayed for `candidates` candidates. */
 static void bare_candidates(bare_mats *bm, const klu_counts *per, long candidates, long of)
 {
-    int n = bm->n;
-    size_t rb = (size_t)n * sizeof *bm->b, zb = 2 * rb;
-    for (long t = 0; t < candidates; t++) {
-        long ref = share(per->factor + per->refactor, t % of, of);
-        long sol = share(per->solve, t % of, of);
-        long zref = share(per->z_factor + per->z_refactor, t % of, of);
-        long zsol = share(per->z_solve, t % of, of);
-        long ztsol = share(per->z_tsolve, t % of, of);
-        for (long k = 0; k < ref; k++)
-            libklu.refactor(bm->Ap, bm->Ai, bm->Ax, bm->sym, bm->num, &bm->c);
-        for (long k = 0; k < sol; k++) {
-            memcpy(bm->b, bm->b0, rb);
-            libklu.solve(bm->sym, bm->num, n, 1, bm->b, &bm->c);
-        }
-        for (long k = 0; k < zref; k++)
-            libklu.z_refactor(bm->Ap, bm->Ai, bm->Az, bm->sym, bm->znum, &bm->c);
-        for (long k = 0; k < zsol; k++) {
-            memcpy(bm->b, bm->b0, zb);
-            libklu.z_solve(bm->sym, bm->znum, n, 1, bm->b, &bm->c);
-        }
-        for (long k = 0; k < ztsol; k++) {
-            memcpy(bm->b, bm->b0, zb);
-            libklu.z_tsolve(bm->sym, bm->znum, n, 1, bm->b, 0, &bm->c);
-        }
-    }
+    for (long t = 0; t < candidates; t++)
+        bare_replay(bm, per, t % of, of);
 }
 
 

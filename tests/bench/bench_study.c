@@ -180,35 +180,11 @@ static void run_trials(trial_ctx *tc, long trials)
 /* ---- the same trial's KLU calls, bare ----------------------------------------------------- */
 
 
-/* The calls `per` counted over `trials` trials, replayed trial by trial: every factorization
- * (fresh or not) as a refactor, every solve on a fresh right-hand side. */
+/* The calls `per` counted over `trials` trials, replayed trial by trial. */
 static void bare_trials(bare_mats *bm, const klu_counts *per, long trials)
 {
-    int n = bm->n;
-    size_t rb = (size_t)n * sizeof *bm->b, zb = 2 * rb;
-    for (long t = 0; t < trials; t++) {
-        long ref = share(per->factor + per->refactor, t, trials);
-        long sol = share(per->solve, t, trials);
-        long zref = share(per->z_factor + per->z_refactor, t, trials);
-        long zsol = share(per->z_solve, t, trials);
-        long ztsol = share(per->z_tsolve, t, trials);
-        for (long k = 0; k < ref; k++)
-            libklu.refactor(bm->Ap, bm->Ai, bm->Ax, bm->sym, bm->num, &bm->c);
-        for (long k = 0; k < sol; k++) {
-            memcpy(bm->b, bm->b0, rb);
-            libklu.solve(bm->sym, bm->num, n, 1, bm->b, &bm->c);
-        }
-        for (long k = 0; k < zref; k++)
-            libklu.z_refactor(bm->Ap, bm->Ai, bm->Az, bm->sym, bm->znum, &bm->c);
-        for (long k = 0; k < zsol; k++) {
-            memcpy(bm->b, bm->b0, zb);
-            libklu.z_solve(bm->sym, bm->znum, n, 1, bm->b, &bm->c);
-        }
-        for (long k = 0; k < ztsol; k++) {
-            memcpy(bm->b, bm->b0, zb);
-            libklu.z_tsolve(bm->sym, bm->znum, n, 1, bm->b, 0, &bm->c);
-        }
-    }
+    for (long t = 0; t < trials; t++)
+        bare_replay(bm, per, t, trials);
 }
 
 /* ---- the whole study, one thread ---------------------------------------------------------- */

@@ -180,4 +180,33 @@ static long share(long total, long t, long n)
     return total * (t + 1) / n - total * t / n;
 }
 
+/* Repetition t of n_rep of the calls `per` counted over n_rep repetitions, replayed bare:
+ * every factorization (fresh or not) as a refactor, every solve on a fresh right-hand side. */
+static void bare_replay(bare_mats *bm, const klu_counts *per, long t, long n_rep)
+{
+    int n = bm->n;
+    size_t rb = (size_t)n * sizeof *bm->b, zb = 2 * rb;
+    long ref = share(per->factor + per->refactor, t, n_rep);
+    long sol = share(per->solve, t, n_rep);
+    long zref = share(per->z_factor + per->z_refactor, t, n_rep);
+    long zsol = share(per->z_solve, t, n_rep);
+    long ztsol = share(per->z_tsolve, t, n_rep);
+    for (long k = 0; k < ref; k++)
+        libklu.refactor(bm->Ap, bm->Ai, bm->Ax, bm->sym, bm->num, &bm->c);
+    for (long k = 0; k < sol; k++) {
+        memcpy(bm->b, bm->b0, rb);
+        libklu.solve(bm->sym, bm->num, n, 1, bm->b, &bm->c);
+    }
+    for (long k = 0; k < zref; k++)
+        libklu.z_refactor(bm->Ap, bm->Ai, bm->Az, bm->sym, bm->znum, &bm->c);
+    for (long k = 0; k < zsol; k++) {
+        memcpy(bm->b, bm->b0, zb);
+        libklu.z_solve(bm->sym, bm->znum, n, 1, bm->b, &bm->c);
+    }
+    for (long k = 0; k < ztsol; k++) {
+        memcpy(bm->b, bm->b0, zb);
+        libklu.z_tsolve(bm->sym, bm->znum, n, 1, bm->b, 0, &bm->c);
+    }
+}
+
 #endif
